@@ -1,0 +1,113 @@
+//! What the commands share: reading files with errors that name them, parsing unit
+//! arguments, and writing to standard output.
+
+use std::fs::File;
+use std::io::{self, BufWriter, Write};
+use std::path::Path;
+
+use pim_core::freq::{parse_frequency_with_unit, parse_khz, Hz};
+use pim_core::Error;
+
+/// An error on its way to the user, or a closed pipe (not an error: the reader left).
+#[derive(Debug)]
+pub enum CliError {
+    Core(Error),
+    BrokenPipe,
+}
+
+impl From<Error> for CliError {
+    fn from(e: Error) -> Self {
+        CliError::Core(e)
+    }
+}
+
+impl From<io::Error> for CliError {
+    fn from(e: io::Error) -> Self {
+        if e.kind() == io::ErrorKind::BrokenPipe {
+            CliError::BrokenPipe
+        } else {
+            CliError::Core(Error::io("standard output", &e))
+        }
+    }
+}
+
+pub type CliResult<T = ()> = Result<T, CliError>;
+
+/// Opens a file for reading; a failure names the path.
+pub fn open(path: &Path) -> Result<File, Error> {
+    File::open(path).map_err(|e| Error::io(path.display().to_string(), &e))
+}
+
+/// Standard output, buffered.
+pub fn stdout() -> BufWriter<io::StdoutLock<'static>> {
+    BufWriter::new(io::stdout().lock())
+}
+
+/// Flushes the output; a closed pipe ends quietly.
+pub fn finish(mut out: impl Write) -> CliResult {
+    out.flush()?;
+    Ok(())
+}
+
+/// clap parser for a frequency with an optional unit (bare numbers are MHz).
+pub fn frequency_arg(text: &str) -> Result<Hz, String> {
+    let f = parse_frequency_with_unit(text).map_err(|e| e.to_string())?;
+    if f.0 <= 0 {
+        return Err(format!("frequency {text} must be above zero"));
+    }
+    if f > pim_core::freq::MAX_FREQUENCY {
+        return Err(format!("frequency {text} is above 300 GHz"));
+    }
+    Ok(f)
+}
+
+/// clap parser for a width in kHz, zero or more, exact to the hertz.
+pub fn khz_arg(text: &str) -> Result<Hz, String> {
+    let w = parse_khz(text).map_err(|e| e.to_string())?;
+    if w.0 < 0 {
+        return Err(format!("{text} kHz is negative"));
+    }
+    if w > pim_core::freq::MAX_FREQUENCY {
+        return Err(format!("{text} kHz is absurd"));
+    }
+    Ok(w)
+}
+
+/// clap parser for a latitude in degrees.
+pub fn lat_arg(text: &str) -> Result<f64, String> {
+    let v: f64 = text
+        .parse()
+        .map_err(|_| format!("`{text}` is not a number"))?;
+    if !v.is_finite() || !(-90.0..=90.0).contains(&v) {
+        return Err(format!("latitude {text} is outside −90…90"));
+    }
+    Ok(v)
+}
+
+/// clap parser for a longitude in degrees.
+pub fn lon_arg(text: &str) -> Result<f64, String> {
+    let v: f64 = text
+        .parse()
+        .map_err(|_| format!("`{text}` is not a number"))?;
+    if !v.is_finite() || !(-180.0..=180.0).contains(&v) {
+        return Err(format!("longitude {text} is outside −180…180"));
+    }
+    Ok(v)
+}
+
+/// clap parser for a finite number.
+pub fn finite_arg(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        _ => Err(format!("`{text}` is not a finite number")),
+    }
+}
+
+/// Output formats shared by the listing commands.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum ListFormat {
+    Table,
+    Json,
+    Csv,
+    Markdown,
+}

@@ -1,0 +1,76 @@
+//! `pim`: find the source of passive intermodulation.
+//!
+//! A thin binary over pim-core: parse the arguments, call the library, render the answer.
+//! One file per command; errors are shown once, here, and mapped to exit codes.
+
+use std::io::Write;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+mod common;
+mod demo;
+mod explain;
+mod render;
+mod study;
+
+use common::CliError;
+
+/// Find the source of passive intermodulation: explain a mystery carrier, fix the
+/// junction from bearings, write the ticket.
+#[derive(Parser)]
+#[command(name = "pim", version, about, long_about = None, arg_required_else_help = true)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Which emitter combinations make a carrier heard on a receive channel.
+    Explain(explain::Args),
+    /// Every product that lands on each receiver of a site.
+    Study(study::Args),
+    /// Run the job on the built-in invented demo site.
+    Demo(demo::Args),
+}
+
+/// Exit codes: 0 success, 2 bad arguments, 3 bad input file, 4 file not readable or
+/// writable, 5 inputs valid but no answer possible, 70 internal failure.
+fn exit_code(err: &CliError) -> u8 {
+    use pim_core::ErrorClass;
+    match err {
+        CliError::Core(e) => match e.class {
+            ErrorClass::Argument => 2,
+            ErrorClass::Input => 3,
+            ErrorClass::Io => 4,
+            ErrorClass::Refused => 5,
+        },
+        CliError::BrokenPipe => 0,
+    }
+}
+
+fn main() -> ExitCode {
+    std::panic::set_hook(Box::new(|info| {
+        let _ = writeln!(
+            std::io::stderr(),
+            "pim: internal failure, please report it with the command and files used: {info}"
+        );
+        std::process::exit(70);
+    }));
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Explain(args) => explain::run(args),
+        Command::Study(args) => study::run(args),
+        Command::Demo(args) => demo::run(args),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(err) => {
+            if let CliError::Core(e) = &err {
+                let _ = writeln!(std::io::stderr(), "pim: {e}");
+            }
+            ExitCode::from(exit_code(&err))
+        }
+    }
+}

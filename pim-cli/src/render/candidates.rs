@@ -1,0 +1,312 @@
+//! Ranked candidates as a terminal table, JSON, CSV or Markdown. Shared by `explain`,
+//! `study` and the ticket.
+
+use std::io::Write;
+
+use pim_core::emitter::Emitter;
+use pim_core::intermod::SearchParams;
+use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
+use serde::Serialize;
+
+use super::text_table::{Align, TextTable};
+use crate::common::CliResult;
+
+/// Everything a listing of candidates draws on.
+pub struct Listing<'a> {
+    pub emitters: &'a [Emitter],
+    pub params: &'a SearchParams,
+    pub ranking: &'a Ranking,
+    pub co_channel: &'a [usize],
+}
+
+/// Rounds to two decimals for output.
+pub fn r2(x: f64) -> f64 {
+    (x * 100.0).round() / 100.0
+}
+
+#[derive(Serialize)]
+struct TermJson<'a> {
+    emitter: &'a str,
+    coefficient: i32,
+    freq_mhz: f64,
+    kind: Option<&'a str>,
+    owner: Option<&'a str>,
+    incident_dbm: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct CandidateJson<'a> {
+    rank: usize,
+    order: u32,
+    formula: String,
+    terms: Vec<TermJson<'a>>,
+    product_mhz: f64,
+    offset_khz: f64,
+    bandwidth_khz: f64,
+    predicted_level_dbm: Option<f64>,
+    level_terms: Option<LevelTerms>,
+}
+
+fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
+    let terms = display_terms(&c.product, l.emitters)
+        .into_iter()
+        .map(|t| {
+            let e = &l.emitters[t.emitter];
+            TermJson {
+                emitter: &e.id,
+                coefficient: t.coefficient,
+                freq_mhz: e.freq.mhz(),
+                kind: e.kind.as_deref(),
+                owner: e.owner.as_deref(),
+                incident_dbm: l.ranking.incidence[t.emitter].map(|i| r2(i.incident_dbm)),
+            }
+        })
+        .collect();
+    CandidateJson {
+        rank: c.rank,
+        order: c.product.order(),
+        formula: formula(&c.product, l.emitters),
+        terms,
+        product_mhz: c.product.freq.mhz(),
+        offset_khz: c.product.offset(l.params.target).khz(),
+        bandwidth_khz: c.product.bandwidth(&carriers(l.emitters)).khz(),
+        predicted_level_dbm: c.level_dbm.map(r2),
+        level_terms: l.ranking.level_terms(&c.product).map(|t| LevelTerms {
+            power_sum_db: r2(t.power_sum_db),
+            conversion_db: r2(t.conversion_db),
+            level_dbm: r2(t.level_dbm),
+        }),
+    }
+}
+
+fn carriers(emitters: &[Emitter]) -> Vec<pim_core::emitter::Carrier> {
+    emitters.iter().map(|e| e.carrier()).collect()
+}
+
+#[derive(Serialize)]
+struct CoChannelJson<'a> {
+    emitter: &'a str,
+    freq_mhz: f64,
+    offset_khz: f64,
+}
+
+/// The co-channel emitters as JSON values.
+pub fn co_channel_json(l: &Listing) -> serde_json::Value {
+    let list: Vec<CoChannelJson> = l
+        .co_channel
+        .iter()
+        .map(|&i| {
+            let e = &l.emitters[i];
+            CoChannelJson {
+                emitter: &e.id,
+                freq_mhz: e.freq.mhz(),
+                offset_khz: (e.freq - l.params.target).khz(),
+            }
+        })
+        .collect();
+    serde_json::to_value(list).unwrap_or_default()
+}
+
+/// Writes the candidates as a JSON array, one element at a time (no second copy of the
+/// results is built).
+pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) -> CliResult {
+    out.write_all(b"[")?;
+    let shown = l
+        .ranking
+        .candidates
+        .iter()
+        .take(limit.unwrap_or(usize::MAX));
+    for (i, c) in shown.enumerate() {
+        out.write_all(if i == 0 { b"\n    " } else { b",\n    " })?;
+        serde_json::to_writer(&mut *out, &candidate_json(l, c)).map_err(std::io::Error::from)?;
+    }
+    out.write_all(b"\n  ]")?;
+    Ok(())
+}
+
+/// The header of the CSV listing.
+pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,predicted_level_dbm,power_sum_db,conversion_db,terms,kinds,owners";
+
+fn csv_field(text: &str) -> String {
+    if text.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", text.replace('"', "\"\""))
+    } else {
+        text.to_string()
+    }
+}
+
+/// Writes candidates as CSV rows (with the header when `header`); `prefix` fields are
+/// put in front of each row (the receiver of a study).
+pub fn write_csv(
+    out: &mut dyn Write,
+    l: &Listing,
+    limit: Option<usize>,
+    prefix: Option<(&str, &str)>,
+    header: bool,
+) -> CliResult {
+    if header {
+        match prefix {
+            Some((name, _)) => writeln!(out, "{name},{CSV_HEADER}")?,
+            None => writeln!(out, "{CSV_HEADER}")?,
+        }
+    }
+    let carriers = carriers(l.emitters);
+    for c in l
+        .ranking
+        .candidates
+        .iter()
+        .take(limit.unwrap_or(usize::MAX))
+    {
+        let terms = display_terms(&c.product, l.emitters);
+        let join = |f: &dyn Fn(&Emitter) -> String| {
+            terms
+                .iter()
+                .map(|t| f(&l.emitters[t.emitter]))
+                .collect::<Vec<_>>()
+                .join(";")
+        };
+        let lt = l.ranking.level_terms(&c.product);
+        let fields = [
+            c.rank.to_string(),
+            formula(&c.product, l.emitters),
+            c.product.order().to_string(),
+            c.product.freq.mhz_text(),
+            c.product.offset(l.params.target).khz_text(),
+            c.product.bandwidth(&carriers).khz_text(),
+            c.level_dbm.map(|v| format!("{v:.2}")).unwrap_or_default(),
+            lt.as_ref()
+                .map(|t| format!("{:.2}", t.power_sum_db))
+                .unwrap_or_default(),
+            lt.as_ref()
+                .map(|t| format!("{:.2}", t.conversion_db))
+                .unwrap_or_default(),
+            terms
+                .iter()
+                .map(|t| format!("{}:{}", l.emitters[t.emitter].id, t.coefficient))
+                .collect::<Vec<_>>()
+                .join(";"),
+            join(&|e| e.kind.clone().unwrap_or_default()),
+            join(&|e| e.owner.clone().unwrap_or_default()),
+        ];
+        if let Some((_, value)) = prefix {
+            write!(out, "{},", csv_field(value))?;
+        }
+        let row: Vec<String> = fields.iter().map(|f| csv_field(f)).collect();
+        writeln!(out, "{}", row.join(","))?;
+    }
+    Ok(())
+}
+
+fn signed(x: f64, decimals: usize) -> String {
+    format!("{x:+.decimals$}")
+}
+
+fn level_text(x: Option<f64>) -> String {
+    x.map(|v| format!("{v:.1}"))
+        .unwrap_or_else(|| "—".to_string())
+}
+
+/// The ranked candidates as an aligned terminal table, followed by the incident power
+/// of each emitter that appears in it.
+pub fn table_text(l: &Listing, limit: usize) -> String {
+    let mut t = TextTable::new(&[
+        ("#", Align::Right),
+        ("product", Align::Left),
+        ("order", Align::Right),
+        ("at MHz", Align::Right),
+        ("offset kHz", Align::Right),
+        ("width kHz", Align::Right),
+        ("level dBm", Align::Right),
+        ("Σ|k|·P dB", Align::Right),
+        ("C(n) dB", Align::Right),
+    ]);
+    let carriers = carriers(l.emitters);
+    let mut used = vec![false; l.emitters.len()];
+    for c in l.ranking.candidates.iter().take(limit) {
+        let lt = l.ranking.level_terms(&c.product);
+        for term in c.product.terms() {
+            used[term.emitter] = true;
+        }
+        t.push(vec![
+            c.rank.to_string(),
+            formula(&c.product, l.emitters),
+            c.product.order().to_string(),
+            format!("{:.4}", c.product.freq.mhz()),
+            signed(c.product.offset(l.params.target).khz(), 1),
+            format!("{:.1}", c.product.bandwidth(&carriers).khz()),
+            level_text(c.level_dbm),
+            level_text(lt.as_ref().map(|x| x.power_sum_db)),
+            level_text(lt.as_ref().map(|x| x.conversion_db)),
+        ]);
+    }
+    let mut out = String::new();
+    if t.is_empty() {
+        out.push_str("No product of these emitters lands in the channel.\n");
+        return out;
+    }
+    out.push_str(&t.render());
+    let incident: Vec<String> = used
+        .iter()
+        .enumerate()
+        .filter(|(_, u)| **u)
+        .filter_map(|(i, _)| {
+            l.ranking.incidence[i].map(|inc| {
+                format!(
+                    "  {:<12} ERP {:>6.1} dBm − path loss {:>5.1} dB over {:>6.0} m = {:>6.1} dBm",
+                    l.emitters[i].id,
+                    inc.erp_dbm,
+                    inc.path_loss_db,
+                    inc.distance_m,
+                    inc.incident_dbm
+                )
+            })
+        })
+        .collect();
+    if !incident.is_empty() {
+        out.push_str("\nIncident power P at the junction (ERP − free-space loss, ITU-R P.525):\n");
+        for line in incident {
+            out.push_str(&line);
+            out.push('\n');
+        }
+        let m = &l.ranking.model;
+        out.push_str(&format!(
+            "Level = Σ|k|·P + C(n); C(n) = L3 − s·(n − 3) − n·Pref with L3 = {:.1} dBm, s = {:.1} dB, Pref = {:.1} dBm\n(the junction makes L3 at third order from two Pref tones; change with --junction-im3-dbm, --order-step-db).\n",
+            m.im3_dbm, m.order_step_db, m.reference_tone_dbm
+        ));
+    }
+    out
+}
+
+/// The ranked candidates as a Markdown table.
+pub fn markdown_text(l: &Listing, limit: usize) -> String {
+    let carriers = carriers(l.emitters);
+    let mut out = String::from(
+        "| # | product | order | at MHz | offset kHz | width kHz | level dBm | emitters |\n|---:|---|---:|---:|---:|---:|---:|---|\n",
+    );
+    for c in l.ranking.candidates.iter().take(limit) {
+        let who: Vec<String> = display_terms(&c.product, l.emitters)
+            .iter()
+            .map(|t| {
+                let e = &l.emitters[t.emitter];
+                match (&e.kind, &e.owner) {
+                    (Some(k), Some(o)) => format!("{} ({k}, {o})", e.id),
+                    (Some(k), None) => format!("{} ({k})", e.id),
+                    (None, Some(o)) => format!("{} ({o})", e.id),
+                    (None, None) => e.id.clone(),
+                }
+            })
+            .collect();
+        out.push_str(&format!(
+            "| {} | {} | {} | {:.4} | {} | {:.1} | {} | {} |\n",
+            c.rank,
+            formula(&c.product, l.emitters).replace('|', "\\|"),
+            c.product.order(),
+            c.product.freq.mhz(),
+            signed(c.product.offset(l.params.target).khz(), 1),
+            c.product.bandwidth(&carriers).khz(),
+            level_text(c.level_dbm),
+            who.join("; ").replace('|', "\\|"),
+        ));
+    }
+    out
+}

@@ -1,0 +1,4 @@
+//! Turning results into screens and files.
+
+pub mod candidates;
+pub mod text_table;

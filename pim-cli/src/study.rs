@@ -1,0 +1,155 @@
+//! `pim study --emitters TX --receivers RX`: the forward audit of a site, every product
+//! that lands on each receiver, worst first.
+
+use std::io::{IsTerminal, Write};
+use std::path::PathBuf;
+
+use pim_core::io::read_receivers;
+use serde_json::json;
+
+use crate::common::{finish, open, stdout, CliResult, ListFormat};
+use crate::explain::{
+    channel_summary, co_channel_text, load_emitters, search_and_rank, SearchArgs,
+};
+use crate::render::candidates::{
+    co_channel_json, markdown_text, table_text, write_csv, write_json_array, Listing,
+};
+
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// Emitter file: CSV with a header, or a JSON array.
+    #[arg(long, value_name = "FILE")]
+    pub emitters: PathBuf,
+    /// Receiver file: CSV with `id`, `freq_mhz`, optional `bw_khz`, `lat`, `lon`.
+    #[arg(long, value_name = "FILE")]
+    pub receivers: PathBuf,
+    #[command(flatten)]
+    pub search: SearchArgs,
+}
+
+pub fn run(args: Args) -> CliResult {
+    let emitters = load_emitters(&args.emitters)?;
+    let rx_source = args.receivers.display().to_string();
+    let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
+    if !rx_file.ignored_columns.is_empty() {
+        eprintln!(
+            "pim: note: {rx_source}: columns not used: {}",
+            rx_file.ignored_columns.join(", ")
+        );
+    }
+    let s = &args.search;
+    let model = s.junction_model();
+    let progress = if std::io::stderr().is_terminal() && rx_file.receivers.len() > 1 {
+        let bar = indicatif::ProgressBar::new(rx_file.receivers.len() as u64);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template("studying {pos}/{len} receivers {wide_bar}")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        Some(bar)
+    } else {
+        None
+    };
+    let mut results = Vec::with_capacity(rx_file.receivers.len());
+    for rx in &rx_file.receivers {
+        let params = s.params(rx.freq, rx.bandwidth.unwrap_or(s.rx_bw));
+        let junction = rx.position.or(s.rx_site());
+        let (ranking, co) = search_and_rank(&emitters, &params, junction, &model);
+        results.push((params, junction, ranking, co));
+        if let Some(bar) = &progress {
+            bar.inc(1);
+        }
+    }
+    if let Some(bar) = progress {
+        bar.finish_and_clear();
+    }
+    let mut out = stdout();
+    let shown = s.limit.or(match s.format {
+        ListFormat::Table | ListFormat::Markdown => Some(10),
+        _ => None,
+    });
+    if s.format == ListFormat::Json {
+        writeln!(out, "{{")?;
+        let mut inputs = s.inputs_json();
+        inputs["emitters_file"] = json!(args.emitters.display().to_string());
+        inputs["receivers_file"] = json!(rx_source);
+        writeln!(
+            out,
+            "  \"inputs\": {},",
+            serde_json::to_string(&inputs).map_err(std::io::Error::from)?
+        )?;
+        writeln!(out, "  \"receivers\": [")?;
+    }
+    for (i, (rx, (params, junction, ranking, co))) in
+        rx_file.receivers.iter().zip(&results).enumerate()
+    {
+        let listing = Listing {
+            emitters: &emitters,
+            params,
+            ranking,
+            co_channel: co,
+        };
+        match s.format {
+            ListFormat::Table => {
+                let total = ranking.candidates.len();
+                writeln!(
+                    out,
+                    "━━ {} ━━ {} product{}; {}.",
+                    rx.id,
+                    total,
+                    if total == 1 { "" } else { "s" },
+                    ranking.basis()
+                )?;
+                write!(
+                    out,
+                    "{}",
+                    channel_summary(
+                        params,
+                        emitters.len(),
+                        &args.emitters.display().to_string(),
+                        *junction
+                    )
+                )?;
+                write!(out, "{}", co_channel_text(&listing))?;
+                write!(out, "{}", table_text(&listing, shown.unwrap_or(usize::MAX)))?;
+                writeln!(out)?;
+            }
+            ListFormat::Markdown => {
+                writeln!(out, "## {} ({} MHz)\n", rx.id, rx.freq.mhz_text())?;
+                write!(
+                    out,
+                    "{}",
+                    markdown_text(&listing, shown.unwrap_or(usize::MAX))
+                )?;
+                writeln!(out)?;
+            }
+            ListFormat::Csv => write_csv(
+                &mut out,
+                &listing,
+                shown,
+                Some(("receiver", &rx.id)),
+                i == 0,
+            )?,
+            ListFormat::Json => {
+                if i > 0 {
+                    writeln!(out, ",")?;
+                }
+                write!(
+                    out,
+                    "  {{\"id\": {}, \"freq_mhz\": {}, \"bw_khz\": {}, \"co_channel\": {}, \"ranking_basis\": {}, \"total\": {}, \"candidates\": ",
+                    json!(rx.id),
+                    json!(rx.freq.mhz()),
+                    json!(params.rx_bandwidth.khz()),
+                    co_channel_json(&listing),
+                    json!(ranking.basis()),
+                    ranking.candidates.len()
+                )?;
+                write_json_array(&mut out, &listing, shown)?;
+                write!(out, "}}")?;
+            }
+        }
+    }
+    if s.format == ListFormat::Json {
+        writeln!(out, "\n  ]\n}}")?;
+    }
+    finish(out)
+}

@@ -1,0 +1,87 @@
+//! Transmitters that may feed a junction, and receivers a product may land in.
+
+use serde::Serialize;
+
+use crate::freq::Hz;
+use crate::geo::GeoPoint;
+
+/// Whether an emitter is on the air all the time or only now and then.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Keying {
+    Continuous,
+    Intermittent,
+}
+
+/// A transmitter at or near the site.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Emitter {
+    pub id: String,
+    /// Carrier frequency.
+    pub freq: Hz,
+    /// Occupied bandwidth (0 for a plain carrier).
+    pub bandwidth: Hz,
+    /// Effective radiated power (relative to a half-wave dipole) in dBm.
+    pub erp_dbm: Option<f64>,
+    pub position: Option<GeoPoint>,
+    pub height_m: Option<f64>,
+    /// Free text: fm, am, paging, repeater, land mobile, ...
+    pub kind: Option<String>,
+    pub keyed: Option<Keying>,
+    /// Who holds the licence, where the file says.
+    pub owner: Option<String>,
+    pub note: Option<String>,
+    /// The line of the emitter file it came from (header = line 1).
+    pub line: u64,
+}
+
+impl Emitter {
+    /// A bare emitter with only an id, frequency and bandwidth, as the search needs.
+    pub fn new(id: impl Into<String>, freq: Hz, bandwidth: Hz) -> Self {
+        Emitter {
+            id: id.into(),
+            freq,
+            bandwidth,
+            erp_dbm: None,
+            position: None,
+            height_m: None,
+            kind: None,
+            keyed: None,
+            owner: None,
+            note: None,
+            line: 0,
+        }
+    }
+
+    /// The frequency and width the product search needs.
+    pub fn carrier(&self) -> Carrier {
+        Carrier {
+            freq: self.freq,
+            bandwidth: self.bandwidth,
+        }
+    }
+}
+
+/// A signal's centre frequency and occupied bandwidth.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Carrier {
+    pub freq: Hz,
+    pub bandwidth: Hz,
+}
+
+/// A receive channel at the site.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Receiver {
+    pub id: String,
+    pub freq: Hz,
+    /// Channel width, when the file gives one.
+    pub bandwidth: Option<Hz>,
+    pub position: Option<GeoPoint>,
+    pub note: Option<String>,
+    pub line: u64,
+}
+
+/// Watts to dBm.
+pub fn watts_to_dbm(watts: f64) -> f64 {
+    10.0 * watts.log10() + 30.0
+}

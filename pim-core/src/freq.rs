@@ -1,0 +1,287 @@
+//! Frequencies as whole hertz, parsed from decimal text without passing through binary
+//! floating point, so that sums of products are exact.
+
+use std::fmt;
+
+use serde::{Deserialize, Serialize};
+
+/// A frequency, a bandwidth or a frequency difference, in whole hertz.
+#[derive(
+    Clone, Copy, Debug, Default, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize,
+)]
+#[serde(transparent)]
+pub struct Hz(pub i64);
+
+/// The highest frequency the tool accepts: 300 GHz, the top of the radio spectrum as the
+/// ITU Radio Regulations define it.
+pub const MAX_FREQUENCY: Hz = Hz(300_000_000_000);
+
+impl Hz {
+    pub const ZERO: Hz = Hz(0);
+
+    pub fn from_khz(khz: i64) -> Hz {
+        Hz(khz * 1_000)
+    }
+
+    pub fn from_mhz(mhz: i64) -> Hz {
+        Hz(mhz * 1_000_000)
+    }
+
+    pub fn hz(self) -> i64 {
+        self.0
+    }
+
+    /// The value in MHz as a float, for display and for physics (path loss).
+    pub fn mhz(self) -> f64 {
+        self.0 as f64 / 1e6
+    }
+
+    /// The value in kHz as a float, for display.
+    pub fn khz(self) -> f64 {
+        self.0 as f64 / 1e3
+    }
+
+    pub fn abs(self) -> Hz {
+        Hz(self.0.abs())
+    }
+
+    /// Exact text in MHz with as many decimals as the value needs (at least one):
+    /// 146_520_000 Hz is `146.52`, 600_000 Hz is `0.6`.
+    pub fn mhz_text(self) -> String {
+        scaled_text(self.0, 6)
+    }
+
+    /// Exact text in kHz with as many decimals as the value needs.
+    pub fn khz_text(self) -> String {
+        scaled_text(self.0, 3)
+    }
+}
+
+fn scaled_text(value: i64, decimals: u32) -> String {
+    let scale = 10i64.pow(decimals);
+    let sign = if value < 0 { "-" } else { "" };
+    let magnitude = value.unsigned_abs();
+    let whole = magnitude / scale as u64;
+    let frac = magnitude % scale as u64;
+    let mut frac_text = format!("{frac:0width$}", width = decimals as usize);
+    while frac_text.len() > 1 && frac_text.ends_with('0') {
+        frac_text.pop();
+    }
+    format!("{sign}{whole}.{frac_text}")
+}
+
+impl fmt::Display for Hz {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{} MHz", self.mhz_text())
+    }
+}
+
+impl std::ops::Add for Hz {
+    type Output = Hz;
+    fn add(self, rhs: Hz) -> Hz {
+        Hz(self.0 + rhs.0)
+    }
+}
+
+impl std::ops::Sub for Hz {
+    type Output = Hz;
+    fn sub(self, rhs: Hz) -> Hz {
+        Hz(self.0 - rhs.0)
+    }
+}
+
+/// Why a decimal text could not become a whole number of units.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum DecimalError {
+    Empty,
+    NotANumber(String),
+    NotFinite(String),
+    TooFine(String),
+    TooLarge(String),
+}
+
+impl fmt::Display for DecimalError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            DecimalError::Empty => write!(f, "empty value"),
+            DecimalError::NotANumber(t) => write!(f, "`{t}` is not a number"),
+            DecimalError::NotFinite(t) => write!(f, "`{t}` is not a finite number"),
+            DecimalError::TooFine(t) => write!(f, "`{t}` is finer than 1 Hz"),
+            DecimalError::TooLarge(t) => write!(f, "`{t}` is too large"),
+        }
+    }
+}
+
+/// Parses decimal text (`146.52`, `-0.5`, `1.4652E+02`) and returns the value times
+/// 10^`scale_exp` as an exact integer. Fails when digits remain below the unit.
+///
+/// ```
+/// use pim_core::freq::parse_scaled_decimal;
+/// assert_eq!(parse_scaled_decimal("146.52", 6), Ok(146_520_000));
+/// assert_eq!(parse_scaled_decimal("12.5", 3), Ok(12_500));
+/// assert!(parse_scaled_decimal("146.5200001", 6).is_err());
+/// ```
+pub fn parse_scaled_decimal(text: &str, scale_exp: i32) -> Result<i64, DecimalError> {
+    let t = text.trim();
+    if t.is_empty() {
+        return Err(DecimalError::Empty);
+    }
+    let lower = t.to_ascii_lowercase();
+    let unsigned = lower.trim_start_matches(['+', '-']);
+    if matches!(unsigned, "nan" | "inf" | "infinity") {
+        return Err(DecimalError::NotFinite(t.to_string()));
+    }
+    let bad = || DecimalError::NotANumber(t.to_string());
+    let (negative, body) = match t.as_bytes()[0] {
+        b'-' => (true, &t[1..]),
+        b'+' => (false, &t[1..]),
+        _ => (false, t),
+    };
+    let (mantissa, exponent) = match body.find(['e', 'E']) {
+        Some(pos) => {
+            let exp: i32 = body[pos + 1..].parse().map_err(|_| bad())?;
+            (&body[..pos], exp)
+        }
+        None => (body, 0),
+    };
+    let (int_part, frac_part) = match mantissa.split_once('.') {
+        Some((i, f)) => (i, f),
+        None => (mantissa, ""),
+    };
+    if int_part.is_empty() && frac_part.is_empty() {
+        return Err(bad());
+    }
+    if !int_part.bytes().all(|b| b.is_ascii_digit())
+        || !frac_part.bytes().all(|b| b.is_ascii_digit())
+    {
+        return Err(bad());
+    }
+    // digits * 10^(exponent - frac_len + scale_exp)
+    let digits = format!("{int_part}{frac_part}");
+    let digits = digits.trim_start_matches('0');
+    let mut shift = exponent
+        .checked_sub(frac_part.len() as i32)
+        .and_then(|s| s.checked_add(scale_exp))
+        .ok_or_else(|| DecimalError::TooLarge(t.to_string()))?;
+    let mut digits = digits.to_string();
+    while shift < 0 {
+        match digits.pop() {
+            Some('0') => shift += 1,
+            Some(_) => return Err(DecimalError::TooFine(t.to_string())),
+            None => {
+                shift = 0;
+            }
+        }
+    }
+    if digits.is_empty() {
+        return Ok(0);
+    }
+    if digits.len() + shift as usize > 18 {
+        return Err(DecimalError::TooLarge(t.to_string()));
+    }
+    let mut value: i64 = digits.parse().map_err(|_| bad())?;
+    for _ in 0..shift {
+        value = value
+            .checked_mul(10)
+            .ok_or_else(|| DecimalError::TooLarge(t.to_string()))?;
+    }
+    Ok(if negative { -value } else { value })
+}
+
+/// Parses a frequency given in MHz as decimal text into exact hertz.
+pub fn parse_mhz(text: &str) -> Result<Hz, DecimalError> {
+    parse_scaled_decimal(text, 6).map(Hz)
+}
+
+/// Parses a bandwidth given in kHz as decimal text into exact hertz.
+pub fn parse_khz(text: &str) -> Result<Hz, DecimalError> {
+    parse_scaled_decimal(text, 3).map(Hz)
+}
+
+/// Parses a frequency with an optional unit: `146.52`, `146.52MHz`, `600kHz`, `1.2 GHz`,
+/// `146520000Hz`. A bare number is MHz. Units are read without regard to case.
+///
+/// ```
+/// use pim_core::freq::{parse_frequency_with_unit, Hz};
+/// assert_eq!(parse_frequency_with_unit("146.52"), Ok(Hz(146_520_000)));
+/// assert_eq!(parse_frequency_with_unit("600kHz"), Ok(Hz(600_000)));
+/// assert_eq!(parse_frequency_with_unit("1.2GHz"), Ok(Hz(1_200_000_000)));
+/// ```
+pub fn parse_frequency_with_unit(text: &str) -> Result<Hz, DecimalError> {
+    let t = text.trim();
+    let lower = t.to_ascii_lowercase();
+    let (number, scale) = if let Some(n) = lower.strip_suffix("ghz") {
+        (n, 9)
+    } else if let Some(n) = lower.strip_suffix("mhz") {
+        (n, 6)
+    } else if let Some(n) = lower.strip_suffix("khz") {
+        (n, 3)
+    } else if let Some(n) = lower.strip_suffix("hz") {
+        (n, 0)
+    } else {
+        (lower.as_str(), 6)
+    };
+    parse_scaled_decimal(number.trim_end(), scale)
+        .map(Hz)
+        .map_err(|e| match e {
+            DecimalError::NotANumber(_) => DecimalError::NotANumber(t.to_string()),
+            other => other,
+        })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn decimal_text_becomes_exact_hertz() {
+        assert_eq!(parse_mhz("146.52"), Ok(Hz(146_520_000)));
+        assert_eq!(parse_mhz("0.6"), Ok(Hz(600_000)));
+        assert_eq!(parse_mhz(".6"), Ok(Hz(600_000)));
+        assert_eq!(parse_mhz("146.520000000"), Ok(Hz(146_520_000)));
+        assert_eq!(parse_mhz("1.4652E+02"), Ok(Hz(146_520_000)));
+        assert_eq!(parse_mhz("146520000e-6"), Ok(Hz(146_520_000)));
+        assert_eq!(parse_mhz("-5"), Ok(Hz(-5_000_000)));
+        assert_eq!(parse_khz("12.5"), Ok(Hz(12_500)));
+        assert_eq!(parse_khz("0"), Ok(Hz(0)));
+        assert_eq!(parse_mhz("0.000001"), Ok(Hz(1)));
+    }
+
+    #[test]
+    fn refuses_text_nan_and_sub_hertz() {
+        assert!(matches!(parse_mhz("abc"), Err(DecimalError::NotANumber(_))));
+        assert!(matches!(parse_mhz("NaN"), Err(DecimalError::NotFinite(_))));
+        assert!(matches!(parse_mhz("-inf"), Err(DecimalError::NotFinite(_))));
+        assert!(matches!(
+            parse_mhz("0.0000001"),
+            Err(DecimalError::TooFine(_))
+        ));
+        assert!(matches!(parse_mhz(""), Err(DecimalError::Empty)));
+        assert!(matches!(parse_mhz("."), Err(DecimalError::NotANumber(_))));
+        assert!(matches!(parse_mhz("1e400"), Err(DecimalError::TooLarge(_))));
+        assert!(matches!(
+            parse_mhz("1.2.3"),
+            Err(DecimalError::NotANumber(_))
+        ));
+        assert!(matches!(parse_mhz("1,5"), Err(DecimalError::NotANumber(_))));
+    }
+
+    #[test]
+    fn units_are_understood() {
+        assert_eq!(parse_frequency_with_unit("146.52MHz"), Ok(Hz(146_520_000)));
+        assert_eq!(parse_frequency_with_unit("146.52 mhz"), Ok(Hz(146_520_000)));
+        assert_eq!(parse_frequency_with_unit("600kHz"), Ok(Hz(600_000)));
+        assert_eq!(parse_frequency_with_unit("1.2GHz"), Ok(Hz(1_200_000_000)));
+        assert_eq!(parse_frequency_with_unit("1000Hz"), Ok(Hz(1_000)));
+        assert!(parse_frequency_with_unit("12 parsecs").is_err());
+    }
+
+    #[test]
+    fn text_round_trips() {
+        assert_eq!(Hz(146_520_000).mhz_text(), "146.52");
+        assert_eq!(Hz(600_000).mhz_text(), "0.6");
+        assert_eq!(Hz(-1).mhz_text(), "-0.000001");
+        assert_eq!(Hz(12_500).khz_text(), "12.5");
+        assert_eq!(Hz(146_000_000).mhz_text(), "146.0");
+    }
+}

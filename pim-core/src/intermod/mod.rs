@@ -1,0 +1,414 @@
+//! Intermodulation products: which combinations Σ kᵢ·fᵢ of one to three distinct emitters
+//! land in a receive channel.
+//!
+//! A product of emitters with frequencies fᵢ and nonzero integer coefficients kᵢ sits at
+//! f_p = Σ kᵢ·fᵢ (taken only where positive); its order is Σ |kᵢ| and its occupied
+//! bandwidth Σ |kᵢ|·Bᵢ (each term's modulation is multiplied by its coefficient; common
+//! practice). One emitter with k = 1 is a co-channel signal, reported on its own; one
+//! emitter with k ≥ 2 is a harmonic and counts as a product.
+//!
+//! **Hit rule.** A product hits the receive channel centred on f₀ with width B_rx when
+//! `|f_p − f₀| ≤ (B_p + B_rx)/2 + tol`; the edge counts. All arithmetic is in whole hertz
+//! (the rule is evaluated doubled, so no rounding enters).
+//!
+//! **Search.** [`find_products`] sorts the emitters by frequency. For two emitters it
+//! takes each emitter and coefficient pair and binary-searches the window in which the
+//! partner must lie; for three it takes each pair and coefficient triple and
+//! binary-searches the third. The work grows as N² per coefficient set plus the hits
+//! themselves. [`oracle::find_products_brute_force`] is the plain enumeration kept as the
+//! reference the search is checked against.
+
+pub mod oracle;
+
+use crate::emitter::Carrier;
+use crate::freq::Hz;
+
+/// The highest order the search accepts.
+pub const MAX_ORDER: u32 = 15;
+
+/// What to look for: the receive channel and how far to search.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct SearchParams {
+    /// Centre of the receive channel.
+    pub target: Hz,
+    /// Width of the receive channel.
+    pub rx_bandwidth: Hz,
+    /// Extra tolerance on each side.
+    pub tolerance: Hz,
+    /// Highest order Σ|kᵢ| (1..=15).
+    pub max_order: u32,
+    /// Most distinct emitters in a product (1..=3).
+    pub max_emitters: u32,
+}
+
+impl SearchParams {
+    /// The hit rule, evaluated in doubled integers:
+    /// `2·|f_p − f₀| ≤ B_p + B_rx + 2·tol`.
+    pub fn hits(&self, product_freq: Hz, product_bandwidth: Hz) -> bool {
+        product_freq.0 > 0
+            && 2 * (product_freq.0 - self.target.0).abs()
+                <= product_bandwidth.0 + self.rx_bandwidth.0 + 2 * self.tolerance.0
+    }
+}
+
+/// One emitter's share in a product.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct Term {
+    /// Index into the emitter list given to the search.
+    pub emitter: usize,
+    pub coefficient: i32,
+}
+
+/// A product Σ kᵢ·fᵢ over one to three distinct emitters, terms in emitter-index order.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub struct Product {
+    emitters: [u32; 3],
+    coefficients: [i8; 3],
+    len: u8,
+    /// The product frequency Σ kᵢ·fᵢ.
+    pub freq: Hz,
+}
+
+impl Product {
+    /// Builds a product from its terms (any order; stored by emitter index). Each
+    /// coefficient must be nonzero with |k| ≤ 15 and the emitters distinct.
+    pub fn new(terms: &[Term], freq: Hz) -> Product {
+        let mut sorted = [(0u32, 0i8); 3];
+        for (slot, t) in sorted.iter_mut().zip(terms) {
+            *slot = (t.emitter as u32, t.coefficient as i8);
+        }
+        let len = terms.len().min(3);
+        sorted[..len].sort_unstable();
+        Product {
+            emitters: [sorted[0].0, sorted[1].0, sorted[2].0],
+            coefficients: [sorted[0].1, sorted[1].1, sorted[2].1],
+            len: len as u8,
+            freq,
+        }
+    }
+
+    /// The terms, in emitter-index order.
+    pub fn terms(&self) -> impl Iterator<Item = Term> + '_ {
+        (0..self.len as usize).map(move |i| Term {
+            emitter: self.emitters[i] as usize,
+            coefficient: self.coefficients[i] as i32,
+        })
+    }
+
+    /// How many distinct emitters take part.
+    pub fn emitter_count(&self) -> usize {
+        self.len as usize
+    }
+
+    /// Σ |kᵢ|.
+    pub fn order(&self) -> u32 {
+        self.coefficients[..self.len as usize]
+            .iter()
+            .map(|k| k.unsigned_abs() as u32)
+            .sum()
+    }
+
+    /// Σ |kᵢ|·Bᵢ.
+    pub fn bandwidth(&self, carriers: &[Carrier]) -> Hz {
+        Hz(self
+            .terms()
+            .map(|t| t.coefficient.unsigned_abs() as i64 * carriers[t.emitter].bandwidth.0)
+            .sum())
+    }
+
+    /// f_p − f₀.
+    pub fn offset(&self, target: Hz) -> Hz {
+        self.freq - target
+    }
+
+    /// Whether this is a harmonic (one emitter, k ≥ 2).
+    pub fn is_harmonic(&self) -> bool {
+        self.len == 1
+    }
+}
+
+/// What the search found.
+#[derive(Clone, Debug, Default, PartialEq, Eq)]
+pub struct Hits {
+    /// Every product that hits the channel, in no particular order.
+    pub products: Vec<Product>,
+    /// Emitters whose own carrier (k = 1) falls in the channel, by index.
+    pub co_channel: Vec<usize>,
+}
+
+/// The emitters sorted by frequency, as parallel arrays.
+struct Sorted {
+    freq: Vec<i64>,
+    bandwidth: Vec<i64>,
+    index: Vec<u32>,
+    max_bandwidth: i64,
+}
+
+impl Sorted {
+    fn new(carriers: &[Carrier]) -> Sorted {
+        let mut order: Vec<usize> = (0..carriers.len()).collect();
+        order.sort_by_key(|&i| (carriers[i].freq, i));
+        Sorted {
+            freq: order.iter().map(|&i| carriers[i].freq.0).collect(),
+            bandwidth: order.iter().map(|&i| carriers[i].bandwidth.0).collect(),
+            index: order.iter().map(|&i| i as u32).collect(),
+            max_bandwidth: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
+        }
+    }
+}
+
+/// Every (coefficient list) of `n` nonzero integers with Σ|k| ≤ `max_order`.
+pub(crate) fn coefficient_sets(n: usize, max_order: u32) -> Vec<Vec<i64>> {
+    let mut out = Vec::new();
+    let mut current = Vec::with_capacity(n);
+    fn recurse(n: usize, budget: i64, current: &mut Vec<i64>, out: &mut Vec<Vec<i64>>) {
+        if current.len() == n {
+            out.push(current.clone());
+            return;
+        }
+        let remaining_after = (n - current.len() - 1) as i64;
+        for m in 1..=(budget - remaining_after) {
+            for k in [m, -m] {
+                current.push(k);
+                recurse(n, budget - m, current, out);
+                current.pop();
+            }
+        }
+    }
+    recurse(n, max_order as i64, &mut current, &mut out);
+    out
+}
+
+/// Finds every product of one to three distinct emitters that hits the channel (the hit
+/// rule in the module docs), and the co-channel emitters. `carriers[i]` is emitter `i`.
+pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
+    let mut hits = Hits::default();
+    let max_order = params.max_order.min(MAX_ORDER);
+    let f0 = params.target.0;
+    let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
+    let s = Sorted::new(carriers);
+    let n = s.freq.len();
+
+    // One emitter: co-channel (k = 1) and harmonics (k ≥ 2).
+    for (i, c) in carriers.iter().enumerate() {
+        for k in 1..=max_order.max(1) as i64 {
+            let p = Hz(k * c.freq.0);
+            if params.hits(p, Hz(k * c.bandwidth.0)) {
+                if k == 1 {
+                    hits.co_channel.push(i);
+                } else {
+                    hits.products.push(Product::new(
+                        &[Term {
+                            emitter: i,
+                            coefficient: k as i32,
+                        }],
+                        p,
+                    ));
+                }
+            }
+        }
+    }
+    if params.max_emitters < 2 || max_order < 2 || n < 2 {
+        return hits;
+    }
+
+    // The last emitter, with coefficient k, must satisfy 2·k·f ∈ [r2 − w, r2 + w], where
+    // r2 = 2·(f₀ − Σ other terms) and w bounds the doubled window with the widest
+    // partner. `scan` finds the partners among sorted[from..] and checks each exactly.
+    let scan = |from: usize,
+                r2: i64,
+                w: i64,
+                k: i64,
+                fixed_bw: i64,
+                fixed: &[(usize, i64)],
+                out: &mut Vec<Product>| {
+        if from >= n {
+            return;
+        }
+        let (m, t) = if k > 0 { (k, r2) } else { (-k, -r2) };
+        // Quick reject against the partner's frequency span, without division.
+        if t + w < 2 * m * s.freq[from] || t - w > 2 * m * s.freq[n - 1] {
+            return;
+        }
+        let lo = t - w;
+        let start = from + s.freq[from..].partition_point(|&f| 2 * m * f < lo);
+        for j in start..n {
+            if 2 * m * s.freq[j] > t + w {
+                break;
+            }
+            let p = Hz(f0 - r2 / 2 + k * s.freq[j]);
+            let bw = Hz(fixed_bw + m * s.bandwidth[j]);
+            if params.hits(p, bw) {
+                let mut terms = [Term {
+                    emitter: 0,
+                    coefficient: 0,
+                }; 3];
+                for (slot, &(e, c)) in terms.iter_mut().zip(fixed) {
+                    *slot = Term {
+                        emitter: e,
+                        coefficient: c as i32,
+                    };
+                }
+                terms[fixed.len()] = Term {
+                    emitter: s.index[j] as usize,
+                    coefficient: k as i32,
+                };
+                out.push(Product::new(&terms[..=fixed.len()], p));
+            }
+        }
+    };
+
+    let pairs: Vec<(i64, i64)> = coefficient_sets(2, max_order)
+        .into_iter()
+        .map(|v| (v[0], v[1]))
+        .collect();
+    for a in 0..n {
+        let (fa, bwa, ia) = (s.freq[a], s.bandwidth[a], s.index[a] as usize);
+        for &(k1, k2) in &pairs {
+            let r2 = 2 * (f0 - k1 * fa);
+            let fixed_bw = k1.abs() * bwa;
+            let w = fixed_bw + k2.abs() * s.max_bandwidth + base;
+            scan(a + 1, r2, w, k2, fixed_bw, &[(ia, k1)], &mut hits.products);
+        }
+    }
+
+    if params.max_emitters < 3 || max_order < 3 || n < 3 {
+        return hits;
+    }
+    // Three emitters at sorted positions a < b < c with coefficients (k1, k2, k3): the
+    // third must satisfy 2·|k3|·f_c ∈ [T − w, T + w] with T = sign(k3)·2·(f₀ − k1·f_a −
+    // k2·f_b), linear in f_b. For each a and coefficient triple, b is swept in the
+    // direction in which T grows, so the window's lower edge only moves up and one
+    // pointer finds it: no binary search, and a whole sweep is skipped when the window
+    // cannot meet the emitters at all.
+    let triples: Vec<[i64; 3]> = coefficient_sets(3, max_order)
+        .into_iter()
+        .map(|v| [v[0], v[1], v[2]])
+        .collect();
+    let f = &s.freq;
+    for a in 0..n - 2 {
+        let (fa, bwa, ia) = (f[a], s.bandwidth[a], s.index[a] as usize);
+        for &[k1, k2, k3] in &triples {
+            let m = k3.abs();
+            let sign = k3.signum();
+            let w = k1.abs() * bwa + (k2.abs() + m) * s.max_bandwidth + base;
+            let t0 = sign * 2 * (f0 - k1 * fa);
+            let slope = -sign * 2 * k2;
+            let (t_first, t_last) = (t0 + slope * f[a + 1], t0 + slope * f[n - 2]);
+            let (t_min, t_max) = (t_first.min(t_last), t_first.max(t_last));
+            if t_max + w < 2 * m * f[a + 2] || t_min - w > 2 * m * f[n - 1] {
+                continue;
+            }
+            let mut lo = a + 2;
+            let mut visit = |b: usize, out: &mut Vec<Product>| -> bool {
+                let t = t0 + slope * f[b];
+                if t - w > 2 * m * f[n - 1] {
+                    return false; // T only grows from here: no partner for later b
+                }
+                while lo < n && 2 * m * f[lo] < t - w {
+                    lo += 1;
+                }
+                let fixed = k1 * fa + k2 * f[b];
+                let fixed_bw = k1.abs() * bwa + k2.abs() * s.bandwidth[b];
+                for c in lo.max(b + 1)..n {
+                    if 2 * m * f[c] > t + w {
+                        break;
+                    }
+                    let p = Hz(fixed + k3 * f[c]);
+                    if params.hits(p, Hz(fixed_bw + m * s.bandwidth[c])) {
+                        out.push(Product::new(
+                            &[
+                                Term { emitter: ia, coefficient: k1 as i32 },
+                                Term { emitter: s.index[b] as usize, coefficient: k2 as i32 },
+                                Term { emitter: s.index[c] as usize, coefficient: k3 as i32 },
+                            ],
+                            p,
+                        ));
+                    }
+                }
+                true
+            };
+            if slope > 0 {
+                for b in a + 1..n - 1 {
+                    if !visit(b, &mut hits.products) {
+                        break;
+                    }
+                }
+            } else {
+                for b in (a + 1..n - 1).rev() {
+                    if !visit(b, &mut hits.products) {
+                        break;
+                    }
+                }
+            }
+        }
+    }
+    hits
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn c(mhz_hz: i64, bw: i64) -> Carrier {
+        Carrier {
+            freq: Hz(mhz_hz),
+            bandwidth: Hz(bw),
+        }
+    }
+
+    #[test]
+    fn coefficient_sets_count() {
+        // Two nonzero coefficients with |k1|+|k2| ≤ 3: (1,1),(1,2),(2,1) × 4 signs.
+        assert_eq!(coefficient_sets(2, 3).len(), 12);
+        assert_eq!(coefficient_sets(3, 3).len(), 8);
+        assert_eq!(coefficient_sets(3, 5).len(), 80);
+    }
+
+    #[test]
+    fn finds_two_tone_third_order() {
+        // 2·150 − 153.6 = 146.4 MHz
+        let tx = [c(150_000_000, 0), c(153_600_000, 0)];
+        let p = SearchParams {
+            target: Hz(146_400_000),
+            rx_bandwidth: Hz(0),
+            tolerance: Hz(0),
+            max_order: 3,
+            max_emitters: 3,
+        };
+        let hits = find_products(&tx, &p);
+        assert_eq!(hits.products.len(), 1);
+        let t: Vec<Term> = hits.products[0].terms().collect();
+        assert_eq!(
+            t[0],
+            Term {
+                emitter: 0,
+                coefficient: 2
+            }
+        );
+        assert_eq!(
+            t[1],
+            Term {
+                emitter: 1,
+                coefficient: -1
+            }
+        );
+        assert_eq!(hits.products[0].order(), 3);
+    }
+
+    #[test]
+    fn edge_of_window_is_a_hit() {
+        // product 2·100 = 200 MHz, width 2·10 kHz; rx 10 kHz: half-sum 15 kHz.
+        let tx = [c(100_000_000, 10_000)];
+        let mut p = SearchParams {
+            target: Hz(200_015_000),
+            rx_bandwidth: Hz(10_000),
+            tolerance: Hz(0),
+            max_order: 2,
+            max_emitters: 1,
+        };
+        assert_eq!(find_products(&tx, &p).products.len(), 1);
+        p.target = Hz(200_015_001);
+        assert_eq!(find_products(&tx, &p).products.len(), 0);
+    }
+}

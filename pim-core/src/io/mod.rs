@@ -1,0 +1,10 @@
+//! Reading and writing the tool's files. Everything that touches text lives here; the
+//! engine works on validated values only.
+//!
+//! Every reader names the source, the line (the header is line 1) and the field of a bad
+//! value, and stops at the first one.
+
+pub mod emitters;
+pub mod table;
+
+pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};

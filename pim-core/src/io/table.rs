@@ -1,0 +1,433 @@
+//! A CSV table with a header, read as a stream: tolerant of a UTF-8 byte-order mark, CRLF
+//! or LF line ends, quoted fields, surrounding blanks and columns it does not use; strict
+//! about everything else. Each row carries its line number (the header is line 1) so that
+//! a bad value can be named exactly.
+
+use std::collections::{HashMap, VecDeque};
+use std::io::{self, BufRead, BufReader, Read};
+
+use crate::error::{Error, Place, Result};
+
+/// The longest line accepted, in bytes. A longer one is not a table row but a damaged or
+/// binary file, and reading it whole would hold memory for nothing.
+pub const MAX_LINE_BYTES: usize = 64 * 1024;
+
+/// A reader that turns CRLF and lone CR line ends into LF (so that line numbers count
+/// true lines whatever the file's origin), and refuses lines longer than
+/// [`MAX_LINE_BYTES`] and NUL bytes, so memory stays bounded and binary files are
+/// recognised early.
+///
+/// It also notes where each line starts, because the CSV parser's own positions count
+/// neither blank lines nor comments: [`Guarded::line_of`] turns a record's byte offset
+/// into its true line number.
+struct Guarded<R> {
+    inner: R,
+    since_newline: usize,
+    lines_done: u64,
+    after_cr: bool,
+    /// Bytes handed out so far.
+    out_pos: u64,
+    /// (line number, byte offset of its start, whether it is blank or a comment) of the
+    /// lines handed out and not yet claimed by a record.
+    line_starts: VecDeque<(u64, u64, bool)>,
+}
+
+impl<R> Guarded<R> {
+    fn new(inner: R) -> Self {
+        Guarded {
+            inner,
+            since_newline: 0,
+            lines_done: 0,
+            after_cr: false,
+            out_pos: 0,
+            line_starts: VecDeque::new(),
+        }
+    }
+
+    /// The line on which the record that the parser began at byte `start` really
+    /// starts: the first line at or after `start` that is neither blank nor a comment.
+    fn line_of(&mut self, start: u64) -> u64 {
+        while let Some(&(line, offset, skippable)) = self.line_starts.front() {
+            if offset < start || skippable {
+                self.line_starts.pop_front();
+                continue;
+            }
+            self.line_starts.pop_front();
+            return line;
+        }
+        self.lines_done + 1
+    }
+}
+
+impl<R: Read> Read for Guarded<R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        loop {
+            let n = self.inner.read(buf)?;
+            if n == 0 {
+                return Ok(0);
+            }
+            let mut w = 0;
+            for i in 0..n {
+                let mut b = buf[i];
+                if b == b'\n' && self.after_cr {
+                    self.after_cr = false;
+                    continue;
+                }
+                self.after_cr = b == b'\r';
+                if b == b'\r' {
+                    b = b'\n';
+                }
+                if self.since_newline == 0 {
+                    self.line_starts.push_back((
+                        self.lines_done + 1,
+                        self.out_pos + w as u64,
+                        b == b'\n' || b == b'#',
+                    ));
+                }
+                if b == b'\n' {
+                    self.since_newline = 0;
+                    self.lines_done += 1;
+                } else {
+                    self.since_newline += 1;
+                    if b == 0 {
+                        return Err(GuardError::new(
+                            self.lines_done + 1,
+                            "binary data (a NUL byte); expected a CSV text table".into(),
+                        ));
+                    }
+                    if self.since_newline > MAX_LINE_BYTES {
+                        return Err(GuardError::new(
+                            self.lines_done + 1,
+                            format!(
+                                "longer than {MAX_LINE_BYTES} bytes; expected a CSV text table"
+                            ),
+                        ));
+                    }
+                }
+                buf[w] = b;
+                w += 1;
+            }
+            self.out_pos += w as u64;
+            if w > 0 {
+                return Ok(w);
+            }
+        }
+    }
+}
+
+/// What [`Guarded`] refused, and on which line.
+#[derive(Debug)]
+struct GuardError {
+    line: u64,
+    message: String,
+}
+
+impl GuardError {
+    #[allow(clippy::new_ret_no_self)]
+    fn new(line: u64, message: String) -> io::Error {
+        io::Error::new(io::ErrorKind::InvalidData, GuardError { line, message })
+    }
+}
+
+impl std::fmt::Display for GuardError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "line {}: {}", self.line, self.message)
+    }
+}
+
+impl std::error::Error for GuardError {}
+
+/// Removes a UTF-8 byte-order mark and refuses UTF-16 text with a clear message.
+fn strip_bom<R: Read>(source: &str, reader: R) -> Result<BufReader<R>> {
+    let mut buf = BufReader::new(reader);
+    let head = buf.fill_buf().map_err(|e| Error::io(source, &e))?;
+    if head.starts_with(&[0xEF, 0xBB, 0xBF]) {
+        buf.consume(3);
+    } else if head.starts_with(&[0xFF, 0xFE]) || head.starts_with(&[0xFE, 0xFF]) {
+        return Err(Error::input(
+            Place::new(source).at_line(1),
+            "UTF-16 text; save the file as UTF-8 (CSV UTF-8 in a spreadsheet)",
+        ));
+    }
+    Ok(buf)
+}
+
+/// A CSV table being read row by row.
+pub struct Table<R: Read> {
+    source: String,
+    reader: csv::Reader<Guarded<BufReader<R>>>,
+    headers: Vec<String>,
+    columns: HashMap<String, usize>,
+    record: csv::ByteRecord,
+}
+
+impl<R: Read> Table<R> {
+    /// Reads the header line. `source` names the file in messages.
+    pub fn open(source: &str, reader: R) -> Result<Self> {
+        let buf = strip_bom(source, reader)?;
+        let guarded = Guarded::new(buf);
+        let mut reader = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .trim(csv::Trim::All)
+            .comment(Some(b'#'))
+            .from_reader(guarded);
+        let mut header = csv::ByteRecord::new();
+        let got = reader
+            .read_byte_record(&mut header)
+            .map_err(|e| csv_error(source, e))?;
+        if !got {
+            return Err(Error::input(
+                Place::new(source),
+                "empty file: expected a header line naming the columns",
+            ));
+        }
+        let header_start = header.position().map_or(0, |p| p.byte());
+        let header_line = reader.get_mut().line_of(header_start);
+        let mut headers = Vec::with_capacity(header.len());
+        let mut columns = HashMap::new();
+        for (i, raw) in header.iter().enumerate() {
+            let name = std::str::from_utf8(raw)
+                .map_err(|_| {
+                    Error::input(
+                        Place::new(source).at_line(header_line),
+                        format!("column {} of the header is not UTF-8 text", i + 1),
+                    )
+                })?
+                .trim()
+                .to_ascii_lowercase();
+            if !name.is_empty() && columns.insert(name.clone(), i).is_some() {
+                return Err(Error::input(
+                    Place::new(source).at_line(header_line).at_field(&name),
+                    "the column appears twice in the header",
+                ));
+            }
+            headers.push(name);
+        }
+        Ok(Table {
+            source: source.to_string(),
+            reader,
+            headers,
+            columns,
+            record: csv::ByteRecord::new(),
+        })
+    }
+
+    pub fn source(&self) -> &str {
+        &self.source
+    }
+
+    /// The index of a column, if the header has it.
+    pub fn column(&self, name: &str) -> Option<usize> {
+        self.columns.get(name).copied()
+    }
+
+    /// The index of a column the file must have.
+    pub fn require(&self, name: &str) -> Result<usize> {
+        self.column(name).ok_or_else(|| {
+            Error::input(
+                Place::new(&self.source).at_line(1).at_field(name),
+                format!(
+                    "missing column; the header has: {}",
+                    self.headers
+                        .iter()
+                        .filter(|h| !h.is_empty())
+                        .cloned()
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            )
+        })
+    }
+
+    /// Header names that are not among `known`, in file order.
+    pub fn unknown_columns(&self, known: &[&str]) -> Vec<String> {
+        self.headers
+            .iter()
+            .filter(|h| !h.is_empty() && !known.contains(&h.as_str()))
+            .cloned()
+            .collect()
+    }
+
+    pub fn headers(&self) -> &[String] {
+        &self.headers
+    }
+
+    /// The next data row; blank rows (every field empty) are skipped.
+    pub fn next_row(&mut self) -> Result<Option<Row<'_>>> {
+        let line = loop {
+            let got = self
+                .reader
+                .read_byte_record(&mut self.record)
+                .map_err(|e| csv_error(&self.source, e))?;
+            if !got {
+                return Ok(None);
+            }
+            let start = self.record.position().map_or(0, |p| p.byte());
+            let line = self.reader.get_mut().line_of(start);
+            if self.record.iter().all(|f| f.is_empty()) {
+                continue;
+            }
+            break line;
+        };
+        if self.record.len() != self.headers.len() {
+            return Err(Error::input(
+                Place::new(&self.source).at_line(line),
+                format!(
+                    "{} fields, but the header has {} columns",
+                    self.record.len(),
+                    self.headers.len()
+                ),
+            ));
+        }
+        let mut fields = Vec::with_capacity(self.record.len());
+        for (i, raw) in self.record.iter().enumerate() {
+            let text = std::str::from_utf8(raw).map_err(|_| {
+                Error::input(
+                    Place::new(&self.source)
+                        .at_line(line)
+                        .at_field(self.headers[i].clone()),
+                    "not UTF-8 text; save the file as UTF-8",
+                )
+            })?;
+            fields.push(text);
+        }
+        Ok(Some(Row {
+            source: &self.source,
+            line,
+            headers: &self.headers,
+            fields,
+        }))
+    }
+}
+
+fn csv_error(source: &str, err: csv::Error) -> Error {
+    let line = err.position().map(|p| p.line());
+    let message = match err.into_kind() {
+        csv::ErrorKind::Io(e) => {
+            if let Some(g) = e.get_ref().and_then(|g| g.downcast_ref::<GuardError>()) {
+                return Error::input(Place::new(source).at_line(g.line), g.message.clone());
+            }
+            return Error::io(source, &e);
+        }
+        other => format!("{other:?}"),
+    };
+    let mut place = Place::new(source);
+    place.line = line;
+    Error::input(place, message)
+}
+
+/// One data row of a [`Table`].
+pub struct Row<'a> {
+    source: &'a str,
+    pub line: u64,
+    headers: &'a [String],
+    fields: Vec<&'a str>,
+}
+
+impl<'a> Row<'a> {
+    /// The text of a column, or `None` when the column is absent or the field is empty.
+    pub fn text(&self, column: Option<usize>) -> Option<&'a str> {
+        column
+            .and_then(|i| self.fields.get(i).copied())
+            .filter(|s| !s.is_empty())
+    }
+
+    /// The text of the named column.
+    pub fn get(&self, name: &str) -> Option<&'a str> {
+        self.text(self.headers.iter().position(|h| h == name))
+    }
+
+    /// Where a field of this row is, for messages.
+    pub fn place(&self, field: &str) -> Place {
+        Place::new(self.source).at_line(self.line).at_field(field)
+    }
+}
+
+/// A record whose fields are looked up by column name: a CSV row, or an object of a JSON
+/// array, so that both formats share one validation.
+pub trait Fields {
+    /// The text of a field, or `None` when absent or empty.
+    fn field(&self, name: &str) -> Option<&str>;
+    /// Where a field is, for messages.
+    fn place(&self, name: &str) -> Place;
+}
+
+impl Fields for Row<'_> {
+    fn field(&self, name: &str) -> Option<&str> {
+        self.get(name)
+    }
+    fn place(&self, name: &str) -> Place {
+        Row::place(self, name)
+    }
+}
+
+/// Parses a finite decimal number; names the place on failure.
+pub fn parse_finite(place: impl FnOnce() -> Place, text: &str) -> Result<f64> {
+    match text.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(Error::input(
+            place(),
+            format!("`{text}` is not a finite number"),
+        )),
+        Err(_) => Err(Error::input(place(), format!("`{text}` is not a number"))),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn rows(text: &[u8]) -> Result<Vec<(u64, Vec<String>)>> {
+        let mut t = Table::open("t.csv", text)?;
+        let mut out = Vec::new();
+        while let Some(r) = t.next_row()? {
+            out.push((r.line, r.fields.iter().map(|s| s.to_string()).collect()));
+        }
+        Ok(out)
+    }
+
+    #[test]
+    fn reads_bom_crlf_quotes_and_line_numbers() {
+        let text = b"\xEF\xBB\xBFid,freq_mhz\r\n\"A, one\",146.52\r\n\r\nB,147\r\n";
+        let r = rows(text).unwrap();
+        assert_eq!(r[0], (2, vec!["A, one".to_string(), "146.52".to_string()]));
+        assert_eq!(r[1].0, 4);
+        let r = rows(b"id,f\rA,1\rB,2").unwrap();
+        assert_eq!((r[1].0, r[1].1[0].as_str()), (3, "B"));
+        let r = rows(b"# site survey\n\nid,f\nA,\"1\n2\"\n\n\n# moved\nB,2\n , \nC,3").unwrap();
+        let lines: Vec<u64> = r.iter().map(|x| x.0).collect();
+        assert_eq!(lines, vec![4, 9, 11]);
+    }
+
+    #[test]
+    fn names_ragged_rows_binary_and_utf16() {
+        let e = rows(b"a,b\n1,2,3\n").unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "t.csv, line 2: 3 fields, but the header has 2 columns"
+        );
+        let e = rows(b"a,b\n1,\x002\n").unwrap_err();
+        assert!(e.to_string().contains("binary data"), "{e}");
+        let e = rows(b"\xFF\xFEa\x00").unwrap_err();
+        assert!(e.to_string().contains("UTF-16"), "{e}");
+        let e = rows(b"").unwrap_err();
+        assert!(e.to_string().contains("empty file"), "{e}");
+        let e = rows(b"a,b\n1,\xC3\x28\n").unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "t.csv, line 2, field `b`: not UTF-8 text; save the file as UTF-8"
+        );
+    }
+
+    #[test]
+    fn refuses_huge_lines() {
+        let mut text = b"a,b\n1,".to_vec();
+        text.extend(std::iter::repeat_n(b'9', MAX_LINE_BYTES + 10));
+        let e = rows(&text).unwrap_err();
+        assert!(
+            e.to_string().starts_with("t.csv, line 2: longer than"),
+            "{e}"
+        );
+    }
+}

@@ -1,0 +1,138 @@
+//! End-to-end runs of `pim explain`, `pim study` and `pim demo`: the demo files, the
+//! output formats, and each kind of bad input with the message and exit code it must give.
+
+use pim_tests::{bad_input, field_log, pim, stderr_of, stdout_of};
+
+fn path(p: std::path::PathBuf) -> String {
+    p.display().to_string()
+}
+
+#[test]
+fn explains_the_demo_carrier_with_the_planted_pair_first() {
+    let tx = path(field_log("emitters.csv"));
+    let o = pim(&[
+        "explain", "146.34MHz", "--emitters", &tx, "--rx-lat", "45.103", "--rx-lon", "-122.412",
+        "--format", "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    let first = &v["candidates"][0];
+    assert_eq!(first["formula"], "2·SKP-152 − FIRE-DSP");
+    assert_eq!(first["order"], 3);
+    assert_eq!(first["rank"], 1);
+    assert_eq!(first["product_mhz"], 146.34);
+    assert_eq!(first["offset_khz"], 0.0);
+    assert_eq!(first["terms"][0]["emitter"], "SKP-152");
+    assert_eq!(first["terms"][0]["coefficient"], 2);
+    assert!(first["predicted_level_dbm"].is_f64());
+    assert_eq!(v["total"].as_u64().unwrap() as usize, v["candidates"].as_array().unwrap().len());
+    assert!(v["co_channel"].as_array().unwrap().is_empty());
+}
+
+#[test]
+fn formats_agree_and_limit_is_kept() {
+    let tx = path(field_log("emitters.csv"));
+    let csv = pim(&["explain", "146.34", "--emitters", &tx, "--format", "csv"]);
+    assert!(csv.status.success());
+    let text = stdout_of(&csv);
+    let mut lines = text.lines();
+    assert!(lines.next().unwrap().starts_with("rank,formula,order,product_mhz"));
+    assert!(lines.next().unwrap().starts_with("1,2·SKP-152 − FIRE-DSP,3,146.34,"));
+    let limited = pim(&["explain", "146.34", "--emitters", &tx, "--format", "json", "--limit", "1"]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&limited)).unwrap();
+    assert_eq!(v["candidates"].as_array().unwrap().len(), 1);
+    let md = pim(&["explain", "146.34", "--emitters", &tx, "--format", "markdown"]);
+    assert!(stdout_of(&md).starts_with("| # | product |"));
+    let table = pim(&["explain", "146340kHz", "--emitters", &tx]);
+    let t = stdout_of(&table);
+    assert!(t.contains("2·SKP-152 − FIRE-DSP"), "{t}");
+    assert!(t.contains("ranked by order, then offset"), "{t}");
+}
+
+#[test]
+fn co_channel_emitters_are_listed_apart() {
+    let tx = path(field_log("emitters.csv"));
+    let o = pim(&["explain", "152.84", "--emitters", &tx, "--format", "json", "--max-order", "3"]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["co_channel"][0]["emitter"], "SKP-152");
+    for c in v["candidates"].as_array().unwrap() {
+        assert_ne!(c["formula"], "SKP-152");
+    }
+}
+
+#[test]
+fn study_lists_every_receiver() {
+    let o = pim(&[
+        "study", "--emitters", &path(field_log("emitters.csv")),
+        "--receivers", &path(field_log("receivers.csv")), "--format", "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    let rx = v["receivers"].as_array().unwrap();
+    assert_eq!(rx.len(), 4);
+    assert_eq!(rx[0]["id"], "QK7MHR-IN");
+    assert_eq!(rx[0]["candidates"][0]["formula"], "2·SKP-152 − FIRE-DSP");
+    // Piped output carries no progress bar.
+    assert!(!stderr_of(&o).contains("studying"));
+}
+
+#[test]
+fn demo_runs() {
+    let o = pim(&["demo"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    assert!(stdout_of(&o).contains("2·SKP-152 − FIRE-DSP"));
+}
+
+/// Each bad emitter file: exit code 3 and a message naming file, line and field.
+#[test]
+fn bad_emitter_files_are_named_exactly() {
+    let cases: &[(&str, &str)] = &[
+        ("emitters-empty.csv", "emitters-empty.csv: empty file"),
+        ("emitters-header-only.csv", "emitters-header-only.csv: no data rows after the header"),
+        ("emitters-no-freq-column.csv", "emitters-no-freq-column.csv, line 1, field `freq_mhz`: missing column"),
+        ("emitters-text-freq.csv", "emitters-text-freq.csv, line 3, field `freq_mhz`: `one-fifty` is not a number"),
+        ("emitters-nan-freq.csv", "emitters-nan-freq.csv, line 2, field `freq_mhz`: `NaN` is not a finite number"),
+        ("emitters-inf-bw.csv", "emitters-inf-bw.csv, line 2, field `bw_khz`: `inf` is not a finite number"),
+        ("emitters-zero-freq.csv", "emitters-zero-freq.csv, line 2, field `freq_mhz`: frequency 0 MHz must be above zero"),
+        ("emitters-negative-freq.csv", "emitters-negative-freq.csv, line 2, field `freq_mhz`: frequency -146.94 MHz must be above zero"),
+        ("emitters-absurd-freq.csv", "emitters-absurd-freq.csv, line 3, field `freq_mhz`: frequency 400000 MHz is above 300 GHz"),
+        ("emitters-negative-bw.csv", "emitters-negative-bw.csv, line 2, field `bw_khz`: bandwidth -16 kHz is negative"),
+        ("emitters-negative-power.csv", "emitters-negative-power.csv, line 2, field `erp_w`: power -50 W must be above zero"),
+        ("emitters-lat-out-of-range.csv", "emitters-lat-out-of-range.csv, line 3, field `lat`: latitude 95.0 is outside"),
+        ("emitters-lon-out-of-range.csv", "emitters-lon-out-of-range.csv, line 2, field `lon`: longitude -190 is outside"),
+        ("emitters-duplicate-id.csv", "emitters-duplicate-id.csv, line 4, field `id`: duplicate id `RPT` (first used on line 2)"),
+        ("emitters-ragged.csv", "emitters-ragged.csv, line 3: 2 fields, but the header has 3 columns"),
+        ("emitters-binary.csv", "emitters-binary.csv, line 3: binary data"),
+        ("emitters-duplicate-id.json", "emitters-duplicate-id.json, line 2, field `id`: duplicate id `A`"),
+        ("emitters-truncated.json", "emitters-truncated.json, line 2: not a JSON array"),
+    ];
+    for (file, want) in cases {
+        let p = bad_input(file);
+        let o = pim(&["explain", "146.34", "--emitters", &path(p.clone())]);
+        let err = stderr_of(&o);
+        assert_eq!(o.status.code(), Some(3), "{file}: {err}");
+        let shown = err.replace(&path(bad_input("")), "");
+        assert!(shown.contains(want), "{file}: got {err}");
+        assert!(!err.contains("panicked"), "{file}: {err}");
+    }
+}
+
+#[test]
+fn bad_arguments_are_refused_clearly() {
+    let tx = path(field_log("emitters.csv"));
+    for (args, want) in [
+        (vec!["explain", "abc", "--emitters", &tx], "is not a number"),
+        (vec!["explain", "-146.34", "--emitters", &tx], "must be above zero"),
+        (vec!["explain", "146.34", "--emitters", &tx, "--max-order", "0"], "0 is not in 1..=15"),
+        (vec!["explain", "146.34", "--emitters", &tx, "--max-order", "16"], "16 is not in 1..=15"),
+        (vec!["explain", "146.34", "--emitters", &tx, "--rx-bw-khz", "-5"], "is negative"),
+        (vec!["explain", "146.34", "--emitters", &tx, "--max-emitters", "4"], "4 is not in 1..=3"),
+    ] {
+        let o = pim(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr_of(&o));
+        assert!(stderr_of(&o).contains(want), "{args:?}: {}", stderr_of(&o));
+    }
+    let o = pim(&["explain", "146.34", "--emitters", "no-such-file.csv"]);
+    assert_eq!(o.status.code(), Some(4));
+    assert!(stderr_of(&o).contains("no-such-file.csv"));
+}
