@@ -11,6 +11,7 @@ use clap::{Parser, Subcommand};
 mod common;
 mod demo;
 mod explain;
+mod fix;
 mod render;
 mod study;
 
@@ -29,6 +30,8 @@ struct Cli {
 enum Command {
     /// Which emitter combinations make a carrier heard on a receive channel.
     Explain(explain::Args),
+    /// Locate the junction from a bearing walk, with its confidence ellipse.
+    Fix(fix::Args),
     /// Every product that lands on each receiver of a site.
     Study(study::Args),
     /// Run the job on the built-in invented demo site.
@@ -61,6 +64,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Explain(args) => explain::run(args),
+        Command::Fix(args) => fix::run(args),
         Command::Study(args) => study::run(args),
         Command::Demo(args) => demo::run(args),
     };

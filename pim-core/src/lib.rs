@@ -37,8 +37,10 @@
 
 #![deny(clippy::unwrap_used, clippy::expect_used)]
 
+pub mod declination;
 pub mod emitter;
 pub mod error;
+pub mod fix;
 pub mod freq;
 pub mod geo;
 pub mod intermod;

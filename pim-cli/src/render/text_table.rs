@@ -66,7 +66,7 @@ impl TextTable {
         ));
         out.push('\n');
         let rule: Vec<String> = widths.iter().map(|w| "─".repeat(*w)).collect();
-        out.push_str(&rule.join("  "));
+        out.push_str(rule.join("  ").trim_end());
         out.push('\n');
         for row in &self.rows {
             out.push_str(&line(row.iter().map(|s| s.as_str()).collect()));

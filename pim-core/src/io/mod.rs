@@ -5,6 +5,9 @@
 //! value, and stops at the first one.
 
 pub mod emitters;
+pub mod export;
+pub mod fieldlog;
 pub mod table;
+pub mod track;
 
 pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};

@@ -253,6 +253,12 @@ impl<R: Read> Table<R> {
         &self.headers
     }
 
+    /// After the last row: whether the file ended without a line end, which a writer
+    /// that appends whole lines never leaves (a torn tail).
+    pub fn ended_mid_line(&self) -> bool {
+        self.reader.get_ref().since_newline > 0
+    }
+
     /// The next data row; blank rows (every field empty) are skipped.
     pub fn next_row(&mut self) -> Result<Option<Row<'_>>> {
         let line = loop {

@@ -1,0 +1,305 @@
+//! `pim fix --log FILE`: the junction's location from a bearing walk, with its ellipse.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use pim_core::fix::{locate, Fix, FixOptions, Loss, Method, SigmaSource};
+use pim_core::io::export::{fix_geojson, fix_kml};
+use pim_core::io::fieldlog::{prepare, read_field_log, Correction, Prepared};
+use pim_core::io::track::read_track;
+use serde_json::json;
+
+use crate::common::{finish, finite_arg, open, stdout, CliResult};
+use crate::render::text_table::{Align, TextTable};
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum FixFormat {
+    Table,
+    Json,
+    Geojson,
+    Kml,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum MethodArg {
+    /// maximum likelihood (nonlinear least squares on the bearing residuals)
+    Ml,
+    /// closed-form least-squares intersection of the lines
+    Ls,
+    /// M-estimate that down-weights readings that disagree
+    Robust,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum LossArg {
+    Huber,
+    Andrews,
+}
+
+/// Options that choose and tune the fix; shared with the ticket and the walk commands.
+#[derive(clap::Args, Clone, Debug)]
+pub struct FixArgs {
+    /// Estimator.
+    #[arg(long, value_enum, default_value_t = MethodArg::Ml)]
+    pub method: MethodArg,
+    /// Weight function of the robust estimator.
+    #[arg(long, value_enum, default_value_t = LossArg::Huber)]
+    pub loss: LossArg,
+    /// Probability that the ellipse holds the junction.
+    #[arg(long, default_value = "0.95", value_parser = confidence_arg)]
+    pub confidence: f64,
+    /// Standard deviation of every bearing in degrees (overrides the log's sigma_deg).
+    #[arg(long, value_name = "DEG", value_parser = sigma_arg)]
+    pub sigma_deg: Option<f64>,
+    /// GPS track (GPX) that places readings lacking lat/lon by their time.
+    #[arg(long, value_name = "GPX")]
+    pub track: Option<PathBuf>,
+    /// Declination (east positive) for magnetic readings instead of the World Magnetic Model.
+    #[arg(long, value_name = "DEG", value_parser = declination_arg, allow_hyphen_values = true)]
+    pub declination_deg: Option<f64>,
+    /// Readings may point either way (antenna with a front/back ambiguity).
+    #[arg(long)]
+    pub ambiguous: bool,
+}
+
+fn confidence_arg(text: &str) -> Result<f64, String> {
+    let v = finite_arg(text)?;
+    if v > 0.0 && v < 1.0 {
+        Ok(v)
+    } else {
+        Err(format!(
+            "{text} is not a probability strictly between 0 and 1"
+        ))
+    }
+}
+
+fn sigma_arg(text: &str) -> Result<f64, String> {
+    let v = finite_arg(text)?;
+    if v > 0.0 && v <= 90.0 {
+        Ok(v)
+    } else {
+        Err(format!("σ {text}° must be above 0 and at most 90"))
+    }
+}
+
+fn declination_arg(text: &str) -> Result<f64, String> {
+    let v = finite_arg(text)?;
+    if (-180.0..=180.0).contains(&v) {
+        Ok(v)
+    } else {
+        Err(format!("declination {text}° is outside −180…180"))
+    }
+}
+
+impl FixArgs {
+    pub fn options(&self) -> FixOptions {
+        FixOptions {
+            method: match self.method {
+                MethodArg::Ml => Method::Ml,
+                MethodArg::Ls => Method::Ls,
+                MethodArg::Robust => Method::Robust,
+            },
+            confidence: self.confidence,
+            sigma_deg: self.sigma_deg,
+            ambiguous: self.ambiguous,
+            loss: match self.loss {
+                LossArg::Huber => Loss::Huber,
+                LossArg::Andrews => Loss::Andrews,
+            },
+        }
+    }
+}
+
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// Field log: CSV with lat, lon, bearing_deg (and time, north, sigma_deg, level_dbm, note).
+    #[arg(long, value_name = "FILE")]
+    pub log: PathBuf,
+    #[command(flatten)]
+    pub fix: FixArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FixFormat::Table)]
+    pub format: FixFormat,
+}
+
+/// Reads a field log (and a track), applies declination, and fixes.
+pub fn fix_from_log(
+    log_path: &Path,
+    log_text: Option<&str>,
+    args: &FixArgs,
+) -> CliResult<(Fix, Prepared)> {
+    let source = log_path.display().to_string();
+    let log = match log_text {
+        Some(text) => read_field_log(&source, text.as_bytes(), args.track.is_some())?,
+        None => read_field_log(&source, open(log_path)?, args.track.is_some())?,
+    };
+    if !log.ignored_columns.is_empty() {
+        eprintln!(
+            "pim: note: {source}: columns not used: {}",
+            log.ignored_columns.join(", ")
+        );
+    }
+    let track = match &args.track {
+        Some(p) => Some(read_track(&p.display().to_string(), open(p)?)?),
+        None => None,
+    };
+    let today = time::OffsetDateTime::now_utc().date();
+    let prepared = prepare(&log, track.as_ref(), args.declination_deg, today)?;
+    for note in &prepared.notes {
+        eprintln!("pim: note: {note}");
+    }
+    let fix = locate(&prepared.readings, &args.options())?;
+    Ok((fix, prepared))
+}
+
+pub fn method_name(m: Method) -> &'static str {
+    match m {
+        Method::Ml => "maximum likelihood",
+        Method::Ls => "least-squares intersection",
+        Method::Robust => "robust M-estimate",
+    }
+}
+
+/// The fix as the JSON object of the contract.
+pub fn fix_json(fix: &Fix, corrections: &[Correction]) -> serde_json::Value {
+    let e = &fix.ellipse;
+    json!({
+        "lat": fix.position.lat_deg,
+        "lon": fix.position.lon_deg,
+        "method": fix.method,
+        "ellipse": {
+            "semi_major_m": e.semi_major_m,
+            "semi_minor_m": e.semi_minor_m,
+            "orientation_deg": e.orientation_deg,
+            "confidence": e.confidence,
+            "area_m2": e.area_m2(),
+        },
+        "cep_m": fix.cep_m,
+        "sigma_deg_used": fix.sigma_deg_used,
+        "sigma_source": fix.sigma_source,
+        "n_used": fix.n_used,
+        "residuals": fix.readings,
+        "outliers": fix.readings.iter().filter(|r| r.outlier)
+            .map(|r| json!({"line": r.line, "residual_deg": r.residual_deg}))
+            .collect::<Vec<_>>(),
+        "declination": corrections,
+        "warnings": fix.warnings,
+    })
+}
+
+/// A few lines that state the fix for people.
+pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> String {
+    let e = &fix.ellipse;
+    let mut s = format!(
+        "Fix by {} from {} of {} readings in {source}\n  {:.6}, {:.6}\n",
+        method_name(fix.method),
+        fix.n_used,
+        fix.readings.len(),
+        fix.position.lat_deg,
+        fix.position.lon_deg
+    );
+    s.push_str(&format!(
+        "  {:.0}% ellipse {:.1} m × {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
+        e.confidence * 100.0,
+        e.semi_major_m,
+        e.semi_minor_m,
+        e.orientation_deg,
+        e.area_m2(),
+        fix.cep_m
+    ));
+    s.push_str(&match fix.sigma_source {
+        SigmaSource::Given => format!("  bearing σ {:.1}° as given (ellipse from χ² with 2 degrees of freedom)\n", fix.sigma_deg_used),
+        SigmaSource::Estimated => format!(
+            "  bearing σ {:.1}° estimated from the residuals (ellipse from F with 2 and {} degrees of freedom)\n",
+            fix.sigma_deg_used,
+            fix.n_used.saturating_sub(2)
+        ),
+    });
+    if !corrections.is_empty() {
+        let mut sources: Vec<&str> = corrections.iter().map(|c| c.source.as_str()).collect();
+        sources.dedup();
+        let (lo, hi) = corrections.iter().fold((f64::MAX, f64::MIN), |(a, b), c| {
+            (a.min(c.declination_deg), b.max(c.declination_deg))
+        });
+        let range = if (hi - lo).abs() < 0.05 {
+            format!("{lo:+.1}°")
+        } else {
+            format!("{lo:+.1}° to {hi:+.1}°")
+        };
+        s.push_str(&format!(
+            "  {} magnetic reading{} turned to true north by {range} ({})\n",
+            corrections.len(),
+            if corrections.len() == 1 { "" } else { "s" },
+            sources.join(", ")
+        ));
+    }
+    s
+}
+
+fn readings_table(fix: &Fix) -> String {
+    let mut t = TextTable::new(&[
+        ("line", Align::Right),
+        ("bearing °", Align::Right),
+        ("to fix °", Align::Right),
+        ("residual °", Align::Right),
+        ("range m", Align::Right),
+        ("weight", Align::Right),
+        ("", Align::Left),
+    ]);
+    for r in &fix.readings {
+        let mut flags = Vec::new();
+        if r.outlier {
+            flags.push("outlier");
+        }
+        if r.flipped {
+            flags.push("taken reversed");
+        }
+        t.push(vec![
+            r.line.to_string(),
+            format!("{:.1}", r.bearing_deg),
+            format!("{:.1}", r.predicted_deg),
+            format!("{:+.1}", r.residual_deg),
+            format!("{:.0}", r.distance_m),
+            format!("{:.2}", r.weight),
+            flags.join(", "),
+        ]);
+    }
+    t.render()
+}
+
+pub fn run(args: Args) -> CliResult {
+    let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
+    let mut out = stdout();
+    match args.format {
+        FixFormat::Table => {
+            write!(
+                out,
+                "{}",
+                fix_summary(&fix, &args.log.display().to_string(), &prepared.corrections)
+            )?;
+            writeln!(out)?;
+            write!(out, "{}", readings_table(&fix))?;
+            for w in &fix.warnings {
+                writeln!(out, "warning: {w}")?;
+            }
+        }
+        FixFormat::Json => {
+            serde_json::to_writer_pretty(&mut out, &fix_json(&fix, &prepared.corrections))
+                .map_err(std::io::Error::from)?;
+            writeln!(out)?;
+        }
+        FixFormat::Geojson => {
+            serde_json::to_writer_pretty(&mut out, &fix_geojson(&fix))
+                .map_err(std::io::Error::from)?;
+            writeln!(out)?;
+        }
+        FixFormat::Kml => {
+            write!(
+                out,
+                "{}",
+                fix_kml(&fix, &format!("Fix from {}", args.log.display()))
+            )?;
+        }
+    }
+    finish(out)
+}

@@ -1,0 +1,350 @@
+//! The field log of a bearing walk: CSV with a header. Required columns `lat`, `lon`
+//! (WGS84 degrees) and `bearing_deg` (clockwise from north, 0–360 inclusive); optional
+//! `time` (ISO 8601; without an offset it is taken as UTC), `north` (`true` or
+//! `magnetic`, default true), `sigma_deg`, `level_dbm`, `note`. A row may leave `lat` and
+//! `lon` empty when a GPS track is given to place it by its time.
+
+use std::io::Read;
+
+use serde::Serialize;
+use time::format_description::well_known::{Iso8601, Rfc3339};
+use time::{OffsetDateTime, PrimitiveDateTime};
+
+use crate::declination::{declination_deg, model_name};
+use crate::error::{Error, Place, Result};
+use crate::fix::Reading;
+use crate::geo::{normalize_bearing_deg, GeoPoint};
+use crate::io::emitters::position_fields;
+use crate::io::table::{parse_finite, Fields, Table};
+use crate::io::track::Track;
+
+/// Columns the field-log reader understands.
+pub const LOG_COLUMNS: &[&str] = &[
+    "lat",
+    "lon",
+    "bearing_deg",
+    "time",
+    "north",
+    "sigma_deg",
+    "level_dbm",
+    "note",
+];
+
+/// The header `pim log` writes.
+pub const LOG_HEADER: &str = "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,note";
+
+/// Which north a bearing is measured from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum North {
+    True,
+    Magnetic,
+}
+
+/// One row of a field log, validated.
+#[derive(Clone, Debug, PartialEq)]
+pub struct LogRow {
+    pub line: u64,
+    pub position: Option<GeoPoint>,
+    pub bearing_deg: f64,
+    pub north: North,
+    pub time: Option<OffsetDateTime>,
+    pub sigma_deg: Option<f64>,
+    pub level_dbm: Option<f64>,
+    pub note: Option<String>,
+}
+
+/// A field log as read.
+#[derive(Clone, Debug, Default)]
+pub struct FieldLog {
+    pub source: String,
+    pub rows: Vec<LogRow>,
+    pub ignored_columns: Vec<String>,
+}
+
+/// Parses an ISO 8601 time; one without an offset is taken as UTC.
+pub fn parse_time(text: &str) -> std::result::Result<OffsetDateTime, String> {
+    let t = text.trim();
+    if let Ok(v) = OffsetDateTime::parse(t, &Rfc3339) {
+        return Ok(v);
+    }
+    if let Ok(v) = OffsetDateTime::parse(t, &Iso8601::DEFAULT) {
+        return Ok(v);
+    }
+    if let Ok(v) = PrimitiveDateTime::parse(t, &Iso8601::DEFAULT) {
+        return Ok(v.assume_utc());
+    }
+    Err(format!(
+        "`{t}` is not an ISO 8601 time such as 2026-11-30T14:05:00Z"
+    ))
+}
+
+/// Validates one row of a field log (shared with `pim log`, which checks a reading the
+/// same way before appending it).
+pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
+    let place = |f: &str| record.place(f);
+    let bearing_text = record
+        .field("bearing_deg")
+        .ok_or_else(|| Error::input(place("bearing_deg"), "missing bearing"))?;
+    let bearing_deg = parse_finite(|| place("bearing_deg"), bearing_text)?;
+    if !(0.0..=360.0).contains(&bearing_deg) {
+        return Err(Error::input(
+            place("bearing_deg"),
+            format!("bearing {bearing_text} is outside 0–360°"),
+        ));
+    }
+    let north = match record
+        .field("north")
+        .map(str::to_ascii_lowercase)
+        .as_deref()
+    {
+        None | Some("true") => North::True,
+        Some("magnetic") => North::Magnetic,
+        Some(other) => {
+            return Err(Error::input(
+                place("north"),
+                format!("`{other}` is neither `true` nor `magnetic`"),
+            ))
+        }
+    };
+    let time = match record.field("time") {
+        Some(t) => Some(parse_time(t).map_err(|m| Error::input(place("time"), m))?),
+        None => None,
+    };
+    let sigma_deg = match record.field("sigma_deg") {
+        Some(t) => {
+            let s = parse_finite(|| place("sigma_deg"), t)?;
+            if s <= 0.0 {
+                return Err(Error::input(
+                    place("sigma_deg"),
+                    format!("σ {t}° must be above zero"),
+                ));
+            }
+            if s > 90.0 {
+                return Err(Error::input(
+                    place("sigma_deg"),
+                    format!("σ {t}° is absurd for a bearing"),
+                ));
+            }
+            Some(s)
+        }
+        None => None,
+    };
+    let level_dbm = match record.field("level_dbm") {
+        Some(t) => {
+            let l = parse_finite(|| place("level_dbm"), t)?;
+            if !(-250.0..=100.0).contains(&l) {
+                return Err(Error::input(
+                    place("level_dbm"),
+                    format!("level {t} dBm is absurd"),
+                ));
+            }
+            Some(l)
+        }
+        None => None,
+    };
+    Ok(LogRow {
+        line,
+        position: position_fields(record)?,
+        bearing_deg,
+        north,
+        time,
+        sigma_deg,
+        level_dbm,
+        note: record.field("note").map(str::to_string),
+    })
+}
+
+/// Reads a field log. With `positions_from_track`, `lat` and `lon` may be absent.
+pub fn read_field_log<R: Read>(
+    source: &str,
+    reader: R,
+    positions_from_track: bool,
+) -> Result<FieldLog> {
+    let mut table = Table::open(source, reader)?;
+    table.require("bearing_deg")?;
+    if !positions_from_track {
+        table.require("lat")?;
+        table.require("lon")?;
+    }
+    let mut log = FieldLog {
+        source: source.to_string(),
+        ignored_columns: table.unknown_columns(LOG_COLUMNS),
+        ..Default::default()
+    };
+    let mut last_line = 0;
+    while let Some(row) = table.next_row()? {
+        last_line = row.line;
+        log.rows.push(log_row(&row, row.line)?);
+    }
+    if table.ended_mid_line() && last_line > 0 {
+        return Err(Error::input(
+            Place::new(source).at_line(last_line),
+            "the last row has no line end: it may be torn by an interrupted write; check it and end it with a newline",
+        ));
+    }
+    if log.rows.is_empty() {
+        return Err(Error::input(
+            Place::new(source),
+            "no readings after the header",
+        ));
+    }
+    Ok(log)
+}
+
+/// A declination applied to a magnetic reading.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Correction {
+    pub line: u64,
+    pub declination_deg: f64,
+    /// `WMM2025`, `WMM2020` or `given`.
+    pub source: String,
+}
+
+/// Readings ready for the fix, with the corrections applied and notes on the way.
+#[derive(Clone, Debug, Default)]
+pub struct Prepared {
+    pub readings: Vec<Reading>,
+    pub corrections: Vec<Correction>,
+    pub notes: Vec<String>,
+}
+
+/// Places rows on the track where they lack a position and turns magnetic bearings into
+/// true ones (`declination` given, else the World Magnetic Model at the row's place and
+/// date; today's date when the row has no time).
+pub fn prepare(
+    log: &FieldLog,
+    track: Option<&Track>,
+    declination: Option<f64>,
+    today: time::Date,
+) -> Result<Prepared> {
+    let mut out = Prepared::default();
+    let mut undated = Vec::new();
+    for row in &log.rows {
+        let place = |f: &str| Place::new(&log.source).at_line(row.line).at_field(f);
+        let position = match (row.position, track) {
+            (Some(p), _) => p,
+            (None, Some(track)) => {
+                let t = row.time.ok_or_else(|| {
+                    Error::input(place("time"), "no position and no time to find it on the track")
+                })?;
+                track.position_at(t).ok_or_else(|| {
+                    Error::input(
+                        place("time"),
+                        format!(
+                            "{} is outside the track ({} to {})",
+                            t.format(&Rfc3339).unwrap_or_default(),
+                            track.first_time().and_then(|x| x.format(&Rfc3339).ok()).unwrap_or_default(),
+                            track.last_time().and_then(|x| x.format(&Rfc3339).ok()).unwrap_or_default(),
+                        ),
+                    )
+                })?
+            }
+            (None, None) => {
+                return Err(Error::input(
+                    place("lat"),
+                    "no position: give lat and lon, or a GPS track (--track) to place the reading by its time",
+                ))
+            }
+        };
+        let mut bearing = row.bearing_deg;
+        if row.north == North::Magnetic {
+            let (d, source) = match declination {
+                Some(d) => (d, "given".to_string()),
+                None => {
+                    let date = match row.time {
+                        Some(t) => t.date(),
+                        None => {
+                            undated.push(row.line.to_string());
+                            today
+                        }
+                    };
+                    let d = declination_deg(position, date).map_err(|m| {
+                        Error::input(
+                            place("time"),
+                            format!("the World Magnetic Model cannot answer: {m}; give --declination-deg"),
+                        )
+                    })?;
+                    (d, model_name(date).to_string())
+                }
+            };
+            bearing = normalize_bearing_deg(bearing + d);
+            out.corrections.push(Correction {
+                line: row.line,
+                declination_deg: d,
+                source,
+            });
+        }
+        out.readings.push(Reading {
+            line: row.line,
+            observer: position,
+            bearing_deg: normalize_bearing_deg(bearing),
+            sigma_deg: row.sigma_deg,
+        });
+    }
+    if !undated.is_empty() {
+        out.notes.push(format!(
+            "magnetic reading{} without a time (line {}): declination for today's date",
+            if undated.len() == 1 { "" } else { "s" },
+            undated.join(", ")
+        ));
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn read(text: &str) -> Result<FieldLog> {
+        read_field_log("walk.csv", text.as_bytes(), false)
+    }
+
+    #[test]
+    fn reads_rows_and_names_bad_values() {
+        let log = read(
+            "lat,lon,bearing_deg,north,sigma_deg\n45.1,-122.4,360,magnetic,4\n45.2,-122.4,12.5,,\n",
+        )
+        .unwrap();
+        assert_eq!(log.rows.len(), 2);
+        assert_eq!(log.rows[0].north, North::Magnetic);
+        assert_eq!(log.rows[1].sigma_deg, None);
+        for (text, want) in [
+            (
+                "lat,lon,bearing_deg\n45,-122,400\n",
+                "walk.csv, line 2, field `bearing_deg`: bearing 400 is outside 0–360°",
+            ),
+            (
+                "lat,lon,bearing_deg\n45,-122,NaN\n",
+                "walk.csv, line 2, field `bearing_deg`: `NaN` is not a finite number",
+            ),
+            (
+                "lat,lon,bearing_deg,sigma_deg\n45,-122,10,-2\n",
+                "walk.csv, line 2, field `sigma_deg`: σ -2° must be above zero",
+            ),
+            (
+                "lon,bearing_deg\n-122,10\n",
+                "walk.csv, line 1, field `lat`: missing column",
+            ),
+            (
+                "lat,lon,bearing_deg\n45,-122,10\n45,-122,1",
+                "walk.csv, line 3: the last row has no line end",
+            ),
+            (
+                "lat,lon,bearing_deg,time\n45,-122,10,yesterday\n",
+                "walk.csv, line 2, field `time`: `yesterday` is not an ISO 8601 time",
+            ),
+        ] {
+            let e = read(text).unwrap_err().to_string();
+            assert!(e.starts_with(want), "{e}");
+        }
+    }
+
+    #[test]
+    fn times_without_offset_are_utc() {
+        let a = parse_time("2026-11-30T14:05:00").unwrap();
+        let b = parse_time("2026-11-30T14:05:00Z").unwrap();
+        assert_eq!(a, b);
+        assert_eq!(parse_time("2026-11-30T15:05:00+01:00").unwrap(), b);
+    }
+}
