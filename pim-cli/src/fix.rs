@@ -46,10 +46,10 @@ pub struct FixArgs {
     #[arg(long, value_enum, default_value_t = LossArg::Huber)]
     pub loss: LossArg,
     /// Probability that the ellipse holds the junction.
-    #[arg(long, default_value = "0.95", value_parser = confidence_arg)]
+    #[arg(long, default_value = "0.95", value_parser = confidence_arg, allow_hyphen_values = true)]
     pub confidence: f64,
     /// Standard deviation of every bearing in degrees (overrides the log's sigma_deg).
-    #[arg(long, value_name = "DEG", value_parser = sigma_arg)]
+    #[arg(long, value_name = "DEG", value_parser = sigma_arg, allow_hyphen_values = true)]
     pub sigma_deg: Option<f64>,
     /// GPS track (GPX) that places readings lacking lat/lon by their time.
     #[arg(long, value_name = "GPX")]

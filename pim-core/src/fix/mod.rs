@@ -437,10 +437,11 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
             let settled = weights
                 .iter()
                 .zip(&new_weights)
-                .all(|(a, b)| (a - b).abs() < 1e-6);
+                .all(|(a, b)| (a - b).abs() < 1e-4);
             at = next;
             weights = new_weights;
-            if moved < 1e-4 && settled {
+            // a millimetre and weights steady to 1e-4: settled for any survey purpose
+            if moved < 1e-3 && settled {
                 break;
             }
         }

@@ -1,0 +1,221 @@
+//! End-to-end runs of `pim fix`: the demo walk in every format, the JSON contract, the
+//! exports parsed back with independent readers, and each kind of bad walk.
+
+use pim_tests::{bad_input, field_log, pim, stderr_of, stdout_of};
+
+fn p(path: std::path::PathBuf) -> String {
+    path.display().to_string()
+}
+
+#[test]
+fn json_follows_the_contract() {
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk.csv")),
+        "--method",
+        "robust",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    for key in ["lat", "lon", "cep_m", "sigma_deg_used", "n_used"] {
+        assert!(v[key].is_number(), "{key}");
+    }
+    assert_eq!(v["method"], "robust");
+    assert_eq!(v["sigma_source"], "estimated");
+    for key in ["semi_major_m", "semi_minor_m", "orientation_deg"] {
+        assert!(v["ellipse"][key].is_number(), "{key}");
+    }
+    assert_eq!(v["ellipse"]["confidence"], 0.95);
+    let o_deg = v["ellipse"]["orientation_deg"].as_f64().unwrap();
+    assert!((0.0..180.0).contains(&o_deg));
+    assert_eq!(v["residuals"].as_array().unwrap().len(), 8);
+    assert_eq!(v["residuals"][0]["line"], 2);
+    // the reading beside the metal shed, line 6 of the log, is the reflection
+    assert_eq!(v["outliers"][0]["line"], 6);
+    assert!(v["outliers"][0]["residual_deg"].as_f64().unwrap() > 30.0);
+    assert!(v["warnings"].is_array());
+    // two magnetic readings turned by the WMM declination (about +14° on this site)
+    let d = v["declination"].as_array().unwrap();
+    assert_eq!(d.len(), 2);
+    assert_eq!(d[0]["source"], "WMM2025");
+    assert!((d[0]["declination_deg"].as_f64().unwrap() - 14.3).abs() < 0.5);
+    // the planted junction (45.104620, −122.414033) is inside the ellipse, a few metres off
+    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    assert!((lat - 45.104620).abs() < 1e-4 && (lon + 122.414033).abs() < 1e-4);
+}
+
+#[test]
+fn options_are_applied() {
+    let log = p(field_log("walk.csv"));
+    let given = pim(&[
+        "fix",
+        "--log",
+        &log,
+        "--sigma-deg",
+        "3",
+        "--confidence",
+        "0.5",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&given)).unwrap();
+    assert_eq!(v["sigma_source"], "given");
+    assert_eq!(v["sigma_deg_used"], 3.0);
+    assert_eq!(v["ellipse"]["confidence"], 0.5);
+    let declined = pim(&[
+        "fix",
+        "--log",
+        &log,
+        "--declination-deg",
+        "14.0",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&declined)).unwrap();
+    assert_eq!(v["declination"][0]["source"], "given");
+    assert_eq!(v["declination"][0]["declination_deg"], 14.0);
+    let ls = pim(&["fix", "--log", &log, "--method", "ls", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&ls)).unwrap();
+    assert_eq!(v["method"], "ls");
+    let table = pim(&["fix", "--log", &log]);
+    assert!(stdout_of(&table).contains("95% ellipse"));
+}
+
+#[test]
+fn track_places_readings_without_positions() {
+    let with = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk.csv")),
+        "--format",
+        "json",
+    ]);
+    let placed = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk-no-positions.csv")),
+        "--track",
+        &p(field_log("walk.gpx")),
+        "--format",
+        "json",
+    ]);
+    assert!(placed.status.success(), "{}", stderr_of(&placed));
+    let a: serde_json::Value = serde_json::from_str(&stdout_of(&with)).unwrap();
+    let b: serde_json::Value = serde_json::from_str(&stdout_of(&placed)).unwrap();
+    assert!((a["lat"].as_f64().unwrap() - b["lat"].as_f64().unwrap()).abs() < 1e-6);
+    assert!((a["lon"].as_f64().unwrap() - b["lon"].as_f64().unwrap()).abs() < 1e-6);
+}
+
+/// GeoJSON read back with the geojson crate (RFC 7946): a Point fix, a closed Polygon
+/// ellipse holding the fix, LineString bearings and observer Points.
+#[test]
+fn geojson_parses_and_holds_the_fix() {
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk.csv")),
+        "--format",
+        "geojson",
+    ]);
+    let fc: geojson::FeatureCollection = stdout_of(&o).parse().unwrap();
+    let kinds: Vec<String> = fc
+        .features
+        .iter()
+        .map(|f| f.property("kind").unwrap().as_str().unwrap().to_string())
+        .collect();
+    assert_eq!(kinds.iter().filter(|k| *k == "fix").count(), 1);
+    assert_eq!(kinds.iter().filter(|k| *k == "ellipse").count(), 1);
+    assert_eq!(kinds.iter().filter(|k| *k == "bearing").count(), 8);
+    assert_eq!(kinds.iter().filter(|k| *k == "observer").count(), 8);
+    let point = match &fc.features[0].geometry.as_ref().unwrap().value {
+        geojson::GeometryValue::Point { coordinates } => coordinates.as_slice().to_vec(),
+        other => panic!("{other:?}"),
+    };
+    let ring = match &fc.features[1].geometry.as_ref().unwrap().value {
+        geojson::GeometryValue::Polygon { coordinates } => coordinates[0].clone(),
+        other => panic!("{other:?}"),
+    };
+    assert_eq!(ring.first(), ring.last());
+    // point in polygon by ray casting, and counterclockwise (positive) signed area
+    let (x, y) = (point[0], point[1]);
+    let mut inside = false;
+    let mut area = 0.0;
+    for w in ring.windows(2) {
+        let (a, b) = (w[0].as_slice(), w[1].as_slice());
+        if (a[1] > y) != (b[1] > y) && x < (b[0] - a[0]) * (y - a[1]) / (b[1] - a[1]) + a[0] {
+            inside = !inside;
+        }
+        area += a[0] * b[1] - b[0] * a[1];
+    }
+    assert!(inside);
+    assert!(area > 0.0, "RFC 7946 wants exterior rings counterclockwise");
+}
+
+/// KML read back as XML (quick-xml): one Point fix, a Polygon, LineStrings.
+#[test]
+fn kml_is_well_formed() {
+    let o = pim(&["fix", "--log", &p(field_log("walk.csv")), "--format", "kml"]);
+    let text = stdout_of(&o);
+    let mut reader = quick_xml::Reader::from_str(&text);
+    let (mut points, mut polygons, mut lines) = (0, 0, 0);
+    loop {
+        match reader.read_event().unwrap() {
+            quick_xml::events::Event::Start(e) => match e.name().as_ref() {
+                b"Point" => points += 1,
+                b"Polygon" => polygons += 1,
+                b"LineString" => lines += 1,
+                _ => {}
+            },
+            quick_xml::events::Event::Eof => break,
+            _ => {}
+        }
+    }
+    assert_eq!((points, polygons, lines), (9, 1, 8));
+    assert!(text.contains("xmlns=\"http://www.opengis.net/kml/2.2\""));
+}
+
+#[test]
+fn bad_walks_are_named_or_refused() {
+    let cases: &[(&str, i32, &str)] = &[
+        ("walk-bearing-out-of-range.csv", 3, "walk-bearing-out-of-range.csv, line 3, field `bearing_deg`: bearing 412 is outside 0–360°"),
+        ("walk-text-bearing.csv", 3, "walk-text-bearing.csv, line 2, field `bearing_deg`: `north-east` is not a number"),
+        ("walk-nan-lat.csv", 3, "walk-nan-lat.csv, line 3, field `lat`: `NaN` is not a finite number"),
+        ("walk-missing-lat-column.csv", 3, "walk-missing-lat-column.csv, line 1, field `lat`: missing column"),
+        ("walk-missing-lat.csv", 3, "walk-missing-lat.csv, line 3, field `lat`: `lon` is given but `lat` is empty"),
+        ("walk-negative-sigma.csv", 3, "walk-negative-sigma.csv, line 2, field `sigma_deg`: σ -3° must be above zero"),
+        ("walk-torn.csv", 3, "walk-torn.csv, line 3: the last row has no line end"),
+        ("walk-one-reading.csv", 5, "1 usable reading: a fix needs at least two bearings"),
+        ("walk-parallel.csv", 5, "the bearings are parallel"),
+        ("walk-diverging.csv", 5, "meet only behind the observers"),
+    ];
+    for (file, code, want) in cases {
+        let o = pim(&["fix", "--log", &p(bad_input(file))]);
+        let err = stderr_of(&o).replace(&p(bad_input("")), "");
+        assert_eq!(o.status.code(), Some(*code), "{file}: {err}");
+        assert!(err.contains(want), "{file}: {err}");
+    }
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(bad_input("walk-outside-track.csv")),
+        "--track",
+        &p(field_log("walk.gpx")),
+    ]);
+    let err = stderr_of(&o);
+    assert_eq!(o.status.code(), Some(3), "{err}");
+    assert!(err.contains("walk-outside-track.csv, line 3, field `time`: 2026-11-28T12:00:00Z is outside the track"), "{err}");
+    for (args, want) in [
+        (vec!["--confidence", "1.5"], "not a probability"),
+        (vec!["--sigma-deg", "-1"], "must be above 0"),
+        (vec!["--method", "guess"], "invalid value 'guess'"),
+    ] {
+        let mut full = vec!["fix", "--log", "field-logs/walk.csv"];
+        full.extend(args);
+        let o = pim(&full);
+        assert_eq!(o.status.code(), Some(2));
+        assert!(stderr_of(&o).contains(want), "{}", stderr_of(&o));
+    }
+}
