@@ -91,6 +91,21 @@ fn declination_arg(text: &str) -> Result<f64, String> {
     }
 }
 
+impl Default for FixArgs {
+    /// Maximum likelihood, 95 %, σ from the log, no track, declination from the WMM.
+    fn default() -> Self {
+        FixArgs {
+            method: MethodArg::Ml,
+            loss: LossArg::Huber,
+            confidence: 0.95,
+            sigma_deg: None,
+            track: None,
+            declination_deg: None,
+            ambiguous: false,
+        }
+    }
+}
+
 impl FixArgs {
     pub fn options(&self) -> FixOptions {
         FixOptions {

@@ -12,6 +12,8 @@ mod common;
 mod demo;
 mod explain;
 mod fix;
+mod log;
+mod next;
 mod render;
 mod study;
 
@@ -32,6 +34,10 @@ enum Command {
     Explain(explain::Args),
     /// Locate the junction from a bearing walk, with its confidence ellipse.
     Fix(fix::Args),
+    /// Add a bearing reading to a field log and show the running fix.
+    Log(log::Args),
+    /// Where the next bearing would shrink the ellipse most.
+    Next(next::Args),
     /// Every product that lands on each receiver of a site.
     Study(study::Args),
     /// Run the job on the built-in invented demo site.
@@ -65,6 +71,8 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Explain(args) => explain::run(args),
         Command::Fix(args) => fix::run(args),
+        Command::Log(args) => log::run(args),
+        Command::Next(args) => next::run(args),
         Command::Study(args) => study::run(args),
         Command::Demo(args) => demo::run(args),
     };
@@ -76,5 +84,16 @@ fn main() -> ExitCode {
             }
             ExitCode::from(exit_code(&err))
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use clap::CommandFactory;
+
+    /// Every command's options are consistent (unique names, valid groups).
+    #[test]
+    fn command_line_is_consistent() {
+        super::Cli::command().debug_assert();
     }
 }

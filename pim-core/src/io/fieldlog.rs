@@ -192,6 +192,59 @@ pub fn read_field_log<R: Read>(
     Ok(log)
 }
 
+/// One reading as typed, before it joins a log: the text of each column by name.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct LogEntry {
+    pub fields: Vec<(&'static str, String)>,
+    /// Where a bad value came from, by column (an option name for `pim log`).
+    pub origin: Vec<(&'static str, String)>,
+}
+
+impl Fields for LogEntry {
+    fn field(&self, name: &str) -> Option<&str> {
+        self.fields
+            .iter()
+            .find(|(k, _)| *k == name)
+            .map(|(_, v)| v.as_str())
+            .filter(|v| !v.is_empty())
+    }
+    fn place(&self, name: &str) -> Place {
+        let origin = self
+            .origin
+            .iter()
+            .find(|(k, _)| *k == name)
+            .map(|(_, v)| v.clone())
+            .unwrap_or_else(|| name.to_string());
+        Place::new(origin)
+    }
+}
+
+fn csv_quote(text: &str) -> String {
+    if text.contains([',', '"']) || text.starts_with('#') {
+        format!("\"{}\"", text.replace('"', "\"\""))
+    } else {
+        text.to_string()
+    }
+}
+
+impl LogEntry {
+    /// The entry as a CSV row in the column order of `header` (an existing log's first
+    /// line); columns it does not know stay empty. Refuses a header that lacks the
+    /// required columns, naming `source`.
+    pub fn row_for_header(&self, header: &str, source: &str) -> Result<String> {
+        let table = Table::open(source, header.as_bytes())?;
+        table.require("bearing_deg")?;
+        table.require("lat")?;
+        table.require("lon")?;
+        let cells: Vec<String> = table
+            .headers()
+            .iter()
+            .map(|h| self.field(h).map(csv_quote).unwrap_or_default())
+            .collect();
+        Ok(cells.join(","))
+    }
+}
+
 /// A declination applied to a magnetic reading.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Correction {
@@ -290,6 +343,30 @@ pub fn prepare(
         ));
     }
     Ok(out)
+}
+
+/// Reads candidate spots for the next bearing: CSV with `lat`, `lon` and an optional
+/// `name` (gates, road bends, a walkable path).
+pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<crate::walk::Spot>> {
+    let mut table = Table::open(source, reader)?;
+    table.require("lat")?;
+    table.require("lon")?;
+    let mut spots = Vec::new();
+    while let Some(row) = table.next_row()? {
+        let position = position_fields(&row)?
+            .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
+        spots.push(crate::walk::Spot {
+            name: row.get("name").map(str::to_string),
+            position,
+        });
+    }
+    if spots.is_empty() {
+        return Err(Error::input(
+            Place::new(source),
+            "no spots after the header",
+        ));
+    }
+    Ok(spots)
 }
 
 #[cfg(test)]

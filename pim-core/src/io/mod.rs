@@ -4,6 +4,7 @@
 //! Every reader names the source, the line (the header is line 1) and the field of a bad
 //! value, and stops at the first one.
 
+pub mod append;
 pub mod emitters;
 pub mod export;
 pub mod fieldlog;

@@ -1,0 +1,173 @@
+//! `pim log FILE`: add one bearing reading to a field log, safely, and show the running
+//! fix.
+
+use std::io::Write;
+use std::path::PathBuf;
+
+use pim_core::error::{Error, ErrorClass};
+use pim_core::io::append::{append_row, read_locked};
+use pim_core::io::fieldlog::{log_row, LogEntry, LOG_HEADER};
+use pim_core::io::track::read_track;
+use time::format_description::well_known::Rfc3339;
+
+use crate::common::{finish, open, stdout, CliResult};
+use crate::fix::{fix_from_log, FixArgs};
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum NorthArg {
+    True,
+    Magnetic,
+}
+
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// The field log to add to (created with its header when missing).
+    #[arg(value_name = "FILE")]
+    pub file: PathBuf,
+    /// Latitude of the spot, WGS84 degrees.
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
+    pub lat: Option<String>,
+    /// Longitude of the spot, WGS84 degrees.
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
+    pub lon: Option<String>,
+    /// Take the position from the newest point of this GPS track instead.
+    #[arg(long, value_name = "GPX", conflicts_with_all = ["lat", "lon"])]
+    pub gps_from: Option<PathBuf>,
+    /// The bearing read on the antenna, degrees clockwise from north.
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
+    pub bearing_deg: String,
+    /// Which north the bearing is from.
+    #[arg(long, value_enum, default_value_t = NorthArg::True)]
+    pub north: NorthArg,
+    /// This reading's standard deviation in degrees.
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
+    pub sigma_deg: Option<String>,
+    /// Signal level seen, dBm.
+    #[arg(long, value_name = "DBM", allow_hyphen_values = true)]
+    pub level_dbm: Option<String>,
+    /// A note (where, what was seen).
+    #[arg(long)]
+    pub note: Option<String>,
+    /// When the reading was taken, ISO 8601 (default: now, UTC).
+    #[arg(long, value_name = "TIME")]
+    pub time: Option<String>,
+}
+
+/// A bad value typed on the command line: the option is named, exit code 2.
+fn as_argument(e: Error) -> Error {
+    if e.class == ErrorClass::Input && e.place.as_ref().is_some_and(|p| p.line.is_none()) {
+        Error {
+            class: ErrorClass::Argument,
+            ..e
+        }
+    } else {
+        e
+    }
+}
+
+pub fn run(args: Args) -> CliResult {
+    let (lat, lon, time) = match &args.gps_from {
+        Some(gpx) => {
+            let track = read_track(&gpx.display().to_string(), open(gpx)?)?;
+            let (t, p) = track.newest().ok_or_else(|| {
+                Error::input(
+                    pim_core::Place::new(gpx.display().to_string()),
+                    "no timed track point",
+                )
+            })?;
+            let when = args.time.clone().or_else(|| t.format(&Rfc3339).ok());
+            (
+                Some(format!("{:.7}", p.lat_deg)),
+                Some(format!("{:.7}", p.lon_deg)),
+                when,
+            )
+        }
+        None => (args.lat.clone(), args.lon.clone(), args.time.clone()),
+    };
+    if lat.is_none() || lon.is_none() {
+        return Err(Error::argument(
+            "--lat/--lon",
+            "give the spot's position, or --gps-from a GPS track",
+        )
+        .into());
+    }
+    let now = time::OffsetDateTime::now_utc()
+        .replace_nanosecond(0)
+        .unwrap_or_else(|_| time::OffsetDateTime::now_utc());
+    let time = time.unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
+    if let Some(note) = &args.note {
+        if note.contains(['\n', '\r']) {
+            return Err(Error::argument("--note", "a note must fit on one line").into());
+        }
+    }
+    let text = |v: &Option<String>| v.clone().unwrap_or_default();
+    let entry = LogEntry {
+        fields: vec![
+            ("time", time),
+            ("lat", text(&lat)),
+            ("lon", text(&lon)),
+            ("bearing_deg", args.bearing_deg.clone()),
+            (
+                "north",
+                match args.north {
+                    NorthArg::True => "true",
+                    NorthArg::Magnetic => "magnetic",
+                }
+                .to_string(),
+            ),
+            ("sigma_deg", text(&args.sigma_deg)),
+            ("level_dbm", text(&args.level_dbm)),
+            ("note", text(&args.note)),
+        ],
+        origin: vec![
+            ("time", "--time".into()),
+            ("lat", "--lat".into()),
+            ("lon", "--lon".into()),
+            ("bearing_deg", "--bearing-deg".into()),
+            ("north", "--north".into()),
+            ("sigma_deg", "--sigma-deg".into()),
+            ("level_dbm", "--level-dbm".into()),
+            ("note", "--note".into()),
+        ],
+    };
+    // The reading is checked exactly as the log reader will check it, before any write.
+    log_row(&entry, 0).map_err(as_argument)?;
+    let source = args.file.display().to_string();
+    let appended = append_row(&args.file, LOG_HEADER, &|header| {
+        entry.row_for_header(header, &source)
+    })?;
+    let mut out = stdout();
+    writeln!(
+        out,
+        "Saved to {source}, line {}{}.",
+        appended.line,
+        if appended.created { " (new log)" } else { "" }
+    )?;
+    // The running fix, from the whole log as it now stands.
+    let bytes = read_locked(&args.file)?;
+    let text = String::from_utf8_lossy(&bytes);
+    match fix_from_log(&args.file, Some(&text), &FixArgs::default()) {
+        Ok((fix, _)) => {
+            let e = &fix.ellipse;
+            writeln!(
+                out,
+                "Running fix {:.6}, {:.6} from {} readings; {:.0}% ellipse {:.0} × {:.0} m at {:.0}°.",
+                fix.position.lat_deg,
+                fix.position.lon_deg,
+                fix.n_used,
+                e.confidence * 100.0,
+                e.semi_major_m,
+                e.semi_minor_m,
+                e.orientation_deg
+            )?;
+        }
+        Err(crate::common::CliError::Core(e)) if e.class == ErrorClass::Refused => {
+            writeln!(out, "No fix yet: {}", e.message)?;
+        }
+        Err(crate::common::CliError::Core(e)) => {
+            writeln!(out, "No fix yet: {e}")?;
+        }
+        Err(other) => return Err(other),
+    }
+    finish(out)
+}

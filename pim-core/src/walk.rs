@@ -1,0 +1,123 @@
+//! Where to stand next: the spot whose bearing would shrink the ellipse most.
+//!
+//! D-optimal design: each candidate spot is scored by the determinant of the Fisher
+//! information about the junction's position after adding one bearing taken there. The
+//! information of the readings so far is the inverse of the fix's covariance; one more
+//! bearing with standard deviation σ (radians) from distance d adds uuᵀ/(σ²d²), u the
+//! unit vector across its line of bearing (Gavish & Weiss, IEEE Trans. AES 28 (1992)
+//! 817–828). The current fix stands in for the unknown junction.
+
+use serde::Serialize;
+
+use crate::error::Result;
+use crate::fix::ellipse::{ellipse_from_covariance, scale_squared, Ellipse};
+use crate::fix::{Fix, SigmaSource};
+use crate::geo::{destination, distance_and_azimuth, GeoPoint};
+
+/// A place a bearing could be taken from.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Spot {
+    pub name: Option<String>,
+    pub position: GeoPoint,
+}
+
+/// A spot with its score.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ScoredSpot {
+    pub spot: Spot,
+    /// Distance from the spot to the current fix.
+    pub distance_m: f64,
+    /// The bearing the antenna would show there if the fix is right.
+    pub bearing_to_fix_deg: f64,
+    /// det of the Fisher information after the reading, m⁻⁴.
+    pub information_det: f64,
+    /// The ellipse expected after the reading.
+    pub expected: Ellipse,
+}
+
+/// `count` spots on a circle of `radius_m` around `center`, from north clockwise.
+pub fn ring(center: GeoPoint, radius_m: f64, count: usize) -> Vec<Spot> {
+    (0..count)
+        .map(|i| {
+            let az = 360.0 * i as f64 / count as f64;
+            Spot {
+                name: Some(format!("{az:03.0}° from the fix, {radius_m:.0} m out")),
+                position: destination(center, az, radius_m),
+            }
+        })
+        .collect()
+}
+
+fn inverse(m: [[f64; 2]; 2]) -> Option<[[f64; 2]; 2]> {
+    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
+    if !(det.is_finite() && det > 0.0) {
+        return None;
+    }
+    Some([
+        [m[1][1] / det, -m[0][1] / det],
+        [-m[1][0] / det, m[0][0] / det],
+    ])
+}
+
+/// The Fisher information one bearing of σ `sigma_deg` from `from` adds about a junction
+/// at `at`, in east/north m⁻².
+pub fn bearing_information(from: GeoPoint, at: GeoPoint, sigma_deg: f64) -> [[f64; 2]; 2] {
+    let (d, az) = distance_and_azimuth(from, at);
+    // direction of the line at the junction ≈ azimuth from the spot (short ranges)
+    let t = az.to_radians();
+    let u = [t.cos(), -t.sin()];
+    let s = sigma_deg.to_radians();
+    let k = 1.0 / (s * s * d * d);
+    [
+        [k * u[0] * u[0], k * u[0] * u[1]],
+        [k * u[1] * u[0], k * u[1] * u[1]],
+    ]
+}
+
+/// Scores every spot at least `min_range_m` from the fix, best first (ties by input
+/// order). `sigma_deg` is the σ expected of the next bearing.
+pub fn rank_spots(
+    fix: &Fix,
+    spots: &[Spot],
+    sigma_deg: f64,
+    min_range_m: f64,
+) -> Result<Vec<ScoredSpot>> {
+    let Some(info) = inverse(fix.covariance_m2) else {
+        return Ok(Vec::new());
+    };
+    let dof = match fix.sigma_source {
+        SigmaSource::Given => None,
+        SigmaSource::Estimated => Some(fix.n_used as f64 - 1.0),
+    };
+    let k2 = scale_squared(fix.ellipse.confidence, dof)?;
+    let mut scored: Vec<(usize, ScoredSpot)> = Vec::new();
+    for (i, spot) in spots.iter().enumerate() {
+        let (d, az) = distance_and_azimuth(spot.position, fix.position);
+        if d < min_range_m {
+            continue;
+        }
+        let add = bearing_information(spot.position, fix.position, sigma_deg);
+        let after = [
+            [info[0][0] + add[0][0], info[0][1] + add[0][1]],
+            [info[1][0] + add[1][0], info[1][1] + add[1][1]],
+        ];
+        let det = after[0][0] * after[1][1] - after[0][1] * after[1][0];
+        let Some(cov) = inverse(after) else { continue };
+        scored.push((
+            i,
+            ScoredSpot {
+                spot: spot.clone(),
+                distance_m: d,
+                bearing_to_fix_deg: az,
+                information_det: det,
+                expected: ellipse_from_covariance(cov, k2, fix.ellipse.confidence),
+            },
+        ));
+    }
+    scored.sort_by(|a, b| {
+        b.1.information_det
+            .total_cmp(&a.1.information_det)
+            .then(a.0.cmp(&b.0))
+    });
+    Ok(scored.into_iter().map(|(_, s)| s).collect())
+}
