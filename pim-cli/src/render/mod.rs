@@ -2,3 +2,9 @@
 
 pub mod candidates;
 pub mod text_table;
+
+// The pictures of the maintenance ticket; wired in by the ticket command.
+#[allow(dead_code)]
+pub mod map;
+#[allow(dead_code)]
+pub mod picture;
