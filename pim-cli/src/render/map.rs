@@ -17,8 +17,8 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::picture::{
     axis_font, bold_style, draw_labels, fallback_svg, px, round_length, text_style, text_width_px,
-    Area, DrawResult, LabelJob, PlacedLabel, Rect, GRID, INK, LABEL_PX, MOSS, MUTED, OCHRE,
-    OCHRE_DARK, PAPER, PLUM, RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
+    Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID, INK, LABEL_PX, MOSS, MUTED,
+    OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
 };
 
 /// Size of the picture in pixels.
@@ -676,7 +676,11 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         x1: plot.x1 - 2.0,
         y1: plot.y1 - 2.0,
     };
-    let mut labels = draw_labels(root, bounds, &blocks, &jobs)?;
+    let mut placer = LabelPlacer::new(bounds);
+    for b in &blocks {
+        placer.block(*b);
+    }
+    let mut labels = draw_labels(root, &mut placer, &jobs)?;
 
     // The side column: the detail, then the legend.
     let (sx, sy) = side.get_base_pixel();
@@ -812,7 +816,11 @@ fn draw_detail(
         x1: box_px.x1 - 2.0,
         y1: box_px.y1 - 2.0,
     };
-    let labels = draw_labels(root, bounds, &blocks, &jobs)?;
+    let mut placer = LabelPlacer::new(bounds);
+    for b in &blocks {
+        placer.block(*b);
+    }
+    let labels = draw_labels(root, &mut placer, &jobs)?;
     Ok((
         DetailLayout {
             frame: box_px,

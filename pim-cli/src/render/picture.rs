@@ -303,21 +303,17 @@ pub type DrawResult<T> = Result<T, DrawingAreaErrorKind<std::io::Error>>;
 /// A part of an SVG picture, in pixel coordinates.
 pub type Area<'a> = DrawingArea<SVGBackend<'a>, plotters::coord::Shift>;
 
-/// Places and draws labels, in the order given, inside `bounds` clear of `blocks`;
-/// a label pushed away from its point gets a thin leader.
+/// Places and draws labels, in the order given, with `placer` (which already holds the
+/// marks to keep clear of); a label whose point lies outside the placer's bounds is
+/// skipped, and one pushed away from its point gets a thin leader.
 pub fn draw_labels(
     area: &Area,
-    bounds: Rect,
-    blocks: &[Rect],
+    placer: &mut LabelPlacer,
     jobs: &[LabelJob],
 ) -> DrawResult<Vec<PlacedLabel>> {
-    let mut placer = LabelPlacer::new(bounds);
-    for b in blocks {
-        placer.block(*b);
-    }
     let mut placed_all = Vec::new();
     for job in jobs {
-        if job.text.trim().is_empty() || !bounds.contains_point(job.at) {
+        if job.text.trim().is_empty() || !placer.bounds.contains_point(job.at) {
             continue;
         }
         let placed = placer.place_near(job.at, label_size_px(&job.text, LABEL_PX), job.gap);
