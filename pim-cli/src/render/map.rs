@@ -272,7 +272,9 @@ struct MapLayout {
     scale_bar_m: f64,
     /// Left and right ends of the scale bar in pixels.
     scale_bar_px: (i32, i32),
-    north_arrow: Option<Rect>,
+    north_arrow_box: Option<Rect>,
+    /// Tip and base middle of the north arrow.
+    north_arrow: ((f64, f64), (f64, f64)),
     fix_px: Option<(i32, i32)>,
     ellipse_px: Vec<(i32, i32)>,
     /// Every label drawn, on the map and in the detail.
@@ -626,7 +628,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         &scale_label,
     )?;
     let arrow_box = emptiest_corner(&plot, (26.0, 46.0), 10.0, &marks.occupied, Some(&scale_box));
-    draw_north_arrow(root, &arrow_box)?;
+    let north_arrow = draw_north_arrow(root, &arrow_box)?;
     blocks.push(scale_box);
     blocks.push(arrow_box);
     if let Some(r) = bbox(&marks.ellipse_px) {
@@ -716,7 +718,8 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         px_per_m_north,
         scale_bar_m: scale_m,
         scale_bar_px,
-        north_arrow: Some(arrow_box),
+        north_arrow_box: Some(arrow_box),
+        north_arrow,
         fix_px: marks.fix_px,
         ellipse_px: marks.ellipse_px,
         labels,
@@ -910,8 +913,9 @@ fn draw_scale_bar(
     Ok((x0, x1))
 }
 
-/// An arrowhead pointing up the page (north), half filled, with an N above it.
-fn draw_north_arrow(area: &Area, frame: &Rect) -> DrawResult<()> {
+/// An arrowhead pointing up the page (north), half filled, with an N above it; returns
+/// its tip and the middle of its base.
+fn draw_north_arrow(area: &Area, frame: &Rect) -> DrawResult<((f64, f64), (f64, f64))> {
     area.draw(&Rectangle::new(
         [px((frame.x0, frame.y0)), px((frame.x1, frame.y1))],
         PAPER.mix(0.85).filled(),
@@ -934,7 +938,8 @@ fn draw_north_arrow(area: &Area, frame: &Rect) -> DrawResult<()> {
         "N",
         px((cx, frame.y0 + 2.0)),
         bold_style(SUBTITLE_PX, INK).pos(Pos::new(HPos::Center, VPos::Top)),
-    ))
+    ))?;
+    Ok((tip, (cx, base)))
 }
 
 /// The legend, one symbol and its meaning a row, from `top_left` down.
@@ -1061,11 +1066,11 @@ mod tests {
         let spots = [
             (-310.0, 120.0),
             (-240.0, -210.0),
-            (-60.0, -330.0),
+            (-60.0, -140.0),
             (150.0, -280.0),
             (330.0, -90.0),
             (290.0, 180.0),
-            (90.0, 360.0),
+            (60.0, 150.0),
             (-150.0, 300.0),
         ];
         let observers = spots
@@ -1284,8 +1289,13 @@ mod tests {
     #[test]
     fn the_north_arrow_points_up_in_a_corner() {
         let (svg, layout) = render(&sample());
-        let arrow = layout.north_arrow.expect("arrow");
+        let arrow = layout.north_arrow_box.expect("arrow");
         assert!(layout.plot.expect("plot").contains(&arrow));
+        // Straight up the page, which is north on a map at one scale with north up.
+        let (tip, base) = layout.north_arrow;
+        assert_eq!(tip.0, base.0);
+        assert!(tip.1 < base.1);
+        assert!(layout.px_per_m_north > 0.0);
         assert!(svg.contains(">\nN\n</text>"));
     }
 
@@ -1356,8 +1366,19 @@ mod tests {
             let mut far = sample();
             far.markers[3].north_m = 2600.0;
             far.markers[3].east_m = -900.0;
+            let oriented = |deg: f64| {
+                let mut m = sample();
+                m.ellipse = Some(Ellipse {
+                    semi_major_m: 60.0,
+                    semi_minor_m: 15.0,
+                    orientation_deg: deg,
+                });
+                m
+            };
             for (name, input) in [
                 ("map", sample()),
+                ("map-ellipse-0", oriented(0.0)),
+                ("map-ellipse-90", oriented(90.0)),
                 ("map-no-fix", no_fix),
                 ("map-far-marker", far),
                 ("map-empty", MapInput::default()),
