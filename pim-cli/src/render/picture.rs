@@ -1,0 +1,464 @@
+//! What the map and spectrum pictures share: the palette and type sizes, round lengths
+//! for scale bars, text size estimates, a greedy label placer and a fallback picture.
+//!
+//! The palette is calm and prints well in greyscale: every mark that must be told apart
+//! differs in shape or dash as well as in colour.
+
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
+use plotters::style::FontDesc;
+
+/// Paper.
+pub const PAPER: RGBColor = RGBColor(0xFF, 0xFF, 0xFF);
+/// Text and strong lines.
+pub const INK: RGBColor = RGBColor(0x23, 0x29, 0x30);
+/// Axes, tick labels and secondary text.
+pub const MUTED: RGBColor = RGBColor(0x5E, 0x66, 0x70);
+/// Grid lines.
+pub const GRID: RGBColor = RGBColor(0xE3, 0xE6, 0xEA);
+/// Bearings and observer spots; ordinary products.
+pub const SLATE: RGBColor = RGBColor(0x2F, 0x4B, 0x68);
+/// Outliers and anything left out of a result.
+pub const STONE: RGBColor = RGBColor(0x9C, 0xA1, 0xA8);
+/// The fix; the top-ranked products.
+pub const RUST: RGBColor = RGBColor(0x9A, 0x3B, 0x1E);
+/// The confidence ellipse and the receive channel.
+pub const OCHRE: RGBColor = RGBColor(0xC2, 0x8E, 0x2B);
+/// The confidence ellipse's edge.
+pub const OCHRE_DARK: RGBColor = RGBColor(0x8A, 0x5F, 0x12);
+/// Emitters.
+pub const MOSS: RGBColor = RGBColor(0x3D, 0x6A, 0x47);
+/// Site structures.
+pub const PLUM: RGBColor = RGBColor(0x68, 0x4B, 0x7B);
+
+/// Font family of every text in the pictures (no font file is needed to write it).
+pub const FONT: &str = "sans-serif";
+/// Type sizes in pixels, as written into the SVG.
+pub const TITLE_PX: f64 = 16.0;
+pub const SUBTITLE_PX: f64 = 12.0;
+pub const LABEL_PX: f64 = 11.0;
+pub const TICK_PX: f64 = 10.0;
+
+/// plotters writes a text style's size divided by 1.24 into the SVG; this undoes that
+/// so the constants above are the sizes a reader gets.
+const PLOTTERS_FONT_SCALE: f64 = 1.24;
+
+fn style(px: f64, color: RGBColor, weight: FontStyle, pos: Pos) -> TextStyle<'static> {
+    TextStyle {
+        font: FontDesc::new(FontFamily::Name(FONT), px * PLOTTERS_FONT_SCALE, weight),
+        color: color.to_backend_color(),
+        pos,
+    }
+}
+
+/// A text style of `px` pixels in `color`, anchored at its top left.
+pub fn text_style(px: f64, color: RGBColor) -> TextStyle<'static> {
+    style(
+        px,
+        color,
+        FontStyle::Normal,
+        Pos::new(HPos::Left, VPos::Top),
+    )
+}
+
+/// The same, bold.
+pub fn bold_style(px: f64, color: RGBColor) -> TextStyle<'static> {
+    style(px, color, FontStyle::Bold, Pos::new(HPos::Left, VPos::Top))
+}
+
+/// A font for plotters' own axis labels, `px` pixels in the SVG.
+pub fn axis_font(px: f64, color: RGBColor) -> TextStyle<'static> {
+    style(px, color, FontStyle::Normal, Pos::default())
+}
+
+/// The width of `text` at `px` pixels, estimated from its characters (the SVG reader
+/// picks the actual font; this errs on the wide side of common sans-serif faces).
+pub fn text_width_px(text: &str, px: f64) -> f64 {
+    let em: f64 = text
+        .chars()
+        .map(|c| match c {
+            'i' | 'j' | 'l' | '|' | '!' | '\'' | '.' | ',' | ':' | ';' => 0.32,
+            ' ' | '-' | '(' | ')' | '[' | ']' | 'f' | 'r' | 't' | '·' => 0.40,
+            'm' | 'w' | 'M' | 'W' => 0.92,
+            c if c.is_ascii_uppercase() => 0.72,
+            c if c.is_ascii_digit() => 0.64,
+            c if c.is_ascii_lowercase() => 0.58,
+            _ => 0.70,
+        })
+        .sum();
+    em * px
+}
+
+/// The height a line of text at `px` pixels occupies, ascender to descender.
+pub fn text_height_px(px: f64) -> f64 {
+    px * 1.05
+}
+
+/// Space between a label's text and its backing box.
+pub const LABEL_PAD_PX: f64 = 2.0;
+
+/// The box a label of `text` at `px` pixels needs, backing included.
+pub fn label_size_px(text: &str, px: f64) -> (f64, f64) {
+    (
+        text_width_px(text, px) + 2.0 * LABEL_PAD_PX,
+        text_height_px(px) + 2.0 * LABEL_PAD_PX,
+    )
+}
+
+/// The largest length of the form 1, 2 or 5 × 10ⁿ not above `max` (1 when `max` is not
+/// a positive finite number).
+pub fn round_length(max: f64) -> f64 {
+    if !max.is_finite() || max <= 0.0 {
+        return 1.0;
+    }
+    let decade = 10f64.powf(max.log10().floor());
+    [5.0, 2.0, 1.0]
+        .into_iter()
+        .map(|m| m * decade)
+        .find(|&l| l <= max * (1.0 + 1e-9))
+        .unwrap_or(decade)
+}
+
+/// An axis-aligned box in pixels, y growing downwards.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Rect {
+    pub x0: f64,
+    pub y0: f64,
+    pub x1: f64,
+    pub y1: f64,
+}
+
+impl Rect {
+    /// A box of `size` with its top left corner at `(x, y)`.
+    pub fn at(x: f64, y: f64, size: (f64, f64)) -> Rect {
+        Rect {
+            x0: x,
+            y0: y,
+            x1: x + size.0,
+            y1: y + size.1,
+        }
+    }
+
+    /// A square of half-side `r` around a point.
+    pub fn around(p: (f64, f64), r: f64) -> Rect {
+        Rect {
+            x0: p.0 - r,
+            y0: p.1 - r,
+            x1: p.0 + r,
+            y1: p.1 + r,
+        }
+    }
+
+    /// The area two boxes share (zero when they only touch).
+    pub fn overlap_area(&self, other: &Rect) -> f64 {
+        let w = self.x1.min(other.x1) - self.x0.max(other.x0);
+        let h = self.y1.min(other.y1) - self.y0.max(other.y0);
+        if w > 0.0 && h > 0.0 {
+            w * h
+        } else {
+            0.0
+        }
+    }
+
+    pub fn overlaps(&self, other: &Rect) -> bool {
+        self.overlap_area(other) > 0.0
+    }
+
+    pub fn contains(&self, other: &Rect) -> bool {
+        other.x0 >= self.x0 && other.x1 <= self.x1 && other.y0 >= self.y0 && other.y1 <= self.y1
+    }
+
+    pub fn contains_point(&self, p: (f64, f64)) -> bool {
+        p.0 >= self.x0 && p.0 <= self.x1 && p.1 >= self.y0 && p.1 <= self.y1
+    }
+
+    /// The point of the box nearest to `p`.
+    pub fn nearest_point(&self, p: (f64, f64)) -> (f64, f64) {
+        (p.0.clamp(self.x0, self.x1), p.1.clamp(self.y0, self.y1))
+    }
+
+    /// The box moved inside `bounds` where it fits.
+    fn clamped_into(&self, bounds: &Rect) -> Rect {
+        let w = self.x1 - self.x0;
+        let h = self.y1 - self.y0;
+        let x0 = self.x0.min(bounds.x1 - w).max(bounds.x0);
+        let y0 = self.y0.min(bounds.y1 - h).max(bounds.y0);
+        Rect::at(x0, y0, (w, h))
+    }
+}
+
+/// Where a label went, and whether it is clear of everything placed before it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Placement {
+    pub rect: Rect,
+    pub clear: bool,
+}
+
+/// A greedy label placer: each label takes the first of its candidate boxes that lies
+/// inside the bounds and overlaps no marker or label placed before it; when none does,
+/// the one with the least overlap. Place the important labels first.
+pub struct LabelPlacer {
+    bounds: Rect,
+    taken: Vec<Rect>,
+}
+
+impl LabelPlacer {
+    pub fn new(bounds: Rect) -> Self {
+        LabelPlacer {
+            bounds,
+            taken: Vec::new(),
+        }
+    }
+
+    /// Reserves a box (a marker, a scale bar) that no label may cover.
+    pub fn block(&mut self, r: Rect) {
+        self.taken.push(r);
+    }
+
+    /// Places a box of `size` next to the point `at`: to the right, left, above and
+    /// below, then the diagonals, at distance `gap` and then further out.
+    pub fn place_near(&mut self, at: (f64, f64), size: (f64, f64), gap: f64) -> Placement {
+        let (w, h) = size;
+        let mut candidates = Vec::with_capacity(40);
+        for ring in [0.0, 1.0, 2.2, 3.6, 5.2] {
+            let d = gap + ring * h;
+            let dd = gap * 0.7 + ring * h;
+            let (x, y) = at;
+            candidates.extend([
+                Rect::at(x + d, y - h / 2.0, size),
+                Rect::at(x - d - w, y - h / 2.0, size),
+                Rect::at(x + dd, y - dd - h, size),
+                Rect::at(x - dd - w, y - dd - h, size),
+                Rect::at(x + dd, y + dd, size),
+                Rect::at(x - dd - w, y + dd, size),
+                Rect::at(x - w / 2.0, y - d - h, size),
+                Rect::at(x - w / 2.0, y + d, size),
+            ]);
+        }
+        self.place_first_clear(&candidates)
+    }
+
+    /// Takes the first clear candidate, or the least-overlapping one inside the bounds,
+    /// or, when none lies inside, the first moved into the bounds.
+    pub fn place_first_clear(&mut self, candidates: &[Rect]) -> Placement {
+        let overlap = |r: &Rect| -> f64 { self.taken.iter().map(|t| r.overlap_area(t)).sum() };
+        let mut best: Option<(f64, Rect)> = None;
+        for r in candidates.iter().filter(|r| self.bounds.contains(r)) {
+            let o = overlap(r);
+            if o == 0.0 {
+                best = Some((0.0, *r));
+                break;
+            }
+            match best {
+                Some((b, _)) if b <= o => {}
+                _ => best = Some((o, *r)),
+            }
+        }
+        let (o, rect) = match best {
+            Some(b) => b,
+            None => {
+                let r = candidates
+                    .first()
+                    .copied()
+                    .unwrap_or(Rect::at(self.bounds.x0, self.bounds.y0, (0.0, 0.0)))
+                    .clamped_into(&self.bounds);
+                (overlap(&r), r)
+            }
+        };
+        self.taken.push(rect);
+        Placement {
+            rect,
+            clear: o == 0.0,
+        }
+    }
+}
+
+/// Draws a label in its placed box: a pale backing so it reads over lines, then the
+/// text.
+pub fn draw_label<DB: DrawingBackend>(
+    area: &DrawingArea<DB, plotters::coord::Shift>,
+    rect: &Rect,
+    text: &str,
+    style: &TextStyle,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
+    area.draw(&Rectangle::new(
+        [
+            (rect.x0.round() as i32, rect.y0.round() as i32),
+            (rect.x1.round() as i32, rect.y1.round() as i32),
+        ],
+        PAPER.mix(0.82).filled(),
+    ))?;
+    area.draw(&Text::new(
+        text.to_string(),
+        (
+            (rect.x0 + LABEL_PAD_PX).round() as i32,
+            (rect.y0 + LABEL_PAD_PX).round() as i32,
+        ),
+        style.clone(),
+    ))
+}
+
+/// What drawing returns.
+pub type DrawResult<T> = Result<T, DrawingAreaErrorKind<std::io::Error>>;
+/// A part of an SVG picture, in pixel coordinates.
+pub type Area<'a> = DrawingArea<SVGBackend<'a>, plotters::coord::Shift>;
+
+/// Places and draws labels, in the order given, with `placer` (which already holds the
+/// marks to keep clear of); a label whose point lies outside the placer's bounds is
+/// skipped, and one pushed away from its point gets a thin leader.
+pub fn draw_labels(
+    area: &Area,
+    placer: &mut LabelPlacer,
+    jobs: &[LabelJob],
+) -> DrawResult<Vec<PlacedLabel>> {
+    let mut placed_all = Vec::new();
+    for job in jobs {
+        if job.text.trim().is_empty() || !placer.bounds.contains_point(job.at) {
+            continue;
+        }
+        let placed = placer.place_near(job.at, label_size_px(&job.text, LABEL_PX), job.gap);
+        let near = placed.rect.nearest_point(job.at);
+        if (near.0 - job.at.0).hypot(near.1 - job.at.1) > job.gap * 1.6 + 2.0 {
+            area.draw(&PathElement::new(
+                vec![px(job.at), px(near)],
+                MUTED.mix(0.8).stroke_width(1),
+            ))?;
+        }
+        draw_label(
+            area,
+            &placed.rect,
+            &job.text,
+            &text_style(LABEL_PX, job.colour),
+        )?;
+        placed_all.push(PlacedLabel {
+            text: job.text.clone(),
+            rect: placed.rect,
+            clear: placed.clear,
+        });
+    }
+    Ok(placed_all)
+}
+
+/// A label as drawn.
+#[derive(Clone, Debug, PartialEq)]
+pub struct PlacedLabel {
+    pub text: String,
+    pub rect: Rect,
+    /// Clear of every marker and label placed before it.
+    pub clear: bool,
+}
+
+/// A label to place next to a point.
+pub struct LabelJob {
+    pub at: (f64, f64),
+    pub text: String,
+    pub colour: RGBColor,
+    /// Distance kept from the point's mark.
+    pub gap: f64,
+}
+
+/// Rounds a pixel position for plotters.
+pub fn px(p: (f64, f64)) -> (i32, i32) {
+    (p.0.round() as i32, p.1.round() as i32)
+}
+
+/// A plain SVG saying a picture could not be drawn (writing into memory does not fail
+/// in practice; this keeps a ticket whole if it ever does).
+pub fn fallback_svg(width: u32, height: u32, message: &str) -> String {
+    let escaped: String = message
+        .chars()
+        .map(|c| match c {
+            '<' => "&lt;".to_string(),
+            '>' => "&gt;".to_string(),
+            '&' => "&amp;".to_string(),
+            '"' => "&quot;".to_string(),
+            c => c.to_string(),
+        })
+        .collect();
+    format!(
+        "<svg width=\"{width}\" height=\"{height}\" viewBox=\"0 0 {width} {height}\" xmlns=\"http://www.w3.org/2000/svg\">\n<rect x=\"0\" y=\"0\" width=\"{width}\" height=\"{height}\" fill=\"#FFFFFF\"/>\n<text x=\"16\" y=\"32\" font-family=\"{FONT}\" font-size=\"{SUBTITLE_PX}\" fill=\"#232930\">{escaped}</text>\n</svg>\n"
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn round_lengths_are_one_two_five() {
+        assert_eq!(round_length(180.0), 100.0);
+        assert_eq!(round_length(240.0), 200.0);
+        assert_eq!(round_length(500.0), 500.0);
+        assert_eq!(round_length(0.7), 0.5);
+        assert_eq!(round_length(0.0), 1.0);
+        assert_eq!(round_length(f64::NAN), 1.0);
+    }
+
+    fn all_disjoint(rects: &[Rect]) -> bool {
+        rects
+            .iter()
+            .enumerate()
+            .all(|(i, a)| rects[i + 1..].iter().all(|b| !a.overlaps(b)))
+    }
+
+    #[test]
+    fn labels_around_a_crowded_spot_do_not_overlap() {
+        let bounds = Rect::at(0.0, 0.0, (600.0, 400.0));
+        let mut placer = LabelPlacer::new(bounds);
+        // Nine markers within a few pixels of each other, as at a tower with many
+        // antennas on it.
+        let spots: Vec<(f64, f64)> = (0..9)
+            .map(|i| (300.0 + (i % 3) as f64 * 4.0, 200.0 + (i / 3) as f64 * 4.0))
+            .collect();
+        for s in &spots {
+            placer.block(Rect::around(*s, 3.0));
+        }
+        let mut placed = Vec::new();
+        for (i, s) in spots.iter().enumerate() {
+            let size = label_size_px(&format!("ANT-{i}"), LABEL_PX);
+            let p = placer.place_near(*s, size, 6.0);
+            assert!(p.clear, "label {i} found no clear place");
+            assert!(bounds.contains(&p.rect));
+            for m in &spots {
+                assert!(!p.rect.overlaps(&Rect::around(*m, 3.0)));
+            }
+            placed.push(p.rect);
+        }
+        assert!(all_disjoint(&placed));
+    }
+
+    #[test]
+    fn a_label_at_the_right_edge_goes_left() {
+        let bounds = Rect::at(0.0, 0.0, (200.0, 100.0));
+        let mut placer = LabelPlacer::new(bounds);
+        let p = placer.place_near((195.0, 50.0), (60.0, 15.0), 5.0);
+        assert!(p.clear);
+        assert!(p.rect.x1 <= 195.0);
+    }
+
+    #[test]
+    fn an_impossible_label_still_lands_inside() {
+        let bounds = Rect::at(0.0, 0.0, (30.0, 20.0));
+        let mut placer = LabelPlacer::new(bounds);
+        placer.block(bounds);
+        let p = placer.place_near((15.0, 10.0), (20.0, 10.0), 4.0);
+        assert!(!p.clear);
+        assert!(bounds.contains(&p.rect));
+        // Larger than the bounds: moved to their corner, never a panic.
+        let q = placer.place_near((15.0, 10.0), (80.0, 40.0), 4.0);
+        assert!(!q.clear);
+    }
+
+    #[test]
+    fn wider_text_is_wider() {
+        assert!(text_width_px("SKP-152", 11.0) > text_width_px("SKP", 11.0));
+        assert!(text_width_px("", 11.0) == 0.0);
+    }
+
+    #[test]
+    fn fallback_is_one_svg_element() {
+        let svg = fallback_svg(100, 50, "a <b> & c");
+        assert!(svg.starts_with("<svg"));
+        assert!(svg.contains("a &lt;b&gt; &amp; c"));
+    }
+}
