@@ -47,6 +47,7 @@ pub mod intermod;
 pub mod io;
 pub mod level;
 pub mod rank;
+pub mod ticket;
 pub mod walk;
 
 pub use error::{Error, ErrorClass, Place, Result};

@@ -1,6 +1,8 @@
 //! Turning results into screens and files.
 
 pub mod candidates;
+#[allow(dead_code)] // wired in by the ticket command
+pub mod document;
 pub mod text_table;
 
 // The pictures of the maintenance ticket (map.svg, spectrum.svg) and what they share;

@@ -220,7 +220,11 @@ fn read_emitters_json(source: &str, bytes: &[u8]) -> Result<EmitterFile> {
 }
 
 fn decimal_error(place: Place, err: DecimalError) -> Error {
-    Error::input(place, err.to_string())
+    let hint = match &err {
+        DecimalError::NotANumber(t) => crate::io::table::decimal_comma_hint(t),
+        _ => "",
+    };
+    Error::input(place, format!("{err}{hint}"))
 }
 
 /// A frequency field: exact hertz, above zero and at most 300 GHz.
@@ -428,6 +432,33 @@ pub fn read_receivers<R: Read>(source: &str, reader: R) -> Result<ReceiverFile> 
         ));
     }
     Ok(file)
+}
+
+/// Reads the site's structures (towers, fences, sheds, guy anchors): CSV with `id`,
+/// `lat`, `lon`, optional `kind` and `note`.
+pub fn read_structures<R: Read>(source: &str, reader: R) -> Result<Vec<crate::ticket::Structure>> {
+    let mut table = Table::open(source, reader)?;
+    table.require("id")?;
+    table.require("lat")?;
+    table.require("lon")?;
+    let mut seen: HashMap<String, u64> = HashMap::new();
+    let mut out = Vec::new();
+    while let Some(row) = table.next_row()? {
+        let id = row
+            .get("id")
+            .ok_or_else(|| Error::input(row.place("id"), "missing id"))?;
+        let position = position_fields(&row)?
+            .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
+        check_unique(&mut seen, id, row.line, &row)?;
+        out.push(crate::ticket::Structure {
+            id: id.to_string(),
+            position,
+            kind: row.get("kind").map(str::to_string),
+            note: row.get("note").map(str::to_string),
+            line: row.line,
+        });
+    }
+    Ok(out)
 }
 
 #[cfg(test)]

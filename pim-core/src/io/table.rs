@@ -138,18 +138,52 @@ impl std::fmt::Display for GuardError {
 impl std::error::Error for GuardError {}
 
 /// Removes a UTF-8 byte-order mark and refuses UTF-16 text with a clear message.
-fn strip_bom<R: Read>(source: &str, reader: R) -> Result<BufReader<R>> {
+/// Also returns the delimiter the header line uses (see [`sniff_delimiter`]).
+fn strip_bom<R: Read>(source: &str, reader: R) -> Result<(BufReader<R>, u8)> {
     let mut buf = BufReader::new(reader);
     let head = buf.fill_buf().map_err(|e| Error::io(source, &e))?;
-    if head.starts_with(&[0xEF, 0xBB, 0xBF]) {
-        buf.consume(3);
-    } else if head.starts_with(&[0xFF, 0xFE]) || head.starts_with(&[0xFE, 0xFF]) {
+    if head.starts_with(&[0xFF, 0xFE]) || head.starts_with(&[0xFE, 0xFF]) {
         return Err(Error::input(
             Place::new(source).at_line(1),
             "UTF-16 text; save the file as UTF-8 (CSV UTF-8 in a spreadsheet)",
         ));
     }
-    Ok(buf)
+    let bom = head.starts_with(&[0xEF, 0xBB, 0xBF]);
+    let delimiter = sniff_delimiter(if bom { &head[3..] } else { head });
+    if bom {
+        buf.consume(3);
+    }
+    Ok((buf, delimiter))
+}
+
+/// The delimiter of a table from its first line that is neither blank nor a comment:
+/// the most frequent of comma, semicolon (spreadsheets set to a decimal comma save
+/// this) and tab outside quotes; a comma when there is none.
+pub fn sniff_delimiter(head: &[u8]) -> u8 {
+    let line = head
+        .split(|&b| b == b'\n')
+        .map(|l| l.strip_suffix(b"\r").unwrap_or(l))
+        .find(|l| !l.iter().all(u8::is_ascii_whitespace) && !l.starts_with(b"#"))
+        .unwrap_or(&[]);
+    let mut counts = [(b',', 0usize), (b';', 0), (b'\t', 0)];
+    let mut quoted = false;
+    for &b in line {
+        if b == b'"' {
+            quoted = !quoted;
+        } else if !quoted {
+            for c in counts.iter_mut() {
+                if c.0 == b {
+                    c.1 += 1;
+                }
+            }
+        }
+    }
+    let best = counts.iter().max_by_key(|c| c.1).map_or((b',', 0), |c| *c);
+    if best.1 == 0 {
+        b','
+    } else {
+        best.0
+    }
 }
 
 /// A CSV table being read row by row.
@@ -164,9 +198,10 @@ pub struct Table<R: Read> {
 impl<R: Read> Table<R> {
     /// Reads the header line. `source` names the file in messages.
     pub fn open(source: &str, reader: R) -> Result<Self> {
-        let buf = strip_bom(source, reader)?;
+        let (buf, delimiter) = strip_bom(source, reader)?;
         let guarded = Guarded::new(buf);
         let mut reader = csv::ReaderBuilder::new()
+            .delimiter(delimiter)
             .has_headers(false)
             .flexible(true)
             .trim(csv::Trim::All)
@@ -368,6 +403,22 @@ impl Fields for Row<'_> {
     }
 }
 
+/// A hint for a number written with a decimal comma (`146,94`).
+pub fn decimal_comma_hint(text: &str) -> &'static str {
+    let t = text.trim().trim_start_matches(['-', '+']);
+    match t.split_once(',') {
+        Some((a, b))
+            if !a.is_empty()
+                && !b.is_empty()
+                && a.bytes().all(|c| c.is_ascii_digit())
+                && b.bytes().all(|c| c.is_ascii_digit()) =>
+        {
+            " (a decimal comma? write the number with a point)"
+        }
+        _ => "",
+    }
+}
+
 /// Parses a finite decimal number; names the place on failure.
 pub fn parse_finite(place: impl FnOnce() -> Place, text: &str) -> Result<f64> {
     match text.trim().parse::<f64>() {
@@ -376,7 +427,10 @@ pub fn parse_finite(place: impl FnOnce() -> Place, text: &str) -> Result<f64> {
             place(),
             format!("`{text}` is not a finite number"),
         )),
-        Err(_) => Err(Error::input(place(), format!("`{text}` is not a number"))),
+        Err(_) => Err(Error::input(
+            place(),
+            format!("`{text}` is not a number{}", decimal_comma_hint(text)),
+        )),
     }
 }
 
@@ -424,6 +478,15 @@ mod tests {
             e.to_string(),
             "t.csv, line 2, field `b`: not UTF-8 text; save the file as UTF-8"
         );
+    }
+
+    #[test]
+    fn reads_semicolon_and_tab_tables() {
+        let r = rows(b"id;freq_mhz;note\nA;146.94;\"a, b\"\n").unwrap();
+        assert_eq!(r[0].1, vec!["A", "146.94", "a, b"]);
+        let r = rows(b"# comment, with commas\nid\tfreq_mhz\nA\t146.94\n").unwrap();
+        assert_eq!(r[0].1, vec!["A", "146.94"]);
+        assert_eq!(sniff_delimiter(b"id"), b',');
     }
 
     #[test]

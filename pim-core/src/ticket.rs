@@ -1,0 +1,192 @@
+//! What a maintenance ticket rests on, beyond the search and the fix: the site's
+//! structures and emitters in or near the ellipse, how the ranking moves when the
+//! junction is put at the fix rather than at the receiver, and what to inspect on each
+//! kind of structure (common practice of site maintenance).
+
+use serde::Serialize;
+
+use crate::emitter::Emitter;
+use crate::fix::Fix;
+use crate::geo::{distance_and_azimuth, GeoPoint, LocalFrame};
+use crate::intermod::Product;
+use crate::rank::Ranking;
+
+/// A structure on the site: a tower, a fence, a shed, a guy anchor.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Structure {
+    pub id: String,
+    pub position: GeoPoint,
+    pub kind: Option<String>,
+    pub note: Option<String>,
+    pub line: u64,
+}
+
+/// Whether something is a structure or an emitter's antenna.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum ItemKind {
+    Structure,
+    Emitter,
+}
+
+/// Something on the ground in or near the ellipse.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct NearbyItem {
+    pub id: String,
+    pub item: ItemKind,
+    pub kind: Option<String>,
+    pub note: Option<String>,
+    pub position: GeoPoint,
+    pub distance_m: f64,
+    /// Bearing from the fix to the item.
+    pub bearing_from_fix_deg: f64,
+    /// The factor by which the ellipse must grow to reach the item (≤ 1: inside).
+    pub ellipse_scale: f64,
+}
+
+impl NearbyItem {
+    pub fn inside(&self) -> bool {
+        self.ellipse_scale <= 1.0
+    }
+}
+
+/// Items no further than twice the ellipse, or within `margin_m` of its major axis's
+/// reach, nearest (in ellipse terms) first.
+pub fn nearby(
+    fix: &Fix,
+    structures: &[Structure],
+    emitters: &[Emitter],
+    margin_m: f64,
+) -> Vec<NearbyItem> {
+    let frame = LocalFrame::new(fix.position);
+    let e = &fix.ellipse;
+    let t = e.orientation_deg.to_radians();
+    let mut items = Vec::new();
+    let candidates = structures
+        .iter()
+        .map(|s| {
+            (
+                s.id.clone(),
+                ItemKind::Structure,
+                s.kind.clone(),
+                s.note.clone(),
+                Some(s.position),
+            )
+        })
+        .chain(emitters.iter().map(|em| {
+            (
+                em.id.clone(),
+                ItemKind::Emitter,
+                em.kind.clone(),
+                em.note.clone(),
+                em.position,
+            )
+        }));
+    for (id, item, kind, note, position) in candidates {
+        let Some(position) = position else { continue };
+        let (x, y) = frame.to_local(position);
+        let u = x * t.sin() + y * t.cos();
+        let v = x * t.cos() - y * t.sin();
+        let scale = ((u / e.semi_major_m.max(1e-9)).powi(2)
+            + (v / e.semi_minor_m.max(1e-9)).powi(2))
+        .sqrt();
+        let (distance_m, az) = distance_and_azimuth(fix.position, position);
+        if scale <= 2.0 || distance_m <= e.semi_major_m + margin_m {
+            items.push(NearbyItem {
+                id,
+                item,
+                kind,
+                note,
+                position,
+                distance_m,
+                bearing_from_fix_deg: az,
+                ellipse_scale: scale,
+            });
+        }
+    }
+    items.sort_by(|a, b| {
+        a.ellipse_scale
+            .total_cmp(&b.ellipse_scale)
+            .then(a.id.cmp(&b.id))
+    });
+    items
+}
+
+/// A candidate's rank with the junction at the fix, and where it stood with the junction
+/// at the receiver.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RankChange {
+    pub product: Product,
+    pub rank_at_fix: usize,
+    pub rank_at_receiver: Option<usize>,
+    pub level_at_fix_dbm: Option<f64>,
+    pub level_at_receiver_dbm: Option<f64>,
+}
+
+/// The first `top` candidates at the fix, each with its rank at the receiver.
+pub fn rank_changes(at_fix: &Ranking, at_receiver: &Ranking, top: usize) -> Vec<RankChange> {
+    at_fix
+        .candidates
+        .iter()
+        .take(top)
+        .map(|c| {
+            let before = at_receiver
+                .candidates
+                .iter()
+                .find(|r| r.product == c.product);
+            RankChange {
+                product: c.product,
+                rank_at_fix: c.rank,
+                rank_at_receiver: before.map(|b| b.rank),
+                level_at_fix_dbm: c.level_dbm,
+                level_at_receiver_dbm: before.and_then(|b| b.level_dbm),
+            }
+        })
+        .collect()
+}
+
+/// What to look at on a kind of structure when hunting a corroded or loose junction
+/// (common practice of site maintenance).
+pub fn inspection_points(kind: Option<&str>) -> &'static [&'static str] {
+    let k = kind.unwrap_or("").to_ascii_lowercase();
+    if k.contains("guy") {
+        &[
+            "guy-wire cable clamps and thimbles: rust between the wires, loose nuts",
+            "turnbuckles and shackles: corrosion at the threads and pins",
+            "the guy's anchor rod and any bonding jumper",
+        ]
+    } else if k.contains("fence") {
+        &[
+            "chain-link ties and tension bands: rusty wire-on-wire contacts",
+            "gate hinges and latches",
+            "barbed wire on the top rail",
+        ]
+    } else if k.contains("shed") || k.contains("roof") || k.contains("building") {
+        &[
+            "roof and wall panel fasteners, overlapping corrugated sheets",
+            "gutters, downpipes and their brackets",
+            "loose flashing and vent caps",
+        ]
+    } else if k.contains("tower") || k.contains("mast") {
+        &[
+            "bolted bracing and leg joints: rust streaks, loose bolts",
+            "antenna mounts and side-arm clamps",
+            "feedline hangers, connectors and weatherproofing; ground kits and straps",
+            "the ice bridge and its bonding",
+        ]
+    } else {
+        &["metal-to-metal joints that are loose or corroded: bolts, clamps, straps"]
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn guy_anchors_get_guy_points() {
+        assert!(inspection_points(Some("guy anchor"))[0].contains("clamps"));
+        assert!(inspection_points(Some("Guyed tower"))[0].contains("clamps"));
+        assert!(inspection_points(None)[0].contains("metal-to-metal"));
+    }
+}
