@@ -31,7 +31,11 @@ fn site(n: usize, lo: i64, hi: i64, bw: (i64, i64), seed: u64) -> Vec<Emitter> {
     (0..n)
         .map(|i| {
             let f = lo + rng.below((hi - lo) / 1_000) * 1_000;
-            let w = if bw.1 > bw.0 { bw.0 + rng.below(bw.1 - bw.0) } else { bw.0 };
+            let w = if bw.1 > bw.0 {
+                bw.0 + rng.below(bw.1 - bw.0)
+            } else {
+                bw.0
+            };
             let mut e = Emitter::new(format!("TX{i}"), Hz(f), Hz(w));
             e.erp_dbm = Some(30.0 + rng.below(300) as f64 / 10.0);
             e.position = Some(GeoPoint::new(
@@ -60,11 +64,16 @@ fn params(target: i64, rx: i64, max_order: u32, max_emitters: u32) -> SearchPara
 fn against_oracle(c: &mut Criterion) {
     let tx = carriers(&site(300, 140_000_000, 175_000_000, (11_000, 25_000), 1));
     let p = params(155_000_000, 12_500, 5, 3);
-    eprintln!("300 emitters: {} products hit", find_products(&tx, &p).products.len());
+    eprintln!(
+        "300 emitters: {} products hit",
+        find_products(&tx, &p).products.len()
+    );
     let mut g = c.benchmark_group("300 emitters, order 5, three emitters");
     g.sample_size(10);
     g.bench_function("search", |b| b.iter(|| find_products(&tx, &p)));
-    g.bench_function("brute force", |b| b.iter(|| find_products_brute_force(&tx, &p)));
+    g.bench_function("brute force", |b| {
+        b.iter(|| find_products_brute_force(&tx, &p))
+    });
     g.finish();
 }
 
@@ -74,7 +83,10 @@ fn large_site(c: &mut Criterion) {
     let p = params(155_000_000, 12_500, 5, 3);
     let junction = Some(GeoPoint::new(45.01, -121.99));
     let model = JunctionModel::default();
-    eprintln!("1200 emitters: {} products hit", find_products(&cs, &p).products.len());
+    eprintln!(
+        "1200 emitters: {} products hit",
+        find_products(&cs, &p).products.len()
+    );
     let mut g = c.benchmark_group("1200 emitters 30-960 MHz, order 5");
     g.sample_size(10);
     g.bench_function("search and rank", |b| {
@@ -108,5 +120,11 @@ fn two_emitters_high_order(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, against_oracle, large_site, scaling, two_emitters_high_order);
+criterion_group!(
+    benches,
+    against_oracle,
+    large_site,
+    scaling,
+    two_emitters_high_order
+);
 criterion_main!(benches);

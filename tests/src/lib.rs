@@ -45,7 +45,9 @@ pub fn pim_bin() -> PathBuf {
         if let Some(target_dir) = profile_dir.parent() {
             cmd.env("CARGO_TARGET_DIR", target_dir);
         }
-        let status = cmd.status().unwrap_or_else(|e| panic!("cannot run cargo: {e}"));
+        let status = cmd
+            .status()
+            .unwrap_or_else(|e| panic!("cannot run cargo: {e}"));
         assert!(status.success(), "building pim failed");
         profile_dir.join(format!("pim{}", std::env::consts::EXE_SUFFIX))
     })

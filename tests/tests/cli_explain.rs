@@ -11,8 +11,16 @@ fn path(p: std::path::PathBuf) -> String {
 fn explains_the_demo_carrier_with_the_planted_pair_first() {
     let tx = path(field_log("emitters.csv"));
     let o = pim(&[
-        "explain", "146.34MHz", "--emitters", &tx, "--rx-lat", "45.103", "--rx-lon", "-122.412",
-        "--format", "json",
+        "explain",
+        "146.34MHz",
+        "--emitters",
+        &tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+        "--format",
+        "json",
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
@@ -25,7 +33,10 @@ fn explains_the_demo_carrier_with_the_planted_pair_first() {
     assert_eq!(first["terms"][0]["emitter"], "SKP-152");
     assert_eq!(first["terms"][0]["coefficient"], 2);
     assert!(first["predicted_level_dbm"].is_f64());
-    assert_eq!(v["total"].as_u64().unwrap() as usize, v["candidates"].as_array().unwrap().len());
+    assert_eq!(
+        v["total"].as_u64().unwrap() as usize,
+        v["candidates"].as_array().unwrap().len()
+    );
     assert!(v["co_channel"].as_array().unwrap().is_empty());
 }
 
@@ -36,12 +47,34 @@ fn formats_agree_and_limit_is_kept() {
     assert!(csv.status.success());
     let text = stdout_of(&csv);
     let mut lines = text.lines();
-    assert!(lines.next().unwrap().starts_with("rank,formula,order,product_mhz"));
-    assert!(lines.next().unwrap().starts_with("1,2·SKP-152 − FIRE-DSP,3,146.34,"));
-    let limited = pim(&["explain", "146.34", "--emitters", &tx, "--format", "json", "--limit", "1"]);
+    assert!(lines
+        .next()
+        .unwrap()
+        .starts_with("rank,formula,order,product_mhz"));
+    assert!(lines
+        .next()
+        .unwrap()
+        .starts_with("1,2·SKP-152 − FIRE-DSP,3,146.34,"));
+    let limited = pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        &tx,
+        "--format",
+        "json",
+        "--limit",
+        "1",
+    ]);
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&limited)).unwrap();
     assert_eq!(v["candidates"].as_array().unwrap().len(), 1);
-    let md = pim(&["explain", "146.34", "--emitters", &tx, "--format", "markdown"]);
+    let md = pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        &tx,
+        "--format",
+        "markdown",
+    ]);
     assert!(stdout_of(&md).starts_with("| # | product |"));
     let table = pim(&["explain", "146340kHz", "--emitters", &tx]);
     let t = stdout_of(&table);
@@ -52,7 +85,16 @@ fn formats_agree_and_limit_is_kept() {
 #[test]
 fn co_channel_emitters_are_listed_apart() {
     let tx = path(field_log("emitters.csv"));
-    let o = pim(&["explain", "152.84", "--emitters", &tx, "--format", "json", "--max-order", "3"]);
+    let o = pim(&[
+        "explain",
+        "152.84",
+        "--emitters",
+        &tx,
+        "--format",
+        "json",
+        "--max-order",
+        "3",
+    ]);
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
     assert_eq!(v["co_channel"][0]["emitter"], "SKP-152");
     for c in v["candidates"].as_array().unwrap() {
@@ -63,8 +105,13 @@ fn co_channel_emitters_are_listed_apart() {
 #[test]
 fn study_lists_every_receiver() {
     let o = pim(&[
-        "study", "--emitters", &path(field_log("emitters.csv")),
-        "--receivers", &path(field_log("receivers.csv")), "--format", "json",
+        "study",
+        "--emitters",
+        &path(field_log("emitters.csv")),
+        "--receivers",
+        &path(field_log("receivers.csv")),
+        "--format",
+        "json",
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
@@ -122,11 +169,33 @@ fn bad_arguments_are_refused_clearly() {
     let tx = path(field_log("emitters.csv"));
     for (args, want) in [
         (vec!["explain", "abc", "--emitters", &tx], "is not a number"),
-        (vec!["explain", "-146.34", "--emitters", &tx], "must be above zero"),
-        (vec!["explain", "146.34", "--emitters", &tx, "--max-order", "0"], "0 is not in 1..=15"),
-        (vec!["explain", "146.34", "--emitters", &tx, "--max-order", "16"], "16 is not in 1..=15"),
-        (vec!["explain", "146.34", "--emitters", &tx, "--rx-bw-khz", "-5"], "is negative"),
-        (vec!["explain", "146.34", "--emitters", &tx, "--max-emitters", "4"], "4 is not in 1..=3"),
+        (
+            vec!["explain", "-146.34", "--emitters", &tx],
+            "must be above zero",
+        ),
+        (
+            vec!["explain", "146.34", "--emitters", &tx, "--max-order", "0"],
+            "0 is not in 1..=15",
+        ),
+        (
+            vec!["explain", "146.34", "--emitters", &tx, "--max-order", "16"],
+            "16 is not in 1..=15",
+        ),
+        (
+            vec!["explain", "146.34", "--emitters", &tx, "--rx-bw-khz", "-5"],
+            "is negative",
+        ),
+        (
+            vec![
+                "explain",
+                "146.34",
+                "--emitters",
+                &tx,
+                "--max-emitters",
+                "4",
+            ],
+            "4 is not in 1..=3",
+        ),
     ] {
         let o = pim(&args);
         assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr_of(&o));

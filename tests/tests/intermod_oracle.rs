@@ -21,12 +21,18 @@ fn carriers() -> impl Strategy<Value = Vec<Carrier>> {
         ],
         prop_oneof![Just(0i64), 0i64..30_000, Just(200_000i64)],
     )
-        .prop_map(|(f, bw)| Carrier { freq: Hz(f), bandwidth: Hz(bw) });
+        .prop_map(|(f, bw)| Carrier {
+            freq: Hz(f),
+            bandwidth: Hz(bw),
+        });
     prop::collection::vec(one, 0..20)
 }
 
 fn key(p: &Product) -> (Vec<(usize, i32)>, i64) {
-    (p.terms().map(|t| (t.emitter, t.coefficient)).collect(), p.freq.0)
+    (
+        p.terms().map(|t| (t.emitter, t.coefficient)).collect(),
+        p.freq.0,
+    )
 }
 
 proptest! {

@@ -310,17 +310,26 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
                 }
                 let fixed = k1 * fa + k2 * f[b];
                 let fixed_bw = k1.abs() * bwa + k2.abs() * s.bandwidth[b];
-                for c in lo.max(b + 1)..n {
-                    if 2 * m * f[c] > t + w {
+                for (c, &fc) in f.iter().enumerate().skip(lo.max(b + 1)) {
+                    if 2 * m * fc > t + w {
                         break;
                     }
-                    let p = Hz(fixed + k3 * f[c]);
+                    let p = Hz(fixed + k3 * fc);
                     if params.hits(p, Hz(fixed_bw + m * s.bandwidth[c])) {
                         out.push(Product::new(
                             &[
-                                Term { emitter: ia, coefficient: k1 as i32 },
-                                Term { emitter: s.index[b] as usize, coefficient: k2 as i32 },
-                                Term { emitter: s.index[c] as usize, coefficient: k3 as i32 },
+                                Term {
+                                    emitter: ia,
+                                    coefficient: k1 as i32,
+                                },
+                                Term {
+                                    emitter: s.index[b] as usize,
+                                    coefficient: k2 as i32,
+                                },
+                                Term {
+                                    emitter: s.index[c] as usize,
+                                    coefficient: k3 as i32,
+                                },
                             ],
                             p,
                         ));
