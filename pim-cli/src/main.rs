@@ -12,6 +12,7 @@ mod common;
 mod demo;
 mod explain;
 mod render;
+mod slope;
 mod study;
 
 use common::CliError;
@@ -31,6 +32,8 @@ enum Command {
     Explain(explain::Args),
     /// Every product that lands on each receiver of a site.
     Study(study::Args),
+    /// Read an attenuator or power-step test from the level slope.
+    Slope(slope::Args),
     /// Run the job on the built-in invented demo site.
     Demo(demo::Args),
 }
@@ -62,6 +65,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Explain(args) => explain::run(args),
         Command::Study(args) => study::run(args),
+        Command::Slope(args) => slope::run(args),
         Command::Demo(args) => demo::run(args),
     };
     match result {

@@ -5,6 +5,8 @@
 //! value, and stops at the first one.
 
 pub mod emitters;
+pub mod readings;
 pub mod table;
 
 pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};
+pub use readings::{read_readings, ReadingsFile};
