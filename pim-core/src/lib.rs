@@ -8,6 +8,7 @@
 //!   in whole hertz, with a search that grows as N² rather than N³.
 //! - [`rank`] and [`level`]: which of those is plausible, from ERP, free-space loss
 //!   (ITU-R P.525) and a power-law junction model.
+//! - [`onair`]: whether the interference comes and goes with a candidate's emitters.
 //! - [`slope`]: the attenuator and power-step tests, read from the level slope.
 //! - [`io`]: the emitter and receiver files, with errors that name file, line and field.
 //!
@@ -45,6 +46,7 @@ pub mod geo;
 pub mod intermod;
 pub mod io;
 pub mod level;
+pub mod onair;
 pub mod rank;
 pub mod slope;
 

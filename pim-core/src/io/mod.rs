@@ -5,8 +5,10 @@
 //! value, and stops at the first one.
 
 pub mod emitters;
+pub mod onair;
 pub mod readings;
 pub mod table;
 
 pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};
+pub use onair::{read_heard, read_on_air, Clock};
 pub use readings::{read_readings, ReadingsFile};
