@@ -11,6 +11,7 @@ use clap::{Parser, Subcommand};
 mod common;
 mod demo;
 mod explain;
+mod plan;
 mod render;
 mod slope;
 mod study;
@@ -32,6 +33,8 @@ enum Command {
     Explain(explain::Args),
     /// Every product that lands on each receiver of a site.
     Study(study::Args),
+    /// The largest set of channels on which no product of them lands.
+    Plan(plan::Args),
     /// Read an attenuator or power-step test from the level slope.
     Slope(slope::Args),
     /// Run the job on the built-in invented demo site.
@@ -65,6 +68,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Explain(args) => explain::run(args),
         Command::Study(args) => study::run(args),
+        Command::Plan(args) => plan::run(args),
         Command::Slope(args) => slope::run(args),
         Command::Demo(args) => demo::run(args),
     };

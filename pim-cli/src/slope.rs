@@ -7,9 +7,9 @@ use std::path::PathBuf;
 
 use pim_core::io::read_readings;
 use pim_core::slope::{judge, SlopeAnswer, StepKind, Unsettled, Verdict};
-use serde_json::json;
+use serde::Serialize;
 
-use crate::common::{finish, open, stdout, CliResult};
+use crate::common::{finish, open, stdout, AnswerFormat, CliResult};
 use crate::render::text_table::{Align, TextTable};
 
 /// Which test the readings come from.
@@ -19,13 +19,6 @@ pub enum KindArg {
     Attenuator,
     /// `step_db` is the change of one emitter's power, negative for a reduction.
     Power,
-}
-
-/// Output formats of a single answer.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
-pub enum AnswerFormat {
-    Table,
-    Json,
 }
 
 #[derive(clap::Args, Debug)]
@@ -42,6 +35,30 @@ pub struct Args {
     /// Output format.
     #[arg(long, value_enum, default_value_t = AnswerFormat::Table)]
     pub format: AnswerFormat,
+}
+
+/// The JSON answer: the slope, its standard error and the number of readings, then the
+/// verdict (attenuator) or the coefficient (power step), which are the contract.
+#[derive(Serialize)]
+struct SlopeJson<'a> {
+    slope_db_per_db: f64,
+    slope_stderr: Option<f64>,
+    n: usize,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    verdict: Option<Verdict>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    order: Option<Option<u32>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    coefficient: Option<Option<u32>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    emitter: Option<Option<&'a str>>,
+    interval_95: Option<[f64; 2]>,
+    kind: StepKind,
+    convention: &'static str,
+    intercept_dbm: f64,
+    residual_sd_db: Option<f64>,
+    readings_file: &'a str,
+    advice: &'a str,
 }
 
 /// Wider ranges of steps are not suggested: the product would sink into the noise floor
@@ -188,28 +205,23 @@ pub fn run(args: Args) -> CliResult {
     let mut out = stdout();
     match args.format {
         AnswerFormat::Json => {
-            let mut v = json!({
-                "kind": kind,
-                "readings_file": source,
-                "n": answer.fit.n,
-                "slope_db_per_db": r4(answer.slope_db_per_db),
-                "slope_stderr": answer.fit.slope_stderr.map(r4),
-                "interval_95": answer.interval.map(|(lo, hi)| [r4(lo), r4(hi)]),
-                "convention": convention(kind),
-                "intercept_dbm": r4(answer.fit.intercept),
-                "residual_sd_db": answer.fit.residual_sd_db.map(r4),
-            });
-            match kind {
-                StepKind::Attenuator => {
-                    v["verdict"] = json!(answer.verdict.unwrap_or(Verdict::Inconclusive));
-                    v["order"] = json!(answer.order);
-                }
-                StepKind::Power => {
-                    v["coefficient"] = json!(answer.coefficient);
-                    v["emitter"] = json!(args.emitter);
-                }
-            }
-            v["advice"] = json!(advice);
+            let attenuator = kind == StepKind::Attenuator;
+            let v = SlopeJson {
+                slope_db_per_db: r4(answer.slope_db_per_db),
+                slope_stderr: answer.fit.slope_stderr.map(r4),
+                n: answer.fit.n,
+                verdict: attenuator.then(|| answer.verdict.unwrap_or(Verdict::Inconclusive)),
+                order: attenuator.then_some(answer.order),
+                coefficient: (!attenuator).then_some(answer.coefficient),
+                emitter: (!attenuator).then_some(args.emitter.as_deref()),
+                interval_95: answer.interval.map(|(lo, hi)| [r4(lo), r4(hi)]),
+                kind,
+                convention: convention(kind),
+                intercept_dbm: r4(answer.fit.intercept),
+                residual_sd_db: answer.fit.residual_sd_db.map(r4),
+                readings_file: &source,
+                advice: &advice,
+            };
             serde_json::to_writer_pretty(&mut out, &v).map_err(std::io::Error::from)?;
             writeln!(out)?;
         }

@@ -9,6 +9,7 @@
 //! - [`rank`] and [`level`]: which of those is plausible, from ERP, free-space loss
 //!   (ITU-R P.525) and a power-law junction model.
 //! - [`onair`]: whether the interference comes and goes with a candidate's emitters.
+//! - [`plan`]: the largest set of channels on which no product of them lands.
 //! - [`slope`]: the attenuator and power-step tests, read from the level slope.
 //! - [`io`]: the emitter and receiver files, with errors that name file, line and field.
 //!
@@ -47,6 +48,7 @@ pub mod intermod;
 pub mod io;
 pub mod level;
 pub mod onair;
+pub mod plan;
 pub mod rank;
 pub mod slope;
 

@@ -4,11 +4,13 @@
 //! Every reader names the source, the line (the header is line 1) and the field of a bad
 //! value, and stops at the first one.
 
+pub mod channels;
 pub mod emitters;
 pub mod onair;
 pub mod readings;
 pub mod table;
 
+pub use channels::{read_channels, ChannelFile, ListedChannel};
 pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};
 pub use onair::{read_heard, read_on_air, Clock};
 pub use readings::{read_readings, ReadingsFile};
