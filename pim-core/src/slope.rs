@@ -315,7 +315,8 @@ mod tests {
 
     #[test]
     fn t_quantiles_match_tables() {
-        // Two-sided 95 % Student's t (any statistics table): 12.706 (1 df), 2.228 (10 df).
+        // Two-sided 95 % Student's t, as printed in any statistics table (values from
+        // memory): 12.706 at 1 degree of freedom, 2.228 at 10.
         assert!((t_quantile(1.0).unwrap() - 12.706).abs() < 1e-3);
         assert!((t_quantile(10.0).unwrap() - 2.228).abs() < 1e-3);
     }
