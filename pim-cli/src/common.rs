@@ -111,3 +111,10 @@ pub enum ListFormat {
     Csv,
     Markdown,
 }
+
+/// Output formats of a command that gives one answer rather than a listing.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum AnswerFormat {
+    Table,
+    Json,
+}

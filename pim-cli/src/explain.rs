@@ -7,10 +7,12 @@ use std::path::PathBuf;
 use pim_core::emitter::{Carrier, Emitter};
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
-use pim_core::intermod::{find_products, Hits, SearchParams};
-use pim_core::io::read_emitters;
+use pim_core::intermod::{find_products, retain_coefficients, Hits, SearchParams, MAX_ORDER};
+use pim_core::io::{read_emitters, read_heard, read_on_air, Clock};
 use pim_core::level::JunctionModel;
-use pim_core::rank::{rank, Ranking};
+use pim_core::onair::{Logbook, Schedule};
+use pim_core::rank::{rank_with_evidence, Ranking};
+use pim_core::Error;
 use serde_json::json;
 
 use crate::common::{
@@ -112,8 +114,85 @@ pub struct Args {
     /// Emitter file: CSV with a header, or a JSON array.
     #[arg(long, value_name = "FILE")]
     pub emitters: PathBuf,
+    /// Keep only candidates in which EMITTER carries |k| = K, as a power step found it
+    /// (K = 0: candidates without EMITTER). Repeatable.
+    #[arg(long = "coefficient", value_name = "EMITTER=K", value_parser = coefficient_arg)]
+    pub coefficients: Vec<(String, u32)>,
+    /// On-air log: CSV `emitter,start,end` with ISO 8601 times (needs --heard).
+    #[arg(long = "on-air", value_name = "FILE", requires = "heard")]
+    pub on_air: Option<PathBuf>,
+    /// Listening log: CSV `time,heard` with heard true or false (needs --on-air).
+    #[arg(long, value_name = "FILE", requires = "on_air")]
+    pub heard: Option<PathBuf>,
     #[command(flatten)]
     pub search: SearchArgs,
+}
+
+/// clap parser for `EMITTER=K`: an emitter id and the |k| it carries.
+pub fn coefficient_arg(text: &str) -> Result<(String, u32), String> {
+    let (id, k) = text
+        .rsplit_once('=')
+        .ok_or_else(|| format!("`{text}` is not EMITTER=K (such as SKP-152=2)"))?;
+    let id = id.trim();
+    if id.is_empty() {
+        return Err(format!("`{text}` names no emitter before `=`"));
+    }
+    let k: u32 = k
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{k}` is not a whole number 0 to {MAX_ORDER}"))?;
+    if k > MAX_ORDER {
+        return Err(format!(
+            "|k| = {k} is above {MAX_ORDER}, the highest order searched"
+        ));
+    }
+    Ok((id.to_string(), k))
+}
+
+/// Turns `EMITTER=K` pairs into emitter indices; an unknown id or one given twice with
+/// different values is a bad argument.
+pub fn coefficient_indices(
+    pairs: &[(String, u32)],
+    emitters: &[Emitter],
+    source: &str,
+) -> Result<Vec<(usize, u32)>, Error> {
+    let mut out: Vec<(usize, u32)> = Vec::new();
+    for (id, k) in pairs {
+        let i = emitters.iter().position(|e| &e.id == id).ok_or_else(|| {
+            Error::argument("--coefficient", format!("no emitter `{id}` in {source}"))
+        })?;
+        match out.iter().find(|(j, _)| *j == i) {
+            Some((_, other)) if other != k => {
+                return Err(Error::argument(
+                    "--coefficient",
+                    format!("`{id}` is given both |k| = {other} and |k| = {k}"),
+                ))
+            }
+            Some(_) => {}
+            None => out.push((i, *k)),
+        }
+    }
+    Ok(out)
+}
+
+/// Reads the on-air and listening logs against `emitters`.
+pub fn load_logbook(
+    on_air: &std::path::Path,
+    heard: &std::path::Path,
+    emitters: &[Emitter],
+) -> CliResult<Logbook> {
+    let mut clock = Clock::default();
+    let intervals = read_on_air(
+        &on_air.display().to_string(),
+        open(on_air)?,
+        emitters,
+        &mut clock,
+    )?;
+    let observations = read_heard(&heard.display().to_string(), open(heard)?, &mut clock)?;
+    Ok(Logbook::new(
+        Schedule::new(emitters, &intervals),
+        observations,
+    ))
 }
 
 /// Reads an emitter file and reports unused columns on standard error.
@@ -145,13 +224,31 @@ pub fn search_and_rank(
     junction: Option<GeoPoint>,
     model: &JunctionModel,
 ) -> (Ranking, Vec<usize>) {
+    let (ranking, co_channel, _) =
+        search_and_rank_with(emitters, params, junction, model, &[], None);
+    (ranking, co_channel)
+}
+
+/// [`search_and_rank`], keeping only the products with the given coefficients and
+/// ranking on the logbook's evidence when one is given. Also returns how many products
+/// the search found before the coefficients narrowed them.
+pub fn search_and_rank_with(
+    emitters: &[Emitter],
+    params: &SearchParams,
+    junction: Option<GeoPoint>,
+    model: &JunctionModel,
+    coefficients: &[(usize, u32)],
+    logbook: Option<&Logbook>,
+) -> (Ranking, Vec<usize>, usize) {
     let carriers: Vec<Carrier> = emitters.iter().map(|e| e.carrier()).collect();
     let Hits {
-        products,
+        mut products,
         co_channel,
     } = find_products(&carriers, params);
-    let ranking = rank(products, emitters, params.target, junction, model);
-    (ranking, co_channel)
+    let found = products.len();
+    retain_coefficients(&mut products, coefficients);
+    let ranking = rank_with_evidence(products, emitters, params.target, junction, model, logbook);
+    (ranking, co_channel, found)
 }
 
 /// The header lines above a table listing.
@@ -199,12 +296,55 @@ pub fn co_channel_text(listing: &Listing) -> String {
     )
 }
 
+/// A line saying what narrowed the list and what the logs hold, for the table header.
+fn narrowing_text(
+    emitters: &[Emitter],
+    coefficients: &[(usize, u32)],
+    found: usize,
+    kept: usize,
+    logbook: Option<&Logbook>,
+) -> String {
+    let mut s = String::new();
+    if !coefficients.is_empty() {
+        let list: Vec<String> = coefficients
+            .iter()
+            .map(|&(i, k)| format!("{} |k| = {k}", emitters[i].id))
+            .collect();
+        s.push_str(&format!(
+            "Kept {kept} of {found} products: those with {}.\n",
+            list.join(", ")
+        ));
+    }
+    if let Some(book) = logbook {
+        let heard = book.heard_count();
+        s.push_str(&format!(
+            "On-air evidence: {} listening times, heard at {heard}, silent at {}.\n",
+            book.observations.len(),
+            book.observations.len() - heard
+        ));
+    }
+    s
+}
+
 pub fn run(args: Args) -> CliResult {
     let emitters = load_emitters(&args.emitters)?;
+    let source = args.emitters.display().to_string();
+    let coefficients = coefficient_indices(&args.coefficients, &emitters, &source)?;
+    let logbook = match (&args.on_air, &args.heard) {
+        (Some(on_air), Some(heard)) => Some(load_logbook(on_air, heard, &emitters)?),
+        _ => None,
+    };
     let s = &args.search;
     let params = s.params(args.freq, s.rx_bw);
     let junction = s.rx_site();
-    let (ranking, co_channel) = search_and_rank(&emitters, &params, junction, &s.junction_model());
+    let (ranking, co_channel, found) = search_and_rank_with(
+        &emitters,
+        &params,
+        junction,
+        &s.junction_model(),
+        &coefficients,
+        logbook.as_ref(),
+    );
     let listing = Listing {
         emitters: &emitters,
         params: &params,
@@ -227,6 +367,17 @@ pub fn run(args: Args) -> CliResult {
                 )
             )?;
             write!(out, "{}", co_channel_text(&listing))?;
+            write!(
+                out,
+                "{}",
+                narrowing_text(
+                    &emitters,
+                    &coefficients,
+                    found,
+                    ranking.candidates.len(),
+                    logbook.as_ref()
+                )
+            )?;
             let total = ranking.candidates.len();
             writeln!(
                 out,
@@ -256,6 +407,16 @@ pub fn run(args: Args) -> CliResult {
             inputs["rx_bw_khz"] = json!(s.rx_bw.khz());
             inputs["emitters_file"] = json!(args.emitters.display().to_string());
             inputs["emitter_count"] = json!(emitters.len());
+            inputs["coefficients"] = json!(coefficients
+                .iter()
+                .map(|&(i, k)| (emitters[i].id.clone(), k))
+                .collect::<std::collections::BTreeMap<_, _>>());
+            inputs["on_air_file"] = json!(args.on_air.as_ref().map(|p| p.display().to_string()));
+            inputs["heard_file"] = json!(args.heard.as_ref().map(|p| p.display().to_string()));
+            if let Some(book) = &logbook {
+                inputs["heard_times"] = json!(book.heard_count());
+                inputs["silent_times"] = json!(book.observations.len() - book.heard_count());
+            }
             writeln!(out, "{{")?;
             writeln!(
                 out,
@@ -264,6 +425,7 @@ pub fn run(args: Args) -> CliResult {
             )?;
             writeln!(out, "  \"ranking_basis\": {},", json!(ranking.basis()))?;
             writeln!(out, "  \"co_channel\": {},", co_channel_json(&listing))?;
+            writeln!(out, "  \"found\": {found},")?;
             writeln!(out, "  \"total\": {},", ranking.candidates.len())?;
             write!(out, "  \"candidates\": ")?;
             write_json_array(&mut out, &listing, shown)?;

@@ -14,7 +14,9 @@ mod explain;
 mod fix;
 mod log;
 mod next;
+mod plan;
 mod render;
+mod slope;
 mod study;
 
 use common::CliError;
@@ -40,6 +42,10 @@ enum Command {
     Next(next::Args),
     /// Every product that lands on each receiver of a site.
     Study(study::Args),
+    /// The largest set of channels on which no product of them lands.
+    Plan(plan::Args),
+    /// Read an attenuator or power-step test from the level slope.
+    Slope(slope::Args),
     /// Run the job on the built-in invented demo site.
     Demo(demo::Args),
 }
@@ -74,6 +80,8 @@ fn main() -> ExitCode {
         Command::Log(args) => log::run(args),
         Command::Next(args) => next::run(args),
         Command::Study(args) => study::run(args),
+        Command::Plan(args) => plan::run(args),
+        Command::Slope(args) => slope::run(args),
         Command::Demo(args) => demo::run(args),
     };
     match result {

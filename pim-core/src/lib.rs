@@ -8,6 +8,9 @@
 //!   in whole hertz, with a search that grows as N² rather than N³.
 //! - [`rank`] and [`level`]: which of those is plausible, from ERP, free-space loss
 //!   (ITU-R P.525) and a power-law junction model.
+//! - [`onair`]: whether the interference comes and goes with a candidate's emitters.
+//! - [`plan`]: the largest set of channels on which no product of them lands.
+//! - [`slope`]: the attenuator and power-step tests, read from the level slope.
 //! - [`io`]: the emitter and receiver files, with errors that name file, line and field.
 //!
 //! ```
@@ -46,7 +49,10 @@ pub mod geo;
 pub mod intermod;
 pub mod io;
 pub mod level;
+pub mod onair;
+pub mod plan;
 pub mod rank;
+pub mod slope;
 pub mod ticket;
 pub mod walk;
 

@@ -2,6 +2,11 @@
 //! product has an ERP and a location, otherwise after those, by order then offset.
 //! Remaining ties break on the emitter ids and coefficients, so the same input always
 //! gives the same list.
+//!
+//! With on-air evidence ([`rank_with_evidence`]) the evidence comes first, by the rule in
+//! [`crate::onair`]: fewest times heard while one of the candidate's emitters was off the
+//! air, then most times heard with all of them on, then fewest times silent with all of
+//! them on; the keys above follow among equals.
 
 use std::cmp::Ordering;
 
@@ -12,6 +17,7 @@ use crate::freq::Hz;
 use crate::geo::GeoPoint;
 use crate::intermod::{Product, Term};
 use crate::level::{incidence, Incidence, JunctionModel};
+use crate::onair::{Evidence, Logbook};
 
 /// A product with its place in the ranking.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -21,6 +27,8 @@ pub struct Candidate {
     pub product: Product,
     /// Σ|kᵢ|·Pᵢ + C(n) in dBm, when every emitter's ERP and location are known.
     pub level_dbm: Option<f64>,
+    /// What the on-air log says about it, when a log was given.
+    pub evidence: Option<Evidence>,
 }
 
 /// The breakdown of a predicted level, for a practitioner to check.
@@ -44,6 +52,8 @@ pub struct Ranking {
     pub incidence: Vec<Option<Incidence>>,
     /// How many candidates lack a level (ranked after the others by order, then offset).
     pub unlevelled: usize,
+    /// Whether on-air evidence took part (it then comes first).
+    pub by_evidence: bool,
 }
 
 impl Ranking {
@@ -64,6 +74,15 @@ impl Ranking {
 
     /// A one-line statement of how the list is ordered.
     pub fn basis(&self) -> String {
+        let rest = self.basis_after_evidence();
+        if self.by_evidence {
+            format!("ranked first by on-air evidence (fewest times heard with an emitter off air, most heard with all on air, fewest silent with all on air), then {}", rest.trim_start_matches("ranked "))
+        } else {
+            rest
+        }
+    }
+
+    fn basis_after_evidence(&self) -> String {
         let total = self.candidates.len();
         match (self.junction, self.unlevelled) {
             (None, _) => "ranked by order, then offset: no junction location given, so no levels".to_string(),
@@ -138,6 +157,18 @@ pub fn rank(
     junction: Option<GeoPoint>,
     model: &JunctionModel,
 ) -> Ranking {
+    rank_with_evidence(products, emitters, target, junction, model, None)
+}
+
+/// [`rank`], with the on-air evidence of `logbook` (when given) as the first key.
+pub fn rank_with_evidence(
+    products: Vec<Product>,
+    emitters: &[Emitter],
+    target: Hz,
+    junction: Option<GeoPoint>,
+    model: &JunctionModel,
+    logbook: Option<&Logbook>,
+) -> Ranking {
     let incidence_by_emitter: Vec<Option<Incidence>> = emitters
         .iter()
         .map(|e| junction.and_then(|j| incidence(e, j)))
@@ -148,6 +179,7 @@ pub fn rank(
         model: *model,
         incidence: incidence_by_emitter,
         unlevelled: 0,
+        by_evidence: logbook.is_some(),
     };
     for product in products {
         let level_dbm = ranking.level_terms(&product).map(|t| t.level_dbm);
@@ -155,6 +187,7 @@ pub fn rank(
             rank: 0,
             product,
             level_dbm,
+            evidence: logbook.map(|book| book.evidence(&product)),
         });
     }
     ranking.unlevelled = ranking
@@ -163,13 +196,18 @@ pub fn rank(
         .filter(|c| c.level_dbm.is_none())
         .count();
     ranking.candidates.sort_by(|a, b| {
+        let by_evidence = match (&a.evidence, &b.evidence) {
+            (Some(x), Some(y)) => x.ranking_cmp(y),
+            _ => Ordering::Equal,
+        };
         let by_level = match (a.level_dbm, b.level_dbm) {
             (Some(x), Some(y)) => y.total_cmp(&x),
             (Some(_), None) => Ordering::Less,
             (None, Some(_)) => Ordering::Greater,
             (None, None) => Ordering::Equal,
         };
-        by_level
+        by_evidence
+            .then(by_level)
             .then(a.product.order().cmp(&b.product.order()))
             .then(
                 a.product
@@ -190,6 +228,61 @@ pub fn rank(
 mod tests {
     use super::*;
     use crate::intermod::Term;
+    use crate::onair::{Interval, Observation, Schedule};
+    use time::macros::datetime;
+
+    #[test]
+    fn evidence_comes_before_order_and_level() {
+        let e = vec![
+            Emitter::new("A", Hz(150_000_000), Hz(0)),
+            Emitter::new("B", Hz(153_600_000), Hz(0)),
+            Emitter::new("C", Hz(151_800_000), Hz(0)),
+        ];
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        let third = Product::new(&[t(0, 2), t(1, -1)], Hz(146_400_000));
+        let fifth = Product::new(&[t(0, 3), t(2, -2)], Hz(146_400_000));
+        let model = JunctionModel::default();
+        let plain = rank(vec![fifth, third], &e, Hz(146_400_000), None, &model);
+        assert_eq!(plain.candidates[0].product, third);
+        assert!(!plain.by_evidence && plain.candidates[0].evidence.is_none());
+        // Heard at 09:30 while B was off the air and A and C were on.
+        let on = |i, h0, h1| {
+            (
+                i,
+                Interval {
+                    start: datetime!(2025-06-14 00:00 UTC).replace_hour(h0).unwrap(),
+                    end: datetime!(2025-06-14 00:00 UTC).replace_hour(h1).unwrap(),
+                },
+            )
+        };
+        let schedule = Schedule::new(&e, &[on(0, 9, 11), on(1, 10, 11), on(2, 9, 11)]);
+        let book = Logbook::new(
+            schedule,
+            vec![Observation {
+                at: datetime!(2025-06-14 09:30 UTC),
+                heard: true,
+            }],
+        );
+        let r = rank_with_evidence(
+            vec![third, fifth],
+            &e,
+            Hz(146_400_000),
+            None,
+            &model,
+            Some(&book),
+        );
+        assert_eq!(r.candidates[0].product, fifth);
+        assert_eq!(r.candidates[0].evidence.map(|v| v.support), Some(1));
+        assert_eq!(r.candidates[1].evidence.map(|v| v.heard_off_air), Some(1));
+        assert!(
+            r.basis().starts_with("ranked first by on-air evidence"),
+            "{}",
+            r.basis()
+        );
+    }
 
     #[test]
     fn formula_reads_in_trade_notation() {

@@ -5,6 +5,7 @@ use std::io::Write;
 
 use pim_core::emitter::Emitter;
 use pim_core::intermod::SearchParams;
+use pim_core::onair::Evidence;
 use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
 use serde::Serialize;
 
@@ -45,6 +46,8 @@ struct CandidateJson<'a> {
     bandwidth_khz: f64,
     predicted_level_dbm: Option<f64>,
     level_terms: Option<LevelTerms>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    on_air: Option<Evidence>,
 }
 
 fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
@@ -76,6 +79,7 @@ fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
             conversion_db: r2(t.conversion_db),
             level_dbm: r2(t.level_dbm),
         }),
+        on_air: c.evidence,
     }
 }
 
@@ -127,6 +131,23 @@ pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) 
 /// The header of the CSV listing.
 pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,predicted_level_dbm,power_sum_db,conversion_db,terms,kinds,owners";
 
+/// The columns the CSV listing adds when on-air evidence was given.
+pub const CSV_EVIDENCE_HEADER: &str =
+    "on_air_support,on_air_contradictions,on_air_heard_off_air,on_air_unknown";
+
+/// The evidence columns' cells, in the order of the headers.
+fn evidence_cells(e: &Evidence) -> [String; 4] {
+    [
+        e.support.to_string(),
+        e.contradictions.to_string(),
+        e.heard_off_air.to_string(),
+        e.unknown.to_string(),
+    ]
+}
+
+/// What the evidence columns of the table mean.
+pub const EVIDENCE_LEGEND: &str = "On-air evidence: support = times heard with all the product's emitters on air; contradictions = times\nnot heard although all were on air; heard off = times heard while one of them was off air (the product\ncannot have made those); unknown = times with an emitter of unknown state.\n";
+
 fn csv_field(text: &str) -> String {
     if text.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", text.replace('"', "\"\""))
@@ -145,9 +166,14 @@ pub fn write_csv(
     header: bool,
 ) -> CliResult {
     if header {
+        let evidence = if l.ranking.by_evidence {
+            format!(",{CSV_EVIDENCE_HEADER}")
+        } else {
+            String::new()
+        };
         match prefix {
-            Some((name, _)) => writeln!(out, "{name},{CSV_HEADER}")?,
-            None => writeln!(out, "{CSV_HEADER}")?,
+            Some((name, _)) => writeln!(out, "{name},{CSV_HEADER}{evidence}")?,
+            None => writeln!(out, "{CSV_HEADER}{evidence}")?,
         }
     }
     let carriers = carriers(l.emitters);
@@ -166,7 +192,7 @@ pub fn write_csv(
                 .join(";")
         };
         let lt = l.ranking.level_terms(&c.product);
-        let fields = [
+        let mut fields = vec![
             c.rank.to_string(),
             formula(&c.product, l.emitters),
             c.product.order().to_string(),
@@ -188,6 +214,9 @@ pub fn write_csv(
             join(&|e| e.kind.clone().unwrap_or_default()),
             join(&|e| e.owner.clone().unwrap_or_default()),
         ];
+        if l.ranking.by_evidence {
+            fields.extend(c.evidence.as_ref().map(evidence_cells).unwrap_or_default());
+        }
         if let Some((_, value)) = prefix {
             write!(out, "{},", csv_field(value))?;
         }
@@ -209,7 +238,7 @@ fn level_text(x: Option<f64>) -> String {
 /// The ranked candidates as an aligned terminal table, followed by the incident power
 /// of each emitter that appears in it.
 pub fn table_text(l: &Listing, limit: usize) -> String {
-    let mut t = TextTable::new(&[
+    let mut headers = vec![
         ("#", Align::Right),
         ("product", Align::Left),
         ("order", Align::Right),
@@ -219,7 +248,16 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         ("level dBm", Align::Right),
         ("Σ|k|·P dB", Align::Right),
         ("C(n) dB", Align::Right),
-    ]);
+    ];
+    if l.ranking.by_evidence {
+        headers.extend([
+            ("support", Align::Right),
+            ("contradictions", Align::Right),
+            ("heard off", Align::Right),
+            ("unknown", Align::Right),
+        ]);
+    }
+    let mut t = TextTable::new(&headers);
     let carriers = carriers(l.emitters);
     let mut used = vec![false; l.emitters.len()];
     for c in l.ranking.candidates.iter().take(limit) {
@@ -227,7 +265,7 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         for term in c.product.terms() {
             used[term.emitter] = true;
         }
-        t.push(vec![
+        let mut row = vec![
             c.rank.to_string(),
             formula(&c.product, l.emitters),
             c.product.order().to_string(),
@@ -237,7 +275,11 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
             level_text(c.level_dbm),
             level_text(lt.as_ref().map(|x| x.power_sum_db)),
             level_text(lt.as_ref().map(|x| x.conversion_db)),
-        ]);
+        ];
+        if l.ranking.by_evidence {
+            row.extend(c.evidence.as_ref().map(evidence_cells).unwrap_or_default());
+        }
+        t.push(row);
     }
     let mut out = String::new();
     if t.is_empty() {
@@ -245,6 +287,10 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         return out;
     }
     out.push_str(&t.render());
+    if l.ranking.by_evidence {
+        out.push('\n');
+        out.push_str(EVIDENCE_LEGEND);
+    }
     let incident: Vec<String> = used
         .iter()
         .enumerate()
@@ -280,9 +326,15 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
 /// The ranked candidates as a Markdown table.
 pub fn markdown_text(l: &Listing, limit: usize) -> String {
     let carriers = carriers(l.emitters);
-    let mut out = String::from(
-        "| # | product | order | at MHz | offset kHz | width kHz | level dBm | emitters |\n|---:|---|---:|---:|---:|---:|---:|---|\n",
-    );
+    let mut out = if l.ranking.by_evidence {
+        String::from(
+            "| # | product | order | at MHz | offset kHz | width kHz | level dBm | support | contradictions | heard off | unknown | emitters |\n|---:|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|\n",
+        )
+    } else {
+        String::from(
+            "| # | product | order | at MHz | offset kHz | width kHz | level dBm | emitters |\n|---:|---|---:|---:|---:|---:|---:|---|\n",
+        )
+    };
     for c in l.ranking.candidates.iter().take(limit) {
         let who: Vec<String> = display_terms(&c.product, l.emitters)
             .iter()
@@ -296,8 +348,13 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
                 }
             })
             .collect();
+        let evidence = match (&c.evidence, l.ranking.by_evidence) {
+            (Some(e), true) => format!("{} | ", evidence_cells(e).join(" | ")),
+            (None, true) => "— | — | — | — | ".to_string(),
+            _ => String::new(),
+        };
         out.push_str(&format!(
-            "| {} | {} | {} | {:.4} | {} | {:.1} | {} | {} |\n",
+            "| {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
             c.rank,
             formula(&c.product, l.emitters).replace('|', "\\|"),
             c.product.order(),

@@ -125,6 +125,23 @@ impl Product {
     pub fn is_harmonic(&self) -> bool {
         self.len == 1
     }
+
+    /// The coefficient emitter `emitter` carries, 0 when it takes no part.
+    pub fn coefficient_of(&self, emitter: usize) -> i32 {
+        self.terms()
+            .find(|t| t.emitter == emitter)
+            .map_or(0, |t| t.coefficient)
+    }
+}
+
+/// Keeps the products in which every listed emitter carries the listed |k| (0: takes no
+/// part), as a power-step test finds it; the order of the rest is kept.
+pub fn retain_coefficients(products: &mut Vec<Product>, required: &[(usize, u32)]) {
+    products.retain(|p| {
+        required
+            .iter()
+            .all(|&(e, k)| p.coefficient_of(e).unsigned_abs() == k)
+    });
 }
 
 /// What the search found.
@@ -310,8 +327,7 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
                 }
                 let fixed = k1 * fa + k2 * f[b];
                 let fixed_bw = k1.abs() * bwa + k2.abs() * s.bandwidth[b];
-                let from = lo.max(b + 1);
-                for (c, &fc) in f.iter().enumerate().skip(from) {
+                for (c, &fc) in f.iter().enumerate().skip(lo.max(b + 1)) {
                     if 2 * m * fc > t + w {
                         break;
                     }
@@ -404,6 +420,27 @@ mod tests {
             }
         );
         assert_eq!(hits.products[0].order(), 3);
+    }
+
+    #[test]
+    fn coefficients_narrow_the_products() {
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        let a = Product::new(&[t(0, 2), t(1, -1)], Hz(1));
+        let b = Product::new(&[t(0, 1), t(1, 1), t(2, -1)], Hz(2));
+        assert_eq!(a.coefficient_of(1), -1);
+        assert_eq!(a.coefficient_of(2), 0);
+        let mut v = vec![a, b];
+        retain_coefficients(&mut v, &[(0, 2)]);
+        assert_eq!(v, vec![a]);
+        let mut v = vec![a, b];
+        retain_coefficients(&mut v, &[(2, 0)]);
+        assert_eq!(v, vec![a]);
+        let mut v = vec![a, b];
+        retain_coefficients(&mut v, &[(1, 1), (2, 1)]);
+        assert_eq!(v, vec![b]);
     }
 
     #[test]

@@ -5,10 +5,16 @@
 //! value, and stops at the first one.
 
 pub mod append;
+pub mod channels;
 pub mod emitters;
 pub mod export;
 pub mod fieldlog;
+pub mod onair;
+pub mod readings;
 pub mod table;
 pub mod track;
 
+pub use channels::{read_channels, ChannelFile, ListedChannel};
 pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};
+pub use onair::{read_heard, read_on_air, Clock};
+pub use readings::{read_readings, ReadingsFile};

@@ -1,0 +1,144 @@
+//! The readings of a confirming test: CSV `step_db,level_dbm` with an optional `note`.
+//!
+//! `step_db` is the attenuation inserted (attenuator test, 0 or more) or the change of
+//! one emitter's power (power step, negative for a reduction); `level_dbm` is the level
+//! of the interference read at that step. See [`crate::slope`] for the sign convention.
+
+use std::io::Read;
+
+use crate::error::{Error, Place, Result};
+use crate::io::table::{parse_finite, Table};
+use crate::slope::StepKind;
+
+/// Columns the readings reader understands.
+pub const READING_COLUMNS: &[&str] = &["step_db", "level_dbm", "note"];
+
+/// The largest step accepted, in dB either way: beyond it the product sinks into any
+/// receiver's noise floor, so the value is a typing error.
+pub const MAX_STEP_DB: f64 = 100.0;
+
+/// Levels outside this range (dBm) are not readings of a receiver.
+pub const LEVEL_RANGE_DBM: (f64, f64) = (-200.0, 100.0);
+
+/// One reading.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Reading {
+    pub step_db: f64,
+    pub level_dbm: f64,
+    pub note: Option<String>,
+    /// The line it came from (header = line 1).
+    pub line: u64,
+}
+
+/// Readings read from a file.
+#[derive(Clone, Debug, Default)]
+pub struct ReadingsFile {
+    pub readings: Vec<Reading>,
+    /// Columns present in the file that the tool does not use.
+    pub ignored_columns: Vec<String>,
+}
+
+impl ReadingsFile {
+    /// The readings as (step, level) points for [`crate::slope::judge`].
+    pub fn points(&self) -> Vec<(f64, f64)> {
+        self.readings
+            .iter()
+            .map(|r| (r.step_db, r.level_dbm))
+            .collect()
+    }
+}
+
+/// Reads the readings of a `kind` test; `source` names the file in messages.
+pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result<ReadingsFile> {
+    let mut table = Table::open(source, reader)?;
+    let step_col = table.require("step_db")?;
+    let level_col = table.require("level_dbm")?;
+    let note_col = table.column("note");
+    let mut file = ReadingsFile {
+        ignored_columns: table.unknown_columns(READING_COLUMNS),
+        ..Default::default()
+    };
+    while let Some(row) = table.next_row()? {
+        let place = |f: &str| row.place(f);
+        let step_text = row
+            .text(Some(step_col))
+            .ok_or_else(|| Error::input(place("step_db"), "missing step"))?;
+        let step_db = parse_finite(|| place("step_db"), step_text)?;
+        if step_db.abs() > MAX_STEP_DB {
+            return Err(Error::input(
+                place("step_db"),
+                format!("step {step_text} dB is beyond ±{MAX_STEP_DB} dB"),
+            ));
+        }
+        if kind == StepKind::Attenuator && step_db < 0.0 {
+            return Err(Error::input(
+                place("step_db"),
+                format!(
+                    "attenuation {step_text} dB is negative; give the attenuation inserted (0 for none)"
+                ),
+            ));
+        }
+        let level_text = row
+            .text(Some(level_col))
+            .ok_or_else(|| Error::input(place("level_dbm"), "missing level"))?;
+        let level_dbm = parse_finite(|| place("level_dbm"), level_text)?;
+        let (lowest, highest) = LEVEL_RANGE_DBM;
+        if !(lowest..=highest).contains(&level_dbm) {
+            return Err(Error::input(
+                place("level_dbm"),
+                format!("level {level_text} dBm is outside {lowest}…+{highest} dBm"),
+            ));
+        }
+        file.readings.push(Reading {
+            step_db,
+            level_dbm,
+            note: row.text(note_col).map(str::to_string),
+            line: row.line,
+        });
+    }
+    if file.readings.is_empty() {
+        return Err(Error::input(
+            Place::new(source),
+            "no data rows after the header",
+        ));
+    }
+    Ok(file)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn read(text: &str, kind: StepKind) -> Result<ReadingsFile> {
+        read_readings("r.csv", text.as_bytes(), kind)
+    }
+
+    #[test]
+    fn reads_readings_with_notes() {
+        let f = read(
+            "step_db,level_dbm,note\n0,-92.5,no pad\n6,-98.4,\n",
+            StepKind::Attenuator,
+        )
+        .unwrap();
+        assert_eq!(f.readings.len(), 2);
+        assert_eq!(f.readings[0].note.as_deref(), Some("no pad"));
+        assert_eq!(f.readings[1].line, 3);
+        assert_eq!(f.points(), vec![(0.0, -92.5), (6.0, -98.4)]);
+    }
+
+    #[test]
+    fn names_each_bad_value() {
+        let cases = [
+            ("step_db,level_dbm\n-3,-90\n", StepKind::Attenuator, "r.csv, line 2, field `step_db`: attenuation -3 dB is negative; give the attenuation inserted (0 for none)"),
+            ("step_db,level_dbm\n0,loud\n", StepKind::Power, "r.csv, line 2, field `level_dbm`: `loud` is not a number"),
+            ("step_db,level_dbm\n0,-90\n500,-90\n", StepKind::Power, "r.csv, line 3, field `step_db`: step 500 dB is beyond ±100 dB"),
+            ("step_db,level_dbm\n0,-400\n", StepKind::Power, "r.csv, line 2, field `level_dbm`: level -400 dBm is outside -200…+100 dBm"),
+            ("step_db,level_dbm\n0,\n", StepKind::Power, "r.csv, line 2, field `level_dbm`: missing level"),
+            ("step_db\n0\n", StepKind::Power, "r.csv, line 1, field `level_dbm`: missing column; the header has: step_db"),
+            ("step_db,level_dbm\n", StepKind::Power, "r.csv: no data rows after the header"),
+        ];
+        for (text, kind, want) in cases {
+            assert_eq!(read(text, kind).unwrap_err().to_string(), want, "{text}");
+        }
+    }
+}

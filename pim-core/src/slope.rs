@@ -1,0 +1,373 @@
+//! Confirming tests by level slope: is a product made over the air or in the receiver, and
+//! which coefficient does one emitter carry in it?
+//!
+//! **Attenuator test.** X dB of attenuation inserted in front of the receiver lowers a
+//! signal that arrives over the air by X dB; a product made inside the receiver by an
+//! n-th-order process drops by about n·X dB (common practice). Readings are
+//! `(step_db, level_dbm)` with `step_db` the attenuation inserted (0 or more).
+//!
+//! **Power-step test.** Lowering one emitter by X dB lowers a product in which it carries
+//! coefficient k by |k|·X dB (the power law: an n-th-order product rises n dB per dB of
+//! its tones; Pozar, *Microwave Engineering*; Razavi, *RF Microelectronics*). Readings are
+//! `(step_db, level_dbm)` with `step_db` the change of that emitter's power, negative for
+//! a reduction (−3 means 3 dB lower than normal).
+//!
+//! **Fit.** Ordinary least squares of level on step gives the slope b, its standard error
+//! se(b) = s/√Sxx with s² = Σ residual² / (n − 2), and the two-sided 95 % interval
+//! b ± t(0.975; n − 2)·se(b) from Student's t distribution (statrs).
+//!
+//! **Sign convention.** The reported `slope_db_per_db` is positive when the test behaves
+//! as expected:
+//! - attenuator: the drop of the level per dB of attenuation inserted, −b (1 for a signal
+//!   over the air, n for an n-th-order product made in the receiver);
+//! - power step: the change of the level per dB of the emitter's power change, +b (|k|).
+//!
+//! The interval is stated in the same convention.
+//!
+//! **Decision rule.** The alternatives are separated at the midpoints between them, and a
+//! verdict needs the whole 95 % interval on one side:
+//! - attenuator: `external` when the interval lies inside (0.5, 1.5); `internal` when it
+//!   lies wholly above 1.5, with the order n given when the interval also lies inside
+//!   (n − 0.5, n + 0.5); otherwise `inconclusive`. A slope below 0.5 means the level does
+//!   not follow the attenuator at all (the interference enters past it, or the readings
+//!   sit on the noise floor).
+//! - power step: coefficient k (0 ≤ k ≤ 15) when the interval lies inside (k − 0.5,
+//!   k + 0.5); otherwise inconclusive. k = 0 says the emitter takes no part in the product.
+//!
+//! Measured passive intermodulation often rises less steeply than the ideal law, 2 to
+//! 3 dB/dB at third order (common practice), so a slope between two integers deserves a
+//! second series rather than a guess; the rule reports it as inconclusive.
+//!
+//! When the interval straddles a boundary, [`Unsettled::Straddles`] says how many readings
+//! over the same range of steps, or what range of steps with the same number of readings,
+//! would narrow the interval enough at the present scatter.
+
+use serde::Serialize;
+use statrs::distribution::{ContinuousCDF, StudentsT};
+
+use crate::error::{Error, Result};
+use crate::intermod::MAX_ORDER;
+
+/// The confidence of the interval on which verdicts rest.
+pub const CONFIDENCE: f64 = 0.95;
+
+/// The most readings [`Unsettled::Straddles`] will suggest; beyond that, more of the same
+/// readings will not settle the question.
+pub const MAX_SUGGESTED_READINGS: usize = 1_000;
+
+/// Which test the readings come from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum StepKind {
+    /// Attenuation inserted in front of the receiver.
+    Attenuator,
+    /// One emitter's power changed.
+    Power,
+}
+
+/// The attenuator test's answer.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Verdict {
+    /// The product arrives over the air: the junction is outside the receiver.
+    External,
+    /// The product is made in the receiver.
+    Internal,
+    /// The interval does not separate the alternatives.
+    Inconclusive,
+}
+
+/// Why a test gave no answer, and what would give one.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Unsettled {
+    /// Two readings fix a line but not its uncertainty.
+    TooFewReadings { have: usize },
+    /// The level does not follow the step the expected way: below 0.5 dB/dB for the
+    /// attenuator, below −0.5 for a power step (the level rose as the emitter was lowered).
+    DoesNotFollow,
+    /// Steeper than any order the product search considers.
+    TooSteep,
+    /// The interval straddles the boundary between two alternatives.
+    Straddles {
+        /// The boundary the interval crosses (nearest to the estimate).
+        boundary: f64,
+        /// Readings over the same range of steps that would settle it at the present
+        /// scatter, when some number up to [`MAX_SUGGESTED_READINGS`] would.
+        readings_needed: Option<usize>,
+        /// The range of steps (dB) that would settle it with the same number of readings.
+        step_range_needed_db: Option<f64>,
+    },
+}
+
+/// An ordinary least-squares line through (step, level) readings.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct LineFit {
+    pub n: usize,
+    /// d(level)/d(step), dB per dB, as measured (no sign convention applied).
+    pub slope: f64,
+    /// Level at step 0, dBm.
+    pub intercept: f64,
+    /// Standard error of the slope; `None` with two readings.
+    pub slope_stderr: Option<f64>,
+    /// Residual standard deviation s, dB; `None` with two readings.
+    pub residual_sd_db: Option<f64>,
+    /// Σ (step − mean step)².
+    pub sxx: f64,
+    /// Highest step minus lowest, dB.
+    pub step_range_db: f64,
+}
+
+/// Fits level against step by ordinary least squares. Refuses fewer than two distinct
+/// steps: no slope can be drawn through them.
+pub fn fit_line(points: &[(f64, f64)]) -> Result<LineFit> {
+    let n = points.len();
+    let lowest = points.iter().map(|p| p.0).fold(f64::INFINITY, f64::min);
+    let highest = points.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
+    if n < 2 || highest <= lowest {
+        return Err(Error::refused(match n {
+            0 => "no readings: a slope needs readings at two or more different steps".to_string(),
+            1 => "one reading: a slope needs readings at two or more different steps".to_string(),
+            _ => format!(
+                "every reading was taken at step {lowest} dB: a slope needs two or more different steps"
+            ),
+        }));
+    }
+    let nf = n as f64;
+    let mean_x = points.iter().map(|p| p.0).sum::<f64>() / nf;
+    let mean_y = points.iter().map(|p| p.1).sum::<f64>() / nf;
+    let sxx: f64 = points.iter().map(|p| (p.0 - mean_x).powi(2)).sum();
+    let sxy: f64 = points.iter().map(|p| (p.0 - mean_x) * (p.1 - mean_y)).sum();
+    let slope = sxy / sxx;
+    let intercept = mean_y - slope * mean_x;
+    let (slope_stderr, residual_sd_db) = if n > 2 {
+        let sse: f64 = points
+            .iter()
+            .map(|p| (p.1 - intercept - slope * p.0).powi(2))
+            .sum();
+        let s = (sse / (nf - 2.0)).sqrt();
+        (Some(s / sxx.sqrt()), Some(s))
+    } else {
+        (None, None)
+    };
+    Ok(LineFit {
+        n,
+        slope,
+        intercept,
+        slope_stderr,
+        residual_sd_db,
+        sxx,
+        step_range_db: highest - lowest,
+    })
+}
+
+/// The two-sided Student's t quantile for [`CONFIDENCE`] with `df` degrees of freedom.
+pub fn t_quantile(df: f64) -> Option<f64> {
+    let t = StudentsT::new(0.0, 1.0, df).ok()?;
+    let q = t.inverse_cdf(0.5 + CONFIDENCE / 2.0);
+    q.is_finite().then_some(q)
+}
+
+/// What a series of readings says.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SlopeAnswer {
+    pub kind: StepKind,
+    pub fit: LineFit,
+    /// The slope in the sign convention of the module docs.
+    pub slope_db_per_db: f64,
+    /// The 95 % interval of `slope_db_per_db`; `None` with two readings.
+    pub interval: Option<(f64, f64)>,
+    /// Attenuator test only.
+    pub verdict: Option<Verdict>,
+    /// Attenuator test, internal: the order, when the interval singles one out.
+    pub order: Option<u32>,
+    /// Power step only: |k|, when the interval singles one out.
+    pub coefficient: Option<u32>,
+    /// Why there is no answer, when there is none.
+    pub unsettled: Option<Unsettled>,
+}
+
+/// The integer k with the whole interval inside (k − 0.5, k + 0.5), if any.
+fn single_integer(lo: f64, hi: f64) -> Option<i64> {
+    let k = lo.round();
+    (hi.round() == k && lo > k - 0.5 && hi < k + 0.5).then_some(k as i64)
+}
+
+/// Fits the readings `(step_db, level_dbm)` and applies the decision rule of the module
+/// docs.
+pub fn judge(kind: StepKind, points: &[(f64, f64)]) -> Result<SlopeAnswer> {
+    let fit = fit_line(points)?;
+    let sign = match kind {
+        StepKind::Attenuator => -1.0,
+        StepKind::Power => 1.0,
+    };
+    let estimate = sign * fit.slope;
+    let half_width = match (fit.slope_stderr, t_quantile(fit.n as f64 - 2.0)) {
+        (Some(se), Some(t)) => Some(t * se),
+        _ => None,
+    };
+    let mut answer = SlopeAnswer {
+        kind,
+        fit,
+        slope_db_per_db: estimate,
+        interval: half_width.map(|h| (estimate - h, estimate + h)),
+        verdict: (kind == StepKind::Attenuator).then_some(Verdict::Inconclusive),
+        order: None,
+        coefficient: None,
+        unsettled: None,
+    };
+    let (Some((lo, hi)), Some(h)) = (answer.interval, half_width) else {
+        answer.unsettled = Some(Unsettled::TooFewReadings { have: fit.n });
+        return Ok(answer);
+    };
+    let top = MAX_ORDER as f64 + 0.5;
+    match kind {
+        StepKind::Attenuator => {
+            if lo > 0.5 && hi < 1.5 {
+                answer.verdict = Some(Verdict::External);
+                return Ok(answer);
+            }
+            if lo > 1.5 {
+                answer.verdict = Some(Verdict::Internal);
+                answer.order = single_integer(lo, hi)
+                    .filter(|&k| (2..=MAX_ORDER as i64).contains(&k))
+                    .map(|k| k as u32);
+                return Ok(answer);
+            }
+            if hi < 0.5 {
+                answer.unsettled = Some(Unsettled::DoesNotFollow);
+                return Ok(answer);
+            }
+            let boundary = if (estimate - 0.5).abs() < (estimate - 1.5).abs() {
+                0.5
+            } else {
+                1.5
+            };
+            answer.unsettled = Some(straddles(&fit, boundary, (estimate - boundary).abs(), h));
+        }
+        StepKind::Power => {
+            if let Some(k) = single_integer(lo, hi).filter(|&k| (0..=MAX_ORDER as i64).contains(&k))
+            {
+                answer.coefficient = Some(k as u32);
+                return Ok(answer);
+            }
+            if hi < -0.5 {
+                answer.unsettled = Some(Unsettled::DoesNotFollow);
+                return Ok(answer);
+            }
+            if lo > top {
+                answer.unsettled = Some(Unsettled::TooSteep);
+                return Ok(answer);
+            }
+            let boundary = ((estimate - 0.5).round() + 0.5).clamp(-0.5, top);
+            answer.unsettled = Some(straddles(&fit, boundary, (estimate - boundary).abs(), h));
+        }
+    }
+    Ok(answer)
+}
+
+/// How much more measuring would move the interval's edge off `boundary`, the estimate
+/// being `margin` dB/dB from it and the interval `half_width` wide on each side.
+fn straddles(fit: &LineFit, boundary: f64, margin: f64, half_width: f64) -> Unsettled {
+    // Closer than this to the boundary, no practical series tells the alternatives apart.
+    const MIN_MARGIN: f64 = 0.05;
+    if margin < MIN_MARGIN {
+        return Unsettled::Straddles {
+            boundary,
+            readings_needed: None,
+            step_range_needed_db: None,
+        };
+    }
+    let sd = fit.residual_sd_db.unwrap_or(0.0);
+    // Readings spread like the present ones: Sxx grows in proportion to their number.
+    let spread_per_reading = fit.sxx / fit.n as f64;
+    let readings_needed = (fit.n + 1..=MAX_SUGGESTED_READINGS).find(|&m| {
+        t_quantile(m as f64 - 2.0)
+            .is_some_and(|t| t * sd / (m as f64 * spread_per_reading).sqrt() < margin)
+    });
+    // The same readings over a wider range: Sxx grows with the square of the range.
+    let range = fit.step_range_db * half_width / margin;
+    Unsettled::Straddles {
+        boundary,
+        readings_needed,
+        step_range_needed_db: range.is_finite().then_some(range),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn line(slope: f64, steps: &[f64], wobble: &[f64]) -> Vec<(f64, f64)> {
+        steps
+            .iter()
+            .zip(wobble.iter().cycle())
+            .map(|(&x, &w)| (x, -90.0 + slope * x + w))
+            .collect()
+    }
+
+    #[test]
+    fn exact_line_is_fitted_exactly() {
+        let f = fit_line(&line(-3.0, &[0.0, 2.0, 4.0, 6.0], &[0.0])).unwrap();
+        assert!((f.slope + 3.0).abs() < 1e-12);
+        assert!((f.intercept + 90.0).abs() < 1e-12);
+        assert!(f.slope_stderr.unwrap() < 1e-12);
+    }
+
+    #[test]
+    fn t_quantiles_match_tables() {
+        // Two-sided 95 % Student's t, as printed in any statistics table (values from
+        // memory): 12.706 at 1 degree of freedom, 2.228 at 10.
+        assert!((t_quantile(1.0).unwrap() - 12.706).abs() < 1e-3);
+        assert!((t_quantile(10.0).unwrap() - 2.228).abs() < 1e-3);
+    }
+
+    #[test]
+    fn attenuator_verdicts() {
+        let steps = [0.0, 3.0, 6.0, 9.0, 12.0];
+        let wob = [0.2, -0.1, 0.0, 0.1, -0.2];
+        let a = judge(StepKind::Attenuator, &line(-1.0, &steps, &wob)).unwrap();
+        assert_eq!(a.verdict, Some(Verdict::External));
+        assert!((a.slope_db_per_db - 1.0).abs() < 0.05);
+        let b = judge(StepKind::Attenuator, &line(-3.0, &steps, &wob)).unwrap();
+        assert_eq!((b.verdict, b.order), (Some(Verdict::Internal), Some(3)));
+        let c = judge(StepKind::Attenuator, &line(-0.05, &steps, &wob)).unwrap();
+        assert_eq!(c.unsettled, Some(Unsettled::DoesNotFollow));
+        let two = judge(StepKind::Attenuator, &[(0.0, -90.0), (6.0, -96.0)]).unwrap();
+        assert_eq!(two.verdict, Some(Verdict::Inconclusive));
+        assert_eq!(two.unsettled, Some(Unsettled::TooFewReadings { have: 2 }));
+        assert!(judge(StepKind::Attenuator, &[(3.0, -90.0), (3.0, -91.0)]).is_err());
+    }
+
+    #[test]
+    fn power_step_coefficients() {
+        let steps = [0.0, -1.0, -2.0, -3.0, -4.0, -5.0];
+        let wob = [0.1, -0.1, 0.05, 0.0, -0.05, 0.1];
+        for k in 0..=3 {
+            let a = judge(StepKind::Power, &line(k as f64, &steps, &wob)).unwrap();
+            assert_eq!(a.coefficient, Some(k), "k = {k}");
+            assert_eq!(a.verdict, None);
+        }
+        let a = judge(StepKind::Power, &line(-2.0, &steps, &wob)).unwrap();
+        assert_eq!(a.unsettled, Some(Unsettled::DoesNotFollow));
+    }
+
+    #[test]
+    fn scatter_makes_it_inconclusive_and_says_what_to_measure() {
+        let steps = [0.0, 2.0, 4.0, 6.0];
+        let wob = [1.5, -1.5, -1.5, 1.5];
+        let a = judge(StepKind::Power, &line(1.8, &steps, &wob)).unwrap();
+        assert_eq!(a.coefficient, None);
+        match a.unsettled {
+            Some(Unsettled::Straddles {
+                boundary,
+                readings_needed: Some(m),
+                step_range_needed_db: Some(r),
+            }) => {
+                assert_eq!(boundary, 1.5);
+                assert!(m > 4, "{m}");
+                assert!(r > 6.0, "{r}");
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+}
