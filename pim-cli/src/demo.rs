@@ -1,18 +1,25 @@
-//! `pim demo`: the job on the built-in invented site (files from `field-logs/`, embedded
-//! in the binary so it runs from any directory).
+//! `pim demo [--out DIR]`: the whole job on the built-in invented site, Marrow Hill: the
+//! files of `field-logs/` are embedded in the binary, so it runs from any directory.
 
 use std::io::Write;
+use std::path::{Path, PathBuf};
 
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
+use pim_core::intermod::SearchParams;
+use pim_core::io::emitters::read_structures;
+use pim_core::io::fieldlog::read_field_log;
 use pim_core::io::read_emitters;
+use pim_core::level::JunctionModel;
 
 use crate::common::{finish, stdout, CliResult};
-use crate::explain::{channel_summary, co_channel_text, search_and_rank};
-use crate::render::candidates::{table_text, Listing};
+use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
+use crate::ticket::{print_summary, write_ticket, TicketInputs};
 
-/// The invented demo site's emitters.
+/// The invented demo site's emitters, structures and bearing walk.
 pub const EMITTERS_CSV: &str = include_str!("../../field-logs/emitters.csv");
+pub const STRUCTURES_CSV: &str = include_str!("../../field-logs/structures.csv");
+pub const WALK_CSV: &str = include_str!("../../field-logs/walk.csv");
 
 /// The repeater input on which the mystery carrier is heard.
 pub const HEARD: Hz = Hz(146_340_000);
@@ -23,43 +30,55 @@ pub const RX_SITE: GeoPoint = GeoPoint {
 };
 
 #[derive(clap::Args, Debug)]
-pub struct Args {}
+pub struct Args {
+    /// Directory to write the demo ticket into.
+    #[arg(long, value_name = "DIR", default_value = "pim-demo")]
+    pub out: PathBuf,
+}
 
-pub fn run(_args: Args) -> CliResult {
-    let file = read_emitters("demo emitters.csv", EMITTERS_CSV.as_bytes())?;
-    let emitters = file.emitters;
-    let params = pim_core::intermod::SearchParams {
-        target: HEARD,
-        rx_bandwidth: Hz(12_500),
-        tolerance: Hz(0),
-        max_order: 7,
-        max_emitters: 3,
+pub fn run(args: Args) -> CliResult {
+    let emitters = read_emitters("emitters.csv", EMITTERS_CSV.as_bytes())?.emitters;
+    let structures = read_structures("structures.csv", STRUCTURES_CSV.as_bytes())?;
+    // A reflection off the metal shed spoils one bearing of the walk: the robust
+    // estimate sets it aside.
+    let fix_args = FixArgs {
+        method: MethodArg::Robust,
+        ..FixArgs::default()
     };
-    let model = pim_core::level::JunctionModel::default();
-    let (ranking, co) = search_and_rank(&emitters, &params, Some(RX_SITE), &model);
-    let listing = Listing {
-        emitters: &emitters,
-        params: &params,
-        ranking: &ranking,
-        co_channel: &co,
-    };
+    let (fix, prepared) = fix_from_log(Path::new("walk.csv"), Some(WALK_CSV), &fix_args)?;
+    let log = read_field_log("walk.csv", WALK_CSV.as_bytes(), false)?;
     let mut out = stdout();
     writeln!(
         out,
-        "Demo: an unexplained carrier on the Marrow Hill repeater input (an invented site).\n"
+        "Marrow Hill (an invented site): a carrier on the repeater input, {} MHz, that no licensed transmitter uses.\n",
+        HEARD.mhz_text()
     )?;
     write!(
         out,
         "{}",
-        channel_summary(&params, emitters.len(), "the demo site", Some(RX_SITE))
+        fix_summary(&fix, "walk.csv", &prepared.corrections)
     )?;
-    write!(out, "{}", co_channel_text(&listing))?;
-    writeln!(
-        out,
-        "{} products land in the channel; {}.\n",
-        ranking.candidates.len(),
-        ranking.basis()
-    )?;
-    write!(out, "{}", table_text(&listing, 10))?;
+    writeln!(out)?;
+    let inputs = TicketInputs {
+        site: "Marrow Hill".into(),
+        emitters,
+        emitters_source: "emitters.csv".into(),
+        log,
+        fix,
+        corrections: prepared.corrections,
+        structures,
+        params: SearchParams {
+            target: HEARD,
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 7,
+            max_emitters: 3,
+        },
+        model: JunctionModel::default(),
+        rx_site: Some(RX_SITE),
+        top: 10,
+    };
+    let written = write_ticket(&inputs, &args.out)?;
+    print_summary(&mut out, &inputs, &written)?;
     finish(out)
 }

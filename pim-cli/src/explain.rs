@@ -53,12 +53,29 @@ pub struct SearchArgs {
     /// Junction model: further loss per order above the third (dB).
     #[arg(long, value_name = "DB", default_value = "5", value_parser = finite_arg, allow_hyphen_values = true)]
     pub order_step_db: f64,
-    /// Show at most N candidates (default: 20 in tables and Markdown, all in JSON and CSV).
+}
+
+/// How a listing of candidates is written.
+#[derive(clap::Args, Clone, Debug)]
+pub struct ListingArgs {
+    /// Show at most N candidates (default: the first few in tables and Markdown, all in
+    /// JSON and CSV).
     #[arg(long, value_name = "N")]
     pub limit: Option<usize>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ListFormat::Table)]
     pub format: ListFormat,
+}
+
+impl ListingArgs {
+    /// How many candidates a listing shows; `for_reading` in tables and Markdown.
+    pub fn shown(&self, for_reading: usize) -> Option<usize> {
+        match (self.limit, self.format) {
+            (Some(n), _) => Some(n),
+            (None, ListFormat::Table | ListFormat::Markdown) => Some(for_reading),
+            (None, _) => None,
+        }
+    }
 }
 
 impl SearchArgs {
@@ -81,15 +98,6 @@ impl SearchArgs {
             tolerance: self.tol,
             max_order: self.max_order,
             max_emitters: self.max_emitters,
-        }
-    }
-
-    /// How many candidates a listing shows.
-    pub fn shown(&self) -> Option<usize> {
-        match (self.limit, self.format) {
-            (Some(n), _) => Some(n),
-            (None, ListFormat::Table | ListFormat::Markdown) => Some(20),
-            (None, _) => None,
         }
     }
 
@@ -126,6 +134,8 @@ pub struct Args {
     pub heard: Option<PathBuf>,
     #[command(flatten)]
     pub search: SearchArgs,
+    #[command(flatten)]
+    pub listing: ListingArgs,
 }
 
 /// clap parser for `EMITTER=K`: an emitter id and the |k| it carries.
@@ -352,8 +362,8 @@ pub fn run(args: Args) -> CliResult {
         co_channel: &co_channel,
     };
     let mut out = stdout();
-    let shown = s.shown();
-    match s.format {
+    let shown = args.listing.shown(20);
+    match args.listing.format {
         ListFormat::Table => {
             let n = shown.unwrap_or(usize::MAX);
             write!(

@@ -18,6 +18,7 @@ mod plan;
 mod render;
 mod slope;
 mod study;
+mod ticket;
 
 use common::CliError;
 
@@ -46,6 +47,8 @@ enum Command {
     Plan(plan::Args),
     /// Read an attenuator or power-step test from the level slope.
     Slope(slope::Args),
+    /// Write the maintenance ticket: ranked suspects, the fix on a map, what to inspect.
+    Ticket(ticket::Args),
     /// Run the job on the built-in invented demo site.
     Demo(demo::Args),
 }
@@ -82,6 +85,7 @@ fn main() -> ExitCode {
         Command::Study(args) => study::run(args),
         Command::Plan(args) => plan::run(args),
         Command::Slope(args) => slope::run(args),
+        Command::Ticket(args) => ticket::run(args),
         Command::Demo(args) => demo::run(args),
     };
     match result {

@@ -9,7 +9,7 @@ use serde_json::json;
 
 use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use crate::explain::{
-    channel_summary, co_channel_text, load_emitters, search_and_rank, SearchArgs,
+    channel_summary, co_channel_text, load_emitters, search_and_rank, ListingArgs, SearchArgs,
 };
 use crate::render::candidates::{
     co_channel_json, markdown_text, table_text, write_csv, write_json_array, Listing,
@@ -25,6 +25,8 @@ pub struct Args {
     pub receivers: PathBuf,
     #[command(flatten)]
     pub search: SearchArgs,
+    #[command(flatten)]
+    pub listing: ListingArgs,
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -63,11 +65,9 @@ pub fn run(args: Args) -> CliResult {
         bar.finish_and_clear();
     }
     let mut out = stdout();
-    let shown = s.limit.or(match s.format {
-        ListFormat::Table | ListFormat::Markdown => Some(10),
-        _ => None,
-    });
-    if s.format == ListFormat::Json {
+    let format = args.listing.format;
+    let shown = args.listing.shown(10);
+    if format == ListFormat::Json {
         writeln!(out, "{{")?;
         let mut inputs = s.inputs_json();
         inputs["emitters_file"] = json!(args.emitters.display().to_string());
@@ -88,7 +88,7 @@ pub fn run(args: Args) -> CliResult {
             ranking,
             co_channel: co,
         };
-        match s.format {
+        match format {
             ListFormat::Table => {
                 let total = ranking.candidates.len();
                 writeln!(
@@ -148,7 +148,7 @@ pub fn run(args: Args) -> CliResult {
             }
         }
     }
-    if s.format == ListFormat::Json {
+    if format == ListFormat::Json {
         writeln!(out, "\n  ]\n}}")?;
     }
     finish(out)

@@ -124,14 +124,6 @@ fn study_lists_every_receiver() {
 }
 
 #[test]
-fn demo_runs() {
-    let o = pim(&["demo"]);
-    assert!(o.status.success(), "{}", stderr_of(&o));
-    assert!(stdout_of(&o).contains("2·SKP-152 − FIRE-DSP"));
-}
-
-/// Each bad emitter file: exit code 3 and a message naming file, line and field.
-#[test]
 fn bad_emitter_files_are_named_exactly() {
     let cases: &[(&str, &str)] = &[
         ("emitters-empty.csv", "emitters-empty.csv: empty file"),

@@ -306,14 +306,14 @@ fn percent_text(fraction: f64) -> Option<String> {
     })
 }
 
-/// A length for text, in m or km, without trailing zeros.
+/// A length for text, in m (to 0.1 m) or km (to 1 m), without trailing zeros.
 fn length_text(m: f64) -> String {
-    let (v, unit) = if m >= 1000.0 {
-        (m / 1000.0, "km")
+    let (v, unit, decimals) = if m >= 1000.0 {
+        (m / 1000.0, "km", 3)
     } else {
-        (m, "m")
+        (m, "m", 1)
     };
-    let t = format!("{v:.3}");
+    let t = format!("{v:.decimals$}");
     let t = t.trim_end_matches('0').trim_end_matches('.');
     format!("{t} {unit}")
 }

@@ -1,7 +1,6 @@
 //! Turning results into screens and files.
 
 pub mod candidates;
-#[allow(dead_code)] // wired in by the ticket command
 pub mod document;
 pub mod text_table;
 

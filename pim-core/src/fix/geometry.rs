@@ -201,22 +201,6 @@ pub fn check_ellipse(e: &Ellipse, fits: &[ReadingFit], warnings: &mut Vec<String
             e.semi_major_m, nearest
         ));
     }
-    let outliers: Vec<String> = fits
-        .iter()
-        .filter(|f| f.outlier)
-        .map(|f| format!("{} ({:+.1}°)", f.line, f.residual_deg))
-        .collect();
-    if !outliers.is_empty() {
-        warnings.push(format!(
-            "{} with the others: line {}",
-            if outliers.len() == 1 {
-                "a reading disagrees"
-            } else {
-                "readings disagree"
-            },
-            outliers.join(", ")
-        ));
-    }
 }
 
 #[cfg(test)]
