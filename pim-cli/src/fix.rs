@@ -7,7 +7,6 @@ use pim_core::fix::{locate, Fix, FixOptions, Loss, Method, SigmaSource};
 use pim_core::io::export::{fix_geojson, fix_kml};
 use pim_core::io::fieldlog::{prepare, read_field_log, Correction, Prepared};
 use pim_core::io::track::read_track;
-use serde_json::json;
 
 use crate::common::{finish, finite_arg, open, stdout, CliResult};
 use crate::render::text_table::{Align, TextTable};
@@ -175,31 +174,69 @@ pub fn method_name(m: Method) -> &'static str {
     }
 }
 
-/// The fix as the JSON object of the contract.
-pub fn fix_json(fix: &Fix, corrections: &[Correction]) -> serde_json::Value {
+#[derive(serde::Serialize)]
+struct EllipseJson {
+    semi_major_m: f64,
+    semi_minor_m: f64,
+    orientation_deg: f64,
+    confidence: f64,
+    area_m2: f64,
+}
+
+#[derive(serde::Serialize)]
+struct OutlierJson {
+    line: u64,
+    residual_deg: f64,
+}
+
+/// The fix as the JSON object of the contract, serialised straight from the results
+/// (no tree of values is built, so a long log costs no second copy).
+#[derive(serde::Serialize)]
+pub struct FixJson<'a> {
+    lat: f64,
+    lon: f64,
+    method: pim_core::fix::Method,
+    ellipse: EllipseJson,
+    cep_m: f64,
+    sigma_deg_used: f64,
+    sigma_source: SigmaSource,
+    n_used: usize,
+    residuals: &'a [pim_core::fix::ReadingFit],
+    outliers: Vec<OutlierJson>,
+    declination: &'a [Correction],
+    warnings: &'a [String],
+}
+
+pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> {
     let e = &fix.ellipse;
-    json!({
-        "lat": fix.position.lat_deg,
-        "lon": fix.position.lon_deg,
-        "method": fix.method,
-        "ellipse": {
-            "semi_major_m": e.semi_major_m,
-            "semi_minor_m": e.semi_minor_m,
-            "orientation_deg": e.orientation_deg,
-            "confidence": e.confidence,
-            "area_m2": e.area_m2(),
+    FixJson {
+        lat: fix.position.lat_deg,
+        lon: fix.position.lon_deg,
+        method: fix.method,
+        ellipse: EllipseJson {
+            semi_major_m: e.semi_major_m,
+            semi_minor_m: e.semi_minor_m,
+            orientation_deg: e.orientation_deg,
+            confidence: e.confidence,
+            area_m2: e.area_m2(),
         },
-        "cep_m": fix.cep_m,
-        "sigma_deg_used": fix.sigma_deg_used,
-        "sigma_source": fix.sigma_source,
-        "n_used": fix.n_used,
-        "residuals": fix.readings,
-        "outliers": fix.readings.iter().filter(|r| r.outlier)
-            .map(|r| json!({"line": r.line, "residual_deg": r.residual_deg}))
-            .collect::<Vec<_>>(),
-        "declination": corrections,
-        "warnings": fix.warnings,
-    })
+        cep_m: fix.cep_m,
+        sigma_deg_used: fix.sigma_deg_used,
+        sigma_source: fix.sigma_source,
+        n_used: fix.n_used,
+        residuals: &fix.readings,
+        outliers: fix
+            .readings
+            .iter()
+            .filter(|r| r.outlier)
+            .map(|r| OutlierJson {
+                line: r.line,
+                residual_deg: r.residual_deg,
+            })
+            .collect(),
+        declination: corrections,
+        warnings: &fix.warnings,
+    }
 }
 
 /// A few lines that state the fix for people.
