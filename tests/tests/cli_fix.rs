@@ -1,7 +1,7 @@
 //! End-to-end runs of `pim fix`: the demo walk in every format, the JSON contract, the
 //! exports parsed back with independent readers, and each kind of bad walk.
 
-use pim_tests::{bad_input, field_log, pim, stderr_of, stdout_of};
+use pim_tests::{field_log, pim, stderr_of, stdout_of};
 
 fn p(path: std::path::PathBuf) -> String {
     path.display().to_string()
@@ -178,35 +178,7 @@ fn kml_is_well_formed() {
 }
 
 #[test]
-fn bad_walks_are_named_or_refused() {
-    let cases: &[(&str, i32, &str)] = &[
-        ("walk-bearing-out-of-range.csv", 3, "walk-bearing-out-of-range.csv, line 3, field `bearing_deg`: bearing 412 is outside 0–360°"),
-        ("walk-text-bearing.csv", 3, "walk-text-bearing.csv, line 2, field `bearing_deg`: `north-east` is not a number"),
-        ("walk-nan-lat.csv", 3, "walk-nan-lat.csv, line 3, field `lat`: `NaN` is not a finite number"),
-        ("walk-missing-lat-column.csv", 3, "walk-missing-lat-column.csv, line 1, field `lat`: missing column"),
-        ("walk-missing-lat.csv", 3, "walk-missing-lat.csv, line 3, field `lat`: `lon` is given but `lat` is empty"),
-        ("walk-negative-sigma.csv", 3, "walk-negative-sigma.csv, line 2, field `sigma_deg`: σ -3° must be above zero"),
-        ("walk-torn.csv", 3, "walk-torn.csv, line 3: the last row has no line end"),
-        ("walk-one-reading.csv", 5, "1 usable reading: a fix needs at least two bearings"),
-        ("walk-parallel.csv", 5, "the bearings are parallel"),
-        ("walk-diverging.csv", 5, "meet only behind the observers"),
-    ];
-    for (file, code, want) in cases {
-        let o = pim(&["fix", "--log", &p(bad_input(file))]);
-        let err = stderr_of(&o).replace(&p(bad_input("")), "");
-        assert_eq!(o.status.code(), Some(*code), "{file}: {err}");
-        assert!(err.contains(want), "{file}: {err}");
-    }
-    let o = pim(&[
-        "fix",
-        "--log",
-        &p(bad_input("walk-outside-track.csv")),
-        "--track",
-        &p(field_log("walk.gpx")),
-    ]);
-    let err = stderr_of(&o);
-    assert_eq!(o.status.code(), Some(3), "{err}");
-    assert!(err.contains("walk-outside-track.csv, line 3, field `time`: 2026-11-28T12:00:00Z is outside the track"), "{err}");
+fn bad_fix_arguments_are_refused() {
     for (args, want) in [
         (vec!["--confidence", "1.5"], "not a probability"),
         (vec!["--sigma-deg", "-1"], "must be above 0"),

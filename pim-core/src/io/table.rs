@@ -137,23 +137,41 @@ impl std::fmt::Display for GuardError {
 
 impl std::error::Error for GuardError {}
 
-/// Removes a UTF-8 byte-order mark and refuses UTF-16 text with a clear message.
-/// Also returns the delimiter the header line uses (see [`sniff_delimiter`]).
-fn strip_bom<R: Read>(source: &str, reader: R) -> Result<(BufReader<R>, u8)> {
+/// The start of a table, read ahead to its first line that is neither blank nor a
+/// comment, followed by the rest of the stream.
+type Head<R> = std::io::Chain<std::io::Cursor<Vec<u8>>, BufReader<R>>;
+
+/// Removes a UTF-8 byte-order mark and refuses UTF-16 text with a clear message. Also
+/// returns the delimiter the header line uses (see [`sniff_delimiter`]). The header is
+/// read ahead whole (up to [`MAX_LINE_BYTES`] per line), however the stream delivers it.
+fn strip_bom<R: Read>(source: &str, reader: R) -> Result<(Head<R>, u8)> {
     let mut buf = BufReader::new(reader);
-    let head = buf.fill_buf().map_err(|e| Error::io(source, &e))?;
+    let mut head = Vec::new();
+    loop {
+        let start = head.len();
+        let n = (&mut buf)
+            .take(MAX_LINE_BYTES as u64 + 1)
+            .read_until(b'\n', &mut head)
+            .map_err(|e| Error::io(source, &e))?;
+        let line = &head[start..];
+        let blank_or_comment = line.iter().all(u8::is_ascii_whitespace)
+            || line.starts_with(b"#")
+            || (start == 0 && line.starts_with(&[0xEF, 0xBB, 0xBF, b'#']));
+        if n == 0 || n > MAX_LINE_BYTES || !blank_or_comment {
+            break;
+        }
+    }
     if head.starts_with(&[0xFF, 0xFE]) || head.starts_with(&[0xFE, 0xFF]) {
         return Err(Error::input(
             Place::new(source).at_line(1),
             "UTF-16 text; save the file as UTF-8 (CSV UTF-8 in a spreadsheet)",
         ));
     }
-    let bom = head.starts_with(&[0xEF, 0xBB, 0xBF]);
-    let delimiter = sniff_delimiter(if bom { &head[3..] } else { head });
-    if bom {
-        buf.consume(3);
+    if head.starts_with(&[0xEF, 0xBB, 0xBF]) {
+        head.drain(..3);
     }
-    Ok((buf, delimiter))
+    let delimiter = sniff_delimiter(&head);
+    Ok((std::io::Cursor::new(head).chain(buf), delimiter))
 }
 
 /// The delimiter of a table from its first line that is neither blank nor a comment:
@@ -189,7 +207,7 @@ pub fn sniff_delimiter(head: &[u8]) -> u8 {
 /// A CSV table being read row by row.
 pub struct Table<R: Read> {
     source: String,
-    reader: csv::Reader<Guarded<BufReader<R>>>,
+    reader: csv::Reader<Guarded<Head<R>>>,
     headers: Vec<String>,
     columns: HashMap<String, usize>,
     record: csv::ByteRecord,
@@ -315,8 +333,9 @@ impl<R: Read> Table<R> {
             return Err(Error::input(
                 Place::new(&self.source).at_line(line),
                 format!(
-                    "{} fields, but the header has {} columns",
+                    "{} field{}, but the header has {} columns",
                     self.record.len(),
+                    if self.record.len() == 1 { "" } else { "s" },
                     self.headers.len()
                 ),
             ));
