@@ -3,6 +3,8 @@
 //! A thin binary over pim-core: parse the arguments, call the library, render the answer.
 //! One file per command; errors are shown once, here, and mapped to exit codes.
 
+#![deny(clippy::unwrap_used, clippy::expect_used)]
+
 use std::io::Write;
 use std::process::ExitCode;
 

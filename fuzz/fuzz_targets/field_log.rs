@@ -1,0 +1,20 @@
+//! The field-log reader and the preparation of readings on arbitrary bytes.
+#![no_main]
+
+use libfuzzer_sys::fuzz_target;
+use pim_core::io::fieldlog::{prepare, read_field_log};
+
+fuzz_target!(|data: &[u8]| {
+    for from_track in [false, true] {
+        if let Ok(log) = read_field_log("fuzz.csv", data, from_track) {
+            for r in &log.rows {
+                assert!((0.0..=360.0).contains(&r.bearing_deg));
+                assert!(r.sigma_deg.is_none_or(|s| s > 0.0));
+            }
+            let today = time::Date::from_calendar_date(2026, time::Month::December, 1).unwrap();
+            if let Ok(p) = prepare(&log, None, None, today) {
+                let _ = pim_core::fix::locate(&p.readings, &Default::default());
+            }
+        }
+    }
+});
