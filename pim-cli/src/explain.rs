@@ -113,15 +113,22 @@ impl SearchArgs {
     }
 }
 
+/// The frequency heard and the emitters that may make it.
 #[derive(clap::Args, Debug)]
-#[command(allow_negative_numbers = true)]
-pub struct Args {
+pub struct HeardArgs {
     /// The frequency heard: a bare number is MHz; units: 146.52MHz, 600kHz, 1.2GHz.
     #[arg(value_name = "FREQ", value_parser = frequency_arg)]
     pub freq: Hz,
     /// Emitter file: CSV with a header, or a JSON array.
     #[arg(long, value_name = "FILE")]
     pub emitters: PathBuf,
+}
+
+#[derive(clap::Args, Debug)]
+#[command(allow_negative_numbers = true)]
+pub struct Args {
+    #[command(flatten)]
+    pub input: HeardArgs,
     /// Keep only candidates in which EMITTER carries |k| = K, as a power step found it
     /// (K = 0: candidates without EMITTER). Repeatable.
     #[arg(long = "coefficient", value_name = "EMITTER=K", value_parser = coefficient_arg)]
@@ -337,15 +344,15 @@ fn narrowing_text(
 }
 
 pub fn run(args: Args) -> CliResult {
-    let emitters = load_emitters(&args.emitters)?;
-    let source = args.emitters.display().to_string();
+    let emitters = load_emitters(&args.input.emitters)?;
+    let source = args.input.emitters.display().to_string();
     let coefficients = coefficient_indices(&args.coefficients, &emitters, &source)?;
     let logbook = match (&args.on_air, &args.heard) {
         (Some(on_air), Some(heard)) => Some(load_logbook(on_air, heard, &emitters)?),
         _ => None,
     };
     let s = &args.search;
-    let params = s.params(args.freq, s.rx_bw);
+    let params = s.params(args.input.freq, s.rx_bw);
     let junction = s.rx_site();
     let (ranking, co_channel, found) = search_and_rank_with(
         &emitters,
@@ -372,7 +379,7 @@ pub fn run(args: Args) -> CliResult {
                 channel_summary(
                     &params,
                     emitters.len(),
-                    &args.emitters.display().to_string(),
+                    &args.input.emitters.display().to_string(),
                     junction
                 )
             )?;
@@ -413,9 +420,9 @@ pub fn run(args: Args) -> CliResult {
         ListFormat::Csv => write_csv(&mut out, &listing, shown, None, true)?,
         ListFormat::Json => {
             let mut inputs = s.inputs_json();
-            inputs["target_mhz"] = json!(args.freq.mhz());
+            inputs["target_mhz"] = json!(args.input.freq.mhz());
             inputs["rx_bw_khz"] = json!(s.rx_bw.khz());
-            inputs["emitters_file"] = json!(args.emitters.display().to_string());
+            inputs["emitters_file"] = json!(args.input.emitters.display().to_string());
             inputs["emitter_count"] = json!(emitters.len());
             inputs["coefficients"] = json!(coefficients
                 .iter()

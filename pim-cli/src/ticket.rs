@@ -8,7 +8,6 @@ use std::path::{Path, PathBuf};
 
 use pim_core::emitter::{Carrier, Emitter};
 use pim_core::fix::{Fix, SigmaSource};
-use pim_core::freq::Hz;
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::{find_products, SearchParams};
 use pim_core::io::emitters::read_structures;
@@ -19,8 +18,8 @@ use pim_core::rank::{display_terms, formula, rank, Ranking};
 use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
 use pim_core::Error;
 
-use crate::common::{finish, frequency_arg, open, stdout, CliResult};
-use crate::explain::{load_emitters, SearchArgs};
+use crate::common::{finish, open, stdout, CliResult};
+use crate::explain::{load_emitters, HeardArgs, SearchArgs};
 use crate::fix::{fix_from_log, method_name, FixArgs};
 use crate::render::candidates::{write_csv, Listing};
 use crate::render::document::{html, markdown, Block};
@@ -30,12 +29,8 @@ use crate::render::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumIn
 #[derive(clap::Args, Debug)]
 #[command(allow_negative_numbers = true)]
 pub struct Args {
-    /// The frequency heard: a bare number is MHz; units: 146.52MHz, 600kHz, 1.2GHz.
-    #[arg(value_name = "FREQ", value_parser = frequency_arg)]
-    pub freq: Hz,
-    /// Emitter file: CSV with a header, or a JSON array.
-    #[arg(long, value_name = "FILE")]
-    pub emitters: PathBuf,
+    #[command(flatten)]
+    pub input: HeardArgs,
     /// Field log of the bearing walk.
     #[arg(long, value_name = "FILE")]
     pub log: PathBuf,
@@ -639,7 +634,7 @@ pub fn print_summary(out: &mut dyn Write, t: &TicketInputs, w: &Written) -> CliR
 }
 
 pub fn run(args: Args) -> CliResult {
-    let emitters = load_emitters(&args.emitters)?;
+    let emitters = load_emitters(&args.input.emitters)?;
     let structures = match &args.structures {
         Some(p) => read_structures(&p.display().to_string(), open(p)?)?,
         None => Vec::new(),
@@ -654,12 +649,12 @@ pub fn run(args: Args) -> CliResult {
     let inputs = TicketInputs {
         site: args.site.clone(),
         emitters,
-        emitters_source: args.emitters.display().to_string(),
+        emitters_source: args.input.emitters.display().to_string(),
         log,
         fix,
         corrections: prepared.corrections,
         structures,
-        params: s.params(args.freq, s.rx_bw),
+        params: s.params(args.input.freq, s.rx_bw),
         model: s.junction_model(),
         rx_site: s.rx_site(),
         top: args.top,

@@ -107,3 +107,19 @@ impl Rng {
         (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
     }
 }
+
+/// Panics unless `text` is well-formed XML with balanced elements; `what` names it.
+pub fn assert_xml_well_formed(text: &str, what: &str) {
+    let mut reader = quick_xml::Reader::from_str(text);
+    let mut depth = 0i32;
+    loop {
+        match reader.read_event() {
+            Ok(quick_xml::events::Event::Start(_)) => depth += 1,
+            Ok(quick_xml::events::Event::End(_)) => depth -= 1,
+            Ok(quick_xml::events::Event::Eof) => break,
+            Ok(_) => {}
+            Err(e) => panic!("{what}: not XML: {e}"),
+        }
+    }
+    assert_eq!(depth, 0, "{what}: unbalanced elements");
+}

@@ -27,18 +27,7 @@ fn empty_dir(name: &str) -> PathBuf {
 
 fn xml_well_formed(path: &Path) {
     let text = std::fs::read_to_string(path).unwrap();
-    let mut reader = quick_xml::Reader::from_str(&text);
-    let mut depth = 0i32;
-    loop {
-        match reader.read_event() {
-            Ok(quick_xml::events::Event::Start(_)) => depth += 1,
-            Ok(quick_xml::events::Event::End(_)) => depth -= 1,
-            Ok(quick_xml::events::Event::Eof) => break,
-            Ok(_) => {}
-            Err(e) => panic!("{}: {e}", path.display()),
-        }
-    }
-    assert_eq!(depth, 0, "{}", path.display());
+    pim_tests::assert_xml_well_formed(&text, &path.display().to_string());
 }
 
 fn point(v: &geojson::GeometryValue) -> GeoPoint {

@@ -1107,21 +1107,6 @@ mod tests {
         }
     }
 
-    fn parses_as_xml(svg: &str) {
-        let mut reader = quick_xml::Reader::from_str(svg);
-        let mut depth = 0i32;
-        loop {
-            match reader.read_event() {
-                Ok(quick_xml::events::Event::Start(_)) => depth += 1,
-                Ok(quick_xml::events::Event::End(_)) => depth -= 1,
-                Ok(quick_xml::events::Event::Eof) => break,
-                Ok(_) => {}
-                Err(e) => panic!("not XML: {e}"),
-            }
-        }
-        assert_eq!(depth, 0);
-    }
-
     fn render(input: &MapInput) -> (String, MapLayout) {
         let mut svg = String::new();
         let layout = draw_map(input, &mut svg).expect("drawn");
@@ -1132,7 +1117,7 @@ mod tests {
     fn the_map_parses_and_names_everything() {
         let input = sample();
         let (svg, layout) = render(&input);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert_eq!(svg, map_svg(&input));
         for o in &input.observers {
             assert!(svg.contains(&o.label), "{} missing", o.label);
@@ -1303,7 +1288,7 @@ mod tests {
     fn odd_inputs_draw_without_panicking() {
         let empty = MapInput::default();
         let (svg, _) = render(&empty);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert!(svg.contains("No fix"));
 
         let single = MapInput {
@@ -1315,7 +1300,7 @@ mod tests {
             }),
             ..MapInput::default()
         };
-        parses_as_xml(&map_svg(&single));
+        crate::render::picture::parses_as_xml(&map_svg(&single));
 
         let mut odd = sample();
         odd.fix = None;
@@ -1325,7 +1310,7 @@ mod tests {
         odd.markers[0].north_m = f64::INFINITY;
         odd.confidence = 7.0;
         let (svg, _) = render(&odd);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
 
         // Everything on one spot, and a far-flung marker.
         let mut stacked = sample();
@@ -1334,7 +1319,7 @@ mod tests {
             o.north_m = 5.0;
         }
         stacked.markers[0].east_m = 4.0e6;
-        parses_as_xml(&map_svg(&stacked));
+        crate::render::picture::parses_as_xml(&map_svg(&stacked));
 
         // A thin sliver of an ellipse.
         let mut sliver = sample();
@@ -1343,7 +1328,7 @@ mod tests {
             semi_minor_m: 0.0,
             orientation_deg: -400.0,
         });
-        parses_as_xml(&map_svg(&sliver));
+        crate::render::picture::parses_as_xml(&map_svg(&sliver));
     }
 
     #[test]

@@ -380,6 +380,24 @@ pub fn fallback_svg(width: u32, height: u32, message: &str) -> String {
     )
 }
 
+/// Checks that a picture is well-formed XML with balanced elements (for the tests of
+/// both pictures).
+#[cfg(test)]
+pub fn parses_as_xml(svg: &str) {
+    let mut reader = quick_xml::Reader::from_str(svg);
+    let mut depth = 0i32;
+    loop {
+        match reader.read_event() {
+            Ok(quick_xml::events::Event::Start(_)) => depth += 1,
+            Ok(quick_xml::events::Event::End(_)) => depth -= 1,
+            Ok(quick_xml::events::Event::Eof) => break,
+            Ok(_) => {}
+            Err(e) => panic!("not XML: {e}"),
+        }
+    }
+    assert_eq!(depth, 0);
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

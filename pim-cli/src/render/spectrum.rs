@@ -1141,21 +1141,6 @@ mod tests {
         }
     }
 
-    fn parses_as_xml(svg: &str) {
-        let mut reader = quick_xml::Reader::from_str(svg);
-        let mut depth = 0i32;
-        loop {
-            match reader.read_event() {
-                Ok(quick_xml::events::Event::Start(_)) => depth += 1,
-                Ok(quick_xml::events::Event::End(_)) => depth -= 1,
-                Ok(quick_xml::events::Event::Eof) => break,
-                Ok(_) => {}
-                Err(e) => panic!("not XML: {e}"),
-            }
-        }
-        assert_eq!(depth, 0);
-    }
-
     fn render(input: &SpectrumInput) -> (String, SpectrumLayout) {
         let mut svg = String::new();
         let layout = draw_spectrum(input, &mut svg).expect("drawn");
@@ -1174,7 +1159,7 @@ mod tests {
     fn the_spectrum_parses_and_names_everything() {
         let input = sample();
         let (svg, layout) = render(&input);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert_eq!(svg, spectrum_svg(&input));
         assert!(svg.contains("heard 146.3400 MHz"));
         assert!(svg.contains("receive channel, 12.5 kHz"));
@@ -1236,7 +1221,7 @@ mod tests {
             p.level_dbm = None;
         }
         let (svg, layout) = render(&input);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert!(svg.contains("rank (1 = most plausible)"));
         for w in layout.stem_tops.windows(2) {
             assert!(w[0].1 < w[1].1);
@@ -1259,7 +1244,7 @@ mod tests {
             })
             .collect();
         let (svg, layout) = render(&input);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         let product_labels = layout
             .labels
             .iter()
@@ -1275,7 +1260,7 @@ mod tests {
 
     #[test]
     fn odd_inputs_draw_without_panicking() {
-        parses_as_xml(&spectrum_svg(&SpectrumInput::default()));
+        crate::render::picture::parses_as_xml(&spectrum_svg(&SpectrumInput::default()));
 
         let mut odd = sample();
         odd.rx_bw_khz = 0.0;
@@ -1286,14 +1271,14 @@ mod tests {
         odd.emitters[0].freq_mhz = -3.0;
         odd.emitters[1].freq_mhz = f64::NAN;
         let (svg, _) = render(&odd);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert!(svg.contains("no level: ERP or location missing"));
 
         let mut no_target = sample();
         no_target.target_mhz = f64::NAN;
         no_target.emitters.clear();
         let (svg, layout) = render(&no_target);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert!(svg.contains("Heard frequency not given"));
         assert!(layout.strip.is_none());
 
@@ -1306,7 +1291,7 @@ mod tests {
             id: "QK7MHR-R".into(),
             freq_mhz: 146.34,
         }];
-        parses_as_xml(&spectrum_svg(&same));
+        crate::render::picture::parses_as_xml(&spectrum_svg(&same));
     }
 
     #[test]
@@ -1340,7 +1325,7 @@ mod tests {
             })
             .collect();
         let (svg, layout) = render(&input);
-        parses_as_xml(&svg);
+        crate::render::picture::parses_as_xml(&svg);
         assert_eq!(layout.strip_labels.len(), 15);
         assert!(layout.strip_labels.iter().all(|l| l.clear));
         disjoint(&layout.strip_labels);

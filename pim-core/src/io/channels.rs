@@ -6,10 +6,10 @@ use std::collections::HashMap;
 use std::io::Read;
 
 use crate::emitter::Carrier;
-use crate::error::{Error, Place, Result};
+use crate::error::{Error, Result};
 use crate::freq::Hz;
 use crate::io::emitters::{bandwidth_field, frequency_field};
-use crate::io::table::Table;
+use crate::io::table::{no_rows, Table};
 
 /// Columns the frequency-list reader understands.
 pub const CHANNEL_COLUMNS: &[&str] = &["freq_mhz", "bw_khz", "id", "note"];
@@ -77,10 +77,7 @@ pub fn read_channels<R: Read>(source: &str, reader: R) -> Result<ChannelFile> {
         });
     }
     if file.channels.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no data rows after the header",
-        ));
+        return Err(no_rows(source, "data rows"));
     }
     Ok(file)
 }

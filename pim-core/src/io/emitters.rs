@@ -12,7 +12,7 @@ use crate::emitter::{watts_to_dbm, Emitter, Keying, Receiver};
 use crate::error::{Error, Place, Result};
 use crate::freq::{parse_khz, parse_mhz, DecimalError, Hz, MAX_FREQUENCY};
 use crate::geo::GeoPoint;
-use crate::io::table::{parse_finite, Fields, Table};
+use crate::io::table::{no_rows, parse_finite, Fields, Table};
 
 /// Columns the emitter reader understands.
 pub const EMITTER_COLUMNS: &[&str] = &[
@@ -85,10 +85,7 @@ fn read_emitters_csv<R: Read>(source: &str, reader: R) -> Result<EmitterFile> {
         file.emitters.push(emitter);
     }
     if file.emitters.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no data rows after the header",
-        ));
+        return Err(no_rows(source, "data rows"));
     }
     Ok(file)
 }
@@ -426,10 +423,7 @@ pub fn read_receivers<R: Read>(source: &str, reader: R) -> Result<ReceiverFile> 
         });
     }
     if file.receivers.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no data rows after the header",
-        ));
+        return Err(no_rows(source, "data rows"));
     }
     Ok(file)
 }

@@ -15,7 +15,7 @@ use crate::error::{Error, Place, Result};
 use crate::fix::Reading;
 use crate::geo::{normalize_bearing_deg, GeoPoint};
 use crate::io::emitters::position_fields;
-use crate::io::table::{parse_finite, Fields, Table};
+use crate::io::table::{no_rows, parse_finite, Fields, Table};
 use crate::io::track::Track;
 
 /// Columns the field-log reader understands.
@@ -184,10 +184,7 @@ pub fn read_field_log<R: Read>(
         ));
     }
     if log.rows.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no readings after the header",
-        ));
+        return Err(no_rows(source, "readings"));
     }
     Ok(log)
 }
@@ -361,10 +358,7 @@ pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<crate::walk::S
         });
     }
     if spots.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no spots after the header",
-        ));
+        return Err(no_rows(source, "spots"));
     }
     Ok(spots)
 }

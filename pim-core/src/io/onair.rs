@@ -16,7 +16,7 @@ use time::{OffsetDateTime, PrimitiveDateTime};
 
 use crate::emitter::Emitter;
 use crate::error::{Error, Place, Result};
-use crate::io::table::{Row, Table};
+use crate::io::table::{no_rows, Row, Table};
 use crate::onair::{Interval, Observation};
 
 /// Columns of the on-air log.
@@ -154,10 +154,7 @@ pub fn read_on_air<R: Read>(
         out.push((e, Interval { start, end }));
     }
     if out.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no data rows after the header",
-        ));
+        return Err(no_rows(source, "data rows"));
     }
     Ok(out)
 }
@@ -194,10 +191,7 @@ pub fn read_heard<R: Read>(source: &str, reader: R, clock: &mut Clock) -> Result
         out.push(Observation { at, heard });
     }
     if out.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no data rows after the header",
-        ));
+        return Err(no_rows(source, "data rows"));
     }
     Ok(out)
 }

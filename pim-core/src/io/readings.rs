@@ -6,8 +6,8 @@
 
 use std::io::Read;
 
-use crate::error::{Error, Place, Result};
-use crate::io::table::{parse_finite, Table};
+use crate::error::{Error, Result};
+use crate::io::table::{no_rows, parse_finite, Table};
 use crate::slope::StepKind;
 
 /// Columns the readings reader understands.
@@ -97,10 +97,7 @@ pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result
         });
     }
     if file.readings.is_empty() {
-        return Err(Error::input(
-            Place::new(source),
-            "no data rows after the header",
-        ));
+        return Err(no_rows(source, "data rows"));
     }
     Ok(file)
 }

@@ -422,6 +422,12 @@ impl Fields for Row<'_> {
     }
 }
 
+/// The error for a table with a header and nothing under it; `what` names the rows
+/// ("data rows", "readings").
+pub fn no_rows(source: &str, what: &str) -> Error {
+    Error::input(Place::new(source), format!("no {what} after the header"))
+}
+
 /// A hint for a number written with a decimal comma (`146,94`).
 pub fn decimal_comma_hint(text: &str) -> &'static str {
     let t = text.trim().trim_start_matches(['-', '+']);
