@@ -301,3 +301,44 @@ fn next_picks_the_spot_with_the_largest_information() {
     let r: serde_json::Value = serde_json::from_str(&stdout_of(&ring)).unwrap();
     assert!((r["distance_m"].as_f64().unwrap() - 120.0).abs() < 0.5);
 }
+
+/// `--gps-from` takes the position (and, without --time, the time) of the newest track
+/// point.
+#[test]
+fn log_takes_the_position_from_the_newest_track_point() {
+    let dir = scratch("gps");
+    let file = dir.join("walk.csv");
+    let gpx = field_log("walk.gpx");
+    let o = pim(&[
+        "log",
+        file.to_str().unwrap(),
+        "--gps-from",
+        gpx.to_str().unwrap(),
+        "--bearing-deg",
+        "23.0",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let log = read_field_log("walk", std::fs::File::open(&file).unwrap(), false).unwrap();
+    let row = &log.rows[0];
+    // the walk's last point is the spot below the old tower, logged at 10:22:30
+    let p = row.position.unwrap();
+    assert!(
+        (p.lat_deg - 45.103605).abs() < 1e-6 && (p.lon_deg + 122.414554).abs() < 1e-6,
+        "{p:?}"
+    );
+    assert_eq!(
+        row.time.unwrap().to_string(),
+        "2026-11-28 10:22:30.0 +00:00:00"
+    );
+    let both = pim(&[
+        "log",
+        file.to_str().unwrap(),
+        "--gps-from",
+        gpx.to_str().unwrap(),
+        "--lat",
+        "45.1",
+        "--bearing-deg",
+        "23.0",
+    ]);
+    assert_eq!(both.status.code(), Some(2));
+}
