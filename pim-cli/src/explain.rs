@@ -4,7 +4,7 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use pim_core::emitter::{Carrier, Emitter};
+use pim_core::emitter::{carriers, Emitter};
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::{find_products, retain_coefficients, Hits, SearchParams, MAX_ORDER};
@@ -257,7 +257,7 @@ pub fn search_and_rank_with(
     coefficients: &[(usize, u32)],
     logbook: Option<&Logbook>,
 ) -> (Ranking, Vec<usize>, usize) {
-    let carriers: Vec<Carrier> = emitters.iter().map(|e| e.carrier()).collect();
+    let carriers = carriers(emitters);
     let Hits {
         mut products,
         co_channel,

@@ -6,7 +6,7 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use pim_core::emitter::{Carrier, Emitter};
+use pim_core::emitter::{carriers, Carrier, Emitter};
 use pim_core::fix::{Fix, SigmaSource};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::{find_products, SearchParams};
@@ -112,7 +112,7 @@ fn build(
     at_rx: Option<&Ranking>,
     near: &[NearbyItem],
 ) -> (Vec<Block>, String, String) {
-    let carriers: Vec<Carrier> = t.emitters.iter().map(|e| e.carrier()).collect();
+    let carriers = carriers(&t.emitters);
     let fix = &t.fix;
     let e = &fix.ellipse;
     let heard = t.params.target;
@@ -556,7 +556,7 @@ fn write_all(dir: &Path, files: &[(&str, Vec<u8>)]) -> Result<Vec<PathBuf>, Erro
 
 /// Searches, ranks at the receiver and at the fix, and writes the seven files into `dir`.
 pub fn write_ticket(t: &TicketInputs, dir: &Path) -> Result<Written, Error> {
-    let carriers: Vec<Carrier> = t.emitters.iter().map(|e| e.carrier()).collect();
+    let carriers = carriers(&t.emitters);
     let hits = find_products(&carriers, &t.params);
     let at_rx = t.rx_site.map(|site| {
         rank(

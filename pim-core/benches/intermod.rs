@@ -48,7 +48,7 @@ fn site(n: usize, lo: i64, hi: i64, bw: (i64, i64), seed: u64) -> Vec<Emitter> {
 }
 
 fn carriers(e: &[Emitter]) -> Vec<Carrier> {
-    e.iter().map(|x| x.carrier()).collect()
+    pim_core::emitter::carriers(e)
 }
 
 fn params(target: i64, rx: i64, max_order: u32, max_emitters: u32) -> SearchParams {

@@ -62,6 +62,11 @@ impl Emitter {
     }
 }
 
+/// The carriers of a list of emitters, in the same order (what the product search takes).
+pub fn carriers(emitters: &[Emitter]) -> Vec<Carrier> {
+    emitters.iter().map(Emitter::carrier).collect()
+}
+
 /// A signal's centre frequency and occupied bandwidth.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Carrier {

@@ -3,7 +3,7 @@
 //! the order of the emitter file (ties break on ids), so the same input always gives the
 //! same output.
 
-use pim_core::emitter::{Carrier, Emitter};
+use pim_core::emitter::Emitter;
 use pim_core::fix::{locate, FixOptions, Method, Reading};
 use pim_core::freq::Hz;
 use pim_core::geo::{destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint};
@@ -116,7 +116,7 @@ proptest! {
         }
         let params = SearchParams { target: Hz(150_000_000), rx_bandwidth: Hz(12_500), tolerance: Hz(2_000_000), max_order: 5, max_emitters: 3 };
         let listing = |em: &[Emitter]| -> Vec<String> {
-            let carriers: Vec<Carrier> = em.iter().map(|e| e.carrier()).collect();
+            let carriers = pim_core::emitter::carriers(em);
             let hits = find_products(&carriers, &params);
             let r = rank(hits.products, em, params.target, Some(TRUTH), &JunctionModel::default());
             r.candidates.iter().map(|c| formula(&c.product, em)).collect()

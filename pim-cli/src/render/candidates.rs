@@ -3,7 +3,7 @@
 
 use std::io::Write;
 
-use pim_core::emitter::Emitter;
+use pim_core::emitter::{carriers, Emitter};
 use pim_core::intermod::SearchParams;
 use pim_core::onair::Evidence;
 use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
@@ -81,10 +81,6 @@ fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
         }),
         on_air: c.evidence,
     }
-}
-
-fn carriers(emitters: &[Emitter]) -> Vec<pim_core::emitter::Carrier> {
-    emitters.iter().map(|e| e.carrier()).collect()
 }
 
 #[derive(Serialize)]
