@@ -16,9 +16,10 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::picture::{
-    axis_font, bold_style, draw_labels, fallback_svg, px, round_length, text_style, text_width_px,
-    Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID, INK, LABEL_PX, MOSS, MUTED,
-    OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
+    axis_font, bold_style, draw_labels, fallback_svg, framed_plot, px, round_length, text_style,
+    text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID, INK, LABEL_PX,
+    MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX,
+    TITLE_PX,
 };
 
 /// Size of the picture in pixels.
@@ -572,17 +573,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         .y_label_formatter(&tick)
         .draw()?;
 
-    let (xr, yr) = chart.plotting_area().get_pixel_range();
-    let plot = Rect {
-        x0: xr.start as f64,
-        y0: yr.start as f64,
-        x1: (xr.end - 1) as f64,
-        y1: (yr.end - 1) as f64,
-    };
-    root.draw(&Rectangle::new(
-        [px((plot.x0, plot.y0)), px((plot.x1, plot.y1))],
-        MUTED.stroke_width(1),
-    ))?;
+    let plot = framed_plot(root, chart.plotting_area().get_pixel_range())?;
 
     let to_px = |p: (f64, f64)| -> (f64, f64) {
         let (x, y) = chart.backend_coord(&p);
@@ -1117,7 +1108,7 @@ mod tests {
     fn the_map_parses_and_names_everything() {
         let input = sample();
         let (svg, layout) = render(&input);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert_eq!(svg, map_svg(&input));
         for o in &input.observers {
             assert!(svg.contains(&o.label), "{} missing", o.label);
@@ -1288,7 +1279,7 @@ mod tests {
     fn odd_inputs_draw_without_panicking() {
         let empty = MapInput::default();
         let (svg, _) = render(&empty);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert!(svg.contains("No fix"));
 
         let single = MapInput {
@@ -1300,7 +1291,7 @@ mod tests {
             }),
             ..MapInput::default()
         };
-        crate::render::picture::parses_as_xml(&map_svg(&single));
+        pim_tests::assert_xml_well_formed(&map_svg(&single), "svg");
 
         let mut odd = sample();
         odd.fix = None;
@@ -1310,7 +1301,7 @@ mod tests {
         odd.markers[0].north_m = f64::INFINITY;
         odd.confidence = 7.0;
         let (svg, _) = render(&odd);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
 
         // Everything on one spot, and a far-flung marker.
         let mut stacked = sample();
@@ -1319,7 +1310,7 @@ mod tests {
             o.north_m = 5.0;
         }
         stacked.markers[0].east_m = 4.0e6;
-        crate::render::picture::parses_as_xml(&map_svg(&stacked));
+        pim_tests::assert_xml_well_formed(&map_svg(&stacked), "svg");
 
         // A thin sliver of an ellipse.
         let mut sliver = sample();
@@ -1328,7 +1319,7 @@ mod tests {
             semi_minor_m: 0.0,
             orientation_deg: -400.0,
         });
-        crate::render::picture::parses_as_xml(&map_svg(&sliver));
+        pim_tests::assert_xml_well_formed(&map_svg(&sliver), "svg");
     }
 
     #[test]

@@ -303,6 +303,24 @@ pub type DrawResult<T> = Result<T, DrawingAreaErrorKind<std::io::Error>>;
 /// A part of an SVG picture, in pixel coordinates.
 pub type Area<'a> = DrawingArea<SVGBackend<'a>, plotters::coord::Shift>;
 
+/// The plot's pixel rectangle from a chart's pixel ranges, framed with a thin rule.
+pub fn framed_plot(
+    root: &Area,
+    (xr, yr): (std::ops::Range<i32>, std::ops::Range<i32>),
+) -> DrawResult<Rect> {
+    let plot = Rect {
+        x0: xr.start as f64,
+        y0: yr.start as f64,
+        x1: (xr.end - 1) as f64,
+        y1: (yr.end - 1) as f64,
+    };
+    root.draw(&Rectangle::new(
+        [px((plot.x0, plot.y0)), px((plot.x1, plot.y1))],
+        MUTED.stroke_width(1),
+    ))?;
+    Ok(plot)
+}
+
 /// Places and draws labels, in the order given, with `placer` (which already holds the
 /// marks to keep clear of); a label whose point lies outside the placer's bounds is
 /// skipped, and one pushed away from its point gets a thin leader.
@@ -378,24 +396,6 @@ pub fn fallback_svg(width: u32, height: u32, message: &str) -> String {
     format!(
         "<svg width=\"{width}\" height=\"{height}\" viewBox=\"0 0 {width} {height}\" xmlns=\"http://www.w3.org/2000/svg\">\n<rect x=\"0\" y=\"0\" width=\"{width}\" height=\"{height}\" fill=\"#FFFFFF\"/>\n<text x=\"16\" y=\"32\" font-family=\"{FONT}\" font-size=\"{SUBTITLE_PX}\" fill=\"#232930\">{escaped}</text>\n</svg>\n"
     )
-}
-
-/// Checks that a picture is well-formed XML with balanced elements (for the tests of
-/// both pictures).
-#[cfg(test)]
-pub fn parses_as_xml(svg: &str) {
-    let mut reader = quick_xml::Reader::from_str(svg);
-    let mut depth = 0i32;
-    loop {
-        match reader.read_event() {
-            Ok(quick_xml::events::Event::Start(_)) => depth += 1,
-            Ok(quick_xml::events::Event::End(_)) => depth -= 1,
-            Ok(quick_xml::events::Event::Eof) => break,
-            Ok(_) => {}
-            Err(e) => panic!("not XML: {e}"),
-        }
-    }
-    assert_eq!(depth, 0);
 }
 
 #[cfg(test)]

@@ -19,7 +19,7 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::picture::{
-    axis_font, bold_style, draw_label, draw_labels, fallback_svg, label_size_px, px,
+    axis_font, bold_style, draw_label, draw_labels, fallback_svg, framed_plot, label_size_px, px,
     text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer,
     PlacedLabel, Rect, GRID, INK, LABEL_PAD_PX, LABEL_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER,
     RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
@@ -389,17 +389,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
         .y_label_formatter(&y_tick)
         .draw()?;
 
-    let (xr, yr) = chart.plotting_area().get_pixel_range();
-    let plot = Rect {
-        x0: xr.start as f64,
-        y0: yr.start as f64,
-        x1: (xr.end - 1) as f64,
-        y1: (yr.end - 1) as f64,
-    };
-    root.draw(&Rectangle::new(
-        [px((plot.x0, plot.y0)), px((plot.x1, plot.y1))],
-        MUTED.stroke_width(1),
-    ))?;
+    let plot = framed_plot(root, chart.plotting_area().get_pixel_range())?;
     let y_floor = height.range().start;
     let y_base = height.base();
     let to_px = |f_mhz: f64, y: f64| -> (f64, f64) {
@@ -1159,7 +1149,7 @@ mod tests {
     fn the_spectrum_parses_and_names_everything() {
         let input = sample();
         let (svg, layout) = render(&input);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert_eq!(svg, spectrum_svg(&input));
         assert!(svg.contains("heard 146.3400 MHz"));
         assert!(svg.contains("receive channel, 12.5 kHz"));
@@ -1221,7 +1211,7 @@ mod tests {
             p.level_dbm = None;
         }
         let (svg, layout) = render(&input);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert!(svg.contains("rank (1 = most plausible)"));
         for w in layout.stem_tops.windows(2) {
             assert!(w[0].1 < w[1].1);
@@ -1244,7 +1234,7 @@ mod tests {
             })
             .collect();
         let (svg, layout) = render(&input);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         let product_labels = layout
             .labels
             .iter()
@@ -1260,7 +1250,7 @@ mod tests {
 
     #[test]
     fn odd_inputs_draw_without_panicking() {
-        crate::render::picture::parses_as_xml(&spectrum_svg(&SpectrumInput::default()));
+        pim_tests::assert_xml_well_formed(&spectrum_svg(&SpectrumInput::default()), "svg");
 
         let mut odd = sample();
         odd.rx_bw_khz = 0.0;
@@ -1271,14 +1261,14 @@ mod tests {
         odd.emitters[0].freq_mhz = -3.0;
         odd.emitters[1].freq_mhz = f64::NAN;
         let (svg, _) = render(&odd);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert!(svg.contains("no level: ERP or location missing"));
 
         let mut no_target = sample();
         no_target.target_mhz = f64::NAN;
         no_target.emitters.clear();
         let (svg, layout) = render(&no_target);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert!(svg.contains("Heard frequency not given"));
         assert!(layout.strip.is_none());
 
@@ -1291,7 +1281,7 @@ mod tests {
             id: "QK7MHR-R".into(),
             freq_mhz: 146.34,
         }];
-        crate::render::picture::parses_as_xml(&spectrum_svg(&same));
+        pim_tests::assert_xml_well_formed(&spectrum_svg(&same), "svg");
     }
 
     #[test]
@@ -1325,7 +1315,7 @@ mod tests {
             })
             .collect();
         let (svg, layout) = render(&input);
-        crate::render::picture::parses_as_xml(&svg);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
         assert_eq!(layout.strip_labels.len(), 15);
         assert!(layout.strip_labels.iter().all(|l| l.clear));
         disjoint(&layout.strip_labels);
