@@ -17,22 +17,16 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::picture::{
     axis_font, bold_style, draw_labels, fallback_svg, framed_plot, px, round_length, text_style,
-    text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID, INK, LABEL_PX,
-    MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX,
-    TITLE_PX,
+    text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID, HEADER_PX,
+    INK, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SIDE_PX, SLATE,
+    STONE, SUBTITLE_PX, TICK_PX, TITLE_PX, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
 };
 
 /// Size of the picture in pixels.
 pub const MAP_WIDTH_PX: u32 = 1040;
 pub const MAP_HEIGHT_PX: u32 = 760;
-const HEADER_PX: u32 = 58;
-/// The column right of the map with the detail and the legend.
-const SIDE_PX: u32 = 270;
 /// The detail never shows less than this many metres either side of the fix.
 const DETAIL_MIN_HALF_M: f64 = 25.0;
-const MARGIN_PX: u32 = 14;
-const X_LABEL_AREA_PX: u32 = 40;
-const Y_LABEL_AREA_PX: u32 = 62;
 /// Vertices of the drawn ellipse.
 const ELLIPSE_VERTICES: usize = 72;
 /// The view never spans less than this many metres around its contents.
@@ -663,12 +657,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
             gap: 6.0,
         });
     }
-    let bounds = Rect {
-        x0: plot.x0 + 2.0,
-        y0: plot.y0 + 2.0,
-        x1: plot.x1 - 2.0,
-        y1: plot.y1 - 2.0,
-    };
+    let bounds = plot.inset(2.0);
     let mut placer = LabelPlacer::new(bounds);
     for b in &blocks {
         placer.block(*b);
@@ -804,12 +793,7 @@ fn draw_detail(
             gap: 8.0,
         })
         .collect();
-    let bounds = Rect {
-        x0: box_px.x0 + 2.0,
-        y0: box_px.y0 + 2.0,
-        x1: box_px.x1 - 2.0,
-        y1: box_px.y1 - 2.0,
-    };
+    let bounds = box_px.inset(2.0);
     let mut placer = LabelPlacer::new(bounds);
     for b in &blocks {
         placer.block(*b);

@@ -150,6 +150,16 @@ impl Rect {
     }
 
     /// The area two boxes share (zero when they only touch).
+    /// The rectangle shrunk by `d` pixels on every side.
+    pub fn inset(&self, d: f64) -> Rect {
+        Rect {
+            x0: self.x0 + d,
+            y0: self.y0 + d,
+            x1: self.x1 - d,
+            y1: self.y1 - d,
+        }
+    }
+
     pub fn overlap_area(&self, other: &Rect) -> f64 {
         let w = self.x1.min(other.x1) - self.x0.max(other.x0);
         let h = self.y1.min(other.y1) - self.y0.max(other.y0);
@@ -302,6 +312,14 @@ pub fn draw_label<DB: DrawingBackend>(
 pub type DrawResult<T> = Result<T, DrawingAreaErrorKind<std::io::Error>>;
 /// A part of an SVG picture, in pixel coordinates.
 pub type Area<'a> = DrawingArea<SVGBackend<'a>, plotters::coord::Shift>;
+
+/// The layout both pictures share: a header for the title lines, a column on the right
+/// for the legend, a margin, and the room for the axes' tick labels.
+pub const HEADER_PX: u32 = 58;
+pub const SIDE_PX: u32 = 270;
+pub const MARGIN_PX: u32 = 14;
+pub const X_LABEL_AREA_PX: u32 = 40;
+pub const Y_LABEL_AREA_PX: u32 = 62;
 
 /// The plot's pixel rectangle from a chart's pixel ranges, framed with a thin rule.
 pub fn framed_plot(

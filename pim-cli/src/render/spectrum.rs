@@ -21,21 +21,16 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 use super::picture::{
     axis_font, bold_style, draw_label, draw_labels, fallback_svg, framed_plot, label_size_px, px,
     text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer,
-    PlacedLabel, Rect, GRID, INK, LABEL_PAD_PX, LABEL_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER,
-    RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
+    PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE,
+    OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
+    X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
 };
 
 /// Size of the picture in pixels.
 pub const SPECTRUM_WIDTH_PX: u32 = 1040;
 pub const SPECTRUM_HEIGHT_PX: u32 = 600;
-const HEADER_PX: u32 = 58;
-/// The column right of the chart with the legend.
-const SIDE_PX: u32 = 270;
 /// The strip of emitters under the chart.
 const STRIP_PX: u32 = 170;
-const MARGIN_PX: u32 = 14;
-const X_LABEL_AREA_PX: u32 = 40;
-const Y_LABEL_AREA_PX: u32 = 62;
 /// Products labelled with their order, best ranked first.
 pub const LABELLED_PRODUCTS: usize = 10;
 /// Of those, how many also show their formula.
@@ -518,12 +513,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
 
     // Labels: the heard frequency first, then emitters in the window, then products
     // by rank.
-    let bounds = Rect {
-        x0: plot.x0 + 2.0,
-        y0: plot.y0 + 2.0,
-        x1: plot.x1 - 2.0,
-        y1: plot.y1 - 2.0,
-    };
+    let bounds = plot.inset(2.0);
     let mut placer = LabelPlacer::new(bounds);
     for t in &stem_tops {
         placer.block(Rect::around(*t, 6.0));
