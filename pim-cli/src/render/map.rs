@@ -16,10 +16,10 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::picture::{
-    axis_font, bold_style, draw_labels, fallback_svg, framed_plot, px, round_length, text_style,
-    text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID, HEADER_PX,
-    INK, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SIDE_PX, SLATE,
-    STONE, SUBTITLE_PX, TICK_PX, TITLE_PX, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
+    axis_font, bold_style, draw_header, draw_labels, fallback_svg, framed_plot, px, round_length,
+    text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID,
+    HEADER_PX, INK, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST,
+    SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
 };
 
 /// Size of the picture in pixels.
@@ -509,16 +509,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
     let (body, side) = rest.split_horizontally(MAP_WIDTH_PX - SIDE_PX);
 
     let (title, subtitle) = header_lines(input, &clean);
-    header.draw(&Text::new(
-        title,
-        (MARGIN_PX as i32, 10),
-        bold_style(TITLE_PX, INK),
-    ))?;
-    header.draw(&Text::new(
-        subtitle,
-        (MARGIN_PX as i32, 34),
-        text_style(SUBTITLE_PX, MUTED),
-    ))?;
+    draw_header(&header, title, subtitle)?;
 
     // Measure the plotting area first, then fit the view to it at one scale.
     let builder = || {

@@ -321,6 +321,21 @@ pub const MARGIN_PX: u32 = 14;
 pub const X_LABEL_AREA_PX: u32 = 40;
 pub const Y_LABEL_AREA_PX: u32 = 62;
 
+/// Draws a picture's two header lines: the title in bold, the subtitle beneath.
+pub fn draw_header(header: &Area, title: String, subtitle: String) -> DrawResult<()> {
+    header.draw(&Text::new(
+        title,
+        (MARGIN_PX as i32, 10),
+        bold_style(TITLE_PX, INK),
+    ))?;
+    header.draw(&Text::new(
+        subtitle,
+        (MARGIN_PX as i32, 34),
+        text_style(SUBTITLE_PX, MUTED),
+    ))?;
+    Ok(())
+}
+
 /// The plot's pixel rectangle from a chart's pixel ranges, framed with a thin rule.
 pub fn framed_plot(
     root: &Area,

@@ -19,10 +19,10 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::picture::{
-    axis_font, bold_style, draw_label, draw_labels, fallback_svg, framed_plot, label_size_px, px,
-    text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer,
-    PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE,
-    OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX, TITLE_PX,
+    axis_font, bold_style, draw_header, draw_label, draw_labels, fallback_svg, framed_plot,
+    label_size_px, px, text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob,
+    LabelPlacer, PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MARGIN_PX, MOSS,
+    MUTED, OCHRE, OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX,
     X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
 };
 
@@ -333,16 +333,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
     };
 
     let (title, subtitle) = header_lines(input, &clean);
-    header.draw(&Text::new(
-        title,
-        (MARGIN_PX as i32, 10),
-        bold_style(TITLE_PX, INK),
-    ))?;
-    header.draw(&Text::new(
-        subtitle,
-        (MARGIN_PX as i32, 34),
-        text_style(SUBTITLE_PX, MUTED),
-    ))?;
+    draw_header(&header, title, subtitle)?;
 
     let window = clean.window_mhz();
     let height = Height::of(&clean.products);
