@@ -2,7 +2,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use pim_core::io::channels::read_channels;
+use pim_io::channels::read_channels;
 
 fuzz_target!(|data: &[u8]| {
     let _ = read_channels("fuzz.csv", data);

@@ -4,7 +4,7 @@
 
 use libfuzzer_sys::fuzz_target;
 use pim_core::freq::MAX_FREQUENCY;
-use pim_core::io::read_emitters;
+use pim_io::read_emitters;
 
 fuzz_target!(|data: &[u8]| {
     if let Ok(file) = read_emitters("fuzz.csv", data) {

@@ -2,7 +2,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use pim_core::io::fieldlog::{prepare, read_field_log};
+use pim_io::fieldlog::{prepare, read_field_log};
 
 fuzz_target!(|data: &[u8]| {
     for from_track in [false, true] {

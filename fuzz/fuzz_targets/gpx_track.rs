@@ -2,7 +2,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use pim_core::io::track::read_track;
+use pim_io::track::read_track;
 
 fuzz_target!(|data: &[u8]| {
     if let Ok(track) = read_track("fuzz.gpx", data) {

@@ -5,7 +5,7 @@
 use libfuzzer_sys::fuzz_target;
 use pim_core::emitter::Emitter;
 use pim_core::freq::Hz;
-use pim_core::io::onair::{read_heard, read_on_air, Clock};
+use pim_io::onair::{read_heard, read_on_air, Clock};
 
 fuzz_target!(|data: &[u8]| {
     let emitters = vec![

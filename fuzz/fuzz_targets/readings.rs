@@ -2,7 +2,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use pim_core::io::readings::read_readings;
+use pim_io::readings::read_readings;
 use pim_core::slope::StepKind;
 
 fuzz_target!(|data: &[u8]| {

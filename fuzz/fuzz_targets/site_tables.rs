@@ -2,9 +2,9 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use pim_core::io::emitters::read_structures;
-use pim_core::io::fieldlog::read_spots;
-use pim_core::io::read_receivers;
+use pim_io::emitters::read_structures;
+use pim_io::fieldlog::read_spots;
+use pim_io::read_receivers;
 
 fuzz_target!(|data: &[u8]| {
     let _ = read_receivers("fuzz.csv", data);

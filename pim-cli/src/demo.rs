@@ -7,10 +7,10 @@ use std::path::{Path, PathBuf};
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
-use pim_core::io::emitters::read_structures;
-use pim_core::io::fieldlog::read_field_log;
-use pim_core::io::read_emitters;
 use pim_core::level::JunctionModel;
+use pim_io::emitters::read_structures;
+use pim_io::fieldlog::read_field_log;
+use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
 use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};

@@ -8,18 +8,18 @@ use pim_core::emitter::{carriers, Emitter};
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::{find_products, retain_coefficients, Hits, SearchParams, MAX_ORDER};
-use pim_core::io::{read_emitters, read_heard, read_on_air, Clock};
 use pim_core::level::JunctionModel;
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::rank::{rank_with_evidence, Ranking};
 use pim_core::Error;
+use pim_io::{read_emitters, read_heard, read_on_air, Clock};
 use serde_json::json;
 
 use crate::common::{
     finish, finite_arg, frequency_arg, khz_arg, lat_arg, lon_arg, open, stdout, CliResult,
     ListFormat,
 };
-use crate::render::candidates::{
+use pim_report::candidates::{
     co_channel_json, markdown_text, table_text, write_csv, write_json_array, Listing,
 };
 

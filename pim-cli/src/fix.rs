@@ -4,12 +4,12 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use pim_core::fix::{locate, Fix, FixOptions, Loss, Method, SigmaSource};
-use pim_core::io::export::{fix_geojson, fix_kml};
-use pim_core::io::fieldlog::{prepare, read_field_log, Correction, Prepared};
-use pim_core::io::track::read_track;
+use pim_io::export::{fix_geojson, fix_kml};
+use pim_io::fieldlog::{prepare, read_field_log, Correction, Prepared};
+use pim_io::track::read_track;
 
 use crate::common::{finish, finite_arg, open, stdout, CliResult};
-use crate::render::text_table::{Align, TextTable};
+use pim_report::text_table::{Align, TextTable};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum FixFormat {

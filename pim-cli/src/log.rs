@@ -5,9 +5,9 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use pim_core::error::{Error, ErrorClass};
-use pim_core::io::append::{append_row, read_locked};
-use pim_core::io::fieldlog::{log_row, LogEntry, LOG_HEADER};
-use pim_core::io::track::read_track;
+use pim_io::append::{append_row, read_locked};
+use pim_io::fieldlog::{log_row, LogEntry, LOG_HEADER};
+use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
 
 use crate::common::{finish, open, stdout, CliResult};

@@ -17,7 +17,7 @@ mod fix;
 mod log;
 mod next;
 mod plan;
-mod render;
+
 mod slope;
 mod study;
 mod ticket;

@@ -3,13 +3,13 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use pim_core::io::fieldlog::read_spots;
 use pim_core::walk::{rank_spots, ring, ScoredSpot};
+use pim_io::fieldlog::read_spots;
 use serde_json::json;
 
 use crate::common::{finish, open, stdout, CliResult};
 use crate::fix::{fix_from_log, FixArgs};
-use crate::render::text_table::{Align, TextTable};
+use pim_report::text_table::{Align, TextTable};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum NextFormat {

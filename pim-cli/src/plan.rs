@@ -8,14 +8,14 @@ use std::time::Duration;
 
 use pim_core::emitter::{Carrier, Emitter};
 use pim_core::freq::{parse_khz, parse_mhz, Hz, MAX_FREQUENCY};
-use pim_core::io::{read_channels, ListedChannel};
 use pim_core::plan::{closest_products, grid, plan, Method, Plan, PlanSpec};
 use pim_core::rank::formula;
+use pim_io::{read_channels, ListedChannel};
 use serde::Serialize;
 use serde_json::json;
 
 use crate::common::{finish, khz_arg, open, stdout, AnswerFormat, CliResult};
-use crate::render::text_table::{Align, TextTable};
+use pim_report::text_table::{Align, TextTable};
 
 /// The most channels a grid may have.
 pub const MAX_GRID_COUNT: usize = 100_000;

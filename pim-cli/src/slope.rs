@@ -5,12 +5,12 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use pim_core::io::read_readings;
 use pim_core::slope::{judge, SlopeAnswer, StepKind, Unsettled, Verdict};
+use pim_io::read_readings;
 use serde::Serialize;
 
 use crate::common::{finish, open, stdout, AnswerFormat, CliResult};
-use crate::render::text_table::{Align, TextTable};
+use pim_report::text_table::{Align, TextTable};
 
 /// Which test the readings come from.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]

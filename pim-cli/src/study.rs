@@ -4,14 +4,14 @@
 use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 
-use pim_core::io::read_receivers;
+use pim_io::read_receivers;
 use serde_json::json;
 
 use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use crate::explain::{
     channel_summary, co_channel_text, load_emitters, search_and_rank, ListingArgs, SearchArgs,
 };
-use crate::render::candidates::{
+use pim_report::candidates::{
     co_channel_json, markdown_text, table_text, write_csv, write_json_array, Listing,
 };
 

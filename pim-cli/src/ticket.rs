@@ -10,21 +10,21 @@ use pim_core::emitter::{carriers, Carrier, Emitter};
 use pim_core::fix::{Fix, SigmaSource};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::{find_products, SearchParams};
-use pim_core::io::emitters::read_structures;
-use pim_core::io::export::{bearing_length_m, fix_geojson, fix_kml};
-use pim_core::io::fieldlog::{Correction, FieldLog};
 use pim_core::level::JunctionModel;
 use pim_core::rank::{display_terms, formula, rank, Ranking};
 use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
 use pim_core::Error;
+use pim_io::emitters::read_structures;
+use pim_io::export::{bearing_length_m, fix_geojson, fix_kml};
+use pim_io::fieldlog::{Correction, FieldLog};
 
 use crate::common::{finish, open, stdout, CliResult};
 use crate::explain::{load_emitters, HeardArgs, SearchArgs};
 use crate::fix::{fix_from_log, method_name, FixArgs};
-use crate::render::candidates::{write_csv, Listing};
-use crate::render::document::{html, markdown, Block};
-use crate::render::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
-use crate::render::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumInput};
+use pim_report::candidates::{write_csv, Listing};
+use pim_report::document::{html, markdown, Block};
+use pim_report::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
+use pim_report::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumInput};
 
 #[derive(clap::Args, Debug)]
 #[command(allow_negative_numbers = true)]
@@ -476,7 +476,7 @@ fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
         ),
         confidence: fix.ellipse.confidence,
         fix: Some((0.0, 0.0)),
-        ellipse: Some(crate::render::map::Ellipse {
+        ellipse: Some(pim_report::map::Ellipse {
             semi_major_m: fix.ellipse.semi_major_m,
             semi_minor_m: fix.ellipse.semi_minor_m,
             orientation_deg: fix.ellipse.orientation_deg,
@@ -640,7 +640,7 @@ pub fn run(args: Args) -> CliResult {
         None => Vec::new(),
     };
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
-    let log = pim_core::io::fieldlog::read_field_log(
+    let log = pim_io::fieldlog::read_field_log(
         &args.log.display().to_string(),
         open(&args.log)?,
         args.fix.track.is_some(),

@@ -47,7 +47,7 @@ pub mod fix;
 pub mod freq;
 pub mod geo;
 pub mod intermod;
-pub mod io;
+
 pub mod level;
 pub mod onair;
 pub mod plan;

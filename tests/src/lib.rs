@@ -1,9 +1,8 @@
-//! Shared helpers for the cross-checks against published sources and the end-to-end runs
-//! of the `pim` binary. The checks themselves are in `tests/tests/`.
+//! Shared helpers for the cross-checks against published sources (`tests/tests/checks/`)
+//! and the end-to-end runs of the `pim` binary (`pim-cli/tests/cli/`): the demo and
+//! bad-input files, a seeded random source, and an XML well-formedness check.
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-use std::sync::OnceLock;
 
 /// The workspace root.
 pub fn workspace_root() -> PathBuf {
@@ -21,62 +20,6 @@ pub fn field_log(name: &str) -> PathBuf {
 /// A file of the bad-input catalogue.
 pub fn bad_input(name: &str) -> PathBuf {
     workspace_root().join("tests").join("bad-inputs").join(name)
-}
-
-/// The `pim` binary of the profile these tests were built with, built first if needed
-/// (`cargo build` is a no-op when it is fresh).
-pub fn pim_bin() -> PathBuf {
-    static BIN: OnceLock<PathBuf> = OnceLock::new();
-    BIN.get_or_init(|| {
-        let exe = std::env::current_exe().unwrap_or_default();
-        let profile_dir = exe
-            .parent()
-            .and_then(Path::parent)
-            .map(Path::to_path_buf)
-            .unwrap_or_else(|| workspace_root().join("target").join("debug"));
-        let release = profile_dir.file_name().is_some_and(|n| n == "release");
-        let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".to_string());
-        let mut cmd = Command::new(cargo);
-        cmd.args(["build", "--quiet", "-p", "pim-cli", "--bin", "pim"])
-            .current_dir(workspace_root());
-        if release {
-            cmd.arg("--release");
-        }
-        if let Some(target_dir) = profile_dir.parent() {
-            cmd.env("CARGO_TARGET_DIR", target_dir);
-        }
-        let status = cmd
-            .status()
-            .unwrap_or_else(|e| panic!("cannot run cargo: {e}"));
-        assert!(status.success(), "building pim failed");
-        profile_dir.join(format!("pim{}", std::env::consts::EXE_SUFFIX))
-    })
-    .clone()
-}
-
-/// Runs `pim` with `args` in `dir` (the workspace root when `None`).
-pub fn pim_in(dir: Option<&Path>, args: &[&str]) -> Output {
-    let root = workspace_root();
-    Command::new(pim_bin())
-        .args(args)
-        .current_dir(dir.unwrap_or(&root))
-        .output()
-        .unwrap_or_else(|e| panic!("cannot run pim: {e}"))
-}
-
-/// Runs `pim` with `args` from the workspace root.
-pub fn pim(args: &[&str]) -> Output {
-    pim_in(None, args)
-}
-
-/// Standard output as text.
-pub fn stdout_of(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-/// Standard error as text.
-pub fn stderr_of(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
 }
 
 /// A small deterministic random source for Monte Carlo checks (SplitMix64, Box–Muller):

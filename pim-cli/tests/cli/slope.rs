@@ -1,7 +1,7 @@
 //! End-to-end runs of `pim slope`: the demo readings of the invented Marrow Hill site, the
 //! JSON contract, and each kind of bad readings file with its message and exit code.
 
-use pim_tests::{field_log, pim, stderr_of, stdout_of};
+use crate::support::{field_log, pim, stderr_of, stdout_of};
 
 fn path(p: std::path::PathBuf) -> String {
     p.display().to_string()
@@ -84,8 +84,9 @@ fn table_shows_the_fit_and_what_next() {
 /// A noisy short series: no verdict, and the answer says what to measure.
 #[test]
 fn inconclusive_series_says_what_to_measure() {
-    let noisy =
-        path(pim_tests::workspace_root().join("tests/scenarios/readings-noisy-attenuator.csv"));
+    let noisy = path(
+        crate::support::workspace_root().join("tests/scenarios/readings-noisy-attenuator.csv"),
+    );
     let v = json_of(&[
         "slope",
         "--readings",
@@ -100,7 +101,7 @@ fn inconclusive_series_says_what_to_measure() {
     let advice = v["advice"].as_str().unwrap();
     assert!(advice.contains("take about 16 readings"), "{advice}");
     // Rising levels read as an attenuator test do not follow the pad at all.
-    let rising = pim_tests::workspace_root().join("tests/scenarios/readings-rising.csv");
+    let rising = crate::support::workspace_root().join("tests/scenarios/readings-rising.csv");
     let v = json_of(&[
         "slope",
         "--readings",

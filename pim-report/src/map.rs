@@ -15,7 +15,7 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
-use super::picture::{
+use crate::picture::{
     axis_font, bold_style, draw_header, draw_labels, fallback_svg, framed_plot, px, round_length,
     text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID,
     HEADER_PX, INK, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST,

@@ -1,7 +1,7 @@
 //! End-to-end runs of `pim fix`: the demo walk in every format, the JSON contract, the
 //! exports parsed back with independent readers, and each kind of bad walk.
 
-use pim_tests::{field_log, pim, stderr_of, stdout_of};
+use crate::support::{field_log, pim, stderr_of, stdout_of};
 
 fn p(path: std::path::PathBuf) -> String {
     path.display().to_string()

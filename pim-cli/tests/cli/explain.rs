@@ -1,7 +1,7 @@
 //! End-to-end runs of `pim explain`, `pim study` and `pim demo`: the demo files, the
 //! output formats, and each kind of bad input with the message and exit code it must give.
 
-use pim_tests::{field_log, pim, stderr_of, stdout_of};
+use crate::support::{field_log, pim, stderr_of, stdout_of};
 
 fn path(p: std::path::PathBuf) -> String {
     p.display().to_string()

@@ -5,8 +5,8 @@ use std::io::Read;
 
 use time::OffsetDateTime;
 
-use crate::error::{Error, Place, Result};
-use crate::geo::{destination, distance_and_azimuth, GeoPoint};
+use pim_core::error::{Error, Place, Result};
+use pim_core::geo::{destination, distance_and_azimuth, GeoPoint};
 
 /// Timed positions of a walk, oldest first.
 #[derive(Clone, Debug, PartialEq)]

@@ -8,11 +8,11 @@
 use std::collections::HashMap;
 use std::io::Read;
 
-use crate::emitter::{watts_to_dbm, Emitter, Keying, Receiver};
-use crate::error::{Error, Place, Result};
-use crate::freq::{parse_khz, parse_mhz, DecimalError, Hz, MAX_FREQUENCY};
-use crate::geo::GeoPoint;
-use crate::io::table::{no_rows, parse_finite, Fields, Table};
+use crate::table::{no_rows, parse_finite, Fields, Table};
+use pim_core::emitter::{watts_to_dbm, Emitter, Keying, Receiver};
+use pim_core::error::{Error, Place, Result};
+use pim_core::freq::{parse_khz, parse_mhz, DecimalError, Hz, MAX_FREQUENCY};
+use pim_core::geo::GeoPoint;
 
 /// Columns the emitter reader understands.
 pub const EMITTER_COLUMNS: &[&str] = &[
@@ -218,7 +218,7 @@ fn read_emitters_json(source: &str, bytes: &[u8]) -> Result<EmitterFile> {
 
 fn decimal_error(place: Place, err: DecimalError) -> Error {
     let hint = match &err {
-        DecimalError::NotANumber(t) => crate::io::table::decimal_comma_hint(t),
+        DecimalError::NotANumber(t) => crate::table::decimal_comma_hint(t),
         _ => "",
     };
     Error::input(place, format!("{err}{hint}"))
@@ -430,7 +430,10 @@ pub fn read_receivers<R: Read>(source: &str, reader: R) -> Result<ReceiverFile> 
 
 /// Reads the site's structures (towers, fences, sheds, guy anchors): CSV with `id`,
 /// `lat`, `lon`, optional `kind` and `note`.
-pub fn read_structures<R: Read>(source: &str, reader: R) -> Result<Vec<crate::ticket::Structure>> {
+pub fn read_structures<R: Read>(
+    source: &str,
+    reader: R,
+) -> Result<Vec<pim_core::ticket::Structure>> {
     let mut table = Table::open(source, reader)?;
     table.require("id")?;
     table.require("lat")?;
@@ -444,7 +447,7 @@ pub fn read_structures<R: Read>(source: &str, reader: R) -> Result<Vec<crate::ti
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         check_unique(&mut seen, id, row.line, &row)?;
-        out.push(crate::ticket::Structure {
+        out.push(pim_core::ticket::Structure {
             id: id.to_string(),
             position,
             kind: row.get("kind").map(str::to_string),

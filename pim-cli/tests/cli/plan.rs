@@ -4,10 +4,10 @@
 
 use std::collections::HashSet;
 
+use crate::support::{field_log, pim, stderr_of, stdout_of};
 use pim_core::emitter::Carrier;
 use pim_core::freq::Hz;
 use pim_core::plan::is_conflict_free;
-use pim_tests::{field_log, pim, stderr_of, stdout_of};
 
 fn path(p: std::path::PathBuf) -> String {
     p.display().to_string()

@@ -128,9 +128,9 @@ proptest! {
 /// The same command twice gives the same bytes.
 #[test]
 fn explain_output_is_reproducible() {
-    let tx = pim_tests::field_log("emitters.csv");
+    let tx = crate::support::field_log("emitters.csv");
     let run = || {
-        pim_tests::pim(&[
+        crate::support::pim(&[
             "explain",
             "146.34",
             "--emitters",

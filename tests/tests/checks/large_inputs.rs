@@ -2,8 +2,8 @@
 //! log are read whole without trouble (memory figures are measured on the binary, not
 //! here; see the notes of the hardening work).
 
-use pim_core::io::fieldlog::read_field_log;
-use pim_core::io::read_emitters;
+use pim_io::fieldlog::read_field_log;
+use pim_io::read_emitters;
 
 #[test]
 fn a_hundred_thousand_emitters_are_read() {

@@ -5,7 +5,7 @@
 //! README: 3 a bad input file, 5 valid inputs that support no answer. Each command runs
 //! inside `tests/bad-inputs/`; `{F}` stands for the `field-logs/` directory.
 
-use pim_tests::{pim_in, workspace_root};
+use crate::support::{pim_in, workspace_root};
 
 /// (arguments, exit code, the whole of standard error)
 const CATALOGUE: &[(&[&str], i32, &str)] = &[
@@ -99,15 +99,15 @@ fn every_bad_input_gives_its_exact_error() {
 /// without reading it whole (made here rather than kept in the repository).
 #[test]
 fn a_huge_line_is_refused() {
-    let dir = std::env::temp_dir().join(format!("pim-catalogue-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("emitters-huge-line.csv");
     let mut text = b"id,freq_mhz,note\nA,146.94,".to_vec();
     text.extend(std::iter::repeat_n(b'x', 200_000));
     text.extend(b"\nB,152.84,\n");
     std::fs::write(&file, text).unwrap();
     let o = pim_in(
-        Some(&dir),
+        Some(dir),
         &["explain", "146.34", "--emitters", "emitters-huge-line.csv"],
     );
     assert_eq!(o.status.code(), Some(3));

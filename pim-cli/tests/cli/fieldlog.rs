@@ -1,21 +1,14 @@
 //! The site walk: `pim log` under parallel and killed writers loses and tears nothing;
 //! `pim next` picks the spot a brute-force evaluation of its criterion picks.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::Duration;
 
+use crate::support::{field_log, pim, pim_bin, stderr_of, stdout_of, Rng};
 use pim_core::fix::{locate, FixOptions};
 use pim_core::geo::{distance_and_azimuth, GeoPoint};
-use pim_core::io::fieldlog::{prepare, read_field_log};
-use pim_tests::{field_log, pim, pim_bin, stderr_of, stdout_of, Rng};
-
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("pim-walk-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
+use pim_io::fieldlog::{prepare, read_field_log};
 
 fn log_args(file: &Path, i: usize) -> Vec<String> {
     let lat = 45.1020 + 0.0001 * (i % 37) as f64;
@@ -45,7 +38,8 @@ fn notes_in(file: &Path) -> Vec<String> {
 
 #[test]
 fn parallel_writers_interleave_whole_rows() {
-    let dir = scratch("parallel");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("walk.csv");
     let bin = pim_bin();
     let children: Vec<_> = (0..40)
@@ -73,7 +67,8 @@ fn parallel_writers_interleave_whole_rows() {
 
 #[test]
 fn killed_writers_tear_nothing_and_acknowledged_rows_stay() {
-    let dir = scratch("killed");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("walk.csv");
     let bin = pim_bin();
     let mut rng = Rng::new(7);
@@ -113,7 +108,8 @@ fn killed_writers_tear_nothing_and_acknowledged_rows_stay() {
 
 #[test]
 fn a_refused_reading_leaves_the_log_untouched() {
-    let dir = scratch("refused");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("walk.csv");
     std::fs::copy(field_log("walk.csv"), &file).unwrap();
     let before = std::fs::read(&file).unwrap();
@@ -186,7 +182,8 @@ fn a_refused_reading_leaves_the_log_untouched() {
 
 #[test]
 fn log_writes_in_an_existing_header_order_and_reports_the_fix() {
-    let dir = scratch("order");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("walk.csv");
     std::fs::write(&file, "bearing_deg,lon,lat,note,colour\n347.1,-122.413244,45.102534,gate,red\n296.6,-122.410732,45.103270,,\n").unwrap();
     let o = pim(&[
@@ -214,7 +211,8 @@ fn log_writes_in_an_existing_header_order_and_reports_the_fix() {
 /// information after one more bearing; Gavish & Weiss 1992) on every candidate.
 #[test]
 fn next_picks_the_spot_with_the_largest_information() {
-    let dir = scratch("next");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let spots = dir.join("spots.csv");
     let mut rng = Rng::new(99);
     let mut text = String::from("lat,lon,name\n");
@@ -306,7 +304,8 @@ fn next_picks_the_spot_with_the_largest_information() {
 /// point.
 #[test]
 fn log_takes_the_position_from_the_newest_track_point() {
-    let dir = scratch("gps");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("walk.csv");
     let gpx = field_log("walk.gpx");
     let o = pim(&[

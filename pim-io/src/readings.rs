@@ -2,13 +2,13 @@
 //!
 //! `step_db` is the attenuation inserted (attenuator test, 0 or more) or the change of
 //! one emitter's power (power step, negative for a reduction); `level_dbm` is the level
-//! of the interference read at that step. See [`crate::slope`] for the sign convention.
+//! of the interference read at that step. See [`pim_core::slope`] for the sign convention.
 
 use std::io::Read;
 
-use crate::error::{Error, Result};
-use crate::io::table::{no_rows, parse_finite, Table};
-use crate::slope::StepKind;
+use crate::table::{no_rows, parse_finite, Table};
+use pim_core::error::{Error, Result};
+use pim_core::slope::StepKind;
 
 /// Columns the readings reader understands.
 pub const READING_COLUMNS: &[&str] = &["step_db", "level_dbm", "note"];
@@ -39,7 +39,7 @@ pub struct ReadingsFile {
 }
 
 impl ReadingsFile {
-    /// The readings as (step, level) points for [`crate::slope::judge`].
+    /// The readings as (step, level) points for [`pim_core::slope::judge`].
     pub fn points(&self) -> Vec<(f64, f64)> {
         self.readings
             .iter()

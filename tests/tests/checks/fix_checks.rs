@@ -64,7 +64,7 @@ fn exact_bearings_return_the_point() {
 #[test]
 fn agrees_with_scipy_and_geographiclib() {
     let cases: serde_json::Value =
-        serde_json::from_str(include_str!("../reference/fix_reference.json")).unwrap();
+        serde_json::from_str(include_str!("../../reference/fix_reference.json")).unwrap();
     for case in cases.as_array().unwrap() {
         let name = case["name"].as_str().unwrap();
         let sigma = case["sigma_deg"].as_f64();

@@ -2,7 +2,7 @@
 //! power step, and the on-air and listening logs (`--on-air`, `--heard`) that move the
 //! ranking. The scenario is the invented Marrow Hill site of `field-logs/`.
 
-use pim_tests::{field_log, pim, stderr_of, stdout_of, workspace_root};
+use crate::support::{field_log, pim, stderr_of, stdout_of, workspace_root};
 
 fn path(p: std::path::PathBuf) -> String {
     p.display().to_string()

@@ -6,7 +6,7 @@
 use std::collections::{HashMap, VecDeque};
 use std::io::{self, BufRead, BufReader, Read};
 
-use crate::error::{Error, Place, Result};
+use pim_core::error::{Error, Place, Result};
 
 /// The longest line accepted, in bytes. A longer one is not a table row but a damaged or
 /// binary file, and reading it whole would hold memory for nothing.

@@ -3,10 +3,10 @@
 //! line of bearing pointing along its bearing, and the ticket naming the first candidate
 //! and the cautions.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
+use crate::support::{field_log, pim, pim_in, stderr_of, stdout_of};
 use pim_core::geo::{distance_and_azimuth, GeoPoint};
-use pim_tests::{field_log, pim, pim_in, stderr_of, stdout_of};
 
 const FILES: [&str; 7] = [
     "ticket.md",
@@ -18,16 +18,9 @@ const FILES: [&str; 7] = [
     "candidates.csv",
 ];
 
-fn empty_dir(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("pim-ticket-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
 fn xml_well_formed(path: &Path) {
     let text = std::fs::read_to_string(path).unwrap();
-    pim_tests::assert_xml_well_formed(&text, &path.display().to_string());
+    crate::support::assert_xml_well_formed(&text, &path.display().to_string());
 }
 
 fn point(v: &geojson::GeometryValue) -> GeoPoint {
@@ -130,8 +123,9 @@ fn check_ticket_dir(dir: &Path) {
 
 #[test]
 fn demo_runs_from_an_empty_directory() {
-    let dir = empty_dir("demo");
-    let o = pim_in(Some(&dir), &["demo"]);
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
+    let o = pim_in(Some(dir), &["demo"]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let out = stdout_of(&o);
     assert!(out.contains("2·SKP-152 − FIRE-DSP"), "{out}");
@@ -147,7 +141,8 @@ fn demo_runs_from_an_empty_directory() {
 
 #[test]
 fn demo_runs_from_outside_the_repository_with_an_out_dir() {
-    let dir = empty_dir("outside");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let target = dir.join("nested").join("ticket");
     let o = pim_in(
         Some(&std::env::temp_dir()),
@@ -159,7 +154,8 @@ fn demo_runs_from_outside_the_repository_with_an_out_dir() {
 
 #[test]
 fn ticket_from_files() {
-    let dir = empty_dir("files");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let o = pim(&[
         "ticket",
         "146.34",
@@ -181,11 +177,12 @@ fn ticket_from_files() {
         dir.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
-    check_ticket_dir(&dir);
+    check_ticket_dir(dir);
     // the same inputs give the same ticket, byte for byte, with the date pinned
-    let again = empty_dir("files-again");
+    let tmp_again = crate::support::scratch();
+    let again = tmp_again.path();
     for d in [&dir, &again] {
-        let o = std::process::Command::new(pim_tests::pim_bin())
+        let o = std::process::Command::new(crate::support::pim_bin())
             .env("SOURCE_DATE_EPOCH", "1764547200")
             .args([
                 "ticket",
@@ -212,7 +209,8 @@ fn ticket_from_files() {
 
 #[test]
 fn ticket_refuses_an_out_path_that_is_a_file() {
-    let dir = empty_dir("not-a-dir");
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
     let file = dir.join("taken");
     std::fs::write(&file, "x").unwrap();
     let o = pim(&[

@@ -4,8 +4,8 @@
 
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject, JsonValue};
 
-use crate::fix::Fix;
-use crate::geo::{destination, GeoPoint, LocalFrame};
+use pim_core::fix::Fix;
+use pim_core::geo::{destination, GeoPoint, LocalFrame};
 
 /// Vertices of the ellipse outline.
 pub const ELLIPSE_VERTICES: usize = 72;

@@ -12,7 +12,7 @@ use std::fs::{File, OpenOptions};
 use std::io::{Read, Seek, SeekFrom, Write};
 use std::path::Path;
 
-use crate::error::{Error, Place, Result};
+use pim_core::error::{Error, Place, Result};
 
 /// What an append did.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

@@ -5,11 +5,11 @@
 use std::collections::HashMap;
 use std::io::Read;
 
-use crate::emitter::Carrier;
-use crate::error::{Error, Result};
-use crate::freq::Hz;
-use crate::io::emitters::{bandwidth_field, frequency_field};
-use crate::io::table::{no_rows, Table};
+use crate::emitters::{bandwidth_field, frequency_field};
+use crate::table::{no_rows, Table};
+use pim_core::emitter::Carrier;
+use pim_core::error::{Error, Result};
+use pim_core::freq::Hz;
 
 /// Columns the frequency-list reader understands.
 pub const CHANNEL_COLUMNS: &[&str] = &["freq_mhz", "bw_khz", "id", "note"];

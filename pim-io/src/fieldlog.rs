@@ -10,13 +10,13 @@ use serde::Serialize;
 use time::format_description::well_known::{Iso8601, Rfc3339};
 use time::{OffsetDateTime, PrimitiveDateTime};
 
-use crate::declination::{declination_deg, model_name};
-use crate::error::{Error, Place, Result};
-use crate::fix::Reading;
-use crate::geo::{normalize_bearing_deg, GeoPoint};
-use crate::io::emitters::position_fields;
-use crate::io::table::{no_rows, parse_finite, Fields, Table};
-use crate::io::track::Track;
+use crate::emitters::position_fields;
+use crate::table::{no_rows, parse_finite, Fields, Table};
+use crate::track::Track;
+use pim_core::declination::{declination_deg, model_name};
+use pim_core::error::{Error, Place, Result};
+use pim_core::fix::Reading;
+use pim_core::geo::{normalize_bearing_deg, GeoPoint};
 
 /// Columns the field-log reader understands.
 pub const LOG_COLUMNS: &[&str] = &[
@@ -344,7 +344,7 @@ pub fn prepare(
 
 /// Reads candidate spots for the next bearing: CSV with `lat`, `lon` and an optional
 /// `name` (gates, road bends, a walkable path).
-pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<crate::walk::Spot>> {
+pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk::Spot>> {
     let mut table = Table::open(source, reader)?;
     table.require("lat")?;
     table.require("lon")?;
@@ -352,7 +352,7 @@ pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<crate::walk::S
     while let Some(row) = table.next_row()? {
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
-        spots.push(crate::walk::Spot {
+        spots.push(pim_core::walk::Spot {
             name: row.get("name").map(str::to_string),
             position,
         });

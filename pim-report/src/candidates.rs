@@ -9,8 +9,8 @@ use pim_core::onair::Evidence;
 use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
 use serde::Serialize;
 
-use super::text_table::{Align, TextTable};
-use crate::common::CliResult;
+use crate::text_table::{Align, TextTable};
+type CliResult = std::io::Result<()>;
 
 /// Everything a listing of candidates draws on.
 pub struct Listing<'a> {

@@ -1,5 +1,5 @@
 //! The on-air log (CSV `emitter,start,end`) and the listening log (CSV `time,heard`) of
-//! the on-air evidence in [`crate::onair`]; both may carry a `note` column.
+//! the on-air evidence in [`pim_core::onair`]; both may carry a `note` column.
 //!
 //! Times are ISO 8601 dates and times: `2025-06-14T09:30:00Z`, `2025-06-14T09:30+02:00`,
 //! `2025-06-14T09:30` (seconds and fractions optional; a space may stand for the `T`).
@@ -14,10 +14,10 @@ use std::io::Read;
 use time::format_description::well_known::Iso8601;
 use time::{OffsetDateTime, PrimitiveDateTime};
 
-use crate::emitter::Emitter;
-use crate::error::{Error, Place, Result};
-use crate::io::table::{no_rows, Row, Table};
-use crate::onair::{Interval, Observation};
+use crate::table::{no_rows, Row, Table};
+use pim_core::emitter::Emitter;
+use pim_core::error::{Error, Place, Result};
+use pim_core::onair::{Interval, Observation};
 
 /// Columns of the on-air log.
 pub const ON_AIR_COLUMNS: &[&str] = &["emitter", "start", "end", "note"];
@@ -199,7 +199,7 @@ pub fn read_heard<R: Read>(source: &str, reader: R, clock: &mut Clock) -> Result
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::freq::Hz;
+    use pim_core::freq::Hz;
     use time::macros::datetime;
 
     #[test]

@@ -18,7 +18,7 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
-use super::picture::{
+use crate::picture::{
     axis_font, bold_style, draw_header, draw_label, draw_labels, fallback_svg, framed_plot,
     label_size_px, px, text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob,
     LabelPlacer, PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MARGIN_PX, MOSS,

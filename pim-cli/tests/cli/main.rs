@@ -1,0 +1,59 @@
+//! End-to-end runs of the `pim` binary: every command on the invented demo site, the
+//! bad-input catalogue with its exact messages and exit codes, and the field log under
+//! concurrent and killed writers. One test executable; a module per command.
+
+mod catalogue;
+mod evidence;
+mod explain;
+mod fieldlog;
+mod fix;
+mod invariants;
+mod plan;
+mod slope;
+mod ticket;
+
+/// Running the binary under test, and the shared helpers of the `pim-tests` crate.
+mod support {
+    use std::path::{Path, PathBuf};
+    use std::process::{Command, Output};
+
+    pub use pim_tests::{assert_xml_well_formed, field_log, workspace_root, Rng};
+
+    /// The `pim` binary cargo built for these tests.
+    pub fn pim_bin() -> PathBuf {
+        PathBuf::from(env!("CARGO_BIN_EXE_pim"))
+    }
+
+    /// Runs `pim` with `args` in `dir` (the workspace root when `None`).
+    pub fn pim_in(dir: Option<&Path>, args: &[&str]) -> Output {
+        let root = workspace_root();
+        Command::new(pim_bin())
+            .args(args)
+            .current_dir(dir.unwrap_or(&root))
+            .output()
+            .unwrap_or_else(|e| panic!("cannot run pim: {e}"))
+    }
+
+    /// Runs `pim` with `args` from the workspace root.
+    pub fn pim(args: &[&str]) -> Output {
+        pim_in(None, args)
+    }
+
+    /// Standard output as text.
+    pub fn stdout_of(o: &Output) -> String {
+        String::from_utf8_lossy(&o.stdout).into_owned()
+    }
+
+    /// Standard error as text.
+    pub fn stderr_of(o: &Output) -> String {
+        String::from_utf8_lossy(&o.stderr).into_owned()
+    }
+
+    /// A fresh scratch directory, removed when the value is dropped.
+    pub fn scratch() -> tempfile::TempDir {
+        tempfile::Builder::new()
+            .prefix("pim-test-")
+            .tempdir()
+            .unwrap_or_else(|e| panic!("cannot make a scratch directory: {e}"))
+    }
+}

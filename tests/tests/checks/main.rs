@@ -1,0 +1,10 @@
+//! Cross-checks of the engine against published sources, reference libraries and
+//! brute-force oracles. One test executable; a module per subject, each check naming
+//! its source.
+
+mod fix_checks;
+mod intermod_oracle;
+mod large_inputs;
+mod plan_golomb;
+mod published_checks;
+mod slope_simulated;
