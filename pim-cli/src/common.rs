@@ -5,8 +5,11 @@ use std::fs::File;
 use std::io::{self, BufWriter, Write};
 use std::path::Path;
 
+use pim_core::emitter::Emitter;
 use pim_core::freq::{parse_frequency_with_unit, parse_khz, Hz};
-use pim_core::Error;
+use pim_core::onair::{Logbook, Schedule};
+use pim_core::{Error, Site};
+use pim_io::{read_emitters, read_heard, read_on_air, Clock};
 
 /// An error on its way to the user, or a closed pipe (not an error: the reader left).
 #[derive(Debug)]
@@ -117,4 +120,72 @@ pub enum ListFormat {
 pub enum AnswerFormat {
     Table,
     Json,
+}
+
+/// Turns `EMITTER=K` pairs into emitter indices; an unknown id or one given twice with
+/// different values is a bad argument.
+pub fn coefficient_indices(
+    pairs: &[(String, u32)],
+    site: &Site,
+    source: &str,
+) -> Result<Vec<(usize, u32)>, Error> {
+    let mut out: Vec<(usize, u32)> = Vec::new();
+    for (id, k) in pairs {
+        let i = site.index_of(id).ok_or_else(|| {
+            Error::argument("--coefficient", format!("no emitter `{id}` in {source}"))
+        })?;
+        match out.iter().find(|(j, _)| *j == i) {
+            Some((_, other)) if other != k => {
+                return Err(Error::argument(
+                    "--coefficient",
+                    format!("`{id}` is given both |k| = {other} and |k| = {k}"),
+                ))
+            }
+            Some(_) => {}
+            None => out.push((i, *k)),
+        }
+    }
+    Ok(out)
+}
+
+/// Reads the on-air and listening logs against `emitters`.
+pub fn load_logbook(
+    on_air: &std::path::Path,
+    heard: &std::path::Path,
+    emitters: &[Emitter],
+) -> CliResult<Logbook> {
+    let mut clock = Clock::default();
+    let intervals = read_on_air(
+        &on_air.display().to_string(),
+        open(on_air)?,
+        emitters,
+        &mut clock,
+    )?;
+    let observations = read_heard(&heard.display().to_string(), open(heard)?, &mut clock)?;
+    Ok(Logbook::new(
+        Schedule::new(emitters, &intervals),
+        observations,
+    ))
+}
+
+/// Reads an emitter file and reports unused columns on standard error.
+pub fn load_emitters(path: &std::path::Path) -> CliResult<Vec<Emitter>> {
+    let source = path.display().to_string();
+    let file = read_emitters(&source, open(path)?)?;
+    if !file.ignored_columns.is_empty() {
+        eprintln!(
+            "pim: note: {source}: column{} {} not used",
+            if file.ignored_columns.len() == 1 {
+                ""
+            } else {
+                "s"
+            },
+            file.ignored_columns
+                .iter()
+                .map(|c| format!("`{c}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        );
+    }
+    Ok(file.emitters)
 }

@@ -8,13 +8,16 @@ use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
 use pim_core::level::JunctionModel;
+use pim_core::Site;
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_field_log;
 use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
 use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
-use crate::ticket::{print_summary, write_ticket, TicketInputs};
+use pim_report::ticket::TicketInputs;
+
+use crate::ticket::{prepared_at, print_summary, write_ticket};
 
 /// The invented demo site's emitters, structures and bearing walk.
 pub const EMITTERS_CSV: &str = include_str!("../../field-logs/emitters.csv");
@@ -60,8 +63,9 @@ pub fn run(args: Args) -> CliResult {
     )?;
     writeln!(out)?;
     let inputs = TicketInputs {
-        site: "Marrow Hill".into(),
-        emitters,
+        prepared: prepared_at(),
+        site_name: "Marrow Hill".into(),
+        site: Site::new(emitters),
         emitters_source: "emitters.csv".into(),
         log,
         fix,

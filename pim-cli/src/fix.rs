@@ -166,13 +166,7 @@ pub fn fix_from_log(
     Ok((fix, prepared))
 }
 
-pub fn method_name(m: Method) -> &'static str {
-    match m {
-        Method::Ml => "maximum likelihood",
-        Method::Ls => "least-squares intersection",
-        Method::Robust => "robust M-estimate",
-    }
-}
+pub use pim_report::fix::method_name;
 
 #[derive(serde::Serialize)]
 struct EllipseJson {

@@ -10,6 +10,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod args;
 mod common;
 mod demo;
 mod explain;

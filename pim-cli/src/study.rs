@@ -7,10 +7,11 @@ use std::path::PathBuf;
 use pim_io::read_receivers;
 use serde_json::json;
 
+use crate::args::{ListingArgs, SearchArgs};
+use crate::common::load_emitters;
 use crate::common::{finish, open, stdout, CliResult, ListFormat};
-use crate::explain::{
-    channel_summary, co_channel_text, load_emitters, search_and_rank, ListingArgs, SearchArgs,
-};
+use pim_core::{Query, Site};
+use pim_report::candidates::{channel_summary, co_channel_text};
 use pim_report::candidates::{
     co_channel_json, markdown_text, table_text, write_csv, write_json_array, Listing,
 };
@@ -30,7 +31,8 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let emitters = load_emitters(&args.emitters)?;
+    let site = Site::new(load_emitters(&args.emitters)?);
+    let emitters = site.emitters();
     let rx_source = args.receivers.display().to_string();
     let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
     if !rx_file.ignored_columns.is_empty() {
@@ -55,8 +57,13 @@ pub fn run(args: Args) -> CliResult {
     for rx in &rx_file.receivers {
         let params = s.params(rx.freq, rx.bandwidth.unwrap_or(s.rx_bw));
         let junction = rx.position.or(s.rx_site());
-        let (ranking, co) = search_and_rank(&emitters, &params, junction, &model);
-        results.push((params, junction, ranking, co));
+        let answer = site.explain(&Query {
+            params,
+            junction,
+            model,
+            ..Query::new(rx.freq)
+        });
+        results.push((params, junction, answer.ranking, answer.co_channel));
         if let Some(bar) = &progress {
             bar.inc(1);
         }
@@ -83,7 +90,7 @@ pub fn run(args: Args) -> CliResult {
         rx_file.receivers.iter().zip(&results).enumerate()
     {
         let listing = Listing {
-            emitters: &emitters,
+            emitters,
             params,
             ranking,
             co_channel: co,

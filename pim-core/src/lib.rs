@@ -52,9 +52,12 @@ pub mod level;
 pub mod onair;
 pub mod plan;
 pub mod rank;
+pub mod site;
 pub mod slope;
 pub mod ticket;
 pub mod walk;
 
+pub use emitter::{Carrier, Emitter};
 pub use error::{Error, ErrorClass, Place, Result};
 pub use freq::Hz;
+pub use site::{Explanation, Query, Site};

@@ -4,8 +4,9 @@
 use std::io::Write;
 
 use pim_core::emitter::{carriers, Emitter};
+use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
-use pim_core::onair::Evidence;
+use pim_core::onair::{Evidence, Logbook};
 use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
 use serde::Serialize;
 
@@ -362,4 +363,79 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
         ));
     }
     out
+}
+
+/// The header lines above a table listing.
+pub fn channel_summary(
+    params: &SearchParams,
+    emitter_count: usize,
+    source: &str,
+    junction: Option<GeoPoint>,
+) -> String {
+    let mut s = format!(
+        "Receive channel {} MHz, {} kHz wide, tolerance {} kHz; orders up to {}, products of up to {} emitter{}.\n",
+        params.target.mhz_text(),
+        params.rx_bandwidth.khz_text(),
+        params.tolerance.khz_text(),
+        params.max_order,
+        params.max_emitters,
+        if params.max_emitters == 1 { "" } else { "s" },
+    );
+    s.push_str(&format!("{emitter_count} emitters from {source}; "));
+    match junction {
+        Some(j) => s.push_str(&format!(
+            "junction assumed at {:.6}, {:.6}.\n",
+            j.lat_deg, j.lon_deg
+        )),
+        None => s.push_str("no junction location (give --rx-lat/--rx-lon for levels).\n"),
+    }
+    s
+}
+
+pub fn co_channel_text(listing: &Listing) -> String {
+    if listing.co_channel.is_empty() {
+        return String::new();
+    }
+    let names: Vec<String> = listing
+        .co_channel
+        .iter()
+        .map(|&i| {
+            let e = &listing.emitters[i];
+            format!("{} at {} MHz", e.id, e.freq.mhz_text())
+        })
+        .collect();
+    format!(
+        "Co-channel (a carrier in the channel itself, not a product): {}\n",
+        names.join(", ")
+    )
+}
+
+/// A line saying what narrowed the list and what the logs hold, for the table header.
+pub fn narrowing_text(
+    emitters: &[Emitter],
+    coefficients: &[(usize, u32)],
+    found: usize,
+    kept: usize,
+    logbook: Option<&Logbook>,
+) -> String {
+    let mut s = String::new();
+    if !coefficients.is_empty() {
+        let list: Vec<String> = coefficients
+            .iter()
+            .map(|&(i, k)| format!("{} |k| = {k}", emitters[i].id))
+            .collect();
+        s.push_str(&format!(
+            "Kept {kept} of {found} products: those with {}.\n",
+            list.join(", ")
+        ));
+    }
+    if let Some(book) = logbook {
+        let heard = book.heard_count();
+        s.push_str(&format!(
+            "On-air evidence: {} listening times, heard at {heard}, silent at {}.\n",
+            book.observations.len(),
+            book.observations.len() - heard
+        ));
+    }
+    s
 }

@@ -1,14 +1,16 @@
-//! Turning results into screens and files.
+//! # pim-report
+//!
+//! pim's outputs, made from the engine's results: the candidate listings as text tables,
+//! JSON, CSV and Markdown; the maintenance ticket as one document model rendered to
+//! Markdown and HTML; and the SVG pictures (the map of the walk and the fix, the
+//! spectrum of the channel). Everything here returns text or writes to a writer it is
+//! given; choosing files and writing them atomically is the binary's job.
 
 pub mod candidates;
 pub mod document;
-pub mod text_table;
-
-// The pictures of the maintenance ticket (map.svg, spectrum.svg) and what they share;
-// wired in by the ticket command.
-#[allow(dead_code)]
+pub mod fix;
 pub mod map;
-#[allow(dead_code)]
 pub mod picture;
-#[allow(dead_code)]
 pub mod spectrum;
+pub mod text_table;
+pub mod ticket;

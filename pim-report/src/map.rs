@@ -257,6 +257,7 @@ fn bearing_end(o: &Observer) -> Option<(f64, f64)> {
 
 /// Where things went, for the tests.
 #[derive(Clone, Debug, Default)]
+#[cfg_attr(not(test), allow(dead_code))] // read by the layout tests
 struct MapLayout {
     /// The plotting area in pixels.
     plot: Option<Rect>,
@@ -279,6 +280,7 @@ struct MapLayout {
 
 /// Where the detail around the fix went.
 #[derive(Clone, Debug)]
+#[cfg_attr(not(test), allow(dead_code))] // read by the layout tests
 struct DetailLayout {
     frame: Rect,
     px_per_m: f64,

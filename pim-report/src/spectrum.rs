@@ -242,6 +242,7 @@ impl<'a> Clean<'a> {
 
 /// Where things went, for the tests.
 #[derive(Clone, Debug, Default)]
+#[cfg_attr(not(test), allow(dead_code))] // read by the layout tests
 struct SpectrumLayout {
     plot: Option<Rect>,
     window_mhz: Range<f64>,

@@ -41,6 +41,20 @@ pub struct SearchParams {
     pub max_emitters: u32,
 }
 
+impl Default for SearchParams {
+    /// No channel yet (target 0), a 12.5 kHz receive channel, no extra tolerance, orders
+    /// up to 7, products of up to three emitters.
+    fn default() -> Self {
+        SearchParams {
+            target: Hz(0),
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 7,
+            max_emitters: 3,
+        }
+    }
+}
+
 impl SearchParams {
     /// The hit rule, evaluated in doubled integers:
     /// `2·|f_p − f₀| ≤ B_p + B_rx + 2·tol`.

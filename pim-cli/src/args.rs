@@ -1,0 +1,134 @@
+//! Command-line options that several commands share, defined once: the heard frequency
+//! and emitter file, the search and level-model options, and how a listing is written.
+
+use std::path::PathBuf;
+
+use pim_core::freq::Hz;
+use pim_core::geo::GeoPoint;
+use pim_core::intermod::{SearchParams, MAX_ORDER};
+use pim_core::level::JunctionModel;
+use serde_json::json;
+
+use crate::common::{finite_arg, frequency_arg, khz_arg, lat_arg, lon_arg, ListFormat};
+
+/// Search and ranking options shared by `explain` and `study`.
+#[derive(clap::Args, Clone, Debug)]
+pub struct SearchArgs {
+    /// Receive channel width in kHz.
+    #[arg(long = "rx-bw-khz", value_name = "KHZ", default_value = "12.5", value_parser = khz_arg)]
+    pub rx_bw: Hz,
+    /// Extra tolerance on each side of the channel, in kHz.
+    #[arg(long = "tol-khz", value_name = "KHZ", default_value = "0", value_parser = khz_arg)]
+    pub tol: Hz,
+    /// Highest order Σ|k| to consider (1–15).
+    #[arg(long, default_value_t = 7, value_parser = clap::value_parser!(u32).range(1..=15))]
+    pub max_order: u32,
+    /// Most distinct emitters in one product (1–3).
+    #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u32).range(1..=3))]
+    pub max_emitters: u32,
+    /// Latitude of the receiver site, where the junction is assumed until a fix exists.
+    #[arg(long, value_name = "DEG", value_parser = lat_arg, allow_hyphen_values = true, requires = "rx_lon")]
+    pub rx_lat: Option<f64>,
+    /// Longitude of the receiver site.
+    #[arg(long, value_name = "DEG", value_parser = lon_arg, allow_hyphen_values = true, requires = "rx_lat")]
+    pub rx_lon: Option<f64>,
+    /// Junction model: third-order level (dBm) from two reference tones.
+    #[arg(long, value_name = "DBM", default_value = "-80", value_parser = finite_arg, allow_hyphen_values = true)]
+    pub junction_im3_dbm: f64,
+    /// Junction model: level of each reference tone (dBm; IEC 62037-1 uses +43).
+    #[arg(long, value_name = "DBM", default_value = "43", value_parser = finite_arg, allow_hyphen_values = true)]
+    pub junction_ref_dbm: f64,
+    /// Junction model: further loss per order above the third (dB).
+    #[arg(long, value_name = "DB", default_value = "5", value_parser = finite_arg, allow_hyphen_values = true)]
+    pub order_step_db: f64,
+}
+
+/// How a listing of candidates is written.
+#[derive(clap::Args, Clone, Debug)]
+pub struct ListingArgs {
+    /// Show at most N candidates (default: the first few in tables and Markdown, all in
+    /// JSON and CSV).
+    #[arg(long, value_name = "N")]
+    pub limit: Option<usize>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = ListFormat::Table)]
+    pub format: ListFormat,
+}
+
+impl ListingArgs {
+    /// How many candidates a listing shows; `for_reading` in tables and Markdown.
+    pub fn shown(&self, for_reading: usize) -> Option<usize> {
+        match (self.limit, self.format) {
+            (Some(n), _) => Some(n),
+            (None, ListFormat::Table | ListFormat::Markdown) => Some(for_reading),
+            (None, _) => None,
+        }
+    }
+}
+
+impl SearchArgs {
+    pub fn junction_model(&self) -> JunctionModel {
+        JunctionModel {
+            im3_dbm: self.junction_im3_dbm,
+            reference_tone_dbm: self.junction_ref_dbm,
+            order_step_db: self.order_step_db,
+        }
+    }
+
+    pub fn rx_site(&self) -> Option<GeoPoint> {
+        Some(GeoPoint::new(self.rx_lat?, self.rx_lon?))
+    }
+
+    pub fn params(&self, target: Hz, rx_bw: Hz) -> SearchParams {
+        SearchParams {
+            target,
+            rx_bandwidth: rx_bw,
+            tolerance: self.tol,
+            max_order: self.max_order,
+            max_emitters: self.max_emitters,
+        }
+    }
+
+    pub fn inputs_json(&self) -> serde_json::Value {
+        json!({
+            "tol_khz": self.tol.khz(),
+            "max_order": self.max_order,
+            "max_emitters": self.max_emitters,
+            "rx_lat": self.rx_lat,
+            "rx_lon": self.rx_lon,
+            "junction_model": self.junction_model(),
+        })
+    }
+}
+
+/// The frequency heard and the emitters that may make it.
+#[derive(clap::Args, Debug)]
+pub struct HeardArgs {
+    /// The frequency heard: a bare number is MHz; units: 146.52MHz, 600kHz, 1.2GHz.
+    #[arg(value_name = "FREQ", value_parser = frequency_arg)]
+    pub freq: Hz,
+    /// Emitter file: CSV with a header, or a JSON array.
+    #[arg(long, value_name = "FILE")]
+    pub emitters: PathBuf,
+}
+
+/// clap parser for `EMITTER=K`: an emitter id and the |k| it carries.
+pub fn coefficient_arg(text: &str) -> Result<(String, u32), String> {
+    let (id, k) = text
+        .rsplit_once('=')
+        .ok_or_else(|| format!("`{text}` is not EMITTER=K (such as SKP-152=2)"))?;
+    let id = id.trim();
+    if id.is_empty() {
+        return Err(format!("`{text}` names no emitter before `=`"));
+    }
+    let k: u32 = k
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{k}` is not a whole number 0 to {MAX_ORDER}"))?;
+    if k > MAX_ORDER {
+        return Err(format!(
+            "|k| = {k} is above {MAX_ORDER}, the highest order searched"
+        ));
+    }
+    Ok((id.to_string(), k))
+}

@@ -1,0 +1,151 @@
+//! The explain pipeline as one call: a [`Site`] owns the emitters (and so the index
+//! space every product, candidate and coefficient refers to); a [`Query`] on it gives an
+//! [`Explanation`]: the products that land on the channel (the search of
+//! [`crate::intermod`]), narrowed to a power step's coefficients, ranked by
+//! [`crate::rank`], and re-rankable with the junction at another point (a fix).
+//!
+//! ```
+//! use pim_core::{Emitter, Hz, Query, Site};
+//!
+//! // 2·152.84 − 159.34 = 146.34 MHz
+//! let site = Site::new(vec![
+//!     Emitter::new("SKP-152", Hz(152_840_000), Hz(16_000)),
+//!     Emitter::new("FIRE-DSP", Hz(159_340_000), Hz(11_250)),
+//! ]);
+//! let answer = site.explain(&Query::new(Hz(146_340_000)));
+//! assert_eq!(answer.ranking.candidates.len(), 1);
+//! assert_eq!(site.formula(&answer.ranking.candidates[0].product), "2·SKP-152 − FIRE-DSP");
+//! ```
+
+use crate::emitter::{carriers, Carrier, Emitter};
+use crate::freq::Hz;
+use crate::geo::GeoPoint;
+use crate::intermod::{find_products, retain_coefficients, Hits, Product, SearchParams};
+use crate::level::JunctionModel;
+use crate::onair::Logbook;
+use crate::rank::{formula, rank_with_evidence, Ranking};
+
+/// The emitters of a site and their carriers, indexed alike.
+#[derive(Clone, Debug, Default)]
+pub struct Site {
+    emitters: Vec<Emitter>,
+    carriers: Vec<Carrier>,
+}
+
+impl Site {
+    /// A site of `emitters`; their order is the index space of every result.
+    pub fn new(emitters: Vec<Emitter>) -> Site {
+        let carriers = carriers(&emitters);
+        Site { emitters, carriers }
+    }
+
+    /// The emitters, in the order given.
+    pub fn emitters(&self) -> &[Emitter] {
+        &self.emitters
+    }
+
+    /// Each emitter's carrier (frequency and occupied width), by emitter index.
+    pub fn carriers(&self) -> &[Carrier] {
+        &self.carriers
+    }
+
+    /// The index of the emitter with this id.
+    pub fn index_of(&self, id: &str) -> Option<usize> {
+        self.emitters.iter().position(|e| e.id == id)
+    }
+
+    /// A product written with the emitters' ids, such as `2·SKP-152 − FIRE-DSP`.
+    pub fn formula(&self, product: &Product) -> String {
+        formula(product, &self.emitters)
+    }
+
+    /// Searches, narrows and ranks (module docs).
+    pub fn explain(&self, query: &Query) -> Explanation {
+        let Hits {
+            mut products,
+            co_channel,
+        } = find_products(&self.carriers, &query.params);
+        let found = products.len();
+        retain_coefficients(&mut products, &query.coefficients);
+        let ranking = rank_with_evidence(
+            products.clone(),
+            &self.emitters,
+            query.params.target,
+            query.junction,
+            &query.model,
+            query.logbook.as_ref(),
+        );
+        Explanation {
+            params: query.params,
+            model: query.model,
+            products,
+            co_channel,
+            found,
+            ranking,
+        }
+    }
+}
+
+/// What to explain: the channel and the search bounds, where the junction is assumed,
+/// the level model, and the evidence that narrows or orders the list.
+#[derive(Clone, Debug)]
+pub struct Query {
+    /// The channel heard and the search bounds.
+    pub params: SearchParams,
+    /// Where the junction is assumed (the receiver site, or a fix); without it, no levels.
+    pub junction: Option<GeoPoint>,
+    /// The level model.
+    pub model: JunctionModel,
+    /// Keep only products in which emitter `i` carries |k| = K (a power step's answer).
+    pub coefficients: Vec<(usize, u32)>,
+    /// On-air and listening logs, ranked before the level when given.
+    pub logbook: Option<Logbook>,
+}
+
+impl Query {
+    /// A query for a carrier heard at `target` with the default bounds: a 12.5 kHz
+    /// channel, orders up to 7, products of up to three emitters, no junction location.
+    pub fn new(target: Hz) -> Query {
+        Query {
+            params: SearchParams {
+                target,
+                ..SearchParams::default()
+            },
+            junction: None,
+            model: JunctionModel::default(),
+            coefficients: Vec::new(),
+            logbook: None,
+        }
+    }
+}
+
+/// The answer to a [`Query`].
+#[derive(Clone, Debug)]
+pub struct Explanation {
+    /// The search bounds used.
+    pub params: SearchParams,
+    /// The level model used.
+    pub model: JunctionModel,
+    /// The products kept after narrowing, in search order.
+    pub products: Vec<Product>,
+    /// Emitters whose own carrier lies in the channel (co-channel, not a product).
+    pub co_channel: Vec<usize>,
+    /// Products the search found before the coefficients narrowed them.
+    pub found: usize,
+    /// The products ranked.
+    pub ranking: Ranking,
+}
+
+impl Explanation {
+    /// The same products ranked with the junction at `point` (a fix), without evidence.
+    pub fn ranked_at(&self, site: &Site, point: GeoPoint) -> Ranking {
+        rank_with_evidence(
+            self.products.clone(),
+            site.emitters(),
+            self.params.target,
+            Some(point),
+            &self.model,
+            None,
+        )
+    }
+}

@@ -1,0 +1,537 @@
+//! The maintenance ticket a tower crew and a licensee act on, as a document model
+//! (rendered to Markdown and HTML from one source) with its pictures and exports. The
+//! candidates are re-ranked with the junction at the fix; the ticket lists what to
+//! inspect near the fix, how to confirm the cause, and the cautions of tower and RF work.
+
+use pim_core::emitter::{carriers, Carrier, Emitter};
+use pim_core::fix::{Fix, SigmaSource};
+use pim_core::geo::{GeoPoint, LocalFrame};
+use pim_core::intermod::SearchParams;
+use pim_core::level::JunctionModel;
+use pim_core::rank::{display_terms, formula, Ranking};
+use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
+use pim_core::{Error, Query, Site};
+use pim_io::export::{bearing_length_m, fix_geojson, fix_kml};
+use pim_io::fieldlog::{Correction, FieldLog};
+
+use crate::candidates::{write_csv, Listing};
+use crate::document::{html, markdown, Block};
+use crate::fix::method_name;
+use crate::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
+use crate::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumInput};
+
+/// Everything a ticket is made from.
+pub struct TicketInputs {
+    /// The site's name, for the title.
+    pub site_name: String,
+    /// When the ticket is dated, as shown (e.g. `2026-12-01 14:05 UTC`).
+    pub prepared: String,
+    /// The emitters that may make the carrier.
+    pub site: Site,
+    pub emitters_source: String,
+    pub log: FieldLog,
+    pub fix: Fix,
+    pub corrections: Vec<Correction>,
+    pub structures: Vec<Structure>,
+    pub params: SearchParams,
+    pub model: JunctionModel,
+    pub rx_site: Option<GeoPoint>,
+    pub top: usize,
+}
+
+/// The files of a ticket, by name, with what the summary line needs.
+pub struct TicketFiles {
+    /// File name and content, in the order they are listed.
+    pub files: Vec<(&'static str, Vec<u8>)>,
+    /// The first candidate's formula, if any product lands.
+    pub top_formula: Option<String>,
+    /// How many products land.
+    pub total: usize,
+}
+
+fn who(e: &Emitter) -> String {
+    match (&e.kind, &e.owner) {
+        (Some(k), Some(o)) => format!("{} ({k}, {o})", e.id),
+        (Some(k), None) => format!("{} ({k})", e.id),
+        (None, Some(o)) => format!("{} ({o})", e.id),
+        (None, None) => e.id.clone(),
+    }
+}
+
+fn level(x: Option<f64>) -> String {
+    x.map(|v| format!("{v:.1}")).unwrap_or_else(|| "—".into())
+}
+
+/// The ticket as document blocks, plus the two pictures.
+fn build(
+    t: &TicketInputs,
+    at_fix: &Ranking,
+    at_rx: Option<&Ranking>,
+    near: &[NearbyItem],
+) -> (Vec<Block>, String, String) {
+    let carriers = carriers(t.site.emitters());
+    let fix = &t.fix;
+    let e = &fix.ellipse;
+    let heard = t.params.target;
+    let mut doc = vec![
+        Block::Heading(1, format!("PIM ticket: {}, carrier on {} MHz", t.site_name, heard.mhz_text())),
+        Block::Para(format!(
+            "Prepared {} by pim {} from {} ({} emitters) and {} ({} readings). Task: find and mend the junction that makes the carrier.",
+            t.prepared,
+            env!("CARGO_PKG_VERSION"),
+            t.emitters_source,
+            t.site.emitters().len(),
+            t.log.source,
+            t.log.rows.len()
+        )),
+        Block::Heading(2, "1. What was heard".into()),
+    ];
+    let mut heard_points = vec![format!(
+        "An unexplained carrier at {} MHz in the {} kHz receive channel (tolerance {} kHz).",
+        heard.mhz_text(),
+        t.params.rx_bandwidth.khz_text(),
+        t.params.tolerance.khz_text()
+    )];
+    let levels: Vec<(u64, f64)> = t
+        .log
+        .rows
+        .iter()
+        .filter_map(|r| r.level_dbm.map(|l| (r.line, l)))
+        .collect();
+    if let Some(&(line, strongest)) = levels.iter().max_by(|a, b| a.1.total_cmp(&b.1)) {
+        let weakest = levels.iter().map(|l| l.1).fold(f64::INFINITY, f64::min);
+        heard_points.push(format!(
+            "Levels on the walk: {weakest:.1} to {strongest:.1} dBm, strongest at line {line} of the log."
+        ));
+    }
+    let dates: Vec<String> = t
+        .log
+        .rows
+        .iter()
+        .filter_map(|r| r.time.map(|x| x.date().to_string()))
+        .collect();
+    if let (Some(first), Some(last)) = (dates.iter().min(), dates.iter().max()) {
+        heard_points.push(if first == last {
+            format!("Bearings taken on {first}.")
+        } else {
+            format!("Bearings taken from {first} to {last}.")
+        });
+    }
+    doc.push(Block::List(heard_points));
+
+    // 2. Candidates
+    doc.push(Block::Heading(2, "2. Which emitters make it".into()));
+    let total = at_fix.candidates.len();
+    doc.push(Block::Para(format!(
+        "{total} product{} of up to {} emitters and order up to {} land in the channel. With the junction placed at the fix, they are {}. The first {} follow; candidates.csv lists them all.",
+        if total == 1 { "" } else { "s" },
+        t.params.max_emitters,
+        t.params.max_order,
+        at_fix.basis(),
+        total.min(t.top)
+    )));
+    let mut rows = Vec::new();
+    for c in at_fix.candidates.iter().take(t.top) {
+        let before = at_rx
+            .and_then(|r| r.candidates.iter().find(|x| x.product == c.product))
+            .map(|x| format!("#{}", x.rank))
+            .unwrap_or_else(|| "—".into());
+        let emitters: Vec<String> = display_terms(&c.product, t.site.emitters())
+            .iter()
+            .map(|term| who(&t.site.emitters()[term.emitter]))
+            .collect();
+        rows.push(vec![
+            c.rank.to_string(),
+            formula(&c.product, t.site.emitters()),
+            c.product.order().to_string(),
+            format!("{:.4}", c.product.freq.mhz()),
+            format!("{:+.1}", c.product.offset(heard).khz()),
+            format!("{:.1}", c.product.bandwidth(&carriers).khz()),
+            level(c.level_dbm),
+            before,
+            emitters.join("; "),
+        ]);
+    }
+    doc.push(Block::Table {
+        headers: [
+            "#",
+            "product",
+            "order",
+            "at MHz",
+            "offset kHz",
+            "width kHz",
+            "level at fix dBm",
+            "at receiver",
+            "emitters",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect(),
+        right: vec![true, false, true, true, true, true, true, true, false],
+        rows,
+    });
+    if let Some(rx) = at_rx {
+        let changes = rank_changes(at_fix, rx, t.top);
+        let moved: Vec<String> = changes
+            .iter()
+            .filter(|c| c.rank_at_receiver != Some(c.rank_at_fix))
+            .map(|c| {
+                format!(
+                    "{} is #{} at the fix, #{} at the receiver",
+                    formula(&c.product, t.site.emitters()),
+                    c.rank_at_fix,
+                    c.rank_at_receiver
+                        .map_or("—".to_string(), |r| r.to_string())
+                )
+            })
+            .collect();
+        doc.push(Block::Para(if moved.is_empty() {
+            "Moving the junction from the receiver to the fix leaves the order of these candidates as it was.".into()
+        } else {
+            format!("Moving the junction from the receiver to the fix changes the order: {}.", moved.join("; "))
+        }));
+    }
+    let m = &t.model;
+    doc.push(Block::Para(format!(
+        "Levels: each emitter's power at the junction is its ERP less the free-space loss (ITU-R P.525); a product's level is Σ|k|·P + C(n), with C(n) set so that two {:.0} dBm tones make {:.0} dBm at third order and each further order costs {:.0} dB. They rank candidates against each other; a real joint may differ by tens of dB.",
+        m.reference_tone_dbm, m.im3_dbm, m.order_step_db
+    )));
+    let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
+    doc.push(Block::Picture {
+        file: "spectrum.svg".into(),
+        alt: format!(
+            "The receive channel at {} MHz and the products that land in it, labelled by order",
+            heard.mhz_text()
+        ),
+        svg: spectrum.clone(),
+    });
+
+    // 3. Where
+    doc.push(Block::Heading(2, "3. Where the junction is".into()));
+    let mut where_points = vec![
+        format!("Fix: {:.6}, {:.6} (WGS84), by {} from {} of {} readings.", fix.position.lat_deg, fix.position.lon_deg, method_name(fix.method), fix.n_used, fix.readings.len()),
+        format!(
+            "{:.0}% ellipse: {:.1} m by {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; circular error probable {:.1} m.",
+            e.confidence * 100.0, e.semi_major_m, e.semi_minor_m, e.orientation_deg, e.area_m2(), fix.cep_m
+        ),
+        match fix.sigma_source {
+            SigmaSource::Given => format!("Bearing σ {:.1}° as given.", fix.sigma_deg_used),
+            SigmaSource::Estimated => format!("Bearing σ {:.1}° estimated from the residuals (the ellipse widened for it).", fix.sigma_deg_used),
+        },
+    ];
+    if !t.corrections.is_empty() {
+        where_points.push(format!(
+            "{} magnetic bearing{} turned to true north ({}).",
+            t.corrections.len(),
+            if t.corrections.len() == 1 { "" } else { "s" },
+            t.corrections
+                .iter()
+                .map(|c| format!("line {}: {:+.1}° {}", c.line, c.declination_deg, c.source))
+                .collect::<Vec<_>>()
+                .join("; ")
+        ));
+    }
+    for r in fix.readings.iter().filter(|r| r.outlier) {
+        let note = t
+            .log
+            .rows
+            .iter()
+            .find(|x| x.line == r.line)
+            .and_then(|x| x.note.clone());
+        where_points.push(format!(
+            "Line {} disagrees with the others by {:+.1}°{}{}.",
+            r.line,
+            r.residual_deg,
+            note.map(|n| format!(" ({n})")).unwrap_or_default(),
+            if r.weight < 0.5 { "; set aside" } else { "" }
+        ));
+    }
+    for w in &fix.warnings {
+        where_points.push(format!("Note: {w}."));
+    }
+    doc.push(Block::List(where_points));
+    let map = map_svg(&map_input(t, near));
+    doc.push(Block::Picture {
+        file: "map.svg".into(),
+        alt: format!(
+            "The walk, the lines of bearing, the fix and its {:.0}% ellipse",
+            e.confidence * 100.0
+        ),
+        svg: map.clone(),
+    });
+    if near.is_empty() {
+        doc.push(Block::Para(
+            "No listed structure or emitter lies in or near the ellipse.".into(),
+        ));
+    } else {
+        doc.push(Block::Table {
+            headers: ["in or near the ellipse", "what", "from the fix", "", "note"]
+                .iter()
+                .map(|s| s.to_string())
+                .collect(),
+            right: vec![false, false, true, false, false],
+            rows: near
+                .iter()
+                .map(|n| {
+                    vec![
+                        n.id.clone(),
+                        n.kind.clone().unwrap_or_else(|| match n.item {
+                            ItemKind::Structure => "structure".into(),
+                            ItemKind::Emitter => "antenna".into(),
+                        }),
+                        format!("{:.0} m at {:.0}°", n.distance_m, n.bearing_from_fix_deg),
+                        if n.inside() {
+                            "inside".into()
+                        } else {
+                            "near".into()
+                        },
+                        n.note.clone().unwrap_or_default(),
+                    ]
+                })
+                .collect(),
+        });
+    }
+
+    // 4. Inspect
+    doc.push(Block::Heading(2, "4. What to inspect".into()));
+    // Structures that call for the same checks share one point, nearest first.
+    let mut groups: Vec<(&[&str], Vec<String>)> = Vec::new();
+    for n in near.iter().filter(|n| n.item == ItemKind::Structure) {
+        let points = inspection_points(n.kind.as_deref());
+        let place = format!(
+            "{} ({}, {:.0} m from the fix{})",
+            n.id,
+            n.kind.as_deref().unwrap_or("structure"),
+            n.distance_m,
+            if n.inside() {
+                ", inside the ellipse"
+            } else {
+                ""
+            }
+        );
+        match groups.iter_mut().find(|(p, _)| std::ptr::eq(*p, points)) {
+            Some((_, places)) => places.push(place),
+            None => groups.push((points, vec![place])),
+        }
+    }
+    let mut inspect: Vec<String> = groups
+        .iter()
+        .map(|(points, places)| format!("{}: {}.", places.join(", "), points.join("; ")))
+        .collect();
+    inspect.push(format!(
+        "Anything metal within {:.0} m of the fix that is not listed: fences, roofing, loose hardware, cable trays, abandoned antennas and brackets.",
+        e.semi_major_m.max(10.0)
+    ));
+    if let Some(top) = at_fix.candidates.first() {
+        let ids: Vec<String> = display_terms(&top.product, t.site.emitters())
+            .iter()
+            .map(|x| t.site.emitters()[x.emitter].id.clone())
+            .collect();
+        inspect.push(format!(
+            "The antennas, feedlines and connectors of {} (the emitters of the first candidate): a junction can sit in their own hardware too.",
+            ids.join(" and ")
+        ));
+    }
+    doc.push(Block::List(inspect));
+
+    // 5. Confirm
+    doc.push(Block::Heading(2, "5. How to confirm".into()));
+    let mut steps = vec![
+        "Attenuator test at the receiver: insert a step attenuator ahead of the receiver, note the carrier's level at 0, 2, 4, 6, 8 and 10 dB, and run `pim slope --kind attenuator`. About 1 dB less per dB inserted means it arrives over the air (a junction outside); n dB per dB means the receiver makes it itself (overload), which the receiver's filtering must cure first.".to_string(),
+    ];
+    if let Some(top) = at_fix.candidates.first() {
+        for term in display_terms(&top.product, t.site.emitters()) {
+            let em = &t.site.emitters()[term.emitter];
+            steps.push(format!(
+                "Power step with the licensee{}: have {} lowered by 3 dB for a few minutes and back; the carrier should fall about {} dB if {} is the cause (|k| = {}). Log level against step and run `pim slope --kind power`.",
+                em.owner.as_deref().map(|o| format!(" ({o})")).unwrap_or_default(),
+                em.id,
+                3 * term.coefficient.abs(),
+                formula(&top.product, t.site.emitters()),
+                term.coefficient.abs()
+            ));
+        }
+    }
+    steps.push("On-air check: compare the times the carrier is heard with the keying of each candidate's emitters (`pim explain --on-air FILE --heard FILE`); an emitter off the air while the carrier is heard rules its candidates out.".into());
+    steps.push("At the suspect joint, with someone watching the receiver: flex or tap each joint with an insulated tool; the carrier jumps or drops when the bad joint moves. Clean, bond or replace it, then check the channel with all emitters on the air.".into());
+    doc.push(Block::Steps(steps));
+
+    // 6. Cautions
+    doc.push(Block::Heading(2, "6. Cautions".into()));
+    let mut owners: Vec<String> = t
+        .site
+        .emitters()
+        .iter()
+        .filter_map(|e| e.owner.clone())
+        .collect();
+    owners.sort();
+    owners.dedup();
+    doc.push(Block::Cautions(vec![
+        "RF exposure: transmitting antennas on and around the site can exceed exposure limits close in. Keep to the site's RF safety plan and the limits of the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States); have antennas powered down before anyone works near them.".into(),
+        "Tower and guy work only by trained, authorised climbers under the site owner's rules, with fall protection. Do not climb a disused or damaged structure until its condition has been checked; do not loosen clamps on a tensioned guy without a rigger.".into(),
+        format!(
+            "Power changes and shutdowns only by arrangement with the licensees{}.",
+            if owners.is_empty() { String::new() } else { format!(": {}", owners.join(", ")) }
+        ),
+        "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
+    ]));
+    (doc, map, spectrum)
+}
+
+fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
+    let fix = &t.fix;
+    let frame = LocalFrame::new(fix.position);
+    let reach = fix
+        .readings
+        .iter()
+        .map(|r| r.distance_m)
+        .fold(0.0, f64::max)
+        * 1.3;
+    let observers = fix
+        .readings
+        .iter()
+        .map(|r| {
+            let (east_m, north_m) = frame.to_local(r.observer);
+            Observer {
+                east_m,
+                north_m,
+                bearing_deg: r.bearing_deg,
+                line_length_m: bearing_length_m(r.distance_m),
+                label: format!("line {}", r.line),
+                outlier: r.outlier,
+            }
+        })
+        .collect();
+    let mut markers: Vec<Marker> = Vec::new();
+    let mut add = |id: &str, p: GeoPoint, kind: MarkerKind| {
+        let (east_m, north_m) = frame.to_local(p);
+        if east_m.hypot(north_m) <= reach.max(100.0) && !markers.iter().any(|m| m.label == id) {
+            markers.push(Marker {
+                east_m,
+                north_m,
+                label: id.to_string(),
+                kind,
+            });
+        }
+    };
+    for s in &t.structures {
+        add(&s.id, s.position, MarkerKind::Structure);
+    }
+    for e in t.site.emitters() {
+        if let Some(p) = e.position {
+            add(&e.id, p, MarkerKind::Emitter);
+        }
+    }
+    for n in near {
+        let kind = if n.item == ItemKind::Emitter {
+            MarkerKind::Emitter
+        } else {
+            MarkerKind::Structure
+        };
+        add(&n.id, n.position, kind);
+    }
+    MapInput {
+        title: format!(
+            "{}: the junction of the {} MHz carrier",
+            t.site_name,
+            t.params.target.mhz_text()
+        ),
+        confidence: fix.ellipse.confidence,
+        fix: Some((0.0, 0.0)),
+        ellipse: Some(crate::map::Ellipse {
+            semi_major_m: fix.ellipse.semi_major_m,
+            semi_minor_m: fix.ellipse.semi_minor_m,
+            orientation_deg: fix.ellipse.orientation_deg,
+        }),
+        observers,
+        markers,
+    }
+}
+
+fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> SpectrumInput {
+    let shown = at_fix.candidates.iter().take(30);
+    let products = shown
+        .clone()
+        .map(|c| ProductMark {
+            freq_mhz: c.product.freq.mhz(),
+            bandwidth_khz: c.product.bandwidth(carriers).khz(),
+            order: c.product.order(),
+            level_dbm: c.level_dbm,
+            rank: c.rank,
+            formula: formula(&c.product, t.site.emitters()),
+        })
+        .collect();
+    let mut ids: Vec<usize> = Vec::new();
+    for c in at_fix.candidates.iter().take(t.top) {
+        for term in c.product.terms() {
+            if !ids.contains(&term.emitter) {
+                ids.push(term.emitter);
+            }
+        }
+    }
+    SpectrumInput {
+        title: format!(
+            "{}: products in the {} MHz channel",
+            t.site_name,
+            t.params.target.mhz_text()
+        ),
+        target_mhz: t.params.target.mhz(),
+        rx_bw_khz: t.params.rx_bandwidth.khz(),
+        products,
+        emitters: ids
+            .iter()
+            .map(|&i| EmitterMark {
+                id: t.site.emitters()[i].id.clone(),
+                freq_mhz: t.site.emitters()[i].freq.mhz(),
+            })
+            .collect(),
+    }
+}
+
+/// Searches, ranks at the receiver and at the fix, and makes the seven files of the
+/// ticket: ticket.md, ticket.html, map.svg, spectrum.svg, fix.geojson, fix.kml and
+/// candidates.csv.
+pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
+    let answer = t.site.explain(&Query {
+        params: t.params,
+        junction: t.rx_site,
+        model: t.model,
+        ..Query::new(t.params.target)
+    });
+    let at_rx = t.rx_site.map(|_| answer.ranking.clone());
+    let at_fix = answer.ranked_at(&t.site, t.fix.position);
+    let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
+    let (doc, map, spectrum) = build(t, &at_fix, at_rx.as_ref(), &near);
+    let title = format!(
+        "PIM ticket: {}, {} MHz",
+        t.site_name,
+        t.params.target.mhz_text()
+    );
+    let mut csv = Vec::new();
+    let listing = Listing {
+        emitters: t.site.emitters(),
+        params: &t.params,
+        ranking: &at_fix,
+        co_channel: &answer.co_channel,
+    };
+    write_csv(&mut csv, &listing, None, None, true)
+        .map_err(|_| Error::refused("could not format candidates.csv"))?;
+    let geojson = serde_json::to_string_pretty(&fix_geojson(&t.fix)).unwrap_or_default();
+    let files: Vec<(&'static str, Vec<u8>)> = vec![
+        ("ticket.md", markdown(&doc).into_bytes()),
+        ("ticket.html", html(&title, &doc).into_bytes()),
+        ("map.svg", map.into_bytes()),
+        ("spectrum.svg", spectrum.into_bytes()),
+        ("fix.geojson", geojson.into_bytes()),
+        ("fix.kml", fix_kml(&t.fix, &title).into_bytes()),
+        ("candidates.csv", csv),
+    ];
+    Ok(TicketFiles {
+        files,
+        top_formula: at_fix
+            .candidates
+            .first()
+            .map(|c| formula(&c.product, t.site.emitters())),
+        total: at_fix.candidates.len(),
+    })
+}
