@@ -4,11 +4,11 @@
 
 use std::io::Write;
 use std::path::PathBuf;
-use std::time::Duration;
+use std::time::{Duration, Instant};
 
 use pim_core::emitter::{Carrier, Emitter};
 use pim_core::freq::{parse_khz, parse_mhz, Hz, MAX_FREQUENCY};
-use pim_core::plan::{closest_products, grid, plan, Method, Plan, PlanSpec};
+use pim_core::plan::{closest_products, grid, plan_until, Method, Plan, PlanSpec};
 use pim_core::rank::formula;
 use pim_io::{read_channels, ListedChannel};
 use serde::Serialize;
@@ -163,8 +163,8 @@ fn order_words(order: u32) -> &'static str {
     }
 }
 
-fn search_text(p: &Plan, time_limit: f64) -> String {
-    let secs = p.elapsed.as_secs_f64();
+fn search_text(p: &Plan, time_limit: f64, elapsed: Duration) -> String {
+    let secs = elapsed.as_secs_f64();
     match p.method {
         Method::BranchAndBound => format!(
             "Proved the largest: the branch and bound examined every larger set ({} conflicts, {} nodes, {secs:.2} s).",
@@ -225,9 +225,12 @@ pub fn run(args: Args) -> CliResult {
     let spec = PlanSpec {
         order: args.order,
         guard: args.guard,
-        time_limit: Duration::from_secs_f64(args.time_limit),
     };
-    let result = plan(&cand_carriers, &prot_carriers, &spec)?;
+    let start = Instant::now();
+    let deadline = start.checked_add(Duration::from_secs_f64(args.time_limit));
+    let out_of_time = || deadline.is_some_and(|d| Instant::now() >= d);
+    let result = plan_until(&cand_carriers, &prot_carriers, &spec, &out_of_time)?;
+    let elapsed = start.elapsed();
     let chosen: Vec<&ListedChannel> = result.chosen.iter().map(|&i| &candidates[i]).collect();
     let chosen_carriers: Vec<Carrier> = chosen.iter().map(|c| c.carrier()).collect();
     let names: Vec<Emitter> = chosen
@@ -266,7 +269,7 @@ pub fn run(args: Args) -> CliResult {
                     "method": result.method,
                     "conflicts": result.conflicts,
                     "nodes": result.nodes,
-                    "elapsed_s": (result.elapsed.as_secs_f64() * 1000.0).round() / 1000.0,
+                    "elapsed_s": (elapsed.as_secs_f64() * 1000.0).round() / 1000.0,
                     "time_limit_s": args.time_limit,
                 }),
                 channels,
@@ -287,7 +290,7 @@ pub fn run(args: Args) -> CliResult {
                     n => format!(" or of any of the {n} protected frequencies"),
                 }
             )?;
-            writeln!(out, "{}\n", search_text(&result, args.time_limit))?;
+            writeln!(out, "{}\n", search_text(&result, args.time_limit, elapsed))?;
             let with_ids = chosen.iter().any(|c| c.id.is_some());
             let mut headers = vec![("#", Align::Right), ("channel MHz", Align::Right)];
             if with_ids {

@@ -174,6 +174,10 @@ impl<'a> Checker<'a> {
     }
 }
 
+/// Random passes stop after this many in a row find no larger set, so that a search
+/// without a time limit ends.
+pub const STALE_PASSES: u32 = 2_000;
+
 /// xorshift64 (Marsaglia 2003).
 struct Shuffler(u64);
 
@@ -226,11 +230,14 @@ pub fn random_passes(
     let mut rng = Shuffler(SEED ^ 0xA5A5_A5A5);
     let mut best: Option<Vec<usize>> = None;
     let mut best_len = beat;
-    while !out_of_time() {
+    let mut since_better = 0;
+    while !out_of_time() && since_better < STALE_PASSES {
         let set = checker.pass(rng.order(checker.len()), out_of_time);
+        since_better += 1;
         if set.len() > best_len {
             best_len = set.len();
             best = Some(set);
+            since_better = 0;
         }
         if best_len == checker.len() {
             break;

@@ -39,8 +39,6 @@ mod conflicts;
 mod exact;
 mod greedy;
 
-use std::time::{Duration, Instant};
-
 use serde::Serialize;
 
 use crate::emitter::Carrier;
@@ -64,8 +62,6 @@ pub struct PlanSpec {
     pub order: u32,
     /// Extra clearance on each side of a chosen channel or protected frequency.
     pub guard: Hz,
-    /// The time the search may take before it returns the best set found.
-    pub time_limit: Duration,
 }
 
 /// How the returned set was found.
@@ -92,12 +88,22 @@ pub struct Plan {
     pub conflicts: usize,
     /// Branch-and-bound nodes visited.
     pub nodes: u64,
-    pub elapsed: Duration,
 }
 
-/// Finds the largest set of `candidates` free of conflicts (module docs), within
-/// `spec.time_limit`.
+/// Finds the largest set of `candidates` free of conflicts (module docs), searching to
+/// the end.
 pub fn plan(candidates: &[Carrier], protected: &[Carrier], spec: &PlanSpec) -> Result<Plan> {
+    plan_until(candidates, protected, spec, &|| false)
+}
+
+/// [`plan`], returning the best set found so far once `out_of_time` says so (the caller
+/// owns the clock: the engine never reads it).
+pub fn plan_until(
+    candidates: &[Carrier],
+    protected: &[Carrier],
+    spec: &PlanSpec,
+    out_of_time: &dyn Fn() -> bool,
+) -> Result<Plan> {
     if !(2..=MAX_ORDER).contains(&spec.order) {
         return Err(Error::argument(
             "order",
@@ -110,9 +116,6 @@ pub fn plan(candidates: &[Carrier], protected: &[Carrier], spec: &PlanSpec) -> R
     if candidates.is_empty() {
         return Err(Error::refused("no candidate channels to choose from"));
     }
-    let start = Instant::now();
-    let deadline = start.checked_add(spec.time_limit);
-    let out_of_time = || deadline.is_some_and(|d| Instant::now() >= d);
 
     // Candidates in frequency order; `by_freq[i]` is the caller's index.
     let mut by_freq: Vec<usize> = (0..candidates.len()).collect();
@@ -164,7 +167,6 @@ pub fn plan(candidates: &[Carrier], protected: &[Carrier], spec: &PlanSpec) -> R
         method,
         conflicts: conflict_count,
         nodes,
-        elapsed: start.elapsed(),
     })
 }
 
@@ -268,7 +270,6 @@ mod tests {
         PlanSpec {
             order,
             guard: Hz::ZERO,
-            time_limit: Duration::from_secs(30),
         }
     }
 
