@@ -8,7 +8,7 @@ use std::time::{Duration, Instant};
 
 use pim_core::emitter::{Carrier, Emitter};
 use pim_core::freq::{parse_khz, parse_mhz, Hz, MAX_FREQUENCY};
-use pim_core::plan::{closest_products, grid, plan_until, Method, Plan, PlanSpec};
+use pim_core::plan::{closest_products, grid, plan_until, Plan, PlanMethod, PlanSpec};
 use pim_core::rank::formula;
 use pim_io::{read_channels, ListedChannel};
 use serde::Serialize;
@@ -166,15 +166,15 @@ fn order_words(order: u32) -> &'static str {
 fn search_text(p: &Plan, time_limit: f64, elapsed: Duration) -> String {
     let secs = elapsed.as_secs_f64();
     match p.method {
-        Method::BranchAndBound => format!(
+        PlanMethod::BranchAndBound => format!(
             "Proved the largest: the branch and bound examined every larger set ({} conflicts, {} nodes, {secs:.2} s).",
             p.conflicts, p.nodes
         ),
-        Method::BranchAndBoundCutShort => format!(
+        PlanMethod::BranchAndBoundCutShort => format!(
             "Best found, not proved the largest: the branch and bound was cut short by the {time_limit} s limit ({} conflicts, {} nodes); a longer --time-limit-s may prove it or find more.",
             p.conflicts, p.nodes
         ),
-        Method::Greedy => format!(
+        PlanMethod::Greedy => format!(
             "Best found, not proved the largest: the candidates' conflicts could not be listed within the limits of the exact search (at most {} candidates, {} conflicts, the time limit), so greedy passes ran for {secs:.1} s.",
             pim_core::plan::EXACT_MAX_CANDIDATES,
             pim_core::plan::MAX_CONFLICTS

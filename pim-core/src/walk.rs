@@ -48,15 +48,14 @@ pub fn ring(center: GeoPoint, radius_m: f64, count: usize) -> Vec<Spot> {
         .collect()
 }
 
+/// The inverse of a positive-definite 2×2 matrix (nalgebra), or `None` when it is not.
 fn inverse(m: [[f64; 2]; 2]) -> Option<[[f64; 2]; 2]> {
-    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
-    if !(det.is_finite() && det > 0.0) {
+    let a = nalgebra::Matrix2::new(m[0][0], m[0][1], m[1][0], m[1][1]);
+    if !(a.determinant().is_finite() && a.determinant() > 0.0) {
         return None;
     }
-    Some([
-        [m[1][1] / det, -m[0][1] / det],
-        [-m[1][0] / det, m[0][0] / det],
-    ])
+    let i = a.try_inverse()?;
+    Some([[i[(0, 0)], i[(0, 1)]], [i[(1, 0)], i[(1, 1)]]])
 }
 
 /// The Fisher information one bearing of σ `sigma_deg` from `from` adds about a junction

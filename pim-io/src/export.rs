@@ -2,6 +2,7 @@
 //! the fix as a point, the confidence ellipse as a polygon, each line of bearing as a line
 //! from its observer along the bearing used, and the observers as points.
 
+use crate::text::xml_escape;
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject, JsonValue};
 
 use pim_core::fix::Fix;
@@ -128,13 +129,6 @@ pub fn fix_geojson(fix: &Fix) -> FeatureCollection {
         ));
     }
     FeatureCollection::new(features)
-}
-
-fn xml_escape(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
 }
 
 fn kml_coords(points: &[GeoPoint]) -> String {

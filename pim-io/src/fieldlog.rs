@@ -7,8 +7,8 @@
 use std::io::Read;
 
 use serde::Serialize;
-use time::format_description::well_known::{Iso8601, Rfc3339};
-use time::{OffsetDateTime, PrimitiveDateTime};
+use time::format_description::well_known::Rfc3339;
+use time::OffsetDateTime;
 
 use crate::emitters::position_fields;
 use crate::table::{no_rows, parse_finite, Fields, Table};
@@ -62,21 +62,10 @@ pub struct FieldLog {
     pub ignored_columns: Vec<String>,
 }
 
-/// Parses an ISO 8601 time; one without an offset is taken as UTC.
+/// Parses an ISO 8601 time (the grammar of [`crate::text::parse_time`]); one without an
+/// offset is taken as UTC.
 pub fn parse_time(text: &str) -> std::result::Result<OffsetDateTime, String> {
-    let t = text.trim();
-    if let Ok(v) = OffsetDateTime::parse(t, &Rfc3339) {
-        return Ok(v);
-    }
-    if let Ok(v) = OffsetDateTime::parse(t, &Iso8601::DEFAULT) {
-        return Ok(v);
-    }
-    if let Ok(v) = PrimitiveDateTime::parse(t, &Iso8601::DEFAULT) {
-        return Ok(v.assume_utc());
-    }
-    Err(format!(
-        "`{t}` is not an ISO 8601 time such as 2026-11-30T14:05:00Z"
-    ))
+    crate::text::parse_time(text).map(|(t, _)| t)
 }
 
 /// Validates one row of a field log (shared with `pim log`, which checks a reading the
@@ -216,14 +205,6 @@ impl Fields for LogEntry {
     }
 }
 
-fn csv_quote(text: &str) -> String {
-    if text.contains([',', '"']) || text.starts_with('#') {
-        format!("\"{}\"", text.replace('"', "\"\""))
-    } else {
-        text.to_string()
-    }
-}
-
 impl LogEntry {
     /// The entry as a CSV row in the column order of `header` (an existing log's first
     /// line); columns it does not know stay empty. Refuses a header that lacks the
@@ -233,12 +214,13 @@ impl LogEntry {
         table.require("bearing_deg")?;
         table.require("lat")?;
         table.require("lon")?;
-        let cells: Vec<String> = table
+        let cells: Vec<&str> = table
             .headers()
             .iter()
-            .map(|h| self.field(h).map(csv_quote).unwrap_or_default())
+            .map(|h| self.field(h).unwrap_or_default())
             .collect();
-        Ok(cells.join(","))
+        let row = crate::text::csv_record(&cells, b',', false);
+        Ok(row.trim_end_matches('\n').to_string())
     }
 }
 
@@ -403,7 +385,7 @@ mod tests {
             ),
             (
                 "lat,lon,bearing_deg,time\n45,-122,10,yesterday\n",
-                "walk.csv, line 2, field `time`: `yesterday` is not an ISO 8601 time",
+                "walk.csv, line 2, field `time`: `yesterday` is not an ISO 8601 date and time",
             ),
         ] {
             let e = read(text).unwrap_err().to_string();

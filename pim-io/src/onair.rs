@@ -11,8 +11,9 @@
 use std::collections::HashMap;
 use std::io::Read;
 
-use time::format_description::well_known::Iso8601;
-use time::{OffsetDateTime, PrimitiveDateTime};
+use time::OffsetDateTime;
+
+use crate::text::parse_time;
 
 use crate::table::{no_rows, Row, Table};
 use pim_core::emitter::Emitter;
@@ -55,32 +56,6 @@ impl Clock {
                 ))
             }
         }
-    }
-}
-
-/// Parses an ISO 8601 date and time; `true` with it when it carries a UTC offset. A time
-/// without one is returned as if at UTC, to be compared only with others without one.
-pub fn parse_time(text: &str) -> std::result::Result<(OffsetDateTime, bool), String> {
-    let t = text.trim();
-    // A single space between date and time, as spreadsheets write it, stands for `T`.
-    let normalised = match t.split_once(' ') {
-        Some((date, time)) if !time.contains(' ') && date.len() >= 8 => format!("{date}T{time}"),
-        _ => t.to_string(),
-    };
-    if let Ok(at) = OffsetDateTime::parse(&normalised, &Iso8601::DEFAULT) {
-        return Ok((at, true));
-    }
-    match PrimitiveDateTime::parse(&normalised, &Iso8601::DEFAULT) {
-        Ok(at) => Ok((at.assume_utc(), false)),
-        Err(time::error::Parse::TryFromParsed(time::error::TryFromParsed::ComponentRange(
-            range,
-        ))) => Err(format!(
-            "`{t}` is not a valid date and time: the {} is out of range",
-            range.name()
-        )),
-        Err(_) => Err(format!(
-            "`{t}` is not an ISO 8601 date and time such as 2025-06-14T09:30:00Z"
-        )),
     }
 }
 

@@ -22,7 +22,7 @@ pub const LEVEL_RANGE_DBM: (f64, f64) = (-200.0, 100.0);
 
 /// One reading.
 #[derive(Clone, Debug, PartialEq)]
-pub struct Reading {
+pub struct LevelStep {
     pub step_db: f64,
     pub level_dbm: f64,
     pub note: Option<String>,
@@ -33,7 +33,7 @@ pub struct Reading {
 /// Readings read from a file.
 #[derive(Clone, Debug, Default)]
 pub struct ReadingsFile {
-    pub readings: Vec<Reading>,
+    pub readings: Vec<LevelStep>,
     /// Columns present in the file that the tool does not use.
     pub ignored_columns: Vec<String>,
 }
@@ -89,7 +89,7 @@ pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result
                 format!("level {level_text} dBm is outside {lowest}…+{highest} dBm"),
             ));
         }
-        file.readings.push(Reading {
+        file.readings.push(LevelStep {
             step_db,
             level_dbm,
             note: row.text(note_col).map(str::to_string),

@@ -10,6 +10,7 @@ use pim_core::onair::{Evidence, Logbook};
 use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
 use serde::Serialize;
 
+use crate::csv_out::write_row;
 use crate::text_table::{Align, TextTable};
 type CliResult = std::io::Result<()>;
 
@@ -145,14 +146,6 @@ fn evidence_cells(e: &Evidence) -> [String; 4] {
 /// What the evidence columns of the table mean.
 pub const EVIDENCE_LEGEND: &str = "On-air evidence: support = times heard with all the product's emitters on air; contradictions = times\nnot heard although all were on air; heard off = times heard while one of them was off air (the product\ncannot have made those); unknown = times with an emitter of unknown state.\n";
 
-fn csv_field(text: &str) -> String {
-    if text.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", text.replace('"', "\"\""))
-    } else {
-        text.to_string()
-    }
-}
-
 /// Writes candidates as CSV rows (with the header when `header`); `prefix` fields are
 /// put in front of each row (the receiver of a study).
 pub fn write_csv(
@@ -172,6 +165,7 @@ pub fn write_csv(
             Some((name, _)) => writeln!(out, "{name},{CSV_HEADER}{evidence}")?,
             None => writeln!(out, "{CSV_HEADER}{evidence}")?,
         }
+        // The header's names are ours and need no quoting.
     }
     let carriers = carriers(l.emitters);
     for c in l
@@ -215,10 +209,9 @@ pub fn write_csv(
             fields.extend(c.evidence.as_ref().map(evidence_cells).unwrap_or_default());
         }
         if let Some((_, value)) = prefix {
-            write!(out, "{},", csv_field(value))?;
+            fields.insert(0, value.to_string());
         }
-        let row: Vec<String> = fields.iter().map(|f| csv_field(f)).collect();
-        writeln!(out, "{}", row.join(","))?;
+        write_row(out, &fields)?;
     }
     Ok(())
 }

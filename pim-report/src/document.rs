@@ -98,13 +98,8 @@ pub fn markdown(blocks: &[Block]) -> String {
     out
 }
 
-/// Text made safe for HTML.
-pub fn escape(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
+/// Text made safe for HTML (the XML escape of [`pim_io::text::xml_escape`]).
+pub use pim_io::text::xml_escape as escape;
 
 const STYLE: &str = r#"
   :root { --ink:#1d2430; --muted:#5b6573; --rule:#d5dae1; --band:#f3f5f8; --accent:#8a3b12; --warn:#fff4e5; }

@@ -7,6 +7,7 @@
 //! given; choosing files and writing them atomically is the binary's job.
 
 pub mod candidates;
+pub mod csv_out;
 pub mod document;
 pub mod fix;
 pub mod map;

@@ -416,16 +416,7 @@ pub fn px(p: (f64, f64)) -> (i32, i32) {
 /// A plain SVG saying a picture could not be drawn (writing into memory does not fail
 /// in practice; this keeps a ticket whole if it ever does).
 pub fn fallback_svg(width: u32, height: u32, message: &str) -> String {
-    let escaped: String = message
-        .chars()
-        .map(|c| match c {
-            '<' => "&lt;".to_string(),
-            '>' => "&gt;".to_string(),
-            '&' => "&amp;".to_string(),
-            '"' => "&quot;".to_string(),
-            c => c.to_string(),
-        })
-        .collect();
+    let escaped = pim_io::text::xml_escape(message);
     format!(
         "<svg width=\"{width}\" height=\"{height}\" viewBox=\"0 0 {width} {height}\" xmlns=\"http://www.w3.org/2000/svg\">\n<rect x=\"0\" y=\"0\" width=\"{width}\" height=\"{height}\" fill=\"#FFFFFF\"/>\n<text x=\"16\" y=\"32\" font-family=\"{FONT}\" font-size=\"{SUBTITLE_PX}\" fill=\"#232930\">{escaped}</text>\n</svg>\n"
     )

@@ -67,7 +67,7 @@ pub struct PlanSpec {
 /// How the returned set was found.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
-pub enum Method {
+pub enum PlanMethod {
     /// The branch and bound ran to its end: the set is proved the largest.
     BranchAndBound,
     /// The branch and bound was cut short by the time limit.
@@ -83,7 +83,7 @@ pub struct Plan {
     pub chosen: Vec<usize>,
     /// Whether the set is proved the largest possible.
     pub optimal: bool,
-    pub method: Method,
+    pub method: PlanMethod,
     /// Conflicts listed for the exact search (0 when it was not tried).
     pub conflicts: usize,
     /// Branch-and-bound nodes visited.
@@ -127,7 +127,7 @@ pub fn plan_until(
     let checker = greedy::Checker::new(&sorted, &prot, spec.order, spec.guard);
     let mut best = greedy::seed_passes(&checker, &out_of_time);
 
-    let mut method = Method::Greedy;
+    let mut method = PlanMethod::Greedy;
     let mut optimal = false;
     let mut conflict_count = 0;
     let mut nodes = 0;
@@ -148,9 +148,9 @@ pub fn plan_until(
             }
             optimal = outcome.complete;
             method = if outcome.complete {
-                Method::BranchAndBound
+                PlanMethod::BranchAndBound
             } else {
-                Method::BranchAndBoundCutShort
+                PlanMethod::BranchAndBoundCutShort
             };
         }
     }

@@ -13,7 +13,7 @@ use std::time::Duration;
 
 use pim_core::emitter::Carrier;
 use pim_core::freq::Hz;
-use pim_core::plan::{grid, is_conflict_free, plan, plan_until, Method, PlanSpec};
+use pim_core::plan::{grid, is_conflict_free, plan, plan_until, PlanMethod, PlanSpec};
 use proptest::prelude::*;
 
 /// (marks, shortest length), OEIS A003022.
@@ -54,7 +54,7 @@ fn grids_reproduce_the_shortest_golomb_rulers_for_4_to_8_marks() {
             let g = grid(Hz(start), Hz(step), length as usize + 1);
             let p = plan(&g, &[], &third_order()).unwrap();
             assert!(p.optimal, "{m} marks: not proved");
-            assert_eq!(p.method, Method::BranchAndBound);
+            assert_eq!(p.method, PlanMethod::BranchAndBound);
             assert_eq!(p.chosen.len(), m, "grid of {} channels", length + 1);
             let ruler = marks(&g, &p.chosen, step);
             assert!(is_golomb(&ruler), "{ruler:?}");
@@ -101,7 +101,7 @@ fn time_limit_gives_the_best_found() {
     let start = std::time::Instant::now();
     let out_of_time = || start.elapsed() >= Duration::from_millis(300);
     let p = plan_until(&wide, &[], &spec, &out_of_time).unwrap();
-    assert_eq!((p.method, p.optimal), (Method::Greedy, false));
+    assert_eq!((p.method, p.optimal), (PlanMethod::Greedy, false));
     let set: Vec<Carrier> = p.chosen.iter().map(|&i| wide[i]).collect();
     assert!(is_conflict_free(&set, &[], 3, Hz::ZERO));
 }
