@@ -21,6 +21,7 @@ mod render;
 mod slope;
 mod study;
 mod ticket;
+mod walk;
 
 use common::CliError;
 
@@ -51,6 +52,8 @@ enum Command {
     Slope(slope::Args),
     /// Write the maintenance ticket: ranked suspects, the fix on a map, what to inspect.
     Ticket(ticket::Args),
+    /// Serve the bearing walk page to a phone: log readings, see the running fix.
+    Walk(walk::Args),
     /// Run the job on the built-in invented demo site.
     Demo(demo::Args),
 }
@@ -89,6 +92,7 @@ fn main() -> ExitCode {
         Command::Slope(args) => slope::run(args),
         Command::Ticket(args) => ticket::run(args),
         Command::Demo(args) => demo::run(args),
+        Command::Walk(args) => walk::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

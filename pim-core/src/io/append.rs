@@ -244,7 +244,10 @@ mod tests {
         remove_last_row(&path).unwrap();
         let err = remove_last_row(&path).unwrap_err();
         assert_eq!(err.class, crate::ErrorClass::Refused);
-        assert_eq!(std::fs::read_to_string(&path).unwrap(), format!("{HEADER}\n"));
+        assert_eq!(
+            std::fs::read_to_string(&path).unwrap(),
+            format!("{HEADER}\n")
+        );
         // Nothing but the log is left in the directory.
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
     }
