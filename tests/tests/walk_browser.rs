@@ -184,9 +184,7 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         on_path(&["chromium", "chromium-browser", "google-chrome"]),
         on_path(&["chromedriver"]),
     ) else {
-        eprintln!(
-            "skipped: Chromium and chromedriver are not installed (run .ci/install-browser)"
-        );
+        eprintln!("skipped: Chromium and chromedriver are not installed (run .ci/install-browser)");
         return;
     };
     let dir = tempfile::tempdir().unwrap();
@@ -366,9 +364,17 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
             .args(["--time", &c[0]])
             .output()
             .unwrap();
-        assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
     }
-    assert_eq!(read_rows(&copy), rows, "the page writes what pim log writes");
+    assert_eq!(
+        read_rows(&copy),
+        rows,
+        "the page writes what pim log writes"
+    );
     let fix_of = |path: &Path| -> Value {
         let out = Command::new(pim_bin())
             .args(["fix", "--format", "json", "--log"])
@@ -464,7 +470,10 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         if let Some(s) = walk.0.try_wait().unwrap() {
             break s;
         }
-        assert!(start.elapsed() < Duration::from_secs(10), "pim walk did not stop");
+        assert!(
+            start.elapsed() < Duration::from_secs(10),
+            "pim walk did not stop"
+        );
         std::thread::sleep(Duration::from_millis(50));
     };
     assert!(code.success(), "{code:?}");
