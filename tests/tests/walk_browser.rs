@@ -333,13 +333,25 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     assert!(browser.script("return document.querySelectorAll('#map svg').length === 1 && document.querySelectorAll('#residuals tbody tr').length === 6;") == Value::Bool(true));
 
     // The documentation pictures: the form after a save, and the fix with its map.
-    let docs = workspace_root().join("docs");
+    // Written into docs/ only when PIM_UPDATE_DOCS is set, so a test run leaves the
+    // source tree alone.
+    let docs = match std::env::var_os("PIM_UPDATE_DOCS") {
+        Some(_) => workspace_root().join("docs"),
+        None => dir.path().to_path_buf(),
+    };
     std::fs::create_dir_all(&docs).unwrap();
     browser.click("#more summary");
     browser.script("window.scrollTo(0, 0); document.activeElement.blur();");
     browser.screenshot(&docs.join("walk-page.png"));
     browser.script("document.getElementById('fix').scrollIntoView(true);");
     browser.screenshot(&docs.join("walk-page-fix.png"));
+    for name in ["walk-page.png", "walk-page-fix.png"] {
+        let png = std::fs::read(docs.join(name)).unwrap();
+        assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+        // IHDR: 390 × 844 CSS pixels at a device pixel ratio of 2.
+        let size = |at: usize| u32::from_be_bytes([png[at], png[at + 1], png[at + 2], png[at + 3]]);
+        assert_eq!((size(16), size(20)), (780, 1688), "{name}");
+    }
 
     // A bad value is refused beside its field and writes nothing.
     let before = std::fs::read(&log).unwrap();
