@@ -2,10 +2,10 @@
 //! fix.
 
 use std::io::Write;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use pim_core::error::{Error, ErrorClass};
-use pim_io::append::{append_row, read_locked};
+use pim_io::append::{append_row, read_locked, Appended};
 use pim_io::fieldlog::{log_row, LogEntry, LOG_HEADER};
 use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
@@ -65,6 +65,79 @@ fn as_argument(e: Error) -> Error {
     }
 }
 
+/// One reading as typed: the text of each column, checked only by [`save_reading`].
+#[derive(Clone, Debug)]
+pub(crate) struct ReadingText {
+    pub lat: Option<String>,
+    pub lon: Option<String>,
+    pub bearing_deg: String,
+    pub north: NorthArg,
+    pub sigma_deg: Option<String>,
+    pub level_dbm: Option<String>,
+    pub note: Option<String>,
+    /// ISO 8601; now (UTC, whole seconds) when `None`.
+    pub time: Option<String>,
+}
+
+/// Checks a reading exactly as the log reader will and appends it to the log under the
+/// log's lock. A bad value's error is placed at `origin(column)` (an option name for
+/// `pim log`, an input's name for the walk page).
+pub(crate) fn save_reading(
+    file: &Path,
+    reading: &ReadingText,
+    origin: &dyn Fn(&'static str) -> String,
+) -> CliResult<Appended> {
+    let now = time::OffsetDateTime::now_utc()
+        .replace_nanosecond(0)
+        .unwrap_or_else(|_| time::OffsetDateTime::now_utc());
+    let time = reading
+        .time
+        .clone()
+        .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
+    if let Some(note) = &reading.note {
+        if note.contains(['\n', '\r']) {
+            return Err(Error::argument(&origin("note"), "a note must fit on one line").into());
+        }
+    }
+    let text = |v: &Option<String>| v.clone().unwrap_or_default();
+    const COLUMNS: [&str; 8] = [
+        "time",
+        "lat",
+        "lon",
+        "bearing_deg",
+        "north",
+        "sigma_deg",
+        "level_dbm",
+        "note",
+    ];
+    let entry = LogEntry {
+        fields: vec![
+            ("time", time),
+            ("lat", text(&reading.lat)),
+            ("lon", text(&reading.lon)),
+            ("bearing_deg", reading.bearing_deg.clone()),
+            (
+                "north",
+                match reading.north {
+                    NorthArg::True => "true",
+                    NorthArg::Magnetic => "magnetic",
+                }
+                .to_string(),
+            ),
+            ("sigma_deg", text(&reading.sigma_deg)),
+            ("level_dbm", text(&reading.level_dbm)),
+            ("note", text(&reading.note)),
+        ],
+        origin: COLUMNS.iter().map(|&c| (c, origin(c))).collect(),
+    };
+    // The reading is checked exactly as the log reader will check it, before any write.
+    log_row(&entry, 0).map_err(as_argument)?;
+    let source = file.display().to_string();
+    Ok(append_row(file, LOG_HEADER, &|header| {
+        entry.row_for_header(header, &source)
+    })?)
+}
+
 pub fn run(args: Args) -> CliResult {
     let (lat, lon, time) = match &args.gps_from {
         Some(gpx) => {
@@ -91,51 +164,20 @@ pub fn run(args: Args) -> CliResult {
         )
         .into());
     }
-    let now = time::OffsetDateTime::now_utc()
-        .replace_nanosecond(0)
-        .unwrap_or_else(|_| time::OffsetDateTime::now_utc());
-    let time = time.unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
-    if let Some(note) = &args.note {
-        if note.contains(['\n', '\r']) {
-            return Err(Error::argument("--note", "a note must fit on one line").into());
-        }
-    }
-    let text = |v: &Option<String>| v.clone().unwrap_or_default();
-    let entry = LogEntry {
-        fields: vec![
-            ("time", time),
-            ("lat", text(&lat)),
-            ("lon", text(&lon)),
-            ("bearing_deg", args.bearing_deg.clone()),
-            (
-                "north",
-                match args.north {
-                    NorthArg::True => "true",
-                    NorthArg::Magnetic => "magnetic",
-                }
-                .to_string(),
-            ),
-            ("sigma_deg", text(&args.sigma_deg)),
-            ("level_dbm", text(&args.level_dbm)),
-            ("note", text(&args.note)),
-        ],
-        origin: vec![
-            ("time", "--time".into()),
-            ("lat", "--lat".into()),
-            ("lon", "--lon".into()),
-            ("bearing_deg", "--bearing-deg".into()),
-            ("north", "--north".into()),
-            ("sigma_deg", "--sigma-deg".into()),
-            ("level_dbm", "--level-dbm".into()),
-            ("note", "--note".into()),
-        ],
+    let reading = ReadingText {
+        lat,
+        lon,
+        bearing_deg: args.bearing_deg.clone(),
+        north: args.north,
+        sigma_deg: args.sigma_deg.clone(),
+        level_dbm: args.level_dbm.clone(),
+        note: args.note.clone(),
+        time,
     };
-    // The reading is checked exactly as the log reader will check it, before any write.
-    log_row(&entry, 0).map_err(as_argument)?;
-    let source = args.file.display().to_string();
-    let appended = append_row(&args.file, LOG_HEADER, &|header| {
-        entry.row_for_header(header, &source)
+    let appended = save_reading(&args.file, &reading, &|column| {
+        format!("--{}", column.replace('_', "-"))
     })?;
+    let source = args.file.display().to_string();
     let mut out = stdout();
     writeln!(
         out,

@@ -22,6 +22,7 @@ mod plan;
 mod slope;
 mod study;
 mod ticket;
+mod walk;
 
 use common::CliError;
 
@@ -52,6 +53,8 @@ enum Command {
     Slope(slope::Args),
     /// Write the maintenance ticket: ranked suspects, the fix on a map, what to inspect.
     Ticket(ticket::Args),
+    /// Serve the bearing walk page to a phone: log readings, see the running fix.
+    Walk(walk::Args),
     /// Run the job on the built-in invented demo site.
     Demo(demo::Args),
 }
@@ -90,6 +93,7 @@ fn main() -> ExitCode {
         Command::Slope(args) => slope::run(args),
         Command::Ticket(args) => ticket::run(args),
         Command::Demo(args) => demo::run(args),
+        Command::Walk(args) => walk::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -7,6 +7,11 @@
 //! killed at any moment leaves either its whole row or none (one `write` of a short
 //! buffer to a regular file is not split by a signal). Readers that share the file take a
 //! shared lock while they read.
+//!
+//! Taking back the last row ([`remove_last_row`]) happens under the same lock and replaces
+//! the file in one atomic rename of a synced copy in the same directory, so a crash leaves
+//! either the old log or the new one. A writer that was waiting for the lock on the
+//! replaced file notices that the path now names another file and starts again on it.
 
 use std::fs::{File, OpenOptions};
 use std::io::{Read, Seek, SeekFrom, Write};
@@ -57,13 +62,7 @@ pub fn append_row(
     row_for_header: &dyn Fn(&str) -> Result<String>,
 ) -> Result<Appended> {
     let existed = path.exists();
-    let mut file = OpenOptions::new()
-        .read(true)
-        .append(true)
-        .create(true)
-        .open(path)
-        .map_err(|e| io_err(path, &e))?;
-    file.lock().map_err(|e| io_err(path, &e))?;
+    let mut file = open_locked(path, true)?;
     let (head, ends_with_newline, lines) = inspect(&mut file, path)?;
     let source = path.display().to_string();
     let (text, created, line) = match head {
@@ -108,6 +107,98 @@ pub fn append_row(
     Ok(Appended { created, line })
 }
 
+/// Opens `path` (for appending, creating it, when `append`; else for reading and
+/// writing) and takes the exclusive lock, making sure the lock is held on the file the
+/// path names now: a row taken back meanwhile replaced the file by a new one.
+fn open_locked(path: &Path, append: bool) -> Result<File> {
+    loop {
+        let file = OpenOptions::new()
+            .read(true)
+            .write(!append)
+            .append(append)
+            .create(append)
+            .open(path)
+            .map_err(|e| io_err(path, &e))?;
+        file.lock().map_err(|e| io_err(path, &e))?;
+        if same_file(&file, path)? {
+            return Ok(file);
+        }
+    }
+}
+
+#[cfg(unix)]
+fn same_file(file: &File, path: &Path) -> Result<bool> {
+    use std::os::unix::fs::MetadataExt;
+    let held = file.metadata().map_err(|e| io_err(path, &e))?;
+    match std::fs::metadata(path) {
+        Ok(now) => Ok(held.dev() == now.dev() && held.ino() == now.ino()),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(false),
+        Err(e) => Err(io_err(path, &e)),
+    }
+}
+
+#[cfg(not(unix))]
+fn same_file(_file: &File, _path: &Path) -> Result<bool> {
+    // Elsewhere a file open in another process cannot be renamed over.
+    Ok(true)
+}
+
+/// The row a [`remove_last_row`] took out.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Removed {
+    /// Its line number (header = line 1).
+    pub line: u64,
+    /// The row as it stood, without its line end.
+    pub row: String,
+}
+
+/// Takes the last row out of the log at `path` under the exclusive lock and returns it.
+/// The rest of the file is written to a new file in the same directory, synced, and
+/// renamed over the log, so the log is whole at every moment. Refuses a log whose last
+/// row has no line end (it may be torn) and one with no row under its header.
+pub fn remove_last_row(path: &Path) -> Result<Removed> {
+    let mut file = open_locked(path, false)?;
+    let source = path.display().to_string();
+    let mut text = Vec::new();
+    file.read_to_end(&mut text).map_err(|e| io_err(path, &e))?;
+    let lines = text.iter().filter(|&&b| b == b'\n').count() as u64;
+    if text.last().is_some_and(|&b| b != b'\n') {
+        return Err(Error::input(
+            Place::new(source).at_line(lines + 1),
+            "the last row has no line end: it may be torn by an interrupted write; mend it before taking a reading back",
+        ));
+    }
+    // The row is the last line; the header is line 1 and is never taken.
+    let body = &text[..text.len().saturating_sub(1)];
+    let start = match body.iter().rposition(|&b| b == b'\n') {
+        Some(i) if lines >= 2 => i + 1,
+        _ => {
+            return Err(Error::refused(format!(
+                "{source} has no reading to take back"
+            )))
+        }
+    };
+    let row = String::from_utf8_lossy(&body[start..])
+        .trim_end_matches('\r')
+        .to_string();
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d,
+        _ => Path::new("."),
+    };
+    let mut temp = tempfile::NamedTempFile::new_in(dir).map_err(|e| io_err(path, &e))?;
+    let permissions = file.metadata().map_err(|e| io_err(path, &e))?.permissions();
+    temp.write_all(&text[..start])
+        .and_then(|_| temp.as_file().set_permissions(permissions))
+        .and_then(|_| temp.as_file().sync_all())
+        .map_err(|e| io_err(path, &e))?;
+    temp.persist(path).map_err(|e| io_err(path, &e.error))?;
+    if let Ok(d) = File::open(dir) {
+        let _ = d.sync_all();
+    }
+    let _ = file.unlock();
+    Ok(Removed { line: lines, row })
+}
+
 /// Reads a whole file under a shared lock, so that no half-written row is seen.
 pub fn read_locked(path: &Path) -> Result<Vec<u8>> {
     let mut file = File::open(path).map_err(|e| io_err(path, &e))?;
@@ -116,4 +207,90 @@ pub fn read_locked(path: &Path) -> Result<Vec<u8>> {
     file.read_to_end(&mut bytes).map_err(|e| io_err(path, &e))?;
     let _ = file.unlock();
     Ok(bytes)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const HEADER: &str = "time,lat,lon,bearing_deg";
+
+    fn append(path: &Path, row: &str) -> Appended {
+        let row = row.to_string();
+        append_row(path, HEADER, &move |_| Ok(row.clone())).unwrap()
+    }
+
+    #[test]
+    fn the_last_row_is_taken_back_whole() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("walk.csv");
+        append(&path, "2026-11-30T10:00:00Z,51.5,-2.6,10");
+        append(&path, "2026-11-30T10:05:00Z,51.6,-2.6,20");
+        let removed = remove_last_row(&path).unwrap();
+        assert_eq!(
+            removed,
+            Removed {
+                line: 3,
+                row: "2026-11-30T10:05:00Z,51.6,-2.6,20".into()
+            }
+        );
+        assert_eq!(
+            std::fs::read_to_string(&path).unwrap(),
+            format!("{HEADER}\n2026-11-30T10:00:00Z,51.5,-2.6,10\n")
+        );
+        // The next append goes on the replaced file, to the line the undone row had.
+        assert_eq!(append(&path, "2026-11-30T10:09:00Z,51.7,-2.6,30").line, 3);
+        remove_last_row(&path).unwrap();
+        remove_last_row(&path).unwrap();
+        let err = remove_last_row(&path).unwrap_err();
+        assert_eq!(err.class, pim_core::ErrorClass::Refused);
+        assert_eq!(
+            std::fs::read_to_string(&path).unwrap(),
+            format!("{HEADER}\n")
+        );
+        // Nothing but the log is left in the directory.
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
+    }
+
+    #[test]
+    fn a_torn_last_row_is_not_taken_back() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("walk.csv");
+        std::fs::write(&path, format!("{HEADER}\n1,2,3,4\n5,6")).unwrap();
+        let err = remove_last_row(&path).unwrap_err();
+        assert_eq!(err.place.unwrap().line, Some(3));
+        assert_eq!(
+            std::fs::read_to_string(&path).unwrap(),
+            format!("{HEADER}\n1,2,3,4\n5,6")
+        );
+    }
+
+    /// Appends and undos from many threads at once: every append that reported a line
+    /// is either in the file or was taken back; nothing is torn or lost to a replaced file.
+    #[test]
+    fn appends_and_undos_at_once_lose_nothing() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("walk.csv");
+        append(&path, "first,0,0,0");
+        let removed = std::sync::Mutex::new(Vec::new());
+        std::thread::scope(|s| {
+            for t in 0..4 {
+                let path = &path;
+                let removed = &removed;
+                s.spawn(move || {
+                    for i in 0..20 {
+                        append(path, &format!("t{t}r{i},0,0,0"));
+                        if i % 5 == 4 {
+                            if let Ok(r) = remove_last_row(path) {
+                                removed.lock().unwrap().push(r.row);
+                            }
+                        }
+                    }
+                });
+            }
+        });
+        let text = std::fs::read_to_string(&path).unwrap();
+        let kept = text.lines().skip(1).count();
+        assert_eq!(kept + removed.lock().unwrap().len(), 81);
+    }
 }

@@ -379,7 +379,28 @@ fn build(
 }
 
 fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
-    let fix = &t.fix;
+    fix_map_input(
+        &t.fix,
+        &t.structures,
+        t.site.emitters(),
+        near,
+        format!(
+            "{}: the junction of the {} MHz carrier",
+            t.site_name,
+            t.params.target.mhz_text()
+        ),
+    )
+}
+
+/// The ticket's map of a fix: spots, lines of bearing, the ellipse, and the structures
+/// and emitters within reach of the walk (shared with the walk page).
+pub fn fix_map_input(
+    fix: &Fix,
+    structures: &[Structure],
+    emitters: &[Emitter],
+    near: &[NearbyItem],
+    title: String,
+) -> MapInput {
     let frame = LocalFrame::new(fix.position);
     let reach = fix
         .readings
@@ -414,10 +435,10 @@ fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
             });
         }
     };
-    for s in &t.structures {
+    for s in structures {
         add(&s.id, s.position, MarkerKind::Structure);
     }
-    for e in t.site.emitters() {
+    for e in emitters {
         if let Some(p) = e.position {
             add(&e.id, p, MarkerKind::Emitter);
         }
@@ -431,11 +452,7 @@ fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
         add(&n.id, n.position, kind);
     }
     MapInput {
-        title: format!(
-            "{}: the junction of the {} MHz carrier",
-            t.site_name,
-            t.params.target.mhz_text()
-        ),
+        title,
         confidence: fix.ellipse.confidence,
         fix: Some((0.0, 0.0)),
         ellipse: Some(crate::map::Ellipse {

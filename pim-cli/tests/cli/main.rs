@@ -11,6 +11,7 @@ mod invariants;
 mod plan;
 mod slope;
 mod ticket;
+mod walk_page;
 
 /// Running the binary under test, and the shared helpers of the `pim-tests` crate.
 mod support {

@@ -1,0 +1,552 @@
+//! `pim walk --log FILE`: the bearing walk on a phone. A small HTTP server (tiny_http,
+//! synchronous) serves one self-contained page and saves each reading through the same
+//! check and locked append as `pim log`, so the log stays the one `pim fix` and
+//! `pim ticket` read and several phones may log to one walk at once.
+//!
+//! Every request needs the random token printed with the page's address (compared in
+//! constant time); every request's Host must name this server by address, and a write's
+//! Origin, when sent, must be the page's own. Bodies are capped. Nothing but the log is
+//! written and nothing but the page is served. Ctrl-C lets the request in hand finish,
+//! so the log is always whole.
+
+use std::io::{Read, Write};
+use std::net::SocketAddr;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
+use std::time::Duration;
+
+use pim_core::emitter::Emitter;
+use pim_core::error::{Error, ErrorClass};
+use pim_core::geo::{distance_and_azimuth, GeoPoint};
+use pim_core::ticket::{nearby, Structure};
+use pim_core::walk::{rank_spots, ring, Spot};
+use pim_io::append::{read_locked, remove_last_row};
+use pim_io::emitters::read_structures;
+use pim_io::fieldlog::read_spots;
+use serde_json::{json, Value};
+use subtle::ConstantTimeEq;
+use tiny_http::{Header, Method, Request, Response, Server};
+
+use crate::common::{open, CliError, CliResult};
+use crate::fix::{fix_from_log, fix_json, FixArgs};
+use crate::log::{save_reading, NorthArg, ReadingText};
+use pim_report::map::map_svg;
+use pim_report::ticket::fix_map_input;
+
+/// The page: one HTML document with its style, script and pictures inline.
+const PAGE: &str = include_str!("walk_page.html");
+/// The largest request body accepted (a reading is a few hundred bytes).
+const MAX_BODY_BYTES: usize = 8 * 1024;
+/// Threads answering requests (phones of one walk team and a laptop).
+const WORKERS: usize = 4;
+/// Spots on the ring the next spot is chosen from when no candidates are given.
+const RING_SPOTS: usize = 16;
+/// A next spot closer to the fix than this gives unreliable bearings (as `pim next`).
+const MIN_RANGE_M: f64 = 25.0;
+/// The ring is never drawn tighter than this around the fix.
+const MIN_RING_M: f64 = 50.0;
+
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// The field log to add readings to (created with its header when missing).
+    #[arg(long, value_name = "FILE")]
+    pub log: PathBuf,
+    /// Address and port to listen on; 0.0.0.0:PORT serves phones on the same network.
+    #[arg(long, value_name = "ADDR:PORT", default_value = "127.0.0.1:0")]
+    pub listen: SocketAddr,
+    /// Site structures (CSV) to show on the map.
+    #[arg(long, value_name = "FILE")]
+    pub structures: Option<PathBuf>,
+    /// Emitters (CSV) to show on the map.
+    #[arg(long, value_name = "FILE")]
+    pub emitters: Option<PathBuf>,
+    /// Spots one can reach (CSV with lat, lon, name) to suggest the next one from; by
+    /// default a ring around the fix at the walk's typical range.
+    #[arg(long, value_name = "FILE")]
+    pub candidates: Option<PathBuf>,
+}
+
+/// What every request handler reads.
+struct Walk {
+    log: PathBuf,
+    token: String,
+    port: u16,
+    structures: Vec<Structure>,
+    emitters: Vec<Emitter>,
+    candidates: Option<Vec<Spot>>,
+}
+
+pub fn run(args: Args) -> CliResult {
+    let structures = match &args.structures {
+        Some(p) => read_structures(&p.display().to_string(), open(p)?)?,
+        None => Vec::new(),
+    };
+    let emitters = match &args.emitters {
+        Some(p) => crate::common::load_emitters(p)?,
+        None => Vec::new(),
+    };
+    let candidates = match &args.candidates {
+        Some(p) => Some(read_spots(&p.display().to_string(), open(p)?)?),
+        None => None,
+    };
+    let server = Server::http(args.listen).map_err(|e| {
+        Error::argument("--listen", format!("cannot listen on {}: {e}", args.listen))
+    })?;
+    let port = server
+        .server_addr()
+        .to_ip()
+        .map(|a| a.port())
+        .unwrap_or(args.listen.port());
+    let walk = Arc::new(Walk {
+        log: args.log.clone(),
+        token: new_token()?,
+        port,
+        structures,
+        emitters,
+        candidates,
+    });
+    let shown = if args.listen.ip().is_unspecified() {
+        "127.0.0.1".to_string()
+    } else {
+        match args.listen {
+            SocketAddr::V4(a) => a.ip().to_string(),
+            SocketAddr::V6(a) => format!("[{}]", a.ip()),
+        }
+    };
+    // The address alone on standard output (for scripts); the rest is for the walker.
+    {
+        let mut out = std::io::stdout().lock();
+        writeln!(out, "http://{shown}:{port}/?token={}", walk.token)?;
+        out.flush()?;
+    }
+    eprintln!(
+        "pim: saving readings to {}. Open the address above on the phone; Ctrl-C stops.",
+        args.log.display()
+    );
+    if args.listen.ip().is_unspecified() {
+        eprintln!(
+            "pim: from other devices, use this machine's address on the network instead of 127.0.0.1."
+        );
+    }
+    let stop = Arc::new(AtomicBool::new(false));
+    {
+        let stop = stop.clone();
+        ctrlc::set_handler(move || stop.store(true, Ordering::SeqCst))
+            .map_err(|e| CliError::Core(Error::refused(format!("cannot catch Ctrl-C: {e}"))))?;
+    }
+    let server = Arc::new(server);
+    let workers: Vec<_> = (0..WORKERS)
+        .map(|_| {
+            let (server, walk, stop) = (server.clone(), walk.clone(), stop.clone());
+            std::thread::spawn(move || {
+                while !stop.load(Ordering::SeqCst) {
+                    match server.recv_timeout(Duration::from_millis(200)) {
+                        Ok(Some(request)) => handle(&walk, request),
+                        Ok(None) => {}
+                        Err(_) => break,
+                    }
+                }
+            })
+        })
+        .collect();
+    for w in workers {
+        let _ = w.join();
+    }
+    eprintln!("pim: walk stopped; {} is whole.", args.log.display());
+    Ok(())
+}
+
+/// A fresh 128-bit token from the system's random source, as hex.
+fn new_token() -> CliResult<String> {
+    let mut bytes = [0u8; 16];
+    getrandom::fill(&mut bytes).map_err(|e| {
+        CliError::Core(Error::refused(format!(
+            "no random source for the access token: {e}"
+        )))
+    })?;
+    Ok(bytes.iter().map(|b| format!("{b:02x}")).collect())
+}
+
+/// The value of `name` in a query string or form body (`a=1&b=2`), percent-decoded.
+fn form_value(text: &str, name: &str) -> Option<String> {
+    text.split('&').find_map(|pair| {
+        let (k, v) = pair.split_once('=').unwrap_or((pair, ""));
+        (percent_decode(k) == name).then(|| percent_decode(v))
+    })
+}
+
+fn percent_decode(text: &str) -> String {
+    let bytes = text.as_bytes();
+    let mut out = Vec::with_capacity(bytes.len());
+    let mut i = 0;
+    while i < bytes.len() {
+        match bytes[i] {
+            b'+' => out.push(b' '),
+            b'%' if i + 2 < bytes.len() => {
+                let hex = |b: u8| (b as char).to_digit(16);
+                match (hex(bytes[i + 1]), hex(bytes[i + 2])) {
+                    (Some(h), Some(l)) => {
+                        out.push((h * 16 + l) as u8);
+                        i += 2;
+                    }
+                    _ => out.push(b'%'),
+                }
+            }
+            b => out.push(b),
+        }
+        i += 1;
+    }
+    String::from_utf8_lossy(&out).into_owned()
+}
+
+fn header_value<'a>(request: &'a Request, name: &'static str) -> Option<&'a str> {
+    request
+        .headers()
+        .iter()
+        .find(|h| h.field.equiv(name))
+        .map(|h| h.value.as_str())
+}
+
+/// Whether a Host header names this server: an address literal or `localhost`, with
+/// this port (a name that resolves here by DNS is refused: no rebinding).
+fn host_is_ours(host: &str, port: u16) -> bool {
+    let Some((name, p)) = host.rsplit_once(':') else {
+        return false;
+    };
+    if p.parse::<u16>() != Ok(port) {
+        return false;
+    }
+    let name = name.trim_start_matches('[').trim_end_matches(']');
+    name.eq_ignore_ascii_case("localhost") || name.parse::<std::net::IpAddr>().is_ok()
+}
+
+fn respond(request: Request, status: u16, content_type: &str, body: Vec<u8>) {
+    let mut response = Response::from_data(body).with_status_code(status);
+    for (k, v) in [
+        ("Content-Type", content_type),
+        ("Cache-Control", "no-store"),
+        ("X-Content-Type-Options", "nosniff"),
+        ("X-Frame-Options", "DENY"),
+        ("Referrer-Policy", "no-referrer"),
+        (
+            "Content-Security-Policy",
+            "default-src 'none'; style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:; connect-src 'self'; form-action 'none'; frame-ancestors 'none'; base-uri 'none'",
+        ),
+    ] {
+        if let Ok(h) = Header::from_bytes(k.as_bytes(), v.as_bytes()) {
+            response.add_header(h);
+        }
+    }
+    let _ = request.respond(response);
+}
+
+fn respond_json(request: Request, status: u16, value: &Value) {
+    respond(
+        request,
+        status,
+        "application/json; charset=utf-8",
+        value.to_string().into_bytes(),
+    );
+}
+
+fn refuse(request: Request, status: u16, message: &str) {
+    respond(
+        request,
+        status,
+        "text/plain; charset=utf-8",
+        format!("{message}\n").into_bytes(),
+    );
+}
+
+fn handle(walk: &Walk, mut request: Request) {
+    let url = request.url().to_string();
+    let (path, query) = url.split_once('?').unwrap_or((&url, ""));
+    let given = form_value(query, "token").unwrap_or_default();
+    if !bool::from(given.as_bytes().ct_eq(walk.token.as_bytes())) {
+        return refuse(request, 403, "refused: this address needs the walk's token");
+    }
+    if !header_value(&request, "Host").is_some_and(|h| host_is_ours(h, walk.port)) {
+        return refuse(request, 403, "refused: the Host does not name this server");
+    }
+    let write = *request.method() == Method::Post;
+    if write {
+        let host = header_value(&request, "Host").unwrap_or_default();
+        let origin_ok = match header_value(&request, "Origin") {
+            None => true,
+            Some(o) => o == format!("http://{host}") || o == format!("https://{host}"),
+        };
+        if !origin_ok {
+            return refuse(request, 403, "refused: written from another page");
+        }
+    }
+    match (request.method(), path) {
+        (Method::Get, "/") => respond(
+            request,
+            200,
+            "text/html; charset=utf-8",
+            PAGE.as_bytes().to_vec(),
+        ),
+        (Method::Get, "/state") => {
+            let state = walk_state(walk);
+            respond_json(request, 200, &state)
+        }
+        (Method::Post, "/reading") => {
+            if request.body_length().is_some_and(|n| n > MAX_BODY_BYTES) {
+                return refuse(request, 413, "refused: the body is too large");
+            }
+            let mut body = Vec::new();
+            let read = request
+                .as_reader()
+                .take(MAX_BODY_BYTES as u64 + 1)
+                .read_to_end(&mut body);
+            if read.is_err() || body.len() > MAX_BODY_BYTES {
+                return refuse(request, 413, "refused: the body is too large");
+            }
+            let (status, value) = save(walk, &String::from_utf8_lossy(&body));
+            respond_json(request, status, &value)
+        }
+        (Method::Post, "/undo") => {
+            let (status, value) = match remove_last_row(&walk.log) {
+                Ok(removed) => (
+                    200,
+                    json!({"removed": {"line": removed.line, "row": removed.row},
+                           "state": walk_state(walk)}),
+                ),
+                Err(e) => (409, json!({"error": error_json(&e)})),
+            };
+            respond_json(request, status, &value)
+        }
+        _ => refuse(request, 404, "not here"),
+    }
+}
+
+/// The inputs of the page, by the log column each fills.
+const INPUTS: [&str; 8] = [
+    "lat",
+    "lon",
+    "bearing_deg",
+    "north",
+    "sigma_deg",
+    "level_dbm",
+    "note",
+    "time",
+];
+
+fn error_json(e: &Error) -> Value {
+    let field = e
+        .place
+        .as_ref()
+        .filter(|p| p.line.is_none())
+        .map(|p| p.source.as_str())
+        .filter(|s| INPUTS.contains(s));
+    json!({
+        "field": field,
+        "message": match field {
+            Some(_) => e.message.clone(),
+            None => e.to_string(),
+        },
+    })
+}
+
+/// Saves one reading from the page's form body; the reply carries the new state or the
+/// error beside its field.
+fn save(walk: &Walk, body: &str) -> (u16, Value) {
+    let get = |name: &str| {
+        form_value(body, name)
+            .map(|v| v.trim().to_string())
+            .filter(|v| !v.is_empty())
+    };
+    let missing =
+        |field: &str, message: &str| (422, json!({"error": {"field": field, "message": message}}));
+    let Some(bearing_deg) = get("bearing_deg") else {
+        return missing("bearing_deg", "missing bearing");
+    };
+    let north = match get("north").as_deref() {
+        None | Some("true") => NorthArg::True,
+        Some("magnetic") => NorthArg::Magnetic,
+        Some(_) => return missing("north", "north is either `true` or `magnetic`"),
+    };
+    let reading = ReadingText {
+        // Both empty: a row for `pim fix --track` to place by its time.
+        lat: get("lat").map(|t| decimal_degrees(&t, 'N', 'S')),
+        lon: get("lon").map(|t| decimal_degrees(&t, 'E', 'W')),
+        bearing_deg,
+        north,
+        sigma_deg: get("sigma_deg"),
+        level_dbm: get("level_dbm"),
+        note: get("note"),
+        time: get("time"),
+    };
+    match save_reading(&walk.log, &reading, &|column| column.to_string()) {
+        Ok(appended) => (
+            200,
+            json!({"saved": {"line": appended.line, "created": appended.created},
+                   "state": walk_state(walk)}),
+        ),
+        Err(CliError::Core(e)) => (
+            if e.class == ErrorClass::Io { 500 } else { 422 },
+            json!({"error": error_json(&e)}),
+        ),
+        Err(CliError::BrokenPipe) => (500, json!({"error": {"message": "write failed"}})),
+    }
+}
+
+/// A typed position in degrees and decimal minutes (`51 30.125 N`, `N51°30.125'`,
+/// `-2 36.5`) as decimal degrees with 7 decimals (about 1 cm); anything else is passed
+/// on as typed, for the log's own check to judge.
+fn decimal_degrees(text: &str, positive: char, negative: char) -> String {
+    if text.parse::<f64>().is_ok() {
+        return text.to_string();
+    }
+    let upper = text.to_ascii_uppercase();
+    let mut sign = 1.0;
+    let mut rest = upper.trim().to_string();
+    for (c, s) in [(positive, 1.0), (negative, -1.0)] {
+        if let Some(r) = rest.strip_prefix(c).or_else(|| rest.strip_suffix(c)) {
+            sign = s;
+            rest = r.to_string();
+            break;
+        }
+    }
+    let parts: Vec<&str> = rest
+        .split(|ch: char| ch.is_whitespace() || "°'′º".contains(ch))
+        .filter(|p| !p.is_empty())
+        .collect();
+    let [deg, min] = parts[..] else {
+        return text.to_string();
+    };
+    let (Ok(d), Ok(m)) = (deg.parse::<f64>(), min.parse::<f64>()) else {
+        return text.to_string();
+    };
+    if !(0.0..60.0).contains(&m) || d.fract() != 0.0 || !d.is_finite() {
+        return text.to_string();
+    }
+    let sign = if deg.starts_with('-') { -1.0 } else { sign };
+    format!("{:.7}", sign * (d.abs() + m / 60.0))
+}
+
+/// Everything the page shows after a save: the running fix, the map, each reading's
+/// residual and the suggested next spot; or why there is no fix yet.
+fn walk_state(walk: &Walk) -> Value {
+    let text = match read_locked(&walk.log) {
+        Ok(bytes) => String::from_utf8_lossy(&bytes).into_owned(),
+        Err(e) if e.class == ErrorClass::Io && !walk.log.exists() => {
+            return json!({"rows": 0, "no_fix": "no reading yet"})
+        }
+        Err(e) => return json!({"rows": 0, "no_fix": e.to_string()}),
+    };
+    let rows = text
+        .lines()
+        .skip(1)
+        .filter(|l| !l.trim().is_empty())
+        .count();
+    let last_spot = last_position(&walk.log, &text);
+    let (fix, prepared) = match fix_from_log(&walk.log, Some(&text), &FixArgs::default()) {
+        Ok(v) => v,
+        Err(CliError::Core(e)) => {
+            return json!({"rows": rows, "no_fix": if e.class == ErrorClass::Refused { e.message } else { e.to_string() }})
+        }
+        Err(CliError::BrokenPipe) => return json!({"rows": rows, "no_fix": "unreadable"}),
+    };
+    let near = nearby(&fix, &walk.structures, &walk.emitters, 30.0);
+    let map = map_svg(&fix_map_input(
+        &fix,
+        &walk.structures,
+        &walk.emitters,
+        &near,
+        format!("Bearing walk: {}", file_name(&walk.log)),
+    ));
+    let next = next_spot(walk, &fix, last_spot);
+    json!({
+        "rows": rows,
+        "fix": fix_json(&fix, &prepared.corrections),
+        "map_svg": map,
+        "next": next,
+    })
+}
+
+fn file_name(path: &Path) -> String {
+    path.file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| path.display().to_string())
+}
+
+/// The position of the newest reading that has one.
+fn last_position(path: &Path, text: &str) -> Option<GeoPoint> {
+    let log = pim_io::fieldlog::read_field_log(&path.display().to_string(), text.as_bytes(), true)
+        .ok()?;
+    log.rows.iter().rev().find_map(|r| r.position)
+}
+
+/// The next spot as `pim next` gives it (D-optimal among the candidates, or a ring at
+/// the walk's median range), with the walk to it from the newest reading's spot.
+fn next_spot(walk: &Walk, fix: &pim_core::fix::Fix, from: Option<GeoPoint>) -> Value {
+    let spots = match &walk.candidates {
+        Some(c) => c.clone(),
+        None => {
+            let mut ranges: Vec<f64> = fix.readings.iter().map(|r| r.distance_m).collect();
+            ranges.sort_by(f64::total_cmp);
+            let median = ranges.get(ranges.len() / 2).copied().unwrap_or(MIN_RING_M);
+            ring(fix.position, median.max(MIN_RING_M), RING_SPOTS)
+        }
+    };
+    let ranked = match rank_spots(fix, &spots, fix.sigma_deg_used, MIN_RANGE_M) {
+        Ok(r) => r,
+        Err(e) => return json!({"none": e.to_string()}),
+    };
+    let Some(best) = ranked.first() else {
+        return json!({"none": format!("no candidate spot is at least {MIN_RANGE_M:.0} m from the fix")});
+    };
+    let walk_to = from.map(|p| {
+        let (d, az) = distance_and_azimuth(p, best.spot.position);
+        json!({"distance_m": d, "bearing_deg": az})
+    });
+    json!({
+        "name": best.spot.name,
+        "lat": best.spot.position.lat_deg,
+        "lon": best.spot.position.lon_deg,
+        "distance_from_fix_m": best.distance_m,
+        "bearing_to_fix_deg": best.bearing_to_fix_deg,
+        "expected_semi_major_m": best.expected.semi_major_m,
+        "expected_semi_minor_m": best.expected.semi_minor_m,
+        "walk": walk_to,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn degrees_and_decimal_minutes() {
+        assert_eq!(decimal_degrees("51 30.000 N", 'N', 'S'), "51.5000000");
+        assert_eq!(decimal_degrees("N51°30.6'", 'N', 'S'), "51.5100000");
+        assert_eq!(decimal_degrees("2 36.000 W", 'E', 'W'), "-2.6000000");
+        assert_eq!(decimal_degrees("-2 36.000", 'E', 'W'), "-2.6000000");
+        assert_eq!(decimal_degrees("51.25", 'N', 'S'), "51.25");
+        assert_eq!(decimal_degrees("51 75 N", 'N', 'S'), "51 75 N");
+        assert_eq!(decimal_degrees("abc", 'N', 'S'), "abc");
+    }
+
+    #[test]
+    fn form_values_are_decoded() {
+        let body = "lat=51.5&note=gate+post%2C%20east&token=ab";
+        assert_eq!(form_value(body, "note").as_deref(), Some("gate post, east"));
+        assert_eq!(form_value(body, "lat").as_deref(), Some("51.5"));
+        assert_eq!(form_value(body, "lon"), None);
+        assert_eq!(percent_decode("100%"), "100%");
+        assert_eq!(percent_decode("%e2%80%99"), "\u{2019}");
+    }
+
+    #[test]
+    fn hosts() {
+        assert!(host_is_ours("127.0.0.1:8080", 8080));
+        assert!(host_is_ours("localhost:8080", 8080));
+        assert!(host_is_ours("[::1]:8080", 8080));
+        assert!(host_is_ours("192.168.43.1:8080", 8080));
+        assert!(!host_is_ours("evil.example:8080", 8080));
+        assert!(!host_is_ours("127.0.0.1:8081", 8080));
+        assert!(!host_is_ours("127.0.0.1", 8080));
+    }
+}

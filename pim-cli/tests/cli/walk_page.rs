@@ -1,0 +1,493 @@
+//! The walk page in a real headless browser: Chromium driven over WebDriver
+//! (chromedriver, W3C WebDriver protocol) with the position mocked through the DevTools
+//! protocol's `Emulation.setGeolocationOverride`. A scripted walk of six readings must
+//! write the same log rows, and give the same fix, as `pim log` followed by `pim fix` on
+//! a copy; undo takes the last row back; a request without the token is refused with
+//! 403 and leaves the log as it was. Skips (with the reason printed) where Chromium or
+//! chromedriver is not installed (`.ci/install-browser` installs both).
+
+use std::io::{BufRead, BufReader};
+use std::net::TcpListener;
+use std::path::{Path, PathBuf};
+use std::process::{Child, Command, Stdio};
+use std::time::{Duration, Instant};
+
+use crate::support::{field_log, pim_bin, stdout_of, workspace_root};
+use serde_json::{json, Value};
+
+/// The element key of the W3C WebDriver protocol.
+const ELEMENT: &str = "element-6066-11e4-a52e-4f735466cecf";
+
+fn on_path(names: &[&str]) -> Option<PathBuf> {
+    let path = std::env::var_os("PATH")?;
+    std::env::split_paths(&path)
+        .flat_map(|dir| names.iter().map(move |n| dir.join(n)))
+        .find(|p| p.is_file())
+}
+
+fn free_port() -> u16 {
+    TcpListener::bind("127.0.0.1:0")
+        .and_then(|l| l.local_addr())
+        .map(|a| a.port())
+        .unwrap()
+}
+
+/// A child process ended when the test ends, even on failure.
+struct Process(Child);
+
+impl Drop for Process {
+    fn drop(&mut self) {
+        let _ = self.0.kill();
+        let _ = self.0.wait();
+    }
+}
+
+/// The response body of an HTTP exchange, whatever its status.
+fn http(req: ureq::Request, body: Option<&Value>) -> (u16, String) {
+    let result = match body {
+        Some(b) => req.send_json(b.clone()),
+        None => req.call(),
+    };
+    match result {
+        Ok(r) => (r.status(), r.into_string().unwrap_or_default()),
+        Err(ureq::Error::Status(code, r)) => (code, r.into_string().unwrap_or_default()),
+        Err(e) => panic!("HTTP request failed: {e}"),
+    }
+}
+
+/// A WebDriver session on chromedriver.
+struct Browser {
+    base: String,
+    agent: ureq::Agent,
+}
+
+impl Browser {
+    fn call(&self, method: &str, path: &str, body: Option<Value>) -> Value {
+        let url = format!("{}{path}", self.base);
+        let (status, text) = http(self.agent.request(method, &url), body.as_ref());
+        let v: Value = serde_json::from_str(&text).unwrap_or(Value::Null);
+        assert!(status < 300, "WebDriver {method} {path}: {status} {text}");
+        v["value"].clone()
+    }
+
+    fn cdp(&self, cmd: &str, params: Value) -> Value {
+        self.call(
+            "POST",
+            "/goog/cdp/execute",
+            Some(json!({"cmd": cmd, "params": params})),
+        )
+    }
+
+    fn script(&self, script: &str) -> Value {
+        self.call(
+            "POST",
+            "/execute/sync",
+            Some(json!({"script": script, "args": []})),
+        )
+    }
+
+    fn element(&self, css: &str) -> String {
+        let v = self.call(
+            "POST",
+            "/element",
+            Some(json!({"using": "css selector", "value": css})),
+        );
+        match v[ELEMENT].as_str() {
+            Some(id) => id.to_string(),
+            None => panic!("no element {css}: {v}"),
+        }
+    }
+
+    fn click(&self, css: &str) {
+        let id = self.element(css);
+        self.call("POST", &format!("/element/{id}/click"), Some(json!({})));
+    }
+
+    fn type_into(&self, css: &str, text: &str) {
+        let id = self.element(css);
+        self.call("POST", &format!("/element/{id}/clear"), Some(json!({})));
+        self.call(
+            "POST",
+            &format!("/element/{id}/value"),
+            Some(json!({ "text": text })),
+        );
+    }
+
+    fn value(&self, css: &str) -> String {
+        self.script(&format!("return document.querySelector('{css}').value;"))
+            .as_str()
+            .unwrap_or_default()
+            .to_string()
+    }
+
+    fn text(&self, css: &str) -> String {
+        self.script(&format!(
+            "var e = document.querySelector('{css}'); return e ? e.textContent : '';"
+        ))
+        .as_str()
+        .unwrap_or_default()
+        .to_string()
+    }
+
+    /// Waits until `script` returns true.
+    fn wait_for(&self, script: &str, what: &str) {
+        let start = Instant::now();
+        while start.elapsed() < Duration::from_secs(20) {
+            if self.script(script) == Value::Bool(true) {
+                return;
+            }
+            std::thread::sleep(Duration::from_millis(50));
+        }
+        panic!("timed out waiting for {what}");
+    }
+
+    fn screenshot(&self, to: &Path) {
+        use base64::Engine;
+        let v = self.call("GET", "/screenshot", None);
+        let png = base64::engine::general_purpose::STANDARD
+            .decode(v.as_str().unwrap())
+            .unwrap();
+        std::fs::write(to, png).unwrap();
+    }
+}
+
+fn read_rows(path: &Path) -> Vec<String> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect()
+}
+
+/// Splits a CSV row of the log (quoted fields may hold commas).
+fn cells(row: &str) -> Vec<String> {
+    let mut out = vec![String::new()];
+    let mut quoted = false;
+    let mut chars = row.chars().peekable();
+    while let Some(c) = chars.next() {
+        match c {
+            '"' if quoted && chars.peek() == Some(&'"') => {
+                out.last_mut().unwrap().push('"');
+                chars.next();
+            }
+            '"' => quoted = !quoted,
+            ',' if !quoted => out.push(String::new()),
+            c => out.last_mut().unwrap().push(c),
+        }
+    }
+    out
+}
+
+#[test]
+fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
+    let (Some(chrome), Some(driver)) = (
+        on_path(&["chromium", "chromium-browser", "google-chrome"]),
+        on_path(&["chromedriver"]),
+    ) else {
+        eprintln!("skipped: Chromium and chromedriver are not installed (run .ci/install-browser)");
+        return;
+    };
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("walk.csv");
+
+    // pim walk, on a free port of the loopback; its first line is the page's address.
+    let mut walk = Command::new(pim_bin())
+        .args(["walk", "--log"])
+        .arg(&log)
+        .arg("--structures")
+        .arg(field_log("structures.csv"))
+        .arg("--emitters")
+        .arg(field_log("emitters.csv"))
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut first = String::new();
+    let mut stdout = BufReader::new(walk.stdout.take().unwrap());
+    stdout.read_line(&mut first).unwrap();
+    std::thread::spawn(move || std::io::copy(&mut stdout, &mut std::io::sink()));
+    let walk = Process(walk);
+    let page = first.trim().to_string();
+    assert!(
+        page.starts_with("http://127.0.0.1:") && page.contains("/?token="),
+        "{page}"
+    );
+    let token = page.split("token=").nth(1).unwrap().to_string();
+    assert_eq!(token.len(), 32, "a 128-bit token in hex");
+    let origin = page.split("/?").next().unwrap().to_string();
+
+    // chromedriver and a headless Chromium at a phone's size (390 × 844 CSS px).
+    let port = free_port();
+    let _driver = Process(
+        Command::new(&driver)
+            .arg(format!("--port={port}"))
+            .stdout(Stdio::null())
+            .stderr(Stdio::null())
+            .spawn()
+            .unwrap(),
+    );
+    let agent = ureq::AgentBuilder::new()
+        .timeout(Duration::from_secs(60))
+        .build();
+    let driver_url = format!("http://127.0.0.1:{port}");
+    let start = Instant::now();
+    loop {
+        if let Ok(r) = agent.get(&format!("{driver_url}/status")).call() {
+            let v: Value = r.into_json().unwrap_or(Value::Null);
+            if v["value"]["ready"] == Value::Bool(true) {
+                break;
+            }
+        }
+        assert!(
+            start.elapsed() < Duration::from_secs(30),
+            "chromedriver did not start"
+        );
+        std::thread::sleep(Duration::from_millis(100));
+    }
+    let profile = tempfile::tempdir().unwrap();
+    let caps = json!({"capabilities": {"alwaysMatch": {
+        "browserName": "chrome",
+        "goog:chromeOptions": {
+            "binary": chrome.display().to_string(),
+            "args": [
+                "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+                "--no-first-run", "--disable-background-networking",
+                "--disable-component-update", "--disable-sync",
+                format!("--user-data-dir={}", profile.path().display()),
+            ],
+            "mobileEmulation": {"deviceMetrics": {"width": 390, "height": 844, "pixelRatio": 2.0, "touch": true}},
+        }
+    }}});
+    let (status, text) = http(
+        agent.request("POST", &format!("{driver_url}/session")),
+        Some(&caps),
+    );
+    assert_eq!(status, 200, "new session: {text}");
+    let session: Value = serde_json::from_str(&text).unwrap();
+    let id = session["value"]["sessionId"].as_str().unwrap().to_string();
+    let browser = Browser {
+        base: format!("{driver_url}/session/{id}"),
+        agent: agent.clone(),
+    };
+    browser.cdp(
+        "Browser.grantPermissions",
+        json!({"origin": origin, "permissions": ["geolocation"]}),
+    );
+    browser.call("POST", "/url", Some(json!({ "url": page })));
+    browser.wait_for(
+        "return document.getElementById('count').textContent.indexOf('0 readings') === 0;",
+        "the page to load the state",
+    );
+
+    // Six readings of the demo walk (field-logs/walk.csv): position from the mocked
+    // geolocation, bearing, north, level and note typed; Enter saves the first three,
+    // the button the rest.
+    let demo = read_rows(&field_log("walk.csv"));
+    let readings: Vec<Vec<String>> = demo[1..7].iter().map(|r| cells(r)).collect();
+    for (i, r) in readings.iter().enumerate() {
+        let (lat, lon): (f64, f64) = (r[1].parse().unwrap(), r[2].parse().unwrap());
+        browser.cdp(
+            "Emulation.setGeolocationOverride",
+            json!({"latitude": lat, "longitude": lon, "accuracy": 4.0}),
+        );
+        browser.click("#locate");
+        browser.wait_for(
+            &format!("return document.getElementById('lat').value === '{lat:.7}';"),
+            "the mocked position",
+        );
+        assert_eq!(browser.value("#lon"), format!("{lon:.7}"));
+        assert!(
+            browser.text("#accuracy").contains("± 4 m"),
+            "{}",
+            browser.text("#accuracy")
+        );
+        browser.click(&format!("input[name=north][value={}]", r[4]));
+        if i == 0 {
+            browser.click("#more summary");
+        }
+        browser.type_into("#level_dbm", &r[6]);
+        browser.type_into("#note", &r[7]);
+        if i < 3 {
+            browser.type_into("#bearing_deg", &format!("{}\n", r[3]));
+        } else {
+            browser.type_into("#bearing_deg", &r[3]);
+            browser.click("#save");
+        }
+        browser.wait_for(
+            &format!(
+                "return document.getElementById('status').textContent === 'Saved, line {}{}';",
+                i + 2,
+                if i == 0 { " (new log)" } else { "" }
+            ),
+            "the save",
+        );
+    }
+    let page_fix = browser.text("#fix-position");
+    let page_region = browser.text("#fix-region");
+    let page_cep = browser.text("#fix-cep");
+    assert!(
+        browser.text("#next-walk").starts_with("Next: walk "),
+        "{}",
+        browser.text("#next-walk")
+    );
+    assert!(browser.script("return document.querySelectorAll('#map svg').length === 1 && document.querySelectorAll('#residuals tbody tr').length === 6;") == Value::Bool(true));
+
+    // The documentation pictures: the form after a save, and the fix with its map.
+    // Written into docs/ only when PIM_UPDATE_DOCS is set, so a test run leaves the
+    // source tree alone.
+    let docs = match std::env::var_os("PIM_UPDATE_DOCS") {
+        Some(_) => workspace_root().join("docs"),
+        None => dir.path().to_path_buf(),
+    };
+    std::fs::create_dir_all(&docs).unwrap();
+    browser.click("#more summary");
+    browser.script("window.scrollTo(0, 0); document.activeElement.blur();");
+    browser.screenshot(&docs.join("walk-page.png"));
+    browser.script("document.getElementById('fix').scrollIntoView(true);");
+    browser.screenshot(&docs.join("walk-page-fix.png"));
+    for name in ["walk-page.png", "walk-page-fix.png"] {
+        let png = std::fs::read(docs.join(name)).unwrap();
+        assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+        // IHDR: 390 × 844 CSS pixels at a device pixel ratio of 2.
+        let size = |at: usize| u32::from_be_bytes([png[at], png[at + 1], png[at + 2], png[at + 3]]);
+        assert_eq!((size(16), size(20)), (780, 1688), "{name}");
+    }
+
+    // A bad value is refused beside its field and writes nothing.
+    let before = std::fs::read(&log).unwrap();
+    browser.type_into("#bearing_deg", "400\n");
+    browser.wait_for(
+        "return document.getElementById('err-bearing_deg').textContent.indexOf('outside 0–360') >= 0;",
+        "the error beside the bearing",
+    );
+    assert_eq!(std::fs::read(&log).unwrap(), before);
+
+    // The same readings through `pim log` (with each row's time) on a copy, then `pim fix`.
+    let rows = read_rows(&log);
+    assert_eq!(rows.len(), 7, "{rows:?}");
+    let copy = dir.path().join("copy.csv");
+    for (row, r) in rows[1..].iter().zip(&readings) {
+        let c = cells(row);
+        let out = Command::new(pim_bin())
+            .arg("log")
+            .arg(&copy)
+            .args(["--lat", &c[1], "--lon", &c[2], "--bearing-deg", &r[3]])
+            .args(["--north", &r[4], "--level-dbm", &r[6], "--note", &r[7]])
+            .args(["--time", &c[0]])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    }
+    assert_eq!(
+        read_rows(&copy),
+        rows,
+        "the page writes what pim log writes"
+    );
+    let fix_of = |path: &Path| -> Value {
+        let out = Command::new(pim_bin())
+            .args(["fix", "--format", "json", "--log"])
+            .arg(path)
+            .output()
+            .unwrap();
+        assert!(out.status.success());
+        serde_json::from_str(&stdout_of(&out)).unwrap()
+    };
+    let (fix_walk, fix_copy) = (fix_of(&log), fix_of(&copy));
+    assert_eq!(fix_walk, fix_copy);
+    let lat = fix_copy["lat"].as_f64().unwrap();
+    let lon = fix_copy["lon"].as_f64().unwrap();
+    assert_eq!(page_fix, format!("{lat:.6}, {lon:.6}"));
+    let e = &fix_copy["ellipse"];
+    assert!(
+        page_region.starts_with(&format!(
+            "95% ellipse {:.1} × {:.1} m",
+            e["semi_major_m"].as_f64().unwrap(),
+            e["semi_minor_m"].as_f64().unwrap()
+        )),
+        "{page_region}"
+    );
+    assert!(
+        page_cep.starts_with(&format!("CEP {:.1} m", fix_copy["cep_m"].as_f64().unwrap())),
+        "{page_cep}"
+    );
+
+    // Undo takes the last reading back, and the page shows five.
+    browser.click("#undo");
+    browser.wait_for(
+        "return document.getElementById('status').textContent.indexOf('Removed line 7') === 0 && document.querySelectorAll('#residuals tbody tr').length === 5;",
+        "the undo",
+    );
+    assert_eq!(read_rows(&log), rows[..6].to_vec());
+
+    // Without the token (or with a wrong one) nothing is served or written.
+    let before = std::fs::read(&log).unwrap();
+    let form = "lat=45.1&lon=-122.4&bearing_deg=10";
+    for path in [
+        "/".to_string(),
+        "/state".to_string(),
+        format!("/?token={}", "0".repeat(32)),
+    ] {
+        let (status, _) = http(agent.get(&format!("{origin}{path}")), None);
+        assert_eq!(status, 403, "GET {path}");
+    }
+    for path in ["/reading", "/undo", "/reading?token=wrong"] {
+        let r = agent
+            .post(&format!("{origin}{path}"))
+            .set("Content-Type", "application/x-www-form-urlencoded")
+            .send_string(form);
+        let status = match r {
+            Ok(r) => r.status(),
+            Err(ureq::Error::Status(c, _)) => c,
+            Err(e) => panic!("{e}"),
+        };
+        assert_eq!(status, 403, "POST {path}");
+    }
+    // With the token but from another page's origin, or an oversized body: refused too.
+    let status = |r: Result<ureq::Response, ureq::Error>| match r {
+        Ok(r) => r.status(),
+        Err(ureq::Error::Status(c, _)) => c,
+        Err(e) => panic!("{e}"),
+    };
+    let with_token = format!("{origin}/reading?token={token}");
+    assert_eq!(
+        status(
+            agent
+                .post(&with_token)
+                .set("Origin", "http://attacker.example")
+                .send_string(form)
+        ),
+        403
+    );
+    assert_eq!(
+        status(agent.post(&with_token).send_string(&"x".repeat(20_000))),
+        413
+    );
+    assert_eq!(std::fs::read(&log).unwrap(), before, "the log is unchanged");
+
+    // Ctrl-C stops the server and leaves the log whole.
+    browser.call("DELETE", "", None);
+    let mut walk = walk;
+    let pid = walk.0.id().to_string();
+    assert!(Command::new("kill")
+        .args(["-INT", &pid])
+        .status()
+        .unwrap()
+        .success());
+    let start = Instant::now();
+    let code = loop {
+        if let Some(s) = walk.0.try_wait().unwrap() {
+            break s;
+        }
+        assert!(
+            start.elapsed() < Duration::from_secs(10),
+            "pim walk did not stop"
+        );
+        std::thread::sleep(Duration::from_millis(50));
+    };
+    assert!(code.success(), "{code:?}");
+    assert_eq!(std::fs::read(&log).unwrap(), before);
+}
