@@ -9,7 +9,7 @@ use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::{find_products, retain_coefficients, Hits, SearchParams, MAX_ORDER};
 use pim_core::io::{read_emitters, read_heard, read_on_air, Clock};
-use pim_core::level::JunctionModel;
+use pim_core::level::LevelModel as JunctionModel;
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::rank::{rank_with_evidence, Ranking};
 use pim_core::Error;
@@ -45,10 +45,10 @@ pub struct SearchArgs {
     #[arg(long, value_name = "DEG", value_parser = lon_arg, allow_hyphen_values = true, requires = "rx_lat")]
     pub rx_lon: Option<f64>,
     /// Junction model: third-order level (dBm) from two reference tones.
-    #[arg(long, value_name = "DBM", default_value = "-80", value_parser = finite_arg, allow_hyphen_values = true)]
+    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = finite_arg, allow_hyphen_values = true)]
     pub junction_im3_dbm: f64,
-    /// Junction model: level of each reference tone (dBm; IEC 62037-1 uses +43).
-    #[arg(long, value_name = "DBM", default_value = "43", value_parser = finite_arg, allow_hyphen_values = true)]
+    /// Junction model: drive of each reference tone (dBm; IEC 62037-1 uses +43).
+    #[arg(long, value_name = "DBM", default_value = "0", value_parser = finite_arg, allow_hyphen_values = true)]
     pub junction_ref_dbm: f64,
     /// Junction model: further loss per order above the third (dB).
     #[arg(long, value_name = "DB", default_value = "5", value_parser = finite_arg, allow_hyphen_values = true)]
@@ -84,6 +84,7 @@ impl SearchArgs {
             im3_dbm: self.junction_im3_dbm,
             reference_tone_dbm: self.junction_ref_dbm,
             order_step_db: self.order_step_db,
+            ..JunctionModel::default()
         }
     }
 
@@ -264,7 +265,7 @@ pub fn search_and_rank_with(
     } = find_products(&carriers, params);
     let found = products.len();
     retain_coefficients(&mut products, coefficients);
-    let ranking = rank_with_evidence(products, emitters, params.target, junction, model, logbook);
+    let ranking = rank_with_evidence(products, emitters, params, junction, model, logbook);
     (ranking, co_channel, found)
 }
 

@@ -14,7 +14,7 @@ use pim_core::io::emitters::read_structures;
 use pim_core::io::export::{bearing_length_m, fix_geojson, fix_kml};
 use pim_core::io::fieldlog::{Correction, FieldLog};
 use pim_core::level::JunctionModel;
-use pim_core::rank::{display_terms, formula, rank, Ranking};
+use pim_core::rank::{display_terms, formula, rank, rank_candidates, RankInputs, Ranking, Site};
 use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
 use pim_core::Error;
 
@@ -562,17 +562,23 @@ pub fn write_ticket(t: &TicketInputs, dir: &Path) -> Result<Written, Error> {
         rank(
             hits.products.clone(),
             &t.emitters,
-            t.params.target,
+            &t.params,
             Some(site),
             &t.model,
         )
     });
-    let at_fix = rank(
+    let at_fix = rank_candidates(
         hits.products,
         &t.emitters,
-        t.params.target,
-        Some(t.fix.position),
-        &t.model,
+        &t.params,
+        &RankInputs {
+            site: Site {
+                junction: Some(t.fix.position),
+                receiver: t.rx_site,
+            },
+            model: t.model,
+            ..RankInputs::default()
+        },
     );
     let near = nearby(&t.fix, &t.structures, &t.emitters, 30.0);
     let (doc, map, spectrum) = build(t, &at_fix, at_rx.as_ref(), &near);
