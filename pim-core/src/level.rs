@@ -404,7 +404,12 @@ impl LevelModel {
 
     /// EIRP of 2f_A − f_B made in A's output stage, from B's ERP and the distance
     /// between the antennas (module docs), dBm.
-    pub fn transmitter_im_eirp_dbm(&self, coupled_erp_dbm: f64, coupled_freq_hz: f64, distance_m: f64) -> f64 {
+    pub fn transmitter_im_eirp_dbm(
+        &self,
+        coupled_erp_dbm: f64,
+        coupled_freq_hz: f64,
+        distance_m: f64,
+    ) -> f64 {
         let floor = wavelength_m(coupled_freq_hz) / (2.0 * std::f64::consts::PI);
         let isolation = (free_space_loss_db(coupled_freq_hz, distance_m.max(floor))
             - 2.0 * DIPOLE_GAIN_DBI)

@@ -645,7 +645,10 @@ pub fn rank_candidates(
     }
     ranking.outlook = if candidates.is_empty() {
         Outlook::NothingLands
-    } else if candidates.iter().any(|c| c.level_dbm.is_some() && !c.implausible) {
+    } else if candidates
+        .iter()
+        .any(|c| c.level_dbm.is_some() && !c.implausible)
+    {
         Outlook::Credible
     } else if candidates.iter().any(|c| c.level_dbm.is_some()) {
         Outlook::OnlyImplausible
@@ -705,14 +708,7 @@ mod tests {
                 heard: true,
             }],
         );
-        let r = rank_with_evidence(
-            vec![third, fifth],
-            &e,
-            &params,
-            None,
-            &model,
-            Some(&book),
-        );
+        let r = rank_with_evidence(vec![third, fifth], &e, &params, None, &model, Some(&book));
         assert_eq!(r.candidates[0].product, fifth);
         assert_eq!(r.candidates[0].evidence.map(|v| v.support), Some(1));
         assert_eq!(r.candidates[1].evidence.map(|v| v.heard_off_air), Some(1));
