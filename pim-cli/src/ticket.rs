@@ -236,8 +236,8 @@ fn build(
     }
     let m = &t.model;
     doc.push(Block::Para(format!(
-        "Levels: each emitter's power at the junction is its ERP less the free-space loss (ITU-R P.525); a product's level is Σ|k|·P + C(n), with C(n) set so that two {:.0} dBm tones make {:.0} dBm at third order and each further order costs {:.0} dB. They rank candidates against each other; a real joint may differ by tens of dB.",
-        m.reference_tone_dbm, m.im3_dbm, m.order_step_db
+        "Levels: each emitter drives the junction by its field strength there (ITU-R P.525, EIRP = ERP + 2.15 dB), taken as the power a {:.0} m² aperture collects; a product's level follows a power law from two {:.0} dBm tones making {:.0} dBm at third order, weighted by the product's multinomial coefficient, each further order costing {:.0} dB and even orders {:.0} dB more; candidates rank by the part of the product inside the receive channel at the receiver. A real joint may differ by tens of dB.",
+        m.coupling_aperture_m2, m.reference_tone_dbm, m.im3_dbm, m.order_step_db, m.even_order_penalty_db
     )));
     let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
     doc.push(Block::Picture {

@@ -334,7 +334,7 @@ impl LevelModel {
             .map(|&(k, p)| self.drive_exponent * k as f64 * (p - self.reference_tone_dbm))
             .sum();
         let order_db = -self.order_step_db * (n as f64 - 3.0);
-        let even_order_db = if n % 2 == 0 {
+        let even_order_db = if n.is_multiple_of(2) {
             -self.even_order_penalty_db
         } else {
             0.0
