@@ -554,6 +554,9 @@ fn write_all(dir: &Path, files: &[(&str, Vec<u8>)]) -> Result<Vec<PathBuf>, Erro
     Ok(done)
 }
 
+/// Sources closer than this to the fix agree with the bearings whatever the ellipse, m.
+const FIX_RADIUS_FLOOR_M: f64 = 30.0;
+
 /// Searches, ranks at the receiver and at the fix, and writes the seven files into `dir`.
 pub fn write_ticket(t: &TicketInputs, dir: &Path) -> Result<Written, Error> {
     let carriers = carriers(&t.emitters);
@@ -575,6 +578,7 @@ pub fn write_ticket(t: &TicketInputs, dir: &Path) -> Result<Written, Error> {
             site: Site {
                 junction: Some(t.fix.position),
                 receiver: t.rx_site,
+                fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
             },
             model: t.model,
             ..RankInputs::default()

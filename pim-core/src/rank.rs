@@ -27,6 +27,10 @@
 //! while the extrapolated product stays below its tones (0 dBc): beyond that the power law
 //! cannot hold up to +43 dBm.
 //!
+//! **Fix.** When the junction is a fix from bearings ([`Site::fix_radius_m`]), candidates
+//! made elsewhere (at a transmitter's antenna, or inside the receiver) disagree with the
+//! bearings and rank after those made at the fix.
+//!
 //! With on-air evidence the evidence comes first, by the rule in [`crate::onair`]: fewest
 //! times heard while one of the candidate's emitters was off the air, then most times
 //! heard with all of them on, then fewest times silent with all of them on; the keys above
@@ -52,6 +56,10 @@ pub struct Site {
     pub junction: Option<GeoPoint>,
     /// The receiver; the junction when `None`.
     pub receiver: Option<GeoPoint>,
+    /// When the junction is a fix from bearings: how far from it (m) a source may lie and
+    /// still agree with them. A candidate made elsewhere (at a transmitter, or in the
+    /// receiver) is then `away_from_fix` and ranks after those that agree.
+    pub fix_radius_m: Option<f64>,
 }
 
 impl Site {
@@ -60,6 +68,7 @@ impl Site {
         Site {
             junction: point,
             receiver: None,
+            fix_radius_m: None,
         }
     }
 
@@ -140,6 +149,8 @@ pub struct Candidate {
     pub calibration: Option<Calibration>,
     /// A junction needing more than the model's plausible bound.
     pub implausible: bool,
+    /// Made farther from the fix than the bearings allow ([`Site::fix_radius_m`]).
+    pub away_from_fix: bool,
     /// What the on-air log says about it, when a log was given.
     pub evidence: Option<Evidence>,
 }
@@ -162,7 +173,8 @@ pub enum Outlook {
     Credible,
     /// No product lands in the channel.
     NothingLands,
-    /// Every levelled candidate needs an implausible junction.
+    /// Every levelled candidate needs an implausible junction (or is made away from the
+    /// fix).
     OnlyImplausible,
     /// Products land, but none could be levelled.
     Unlevelled,
@@ -370,6 +382,7 @@ fn candidate(product: Product, mechanism: Mechanism, formed_in: Option<usize>) -
         relative_db: None,
         calibration: None,
         implausible: false,
+        away_from_fix: false,
         evidence: None,
     }
 }
@@ -570,6 +583,13 @@ pub fn rank_candidates(
     for product in &products {
         for mut c in mechanisms_of(product, receiver_modelled) {
             c.evidence = inputs.logbook.map(|book| book.evidence(product));
+            if let (Some(j), Some(radius)) = (junction, inputs.site.fix_radius_m) {
+                let at = match source_of(&c, emitters, j) {
+                    Some((p, _)) => Some(p),
+                    None => receiver,
+                };
+                c.away_from_fix = at.is_some_and(|p| crate::geo::distance_m(p, j) > radius);
+            }
             match (junction, receiver) {
                 (Some(j), Some(rx)) => match source_level(&c, emitters, &ranking, rx) {
                     Ok((level, junction_terms)) => {
@@ -623,6 +643,7 @@ pub fn rank_candidates(
             (None, None) => Ordering::Equal,
         };
         by_evidence
+            .then(a.away_from_fix.cmp(&b.away_from_fix))
             .then(by_level)
             .then(a.product.order().cmp(&b.product.order()))
             .then(
@@ -647,7 +668,7 @@ pub fn rank_candidates(
         Outlook::NothingLands
     } else if candidates
         .iter()
-        .any(|c| c.level_dbm.is_some() && !c.implausible)
+        .any(|c| c.level_dbm.is_some() && !c.implausible && !c.away_from_fix)
     {
         Outlook::Credible
     } else if candidates.iter().any(|c| c.level_dbm.is_some()) {

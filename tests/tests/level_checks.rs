@@ -271,18 +271,27 @@ fn demo_ranks_the_planted_pair_first_with_believable_levels() {
         site: Site {
             junction: Some(fix.position),
             receiver: Some(rx),
+            fix_radius_m: Some(fix.ellipse.semi_major_m.max(30.0)),
         },
         model: LevelModel::default(),
         logbook: None,
         heard,
     };
     let plain = rank_candidates(hits.products.clone(), &emitters, &p, &inputs(&[]));
-    // First by formula; the same product made in SKP-152's output stage (transmitter
-    // intermodulation, bare transmitter) may stand beside it.
     assert_eq!(
         formula(&plain.candidates[0].product, &emitters),
         "2·SKP-152 − FIRE-DSP"
     );
+    assert_eq!(plain.candidates[0].mechanism, Mechanism::Junction);
+    // The same product made in SKP-152's output stage would be louder at the receiver
+    // (a bare transmitter), but the bearings put the source at the fix, not the paging
+    // tower some 290 m away.
+    let tx_im = plain
+        .candidates
+        .iter()
+        .find(|c| c.mechanism == Mechanism::TransmitterIm)
+        .unwrap();
+    assert!(tx_im.away_from_fix);
     let junctions: Vec<_> = plain
         .candidates
         .iter()
