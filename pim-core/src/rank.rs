@@ -780,4 +780,136 @@ mod tests {
         );
         assert_eq!(formula(&q, &e), "FM + LMR2 − PAGER");
     }
+
+    fn site_emitters() -> (Vec<Emitter>, GeoPoint) {
+        let j = GeoPoint::new(45.0, -122.0);
+        let mk = |id: &str, hz: i64, az: f64, erp_w: f64| {
+            let mut e = Emitter::new(id, Hz(hz), Hz(16_000));
+            e.erp_dbm = Some(crate::emitter::watts_to_dbm(erp_w));
+            e.position = Some(crate::geo::destination(j, az, 300.0));
+            e
+        };
+        (
+            vec![
+                mk("A", 150_000_000, 0.0, 100.0),
+                mk("B", 153_600_000, 120.0, 100.0),
+                mk("H", 73_200_000, 240.0, 100.0),
+            ],
+            j,
+        )
+    }
+
+    fn channel() -> SearchParams {
+        SearchParams {
+            target: Hz(146_400_000),
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 3,
+            max_emitters: 2,
+        }
+    }
+
+    #[test]
+    fn mechanisms_are_levelled_by_their_own_models() {
+        let (e, j) = site_emitters();
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        let im3 = Product::new(&[t(0, 2), t(1, -1)], Hz(146_400_000));
+        let harmonic = Product::new(&[t(2, 2)], Hz(146_400_000));
+        let model = LevelModel {
+            rx_iip3_dbm: Some(-10.0),
+            ..LevelModel::default()
+        };
+        let r = rank_candidates(
+            vec![im3, harmonic],
+            &e,
+            &channel(),
+            &RankInputs {
+                site: Site::at(Some(j)),
+                model,
+                ..RankInputs::default()
+            },
+        );
+        let find = |m: Mechanism, p: Product| {
+            r.candidates
+                .iter()
+                .find(|c| c.mechanism == m && c.product == p)
+                .copied()
+                .unwrap()
+        };
+        // The harmonic at the ITU-R SM.329 limit is far stronger than any junction's.
+        let tx = find(Mechanism::Transmitter, harmonic);
+        let junction = find(Mechanism::Junction, harmonic);
+        assert!(tx.rank < junction.rank);
+        assert!((tx.level_dbm.unwrap() - (-13.0 + crate::level::DIPOLE_GAIN_DBI)).abs() < 1e-9);
+        // The receiver's own IM3: 2·P_A + P_B − 2·IIP3 (Pozar), from the powers at its input.
+        let rx = find(Mechanism::Receiver, im3);
+        let input = |i: usize| {
+            let em = &e[i];
+            em.erp_dbm.unwrap() + crate::level::DIPOLE_GAIN_DBI
+                - model.path_to_receiver_db(em.freq.0 as f64, em.position.unwrap(), None, j)
+        };
+        let want = 2.0 * input(0) + input(1) + 20.0;
+        assert!((rx.level_dbm.unwrap() - want).abs() < 1e-9);
+        assert!(r.unmodelled.is_empty());
+        let plain = rank(vec![im3], &e, &channel(), Some(j), &LevelModel::default());
+        assert_eq!(plain.unmodelled, vec![(Mechanism::Receiver, Missing::Iip3)]);
+        assert!(plain
+            .candidates
+            .iter()
+            .all(|c| c.mechanism != Mechanism::Receiver));
+    }
+
+    #[test]
+    fn outlook_says_when_nothing_credible_lands() {
+        let (e, j) = site_emitters();
+        let none = rank(vec![], &e, &channel(), Some(j), &LevelModel::default());
+        assert_eq!(none.outlook, Outlook::NothingLands);
+        assert_eq!(none.next_steps().len(), 3);
+        let im3 = Product::new(
+            &[
+                Term {
+                    emitter: 0,
+                    coefficient: 2,
+                },
+                Term {
+                    emitter: 1,
+                    coefficient: -1,
+                },
+            ],
+            Hz(146_400_000),
+        );
+        let inputs = |heard| RankInputs {
+            site: Site::at(Some(j)),
+            heard,
+            ..RankInputs::default()
+        };
+        // Heard at +10 dBm on the receiver: no passive joint makes that.
+        let loud = [HeardLevel {
+            position: None,
+            level_dbm: 10.0,
+        }];
+        let r = rank_candidates(vec![im3], &e, &channel(), &inputs(&loud));
+        let c = r
+            .candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Junction)
+            .unwrap();
+        assert!(c.implausible);
+        assert!(c.calibration.unwrap().required_im3_dbc.unwrap() > -10.0);
+        // The same product made in A's output stage stays credible: that is not a junction.
+        assert_eq!(r.outlook, Outlook::Credible);
+        let quiet = [HeardLevel {
+            position: None,
+            level_dbm: -110.0,
+        }];
+        let r = rank_candidates(vec![im3], &e, &channel(), &inputs(&quiet));
+        assert!(r.candidates.iter().all(|c| !c.implausible));
+        assert!(r.calibrated && r.next_steps().is_empty());
+        let shift = r.candidates[0].calibration.unwrap().shift_db;
+        let heard = r.candidates[0].breakdown.unwrap().in_channel_dbm + shift;
+        assert!((heard + 110.0).abs() < 1e-9);
+    }
 }
