@@ -445,7 +445,10 @@ fn source_level(
         }
         Mechanism::Transmitter => {
             let e = c.product.terms().next().map(|t| &emitters[t.emitter]);
-            let erp = e.and_then(|e| e.erp_dbm).ok_or(Missing::ErpOrLocation)?;
+            let erp = e
+                .filter(|e| e.position.is_some())
+                .and_then(|e| e.erp_dbm)
+                .ok_or(Missing::ErpOrLocation)?;
             Ok((m.spurious_limit_eirp_dbm(erp), None))
         }
         Mechanism::TransmitterIm => {
