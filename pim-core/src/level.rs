@@ -488,4 +488,29 @@ mod tests {
         let erp = 10.0 * 50_000f64.log10() + 30.0;
         assert!((m.spurious_limit_eirp_dbm(erp) - (erp - 70.0 + DIPOLE_GAIN_DBI)).abs() < 1e-9);
     }
+
+    proptest::proptest! {
+        /// The bound the search may prune by: the level never falls as a drive rises, and
+        /// the field never rises with distance.
+        #[test]
+        fn level_is_monotone_in_each_drive(
+            k in proptest::collection::vec(1u32..6, 1..4),
+            drives in proptest::collection::vec(-60.0f64..30.0, 3),
+            bump in 0.0f64..20.0,
+            which in 0usize..3,
+            alpha in 0.0f64..1.5,
+            d in 0.01f64..5_000.0,
+            f in 100e3f64..3e9,
+        ) {
+            let m = LevelModel { drive_exponent: alpha, ..LevelModel::default() };
+            let terms: Vec<(u32, f64)> = k.iter().zip(&drives).map(|(&k, &p)| (k, p)).collect();
+            let mut raised = terms.clone();
+            let i = which % raised.len();
+            raised[i].1 += bump;
+            proptest::prop_assert!(m.junction_level(&raised).level_dbm >= m.junction_level(&terms).level_dbm - 1e-9);
+            let near = field_with_near_field_rule(50.0, f, d, 5.0).0;
+            let far = field_with_near_field_rule(50.0, f, d * 1.5, 5.0).0;
+            proptest::prop_assert!(far <= near + 1e-9);
+        }
+    }
 }
