@@ -324,6 +324,15 @@ impl LevelModel {
         self.im3_dbm - self.order_step_db * (n - 3.0) - n * self.reference_tone_dbm
     }
 
+    /// The model with the drive exponent a measured slope implies: an n-th-order product
+    /// rising `slope_db_per_db` per dB of all its tones gives α = slope/n.
+    pub fn with_measured_slope(self, slope_db_per_db: f64, order: u32) -> LevelModel {
+        LevelModel {
+            drive_exponent: (slope_db_per_db / order.max(1) as f64).max(0.0),
+            ..self
+        }
+    }
+
     /// The junction product's level from `(|k|, drive dBm)` of each emitter.
     pub fn junction_level(&self, terms: &[(u32, f64)]) -> JunctionTerms {
         let ks: Vec<u32> = terms.iter().map(|t| t.0).collect();
@@ -441,6 +450,15 @@ mod tests {
         // The ideal law and the conversion term agree.
         let q = m.junction_level(&[(2, -7.0), (1, -3.0)]);
         assert!((q.level_dbm - (2.0 * -7.0 - 3.0 + m.conversion_db(3))).abs() < 1e-9);
+    }
+
+    #[test]
+    fn a_measured_slope_sets_the_exponent() {
+        let m = LevelModel::default().with_measured_slope(2.1, 3);
+        assert!((m.drive_exponent - 0.7).abs() < 1e-12);
+        let a = m.junction_level(&[(2, -10.0), (1, -10.0)]).level_dbm;
+        let b = m.junction_level(&[(2, -9.0), (1, -9.0)]).level_dbm;
+        assert!((b - a - 2.1).abs() < 1e-9);
     }
 
     #[test]

@@ -408,6 +408,13 @@ pub fn judge_power_steps(series: &[(String, Vec<(f64, f64)>)]) -> Result<PowerSt
             series.len()
         )));
     }
+    for (i, (id, _)) in series.iter().enumerate() {
+        if series[..i].iter().any(|(other, _)| other == id) {
+            return Err(Error::refused(format!(
+                "emitter `{id}` has two series: give each emitter's steps once"
+            )));
+        }
+    }
     let mut fits = Vec::with_capacity(series.len());
     for (id, points) in series {
         let fit = fit_line(points).map_err(|e| Error::refused(format!("emitter `{id}`: {e}")))?;
