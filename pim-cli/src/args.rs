@@ -6,7 +6,7 @@ use std::path::PathBuf;
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::{SearchParams, MAX_ORDER};
-use pim_core::level::JunctionModel;
+use pim_core::level::LevelModel as JunctionModel;
 use serde_json::json;
 
 use crate::common::{finite_arg, frequency_arg, khz_arg, lat_arg, lon_arg, ListFormat};
@@ -33,10 +33,10 @@ pub struct SearchArgs {
     #[arg(long, value_name = "DEG", value_parser = lon_arg, allow_hyphen_values = true, requires = "rx_lat")]
     pub rx_lon: Option<f64>,
     /// Junction model: third-order level (dBm) from two reference tones.
-    #[arg(long, value_name = "DBM", default_value = "-80", value_parser = finite_arg, allow_hyphen_values = true)]
+    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = finite_arg, allow_hyphen_values = true)]
     pub junction_im3_dbm: f64,
-    /// Junction model: level of each reference tone (dBm; IEC 62037-1 uses +43).
-    #[arg(long, value_name = "DBM", default_value = "43", value_parser = finite_arg, allow_hyphen_values = true)]
+    /// Junction model: drive of each reference tone (dBm; IEC 62037-1 uses +43).
+    #[arg(long, value_name = "DBM", default_value = "0", value_parser = finite_arg, allow_hyphen_values = true)]
     pub junction_ref_dbm: f64,
     /// Junction model: further loss per order above the third (dB).
     #[arg(long, value_name = "DB", default_value = "5", value_parser = finite_arg, allow_hyphen_values = true)]
@@ -72,6 +72,7 @@ impl SearchArgs {
             im3_dbm: self.junction_im3_dbm,
             reference_tone_dbm: self.junction_ref_dbm,
             order_step_db: self.order_step_db,
+            ..JunctionModel::default()
         }
     }
 

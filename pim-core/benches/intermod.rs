@@ -92,7 +92,7 @@ fn large_site(c: &mut Criterion) {
     g.bench_function("search and rank", |b| {
         b.iter(|| {
             let hits = find_products(&cs, &p);
-            rank(hits.products, &tx, p.target, junction, &model)
+            rank(hits.products, &tx, &p, junction, &model)
         })
     });
     g.finish();

@@ -6,8 +6,10 @@
 //!
 //! - [`intermod`]: every product of one to three emitters that hits a channel, exactly,
 //!   in whole hertz, with a search that grows as N² rather than N³.
-//! - [`rank`] and [`level`]: which of those is plausible, from ERP, free-space loss
-//!   (ITU-R P.525) and a power-law junction model.
+//! - [`rank`] and [`level`]: which of those the receiver would hear loudest, from the
+//!   field strength at the junction (ITU-R P.525), a power-law junction model with
+//!   multinomial form weights, the power inside the channel, and the other mechanisms
+//!   (a transmitter's harmonic, transmitter intermodulation, the receiver's own IM).
 //! - [`onair`]: whether the interference comes and goes with a candidate's emitters.
 //! - [`plan`]: the largest set of channels on which no product of them lands.
 //! - [`slope`]: the attenuator and power-step tests, read from the level slope.

@@ -1,75 +1,252 @@
-//! Ranking the products that hit a channel: by predicted level where every emitter of a
-//! product has an ERP and a location, otherwise after those, by order then offset.
-//! Remaining ties break on the emitter ids and coefficients, so the same input always
-//! gives the same list.
+//! Ranking the products that hit a channel by what the receiver would hear: each product
+//! becomes one candidate per mechanism that can make it ([`Mechanism`]), levelled by the
+//! model of [`crate::level`], and the power inside the receive channel at the receiver
+//! ranks them. Candidates without a level follow, by order then offset. Remaining ties
+//! break on the emitter ids, coefficients and mechanism, so the same input always gives
+//! the same list.
 //!
-//! With on-air evidence ([`rank_with_evidence`]) the evidence comes first, by the rule in
-//! [`crate::onair`]: fewest times heard while one of the candidate's emitters was off the
-//! air, then most times heard with all of them on, then fewest times silent with all of
-//! them on; the keys above follow among equals.
+//! **Candidates.** Every product is a [`Mechanism::Junction`] candidate; a harmonic (one
+//! emitter, |k| ≥ 2) is also a [`Mechanism::Transmitter`] candidate; a two-emitter
+//! third-order product 2f_A ± f_B is also a [`Mechanism::TransmitterIm`] candidate made in
+//! A; a third-order product is also a [`Mechanism::Receiver`] candidate when the model has
+//! an IIP3 and the receiver's location is known (otherwise [`Ranking::unmodelled`] says
+//! so).
+//!
+//! **What the receiver hears.** The source level (the product at the junction, the EIRP
+//! of a transmitter's output, or the level at the receiver's input) less the free-space
+//! loss from the source to the receiver (ITU-R P.525, distance raised to λ/2π), plus the
+//! receiving antenna's gain, plus 10·log10 of the channel fraction. With no separate
+//! receiver location the receiver is taken at the junction.
+//!
+//! **Calibration.** Given heard levels ([`HeardLevel`], at the receiver or at points of a
+//! walk), each candidate gets the shift that makes its prediction match (the median over
+//! the points) and, for a junction, the third-order level L₃ it would need, in dBc of one
+//! reference tone; a junction needing more than [`LevelModel::max_im3_dbc`] is
+//! `implausible` and ranks after the plausible ones. The same junction at the IEC 62037-1
+//! test condition (two +43 dBm tones) follows from the drive exponent, and is given only
+//! while the extrapolated product stays below its tones (0 dBc): beyond that the power law
+//! cannot hold up to +43 dBm.
+//!
+//! **Fix.** When the junction is a fix from bearings ([`Placement::fix_radius_m`]), candidates
+//! made elsewhere (at a transmitter's antenna, or inside the receiver) disagree with the
+//! bearings and rank after those made at the fix.
+//!
+//! With on-air evidence the evidence comes first, by the rule in [`crate::onair`]: fewest
+//! times heard while one of the candidate's emitters was off the air, then most times
+//! heard with all of them on, then fewest times silent with all of them on; the keys above
+//! follow among equals.
 
 use std::cmp::Ordering;
 
 use serde::Serialize;
 
-use crate::emitter::Emitter;
-use crate::freq::Hz;
+use crate::emitter::{carriers, Emitter};
 use crate::geo::GeoPoint;
-use crate::intermod::{Product, Term};
-use crate::level::{incidence, Incidence, JunctionModel};
+use crate::intermod::{Product, SearchParams, Term};
+use crate::level::{channel_fraction, Incidence, JunctionTerms, LevelModel, Mechanism};
 use crate::onair::{Evidence, Logbook};
 
-/// A product with its place in the ranking.
+/// The IEC 62037-1 test tone, dBm (two carriers of 20 W).
+pub const IEC_62037_TONE_DBM: f64 = 43.0;
+
+/// Where the mixing is assumed to happen and where it is heard.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Placement {
+    /// The junction: the receiver site until a fix is known.
+    pub junction: Option<GeoPoint>,
+    /// The receiver; the junction when `None`.
+    pub receiver: Option<GeoPoint>,
+    /// When the junction is a fix from bearings: how far from it (m) a source may lie and
+    /// still agree with them. A candidate made elsewhere (at a transmitter, or in the
+    /// receiver) is then `away_from_fix` and ranks after those that agree.
+    pub fix_radius_m: Option<f64>,
+}
+
+impl Placement {
+    /// The junction at the receiver.
+    pub fn at(point: Option<GeoPoint>) -> Placement {
+        Placement {
+            junction: point,
+            receiver: None,
+            fix_radius_m: None,
+        }
+    }
+
+    fn receiver(&self) -> Option<GeoPoint> {
+        self.receiver.or(self.junction)
+    }
+}
+
+/// A level heard: at the receiver (`position` `None`) or at a point of a walk.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct HeardLevel {
+    pub position: Option<GeoPoint>,
+    pub level_dbm: f64,
+}
+
+/// Why a candidate (or a whole mechanism) has no level.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Missing {
+    /// No junction or receiver location was given.
+    Location,
+    /// An emitter of the product lacks its ERP or location.
+    ErpOrLocation,
+    /// The receiver's IIP3 was not given.
+    Iip3,
+}
+
+/// The terms of a candidate's level, for a practitioner to check.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct LevelBreakdown {
+    /// The junction's terms (junction candidates only).
+    pub junction: Option<JunctionTerms>,
+    /// The level at the source, dBm: the product at the junction, a transmitter's EIRP,
+    /// or the receiver's input.
+    pub source_level_dbm: f64,
+    /// Loss from the source to the receiver less the receiving antenna's gain, dB.
+    pub path_to_receiver_db: f64,
+    /// The fraction of the product inside the receive channel.
+    pub channel_fraction: f64,
+    /// 10·log10 of it, dB.
+    pub channel_db: f64,
+    /// What the receiver would hear in its channel, dBm.
+    pub in_channel_dbm: f64,
+}
+
+/// What a heard level says of a candidate.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Calibration {
+    /// Heard minus predicted, dB (the median over the heard levels that apply).
+    pub shift_db: f64,
+    /// How many heard levels it rests on.
+    pub points: usize,
+    /// Junction only: the L₃ it would need, dBm, from two tones of the reference drive.
+    pub required_im3_dbm: Option<f64>,
+    /// The same relative to one reference tone, dBc.
+    pub required_im3_dbc: Option<f64>,
+    /// The same junction at the IEC 62037-1 condition (two +43 dBm tones), dBc, while
+    /// the law keeps it below 0 dBc.
+    pub required_im3_dbc_iec: Option<f64>,
+}
+
+/// A product, the mechanism that would make it, and its place in the ranking.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Candidate {
     /// 1 for the most plausible.
     pub rank: usize,
     pub product: Product,
-    /// Σ|kᵢ|·Pᵢ + C(n) in dBm, when every emitter's ERP and location are known.
+    pub mechanism: Mechanism,
+    /// Transmitter intermodulation: the emitter whose output stage makes it.
+    pub formed_in: Option<usize>,
+    /// The model's level at the source (the junction for a junction), dBm.
     pub level_dbm: Option<f64>,
+    pub breakdown: Option<LevelBreakdown>,
+    /// Why there is no level, when there is none.
+    pub missing: Option<Missing>,
+    /// In-channel level relative to the first levelled candidate, dB.
+    pub relative_db: Option<f64>,
+    pub calibration: Option<Calibration>,
+    /// A junction needing more than the model's plausible bound.
+    pub implausible: bool,
+    /// Made farther from the fix than the bearings allow ([`Placement::fix_radius_m`]).
+    pub away_from_fix: bool,
     /// What the on-air log says about it, when a log was given.
     pub evidence: Option<Evidence>,
 }
 
-/// The breakdown of a predicted level, for a practitioner to check.
+/// The breakdown of a junction product's level in the earlier three-term form.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct LevelTerms {
-    /// Σ|kᵢ|·Pᵢ in dB.
+    /// The drive term Σ α·|kᵢ|·(Pᵢ − P_ref), dB.
     pub power_sum_db: f64,
-    /// C(n) in dB.
+    /// Everything else: L₃ + F − s·(n − 3) − e·[n even], dB.
     pub conversion_db: f64,
     pub level_dbm: f64,
+}
+
+/// What the ranking as a whole says.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Outlook {
+    /// At least one levelled candidate that is not implausible.
+    Credible,
+    /// No product lands in the channel.
+    NothingLands,
+    /// Every levelled candidate needs an implausible junction (or is made away from the
+    /// fix).
+    OnlyImplausible,
+    /// Products land, but none could be levelled.
+    Unlevelled,
+}
+
+/// The usual next steps when nothing credible lands.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum NextStep {
+    /// Look for emitters missing from the list (new licences, unlicensed, mobiles).
+    UnlistedEmitters,
+    /// Check for receiver overload with the attenuator test.
+    ReceiverOverload,
+    /// Check a transmitter's own spurious output.
+    TransmitterSpurious,
 }
 
 /// Ranked candidates and what the ranking rested on.
 #[derive(Clone, Debug)]
 pub struct Ranking {
     pub candidates: Vec<Candidate>,
-    /// The junction location used for incident powers (the receiver site, or a fix).
+    /// The junction location used for fields (the receiver site, or a fix).
     pub junction: Option<GeoPoint>,
-    pub model: JunctionModel,
-    /// Incident power of each emitter at the junction, by emitter index.
+    /// Where the candidates are heard.
+    pub receiver: Option<GeoPoint>,
+    pub model: LevelModel,
+    /// The field of each emitter at the junction, by emitter index.
     pub incidence: Vec<Option<Incidence>>,
     /// How many candidates lack a level (ranked after the others by order, then offset).
     pub unlevelled: usize,
     /// Whether on-air evidence took part (it then comes first).
     pub by_evidence: bool,
+    /// Whether heard levels calibrated the candidates.
+    pub calibrated: bool,
+    /// Mechanisms left out for want of data.
+    pub unmodelled: Vec<(Mechanism, Missing)>,
+    pub outlook: Outlook,
 }
 
 impl Ranking {
-    /// The terms of a candidate's predicted level, when it has one.
+    /// The junction terms of a product in the three-term form, when it can be levelled.
     pub fn level_terms(&self, product: &Product) -> Option<LevelTerms> {
-        let mut power_sum_db = 0.0;
-        for t in product.terms() {
-            power_sum_db +=
-                t.coefficient.unsigned_abs() as f64 * self.incidence[t.emitter]?.incident_dbm;
-        }
-        let conversion_db = self.model.conversion_db(product.order());
+        let t = self.junction_terms(product)?;
         Some(LevelTerms {
-            power_sum_db,
-            conversion_db,
-            level_dbm: power_sum_db + conversion_db,
+            power_sum_db: t.drive_db,
+            conversion_db: t.level_dbm - t.drive_db,
+            level_dbm: t.level_dbm,
         })
+    }
+
+    /// The junction model's terms for a product, when every emitter has a field.
+    pub fn junction_terms(&self, product: &Product) -> Option<JunctionTerms> {
+        let mut drives = Vec::with_capacity(3);
+        for t in product.terms() {
+            drives.push((
+                t.coefficient.unsigned_abs(),
+                self.incidence[t.emitter]?.incident_dbm,
+            ));
+        }
+        Some(self.model.junction_level(&drives))
+    }
+
+    /// The usual next steps when the outlook is not credible (empty otherwise).
+    pub fn next_steps(&self) -> &'static [NextStep] {
+        match self.outlook {
+            Outlook::Credible | Outlook::Unlevelled => &[],
+            Outlook::NothingLands | Outlook::OnlyImplausible => &[
+                NextStep::UnlistedEmitters,
+                NextStep::ReceiverOverload,
+                NextStep::TransmitterSpurious,
+            ],
+        }
     }
 
     /// A one-line statement of how the list is ordered.
@@ -86,10 +263,10 @@ impl Ranking {
         let total = self.candidates.len();
         match (self.junction, self.unlevelled) {
             (None, _) => "ranked by order, then offset: no junction location given, so no levels".to_string(),
-            (Some(_), 0) => "ranked by predicted level at the junction".to_string(),
+            (Some(_), 0) => "ranked by predicted level in the receive channel".to_string(),
             (Some(_), u) if u == total => "ranked by order, then offset: no candidate has ERP and location for every emitter".to_string(),
             (Some(_), u) => format!(
-                "ranked by predicted level; {u} of {total} lack an emitter's ERP or location and follow, by order then offset"
+                "ranked by predicted level in the receive channel; {u} of {total} lack an emitter's ERP or location and follow, by order then offset"
             ),
         }
     }
@@ -148,86 +325,368 @@ fn tie_break(a: &Product, b: &Product, emitters: &[Emitter]) -> Ordering {
     ta.len().cmp(&tb.len())
 }
 
-/// Ranks products hitting the channel at `target`. `junction` is where the mixing is
-/// assumed to happen: the receiver site until a fix is known.
+/// Everything a ranking takes besides the products.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct RankInputs<'a> {
+    pub placement: Placement,
+    pub model: LevelModel,
+    pub logbook: Option<&'a Logbook>,
+    /// Heard levels to calibrate against (empty: uncalibrated).
+    pub heard: &'a [HeardLevel],
+}
+
+/// Ranks products hitting the channel of `params`. `junction` is where the mixing is
+/// assumed to happen: the receiver site until a fix is known (also taken as the receiver).
 pub fn rank(
     products: Vec<Product>,
     emitters: &[Emitter],
-    target: Hz,
+    params: &SearchParams,
     junction: Option<GeoPoint>,
-    model: &JunctionModel,
+    model: &LevelModel,
 ) -> Ranking {
-    rank_with_evidence(products, emitters, target, junction, model, None)
+    rank_with_evidence(products, emitters, params, junction, model, None)
 }
 
 /// [`rank`], with the on-air evidence of `logbook` (when given) as the first key.
 pub fn rank_with_evidence(
     products: Vec<Product>,
     emitters: &[Emitter],
-    target: Hz,
+    params: &SearchParams,
     junction: Option<GeoPoint>,
-    model: &JunctionModel,
+    model: &LevelModel,
     logbook: Option<&Logbook>,
 ) -> Ranking {
-    let incidence_by_emitter: Vec<Option<Incidence>> = emitters
+    rank_candidates(
+        products,
+        emitters,
+        params,
+        &RankInputs {
+            placement: Placement::at(junction),
+            model: *model,
+            logbook,
+            heard: &[],
+        },
+    )
+}
+
+/// One candidate before ranking.
+fn candidate(product: Product, mechanism: Mechanism, formed_in: Option<usize>) -> Candidate {
+    Candidate {
+        rank: 0,
+        product,
+        mechanism,
+        formed_in,
+        level_dbm: None,
+        breakdown: None,
+        missing: None,
+        relative_db: None,
+        calibration: None,
+        implausible: false,
+        away_from_fix: false,
+        evidence: None,
+    }
+}
+
+/// The mechanisms that can make `product`, each as a candidate (module docs).
+fn mechanisms_of(product: &Product, receiver_modelled: bool) -> Vec<Candidate> {
+    let mut out = vec![candidate(*product, Mechanism::Junction, None)];
+    let terms: Vec<Term> = product.terms().collect();
+    if product.is_harmonic() {
+        out.push(candidate(*product, Mechanism::Transmitter, None));
+    }
+    if terms.len() == 2 && product.order() == 3 {
+        if let Some(a) = terms.iter().find(|t| t.coefficient.abs() == 2) {
+            out.push(candidate(
+                *product,
+                Mechanism::TransmitterIm,
+                Some(a.emitter),
+            ));
+        }
+    }
+    if receiver_modelled && product.order() == 3 {
+        out.push(candidate(*product, Mechanism::Receiver, None));
+    }
+    out
+}
+
+/// Where a candidate's product comes from: the point and height the path to a listener
+/// starts at (`None` for the receiver's own products).
+fn source_of(
+    c: &Candidate,
+    emitters: &[Emitter],
+    junction: GeoPoint,
+) -> Option<(GeoPoint, Option<f64>)> {
+    match c.mechanism {
+        Mechanism::Junction => Some((junction, None)),
+        Mechanism::Transmitter | Mechanism::TransmitterIm => {
+            let i = c
+                .formed_in
+                .or_else(|| c.product.terms().next().map(|t| t.emitter))?;
+            Some((emitters[i].position?, emitters[i].height_m))
+        }
+        Mechanism::Receiver => None,
+    }
+}
+
+/// The source level of a candidate (dBm) and the junction terms, or why there is none.
+fn source_level(
+    c: &Candidate,
+    emitters: &[Emitter],
+    ranking: &Ranking,
+    receiver: GeoPoint,
+) -> Result<(f64, Option<JunctionTerms>), Missing> {
+    let m = &ranking.model;
+    match c.mechanism {
+        Mechanism::Junction => {
+            let t = ranking
+                .junction_terms(&c.product)
+                .ok_or(Missing::ErpOrLocation)?;
+            Ok((t.level_dbm, Some(t)))
+        }
+        Mechanism::Transmitter => {
+            let e = c.product.terms().next().map(|t| &emitters[t.emitter]);
+            let erp = e
+                .filter(|e| e.position.is_some())
+                .and_then(|e| e.erp_dbm)
+                .ok_or(Missing::ErpOrLocation)?;
+            Ok((m.spurious_limit_eirp_dbm(erp), None))
+        }
+        Mechanism::TransmitterIm => {
+            let a = c.formed_in.ok_or(Missing::ErpOrLocation)?;
+            let b = c
+                .product
+                .terms()
+                .find(|t| t.emitter != a)
+                .ok_or(Missing::ErpOrLocation)?
+                .emitter;
+            let (ea, eb) = (&emitters[a], &emitters[b]);
+            let (Some(pa), Some(pb), Some(erp_b)) = (ea.position, eb.position, eb.erp_dbm) else {
+                return Err(Missing::ErpOrLocation);
+            };
+            let d = crate::level::slant_distance_m(
+                crate::geo::distance_m(pa, pb),
+                ea.height_m.unwrap_or(m.junction_height_m),
+                eb.height_m.unwrap_or(m.junction_height_m),
+            );
+            Ok((m.transmitter_im_eirp_dbm(erp_b, eb.freq.0 as f64, d), None))
+        }
+        Mechanism::Receiver => {
+            let iip3 = m.rx_iip3_dbm.ok_or(Missing::Iip3)?;
+            let mut sum = 0.0;
+            let mut ks = Vec::with_capacity(3);
+            for t in c.product.terms() {
+                let e = &emitters[t.emitter];
+                let (Some(p), Some(erp)) = (e.position, e.erp_dbm) else {
+                    return Err(Missing::ErpOrLocation);
+                };
+                let input = erp + crate::level::DIPOLE_GAIN_DBI
+                    - m.path_to_receiver_db(e.freq.0 as f64, p, e.height_m, receiver);
+                let k = t.coefficient.unsigned_abs();
+                sum += k as f64 * input;
+                ks.push(k);
+            }
+            Ok((sum - 2.0 * iip3 + crate::level::form_weight_db(&ks), None))
+        }
+    }
+}
+
+/// The median of a non-empty list.
+fn median(values: &mut [f64]) -> f64 {
+    values.sort_by(f64::total_cmp);
+    let n = values.len();
+    if n % 2 == 1 {
+        values[n / 2]
+    } else {
+        (values[n / 2 - 1] + values[n / 2]) / 2.0
+    }
+}
+
+/// The calibration of a levelled candidate against `heard` (module docs).
+fn calibrate(
+    c: &Candidate,
+    b: &LevelBreakdown,
+    emitters: &[Emitter],
+    ranking: &Ranking,
+    junction: GeoPoint,
+    heard: &[HeardLevel],
+) -> Option<Calibration> {
+    let m = &ranking.model;
+    let source = source_of(c, emitters, junction);
+    let f = c.product.freq.0 as f64;
+    let mut shifts: Vec<f64> = heard
         .iter()
-        .map(|e| junction.and_then(|j| incidence(e, j)))
+        .filter_map(|h| match (h.position, source) {
+            (None, _) => Some(h.level_dbm - b.in_channel_dbm),
+            (Some(p), Some((from, height))) => Some(
+                h.level_dbm
+                    - (b.source_level_dbm - m.path_to_receiver_db(f, from, height, p)
+                        + b.channel_db),
+            ),
+            (Some(_), None) => None,
+        })
         .collect();
+    if shifts.is_empty() {
+        return None;
+    }
+    let points = shifts.len();
+    let shift_db = median(&mut shifts);
+    let (mut im3, mut dbc, mut iec) = (None, None, None);
+    if c.mechanism == Mechanism::Junction {
+        let l3 = m.im3_dbm + shift_db;
+        im3 = Some(l3);
+        dbc = Some(l3 - m.reference_tone_dbm);
+        let at_iec = l3 + 3.0 * m.drive_exponent * (IEC_62037_TONE_DBM - m.reference_tone_dbm)
+            - IEC_62037_TONE_DBM;
+        iec = (at_iec < 0.0).then_some(at_iec);
+    }
+    Some(Calibration {
+        shift_db,
+        points,
+        required_im3_dbm: im3,
+        required_im3_dbc: dbc,
+        required_im3_dbc_iec: iec,
+    })
+}
+
+/// Ranks products hitting the channel of `params` with everything of `inputs`.
+pub fn rank_candidates(
+    products: Vec<Product>,
+    emitters: &[Emitter],
+    params: &SearchParams,
+    inputs: &RankInputs,
+) -> Ranking {
+    let model = inputs.model;
+    let junction = inputs.placement.junction;
+    let receiver = inputs.placement.receiver();
+    let incidence = emitters
+        .iter()
+        .map(|e| junction.and_then(|j| model.incidence(e, j)))
+        .collect();
+    let receiver_modelled = model.rx_iip3_dbm.is_some() && receiver.is_some();
+    let mut unmodelled = Vec::new();
+    if model.rx_iip3_dbm.is_none() {
+        unmodelled.push((Mechanism::Receiver, Missing::Iip3));
+    } else if receiver.is_none() {
+        unmodelled.push((Mechanism::Receiver, Missing::Location));
+    }
     let mut ranking = Ranking {
         candidates: Vec::with_capacity(products.len()),
         junction,
-        model: *model,
-        incidence: incidence_by_emitter,
+        receiver,
+        model,
+        incidence,
         unlevelled: 0,
-        by_evidence: logbook.is_some(),
+        by_evidence: inputs.logbook.is_some(),
+        calibrated: false,
+        unmodelled,
+        outlook: Outlook::NothingLands,
     };
-    for product in products {
-        let level_dbm = ranking.level_terms(&product).map(|t| t.level_dbm);
-        ranking.candidates.push(Candidate {
-            rank: 0,
-            product,
-            level_dbm,
-            evidence: logbook.map(|book| book.evidence(&product)),
-        });
+    let carriers = carriers(emitters);
+    let mut candidates = Vec::with_capacity(products.len());
+    for product in &products {
+        for mut c in mechanisms_of(product, receiver_modelled) {
+            c.evidence = inputs.logbook.map(|book| book.evidence(product));
+            if let (Some(j), Some(radius)) = (junction, inputs.placement.fix_radius_m) {
+                let at = match source_of(&c, emitters, j) {
+                    Some((p, _)) => Some(p),
+                    None => receiver,
+                };
+                c.away_from_fix = at.is_some_and(|p| crate::geo::distance_m(p, j) > radius);
+            }
+            match (junction, receiver) {
+                (Some(j), Some(rx)) => match source_level(&c, emitters, &ranking, rx) {
+                    Ok((level, junction_terms)) => {
+                        let path = match source_of(&c, emitters, j) {
+                            Some((from, h)) => {
+                                model.path_to_receiver_db(product.freq.0 as f64, from, h, rx)
+                            }
+                            None => 0.0,
+                        };
+                        let fraction = channel_fraction(
+                            product.offset(params.target),
+                            product.bandwidth(&carriers),
+                            params.rx_bandwidth,
+                        );
+                        let channel_db = 10.0 * fraction.log10();
+                        let b = LevelBreakdown {
+                            junction: junction_terms,
+                            source_level_dbm: level,
+                            path_to_receiver_db: path,
+                            channel_fraction: fraction,
+                            channel_db,
+                            in_channel_dbm: level - path + channel_db,
+                        };
+                        c.level_dbm = Some(level);
+                        c.calibration = calibrate(&c, &b, emitters, &ranking, j, inputs.heard);
+                        c.implausible = c
+                            .calibration
+                            .and_then(|k| k.required_im3_dbc)
+                            .is_some_and(|dbc| dbc > model.max_im3_dbc);
+                        c.breakdown = Some(b);
+                    }
+                    Err(missing) => c.missing = Some(missing),
+                },
+                _ => c.missing = Some(Missing::Location),
+            }
+            candidates.push(c);
+        }
     }
-    ranking.unlevelled = ranking
-        .candidates
-        .iter()
-        .filter(|c| c.level_dbm.is_none())
-        .count();
-    ranking.candidates.sort_by(|a, b| {
+    ranking.calibrated = candidates.iter().any(|c| c.calibration.is_some());
+    ranking.unlevelled = candidates.iter().filter(|c| c.level_dbm.is_none()).count();
+    let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
+    candidates.sort_by(|a, b| {
         let by_evidence = match (&a.evidence, &b.evidence) {
             (Some(x), Some(y)) => x.ranking_cmp(y),
             _ => Ordering::Equal,
         };
-        let by_level = match (a.level_dbm, b.level_dbm) {
-            (Some(x), Some(y)) => y.total_cmp(&x),
+        let by_level = match (heard_key(a), heard_key(b)) {
+            (Some(x), Some(y)) => a.implausible.cmp(&b.implausible).then(y.total_cmp(&x)),
             (Some(_), None) => Ordering::Less,
             (None, Some(_)) => Ordering::Greater,
             (None, None) => Ordering::Equal,
         };
         by_evidence
+            .then(a.away_from_fix.cmp(&b.away_from_fix))
             .then(by_level)
             .then(a.product.order().cmp(&b.product.order()))
             .then(
                 a.product
-                    .offset(target)
+                    .offset(params.target)
                     .0
                     .abs()
-                    .cmp(&b.product.offset(target).0.abs()),
+                    .cmp(&b.product.offset(params.target).0.abs()),
             )
             .then_with(|| tie_break(&a.product, &b.product, emitters))
+            .then(a.mechanism.cmp(&b.mechanism))
     });
-    for (i, c) in ranking.candidates.iter_mut().enumerate() {
+    let first = candidates.iter().find_map(heard_key);
+    for (i, c) in candidates.iter_mut().enumerate() {
         c.rank = i + 1;
+        c.relative_db = match (heard_key(c), first) {
+            (Some(x), Some(f)) => Some(x - f),
+            _ => None,
+        };
     }
+    ranking.outlook = if candidates.is_empty() {
+        Outlook::NothingLands
+    } else if candidates
+        .iter()
+        .any(|c| c.level_dbm.is_some() && !c.implausible && !c.away_from_fix)
+    {
+        Outlook::Credible
+    } else if candidates.iter().any(|c| c.level_dbm.is_some()) {
+        Outlook::OnlyImplausible
+    } else {
+        Outlook::Unlevelled
+    };
+    ranking.candidates = candidates;
     ranking
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::intermod::Term;
+    use crate::freq::Hz;
     use crate::onair::{Interval, Observation, Schedule};
     use time::macros::datetime;
 
@@ -244,8 +703,15 @@ mod tests {
         };
         let third = Product::new(&[t(0, 2), t(1, -1)], Hz(146_400_000));
         let fifth = Product::new(&[t(0, 3), t(2, -2)], Hz(146_400_000));
-        let model = JunctionModel::default();
-        let plain = rank(vec![fifth, third], &e, Hz(146_400_000), None, &model);
+        let model = LevelModel::default();
+        let params = SearchParams {
+            target: Hz(146_400_000),
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 5,
+            max_emitters: 3,
+        };
+        let plain = rank(vec![fifth, third], &e, &params, None, &model);
         assert_eq!(plain.candidates[0].product, third);
         assert!(!plain.by_evidence && plain.candidates[0].evidence.is_none());
         // Heard at 09:30 while B was off the air and A and C were on.
@@ -266,14 +732,7 @@ mod tests {
                 heard: true,
             }],
         );
-        let r = rank_with_evidence(
-            vec![third, fifth],
-            &e,
-            Hz(146_400_000),
-            None,
-            &model,
-            Some(&book),
-        );
+        let r = rank_with_evidence(vec![third, fifth], &e, &params, None, &model, Some(&book));
         assert_eq!(r.candidates[0].product, fifth);
         assert_eq!(r.candidates[0].evidence.map(|v| v.support), Some(1));
         assert_eq!(r.candidates[1].evidence.map(|v| v.heard_off_air), Some(1));
@@ -323,5 +782,137 @@ mod tests {
             Hz(105_200_000),
         );
         assert_eq!(formula(&q, &e), "FM + LMR2 − PAGER");
+    }
+
+    fn site_emitters() -> (Vec<Emitter>, GeoPoint) {
+        let j = GeoPoint::new(45.0, -122.0);
+        let mk = |id: &str, hz: i64, az: f64, erp_w: f64| {
+            let mut e = Emitter::new(id, Hz(hz), Hz(16_000));
+            e.erp_dbm = Some(crate::emitter::watts_to_dbm(erp_w));
+            e.position = Some(crate::geo::destination(j, az, 300.0));
+            e
+        };
+        (
+            vec![
+                mk("A", 150_000_000, 0.0, 100.0),
+                mk("B", 153_600_000, 120.0, 100.0),
+                mk("H", 73_200_000, 240.0, 100.0),
+            ],
+            j,
+        )
+    }
+
+    fn channel() -> SearchParams {
+        SearchParams {
+            target: Hz(146_400_000),
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 3,
+            max_emitters: 2,
+        }
+    }
+
+    #[test]
+    fn mechanisms_are_levelled_by_their_own_models() {
+        let (e, j) = site_emitters();
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        let im3 = Product::new(&[t(0, 2), t(1, -1)], Hz(146_400_000));
+        let harmonic = Product::new(&[t(2, 2)], Hz(146_400_000));
+        let model = LevelModel {
+            rx_iip3_dbm: Some(-10.0),
+            ..LevelModel::default()
+        };
+        let r = rank_candidates(
+            vec![im3, harmonic],
+            &e,
+            &channel(),
+            &RankInputs {
+                placement: Placement::at(Some(j)),
+                model,
+                ..RankInputs::default()
+            },
+        );
+        let find = |m: Mechanism, p: Product| {
+            r.candidates
+                .iter()
+                .find(|c| c.mechanism == m && c.product == p)
+                .copied()
+                .unwrap()
+        };
+        // The harmonic at the ITU-R SM.329 limit is far stronger than any junction's.
+        let tx = find(Mechanism::Transmitter, harmonic);
+        let junction = find(Mechanism::Junction, harmonic);
+        assert!(tx.rank < junction.rank);
+        assert!((tx.level_dbm.unwrap() - (-13.0 + crate::level::DIPOLE_GAIN_DBI)).abs() < 1e-9);
+        // The receiver's own IM3: 2·P_A + P_B − 2·IIP3 (Pozar), from the powers at its input.
+        let rx = find(Mechanism::Receiver, im3);
+        let input = |i: usize| {
+            let em = &e[i];
+            em.erp_dbm.unwrap() + crate::level::DIPOLE_GAIN_DBI
+                - model.path_to_receiver_db(em.freq.0 as f64, em.position.unwrap(), None, j)
+        };
+        let want = 2.0 * input(0) + input(1) + 20.0;
+        assert!((rx.level_dbm.unwrap() - want).abs() < 1e-9);
+        assert!(r.unmodelled.is_empty());
+        let plain = rank(vec![im3], &e, &channel(), Some(j), &LevelModel::default());
+        assert_eq!(plain.unmodelled, vec![(Mechanism::Receiver, Missing::Iip3)]);
+        assert!(plain
+            .candidates
+            .iter()
+            .all(|c| c.mechanism != Mechanism::Receiver));
+    }
+
+    #[test]
+    fn outlook_says_when_nothing_credible_lands() {
+        let (e, j) = site_emitters();
+        let none = rank(vec![], &e, &channel(), Some(j), &LevelModel::default());
+        assert_eq!(none.outlook, Outlook::NothingLands);
+        assert_eq!(none.next_steps().len(), 3);
+        let im3 = Product::new(
+            &[
+                Term {
+                    emitter: 0,
+                    coefficient: 2,
+                },
+                Term {
+                    emitter: 1,
+                    coefficient: -1,
+                },
+            ],
+            Hz(146_400_000),
+        );
+        let inputs = |heard| RankInputs {
+            placement: Placement::at(Some(j)),
+            heard,
+            ..RankInputs::default()
+        };
+        // Heard at +10 dBm on the receiver: no passive joint makes that.
+        let loud = [HeardLevel {
+            position: None,
+            level_dbm: 10.0,
+        }];
+        let r = rank_candidates(vec![im3], &e, &channel(), &inputs(&loud));
+        let c = r
+            .candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Junction)
+            .unwrap();
+        assert!(c.implausible);
+        assert!(c.calibration.unwrap().required_im3_dbc.unwrap() > -10.0);
+        // The same product made in A's output stage stays credible: that is not a junction.
+        assert_eq!(r.outlook, Outlook::Credible);
+        let quiet = [HeardLevel {
+            position: None,
+            level_dbm: -110.0,
+        }];
+        let r = rank_candidates(vec![im3], &e, &channel(), &inputs(&quiet));
+        assert!(r.candidates.iter().all(|c| !c.implausible));
+        assert!(r.calibrated && r.next_steps().is_empty());
+        let shift = r.candidates[0].calibration.unwrap().shift_db;
+        let heard = r.candidates[0].breakdown.unwrap().in_channel_dbm + shift;
+        assert!((heard + 110.0).abs() < 1e-9);
     }
 }

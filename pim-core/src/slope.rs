@@ -41,6 +41,16 @@
 //! When the interval straddles a boundary, [`Unsettled::Straddles`] says how many readings
 //! over the same range of steps, or what range of steps with the same number of readings,
 //! would narrow the interval enough at the present scatter.
+//!
+//! **Power steps of several emitters.** [`judge_power_steps`] fits each emitter's series
+//! alone. A junction whose law is below the ideal by a common exponent α (level ∝
+//! Π Pᵢ^(α·|kᵢ|)) gives slopes α·|kᵢ|, so one slope cannot separate |k| from α, but the
+//! ratios of two or more can. The answer is the integer vector of least order Σ|kᵢ| (at
+//! most three emitters nonzero, order at most 15) for which one α in (0, 1] — at or below
+//! the ideal law — lies inside every slope's 95 % interval divided by its |kᵢ| (|kᵢ| = 0
+//! needs an interval holding 0). Two or more vectors of that order make it ambiguous.
+//! The exponent is the weighted least-squares α̂ = Σ(kᵢbᵢ/seᵢ²)/Σ(kᵢ²/seᵢ²) with
+//! se = 1/√Σ(kᵢ²/seᵢ²) and the t quantile of the fewest degrees of freedom.
 
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, StudentsT};
@@ -293,6 +303,202 @@ fn straddles(fit: &LineFit, boundary: f64, margin: f64, half_width: f64) -> Unse
     }
 }
 
+/// One emitter's part in a multi-emitter power-step answer.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct EmitterCoefficient {
+    pub emitter: String,
+    /// |k|, when the answer settles it.
+    pub k: Option<u32>,
+    /// The level's change per dB of this emitter's power, dB/dB.
+    pub slope_db_per_db: f64,
+    /// Its standard error; `None` with two readings.
+    pub slope_stderr: Option<f64>,
+}
+
+/// The common drive exponent α implied by the coefficients.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Exponent {
+    pub estimate: f64,
+    /// The 95 % interval.
+    pub interval: (f64, f64),
+}
+
+/// What a multi-emitter power-step series says.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PowerVerdict {
+    /// One integer vector of least order fits every slope.
+    Coefficients,
+    /// Two or more vectors of the least order fit.
+    Ambiguous,
+    /// No vector up to order 15 fits with an exponent at or below the ideal law.
+    NoneConsistent,
+    /// One emitter's slope cannot separate |k| from the exponent; its answer assumes the
+    /// ideal law.
+    SingleEmitter,
+    /// A series has only two readings: no interval.
+    TooFewReadings,
+}
+
+/// The answer of [`judge_power_steps`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct PowerSteps {
+    pub coefficients: Vec<EmitterCoefficient>,
+    pub exponent: Option<Exponent>,
+    pub verdict: PowerVerdict,
+    /// With one emitter, the single-series answer of [`judge`].
+    pub single: Option<SlopeAnswer>,
+}
+
+/// The most emitters one power-step file may hold.
+pub const MAX_STEPPED_EMITTERS: usize = 8;
+
+/// Every vector of `m` counts 0..=15 with at most three nonzero and order 1..=15, in
+/// order of increasing Σ.
+fn coefficient_vectors(m: usize) -> Vec<Vec<u32>> {
+    fn recurse(m: usize, budget: u32, nonzero: usize, cur: &mut Vec<u32>, out: &mut Vec<Vec<u32>>) {
+        if cur.len() == m {
+            if cur.iter().any(|&k| k > 0) {
+                out.push(cur.clone());
+            }
+            return;
+        }
+        for k in 0..=budget {
+            if k > 0 && nonzero == 3 {
+                break;
+            }
+            cur.push(k);
+            recurse(m, budget - k, nonzero + usize::from(k > 0), cur, out);
+            cur.pop();
+        }
+    }
+    let mut out = Vec::new();
+    recurse(m, MAX_ORDER, 0, &mut Vec::with_capacity(m), &mut out);
+    out.sort_by_key(|v| v.iter().sum::<u32>());
+    out
+}
+
+/// The range of α consistent with every interval for `k` (module docs), if any.
+fn exponent_range(k: &[u32], intervals: &[(f64, f64)]) -> Option<(f64, f64)> {
+    let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
+    for (&k, &(a, b)) in k.iter().zip(intervals) {
+        if k == 0 {
+            if a > 0.0 || b < 0.0 {
+                return None;
+            }
+        } else {
+            lo = lo.max(a / k as f64);
+            hi = hi.min(b / k as f64);
+        }
+    }
+    (lo <= hi && hi > 0.0 && lo <= 1.0).then_some((lo.max(0.0), hi.min(1.0)))
+}
+
+/// Reads the power steps of one or more emitters: `(emitter, readings)` with readings
+/// `(step_db, level_dbm)` as for [`judge`] (module docs).
+pub fn judge_power_steps(series: &[(String, Vec<(f64, f64)>)]) -> Result<PowerSteps> {
+    if series.is_empty() {
+        return Err(Error::refused(
+            "no readings: a power step needs readings of at least one emitter",
+        ));
+    }
+    if series.len() > MAX_STEPPED_EMITTERS {
+        return Err(Error::refused(format!(
+            "{} emitters stepped: at most {MAX_STEPPED_EMITTERS} can be read together",
+            series.len()
+        )));
+    }
+    for (i, (id, _)) in series.iter().enumerate() {
+        if series[..i].iter().any(|(other, _)| other == id) {
+            return Err(Error::refused(format!(
+                "emitter `{id}` has two series: give each emitter's steps once"
+            )));
+        }
+    }
+    let mut fits = Vec::with_capacity(series.len());
+    for (id, points) in series {
+        let fit = fit_line(points).map_err(|e| Error::refused(format!("emitter `{id}`: {e}")))?;
+        fits.push(fit);
+    }
+    let mut coefficients: Vec<EmitterCoefficient> = series
+        .iter()
+        .zip(&fits)
+        .map(|((id, _), f)| EmitterCoefficient {
+            emitter: id.clone(),
+            k: None,
+            slope_db_per_db: f.slope,
+            slope_stderr: f.slope_stderr,
+        })
+        .collect();
+    if series.len() == 1 {
+        let single = judge(StepKind::Power, &series[0].1)?;
+        coefficients[0].k = single.coefficient;
+        return Ok(PowerSteps {
+            coefficients,
+            exponent: None,
+            verdict: PowerVerdict::SingleEmitter,
+            single: Some(single),
+        });
+    }
+    let mut intervals = Vec::with_capacity(fits.len());
+    let mut t_max: f64 = 0.0;
+    for f in &fits {
+        let (Some(se), Some(t)) = (f.slope_stderr, t_quantile(f.n as f64 - 2.0)) else {
+            return Ok(PowerSteps {
+                coefficients,
+                exponent: None,
+                verdict: PowerVerdict::TooFewReadings,
+                single: None,
+            });
+        };
+        t_max = t_max.max(t);
+        intervals.push((f.slope - t * se, f.slope + t * se));
+    }
+    let mut found: Vec<Vec<u32>> = Vec::new();
+    for k in coefficient_vectors(series.len()) {
+        let order: u32 = k.iter().sum();
+        if found.first().is_some_and(|f| f.iter().sum::<u32>() < order) {
+            break;
+        }
+        if exponent_range(&k, &intervals).is_some() {
+            found.push(k);
+        }
+    }
+    let verdict = match found.len() {
+        0 => PowerVerdict::NoneConsistent,
+        1 => PowerVerdict::Coefficients,
+        _ => PowerVerdict::Ambiguous,
+    };
+    let mut exponent = None;
+    if let [k] = found.as_slice() {
+        let (mut num, mut den) = (0.0, 0.0);
+        for ((&k, f), c) in k.iter().zip(&fits).zip(coefficients.iter_mut()) {
+            c.k = Some(k);
+            let w = 1.0
+                / f.slope_stderr
+                    .unwrap_or(f64::INFINITY)
+                    .powi(2)
+                    .max(f64::MIN_POSITIVE);
+            num += k as f64 * f.slope * w;
+            den += (k as f64).powi(2) * w;
+        }
+        if den > 0.0 && den.is_finite() {
+            let estimate = num / den;
+            let h = t_max / den.sqrt();
+            exponent = Some(Exponent {
+                estimate,
+                interval: (estimate - h, estimate + h),
+            });
+        }
+    }
+    Ok(PowerSteps {
+        coefficients,
+        exponent,
+        verdict,
+        single: None,
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -369,5 +575,26 @@ mod tests {
             }
             other => panic!("{other:?}"),
         }
+    }
+
+    #[test]
+    fn two_emitters_separate_coefficients_from_the_exponent() {
+        let steps = [0.0, -1.0, -2.0, -3.0, -4.0, -5.0, -6.0];
+        let wob = [0.05, -0.05, 0.0, 0.04, -0.03, 0.02, -0.04];
+        for (alpha, ka, kb) in [(0.7, 2u32, 1u32), (1.0, 3, 2), (0.7, 3, 2), (1.0, 2, 1)] {
+            let series = vec![
+                ("A".to_string(), line(alpha * ka as f64, &steps, &wob)),
+                ("B".to_string(), line(alpha * kb as f64, &steps, &wob[1..])),
+            ];
+            let r = judge_power_steps(&series).unwrap();
+            assert_eq!(r.verdict, PowerVerdict::Coefficients, "{alpha} {ka} {kb}");
+            assert_eq!(r.coefficients[0].k, Some(ka));
+            assert_eq!(r.coefficients[1].k, Some(kb));
+            let e = r.exponent.unwrap();
+            assert!(e.interval.0 < alpha && alpha < e.interval.1, "{e:?}");
+        }
+        let one = judge_power_steps(&[("A".to_string(), line(2.0, &steps, &wob))]).unwrap();
+        assert_eq!(one.verdict, PowerVerdict::SingleEmitter);
+        assert_eq!(one.coefficients[0].k, Some(2));
     }
 }

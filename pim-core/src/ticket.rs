@@ -133,7 +133,7 @@ pub fn rank_changes(at_fix: &Ranking, at_receiver: &Ranking, top: usize) -> Vec<
             let before = at_receiver
                 .candidates
                 .iter()
-                .find(|r| r.product == c.product);
+                .find(|r| r.product == c.product && r.mechanism == c.mechanism);
             RankChange {
                 product: c.product,
                 rank_at_fix: c.rank,

@@ -8,7 +8,7 @@ use pim_core::fix::{Fix, SigmaSource};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
 use pim_core::level::JunctionModel;
-use pim_core::rank::{display_terms, formula, Ranking};
+use pim_core::rank::{display_terms, formula, Placement, Ranking};
 use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
 use pim_core::{Error, Query, Site};
 use pim_io::export::{bearing_length_m, fix_geojson, fix_kml};
@@ -193,8 +193,8 @@ fn build(
     }
     let m = &t.model;
     doc.push(Block::Para(format!(
-        "Levels: each emitter's power at the junction is its ERP less the free-space loss (ITU-R P.525); a product's level is Σ|k|·P + C(n), with C(n) set so that two {:.0} dBm tones make {:.0} dBm at third order and each further order costs {:.0} dB. They rank candidates against each other; a real joint may differ by tens of dB.",
-        m.reference_tone_dbm, m.im3_dbm, m.order_step_db
+        "Levels: each emitter drives the junction by its field strength there (ITU-R P.525, EIRP = ERP + 2.15 dB), taken as the power a {:.0} m² aperture collects; a product's level follows a power law from two {:.0} dBm tones making {:.0} dBm at third order, weighted by the product's multinomial coefficient, each further order costing {:.0} dB and even orders {:.0} dB more; candidates rank by the part of the product inside the receive channel at the receiver. A real joint may differ by tens of dB.",
+        m.coupling_aperture_m2, m.reference_tone_dbm, m.im3_dbm, m.order_step_db, m.even_order_penalty_db
     )));
     let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
     doc.push(Block::Picture {
@@ -505,6 +505,9 @@ fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> S
     }
 }
 
+/// Sources closer than this to the fix agree with the bearings whatever the ellipse, m.
+const FIX_RADIUS_FLOOR_M: f64 = 30.0;
+
 /// Searches, ranks at the receiver and at the fix, and makes the seven files of the
 /// ticket: ticket.md, ticket.html, map.svg, spectrum.svg, fix.geojson, fix.kml and
 /// candidates.csv.
@@ -516,7 +519,14 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         ..Query::new(t.params.target)
     });
     let at_rx = t.rx_site.map(|_| answer.ranking.clone());
-    let at_fix = answer.ranked_at(&t.site, t.fix.position);
+    let at_fix = answer.ranked_at(
+        &t.site,
+        Placement {
+            junction: Some(t.fix.position),
+            receiver: t.rx_site,
+            fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
+        },
+    );
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
     let (doc, map, spectrum) = build(t, &at_fix, at_rx.as_ref(), &near);
     let title = format!(

@@ -24,10 +24,18 @@ fn explains_the_demo_carrier_with_the_planted_pair_first() {
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
-    let first = &v["candidates"][0];
+    // With the junction assumed at the repeater site itself, the repeater's own output
+    // (about 125 dB(µV/m) at the tower base) may drive a fifth-order product above the
+    // planted pair; the planted pair is the first third-order candidate (at the fix it is
+    // first: cli_ticket).
+    let first = v["candidates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["order"] == 3)
+        .unwrap();
     assert_eq!(first["formula"], "2·SKP-152 − FIRE-DSP");
-    assert_eq!(first["order"], 3);
-    assert_eq!(first["rank"], 1);
+    assert!(first["rank"].as_u64().unwrap() <= 2, "{first}");
     assert_eq!(first["product_mhz"], 146.34);
     assert_eq!(first["offset_khz"], 0.0);
     assert_eq!(first["terms"][0]["emitter"], "SKP-152");
@@ -118,7 +126,13 @@ fn study_lists_every_receiver() {
     let rx = v["receivers"].as_array().unwrap();
     assert_eq!(rx.len(), 4);
     assert_eq!(rx[0]["id"], "QK7MHR-IN");
-    assert_eq!(rx[0]["candidates"][0]["formula"], "2·SKP-152 − FIRE-DSP");
+    let third = rx[0]["candidates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["order"] == 3)
+        .unwrap();
+    assert_eq!(third["formula"], "2·SKP-152 − FIRE-DSP");
     // Piped output carries no progress bar.
     assert!(!stderr_of(&o).contains("studying"));
 }

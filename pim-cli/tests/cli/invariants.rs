@@ -118,7 +118,7 @@ proptest! {
         let listing = |em: &[Emitter]| -> Vec<String> {
             let carriers = pim_core::emitter::carriers(em);
             let hits = find_products(&carriers, &params);
-            let r = rank(hits.products, em, params.target, Some(TRUTH), &JunctionModel::default());
+            let r = rank(hits.products, em, &params, Some(TRUTH), &JunctionModel::default());
             r.candidates.iter().map(|c| formula(&c.product, em)).collect()
         };
         prop_assert_eq!(listing(&emitters), listing(&shuffled));

@@ -5,6 +5,7 @@
 mod fix_checks;
 mod intermod_oracle;
 mod large_inputs;
+mod level_checks;
 mod plan_golomb;
 mod published_checks;
 mod slope_simulated;
