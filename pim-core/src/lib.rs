@@ -54,6 +54,7 @@ pub mod plan;
 pub mod rank;
 pub mod slope;
 pub mod ticket;
+pub mod trace;
 pub mod walk;
 
 pub use error::{Error, ErrorClass, Place, Result};

@@ -12,6 +12,7 @@ pub mod fieldlog;
 pub mod onair;
 pub mod readings;
 pub mod table;
+pub mod trace;
 pub mod track;
 
 pub use channels::{read_channels, ChannelFile, ListedChannel};
