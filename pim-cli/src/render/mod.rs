@@ -3,6 +3,7 @@
 pub mod candidates;
 pub mod document;
 pub mod text_table;
+pub mod trace;
 
 // The pictures of the maintenance ticket (map.svg, spectrum.svg) and what they share;
 // wired in by the ticket command.

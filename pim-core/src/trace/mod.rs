@@ -250,6 +250,76 @@ impl Trace {
     }
 }
 
+/// The least floor window, in points.
+pub const MIN_FLOOR_WINDOW_POINTS: usize = 101;
+
+/// Receive channel widths per floor window.
+pub const FLOOR_WINDOW_CHANNELS: f64 = 25.0;
+
+/// The floor window for a trace of step `step_hz` and a receive channel of `rx_bandwidth`:
+/// [`FLOOR_WINDOW_CHANNELS`] channel widths, at least [`MIN_FLOOR_WINDOW_POINTS`] points.
+pub fn floor_window_points(step_hz: f64, rx_bandwidth: Hz) -> usize {
+    let channels = FLOOR_WINDOW_CHANNELS * rx_bandwidth.0 as f64 / step_hz.max(1e-9);
+    (channels.ceil() as usize).max(MIN_FLOOR_WINDOW_POINTS)
+}
+
+/// The least distance between peaks in points: one receive channel, at least one point.
+pub fn min_distance_points(step_hz: f64, rx_bandwidth: Hz) -> usize {
+    ((rx_bandwidth.0 as f64 / step_hz.max(1e-9)).ceil() as usize).max(1)
+}
+
+/// How a trace is read: the peak threshold and the explaining search.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SweepRule {
+    /// Least height of a peak above the floor, in dB.
+    pub threshold_db: f64,
+    /// Floor window in points; `None` for [`floor_window_points`].
+    pub floor_window_points: Option<usize>,
+    pub explain: classify::ExplainRule,
+    /// Threads to explain the peaks on.
+    pub threads: usize,
+}
+
+/// Everything found on a trace.
+#[derive(Clone, Debug)]
+pub struct Sweep {
+    pub floor: floor::Floor,
+    /// The least distance kept between peaks, in points.
+    pub min_distance_points: usize,
+    /// The peaks in frequency order, each explained.
+    pub peaks: Vec<classify::ExplainedPeak>,
+    /// Emitter sets explaining several peaks, best first.
+    pub suspects: Vec<classify::Suspect>,
+}
+
+/// Finds the floor and the peaks of `trace`, explains each peak from `emitters` and ranks
+/// the suspects.
+pub fn analyse(trace: &Trace, emitters: &[crate::emitter::Emitter], rule: &SweepRule) -> Sweep {
+    let rx = rule.explain.rx_bandwidth;
+    let window = rule
+        .floor_window_points
+        .unwrap_or_else(|| floor_window_points(trace.step_hz, rx));
+    let floor = floor::Floor::estimate(&trace.levels_dbm, window);
+    let min_distance = min_distance_points(trace.step_hz, rx);
+    let found = peaks::find_peaks(
+        trace,
+        &floor,
+        &peaks::PeakRule {
+            threshold_db: rule.threshold_db,
+            min_distance_points: min_distance,
+        },
+    );
+    let explained =
+        classify::explain_peaks(&found, emitters, &rule.explain, trace.step_hz, rule.threads);
+    let suspects = classify::suspects(&explained, emitters);
+    Sweep {
+        floor,
+        min_distance_points: min_distance,
+        peaks: explained,
+        suspects,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
