@@ -222,6 +222,7 @@ pub fn run(args: Args) -> CliResult {
             max_emitters: s.max_emitters,
             junction: s.rx_site(),
             model: s.junction_model(),
+            keep_candidates: args.listing.limit,
         },
         threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
     };
@@ -272,12 +273,8 @@ pub fn run(args: Args) -> CliResult {
                     "\nPeak {} at {:.4} MHz: {} candidate{}; {}.",
                     i + 1,
                     p.peak.freq.mhz(),
-                    p.ranking.candidates.len(),
-                    if p.ranking.candidates.len() == 1 {
-                        ""
-                    } else {
-                        "s"
-                    },
+                    p.found,
+                    if p.found == 1 { "" } else { "s" },
                     p.ranking.basis()
                 )?;
                 write!(out, "{}", table_text(&listing, shown.unwrap_or(usize::MAX)))?;
@@ -309,7 +306,7 @@ pub fn run(args: Args) -> CliResult {
                         .and_then(|c| c.level_dbm)
                         .map(|v| format!("{v:.2}"))
                         .unwrap_or_default(),
-                    p.ranking.candidates.len(),
+                    p.found,
                 )?;
             }
         }
@@ -364,6 +361,7 @@ pub fn run(args: Args) -> CliResult {
                     "kind": p.kind.name(),
                     "emitters": peak_emitters(p, &emitters),
                     "ranking_basis": p.ranking.basis(),
+                    "found": p.found,
                     "total": p.ranking.candidates.len(),
                 });
                 let head = serde_json::to_string(&head).map_err(std::io::Error::from)?;
@@ -432,7 +430,7 @@ fn peaks_table(sweep: &Sweep, emitters: &[Emitter]) -> String {
             p.kind.name().to_string(),
             peak_summary(p, emitters),
             if p.kind == PeakKind::Product {
-                p.ranking.candidates.len().to_string()
+                p.found.to_string()
             } else {
                 String::new()
             },
@@ -482,7 +480,7 @@ fn markdown(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
             p.kind.name(),
             md_text(&peak_summary(p, emitters)),
             if p.kind == PeakKind::Product {
-                p.ranking.candidates.len().to_string()
+                p.found.to_string()
             } else {
                 String::new()
             }
@@ -513,12 +511,13 @@ pub fn picture_input(
     TraceInput {
         title: format!("Receive band trace: {sources}"),
         subtitle: format!(
-            "{:.4}–{:.4} MHz · {} points, {} · floor: running median over {} points · peaks ≥ {} dB above it: {e} emitter, {p} product, {u} unexplained",
+            "{:.4}–{:.4} MHz, {} points, {} · median floor over {} points · {} peaks ≥ {} dB above it: {e} emitter, {p} product, {u} unexplained",
             trace.start.mhz(),
             trace.stop().mhz(),
             trace.levels_dbm.len(),
             sweeps_text(trace.sweeps),
             sweep.floor.window_points,
+            sweep.peaks.len(),
             rule.threshold_db,
         ),
         points: trace

@@ -49,6 +49,7 @@ fn rule(rx_bw: i64) -> SweepRule {
             max_emitters: 3,
             junction: Some(GeoPoint::new(45.103, -122.412)),
             model: JunctionModel::default(),
+            keep_candidates: None,
         },
         threads: 2,
     }

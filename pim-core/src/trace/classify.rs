@@ -60,6 +60,9 @@ pub struct ExplainRule {
     /// Where the junction is assumed, for levels.
     pub junction: Option<GeoPoint>,
     pub model: JunctionModel,
+    /// Candidates kept per peak, best first (`None`: all). Suspects are judged on the
+    /// candidates kept; against thousands of emitters the lists run to millions.
+    pub keep_candidates: Option<usize>,
 }
 
 impl ExplainRule {
@@ -84,8 +87,11 @@ pub struct ExplainedPeak {
     pub co_channel: Vec<usize>,
     /// The search it was explained with.
     pub params: SearchParams,
-    /// The ranked candidates (empty unless kind `Product`).
+    /// The ranked candidates (empty unless kind `Product`), the best
+    /// [`ExplainRule::keep_candidates`] of them.
     pub ranking: Ranking,
+    /// How many products the search found before any were left out.
+    pub found: usize,
 }
 
 /// Explains one peak.
@@ -105,19 +111,30 @@ pub fn explain_peak(
     } else {
         (PeakKind::Unexplained, Vec::new())
     };
-    let ranking = rank(
+    let found = products.len();
+    let mut ranking = rank(
         products,
         emitters,
         params.target,
         rule.junction,
         &rule.model,
     );
+    if let Some(keep) = rule.keep_candidates {
+        ranking.candidates.truncate(keep);
+        ranking.candidates.shrink_to_fit();
+        ranking.unlevelled = ranking
+            .candidates
+            .iter()
+            .filter(|c| c.level_dbm.is_none())
+            .count();
+    }
     ExplainedPeak {
         peak: *peak,
         kind,
         co_channel: hits.co_channel,
         params,
         ranking,
+        found,
     }
 }
 
@@ -292,6 +309,7 @@ mod tests {
             max_emitters: 3,
             junction: None,
             model: JunctionModel::default(),
+            keep_candidates: None,
         }
     }
 

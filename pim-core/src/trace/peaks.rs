@@ -106,7 +106,8 @@ pub fn select_maxima(
 /// neighbouring levels `a`, `b` (the highest) and `c`.
 pub fn parabolic_vertex(a: f64, b: f64, c: f64) -> (f64, f64) {
     let denominator = a - 2.0 * b + c;
-    if !(denominator < 0.0) {
+    // Not a top (flat, or curving upwards, or not a number): no refinement.
+    if denominator.is_nan() || denominator >= 0.0 {
         return (0.0, b);
     }
     let delta = (0.5 * (a - c) / denominator).clamp(-0.5, 0.5);
