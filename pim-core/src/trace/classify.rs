@@ -191,10 +191,35 @@ pub fn explain_peaks(
 /// An emitter set as sorted indices.
 pub type EmitterSet = Vec<usize>;
 
-fn set_of(product: &Product) -> EmitterSet {
-    let mut s: Vec<usize> = product.terms().map(|t| t.emitter).collect();
-    s.sort_unstable();
-    s
+/// An emitter set of one to three as a fixed key: sorted indices, padded with
+/// `u32::MAX` (cheap to hash, no allocation).
+type SetKey = [u32; 3];
+
+const NONE: u32 = u32::MAX;
+
+fn key_of(product: &Product) -> SetKey {
+    let mut k = [NONE; 3];
+    for (slot, t) in k.iter_mut().zip(product.terms()) {
+        *slot = t.emitter as u32;
+    }
+    k.sort_unstable();
+    k
+}
+
+/// The non-empty subsets of a set (up to seven).
+fn subsets(key: &SetKey) -> impl Iterator<Item = SetKey> + '_ {
+    let n = key.iter().filter(|&&e| e != NONE).count();
+    (1u32..(1 << n)).map(move |mask| {
+        let mut k = [NONE; 3];
+        let mut j = 0;
+        for (b, &e) in key.iter().take(n).enumerate() {
+            if mask & (1 << b) != 0 {
+                k[j] = e;
+                j += 1;
+            }
+        }
+        k
+    })
 }
 
 /// One emitter set explaining several peaks.
@@ -203,7 +228,7 @@ pub struct Suspect {
     /// Emitter indices, increasing.
     pub emitters: EmitterSet,
     /// For each peak explained (index into the explained peaks, increasing): the best
-    /// ranked candidate made of this set or part of it.
+    /// ranked candidate made of this set or part of it, and its rank there.
     pub explains: Vec<(usize, Product, usize)>,
     /// Σ of the best rank held at each peak explained.
     pub rank_sum: usize,
@@ -213,13 +238,13 @@ pub struct Suspect {
 /// docs for the order).
 pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
     // For each peak: set → (best rank, that candidate's product).
-    let per_peak: Vec<HashMap<EmitterSet, (usize, Product)>> = peaks
+    let per_peak: Vec<HashMap<SetKey, (usize, Product)>> = peaks
         .iter()
         .map(|p| {
-            let mut m: HashMap<EmitterSet, (usize, Product)> = HashMap::new();
+            let mut m: HashMap<SetKey, (usize, Product)> = HashMap::new();
             if p.kind == PeakKind::Product {
                 for c in &p.ranking.candidates {
-                    m.entry(set_of(&c.product))
+                    m.entry(key_of(&c.product))
                         .and_modify(|e| {
                             if c.rank < e.0 {
                                 *e = (c.rank, c.product);
@@ -231,16 +256,16 @@ pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
             m
         })
         .collect();
-    let mut all: HashSet<EmitterSet> = HashSet::new();
+    let mut all: HashSet<SetKey> = HashSet::new();
     for m in &per_peak {
-        all.extend(m.keys().cloned());
+        all.extend(m.keys().copied());
     }
     let mut out: Vec<Suspect> = Vec::new();
     for set in all {
-        let subsets = non_empty_subsets(&set);
+        let parts: Vec<SetKey> = subsets(&set).collect();
         let mut explains = Vec::new();
         for (i, m) in per_peak.iter().enumerate() {
-            let best = subsets
+            let best = parts
                 .iter()
                 .filter_map(|s| m.get(s))
                 .min_by_key(|(rank, _)| *rank);
@@ -251,39 +276,28 @@ pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
         if explains.len() >= 2 {
             let rank_sum = explains.iter().map(|e| e.2).sum();
             out.push(Suspect {
-                emitters: set,
+                emitters: set
+                    .iter()
+                    .filter(|&&e| e != NONE)
+                    .map(|&e| e as usize)
+                    .collect(),
                 explains,
                 rank_sum,
             });
         }
     }
-    let ids = |s: &Suspect| -> Vec<&str> {
-        s.emitters
-            .iter()
-            .map(|&i| emitters[i].id.as_str())
-            .collect()
-    };
-    out.sort_by(|a, b| {
-        b.explains
-            .len()
-            .cmp(&a.explains.len())
-            .then(a.emitters.len().cmp(&b.emitters.len()))
-            .then(a.rank_sum.cmp(&b.rank_sum))
-            .then_with(|| ids(a).cmp(&ids(b)))
+    out.sort_by_cached_key(|s| {
+        (
+            std::cmp::Reverse(s.explains.len()),
+            s.emitters.len(),
+            s.rank_sum,
+            s.emitters
+                .iter()
+                .map(|&i| emitters[i].id.clone())
+                .collect::<Vec<_>>(),
+        )
     });
     out
-}
-
-fn non_empty_subsets(set: &[usize]) -> Vec<EmitterSet> {
-    let n = set.len();
-    (1u32..(1 << n))
-        .map(|mask| {
-            (0..n)
-                .filter(|b| mask & (1 << b) != 0)
-                .map(|b| set[b])
-                .collect()
-        })
-        .collect()
 }
 
 #[cfg(test)]
