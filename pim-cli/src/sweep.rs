@@ -52,7 +52,9 @@ pub struct Args {
 fn threshold_arg(text: &str) -> Result<f64, String> {
     let v = finite_arg(text)?;
     if !(v > 0.0 && v <= 100.0) {
-        return Err(format!("threshold {text} dB is outside 0…100 dB"));
+        return Err(format!(
+            "threshold {text} dB must be above 0 dB and at most 100 dB"
+        ));
     }
     Ok(v)
 }
@@ -192,11 +194,13 @@ fn csv_text(text: &str) -> String {
     }
 }
 
-/// Text from input files made literal in Markdown (CommonMark's punctuation escapes).
+/// Text from input files made literal inside a Markdown table cell (CommonMark's
+/// backslash escapes for the characters that open emphasis, code, links, HTML, entities
+/// and cells; a cell never starts a line, so line-start markers need none).
 fn md_text(text: &str) -> String {
     let mut out = String::with_capacity(text.len());
     for c in text.chars() {
-        if "\\`*_{}[]<>()#+-.!|~".contains(c) {
+        if "\\`*_[]<>|~&!".contains(c) {
             out.push('\\');
         }
         if c == '\n' || c == '\r' {
