@@ -38,7 +38,14 @@ impl Floor {
     /// refuses them) and are ignored where they occur.
     pub fn estimate(levels_dbm: &[f64], window_points: usize) -> Floor {
         let n = levels_dbm.len();
-        let w = window_points.max(3).min(n.max(1));
+        if n == 0 {
+            return Floor {
+                window_points: 0,
+                centres: Vec::new(),
+                medians_dbm: Vec::new(),
+            };
+        }
+        let w = window_points.max(3).min(n);
         let hop = (w / 4).max(1);
         let mut centres = Vec::with_capacity(n / hop + 2);
         let mut medians_dbm = Vec::with_capacity(n / hop + 2);
@@ -163,5 +170,6 @@ mod tests {
         assert_eq!(f.window_points, 3);
         assert_eq!(f.at(1.0), -90.0);
         assert_eq!(f.typical_dbm(), -90.0);
+        assert!(Floor::estimate(&[], 101).at(0.0).is_nan());
     }
 }

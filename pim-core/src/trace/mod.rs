@@ -381,4 +381,16 @@ mod tests {
         let e = sweep(&mut MaxHold::new(), &[(100, -90.0), (200, -80.0)]).unwrap_err();
         assert!(e.contains("at least 3"), "{e}");
     }
+
+    #[test]
+    fn a_million_points_and_no_more() {
+        let mut hold = MaxHold::new();
+        for i in 0..MAX_POINTS as i64 {
+            hold.push(Hz(100_000_000 + i), -100.0).unwrap();
+        }
+        let refused = hold.push(Hz(200_000_000), -100.0).unwrap_err();
+        assert_eq!(refused, PointRefusal::TooMany);
+        hold.end_sweep().unwrap();
+        assert_eq!(hold.finish().map(|t| t.levels_dbm.len()), Some(MAX_POINTS));
+    }
 }
