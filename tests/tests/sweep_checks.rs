@@ -408,6 +408,29 @@ fn sweep_command_explains_the_demo_trace() {
             .any(|e| e == "SKP-152")));
     assert!(v["floor"]["typical_dbm"].is_f64());
 
+    // The same sweep twice, held: the same peaks.
+    let o = pim(&[
+        "sweep",
+        &trace,
+        &trace,
+        "--emitters",
+        &tx,
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let twice: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(twice["trace"]["sweeps"], 2);
+    let freqs = |v: &serde_json::Value| -> Vec<f64> {
+        v["peaks"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|p| p["freq_mhz"].as_f64().unwrap())
+            .collect()
+    };
+    assert_eq!(freqs(&twice), freqs(&v));
+
     // The picture, and a second trace on another grid refused by file and line.
     let dir = std::env::temp_dir().join(format!("pim-sweep-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
