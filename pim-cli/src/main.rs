@@ -21,6 +21,7 @@ mod plan;
 
 mod slope;
 mod study;
+mod sweep;
 mod ticket;
 mod walk;
 
@@ -49,6 +50,8 @@ enum Command {
     Study(study::Args),
     /// The largest set of channels on which no product of them lands.
     Plan(plan::Args),
+    /// Every peak of an analyser trace of the receive band, explained at once.
+    Sweep(sweep::Args),
     /// Read an attenuator or power-step test from the level slope.
     Slope(slope::Args),
     /// Write the maintenance ticket: ranked suspects, the fix on a map, what to inspect.
@@ -91,6 +94,7 @@ fn main() -> ExitCode {
         Command::Study(args) => study::run(args),
         Command::Plan(args) => plan::run(args),
         Command::Slope(args) => slope::run(args),
+        Command::Sweep(args) => sweep::run(args),
         Command::Ticket(args) => ticket::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Walk(args) => walk::run(args),

@@ -57,6 +57,7 @@ pub mod rank;
 pub mod site;
 pub mod slope;
 pub mod ticket;
+pub mod trace;
 pub mod walk;
 
 pub use emitter::{Carrier, Emitter};

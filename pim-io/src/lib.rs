@@ -13,6 +13,7 @@ pub mod onair;
 pub mod readings;
 pub mod table;
 pub mod text;
+pub mod trace;
 pub mod track;
 
 pub use channels::{read_channels, ChannelFile, ListedChannel};

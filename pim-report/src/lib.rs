@@ -15,3 +15,4 @@ pub mod picture;
 pub mod spectrum;
 pub mod text_table;
 pub mod ticket;
+pub mod trace;

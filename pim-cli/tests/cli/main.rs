@@ -10,6 +10,7 @@ mod fix;
 mod invariants;
 mod plan;
 mod slope;
+mod sweep;
 mod ticket;
 mod walk_page;
 

@@ -9,3 +9,4 @@ mod level_checks;
 mod plan_golomb;
 mod published_checks;
 mod slope_simulated;
+mod sweep_checks;

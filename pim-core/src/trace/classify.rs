@@ -1,0 +1,360 @@
+//! What each peak of a trace is, and which emitter sets explain several peaks at once.
+//!
+//! **Each peak.** The product search ([`crate::intermod::find_products`]) runs with the
+//! peak's refined frequency as the channel centre, the receive channel width, and the
+//! tolerance widened by half a trace step (the peak's frequency is known to within about
+//! that). A peak within a listed emitter's own channel (k = 1, the search's co-channel
+//! rule) is that emitter's carrier: `Emitter`. Otherwise a peak on which products land is
+//! a `Product`, its candidates ranked by [`crate::rank::rank`] exactly as for a single
+//! heard frequency; a peak nothing explains is `Unexplained`.
+//!
+//! **Suspects.** A junction fed by a set of emitters makes every product of them, so one
+//! corroded joint shows as several peaks: 2A − B and 2B − A together are stronger
+//! evidence for a junction fed by A and B than either alone. For every emitter set that
+//! makes a candidate of some product peak, the peaks it explains are those with a
+//! candidate made of that set or of part of it. Sets explaining at least two peaks are
+//! the suspects, ranked by the number of peaks explained (more first), then by the number
+//! of emitters (fewer first: the simpler explanation), then by the sum of the best rank
+//! they hold at each of those peaks (lower first), then by the emitter ids.
+
+use std::collections::{HashMap, HashSet};
+
+use crate::emitter::{carriers, Carrier, Emitter};
+use crate::freq::Hz;
+use crate::geo::GeoPoint;
+use crate::intermod::{find_products, Product, SearchParams};
+use crate::level::JunctionModel;
+use crate::rank::{rank, Ranking};
+
+use super::peaks::Peak;
+
+/// What a peak is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum PeakKind {
+    /// A listed emitter's own carrier.
+    Emitter,
+    /// An intermodulation product of listed emitters.
+    Product,
+    /// Neither.
+    Unexplained,
+}
+
+impl PeakKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            PeakKind::Emitter => "emitter",
+            PeakKind::Product => "product",
+            PeakKind::Unexplained => "unexplained",
+        }
+    }
+}
+
+/// How the peaks are explained: the search options apart from the channel centre.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ExplainRule {
+    pub rx_bandwidth: Hz,
+    /// Extra tolerance on each side, before half a trace step is added.
+    pub tolerance: Hz,
+    pub max_order: u32,
+    pub max_emitters: u32,
+    /// Where the junction is assumed, for levels.
+    pub junction: Option<GeoPoint>,
+    pub model: JunctionModel,
+    /// Candidates kept per peak, best first (`None`: all). Suspects are judged on the
+    /// candidates kept; against thousands of emitters the lists run to millions.
+    pub keep_candidates: Option<usize>,
+}
+
+impl ExplainRule {
+    /// The search parameters for a peak at `freq` on a trace of step `step_hz`.
+    pub fn params(&self, freq: Hz, step_hz: f64) -> SearchParams {
+        SearchParams {
+            target: freq,
+            rx_bandwidth: self.rx_bandwidth,
+            tolerance: Hz(self.tolerance.0 + (step_hz / 2.0).ceil().max(0.0) as i64),
+            max_order: self.max_order,
+            max_emitters: self.max_emitters,
+        }
+    }
+}
+
+/// A peak with what explains it.
+#[derive(Clone, Debug)]
+pub struct ExplainedPeak {
+    pub peak: Peak,
+    pub kind: PeakKind,
+    /// The emitters whose own carrier it is (kind `Emitter`), by index.
+    pub co_channel: Vec<usize>,
+    /// The search it was explained with.
+    pub params: SearchParams,
+    /// The ranked candidates (empty unless kind `Product`), the best
+    /// [`ExplainRule::keep_candidates`] of them.
+    pub ranking: Ranking,
+    /// How many products the search found before any were left out.
+    pub found: usize,
+}
+
+/// Explains one peak.
+pub fn explain_peak(
+    peak: &Peak,
+    emitters: &[Emitter],
+    carriers: &[Carrier],
+    rule: &ExplainRule,
+    step_hz: f64,
+) -> ExplainedPeak {
+    let params = rule.params(peak.freq, step_hz);
+    let hits = find_products(carriers, &params);
+    let (kind, products) = if !hits.co_channel.is_empty() {
+        (PeakKind::Emitter, Vec::new())
+    } else if !hits.products.is_empty() {
+        (PeakKind::Product, hits.products)
+    } else {
+        (PeakKind::Unexplained, Vec::new())
+    };
+    let found = products.len();
+    let mut ranking = rank(products, emitters, &params, rule.junction, &rule.model);
+    if let Some(keep) = rule.keep_candidates {
+        ranking.candidates.truncate(keep);
+        ranking.candidates.shrink_to_fit();
+        ranking.unlevelled = ranking
+            .candidates
+            .iter()
+            .filter(|c| c.level_dbm.is_none())
+            .count();
+    }
+    ExplainedPeak {
+        peak: *peak,
+        kind,
+        co_channel: hits.co_channel,
+        params,
+        ranking,
+        found,
+    }
+}
+
+/// Explains every peak, in the order given, spreading the peaks over `threads` threads
+/// (1 runs them in this thread).
+pub fn explain_peaks(
+    peaks: &[Peak],
+    emitters: &[Emitter],
+    rule: &ExplainRule,
+    step_hz: f64,
+    threads: usize,
+) -> Vec<ExplainedPeak> {
+    let carriers = carriers(emitters);
+    let threads = threads.clamp(1, peaks.len().max(1));
+    if threads == 1 {
+        return peaks
+            .iter()
+            .map(|p| explain_peak(p, emitters, &carriers, rule, step_hz))
+            .collect();
+    }
+    // Peaks dealt round-robin so that each thread gets a share of the busy ones.
+    let carriers = &carriers;
+    let mut slots: Vec<Option<ExplainedPeak>> = vec![None; peaks.len()];
+    let done: Vec<Vec<(usize, ExplainedPeak)>> = std::thread::scope(|s| {
+        let handles: Vec<_> = (0..threads)
+            .map(|t| {
+                s.spawn(move || {
+                    peaks
+                        .iter()
+                        .enumerate()
+                        .skip(t)
+                        .step_by(threads)
+                        .map(|(i, p)| (i, explain_peak(p, emitters, carriers, rule, step_hz)))
+                        .collect::<Vec<_>>()
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .map(|h| h.join().unwrap_or_default())
+            .collect()
+    });
+    for (i, e) in done.into_iter().flatten() {
+        slots[i] = Some(e);
+    }
+    // A thread that failed leaves its peaks unfilled: explain them here.
+    slots
+        .into_iter()
+        .zip(peaks)
+        .map(|(slot, p)| slot.unwrap_or_else(|| explain_peak(p, emitters, carriers, rule, step_hz)))
+        .collect()
+}
+
+/// An emitter set as sorted indices.
+pub type EmitterSet = Vec<usize>;
+
+/// An emitter set of one to three as a fixed key: sorted indices, padded with
+/// `u32::MAX` (cheap to hash, no allocation).
+type SetKey = [u32; 3];
+
+const NONE: u32 = u32::MAX;
+
+fn key_of(product: &Product) -> SetKey {
+    let mut k = [NONE; 3];
+    for (slot, t) in k.iter_mut().zip(product.terms()) {
+        *slot = t.emitter as u32;
+    }
+    k.sort_unstable();
+    k
+}
+
+/// The non-empty subsets of a set (up to seven).
+fn subsets(key: &SetKey) -> impl Iterator<Item = SetKey> + '_ {
+    let n = key.iter().filter(|&&e| e != NONE).count();
+    (1u32..(1 << n)).map(move |mask| {
+        let mut k = [NONE; 3];
+        let mut j = 0;
+        for (b, &e) in key.iter().take(n).enumerate() {
+            if mask & (1 << b) != 0 {
+                k[j] = e;
+                j += 1;
+            }
+        }
+        k
+    })
+}
+
+/// One emitter set explaining several peaks.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Suspect {
+    /// Emitter indices, increasing.
+    pub emitters: EmitterSet,
+    /// For each peak explained (index into the explained peaks, increasing): the best
+    /// ranked candidate made of this set or part of it, and its rank there.
+    pub explains: Vec<(usize, Product, usize)>,
+    /// Σ of the best rank held at each peak explained.
+    pub rank_sum: usize,
+}
+
+/// The emitter sets explaining at least two product peaks, best first (see the module
+/// docs for the order).
+pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
+    // For each peak: set → (best rank, that candidate's product).
+    let per_peak: Vec<HashMap<SetKey, (usize, Product)>> = peaks
+        .iter()
+        .map(|p| {
+            let mut m: HashMap<SetKey, (usize, Product)> = HashMap::new();
+            if p.kind == PeakKind::Product {
+                for c in &p.ranking.candidates {
+                    m.entry(key_of(&c.product))
+                        .and_modify(|e| {
+                            if c.rank < e.0 {
+                                *e = (c.rank, c.product);
+                            }
+                        })
+                        .or_insert((c.rank, c.product));
+                }
+            }
+            m
+        })
+        .collect();
+    let mut all: HashSet<SetKey> = HashSet::new();
+    for m in &per_peak {
+        all.extend(m.keys().copied());
+    }
+    let mut out: Vec<Suspect> = Vec::new();
+    for set in all {
+        let parts: Vec<SetKey> = subsets(&set).collect();
+        let mut explains = Vec::new();
+        for (i, m) in per_peak.iter().enumerate() {
+            let best = parts
+                .iter()
+                .filter_map(|s| m.get(s))
+                .min_by_key(|(rank, _)| *rank);
+            if let Some(&(rank, product)) = best {
+                explains.push((i, product, rank));
+            }
+        }
+        if explains.len() >= 2 {
+            let rank_sum = explains.iter().map(|e| e.2).sum();
+            out.push(Suspect {
+                emitters: set
+                    .iter()
+                    .filter(|&&e| e != NONE)
+                    .map(|&e| e as usize)
+                    .collect(),
+                explains,
+                rank_sum,
+            });
+        }
+    }
+    out.sort_by_cached_key(|s| {
+        (
+            std::cmp::Reverse(s.explains.len()),
+            s.emitters.len(),
+            s.rank_sum,
+            s.emitters
+                .iter()
+                .map(|&i| emitters[i].id.clone())
+                .collect::<Vec<_>>(),
+        )
+    });
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::trace::peaks::Peak;
+
+    fn peak(freq: i64) -> Peak {
+        Peak {
+            index: 0,
+            freq: Hz(freq),
+            level_dbm: -80.0,
+            floor_dbm: -110.0,
+            above_floor_db: 30.0,
+        }
+    }
+
+    fn rule() -> ExplainRule {
+        ExplainRule {
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 3,
+            max_emitters: 3,
+            junction: None,
+            model: JunctionModel::default(),
+            keep_candidates: None,
+        }
+    }
+
+    #[test]
+    fn carriers_products_and_the_rest() {
+        // A = 150, B = 153.6: 2A − B = 146.4, 2B − A = 157.2 MHz.
+        let e = vec![
+            Emitter::new("A", Hz(150_000_000), Hz(0)),
+            Emitter::new("B", Hz(153_600_000), Hz(0)),
+            Emitter::new("C", Hz(170_000_000), Hz(0)),
+        ];
+        let peaks = [
+            peak(146_400_700),
+            peak(150_000_000),
+            peak(157_200_000),
+            peak(162_000_000),
+        ];
+        for threads in [1, 2] {
+            let x = explain_peaks(&peaks, &e, &rule(), 1_000.0, threads);
+            let kinds: Vec<PeakKind> = x.iter().map(|p| p.kind).collect();
+            assert_eq!(
+                kinds,
+                vec![
+                    PeakKind::Product,
+                    PeakKind::Emitter,
+                    PeakKind::Product,
+                    PeakKind::Unexplained
+                ]
+            );
+            assert_eq!(x[1].co_channel, vec![0]);
+            assert_eq!(x[0].params.tolerance, Hz(500));
+            let s = suspects(&x, &e);
+            assert_eq!(s[0].emitters, vec![0, 1]);
+            assert_eq!(
+                s[0].explains.iter().map(|x| x.0).collect::<Vec<_>>(),
+                vec![0, 2]
+            );
+        }
+    }
+}
