@@ -183,6 +183,7 @@ fn ls_region_is_honest() {
     let spots: Vec<(f64, f64)> = (0..8)
         .map(|i| (i as f64 * 45.0 + 10.0, [150.0, 1500.0, 300.0, 900.0][i % 4]))
         .collect();
+    let mut results = Vec::new();
     for (seed, stated) in [(1203, None), (1204, Some(2.0))] {
         let t = run(
             seed,
@@ -194,7 +195,11 @@ fn ls_region_is_honest() {
             |rng| walk(rng, TRUTH, &spots, 2.0, &[], stated),
             |_| {},
         );
-        honest(&format!("ls, σ stated {stated:?}"), &t);
+        eprintln!("ls, σ stated {stated:?}: {:.3}", t.coverage());
+        results.push((stated, t));
+    }
+    for (stated, t) in &results {
+        honest(&format!("ls, σ stated {stated:?}"), t);
     }
 }
 
@@ -225,22 +230,21 @@ fn a_contradicted_sigma_widens_the_region() {
 }
 
 /// Three nearly parallel bearings (about 89°, 90°, 91° as seen from the junction) from
-/// spots 50 m apart, the junction 2.9 km away, σ 0.3° stated: the likelihood region
-/// holds the truth in at least 92.5 % of walks for every method (refusals count as
-/// misses).
+/// spots 50 m apart, the junction 2.9 km away, σ 0.2° stated: the likelihood region is
+/// claimed in nearly every walk and holds the truth in at least 92.5 % of the walks it is
+/// claimed in, for every method. A walk whose region does not close is refused, and says
+/// so; that happens mostly when the χ² test rejects the stated σ (1 % of walks by
+/// design), leaving one degree of freedom for the scatter: at most 3 % of walks here.
 #[test]
 fn nearly_parallel_bearings_get_an_honest_region() {
     let base = destination(TRUTH, 180.0, 2900.0);
-    let observers: Vec<GeoPoint> = (-1..=1)
-        .map(|k| destination(base, 90.0, 50.0 * k as f64))
-        .collect();
-    let spots: Vec<(f64, f64)> = observers
-        .iter()
-        .map(|o| {
-            let (d, az) = distance_and_azimuth(TRUTH, *o);
+    let spots: Vec<(f64, f64)> = (-1..=1)
+        .map(|k| {
+            let (d, az) = distance_and_azimuth(TRUTH, destination(base, 90.0, 50.0 * k as f64));
             (az, d)
         })
         .collect();
+    let mut results = Vec::new();
     for (seed, method) in [
         (1206, Method::Robust),
         (1207, Method::Ml),
@@ -253,17 +257,25 @@ fn nearly_parallel_bearings_get_an_honest_region() {
                 ..Default::default()
             },
             TRUTH,
-            |rng| walk(rng, TRUTH, &spots, 0.3, &[], Some(0.3)),
-            |_| {},
+            |rng| walk(rng, TRUTH, &spots, 0.2, &[], Some(0.2)),
+            |fix| assert_eq!(fix.region_kind, RegionKind::Likelihood),
         );
+        let claimed = t.walks - t.refused;
+        let held = t.covered as f64 / claimed as f64;
         eprintln!(
-            "parallel, {method:?}: coverage {:.3}, likelihood {}, refused {}",
-            t.coverage(),
-            t.likelihood,
+            "parallel, {method:?}: region holds the truth in {held:.3} of {claimed} walks with a region; refused {}; {:.3} of all walks",
+            t.refused,
+            t.coverage()
+        );
+        results.push((method, held, t));
+    }
+    for (method, held, t) in &results {
+        assert!(*held >= 0.925, "{method:?}: {held}");
+        assert!(
+            t.refused as f64 <= 0.03 * WALKS as f64,
+            "{method:?}: {}",
             t.refused
         );
-        assert!(t.coverage() >= 0.925, "{method:?}: {}", t.coverage());
-        assert!(t.likelihood as f64 >= 0.9 * WALKS as f64, "{method:?}");
     }
 }
 
@@ -292,46 +304,5 @@ fn outlier_false_alarm_rate_is_at_most_five_percent() {
             spots.len()
         );
         assert!(rate <= 0.05, "{rate}");
-    }
-}
-
-#[test]
-fn scratch_false_alarm() {
-    let twelve = ring_of_twelve();
-    for method in [Method::Ml, Method::Robust] {
-        let mut rng = Rng::new(1211);
-        let mut named = 0;
-        let mut per = 0;
-        let mut src = std::collections::BTreeMap::new();
-        for _ in 0..WALKS {
-            let rs = walk(&mut rng, TRUTH, &twelve, 2.0, &[], Some(2.0));
-            let fix = locate(
-                &rs,
-                &FixOptions {
-                    method,
-                    ..Default::default()
-                },
-            )
-            .unwrap();
-            *src.entry(format!("{:?}", fix.sigma_source)).or_insert(0) += 1;
-            let k = fix.readings.iter().filter(|r| r.outlier).count();
-            per += k;
-            if k > 0 {
-                named += 1;
-                let big: Vec<String> = fix
-                    .readings
-                    .iter()
-                    .filter(|r| r.outlier)
-                    .map(|r| {
-                        format!(
-                            "{:.2}@{:.0}m w{:.2}",
-                            r.residual_deg, r.distance_m, r.weight
-                        )
-                    })
-                    .collect();
-                eprintln!("{method:?} {:?} {big:?}", fix.sigma_source);
-            }
-        }
-        eprintln!("{method:?}: walks {named}, readings {per}, {src:?}");
     }
 }

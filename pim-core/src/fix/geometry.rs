@@ -9,8 +9,9 @@ use crate::geo::{bearing_difference_deg, distance_m};
 type Result<T> = std::result::Result<T, FixRefusal>;
 
 /// Below this spread of directions (degrees, lines taken modulo 180°) the lines are
-/// parallel for practical purposes and fix nothing.
-pub const REFUSE_SPREAD_DEG: f64 = 1.0;
+/// parallel to working precision and fix nothing. Wider but still narrow spreads are
+/// left to the likelihood region, which is refused only when it does not close.
+pub const REFUSE_SPREAD_DEG: f64 = 0.01;
 /// Below this spread the fix is weakly observed and said so.
 pub const WARN_SPREAD_DEG: f64 = 10.0;
 
@@ -92,6 +93,29 @@ pub fn forward_start(
         Some((p, _)) => Ok(p),
         None => Err(FixRefusal::Diverging),
     }
+}
+
+/// Every crossing of two lines of bearing that lies in front of both observers.
+pub fn forward_crossings(points: &[(f64, f64)], bearings_deg: &[f64]) -> Vec<(f64, f64)> {
+    let n = points.len();
+    let mut out = Vec::new();
+    for i in 0..n {
+        for j in i + 1..n {
+            let (ti, tj) = (bearings_deg[i].to_radians(), bearings_deg[j].to_radians());
+            let (di, dj) = ((ti.sin(), ti.cos()), (tj.sin(), tj.cos()));
+            let den = di.0 * dj.1 - di.1 * dj.0;
+            if den.abs() < 1e-12 {
+                continue;
+            }
+            let (dx, dy) = (points[j].0 - points[i].0, points[j].1 - points[i].1);
+            let si = (dx * dj.1 - dy * dj.0) / den;
+            let sj = (dx * di.1 - dy * di.0) / den;
+            if si > 0.0 && sj > 0.0 {
+                out.push((points[i].0 + si * di.0, points[i].1 + si * di.1));
+            }
+        }
+    }
+    out
 }
 
 /// After solving: lines pointing away from the fix, the spread of the lines at the fix,

@@ -343,6 +343,8 @@ struct Fitted {
     scale: f64,
     /// Whether `scale` is known (stated σ) rather than estimated.
     known: bool,
+    /// Degrees of freedom of `scale` when estimated.
+    dof: f64,
     /// Final IRLS weights ψ(u)/u (1 for squared loss).
     weights: Vec<f64>,
 }
@@ -360,6 +362,61 @@ fn squared_scale(model: &BearingModel, sigma_rad: &[f64], at: (f64, f64)) -> f64
     (e.iter().map(|x| x * x).sum::<f64>() / dof)
         .sqrt()
         .max(MIN_SCALE)
+}
+
+/// σ's multiplier for the least-squares intersection, estimated so that it is independent
+/// of the least-squares point: the likelihood's residuals e (over σᵢ, at `ml_at`) less
+/// their projection on the columns that make up the least-squares error, aᵢ = Jᵢ/σᵢ and
+/// mᵢ = dᵢ²σᵢJᵢ/σᵢ² (its linear influence), so s² = |e − P e|²/(n − rank) follows σ²χ²
+/// on n − rank degrees of freedom apart from the fix (rank 2 when ls and ml coincide to
+/// first order, else 4). Falls back to the likelihood's n − 2 when too few remain.
+fn ls_scale(
+    model: &BearingModel,
+    sigma_rad: &[f64],
+    ml_at: (f64, f64),
+    ls_at: (f64, f64),
+) -> (f64, f64) {
+    let n = sigma_rad.len();
+    let fallback = (squared_scale(model, sigma_rad, ml_at), n as f64 - 2.0);
+    let e = standardised(model, sigma_rad, ml_at);
+    let at = model.point(ls_at.0, ls_at.1);
+    let (_, j) = model.residuals_and_jacobian(at);
+    let sights = model.sights(at);
+    let z = DMatrix::from_fn(n, 4, |i, c| {
+        let (ji, si, d) = (j[i], sigma_rad[i], sights[i].distance_m);
+        match c {
+            0 | 1 => ji[c] / si,
+            _ => d * d * ji[c - 2] / si,
+        }
+    });
+    // normalise the columns so that the rank test is on their directions only
+    let mut z = z;
+    for mut col in z.column_iter_mut() {
+        let norm = col.norm();
+        if norm > 0.0 {
+            col /= norm;
+        }
+    }
+    let svd = z.svd(true, false);
+    let Some(u) = svd.u else {
+        return fallback;
+    };
+    let largest = svd.singular_values.max();
+    let keep: Vec<usize> = (0..svd.singular_values.len())
+        .filter(|&k| svd.singular_values[k] > 1e-6 * largest)
+        .collect();
+    let dof = n as f64 - keep.len() as f64;
+    if dof < 1.0 {
+        return fallback;
+    }
+    let ev = DVector::from_vec(e);
+    let mut rest = ev.clone();
+    for k in keep {
+        let col = u.column(k);
+        let c = col.dot(&ev);
+        rest -= col * c;
+    }
+    ((rest.norm_squared() / dof).sqrt().max(MIN_SCALE), dof)
 }
 
 /// The M-estimate from the maximum-likelihood point `start`: IRLS with weights ψ(u)/u,
@@ -418,6 +475,7 @@ fn fit_robust(
         at,
         scale: s,
         known,
+        dof,
         weights,
     })
 }
@@ -540,8 +598,9 @@ fn scaled(m: [[f64; 2]; 2], k: f64) -> [[f64; 2]; 2] {
 
 /// Huber's sandwich covariance of an M-estimate (Huber 1981, §7.6, his second form):
 /// V = K·[Σψ(uᵢ)²/(n − 2)]/[Σψ′(uᵢ)/n] · (Σψ′(uᵢ)aᵢaᵢᵀ)⁻¹, aᵢ = Jᵢ/(σᵢs),
-/// K = 1 + (2/n)·var(ψ′)/mean(ψ′)². With the scale known, Σψ²/(n − 2) is replaced by
-/// its value under the model, E[ψ(Z)²]. For squared loss it is the Fisher information's
+/// K = 1 + (2/n)·var(ψ′)/mean(ψ′)². With the scale known, the model's own law:
+/// V = (E[ψ′]Σ_in aaᵀ)⁻¹(E[ψ²]Σ_in aaᵀ + Σ_out ψ(uᵢ)²aaᵀ)(E[ψ′]Σ_in aaᵀ)⁻¹, "out" the
+/// readings the outlier rule names. For squared loss it is the Fisher information's
 /// inverse (times s² when σ is estimated). Falls back to Huber's first form
 /// K²·[Σψ²/(n − 2)]/mean(ψ′)² · (Σaaᵀ)⁻¹ when Σψ′aaᵀ is not positive definite
 /// (Andrews' ψ′ can be negative).
@@ -551,6 +610,7 @@ fn m_covariance(
     e: &[f64],
     sigma_rad: &[f64],
     fitted: &Fitted,
+    out: &[bool],
 ) -> Option<[[f64; 2]; 2]> {
     let n = e.len() as f64;
     let s = fitted.scale;
@@ -567,11 +627,47 @@ fn m_covariance(
     }
     let var1 = dpsi.iter().map(|d| (d - m1).powi(2)).sum::<f64>() / n;
     let k = 1.0 + (2.0 / n) * var1 / (m1 * m1);
-    let m2 = if fitted.known {
-        rho.expected_psi_squared()
-    } else {
-        u.iter().map(|x| rho.psi(*x).powi(2)).sum::<f64>() / (n - 2.0).max(1.0)
-    };
+    if fitted.known {
+        // σ known: the asymptotic law at the errors themselves, not at the residuals
+        // (which the fit shrinks towards ψ′ = 1): readings within the model contribute
+        // E[ψ′] and E[ψ²], readings the outlier rule names contribute ψ′ = 0 and their ψ².
+        let (e1, beta) = (rho.expected_psi_prime(), rho.expected_psi_squared());
+        // (squared loss has no such split: every reading counts fully, V = (Σaaᵀ)⁻¹; nor
+        // does a walk whose remaining readings would not fix the point)
+        let split = |out: &[bool]| -> Vec<bool> {
+            if rho == Rho::Squared {
+                vec![false; out.len()]
+            } else {
+                out.to_vec()
+            }
+        };
+        let mut out = split(out);
+        let inside_of =
+            |out: &[bool]| -> Vec<f64> { out.iter().map(|o| if *o { 0.0 } else { 1.0 }).collect() };
+        if inverse(outer_sum(&a, &inside_of(&out))).is_none() {
+            out = vec![false; out.len()];
+        }
+        let inside = inside_of(&out);
+        let meat_w: Vec<f64> = u
+            .iter()
+            .zip(&out)
+            .map(|(x, o)| if *o { rho.psi(*x).powi(2) } else { beta })
+            .collect();
+        let bread = inverse(scaled(outer_sum(&a, &inside), e1))?;
+        let meat = outer_sum(&a, &meat_w);
+        let mut v = [[0.0; 2]; 2];
+        for p in 0..2 {
+            for q in 0..2 {
+                for r in 0..2 {
+                    for t in 0..2 {
+                        v[p][q] += bread[p][r] * meat[r][t] * bread[t][q];
+                    }
+                }
+            }
+        }
+        return Some(v);
+    }
+    let m2 = u.iter().map(|x| rho.psi(*x).powi(2)).sum::<f64>() / (n - 2.0).max(1.0);
     match inverse(outer_sum(&a, &dpsi)) {
         Some(w_inv) => Some(scaled(w_inv, k * m2 / m1)),
         None => {
@@ -707,6 +803,20 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
     // The maximum-likelihood point: the robust fit starts there, and it centres the
     // likelihood region of every method.
     let mut ml_at = gauss_newton(&model, &base_scale, start)?;
+    // Few bearings in a weak geometry leave a long, flat valley in which Gauss–Newton can
+    // stop short: with up to six readings, restart from every crossing of two lines in
+    // front of both observers and keep the lowest cost.
+    if n <= 6 && !options.ambiguous {
+        let mut best = cost(&model, &base_scale, ml_at.0, ml_at.1);
+        for p in geometry::forward_crossings(&points, &bearings) {
+            let at = gauss_newton(&model, &base_scale, p)?;
+            let c = cost(&model, &base_scale, at.0, at.1);
+            if c < best {
+                best = c;
+                ml_at = at;
+            }
+        }
+    }
     if options.ambiguous && options.method != Method::Ls {
         for _ in 0..5 {
             if !orient(ml_at, &mut bearings, &mut flipped) {
@@ -725,16 +835,20 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         match options.method {
             // σ is a property of the bearings, not of the estimator: estimated from the
             // likelihood's residuals, which the least-squares point does not minimise.
-            Method::Ls => Ok(Fitted {
-                at: start,
-                scale: if known {
-                    1.0
+            Method::Ls => {
+                let (scale, dof) = if known {
+                    (1.0, n as f64 - 2.0)
                 } else {
-                    squared_scale(&model, &sigma_rad, ml_at)
-                },
-                known,
-                weights: vec![1.0; n],
-            }),
+                    ls_scale(&model, &sigma_rad, ml_at, start)
+                };
+                Ok(Fitted {
+                    at: start,
+                    scale,
+                    known,
+                    dof,
+                    weights: vec![1.0; n],
+                })
+            }
             Method::Ml => Ok(Fitted {
                 at: ml_at,
                 scale: if known {
@@ -743,6 +857,7 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
                     squared_scale(&model, &sigma_rad, ml_at)
                 },
                 known,
+                dof: n as f64 - 2.0,
                 weights: vec![1.0; n],
             }),
             Method::Robust => fit_robust(&model, &sigma_rad, rho, ml_at, known),
@@ -856,7 +971,8 @@ fn finish(parts: FixParts) -> Result<Fix> {
         let e_ml = standardised(model, sigma_rad, ml_at);
         let (_, j_ml) = model.residuals_and_jacobian(model.point(ml_at.0, ml_at.1));
         let lev = leverages(&j_ml, sigma_rad);
-        outliers(method, &e_ml, &lev, fitted.scale, fitted.known)
+        let s_ml = squared_scale(model, sigma_rad, ml_at);
+        outliers(method, &e_ml, &lev, s_ml, fitted.known)
     } else {
         outliers(
             method,
@@ -867,24 +983,24 @@ fn finish(parts: FixParts) -> Result<Fix> {
         )
     };
     let n_used = outlier.iter().filter(|o| !**o).count();
-    if n_used < 2 {
+    // ml and ls use every reading whatever the rule names; the robust fit must rest on two
+    if n_used < 2 && method == Method::Robust {
         return Err(FixRefusal::TooFewAgreeing);
     }
     let dof = if fitted.known {
         None
     } else {
-        let dof = n as f64 - 2.0;
-        if dof < 1.0 {
+        if fitted.dof < 1.0 {
             return Err(FixRefusal::TooFewForScatter { n_used });
         }
-        Some(dof)
+        Some(fitted.dof)
     };
     let cov = match method {
         Method::Ls => {
             let d: Vec<f64> = sights.iter().map(|s| s.distance_m).collect();
             ls_covariance(&j, &d, sigma_rad, fitted.scale)
         }
-        Method::Ml | Method::Robust => m_covariance(rho, &j, &e, sigma_rad, &fitted),
+        Method::Ml | Method::Robust => m_covariance(rho, &j, &e, sigma_rad, &fitted, &outlier),
     }
     .filter(|c| inverse(*c).is_some())
     .ok_or(FixRefusal::Degenerate)?;
@@ -1094,10 +1210,12 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
     let base = deviance(centre.0, centre.1);
     let rise = |e: f64, n: f64| deviance(e, n) - base;
     let reach_m = (20.0 * farthest_m).max(50_000.0);
+    let dirs = region::directions(v, region::CONTOUR_RAYS);
     let ring = region::trace_contour(
         rise,
         centre,
         threshold,
+        &dirs,
         |d| quad_radius(&v_inv, k2, d),
         reach_m,
     )

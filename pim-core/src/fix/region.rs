@@ -16,7 +16,7 @@
 pub const LINEAR_TOLERANCE: f64 = 0.10;
 
 /// Rays along which the likelihood contour is traced.
-pub const CONTOUR_RAYS: usize = 96;
+pub const CONTOUR_RAYS: usize = 144;
 
 /// How far the quadratic approximation `q` of a rise misses the rise `g` found, as a
 /// fraction of the radius: |√(q/g) − 1|, infinite when nothing rises.
@@ -128,21 +128,46 @@ pub fn ray_exit(
     RayEnd::At(0.5 * (lo + hi))
 }
 
-/// The contour {rise = threshold} around `centre`, traced along [`CONTOUR_RAYS`] rays
-/// (counterclockwise from east); `guess` gives a starting distance for each direction
-/// (the ellipse's radius). `Err((towards_deg, reach_m))` when some ray finds no end
-/// within `reach_m`.
+/// Unit directions for tracing around a region shaped like the covariance `v`: evenly
+/// spaced in the coordinates that make `v` round (v = LLᵀ, direction ∝ L·(cos φ, sin φ)),
+/// so a long, thin region gets as many rays along its length as across it; in
+/// counterclockwise order.
+pub fn directions(v: [[f64; 2]; 2], count: usize) -> Vec<(f64, f64)> {
+    let l11 = v[0][0].max(0.0).sqrt();
+    let (l21, l22) = if l11 > 0.0 {
+        let l21 = v[1][0] / l11;
+        (l21, (v[1][1] - l21 * l21).max(0.0).sqrt())
+    } else {
+        (0.0, v[1][1].max(0.0).sqrt())
+    };
+    let round = !(l11 > 0.0 && l22 > 0.0);
+    (0..count)
+        .map(|j| {
+            let a = 2.0 * std::f64::consts::PI * j as f64 / count as f64;
+            let (x, y) = if round {
+                (a.cos(), a.sin())
+            } else {
+                (l11 * a.cos(), l21 * a.cos() + l22 * a.sin())
+            };
+            let norm = x.hypot(y);
+            (x / norm, y / norm)
+        })
+        .collect()
+}
+
+/// The contour {rise = threshold} around `centre`, traced along the unit directions
+/// `dirs`; `guess` gives a starting distance for each direction (the ellipse's radius).
+/// `Err((towards_deg, reach_m))` when some ray finds no end within `reach_m`.
 pub fn trace_contour(
     rise: impl Fn(f64, f64) -> f64,
     centre: (f64, f64),
     threshold: f64,
+    dirs: &[(f64, f64)],
     guess: impl Fn((f64, f64)) -> f64,
     reach_m: f64,
 ) -> Result<Vec<(f64, f64)>, (f64, f64)> {
-    let mut ring = Vec::with_capacity(CONTOUR_RAYS);
-    for j in 0..CONTOUR_RAYS {
-        let a = 2.0 * std::f64::consts::PI * j as f64 / CONTOUR_RAYS as f64;
-        let dir = (a.cos(), a.sin());
+    let mut ring = Vec::with_capacity(dirs.len());
+    for &dir in dirs {
         match ray_exit(&rise, centre, dir, threshold, guess(dir), reach_m) {
             RayEnd::At(t) => ring.push((centre.0 + t * dir.0, centre.1 + t * dir.1)),
             RayEnd::Beyond => {
@@ -181,7 +206,8 @@ mod tests {
     fn a_quadratic_rise_traces_its_ellipse() {
         // rise = (Δe/30)² + (Δn/10)²: the contour at 4 is the ellipse of semi-axes 60, 20
         let rise = |e: f64, n: f64| ((e - 5.0) / 30.0).powi(2) + ((n + 3.0) / 10.0).powi(2);
-        let ring = trace_contour(rise, (5.0, -3.0), 4.0, |_| 7.0, 1e5).unwrap();
+        let dirs = directions([[900.0, 0.0], [0.0, 100.0]], CONTOUR_RAYS);
+        let ring = trace_contour(rise, (5.0, -3.0), 4.0, &dirs, |_| 7.0, 1e5).unwrap();
         for &(e, n) in &ring {
             let v = ((e - 5.0) / 60.0).powi(2) + ((n + 3.0) / 20.0).powi(2);
             assert!((v - 1.0).abs() < 1e-3, "{v}");
@@ -195,6 +221,7 @@ mod tests {
     fn an_open_valley_is_unbounded() {
         // rise grows across north only: the region runs on along east
         let rise = |_e: f64, n: f64| n * n;
-        assert!(trace_contour(rise, (0.0, 0.0), 1.0, |_| 1.0, 1e4).is_err());
+        let dirs = directions([[1.0, 0.0], [0.0, 1.0]], 16);
+        assert!(trace_contour(rise, (0.0, 0.0), 1.0, &dirs, |_| 1.0, 1e4).is_err());
     }
 }
