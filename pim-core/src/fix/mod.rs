@@ -622,7 +622,7 @@ fn m_covariance(
     let u: Vec<f64> = e.iter().map(|x| x / s).collect();
     let dpsi: Vec<f64> = u.iter().map(|x| rho.psi_prime(*x)).collect();
     let m1 = dpsi.iter().sum::<f64>() / n;
-    if !(m1 > 0.0) {
+    if m1.is_nan() || m1 <= 0.0 {
         return None;
     }
     let var1 = dpsi.iter().map(|d| (d - m1).powi(2)).sum::<f64>() / n;

@@ -21,7 +21,7 @@ pub const CONTOUR_RAYS: usize = 144;
 /// How far the quadratic approximation `q` of a rise misses the rise `g` found, as a
 /// fraction of the radius: |√(q/g) − 1|, infinite when nothing rises.
 pub fn radius_mismatch(q: f64, g: f64) -> f64 {
-    if !(g > 0.0) || !g.is_finite() {
+    if g.is_nan() || g <= 0.0 || !g.is_finite() {
         return f64::INFINITY;
     }
     ((q / g).sqrt() - 1.0).abs()
