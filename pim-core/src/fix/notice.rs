@@ -207,3 +207,43 @@ impl From<FixRefusal> for crate::error::Error {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn messages_name_no_command_line_option() {
+        let warnings = [
+            FixWarning::SigmaOnSomeReadings,
+            FixWarning::SigmaContradicted {
+                stated_deg: 2.0,
+                observed_deg: 6.1,
+                level: 0.01,
+            },
+            FixWarning::BehindObservers { lines: vec![4, 7] },
+            FixWarning::LinearisationFails {
+                radius_mismatch: 0.3,
+            },
+        ];
+        let refusals = [
+            FixRefusal::TwoBearingsWithoutSigma,
+            FixRefusal::TooFewForScatter { n_used: 2 },
+            FixRefusal::RegionUnbounded {
+                confidence: 0.95,
+                towards_deg: 12.0,
+                reach_m: 60_000.0,
+            },
+        ];
+        let texts: Vec<String> = warnings
+            .iter()
+            .map(|w| w.to_string())
+            .chain(refusals.iter().map(|r| r.to_string()))
+            .collect();
+        for t in &texts {
+            assert!(!t.contains("--"), "{t}");
+        }
+        assert!(texts[1].contains("2.0°") && texts[1].contains("6.1°"));
+        assert!(texts[2].contains("lines 4, 7"));
+    }
+}
