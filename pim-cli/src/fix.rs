@@ -3,7 +3,7 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use pim_core::fix::{locate, Fix, FixOptions, Loss, Method, SigmaSource};
+use pim_core::fix::{locate, Fix, FixOptions, FixRefusal, Loss, Method, RegionKind, SigmaSource};
 use pim_io::export::{fix_geojson, fix_kml};
 use pim_io::fieldlog::{prepare, read_field_log, Correction, Prepared};
 use pim_io::track::read_track;
@@ -39,7 +39,7 @@ pub enum LossArg {
 #[derive(clap::Args, Clone, Debug)]
 pub struct FixArgs {
     /// Estimator.
-    #[arg(long, value_enum, default_value_t = MethodArg::Ml)]
+    #[arg(long, value_enum, default_value_t = MethodArg::Robust)]
     pub method: MethodArg,
     /// Weight function of the robust estimator.
     #[arg(long, value_enum, default_value_t = LossArg::Huber)]
@@ -91,10 +91,10 @@ fn declination_arg(text: &str) -> Result<f64, String> {
 }
 
 impl Default for FixArgs {
-    /// Maximum likelihood, 95 %, σ from the log, no track, declination from the WMM.
+    /// Robust M-estimate, 95 %, σ from the log, no track, declination from the WMM.
     fn default() -> Self {
         FixArgs {
-            method: MethodArg::Ml,
+            method: MethodArg::Robust,
             loss: LossArg::Huber,
             confidence: 0.95,
             sigma_deg: None,
@@ -162,8 +162,24 @@ pub fn fix_from_log(
     for note in &prepared.notes {
         eprintln!("pim: note: {note}");
     }
-    let fix = locate(&prepared.readings, &args.options())?;
+    let fix = locate(&prepared.readings, &args.options()).map_err(refusal_error)?;
     Ok((fix, prepared))
+}
+
+/// The engine's refusal in the command line's words: where the remedy is an option or a
+/// log column, it is named.
+pub fn refusal_error(r: FixRefusal) -> pim_core::Error {
+    let message = match &r {
+        FixRefusal::TwoBearingsWithoutSigma => "two bearings without σ fix a point but say nothing of its uncertainty: give sigma_deg in the log or --sigma-deg, or take a third bearing".to_string(),
+        FixRefusal::TooFewForScatter { .. } => "too few agreeing readings to estimate the bearing scatter: give --sigma-deg".to_string(),
+        FixRefusal::ConfidenceOutOfRange { .. } => {
+            return pim_core::Error::argument("--confidence", "must lie strictly between 0 and 1")
+        }
+        other => other.to_string(),
+    };
+    let mut e = pim_core::Error::from(r);
+    e.message = message;
+    e
 }
 
 pub use pim_report::fix::method_name;
@@ -194,11 +210,14 @@ pub struct FixJson<'a> {
     cep_m: f64,
     sigma_deg_used: f64,
     sigma_source: SigmaSource,
+    /// The region claimed, a closed ring of [lat, lon].
+    region: Vec<[f64; 2]>,
+    region_kind: RegionKind,
     n_used: usize,
     residuals: &'a [pim_core::fix::ReadingFit],
     outliers: Vec<OutlierJson>,
     declination: &'a [Correction],
-    warnings: &'a [String],
+    warnings: Vec<String>,
 }
 
 pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> {
@@ -217,6 +236,8 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
         cep_m: fix.cep_m,
         sigma_deg_used: fix.sigma_deg_used,
         sigma_source: fix.sigma_source,
+        region: fix.region.iter().map(|p| [p.lat_deg, p.lon_deg]).collect(),
+        region_kind: fix.region_kind,
         n_used: fix.n_used,
         residuals: &fix.readings,
         outliers: fix
@@ -229,7 +250,7 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
             })
             .collect(),
         declination: corrections,
-        warnings: &fix.warnings,
+        warnings: fix.warnings.iter().map(|w| w.to_string()).collect(),
     }
 }
 
@@ -258,9 +279,19 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
         SigmaSource::Estimated => format!(
             "  bearing σ {:.1}° estimated from the residuals (ellipse from F with 2 and {} degrees of freedom)\n",
             fix.sigma_deg_used,
-            fix.n_used.saturating_sub(2)
+            fix.readings.len().saturating_sub(2)
+        ),
+        SigmaSource::Contradicted => format!(
+            "  bearing σ {:.1}° from the residuals, which contradict the σ given (region widened; F with 2 and {} degrees of freedom)\n",
+            fix.sigma_deg_used,
+            fix.readings.len().saturating_sub(2)
         ),
     });
+    if fix.region_kind == RegionKind::Likelihood {
+        s.push_str(
+            "  region: the likelihood contour (the ellipse does not hold in this geometry)\n",
+        );
+    }
     if !corrections.is_empty() {
         let mut sources: Vec<&str> = corrections.iter().map(|c| c.source.as_str()).collect();
         sources.dedup();

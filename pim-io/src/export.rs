@@ -1,11 +1,12 @@
 //! A fix for any mapping program: GeoJSON (RFC 7946) and KML (OGC KML 2.2). Both carry
-//! the fix as a point, the confidence ellipse as a polygon, each line of bearing as a line
+//! the fix as a point, the region it claims as a polygon (the confidence ellipse, or the
+//! likelihood contour where the ellipse does not hold), each line of bearing as a line
 //! from its observer along the bearing used, and the observers as points.
 
 use crate::text::xml_escape;
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject, JsonValue};
 
-use pim_core::fix::Fix;
+use pim_core::fix::{Fix, RegionKind};
 use pim_core::geo::{destination, GeoPoint, LocalFrame};
 
 /// Vertices of the ellipse outline.
@@ -25,7 +26,7 @@ pub struct BearingLine {
 #[derive(Clone, Debug, PartialEq)]
 pub struct FixShapes {
     pub fix: GeoPoint,
-    /// Closed ring (first vertex repeated last), counterclockwise.
+    /// The region claimed: closed ring (first vertex repeated last), counterclockwise.
     pub ellipse: Vec<GeoPoint>,
     pub bearings: Vec<BearingLine>,
 }
@@ -38,14 +39,19 @@ pub fn bearing_length_m(distance_to_fix_m: f64) -> f64 {
 /// The ellipse outline and the lines of bearing of a fix, on the ground.
 pub fn fix_shapes(fix: &Fix) -> FixShapes {
     let frame = LocalFrame::new(fix.position);
-    let mut ellipse: Vec<GeoPoint> = fix
-        .ellipse
-        .outline(ELLIPSE_VERTICES)
-        .into_iter()
-        .map(|(e, n)| frame.to_geo(e, n))
-        .collect();
-    if let Some(first) = ellipse.first().copied() {
-        ellipse.push(first);
+    let mut ellipse: Vec<GeoPoint> = if fix.region.len() >= 4 {
+        fix.region.clone()
+    } else {
+        fix.ellipse
+            .outline(ELLIPSE_VERTICES)
+            .into_iter()
+            .map(|(e, n)| frame.to_geo(e, n))
+            .collect()
+    };
+    if ellipse.first() != ellipse.last() {
+        if let Some(first) = ellipse.first().copied() {
+            ellipse.push(first);
+        }
     }
     let bearings = fix
         .readings
@@ -103,7 +109,8 @@ pub fn fix_geojson(fix: &Fix) -> FeatureCollection {
         feature(
             Geometry::new_polygon([shapes.ellipse.iter().map(|p| position(*p))]),
             &[
-                ("kind", "ellipse".into()),
+                ("kind", region_kind_name(fix.region_kind).into()),
+                ("region_kind", region_kind_name(fix.region_kind).into()),
                 ("confidence", e.confidence.into()),
                 ("semi_major_m", e.semi_major_m.into()),
                 ("semi_minor_m", e.semi_minor_m.into()),
@@ -129,6 +136,13 @@ pub fn fix_geojson(fix: &Fix) -> FeatureCollection {
         ));
     }
     FeatureCollection::new(features)
+}
+
+fn region_kind_name(k: RegionKind) -> &'static str {
+    match k {
+        RegionKind::Ellipse => "ellipse",
+        RegionKind::Likelihood => "likelihood",
+    }
 }
 
 fn kml_coords(points: &[GeoPoint]) -> String {
@@ -169,8 +183,12 @@ pub fn fix_kml(fix: &Fix, title: &str) -> String {
         kml_coords(&[shapes.fix])
     ));
     k.push_str(&format!(
-        "  <Placemark><name>{:.0}% ellipse</name><styleUrl>#ellipse</styleUrl><Polygon><outerBoundaryIs><LinearRing><coordinates>{}</coordinates></LinearRing></outerBoundaryIs></Polygon></Placemark>\n",
+        "  <Placemark><name>{:.0}% {}</name><styleUrl>#ellipse</styleUrl><Polygon><outerBoundaryIs><LinearRing><coordinates>{}</coordinates></LinearRing></outerBoundaryIs></Polygon></Placemark>\n",
         e.confidence * 100.0,
+        match fix.region_kind {
+            RegionKind::Ellipse => "ellipse",
+            RegionKind::Likelihood => "likelihood region",
+        },
         kml_coords(&shapes.ellipse)
     ));
     for b in &shapes.bearings {

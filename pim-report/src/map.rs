@@ -44,6 +44,10 @@ pub struct MapInput {
     pub fix: Option<(f64, f64)>,
     /// The confidence ellipse, centred on the fix (not drawn without a fix).
     pub ellipse: Option<Ellipse>,
+    /// The region the fix claims, a ring of (east, north) metres in the map's frame;
+    /// drawn in place of the ellipse's outline when given (a likelihood contour where the
+    /// ellipse does not hold).
+    pub region_m: Option<Vec<(f64, f64)>>,
     /// The spots bearings were taken from.
     pub observers: Vec<Observer>,
     /// Emitters and site structures to show near the fix.
@@ -214,8 +218,11 @@ fn finite(p: (f64, f64)) -> bool {
 impl<'a> Clean<'a> {
     fn new(input: &'a MapInput) -> Self {
         let fix = input.fix.filter(|&p| finite(p));
-        let ellipse_m = match (fix, &input.ellipse) {
-            (Some(c), Some(e)) => ellipse_polygon_m(c, e, ELLIPSE_VERTICES),
+        let ellipse_m = match (fix, &input.ellipse, &input.region_m) {
+            (Some(_), _, Some(ring)) if ring.len() >= 3 && ring.iter().all(|&p| finite(p)) => {
+                ring.clone()
+            }
+            (Some(c), Some(e), _) => ellipse_polygon_m(c, e, ELLIPSE_VERTICES),
             _ => Vec::new(),
         };
         Clean {
@@ -1061,6 +1068,7 @@ mod tests {
                 semi_minor_m: 12.0,
                 orientation_deg: 35.0,
             }),
+            region_m: None,
             observers,
             markers: vec![
                 m(0.0, 0.0, "QK7MHR-R", MarkerKind::Emitter),

@@ -217,6 +217,7 @@ fn build(
         match fix.sigma_source {
             SigmaSource::Given => format!("Bearing σ {:.1}° as given.", fix.sigma_deg_used),
             SigmaSource::Estimated => format!("Bearing σ {:.1}° estimated from the residuals (the ellipse widened for it).", fix.sigma_deg_used),
+            SigmaSource::Contradicted => format!("Bearing σ {:.1}° from the residuals, which contradict the σ given (the region widened for it).", fix.sigma_deg_used),
         },
     ];
     if !t.corrections.is_empty() {
@@ -460,6 +461,7 @@ pub fn fix_map_input(
             semi_minor_m: fix.ellipse.semi_minor_m,
             orientation_deg: fix.ellipse.orientation_deg,
         }),
+        region_m: Some(fix.region.iter().map(|p| frame.to_local(*p)).collect()),
         observers,
         markers,
     }

@@ -65,7 +65,7 @@ const CATALOGUE: &[(&[&str], i32, &str)] = &[
     (&["fix", "--log", "walk-no-rows.csv"], 3, "pim: walk-no-rows.csv: no readings after the header"),
     (&["fix", "--log", "walk-one-reading.csv"], 5, "pim: 1 usable reading: a fix needs at least two bearings from different spots"),
     (&["fix", "--log", "walk-outside-track.csv", "--track", "{F}/walk.gpx"], 3, "pim: walk-outside-track.csv, line 3, field `time`: 2026-11-28T12:00:00Z is outside the track (2026-11-28T09:07:40Z to 2026-11-28T10:22:30Z)"),
-    (&["fix", "--log", "walk-parallel.csv"], 5, "pim: the bearings are parallel (they differ by 0.30° at most): they fix no point; take bearings from spots well to the side"),
+    (&["fix", "--log", "walk-parallel.csv"], 5, "pim: the bearings are parallel (they differ by 0.00° at most): they fix no point; take bearings from spots well to the side"),
     (&["fix", "--log", "walk-text-bearing.csv"], 3, "pim: walk-text-bearing.csv, line 2, field `bearing_deg`: `north-east` is not a number"),
     (&["fix", "--log", "walk-torn.csv"], 3, "pim: walk-torn.csv, line 3: the last row has no line end: it may be torn by an interrupted write; check it and end it with a newline"),
 ];

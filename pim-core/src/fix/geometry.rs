@@ -3,13 +3,15 @@
 //! observers walked. Refusals are errors of class `Refused`; weaker cases become warnings.
 
 use super::model::Sight;
-use super::{Ellipse, Reading, ReadingFit};
-use crate::error::{Error, Result};
+use super::{Ellipse, FixRefusal, FixWarning, Reading, ReadingFit};
 use crate::geo::{bearing_difference_deg, distance_m};
 
+type Result<T> = std::result::Result<T, FixRefusal>;
+
 /// Below this spread of directions (degrees, lines taken modulo 180°) the lines are
-/// parallel for practical purposes and fix nothing.
-pub const REFUSE_SPREAD_DEG: f64 = 1.0;
+/// parallel to working precision and fix nothing. Wider but still narrow spreads are
+/// left to the likelihood region, which is refused only when it does not close.
+pub const REFUSE_SPREAD_DEG: f64 = 0.01;
 /// Below this spread the fix is weakly observed and said so.
 pub const WARN_SPREAD_DEG: f64 = 10.0;
 
@@ -32,15 +34,11 @@ pub fn spread_deg(azimuths_deg: impl Iterator<Item = f64>) -> f64 {
 pub fn check_spread_of_bearings(readings: &[Reading]) -> Result<()> {
     let first = readings[0].observer;
     if readings.iter().all(|r| distance_m(first, r.observer) < 1.0) {
-        return Err(Error::refused(
-            "every reading was taken from the same spot: lines from one spot cross only there; walk to other spots",
-        ));
+        return Err(FixRefusal::SameSpot);
     }
     let spread = spread_deg(readings.iter().map(|r| r.bearing_deg));
     if spread < REFUSE_SPREAD_DEG {
-        return Err(Error::refused(format!(
-            "the bearings are parallel (they differ by {spread:.2}° at most): they fix no point; take bearings from spots well to the side"
-        )));
+        return Err(FixRefusal::ParallelBearings { spread_deg: spread });
     }
     Ok(())
 }
@@ -93,10 +91,31 @@ pub fn forward_start(
     }
     match best {
         Some((p, _)) => Ok(p),
-        None => Err(Error::refused(
-            "the lines of bearing diverge: they meet only behind the observers, so they fix no junction in front of them",
-        )),
+        None => Err(FixRefusal::Diverging),
     }
+}
+
+/// Every crossing of two lines of bearing that lies in front of both observers.
+pub fn forward_crossings(points: &[(f64, f64)], bearings_deg: &[f64]) -> Vec<(f64, f64)> {
+    let n = points.len();
+    let mut out = Vec::new();
+    for i in 0..n {
+        for j in i + 1..n {
+            let (ti, tj) = (bearings_deg[i].to_radians(), bearings_deg[j].to_radians());
+            let (di, dj) = ((ti.sin(), ti.cos()), (tj.sin(), tj.cos()));
+            let den = di.0 * dj.1 - di.1 * dj.0;
+            if den.abs() < 1e-12 {
+                continue;
+            }
+            let (dx, dy) = (points[j].0 - points[i].0, points[j].1 - points[i].1);
+            let si = (dx * dj.1 - dy * dj.0) / den;
+            let sj = (dx * di.1 - dy * di.0) / den;
+            if si > 0.0 && sj > 0.0 {
+                out.push((points[i].0 + si * di.0, points[i].1 + si * di.1));
+            }
+        }
+    }
+    out
 }
 
 /// After solving: lines pointing away from the fix, the spread of the lines at the fix,
@@ -105,7 +124,7 @@ pub fn check_solution(
     readings: &[Reading],
     sights: &[Sight],
     residuals_rad: &[f64],
-    warnings: &mut Vec<String>,
+    warnings: &mut Vec<FixWarning>,
 ) -> Result<()> {
     let behind: Vec<u64> = readings
         .iter()
@@ -114,27 +133,17 @@ pub fn check_solution(
         .map(|(rd, _)| rd.line)
         .collect();
     if readings.len() - behind.len() < 2 {
-        return Err(Error::refused(
-            "the lines of bearing meet only behind the observers: no junction lies where they point",
-        ));
+        return Err(FixRefusal::Diverging);
     }
     if !behind.is_empty() {
-        warnings.push(format!(
-            "the fix lies behind the observer of line{} {} (a reflection, or the back of the antenna?)",
-            if behind.len() == 1 { "" } else { "s" },
-            behind.iter().map(|l| l.to_string()).collect::<Vec<_>>().join(", ")
-        ));
+        warnings.push(FixWarning::BehindObservers { lines: behind });
     }
     let spread = spread_deg(sights.iter().map(|s| s.azimuth_at_point_deg));
     if spread < REFUSE_SPREAD_DEG {
-        return Err(Error::refused(format!(
-            "seen from the fix, the lines of bearing arrive within {spread:.2}° of each other: the junction is not observable along them; take bearings from spots well to the side"
-        )));
+        return Err(FixRefusal::ArriveParallel { spread_deg: spread });
     }
     if spread < WARN_SPREAD_DEG {
-        warnings.push(format!(
-            "weakly observed: the lines of bearing cross at no more than {spread:.1}°; a bearing from the side would help"
-        ));
+        warnings.push(FixWarning::WeakCrossing { spread_deg: spread });
     }
     // Observers along one straight path with the fix on its extension.
     let n = sights.len() as f64;
@@ -173,33 +182,29 @@ pub fn check_solution(
         let off = (-me * uy + mn * ux).abs();
         let dist = me.hypot(mn);
         if off < 0.2 * dist.max(1.0) {
-            warnings.push(
-                "the fix lies near the straight line the observers walked: bearings along it observe poorly; take one from the side"
-                    .to_string(),
-            );
+            warnings.push(FixWarning::OnWalkedLine);
         }
     }
     Ok(())
 }
 
 /// Warnings on the shape and size of the ellipse.
-pub fn check_ellipse(e: &Ellipse, fits: &[ReadingFit], warnings: &mut Vec<String>) {
+pub fn check_ellipse(e: &Ellipse, fits: &[ReadingFit], warnings: &mut Vec<FixWarning>) {
     if e.semi_minor_m > 0.0 && e.semi_major_m / e.semi_minor_m > 10.0 {
-        warnings.push(format!(
-            "the ellipse is {:.0} times longer than wide: weakly observed along {:.0}°",
-            e.semi_major_m / e.semi_minor_m,
-            e.orientation_deg
-        ));
+        warnings.push(FixWarning::ElongatedEllipse {
+            ratio: e.semi_major_m / e.semi_minor_m,
+            along_deg: e.orientation_deg,
+        });
     }
     let nearest = fits
         .iter()
         .map(|f| f.distance_m)
         .fold(f64::INFINITY, f64::min);
     if e.semi_major_m > nearest {
-        warnings.push(format!(
-            "the ellipse ({:.0} m) reaches further than the nearest observer ({:.0} m): more bearings, closer in and from other sides, would help",
-            e.semi_major_m, nearest
-        ));
+        warnings.push(FixWarning::EllipseBeyondNearestObserver {
+            semi_major_m: e.semi_major_m,
+            nearest_m: nearest,
+        });
     }
 }
 

@@ -2,34 +2,53 @@
 //!
 //! - `ls`: the closed-form least-squares intersection of the lines of bearing (the point
 //!   minimising the weighted squared perpendicular distances to the lines); it also
-//!   starts the others.
-//! - `ml` (default): maximum likelihood under Gaussian bearing errors, nonlinear least
-//!   squares on the wrapped bearing residuals weighted by 1/σᵢ² (Stansfield, "Statistical
-//!   theory of d.f. fixing", J. IEE 94 (IIIA), 1947; Gavish & Weiss, IEEE Trans. AES 28
-//!   (1992) 817–828), solved by Gauss–Newton with argmin.
-//! - `robust`: an M-estimate by iteratively reweighted least squares, Huber's or Andrews'
-//!   weights on standardised residuals (Lenth, "On finding the source of a signal",
-//!   Technometrics 23 (1981) 149–154); readings it down-weights below one half are named
-//!   as outliers.
+//!   starts the others. Its covariance is its own, the sandwich A⁻¹BA⁻¹ of a linear
+//!   estimator whose line offsets grow with range (dᵢ·σᵢ), not the likelihood's.
+//! - `ml`: maximum likelihood under Gaussian bearing errors, nonlinear least squares on
+//!   the wrapped bearing residuals weighted by 1/σᵢ² (Stansfield, "Statistical theory of
+//!   d.f. fixing", J. IEE 94 (IIIA), 1947; Gavish & Weiss, IEEE Trans. AES 28 (1992)
+//!   817–828), solved by Gauss–Newton with argmin.
+//! - `robust` (default): an M-estimate by iteratively reweighted least squares, Huber's or
+//!   Andrews' loss on standardised residuals (Lenth, "On finding the source of a signal",
+//!   Technometrics 23 (1981) 149–154), with the scale from Huber's Proposal 2 when σ is
+//!   not stated and the covariance in Huber's sandwich form with its small-sample
+//!   correction K (P. J. Huber, *Robust Statistics*, 1981, §7.6).
 //!
-//! The covariance is C = (JᵀWJ)⁻¹ from the Jacobian of the bearing residuals at the fix;
-//! see [`ellipse`] for the scaling. Geometry is checked before and after solving: lines
-//! that are nearly parallel, that meet only behind the observers, or a fix on the line the
+//! Outliers are named by one rule for every method: the studentised residual beyond the
+//! Bonferroni bound for a false alarm in [`OUTLIER_FALSE_ALARM`] of clean walks (normal
+//! quantile with σ stated, Student's t with σ estimated).
+//!
+//! A stated σ is tested against the residuals (Σ(rᵢ/σᵢ)² against χ² with n − 2 degrees of
+//! freedom at [`SIGMA_TEST_LEVEL`]); when the test rejects, the fix warns and its region
+//! uses the scatter estimated from the residuals.
+//!
+//! The region claimed ([`region`]) is the linearised ellipse where the bearing model is
+//! close to linear over it and the likelihood-ratio contour elsewhere; a region that does
+//! not close is refused. Geometry is checked before and after solving: lines that are
+//! nearly parallel, that meet only behind the observers, or a fix on the line the
 //! observers walked are refused or warned about, never turned into a made-up point.
 
 pub mod ellipse;
 pub mod geometry;
+pub mod loss;
 pub mod model;
+pub mod notice;
+pub mod region;
 
 use argmin::core::{Executor, Jacobian, Operator};
 use argmin::solver::gaussnewton::GaussNewton;
 use nalgebra::{DMatrix, DVector};
 use serde::Serialize;
 
-use crate::error::{Error, Result};
+use statrs::distribution::{ChiSquared, ContinuousCDF, Normal, StudentsT};
+
 use crate::geo::{bearing_difference_deg, normalize_bearing_deg, GeoPoint, LocalFrame};
 pub use ellipse::Ellipse;
+use loss::Rho;
 use model::{BearingModel, Line};
+pub use notice::{FixRefusal, FixWarning};
+
+type Result<T> = std::result::Result<T, FixRefusal>;
 
 /// One bearing reading, ready for the solver (true north, position known).
 #[derive(Clone, Debug, PartialEq)]
@@ -44,11 +63,12 @@ pub struct Reading {
 }
 
 /// Which estimator to use.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Method {
     Ls,
     Ml,
+    #[default]
     Robust,
 }
 
@@ -65,9 +85,12 @@ pub enum Loss {
 /// Tuning constant of both weight functions, as used by Lenth (1981) (value from memory).
 pub const ROBUST_TUNING: f64 = 1.5;
 
-/// A reading is named an outlier when its standardised residual exceeds this (or, for the
-/// robust method, its final weight falls below one half, which is about the same point).
-pub const OUTLIER_SIGMAS: f64 = 3.0;
+/// The share of clean walks in which the outlier rule may name a reading (Bonferroni
+/// bound over the walk's readings).
+pub const OUTLIER_FALSE_ALARM: f64 = 0.05;
+
+/// Level of the χ² test of a stated σ against the residuals.
+pub const SIGMA_TEST_LEVEL: f64 = 0.01;
 
 /// How to fix.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -85,7 +108,7 @@ pub struct FixOptions {
 impl Default for FixOptions {
     fn default() -> Self {
         FixOptions {
-            method: Method::Ml,
+            method: Method::default(),
             confidence: 0.95,
             sigma_deg: None,
             ambiguous: false,
@@ -94,14 +117,28 @@ impl Default for FixOptions {
     }
 }
 
-/// Where the σ behind the ellipse came from.
+/// Where the σ behind the region came from.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum SigmaSource {
-    /// Every reading had a σ (log column or option): ellipse scaled by χ²₂.
+    /// Every reading had a σ (log column or option) and the residuals agree with it:
+    /// region scaled by χ²₂.
     Given,
-    /// Estimated from the residuals: ellipse scaled by 2·F(2, n − 2).
+    /// Estimated from the residuals: region scaled by 2·F(2, n − 2).
     Estimated,
+    /// A σ was stated but the residuals contradict it (χ² test): the region is widened to
+    /// the scatter estimated from the residuals, scaled by 2·F(2, n − 2).
+    Contradicted,
+}
+
+/// Which region a fix claims.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RegionKind {
+    /// The linearised ellipse: the bearing model is close to linear over it.
+    Ellipse,
+    /// The likelihood-ratio contour (Beale 1960): the ellipse does not hold here.
+    Likelihood,
 }
 
 /// What became of one reading.
@@ -128,15 +165,31 @@ pub struct ReadingFit {
 pub struct Fix {
     pub position: GeoPoint,
     pub method: Method,
+    /// The linearised summary: the ellipse of `covariance_m2` at the confidence asked.
     pub ellipse: Ellipse,
-    /// Position covariance, east/north at the fix, m².
+    /// Position covariance, east/north at the fix, m² (the method's own: Fisher for ml,
+    /// Huber's sandwich for robust, the least-squares sandwich for ls).
     pub covariance_m2: [[f64; 2]; 2],
+    /// Circular error probable, with the same small-sample law as the ellipse.
     pub cep_m: f64,
     pub sigma_deg_used: f64,
     pub sigma_source: SigmaSource,
+    /// The region claimed to hold the junction at the confidence asked: a closed ring
+    /// (first point repeated last), counterclockwise.
+    pub region: Vec<GeoPoint>,
+    pub region_kind: RegionKind,
     pub n_used: usize,
     pub readings: Vec<ReadingFit>,
-    pub warnings: Vec<String>,
+    pub warnings: Vec<FixWarning>,
+}
+
+impl Fix {
+    /// Whether `p` lies inside the region claimed.
+    pub fn region_contains(&self, p: GeoPoint) -> bool {
+        let frame = LocalFrame::new(self.position);
+        let ring: Vec<(f64, f64)> = self.region.iter().map(|q| frame.to_local(*q)).collect();
+        region::ring_contains(&ring, frame.to_local(p))
+    }
 }
 
 /// Wrapped, weighted bearing residuals for argmin's Gauss–Newton. The last evaluation is
@@ -207,7 +260,9 @@ fn gauss_newton(model: &BearingModel, scale: &[f64], start: (f64, f64)) -> Resul
         let solver = GaussNewton::new()
             .with_gamma(gamma)
             .and_then(|s| s.with_tolerance(1e-14))
-            .map_err(|e| Error::refused(format!("solver set-up: {e}")))?;
+            .map_err(|e| FixRefusal::Solver {
+                detail: e.to_string(),
+            })?;
         let run = Executor::new(problem, solver)
             .configure(|s| {
                 s.param(DVector::from_vec(vec![start.0, start.1]))
@@ -261,31 +316,6 @@ fn least_squares_intersection(
     Some(((a22 * b1 - a12 * b2) / det, (a11 * b2 - a12 * b1) / det))
 }
 
-/// Robust weight of a standardised residual.
-fn robust_weight(loss: Loss, u: f64) -> f64 {
-    let k = ROBUST_TUNING;
-    let a = u.abs();
-    match loss {
-        Loss::Huber => {
-            if a <= k {
-                1.0
-            } else {
-                k / a
-            }
-        }
-        Loss::Andrews => {
-            let x = a / k;
-            if x < 1e-12 {
-                1.0
-            } else if x <= std::f64::consts::PI {
-                x.sin() / x
-            } else {
-                0.0
-            }
-        }
-    }
-}
-
 /// Median of absolute values.
 fn median_abs(values: &[f64]) -> f64 {
     let mut v: Vec<f64> = values.iter().map(|x| x.abs()).collect();
@@ -301,21 +331,399 @@ fn median_abs(values: &[f64]) -> f64 {
     }
 }
 
-/// Fixes the junction from `readings`. Refuses (an error of class `Refused`) when the
-/// bearings cannot fix a point.
+/// Smallest scale multiplier (keeps exact bearings from dividing by zero).
+const MIN_SCALE: f64 = 1e-9;
+
+/// A fitted point with what it was fitted with.
+#[derive(Clone, Debug)]
+struct Fitted {
+    /// Local east, north metres.
+    at: (f64, f64),
+    /// The multiplier s of every σᵢ: 1 when the stated σ is taken as true.
+    scale: f64,
+    /// Whether `scale` is known (stated σ) rather than estimated.
+    known: bool,
+    /// Degrees of freedom of `scale` when estimated.
+    dof: f64,
+    /// Final IRLS weights ψ(u)/u (1 for squared loss).
+    weights: Vec<f64>,
+}
+
+/// Residuals over σᵢ at a local point.
+fn standardised(model: &BearingModel, sigma_rad: &[f64], at: (f64, f64)) -> Vec<f64> {
+    let (r, _) = model.residuals_and_jacobian(model.point(at.0, at.1));
+    r.iter().zip(sigma_rad).map(|(r, s)| r / s).collect()
+}
+
+/// The scale of squared-loss residuals at `at`: √(Σ(rᵢ/σᵢ)²/(n − 2)).
+fn squared_scale(model: &BearingModel, sigma_rad: &[f64], at: (f64, f64)) -> f64 {
+    let e = standardised(model, sigma_rad, at);
+    let dof = (e.len() as f64 - 2.0).max(1.0);
+    (e.iter().map(|x| x * x).sum::<f64>() / dof)
+        .sqrt()
+        .max(MIN_SCALE)
+}
+
+/// σ's multiplier for the least-squares intersection, estimated so that it is independent
+/// of the least-squares point: the likelihood's residuals e (over σᵢ, at `ml_at`) less
+/// their projection on the columns that make up the least-squares error, aᵢ = Jᵢ/σᵢ and
+/// mᵢ = dᵢ²σᵢJᵢ/σᵢ² (its linear influence), so s² = |e − P e|²/(n − rank) follows σ²χ²
+/// on n − rank degrees of freedom apart from the fix (rank 2 when ls and ml coincide to
+/// first order, else 4). Falls back to the likelihood's n − 2 when too few remain.
+fn ls_scale(
+    model: &BearingModel,
+    sigma_rad: &[f64],
+    ml_at: (f64, f64),
+    ls_at: (f64, f64),
+) -> (f64, f64) {
+    let n = sigma_rad.len();
+    let fallback = (squared_scale(model, sigma_rad, ml_at), n as f64 - 2.0);
+    let e = standardised(model, sigma_rad, ml_at);
+    let at = model.point(ls_at.0, ls_at.1);
+    let (_, j) = model.residuals_and_jacobian(at);
+    let sights = model.sights(at);
+    let z = DMatrix::from_fn(n, 4, |i, c| {
+        let (ji, si, d) = (j[i], sigma_rad[i], sights[i].distance_m);
+        match c {
+            0 | 1 => ji[c] / si,
+            _ => d * d * ji[c - 2] / si,
+        }
+    });
+    // normalise the columns so that the rank test is on their directions only
+    let mut z = z;
+    for mut col in z.column_iter_mut() {
+        let norm = col.norm();
+        if norm > 0.0 {
+            col /= norm;
+        }
+    }
+    let svd = z.svd(true, false);
+    let Some(u) = svd.u else {
+        return fallback;
+    };
+    let largest = svd.singular_values.max();
+    let keep: Vec<usize> = (0..svd.singular_values.len())
+        .filter(|&k| svd.singular_values[k] > 1e-6 * largest)
+        .collect();
+    let dof = n as f64 - keep.len() as f64;
+    if dof < 1.0 {
+        return fallback;
+    }
+    let ev = DVector::from_vec(e);
+    let mut rest = ev.clone();
+    for k in keep {
+        let col = u.column(k);
+        let c = col.dot(&ev);
+        rest -= col * c;
+    }
+    ((rest.norm_squared() / dof).sqrt().max(MIN_SCALE), dof)
+}
+
+/// The M-estimate from the maximum-likelihood point `start`: IRLS with weights ψ(u)/u,
+/// u = rᵢ/(σᵢ·s); when the scale is not known it is Huber's Proposal 2, the s solving
+/// Σψ(rᵢ/(σᵢs))² = (n − 2)·E[ψ(Z)²], iterated jointly with the position (Huber 1981,
+/// §7.7).
+fn fit_robust(
+    model: &BearingModel,
+    sigma_rad: &[f64],
+    rho: Rho,
+    start: (f64, f64),
+    known: bool,
+) -> Result<Fitted> {
+    let n = sigma_rad.len();
+    let beta = rho.expected_psi_squared();
+    let dof = n as f64 - 2.0;
+    let mut at = start;
+    let mut s = if known {
+        1.0
+    } else {
+        let e = standardised(model, sigma_rad, at);
+        (1.4826 * median_abs(&e) * (n as f64 / dof.max(1.0)).sqrt()).max(MIN_SCALE)
+    };
+    let mut weights = vec![1.0; n];
+    for _ in 0..100 {
+        let e = standardised(model, sigma_rad, at);
+        let s_before = s;
+        if !known && dof >= 1.0 {
+            let sum: f64 = e.iter().map(|x| rho.psi(x / s).powi(2)).sum();
+            s = (s * (sum / (dof * beta)).sqrt()).max(MIN_SCALE);
+        }
+        let new_weights: Vec<f64> = e.iter().map(|x| rho.weight(x / s)).collect();
+        if new_weights.iter().filter(|w| **w > 0.0).count() < 2 {
+            break;
+        }
+        let scale: Vec<f64> = sigma_rad
+            .iter()
+            .zip(&new_weights)
+            .map(|(si, w)| w.sqrt() / si)
+            .collect();
+        let next = gauss_newton(model, &scale, at)?;
+        let moved = (next.0 - at.0).hypot(next.1 - at.1);
+        let settled = weights
+            .iter()
+            .zip(&new_weights)
+            .all(|(a, b)| (a - b).abs() < 1e-6)
+            && (s - s_before).abs() <= 1e-6 * s;
+        at = next;
+        weights = new_weights;
+        // a millimetre, weights and scale steady: settled for any survey purpose
+        if moved < 1e-3 && settled {
+            break;
+        }
+    }
+    Ok(Fitted {
+        at,
+        scale: s,
+        known,
+        dof,
+        weights,
+    })
+}
+
+/// Leverages hᵢ = aᵢᵀ(Σ aaᵀ)⁻¹aᵢ of the linearised problem, aᵢ = Jᵢ/σᵢ.
+fn leverages(j: &[[f64; 2]], sigma_rad: &[f64]) -> Vec<f64> {
+    let a: Vec<[f64; 2]> = j
+        .iter()
+        .zip(sigma_rad)
+        .map(|(j, s)| [j[0] / s, j[1] / s])
+        .collect();
+    let Some(inv) = inverse(outer_sum(&a, &vec![1.0; a.len()])) else {
+        return vec![0.0; a.len()];
+    };
+    a.iter()
+        .map(|x| {
+            let h = x[0] * (inv[0][0] * x[0] + inv[0][1] * x[1])
+                + x[1] * (inv[1][0] * x[0] + inv[1][1] * x[1]);
+            h.clamp(0.0, 0.999)
+        })
+        .collect()
+}
+
+/// The outlier rule, one for every method: reading i is named when its studentised
+/// residual (for the robust fit, its residual over the prediction spread σ/√(1 − hᵢ))
+/// exceeds the two-sided Bonferroni bound for a false alarm in
+/// [`OUTLIER_FALSE_ALARM`] of clean walks: the normal quantile at 1 − α/(2n) with σ
+/// known; with σ estimated, Student's t at the same level on n − 3 degrees of freedom
+/// for squared loss (externally studentised residuals, exact for a linear model) and on
+/// n − 2 for the robust fit (its Proposal 2 scale is already resistant).
+fn outliers(method: Method, e: &[f64], lev: &[f64], scale: f64, known: bool) -> Vec<bool> {
+    let n = e.len();
+    let level = 1.0 - OUTLIER_FALSE_ALARM / (2.0 * n as f64);
+    let quantile = |dof: f64| -> Option<f64> {
+        if dof < 1.0 {
+            return None;
+        }
+        StudentsT::new(0.0, 1.0, dof)
+            .ok()
+            .map(|t| t.inverse_cdf(level))
+    };
+    // A reading the robust fit sets aside no longer pulls the fit towards itself: its
+    // residual is close to the prediction error from the others, of variance σ²/(1 − h),
+    // not the σ²(1 − h) of a reading the fit follows.
+    let spread = |h: f64| match method {
+        Method::Robust => 1.0 / (1.0 - h).sqrt(),
+        Method::Ml | Method::Ls => (1.0 - h).sqrt(),
+    };
+    if known {
+        let bound = Normal::new(0.0, 1.0)
+            .map(|d| d.inverse_cdf(level))
+            .unwrap_or(f64::INFINITY);
+        return e
+            .iter()
+            .zip(lev)
+            .map(|(x, h)| (x / spread(*h)).abs() > bound)
+            .collect();
+    }
+    match method {
+        Method::Robust => {
+            let Some(bound) = quantile(n as f64 - 2.0) else {
+                return vec![false; n];
+            };
+            e.iter()
+                .zip(lev)
+                .map(|(x, h)| (x / (scale * spread(*h))).abs() > bound)
+                .collect()
+        }
+        Method::Ml | Method::Ls => {
+            let dof = n as f64 - 3.0;
+            let Some(bound) = quantile(dof) else {
+                return vec![false; n];
+            };
+            let ss = scale * scale * (n as f64 - 2.0);
+            e.iter()
+                .zip(lev)
+                .map(|(x, h)| {
+                    let left_out = ((ss - x * x / (1.0 - h)) / dof).max(0.0).sqrt();
+                    left_out > 0.0 && (x / (left_out * (1.0 - h).sqrt())).abs() > bound
+                        || left_out == 0.0 && x.abs() > 0.0 && n > 3
+                })
+                .collect()
+        }
+    }
+}
+
+/// Σ wᵢ aᵢaᵢᵀ.
+fn outer_sum(a: &[[f64; 2]], w: &[f64]) -> [[f64; 2]; 2] {
+    let mut m = [[0.0; 2]; 2];
+    for (row, wi) in a.iter().zip(w) {
+        for p in 0..2 {
+            for q in 0..2 {
+                m[p][q] += wi * row[p] * row[q];
+            }
+        }
+    }
+    m
+}
+
+/// The inverse of a positive-definite 2×2 matrix, or `None` when it is not.
+fn inverse(m: [[f64; 2]; 2]) -> Option<[[f64; 2]; 2]> {
+    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
+    let trace = m[0][0] + m[1][1];
+    if !(det.is_finite() && trace > 0.0 && det > 1e-12 * trace * trace) {
+        return None;
+    }
+    Some([
+        [m[1][1] / det, -m[0][1] / det],
+        [-m[1][0] / det, m[0][0] / det],
+    ])
+}
+
+fn det2(m: [[f64; 2]; 2]) -> f64 {
+    m[0][0] * m[1][1] - m[0][1] * m[1][0]
+}
+
+fn scaled(m: [[f64; 2]; 2], k: f64) -> [[f64; 2]; 2] {
+    [[m[0][0] * k, m[0][1] * k], [m[1][0] * k, m[1][1] * k]]
+}
+
+/// Huber's sandwich covariance of an M-estimate (Huber 1981, §7.6, his second form):
+/// V = K·[Σψ(uᵢ)²/(n − 2)]/[Σψ′(uᵢ)/n] · (Σψ′(uᵢ)aᵢaᵢᵀ)⁻¹, aᵢ = Jᵢ/(σᵢs),
+/// K = 1 + (2/n)·var(ψ′)/mean(ψ′)². With the scale known, the model's own law:
+/// V = (E[ψ′]Σ_in aaᵀ)⁻¹(E[ψ²]Σ_in aaᵀ + Σ_out ψ(uᵢ)²aaᵀ)(E[ψ′]Σ_in aaᵀ)⁻¹, "out" the
+/// readings the outlier rule names. For squared loss it is the Fisher information's
+/// inverse (times s² when σ is estimated). Falls back to Huber's first form
+/// K²·[Σψ²/(n − 2)]/mean(ψ′)² · (Σaaᵀ)⁻¹ when Σψ′aaᵀ is not positive definite
+/// (Andrews' ψ′ can be negative).
+fn m_covariance(
+    rho: Rho,
+    j: &[[f64; 2]],
+    e: &[f64],
+    sigma_rad: &[f64],
+    fitted: &Fitted,
+    out: &[bool],
+) -> Option<[[f64; 2]; 2]> {
+    let n = e.len() as f64;
+    let s = fitted.scale;
+    let a: Vec<[f64; 2]> = j
+        .iter()
+        .zip(sigma_rad)
+        .map(|(j, si)| [j[0] / (si * s), j[1] / (si * s)])
+        .collect();
+    let u: Vec<f64> = e.iter().map(|x| x / s).collect();
+    let dpsi: Vec<f64> = u.iter().map(|x| rho.psi_prime(*x)).collect();
+    let m1 = dpsi.iter().sum::<f64>() / n;
+    if m1.is_nan() || m1 <= 0.0 {
+        return None;
+    }
+    let var1 = dpsi.iter().map(|d| (d - m1).powi(2)).sum::<f64>() / n;
+    let k = 1.0 + (2.0 / n) * var1 / (m1 * m1);
+    if fitted.known {
+        // σ known: the asymptotic law at the errors themselves, not at the residuals
+        // (which the fit shrinks towards ψ′ = 1): readings within the model contribute
+        // E[ψ′] and E[ψ²], readings the outlier rule names contribute ψ′ = 0 and their ψ².
+        let (e1, beta) = (rho.expected_psi_prime(), rho.expected_psi_squared());
+        // (squared loss has no such split: every reading counts fully, V = (Σaaᵀ)⁻¹; nor
+        // does a walk whose remaining readings would not fix the point)
+        let split = |out: &[bool]| -> Vec<bool> {
+            if rho == Rho::Squared {
+                vec![false; out.len()]
+            } else {
+                out.to_vec()
+            }
+        };
+        let mut out = split(out);
+        let inside_of =
+            |out: &[bool]| -> Vec<f64> { out.iter().map(|o| if *o { 0.0 } else { 1.0 }).collect() };
+        if inverse(outer_sum(&a, &inside_of(&out))).is_none() {
+            out = vec![false; out.len()];
+        }
+        let inside = inside_of(&out);
+        let meat_w: Vec<f64> = u
+            .iter()
+            .zip(&out)
+            .map(|(x, o)| if *o { rho.psi(*x).powi(2) } else { beta })
+            .collect();
+        let bread = inverse(scaled(outer_sum(&a, &inside), e1))?;
+        let meat = outer_sum(&a, &meat_w);
+        let mut v = [[0.0; 2]; 2];
+        for p in 0..2 {
+            for q in 0..2 {
+                for r in 0..2 {
+                    for t in 0..2 {
+                        v[p][q] += bread[p][r] * meat[r][t] * bread[t][q];
+                    }
+                }
+            }
+        }
+        return Some(v);
+    }
+    let m2 = u.iter().map(|x| rho.psi(*x).powi(2)).sum::<f64>() / (n - 2.0).max(1.0);
+    match inverse(outer_sum(&a, &dpsi)) {
+        Some(w_inv) => Some(scaled(w_inv, k * m2 / m1)),
+        None => {
+            inverse(outer_sum(&a, &vec![1.0; a.len()])).map(|x| scaled(x, k * k * m2 / (m1 * m1)))
+        }
+    }
+}
+
+/// The covariance of the least-squares intersection, its own sandwich: the point solves
+/// Σ wᵢ nᵢnᵢᵀ x = Σ wᵢ nᵢcᵢ (nᵢ the unit normal of line i, wᵢ = 1/σᵢ²), and a bearing
+/// error εᵢ moves line i by dᵢεᵢ at the junction, so V = A⁻¹BA⁻¹ with A = Σ wᵢnᵢnᵢᵀ,
+/// B = Σ wᵢ²dᵢ²(σᵢs)²nᵢnᵢᵀ; nᵢnᵢᵀ = dᵢ²JᵢJᵢᵀ.
+fn ls_covariance(
+    j: &[[f64; 2]],
+    distances_m: &[f64],
+    sigma_rad: &[f64],
+    scale: f64,
+) -> Option<[[f64; 2]; 2]> {
+    let mut a = [[0.0; 2]; 2];
+    let mut b = [[0.0; 2]; 2];
+    for ((ji, d), si) in j.iter().zip(distances_m).zip(sigma_rad) {
+        let w = 1.0 / (si * si);
+        let var = (si * scale).powi(2);
+        for p in 0..2 {
+            for q in 0..2 {
+                let nn = d * d * ji[p] * ji[q];
+                a[p][q] += w * nn;
+                b[p][q] += w * w * d * d * var * nn;
+            }
+        }
+    }
+    let ai = inverse(a)?;
+    let mut v = [[0.0; 2]; 2];
+    for p in 0..2 {
+        for q in 0..2 {
+            for r in 0..2 {
+                for t in 0..2 {
+                    v[p][q] += ai[p][r] * b[r][t] * ai[t][q];
+                }
+            }
+        }
+    }
+    Some(v)
+}
+
+/// Fixes the junction from `readings`. Refuses when the bearings cannot fix a point, or
+/// when the region they support does not close.
 pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
     let n = readings.len();
     if n < 2 {
-        return Err(Error::refused(format!(
-            "{n} usable reading{}: a fix needs at least two bearings from different spots",
-            if n == 1 { "" } else { "s" }
-        )));
+        return Err(FixRefusal::TooFewReadings { n });
     }
     if !(options.confidence > 0.0 && options.confidence < 1.0) {
-        return Err(Error::argument(
-            "--confidence",
-            "must lie strictly between 0 and 1",
-        ));
+        return Err(FixRefusal::ConfidenceOutOfRange {
+            confidence: options.confidence,
+        });
     }
     let mut warnings = Vec::new();
 
@@ -325,19 +733,14 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         None => readings.iter().map(|r| r.sigma_deg).collect(),
     };
     if given.is_none() && readings.iter().any(|r| r.sigma_deg.is_some()) {
-        warnings.push(
-            "σ is given on some readings only: ignored, the scatter is estimated from the residuals"
-                .to_string(),
-        );
+        warnings.push(FixWarning::SigmaOnSomeReadings);
     }
     let sigma_rad: Vec<f64> = match &given {
         Some(s) => s.iter().map(|d| d.to_radians()).collect(),
         None => vec![1.0; n],
     };
     if given.is_none() && n < 3 {
-        return Err(Error::refused(
-            "two bearings without σ fix a point but say nothing of its uncertainty: give sigma_deg in the log or --sigma-deg, or take a third bearing",
-        ));
+        return Err(FixRefusal::TwoBearingsWithoutSigma);
     }
 
     geometry::check_spread_of_bearings(readings)?;
@@ -360,11 +763,8 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         .collect();
     let inv_var: Vec<f64> = sigma_rad.iter().map(|s| 1.0 / (s * s)).collect();
 
-    let ls = least_squares_intersection(&points, &bearings, &inv_var).ok_or_else(|| {
-        Error::refused(
-            "the lines of bearing are parallel or coincide: they fix no point; take bearings from spots well to the side",
-        )
-    })?;
+    let ls = least_squares_intersection(&points, &bearings, &inv_var)
+        .ok_or(FixRefusal::LinesCoincide)?;
 
     // Front/back: point each ambiguous reading towards the current estimate.
     let mut flipped = vec![false; n];
@@ -399,63 +799,129 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
     };
     let mut model = BearingModel::new(frame, lines(&bearings));
     let base_scale: Vec<f64> = sigma_rad.iter().map(|s| 1.0 / s).collect();
-    let mut weights = vec![1.0; n];
 
-    let mut at = match options.method {
-        Method::Ls => start,
-        Method::Ml | Method::Robust => gauss_newton(&model, &base_scale, start)?,
-    };
+    // The maximum-likelihood point: the robust fit starts there, and it centres the
+    // likelihood region of every method.
+    let mut ml_at = gauss_newton(&model, &base_scale, start)?;
+    // Few bearings in a weak geometry leave a long, flat valley in which Gauss–Newton can
+    // stop short: with up to six readings, restart from every crossing of two lines in
+    // front of both observers and keep the lowest cost.
+    if n <= 6 && !options.ambiguous {
+        let mut best = cost(&model, &base_scale, ml_at.0, ml_at.1);
+        for p in geometry::forward_crossings(&points, &bearings) {
+            let at = gauss_newton(&model, &base_scale, p)?;
+            let c = cost(&model, &base_scale, at.0, at.1);
+            if c < best {
+                best = c;
+                ml_at = at;
+            }
+        }
+    }
     if options.ambiguous && options.method != Method::Ls {
         for _ in 0..5 {
-            if !orient(at, &mut bearings, &mut flipped) {
+            if !orient(ml_at, &mut bearings, &mut flipped) {
                 break;
             }
             model = BearingModel::new(frame, lines(&bearings));
-            at = gauss_newton(&model, &base_scale, at)?;
-        }
-    }
-    if options.method == Method::Robust {
-        for _ in 0..50 {
-            let (r, _) = model.residuals_and_jacobian(model.point(at.0, at.1));
-            let scale_rad = if given.is_some() {
-                1.0
-            } else {
-                (1.4826 * median_abs(&r)).max(0.05f64.to_radians())
-            };
-            let new_weights: Vec<f64> = r
-                .iter()
-                .zip(&sigma_rad)
-                .map(|(ri, si)| robust_weight(options.loss, ri / (si * scale_rad)))
-                .collect();
-            let scale: Vec<f64> = base_scale
-                .iter()
-                .zip(&new_weights)
-                .map(|(s, w)| s * w.sqrt())
-                .collect();
-            let next = gauss_newton(&model, &scale, at)?;
-            let moved = (next.0 - at.0).hypot(next.1 - at.1);
-            let settled = weights
-                .iter()
-                .zip(&new_weights)
-                .all(|(a, b)| (a - b).abs() < 1e-4);
-            at = next;
-            weights = new_weights;
-            // a millimetre and weights steady to 1e-4: settled for any survey purpose
-            if moved < 1e-3 && settled {
-                break;
-            }
+            ml_at = gauss_newton(&model, &base_scale, ml_at)?;
         }
     }
 
-    let position = model.point(at.0, at.1);
+    let rho = match options.method {
+        Method::Robust => Rho::from(options.loss),
+        Method::Ml | Method::Ls => Rho::Squared,
+    };
+    let fit = |known: bool| -> Result<Fitted> {
+        match options.method {
+            // σ is a property of the bearings, not of the estimator: estimated from the
+            // likelihood's residuals, which the least-squares point does not minimise.
+            Method::Ls => {
+                let (scale, dof) = if known {
+                    (1.0, n as f64 - 2.0)
+                } else {
+                    ls_scale(&model, &sigma_rad, ml_at, start)
+                };
+                Ok(Fitted {
+                    at: start,
+                    scale,
+                    known,
+                    dof,
+                    weights: vec![1.0; n],
+                })
+            }
+            Method::Ml => Ok(Fitted {
+                at: ml_at,
+                scale: if known {
+                    1.0
+                } else {
+                    squared_scale(&model, &sigma_rad, ml_at)
+                },
+                known,
+                dof: n as f64 - 2.0,
+                weights: vec![1.0; n],
+            }),
+            Method::Robust => fit_robust(&model, &sigma_rad, rho, ml_at, known),
+        }
+    };
+
+    // A stated σ is tested on a fit that does not lean on it: Σ(rᵢ/σᵢ)² over the readings
+    // the outlier rule keeps, against χ² with (kept − 2) degrees of freedom.
+    let (fitted, sigma_source) = match &given {
+        None => (fit(false)?, SigmaSource::Estimated),
+        Some(stated) if n >= 3 => {
+            let free = fit(false)?;
+            let judged_at = if options.method == Method::Ls {
+                ml_at
+            } else {
+                free.at
+            };
+            let e = standardised(&model, &sigma_rad, judged_at);
+            let (_, j) = model.residuals_and_jacobian(model.point(judged_at.0, judged_at.1));
+            let out = outliers(
+                options.method,
+                &e,
+                &leverages(&j, &sigma_rad),
+                free.scale,
+                false,
+            );
+            let kept: Vec<f64> = e
+                .iter()
+                .zip(&out)
+                .filter(|(_, o)| !**o)
+                .map(|(x, _)| *x)
+                .collect();
+            let q: f64 = kept.iter().map(|x| x * x).sum();
+            let dof = kept.len() as f64 - 2.0;
+            let bound = ChiSquared::new(dof.max(1.0))
+                .map(|c| c.inverse_cdf(1.0 - SIGMA_TEST_LEVEL))
+                .unwrap_or(f64::INFINITY);
+            if dof >= 1.0 && q > bound {
+                let stated_deg =
+                    (stated.iter().map(|x| x * x).sum::<f64>() / stated.len() as f64).sqrt();
+                warnings.push(FixWarning::SigmaContradicted {
+                    stated_deg,
+                    observed_deg: stated_deg * free.scale,
+                    level: SIGMA_TEST_LEVEL,
+                });
+                (free, SigmaSource::Contradicted)
+            } else {
+                (fit(true)?, SigmaSource::Given)
+            }
+        }
+        Some(_) => (fit(true)?, SigmaSource::Given),
+    };
+
     finish(FixParts {
         model: &model,
         readings,
-        position,
         method: options.method,
+        rho,
         confidence: options.confidence,
+        sigma_rad: &sigma_rad,
         given_sigma_deg: given.as_deref(),
-        weights: &weights,
+        fitted,
+        sigma_source,
+        ml_at,
         flipped: &flipped,
         warnings,
     })
@@ -464,144 +930,138 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
 struct FixParts<'a> {
     model: &'a BearingModel,
     readings: &'a [Reading],
-    position: GeoPoint,
     method: Method,
+    rho: Rho,
     confidence: f64,
+    sigma_rad: &'a [f64],
     given_sigma_deg: Option<&'a [f64]>,
-    weights: &'a [f64],
+    fitted: Fitted,
+    sigma_source: SigmaSource,
+    ml_at: (f64, f64),
     flipped: &'a [bool],
-    warnings: Vec<String>,
+    warnings: Vec<FixWarning>,
 }
 
-/// Covariance, ellipse, residual report and geometry checks at the solution.
+/// Covariance, ellipse, region, residual report and geometry checks at the solution.
 fn finish(parts: FixParts) -> Result<Fix> {
     let FixParts {
         model,
         readings,
-        position,
         method,
+        rho,
         confidence,
+        sigma_rad,
         given_sigma_deg,
-        weights,
+        fitted,
+        sigma_source,
+        ml_at,
         flipped,
         mut warnings,
     } = parts;
-    let robust_weights = weights;
     let n = readings.len();
+    let position = model.point(fitted.at.0, fitted.at.1);
     let sights = model.sights(position);
     let (r, j) = model.residuals_and_jacobian(position);
 
     geometry::check_solution(readings, &sights, &r, &mut warnings)?;
 
-    let used: Vec<bool> = weights.iter().map(|w| *w >= 0.5).collect();
-    let n_used = used.iter().filter(|u| **u).count();
-    if n_used < 2 {
-        return Err(Error::refused(
-            "fewer than two readings agree with each other: no fix",
-        ));
-    }
-    // Readings the robust estimate set aside (weight below one half) take no part in the
-    // covariance nor in the scatter estimate.
-    let weights: Vec<f64> = weights
-        .iter()
-        .map(|&w| if w >= 0.5 { w } else { 0.0 })
-        .collect();
-    let weights = weights.as_slice();
-    // W: robust weight over σ² (σ in radians), or the robust weight alone when σ is
-    // estimated.
-    let w: Vec<f64> = match given_sigma_deg {
-        Some(s) => weights
-            .iter()
-            .zip(s)
-            .map(|(w, s)| w / s.to_radians().powi(2))
-            .collect(),
-        None => weights.to_vec(),
+    let e: Vec<f64> = r.iter().zip(sigma_rad).map(|(r, s)| r / s).collect();
+    // ls judges its readings on the likelihood's residuals, as it estimates σ from them
+    let outlier = if method == Method::Ls {
+        let e_ml = standardised(model, sigma_rad, ml_at);
+        let (_, j_ml) = model.residuals_and_jacobian(model.point(ml_at.0, ml_at.1));
+        let lev = leverages(&j_ml, sigma_rad);
+        let s_ml = squared_scale(model, sigma_rad, ml_at);
+        outliers(method, &e_ml, &lev, s_ml, fitted.known)
+    } else {
+        outliers(
+            method,
+            &e,
+            &leverages(&j, sigma_rad),
+            fitted.scale,
+            fitted.known,
+        )
     };
-    let mut info = [[0.0; 2]; 2];
-    for (row, wi) in j.iter().zip(&w) {
-        for a in 0..2 {
-            for b in 0..2 {
-                info[a][b] += wi * row[a] * row[b];
-            }
-        }
+    let n_used = outlier.iter().filter(|o| !**o).count();
+    // ml and ls use every reading whatever the rule names; the robust fit must rest on two
+    if n_used < 2 && method == Method::Robust {
+        return Err(FixRefusal::TooFewAgreeing);
     }
-    let det = info[0][0] * info[1][1] - info[0][1] * info[1][0];
-    let trace = info[0][0] + info[1][1];
-    if !(det.is_finite() && det > 1e-12 * trace * trace) {
-        return Err(Error::refused(
-            "the bearings do not observe the junction's position in every direction (the geometry is degenerate): take bearings from spots well to the side",
-        ));
-    }
-    let mut cov = [
-        [info[1][1] / det, -info[0][1] / det],
-        [-info[1][0] / det, info[0][0] / det],
-    ];
-    let (sigma_source, sigma_deg_used, dof) = match given_sigma_deg {
-        Some(s) => {
-            let rms = (s.iter().map(|x| x * x).sum::<f64>() / s.len() as f64).sqrt();
-            (SigmaSource::Given, rms, None)
+    let dof = if fitted.known {
+        None
+    } else {
+        if fitted.dof < 1.0 {
+            return Err(FixRefusal::TooFewForScatter { n_used });
         }
-        None => {
-            let dof = n_used as f64 - 2.0;
-            if dof < 1.0 {
-                return Err(Error::refused(
-                    "too few agreeing readings to estimate the bearing scatter: give --sigma-deg",
-                ));
-            }
-            let s2: f64 = r
-                .iter()
-                .zip(weights)
-                .map(|(ri, wi)| wi * ri * ri)
-                .sum::<f64>()
-                / dof;
-            for row in cov.iter_mut() {
-                for c in row.iter_mut() {
-                    *c *= s2;
-                }
-            }
-            (SigmaSource::Estimated, s2.sqrt().to_degrees(), Some(dof))
-        }
+        Some(fitted.dof)
     };
-    let k2 = ellipse::scale_squared(confidence, dof)?;
+    let cov = match method {
+        Method::Ls => {
+            let d: Vec<f64> = sights.iter().map(|s| s.distance_m).collect();
+            ls_covariance(&j, &d, sigma_rad, fitted.scale)
+        }
+        Method::Ml | Method::Robust => m_covariance(rho, &j, &e, sigma_rad, &fitted, &outlier),
+    }
+    .filter(|c| inverse(*c).is_some())
+    .ok_or(FixRefusal::Degenerate)?;
+    let k2 = ellipse::scale_squared(confidence, dof)
+        .map_err(|e| FixRefusal::Solver { detail: e.message })?;
     let ell = ellipse::ellipse_from_covariance(cov, k2, confidence);
-    let cep_m = ellipse::circular_error_probable(cov);
+    let cep_m = ellipse::circular_error_probable_with(cov, dof);
 
-    let sigma_i: Vec<f64> = match given_sigma_deg {
-        Some(s) => s.to_vec(),
-        None => vec![sigma_deg_used; n],
+    let sigma_deg_used = match (sigma_source, given_sigma_deg) {
+        (SigmaSource::Given, Some(s)) => {
+            (s.iter().map(|x| x * x).sum::<f64>() / s.len() as f64).sqrt()
+        }
+        (_, Some(s)) => {
+            fitted.scale * (s.iter().map(|x| x * x).sum::<f64>() / s.len() as f64).sqrt()
+        }
+        (_, None) => fitted.scale.to_degrees(),
     };
+
     let mut fits = Vec::with_capacity(n);
     for i in 0..n {
-        let residual_deg = r[i].to_degrees();
-        let outlier = match method {
-            Method::Robust => robust_weights[i] < 0.5,
-            _ => residual_deg.abs() > OUTLIER_SIGMAS * sigma_i[i],
-        };
         fits.push(ReadingFit {
             line: readings[i].line,
             observer: readings[i].observer,
             bearing_deg: model.lines[i].bearing_deg,
             predicted_deg: normalize_bearing_deg(sights[i].azimuth_deg),
-            residual_deg,
+            residual_deg: r[i].to_degrees(),
             distance_m: sights[i].distance_m,
-            weight: robust_weights[i],
+            weight: fitted.weights[i],
             flipped: flipped[i],
-            outlier,
+            outlier: outlier[i],
         });
     }
     geometry::check_ellipse(&ell, &fits, &mut warnings);
     if fits.iter().any(|f| f.flipped) {
-        let lines: Vec<String> = fits
-            .iter()
-            .filter(|f| f.flipped)
-            .map(|f| f.line.to_string())
-            .collect();
-        warnings.push(format!(
-            "taken as pointing the other way (front/back): line{} {}",
-            if lines.len() == 1 { "" } else { "s" },
-            lines.join(", ")
-        ));
+        warnings.push(FixWarning::TakenReversed {
+            lines: fits.iter().filter(|f| f.flipped).map(|f| f.line).collect(),
+        });
     }
+
+    let (region_local, region_kind) = claimed_region(RegionParts {
+        model,
+        method,
+        rho,
+        sigma_rad,
+        fitted: &fitted,
+        ml_at,
+        cov,
+        k2,
+        ellipse: &ell,
+        confidence,
+        farthest_m: sights.iter().map(|s| s.distance_m).fold(0.0, f64::max),
+        warnings: &mut warnings,
+    })?;
+    let mut region: Vec<GeoPoint> = region_local
+        .iter()
+        .map(|&(e, n)| model.point(e, n))
+        .collect();
+    if let Some(first) = region.first().copied() {
+        region.push(first);
+    }
+
     Ok(Fix {
         position,
         method,
@@ -610,10 +1070,168 @@ fn finish(parts: FixParts) -> Result<Fix> {
         cep_m,
         sigma_deg_used,
         sigma_source,
+        region,
+        region_kind,
         n_used,
         readings: fits,
         warnings,
     })
+}
+
+/// Vertices of the ellipse outline when the ellipse is the region claimed.
+pub const REGION_ELLIPSE_VERTICES: usize = 72;
+
+/// Outline points at which the ellipse is judged against the likelihood.
+const LINEARITY_PROBES: usize = 24;
+
+struct RegionParts<'a> {
+    model: &'a BearingModel,
+    method: Method,
+    rho: Rho,
+    sigma_rad: &'a [f64],
+    fitted: &'a Fitted,
+    ml_at: (f64, f64),
+    cov: [[f64; 2]; 2],
+    k2: f64,
+    ellipse: &'a Ellipse,
+    confidence: f64,
+    farthest_m: f64,
+    warnings: &'a mut Vec<FixWarning>,
+}
+
+/// The region claimed, in the model's local metres (not closed): the ellipse's outline
+/// when the model is close to linear over it, else the likelihood-ratio contour
+/// D(x) = 2Σρ(rᵢ(x)/(σᵢs)) − 2Σρ(rᵢ(x̂)/(σᵢs)) = k²·c. For ml (ρ = u²/2) this is
+/// Beale's region S(x) − S(x̂) ≤ k²s²; for the robust fit it is the drop in dispersion of
+/// the M-estimate with c the sandwich's factor (so that where the model is linear D's
+/// quadratic part, ΔᵀΣψ′aaᵀΔ, gives the sandwich ellipse exactly); ls takes the
+/// likelihood's own region, centred on the maximum-likelihood point.
+///
+/// Linearity is judged on the model alone: the weighted squared residuals S_w (the fit's
+/// final IRLS weights) along the outline of their own quadratic approximation.
+fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
+    let RegionParts {
+        model,
+        method,
+        rho,
+        sigma_rad,
+        fitted,
+        ml_at,
+        cov,
+        k2,
+        ellipse,
+        confidence,
+        farthest_m,
+        warnings,
+    } = parts;
+    let a_at = |at: (f64, f64), scale: &[f64]| -> Vec<[f64; 2]> {
+        let (_, j) = model.residuals_and_jacobian(model.point(at.0, at.1));
+        j.iter()
+            .zip(scale)
+            .map(|(j, c)| [j[0] * c, j[1] * c])
+            .collect()
+    };
+    // the deviance's centre, loss, 1/(σᵢs), and the covariance it is to agree with
+    let (centre, dev_rho, dev_scale, v) = match method {
+        Method::Ls => {
+            let s = if fitted.known {
+                1.0
+            } else {
+                squared_scale(model, sigma_rad, ml_at)
+            };
+            let dev_scale: Vec<f64> = sigma_rad.iter().map(|si| 1.0 / (si * s)).collect();
+            let a = a_at(ml_at, &dev_scale);
+            let v = inverse(outer_sum(&a, &vec![1.0; a.len()])).ok_or(FixRefusal::Degenerate)?;
+            (ml_at, Rho::Squared, dev_scale, v)
+        }
+        Method::Ml | Method::Robust => {
+            let dev_scale: Vec<f64> = sigma_rad
+                .iter()
+                .map(|si| 1.0 / (si * fitted.scale))
+                .collect();
+            (fitted.at, rho, dev_scale, cov)
+        }
+    };
+    let v_inv = inverse(v).ok_or(FixRefusal::Degenerate)?;
+
+    // Linearity of the model over the region: S_w against its quadratic approximation.
+    let w_scale: Vec<f64> = dev_scale
+        .iter()
+        .zip(&fitted.weights)
+        .map(|(c, w)| c * if method == Method::Ls { 1.0 } else { w.sqrt() })
+        .collect();
+    let a = a_at(centre, &w_scale);
+    let h = outer_sum(&a, &vec![1.0; a.len()]);
+    let base_w = cost(model, &w_scale, centre.0, centre.1);
+    let probe_t = k2 * (det2(v) * det2(h)).max(0.0).sqrt();
+    let quad_radius = |m: &[[f64; 2]; 2], t: f64, d: (f64, f64)| {
+        let q = m[0][0] * d.0 * d.0 + 2.0 * m[0][1] * d.0 * d.1 + m[1][1] * d.1 * d.1;
+        (t / q.max(1e-300)).sqrt()
+    };
+    let mismatch = (0..LINEARITY_PROBES)
+        .map(|i| {
+            let t = 2.0 * std::f64::consts::PI * i as f64 / LINEARITY_PROBES as f64;
+            let d = (t.cos(), t.sin());
+            let r = quad_radius(&h, probe_t, d);
+            let g = cost(model, &w_scale, centre.0 + r * d.0, centre.1 + r * d.1) - base_w;
+            region::radius_mismatch(probe_t, g)
+        })
+        .fold(0.0, f64::max);
+    if mismatch <= region::LINEAR_TOLERANCE {
+        let ring = ellipse
+            .outline(REGION_ELLIPSE_VERTICES)
+            .into_iter()
+            .map(|(e, n)| (fitted.at.0 + e, fitted.at.1 + n))
+            .collect();
+        return Ok((ring, RegionKind::Ellipse));
+    }
+
+    // The likelihood-ratio contour: threshold k²·c with c = √(det V · det Σψ′aaᵀ).
+    let a = a_at(centre, &dev_scale);
+    let u0: Vec<f64> = {
+        let (r, _) = model.residuals_and_jacobian(model.point(centre.0, centre.1));
+        r.iter().zip(&dev_scale).map(|(r, c)| r * c).collect()
+    };
+    let dpsi: Vec<f64> = u0.iter().map(|u| dev_rho.psi_prime(*u)).collect();
+    let mut hpsi = outer_sum(&a, &dpsi);
+    if inverse(hpsi).is_none() {
+        let m1 = dpsi.iter().sum::<f64>() / dpsi.len() as f64;
+        hpsi = scaled(outer_sum(&a, &vec![1.0; a.len()]), m1.max(1e-6));
+    }
+    let c = (det2(v) * det2(hpsi)).max(0.0).sqrt();
+    let threshold = k2 * if c > 0.0 { c } else { 1.0 };
+    let deviance = |e: f64, n: f64| -> f64 {
+        let (r, _) = model.residuals_and_jacobian(model.point(e, n));
+        r.iter()
+            .zip(&dev_scale)
+            .map(|(r, c)| 2.0 * dev_rho.rho(r * c))
+            .sum()
+    };
+    let base = deviance(centre.0, centre.1);
+    let rise = |e: f64, n: f64| deviance(e, n) - base;
+    let reach_m = (20.0 * farthest_m).max(50_000.0);
+    let dirs = region::directions(v, region::CONTOUR_RAYS);
+    let ring = region::trace_contour(
+        rise,
+        centre,
+        threshold,
+        &dirs,
+        |d| quad_radius(&v_inv, k2, d),
+        reach_m,
+    )
+    .map_err(|(towards_deg, reach_m)| FixRefusal::RegionUnbounded {
+        confidence,
+        towards_deg,
+        reach_m,
+    })?;
+    warnings.push(FixWarning::LinearisationFails {
+        radius_mismatch: mismatch,
+    });
+    if method == Method::Ls {
+        let offset_m = (ml_at.0 - fitted.at.0).hypot(ml_at.1 - fitted.at.1);
+        warnings.push(FixWarning::RegionCentredElsewhere { offset_m });
+    }
+    Ok((ring, RegionKind::Likelihood))
 }
 
 #[cfg(test)]

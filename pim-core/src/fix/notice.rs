@@ -1,0 +1,249 @@
+//! What a fix can say beside its answer, as typed values: warnings that come with a fix and
+//! refusals that stand instead of one. Their `Display` states the finding in the trade's
+//! words; a front end adds its own advice (which option or log column to use).
+
+use std::fmt;
+
+use serde::Serialize;
+
+/// Something the crew should know about a fix.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum FixWarning {
+    /// Some readings carry a σ and some do not: the given ones were ignored.
+    SigmaOnSomeReadings,
+    /// The stated σ is contradicted by the residuals (χ² test with n − 2 degrees of
+    /// freedom rejects at `level`): the region uses the observed scatter instead.
+    SigmaContradicted {
+        stated_deg: f64,
+        observed_deg: f64,
+        /// The test's level, e.g. 0.01.
+        level: f64,
+    },
+    /// The fix lies behind these observers (residual beyond 90°).
+    BehindObservers { lines: Vec<u64> },
+    /// Seen from the fix, the lines of bearing cross at no more than this.
+    WeakCrossing { spread_deg: f64 },
+    /// The fix lies near the straight line the observers walked.
+    OnWalkedLine,
+    /// The linearised ellipse is this many times longer than wide.
+    ElongatedEllipse { ratio: f64, along_deg: f64 },
+    /// The ellipse reaches further than the nearest observer.
+    EllipseBeyondNearestObserver { semi_major_m: f64, nearest_m: f64 },
+    /// These readings were taken as pointing the other way (front/back).
+    TakenReversed { lines: Vec<u64> },
+    /// The linearised ellipse misses the likelihood contour by this fraction of its
+    /// radius somewhere: the region given is the likelihood contour.
+    LinearisationFails { radius_mismatch: f64 },
+    /// The fix is the least-squares intersection but the region is the likelihood
+    /// contour, which centres on the maximum-likelihood point this far away.
+    RegionCentredElsewhere { offset_m: f64 },
+}
+
+impl fmt::Display for FixWarning {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let lines = |l: &[u64]| {
+            format!(
+                "line{} {}",
+                if l.len() == 1 { "" } else { "s" },
+                l.iter()
+                    .map(|x| x.to_string())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            )
+        };
+        match self {
+            FixWarning::SigmaOnSomeReadings => write!(
+                f,
+                "σ is given on some readings only: ignored, the scatter is estimated from the residuals"
+            ),
+            FixWarning::SigmaContradicted { stated_deg, observed_deg, level } => write!(
+                f,
+                "the stated bearing σ of {stated_deg:.1}° is contradicted by the residuals, which scatter by {observed_deg:.1}° (χ² test, {:.0} % level): the region is widened to the observed scatter",
+                level * 100.0
+            ),
+            FixWarning::BehindObservers { lines: l } => write!(
+                f,
+                "the fix lies behind the observer of {} (a reflection, or the back of the antenna?)",
+                lines(l)
+            ),
+            FixWarning::WeakCrossing { spread_deg } => write!(
+                f,
+                "weakly observed: the lines of bearing cross at no more than {spread_deg:.1}°; a bearing from the side would help"
+            ),
+            FixWarning::OnWalkedLine => write!(
+                f,
+                "the fix lies near the straight line the observers walked: bearings along it observe poorly; take one from the side"
+            ),
+            FixWarning::ElongatedEllipse { ratio, along_deg } => write!(
+                f,
+                "the ellipse is {ratio:.0} times longer than wide: weakly observed along {along_deg:.0}°"
+            ),
+            FixWarning::EllipseBeyondNearestObserver { semi_major_m, nearest_m } => write!(
+                f,
+                "the ellipse ({semi_major_m:.0} m) reaches further than the nearest observer ({nearest_m:.0} m): more bearings, closer in and from other sides, would help"
+            ),
+            FixWarning::TakenReversed { lines: l } => {
+                write!(f, "taken as pointing the other way (front/back): {}", lines(l))
+            }
+            FixWarning::LinearisationFails { radius_mismatch } => write!(
+                f,
+                "the ellipse misses the likelihood contour by up to {:.0} % of its radius: the region given is the likelihood contour, not the ellipse",
+                radius_mismatch * 100.0
+            ),
+            FixWarning::RegionCentredElsewhere { offset_m } => write!(
+                f,
+                "the region is the likelihood contour around the maximum-likelihood point, {offset_m:.0} m from this least-squares fix"
+            ),
+        }
+    }
+}
+
+/// Why the bearings support no fix (or no honest region).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum FixRefusal {
+    /// Fewer than two usable readings.
+    TooFewReadings { n: usize },
+    /// The confidence is not strictly between 0 and 1.
+    ConfidenceOutOfRange { confidence: f64 },
+    /// Two bearings without σ: a point but no uncertainty.
+    TwoBearingsWithoutSigma,
+    /// Every reading was taken from the same spot.
+    SameSpot,
+    /// The bearings are parallel: they differ by this much at most.
+    ParallelBearings { spread_deg: f64 },
+    /// The lines of bearing are parallel or coincide (no least-squares intersection).
+    LinesCoincide,
+    /// The lines meet only behind the observers.
+    Diverging,
+    /// Seen from the fix, the lines arrive within this spread.
+    ArriveParallel { spread_deg: f64 },
+    /// Fewer than two readings agree with each other.
+    TooFewAgreeing,
+    /// The position is not observed in every direction.
+    Degenerate,
+    /// Too few agreeing readings to estimate the scatter.
+    TooFewForScatter { n_used: usize },
+    /// The likelihood region reaches beyond `reach_m` along `towards_deg`: it is
+    /// unbounded for practical purposes, so no region is claimed.
+    RegionUnbounded {
+        confidence: f64,
+        towards_deg: f64,
+        reach_m: f64,
+    },
+    /// The solver could not be set up.
+    Solver { detail: String },
+}
+
+impl fmt::Display for FixRefusal {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            FixRefusal::TooFewReadings { n } => write!(
+                f,
+                "{n} usable reading{}: a fix needs at least two bearings from different spots",
+                if *n == 1 { "" } else { "s" }
+            ),
+            FixRefusal::ConfidenceOutOfRange { confidence } => {
+                write!(f, "confidence {confidence} must lie strictly between 0 and 1")
+            }
+            FixRefusal::TwoBearingsWithoutSigma => write!(
+                f,
+                "two bearings without σ fix a point but say nothing of its uncertainty: state their σ or take a third bearing"
+            ),
+            FixRefusal::SameSpot => write!(
+                f,
+                "every reading was taken from the same spot: lines from one spot cross only there; walk to other spots"
+            ),
+            FixRefusal::ParallelBearings { spread_deg } => write!(
+                f,
+                "the bearings are parallel (they differ by {spread_deg:.2}° at most): they fix no point; take bearings from spots well to the side"
+            ),
+            FixRefusal::LinesCoincide => write!(
+                f,
+                "the lines of bearing are parallel or coincide: they fix no point; take bearings from spots well to the side"
+            ),
+            FixRefusal::Diverging => write!(
+                f,
+                "the lines of bearing diverge: they meet only behind the observers, so they fix no junction in front of them"
+            ),
+            FixRefusal::ArriveParallel { spread_deg } => write!(
+                f,
+                "seen from the fix, the lines of bearing arrive within {spread_deg:.2}° of each other: the junction is not observable along them; take bearings from spots well to the side"
+            ),
+            FixRefusal::TooFewAgreeing => {
+                write!(f, "fewer than two readings agree with each other: no fix")
+            }
+            FixRefusal::Degenerate => write!(
+                f,
+                "the bearings do not observe the junction's position in every direction (the geometry is degenerate): take bearings from spots well to the side"
+            ),
+            FixRefusal::TooFewForScatter { n_used } => write!(
+                f,
+                "{n_used} agreeing readings are too few to estimate the bearing scatter: state the bearings' σ or take more bearings"
+            ),
+            FixRefusal::RegionUnbounded { confidence, towards_deg, reach_m } => write!(
+                f,
+                "the {:.0} % likelihood region is unbounded: it runs on beyond {:.0} km towards {towards_deg:.0}°, so the bearings fix no region; take bearings from spots well to the side",
+                confidence * 100.0,
+                reach_m / 1000.0
+            ),
+            FixRefusal::Solver { detail } => write!(f, "solver set-up: {detail}"),
+        }
+    }
+}
+
+impl std::error::Error for FixRefusal {}
+
+impl From<FixRefusal> for crate::error::Error {
+    fn from(r: FixRefusal) -> Self {
+        crate::error::Error {
+            class: match r {
+                FixRefusal::ConfidenceOutOfRange { .. } => crate::error::ErrorClass::Argument,
+                _ => crate::error::ErrorClass::Refused,
+            },
+            place: None,
+            message: r.to_string(),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn messages_name_no_command_line_option() {
+        let warnings = [
+            FixWarning::SigmaOnSomeReadings,
+            FixWarning::SigmaContradicted {
+                stated_deg: 2.0,
+                observed_deg: 6.1,
+                level: 0.01,
+            },
+            FixWarning::BehindObservers { lines: vec![4, 7] },
+            FixWarning::LinearisationFails {
+                radius_mismatch: 0.3,
+            },
+        ];
+        let refusals = [
+            FixRefusal::TwoBearingsWithoutSigma,
+            FixRefusal::TooFewForScatter { n_used: 2 },
+            FixRefusal::RegionUnbounded {
+                confidence: 0.95,
+                towards_deg: 12.0,
+                reach_m: 60_000.0,
+            },
+        ];
+        let texts: Vec<String> = warnings
+            .iter()
+            .map(|w| w.to_string())
+            .chain(refusals.iter().map(|r| r.to_string()))
+            .collect();
+        for t in &texts {
+            assert!(!t.contains("--"), "{t}");
+        }
+        assert!(texts[1].contains("2.0°") && texts[1].contains("6.1°"));
+        assert!(texts[2].contains("lines 4, 7"));
+    }
+}
