@@ -53,6 +53,13 @@ impl Emitter {
         }
     }
 
+    /// The emitter with its ERP (dBm) and antenna position, as the level model needs.
+    pub fn radiating(mut self, erp_dbm: f64, position: GeoPoint) -> Self {
+        self.erp_dbm = Some(erp_dbm);
+        self.position = Some(position);
+        self
+    }
+
     /// The frequency and width the product search needs.
     pub fn carrier(&self) -> Carrier {
         Carrier {

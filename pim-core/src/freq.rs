@@ -93,12 +93,19 @@ impl std::ops::Sub for Hz {
 /// Why a decimal text could not become a whole number of units.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub enum DecimalError {
+    /// Nothing to read.
     Empty,
+    /// The text is not a decimal number.
     NotANumber(String),
+    /// The text names infinity or NaN.
     NotFinite(String),
+    /// More decimals than the unit resolves (finer than one hertz).
     TooFine(String),
+    /// Beyond the range a frequency can take.
     TooLarge(String),
 }
+
+impl std::error::Error for DecimalError {}
 
 impl fmt::Display for DecimalError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {

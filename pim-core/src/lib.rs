@@ -13,32 +13,32 @@
 //! - [`onair`]: whether the interference comes and goes with a candidate's emitters.
 //! - [`plan`]: the largest set of channels on which no product of them lands.
 //! - [`slope`]: the attenuator and power-step tests, read from the level slope.
-//! - [`io`]: the emitter and receiver files, with errors that name file, line and field.
+//! - [`site`]: the pipeline as one call: a [`Site`] owns the emitters, a [`Query`] on it
+//!   gives an [`Explanation`] (search, narrowing, ranking) that re-ranks at a fix.
+//! - [`fix`]: the junction's location from a bearing walk, with an honest region.
+//! - [`walk`]: where the next bearing would shrink the region most.
+//! - [`trace`]: the peaks of an analyser trace, each classed and explained.
+//! - [`ticket`]: what a maintenance ticket rests on (structures near the fix, rank changes).
 //!
 //! ```
-//! use pim_core::emitter::Carrier;
-//! use pim_core::freq::Hz;
-//! use pim_core::intermod::{find_products, SearchParams};
+//! use pim_core::{Emitter, Hz, Query, Site};
 //!
 //! // 2·152.84 − 159.34 = 146.34 MHz
-//! let tx = [
-//!     Carrier { freq: Hz(152_840_000), bandwidth: Hz(16_000) },
-//!     Carrier { freq: Hz(159_340_000), bandwidth: Hz(11_250) },
-//! ];
-//! let params = SearchParams {
-//!     target: Hz(146_340_000),
-//!     rx_bandwidth: Hz(12_500),
-//!     tolerance: Hz(0),
-//!     max_order: 3,
-//!     max_emitters: 2,
-//! };
-//! let hits = find_products(&tx, &params);
-//! assert_eq!(hits.products.len(), 1);
-//! assert_eq!(hits.products[0].order(), 3);
+//! let site = Site::new(vec![
+//!     Emitter::new("SKP-152", Hz(152_840_000), Hz(16_000)),
+//!     Emitter::new("FIRE-DSP", Hz(159_340_000), Hz(11_250)),
+//! ]);
+//! let mut query = Query::new(Hz(146_340_000));
+//! query.params.max_order = 3;
+//! let answer = site.explain(&query);
+//! assert_eq!(answer.products.len(), 1);
+//! assert_eq!(answer.products[0].order(), 3);
 //! ```
 //!
-//! The library never prints, never exits and holds no file paths in the engine: plain
-//! data in, plain data out. Text formats live in [`io`].
+//! The library never prints, never exits, reads no clock and holds no file paths: plain
+//! data in, plain data out. Reading and writing the tool's files is the `pim-io` crate's
+//! job; output formats and pictures are `pim-report`'s. It does not know the command
+//! line: its errors and warnings are values for the caller to word.
 
 #![deny(clippy::unwrap_used, clippy::expect_used)]
 
@@ -49,7 +49,6 @@ pub mod fix;
 pub mod freq;
 pub mod geo;
 pub mod intermod;
-
 pub mod level;
 pub mod onair;
 pub mod plan;
@@ -62,5 +61,13 @@ pub mod walk;
 
 pub use emitter::{Carrier, Emitter};
 pub use error::{Error, ErrorClass, Place, Result};
+pub use fix::{locate, Fix, FixOptions, Method, Reading};
 pub use freq::Hz;
+pub use geo::GeoPoint;
+pub use intermod::{Product, SearchParams};
+pub use level::LevelModel;
+pub use rank::{Candidate, Placement, Ranking};
 pub use site::{Explanation, Query, Site};
+/// The date and time types the engine's values carry (the `time` crate), so a caller
+/// needs no dependency of its own to build them.
+pub use time;

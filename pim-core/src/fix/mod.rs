@@ -62,6 +62,19 @@ pub struct Reading {
     pub sigma_deg: Option<f64>,
 }
 
+impl Reading {
+    /// A true bearing (degrees clockwise from north) taken at `observer`, with its σ in
+    /// degrees when known; `line` is where it stands in its log.
+    pub fn new(line: u64, observer: GeoPoint, bearing_deg: f64, sigma_deg: Option<f64>) -> Self {
+        Reading {
+            line,
+            observer,
+            bearing_deg,
+            sigma_deg,
+        }
+    }
+}
+
 /// Which estimator to use.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
