@@ -9,13 +9,16 @@ use crate::geo::GeoPoint;
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Keying {
+    /// On the air all the time (a broadcaster, a paging transmitter on a duty cycle near 1).
     Continuous,
+    /// Keyed when there is traffic (a repeater, a dispatch channel).
     Intermittent,
 }
 
 /// A transmitter at or near the site.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Emitter {
+    /// The emitter's name in its file (a call sign or a site's own label).
     pub id: String,
     /// Carrier frequency.
     pub freq: Hz,
@@ -23,13 +26,17 @@ pub struct Emitter {
     pub bandwidth: Hz,
     /// Effective radiated power (relative to a half-wave dipole) in dBm.
     pub erp_dbm: Option<f64>,
+    /// Where its antenna stands (WGS84).
     pub position: Option<GeoPoint>,
+    /// Height of the antenna's centre above ground, in metres.
     pub height_m: Option<f64>,
     /// Free text: fm, am, paging, repeater, land mobile, ...
     pub kind: Option<String>,
+    /// Whether it transmits all the time or when keyed.
     pub keyed: Option<Keying>,
     /// Who holds the licence, where the file says.
     pub owner: Option<String>,
+    /// Free text from the file.
     pub note: Option<String>,
     /// The line of the emitter file it came from (header = line 1).
     pub line: u64,
@@ -77,19 +84,26 @@ pub fn carriers(emitters: &[Emitter]) -> Vec<Carrier> {
 /// A signal's centre frequency and occupied bandwidth.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Carrier {
+    /// Centre frequency.
     pub freq: Hz,
+    /// Occupied bandwidth.
     pub bandwidth: Hz,
 }
 
 /// A receive channel at the site.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Receiver {
+    /// The receiver's name in its file.
     pub id: String,
+    /// Centre of its receive channel.
     pub freq: Hz,
     /// Channel width, when the file gives one.
     pub bandwidth: Option<Hz>,
+    /// Where its antenna stands (WGS84), when known.
     pub position: Option<GeoPoint>,
+    /// Free text from the file.
     pub note: Option<String>,
+    /// Its line in the file (the header is line 1).
     pub line: u64,
 }
 

@@ -7,12 +7,16 @@ use std::fmt;
 /// (the header is line 1) and the field.
 #[derive(Clone, Debug, Default, PartialEq, Eq)]
 pub struct Place {
+    /// The file or other source, as the user named it.
     pub source: String,
+    /// The line (the header is line 1), when the problem sits on one.
     pub line: Option<u64>,
+    /// The field (column) at fault, when one is.
     pub field: Option<String>,
 }
 
 impl Place {
+    /// A place that names only its source.
     pub fn new(source: impl Into<String>) -> Self {
         Place {
             source: source.into(),
@@ -21,11 +25,13 @@ impl Place {
         }
     }
 
+    /// The same place at `line`.
     pub fn at_line(mut self, line: u64) -> Self {
         self.line = Some(line);
         self
     }
 
+    /// The same place at `field`.
     pub fn at_field(mut self, field: impl Into<String>) -> Self {
         self.field = Some(field.into());
         self
@@ -61,8 +67,11 @@ pub enum ErrorClass {
 /// An error with the context a user needs to act on it.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct Error {
+    /// What kind of failure it is (and so the exit code).
     pub class: ErrorClass,
+    /// Where in an input it sits, when it sits in one.
     pub place: Option<Place>,
+    /// What is wrong, in words a user can act on.
     pub message: String,
 }
 
@@ -115,4 +124,5 @@ impl fmt::Display for Error {
 
 impl std::error::Error for Error {}
 
+/// A result whose error is an [`Error`] unless said otherwise.
 pub type Result<T, E = Error> = std::result::Result<T, E>;

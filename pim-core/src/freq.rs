@@ -17,16 +17,20 @@ pub struct Hz(pub i64);
 pub const MAX_FREQUENCY: Hz = Hz(300_000_000_000);
 
 impl Hz {
+    /// Zero hertz.
     pub const ZERO: Hz = Hz(0);
 
+    /// Whole kilohertz.
     pub fn from_khz(khz: i64) -> Hz {
         Hz(khz * 1_000)
     }
 
+    /// Whole megahertz.
     pub fn from_mhz(mhz: i64) -> Hz {
         Hz(mhz * 1_000_000)
     }
 
+    /// The value in hertz.
     pub fn hz(self) -> i64 {
         self.0
     }
@@ -41,6 +45,7 @@ impl Hz {
         self.0 as f64 / 1e3
     }
 
+    /// The magnitude (a frequency offset without its sign).
     pub fn abs(self) -> Hz {
         Hz(self.0.abs())
     }

@@ -14,11 +14,14 @@ use serde::{Deserialize, Serialize};
 /// A geodetic position in WGS84 degrees.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
 pub struct GeoPoint {
+    /// Latitude in degrees, north positive (WGS84).
     pub lat_deg: f64,
+    /// Longitude in degrees, east positive (WGS84).
     pub lon_deg: f64,
 }
 
 impl GeoPoint {
+    /// A point from latitude and longitude in degrees.
     pub fn new(lat_deg: f64, lon_deg: f64) -> Self {
         GeoPoint { lat_deg, lon_deg }
     }
@@ -79,10 +82,12 @@ pub fn bearing_difference_deg(a: f64, b: f64) -> f64 {
 /// A local east/north plane in metres centred on `origin` (azimuthal equidistant).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct LocalFrame {
+    /// The point the frame is centred on (east and north are 0 there).
     pub origin: GeoPoint,
 }
 
 impl LocalFrame {
+    /// A frame centred on `origin`.
     pub fn new(origin: GeoPoint) -> Self {
         LocalFrame { origin }
     }

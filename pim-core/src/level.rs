@@ -131,12 +131,15 @@ pub enum FieldRegion {
 /// The field one emitter sets up at the junction, with the terms that make it up.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct Incidence {
+    /// The emitter's ERP, dBm (dipole-referenced).
     pub erp_dbm: f64,
+    /// EIRP = ERP + 2.15 dB, dBm.
     pub eirp_dbm: f64,
     /// Ground distance from the emitter to the junction, m.
     pub ground_distance_m: f64,
     /// Slant distance (heights included), m.
     pub distance_m: f64,
+    /// Which field region the junction lies in (far field, cylindrical near field, reactive).
     pub region: FieldRegion,
     /// Field strength at the junction, dB(µV/m).
     pub field_dbuv_m: f64,

@@ -40,6 +40,7 @@
 //! job; output formats and pictures are `pim-report`'s. It does not know the command
 //! line: its errors and warnings are values for the caller to word.
 
+#![deny(missing_docs)]
 #![deny(clippy::unwrap_used, clippy::expect_used)]
 
 pub mod declination;

@@ -41,15 +41,20 @@ use crate::intermod::Product;
 /// A span of time during which an emitter was on the air, ends included.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Interval {
+    /// When it went on the air.
     pub start: OffsetDateTime,
+    /// When it went off the air.
     pub end: OffsetDateTime,
 }
 
 /// An emitter's state at one time.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum OnAir {
+    /// On the air at that time.
     Yes,
+    /// Off the air at that time.
     No,
+    /// Not known at that time (not in the on-air log, not continuous).
     Unknown,
 }
 
@@ -119,16 +124,22 @@ impl Schedule {
 /// A time at which someone listened, and whether the interference was there.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Observation {
+    /// When the channel was listened to.
     pub at: OffsetDateTime,
+    /// Whether the carrier was heard then.
     pub heard: bool,
 }
 
 /// What the log says about one candidate (see the module docs).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
 pub struct Evidence {
+    /// Times heard with all the product's emitters on the air.
     pub support: u32,
+    /// Times silent although all of them were on the air.
     pub contradictions: u32,
+    /// Times heard while one of them was off the air (the product cannot have made those).
     pub heard_off_air: u32,
+    /// Times with an emitter of unknown state.
     pub unknown: u32,
 }
 
@@ -143,13 +154,16 @@ impl Evidence {
 /// The on-air schedule with the listening times, ready to judge candidates.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Logbook {
+    /// When each emitter was on the air.
     pub schedule: Schedule,
+    /// When the channel was listened to, and what was heard.
     pub observations: Vec<Observation>,
     /// By emitter index, its state at each observation.
     states: Vec<Vec<OnAir>>,
 }
 
 impl Logbook {
+    /// A logbook of `schedule` and `observations` (sorted by time here).
     pub fn new(schedule: Schedule, observations: Vec<Observation>) -> Logbook {
         let states = (0..schedule.continuous.len())
             .map(|e| {

@@ -80,7 +80,9 @@ impl Placement {
 /// A level heard: at the receiver (`position` `None`) or at a point of a walk.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct HeardLevel {
+    /// Where it was heard; `None` at the receiver.
     pub position: Option<GeoPoint>,
+    /// The level heard, dBm.
     pub level_dbm: f64,
 }
 
@@ -135,17 +137,21 @@ pub struct Calibration {
 pub struct Candidate {
     /// 1 for the most plausible.
     pub rank: usize,
+    /// The product.
     pub product: Product,
+    /// Where and how it is made.
     pub mechanism: Mechanism,
     /// Transmitter intermodulation: the emitter whose output stage makes it.
     pub formed_in: Option<usize>,
     /// The model's level at the source (the junction for a junction), dBm.
     pub level_dbm: Option<f64>,
+    /// The terms of its level, when it has one.
     pub breakdown: Option<LevelBreakdown>,
     /// Why there is no level, when there is none.
     pub missing: Option<Missing>,
     /// In-channel level relative to the first levelled candidate, dB.
     pub relative_db: Option<f64>,
+    /// The shift that matches it to the levels heard, when levels were given.
     pub calibration: Option<Calibration>,
     /// A junction needing more than the model's plausible bound.
     pub implausible: bool,
@@ -162,6 +168,7 @@ pub struct LevelTerms {
     pub power_sum_db: f64,
     /// Everything else: L₃ + F − s·(n − 3) − e·[n even], dB.
     pub conversion_db: f64,
+    /// The level, dBm.
     pub level_dbm: f64,
 }
 
@@ -195,11 +202,13 @@ pub enum NextStep {
 /// Ranked candidates and what the ranking rested on.
 #[derive(Clone, Debug)]
 pub struct Ranking {
+    /// The candidates, best first.
     pub candidates: Vec<Candidate>,
     /// The junction location used for fields (the receiver site, or a fix).
     pub junction: Option<GeoPoint>,
     /// Where the candidates are heard.
     pub receiver: Option<GeoPoint>,
+    /// The level model used.
     pub model: LevelModel,
     /// The field of each emitter at the junction, by emitter index.
     pub incidence: Vec<Option<Incidence>>,
@@ -211,6 +220,7 @@ pub struct Ranking {
     pub calibrated: bool,
     /// Mechanisms left out for want of data.
     pub unmodelled: Vec<(Mechanism, Missing)>,
+    /// Whether anything credible lands, and what to try next if not.
     pub outlook: Outlook,
 }
 
@@ -328,8 +338,11 @@ fn tie_break(a: &Product, b: &Product, emitters: &[Emitter]) -> Ordering {
 /// Everything a ranking takes besides the products.
 #[derive(Clone, Copy, Debug, Default)]
 pub struct RankInputs<'a> {
+    /// Where the junction and the receiver are.
     pub placement: Placement,
+    /// The level model.
     pub model: LevelModel,
+    /// On-air evidence to rank first, when given.
     pub logbook: Option<&'a Logbook>,
     /// Heard levels to calibrate against (empty: uncalibrated).
     pub heard: &'a [HeardLevel],

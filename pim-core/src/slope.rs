@@ -91,7 +91,10 @@ pub enum Verdict {
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Unsettled {
     /// Two readings fix a line but not its uncertainty.
-    TooFewReadings { have: usize },
+    TooFewReadings {
+        /// The readings given.
+        have: usize,
+    },
     /// The level does not follow the step the expected way: below 0.5 dB/dB for the
     /// attenuator, below −0.5 for a power step (the level rose as the emitter was lowered).
     DoesNotFollow,
@@ -112,6 +115,7 @@ pub enum Unsettled {
 /// An ordinary least-squares line through (step, level) readings.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct LineFit {
+    /// How many readings the fit rests on.
     pub n: usize,
     /// d(level)/d(step), dB per dB, as measured (no sign convention applied).
     pub slope: f64,
@@ -180,7 +184,9 @@ pub fn t_quantile(df: f64) -> Option<f64> {
 /// What a series of readings says.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SlopeAnswer {
+    /// Which test the readings are.
     pub kind: StepKind,
+    /// The straight line fitted to level against step.
     pub fit: LineFit,
     /// The slope in the sign convention of the module docs.
     pub slope_db_per_db: f64,
@@ -306,6 +312,7 @@ fn straddles(fit: &LineFit, boundary: f64, margin: f64, half_width: f64) -> Unse
 /// One emitter's part in a multi-emitter power-step answer.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct EmitterCoefficient {
+    /// The emitter stepped.
     pub emitter: String,
     /// |k|, when the answer settles it.
     pub k: Option<u32>,
@@ -318,6 +325,7 @@ pub struct EmitterCoefficient {
 /// The common drive exponent α implied by the coefficients.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct Exponent {
+    /// The exponent's estimate (1 for the ideal power law).
     pub estimate: f64,
     /// The 95 % interval.
     pub interval: (f64, f64),
@@ -343,8 +351,11 @@ pub enum PowerVerdict {
 /// The answer of [`judge_power_steps`].
 #[derive(Clone, Debug, PartialEq)]
 pub struct PowerSteps {
+    /// Each stepped emitter's slope and coefficient.
     pub coefficients: Vec<EmitterCoefficient>,
+    /// The common drive exponent implied, with its interval, when two or more emitters were stepped.
     pub exponent: Option<Exponent>,
+    /// What the steps say.
     pub verdict: PowerVerdict,
     /// With one emitter, the single-series answer of [`judge`].
     pub single: Option<SlopeAnswer>,

@@ -14,10 +14,15 @@ use crate::rank::Ranking;
 /// A structure on the site: a tower, a fence, a shed, a guy anchor.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Structure {
+    /// The structure's name in its file.
     pub id: String,
+    /// Where it stands (WGS84).
     pub position: GeoPoint,
+    /// What it is (tower, fence, shed, guy anchor …), as the file says.
     pub kind: Option<String>,
+    /// Free text from the file.
     pub note: Option<String>,
+    /// Its line in the file (the header is line 1).
     pub line: u64,
 }
 
@@ -25,18 +30,26 @@ pub struct Structure {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum ItemKind {
+    /// A listed site structure.
     Structure,
+    /// A listed emitter's antenna.
     Emitter,
 }
 
 /// Something on the ground in or near the ellipse.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct NearbyItem {
+    /// Its id in its file.
     pub id: String,
+    /// Whether it is a structure or an antenna.
     pub item: ItemKind,
+    /// What it is, as its file says.
     pub kind: Option<String>,
+    /// Free text from its file.
     pub note: Option<String>,
+    /// Where it stands (WGS84).
     pub position: GeoPoint,
+    /// Its distance from the fix, in metres.
     pub distance_m: f64,
     /// Bearing from the fix to the item.
     pub bearing_from_fix_deg: f64,
@@ -45,6 +58,7 @@ pub struct NearbyItem {
 }
 
 impl NearbyItem {
+    /// Whether it lies inside the claimed region.
     pub fn inside(&self) -> bool {
         self.ellipse_scale <= 1.0
     }
@@ -116,10 +130,15 @@ pub fn nearby(
 /// at the receiver.
 #[derive(Clone, Debug, PartialEq)]
 pub struct RankChange {
+    /// The product.
     pub product: Product,
+    /// Its rank with the junction at the fix.
     pub rank_at_fix: usize,
+    /// Its rank with the junction at the receiver, when it was ranked there.
     pub rank_at_receiver: Option<usize>,
+    /// Its level with the junction at the fix, dBm.
     pub level_at_fix_dbm: Option<f64>,
+    /// Its level with the junction at the receiver, dBm.
     pub level_at_receiver_dbm: Option<f64>,
 }
 

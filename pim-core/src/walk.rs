@@ -17,13 +17,16 @@ use crate::geo::{destination, distance_and_azimuth, GeoPoint};
 /// A place a bearing could be taken from.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Spot {
+    /// A name for the spot, when it has one.
     pub name: Option<String>,
+    /// Where it is (WGS84).
     pub position: GeoPoint,
 }
 
 /// A spot with its score.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ScoredSpot {
+    /// The spot.
     pub spot: Spot,
     /// Distance from the spot to the current fix.
     pub distance_m: f64,

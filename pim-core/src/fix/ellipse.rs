@@ -12,7 +12,9 @@ use crate::error::{Error, Result};
 /// A confidence ellipse around a fix.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct Ellipse {
+    /// Semi-major axis, metres.
     pub semi_major_m: f64,
+    /// Semi-minor axis, metres.
     pub semi_minor_m: f64,
     /// Direction of the major axis, degrees clockwise from true north, in [0, 180).
     pub orientation_deg: f64,
@@ -21,6 +23,7 @@ pub struct Ellipse {
 }
 
 impl Ellipse {
+    /// The ellipse's area, m² (π·a·b).
     pub fn area_m2(&self) -> f64 {
         std::f64::consts::PI * self.semi_major_m * self.semi_minor_m
     }

@@ -1,7 +1,7 @@
 //! The loss functions behind the estimators and their moments under the normal law: ρ, its
 //! derivative ψ (the influence of a standardised residual u) and ψ′, for squared error
 //! (maximum likelihood), Huber's and Andrews' losses (P. J. Huber, *Robust Statistics*,
-//! 1981; Lenth 1981 for their use on bearings). The moments E[ψ²] and E[ψ′] under N(0, 1)
+//! 1981; Lenth 1981 for their use on bearings). The moments E(ψ²) and E(ψ′) under N(0, 1)
 //! set the consistency of Huber's Proposal 2 scale and the size of the sandwich
 //! covariance.
 
@@ -12,7 +12,9 @@ use super::{Loss, ROBUST_TUNING};
 pub enum Rho {
     /// ρ(u) = u²/2: maximum likelihood under normal errors.
     Squared,
+    /// Huber's loss: quadratic near zero, linear beyond the tuning constant.
     Huber,
+    /// Andrews' sine wave: a reading far out gets no weight at all.
     Andrews,
 }
 

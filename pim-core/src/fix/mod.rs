@@ -55,6 +55,7 @@ type Result<T> = std::result::Result<T, FixRefusal>;
 pub struct Reading {
     /// The line of the log it came from (header = line 1).
     pub line: u64,
+    /// Where the bearing was taken (WGS84).
     pub observer: GeoPoint,
     /// Degrees clockwise from true north.
     pub bearing_deg: f64,
@@ -79,9 +80,12 @@ impl Reading {
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Method {
+    /// Least-squares intersection of the lines of bearing (closed form).
     Ls,
+    /// Maximum likelihood with the bearings' σ (Gauss–Newton on the angle residuals).
     Ml,
     #[default]
+    /// A robust M-estimate that sets reflections and other outliers aside.
     Robust,
 }
 
@@ -108,6 +112,7 @@ pub const SIGMA_TEST_LEVEL: f64 = 0.01;
 /// How to fix.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct FixOptions {
+    /// The estimator.
     pub method: Method,
     /// Probability the ellipse is to hold the junction, in (0, 1).
     pub confidence: f64,
@@ -115,6 +120,7 @@ pub struct FixOptions {
     pub sigma_deg: Option<f64>,
     /// Readings may point either way (front/back ambiguity of the antenna).
     pub ambiguous: bool,
+    /// The robust estimator's loss.
     pub loss: Loss,
 }
 
@@ -157,7 +163,9 @@ pub enum RegionKind {
 /// What became of one reading.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ReadingFit {
+    /// The log line of the reading.
     pub line: u64,
+    /// Where it was taken.
     pub observer: GeoPoint,
     /// The bearing used, true north (turned by 180° where the ambiguity was resolved so).
     pub bearing_deg: f64,
@@ -165,18 +173,22 @@ pub struct ReadingFit {
     pub predicted_deg: f64,
     /// Used minus predicted, in (−180, 180].
     pub residual_deg: f64,
+    /// The observer's distance to the fix, metres.
     pub distance_m: f64,
     /// The robust weight (1 for ls and ml).
     pub weight: f64,
     /// Whether the reading was taken as pointing the other way.
     pub flipped: bool,
+    /// Whether the reading disagrees with the rest by the outlier rule.
     pub outlier: bool,
 }
 
 /// A fix with its uncertainty.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Fix {
+    /// The junction's estimated position (WGS84).
     pub position: GeoPoint,
+    /// The estimator used.
     pub method: Method,
     /// The linearised summary: the ellipse of `covariance_m2` at the confidence asked.
     pub ellipse: Ellipse,
@@ -185,14 +197,20 @@ pub struct Fix {
     pub covariance_m2: [[f64; 2]; 2],
     /// Circular error probable, with the same small-sample law as the ellipse.
     pub cep_m: f64,
+    /// The bearing σ the region rests on, degrees.
     pub sigma_deg_used: f64,
+    /// Where that σ came from.
     pub sigma_source: SigmaSource,
     /// The region claimed to hold the junction at the confidence asked: a closed ring
     /// (first point repeated last), counterclockwise.
     pub region: Vec<GeoPoint>,
+    /// What the region is: the linearised ellipse or the likelihood contour.
     pub region_kind: RegionKind,
+    /// Readings that carried weight in the fix.
     pub n_used: usize,
+    /// Each reading with its residual, weight and distance.
     pub readings: Vec<ReadingFit>,
+    /// What the reader of the fix should know.
     pub warnings: Vec<FixWarning>,
 }
 

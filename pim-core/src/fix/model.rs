@@ -10,6 +10,7 @@ use crate::geo::{bearing_difference_deg, GeoPoint, LocalFrame};
 /// One line of bearing as the solvers see it.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Line {
+    /// Where the bearing was taken.
     pub observer: GeoPoint,
     /// True bearing in degrees, as used (after any front/back choice).
     pub bearing_deg: f64,
@@ -22,17 +23,21 @@ pub struct Sight {
     pub azimuth_deg: f64,
     /// Azimuth of the geodesic at the point (forward), degrees.
     pub azimuth_at_point_deg: f64,
+    /// Distance from the observer to the point the residual was taken at, metres.
     pub distance_m: f64,
 }
 
 /// Lines of bearing around a local east/north frame.
 pub struct BearingModel {
+    /// The local frame the solver works in.
     pub frame: LocalFrame,
+    /// The lines of bearing.
     pub lines: Vec<Line>,
     geodesic: Geodesic,
 }
 
 impl BearingModel {
+    /// A bearing model of `lines` in `frame`.
     pub fn new(frame: LocalFrame, lines: Vec<Line>) -> Self {
         BearingModel {
             frame,

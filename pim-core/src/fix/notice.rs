@@ -15,29 +15,56 @@ pub enum FixWarning {
     /// The stated σ is contradicted by the residuals (χ² test with n − 2 degrees of
     /// freedom rejects at `level`): the region uses the observed scatter instead.
     SigmaContradicted {
+        /// The σ stated, degrees.
         stated_deg: f64,
+        /// The scatter the residuals show, degrees.
         observed_deg: f64,
         /// The test's level, e.g. 0.01.
         level: f64,
     },
     /// The fix lies behind these observers (residual beyond 90°).
-    BehindObservers { lines: Vec<u64> },
+    BehindObservers {
+        /// Their log lines.
+        lines: Vec<u64>,
+    },
     /// Seen from the fix, the lines of bearing cross at no more than this.
-    WeakCrossing { spread_deg: f64 },
+    WeakCrossing {
+        /// The largest angle between lines at the fix, degrees.
+        spread_deg: f64,
+    },
     /// The fix lies near the straight line the observers walked.
     OnWalkedLine,
     /// The linearised ellipse is this many times longer than wide.
-    ElongatedEllipse { ratio: f64, along_deg: f64 },
+    ElongatedEllipse {
+        /// Major over minor axis.
+        ratio: f64,
+        /// Orientation of the major axis, degrees from true north.
+        along_deg: f64,
+    },
     /// The ellipse reaches further than the nearest observer.
-    EllipseBeyondNearestObserver { semi_major_m: f64, nearest_m: f64 },
+    EllipseBeyondNearestObserver {
+        /// The semi-major axis, metres.
+        semi_major_m: f64,
+        /// The nearest observer's distance to the fix, metres.
+        nearest_m: f64,
+    },
     /// These readings were taken as pointing the other way (front/back).
-    TakenReversed { lines: Vec<u64> },
+    TakenReversed {
+        /// Their log lines.
+        lines: Vec<u64>,
+    },
     /// The linearised ellipse misses the likelihood contour by this fraction of its
     /// radius somewhere: the region given is the likelihood contour.
-    LinearisationFails { radius_mismatch: f64 },
+    LinearisationFails {
+        /// The largest relative difference in radius.
+        radius_mismatch: f64,
+    },
     /// The fix is the least-squares intersection but the region is the likelihood
     /// contour, which centres on the maximum-likelihood point this far away.
-    RegionCentredElsewhere { offset_m: f64 },
+    RegionCentredElsewhere {
+        /// Distance between the two points, metres.
+        offset_m: f64,
+    },
 }
 
 impl fmt::Display for FixWarning {
@@ -104,36 +131,57 @@ impl fmt::Display for FixWarning {
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum FixRefusal {
     /// Fewer than two usable readings.
-    TooFewReadings { n: usize },
+    TooFewReadings {
+        /// The readings given.
+        n: usize,
+    },
     /// The confidence is not strictly between 0 and 1.
-    ConfidenceOutOfRange { confidence: f64 },
+    ConfidenceOutOfRange {
+        /// The confidence asked for.
+        confidence: f64,
+    },
     /// Two bearings without σ: a point but no uncertainty.
     TwoBearingsWithoutSigma,
     /// Every reading was taken from the same spot.
     SameSpot,
     /// The bearings are parallel: they differ by this much at most.
-    ParallelBearings { spread_deg: f64 },
+    ParallelBearings {
+        /// The largest difference between bearings, degrees.
+        spread_deg: f64,
+    },
     /// The lines of bearing are parallel or coincide (no least-squares intersection).
     LinesCoincide,
     /// The lines meet only behind the observers.
     Diverging,
     /// Seen from the fix, the lines arrive within this spread.
-    ArriveParallel { spread_deg: f64 },
+    ArriveParallel {
+        /// The spread of arrival angles, degrees.
+        spread_deg: f64,
+    },
     /// Fewer than two readings agree with each other.
     TooFewAgreeing,
     /// The position is not observed in every direction.
     Degenerate,
     /// Too few agreeing readings to estimate the scatter.
-    TooFewForScatter { n_used: usize },
+    TooFewForScatter {
+        /// The readings that agree.
+        n_used: usize,
+    },
     /// The likelihood region reaches beyond `reach_m` along `towards_deg`: it is
     /// unbounded for practical purposes, so no region is claimed.
     RegionUnbounded {
+        /// The region's confidence.
         confidence: f64,
+        /// The direction it runs on in, degrees from true north.
         towards_deg: f64,
+        /// How far it was traced, metres.
         reach_m: f64,
     },
     /// The solver could not be set up.
-    Solver { detail: String },
+    Solver {
+        /// What the solver said.
+        detail: String,
+    },
 }
 
 impl fmt::Display for FixRefusal {

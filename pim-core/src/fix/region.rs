@@ -29,7 +29,9 @@ pub fn radius_mismatch(q: f64, g: f64) -> f64 {
 
 /// Where a ray from the centre leaves the region, or that it does not within `reach_m`.
 pub enum RayEnd {
+    /// The contour crosses the ray at this distance, metres.
     At(f64),
+    /// The contour does not cross the ray within the search reach.
     Beyond,
 }
 

@@ -70,6 +70,7 @@ impl SearchParams {
 pub struct Term {
     /// Index into the emitter list given to the search.
     pub emitter: usize,
+    /// kᵢ, the emitter's signed coefficient.
     pub coefficient: i32,
 }
 

@@ -95,6 +95,7 @@ impl Conflicts {
         self.members.len()
     }
 
+    /// Whether no conflict was listed.
     pub fn is_empty(&self) -> bool {
         self.members.is_empty()
     }

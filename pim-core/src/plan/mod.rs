@@ -83,6 +83,7 @@ pub struct Plan {
     pub chosen: Vec<usize>,
     /// Whether the set is proved the largest possible.
     pub optimal: bool,
+    /// How the set was found.
     pub method: PlanMethod,
     /// Conflicts listed for the exact search (0 when it was not tried).
     pub conflicts: usize,

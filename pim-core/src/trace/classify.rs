@@ -40,6 +40,7 @@ pub enum PeakKind {
 }
 
 impl PeakKind {
+    /// The kind's name in outputs (`emitter`, `product`, `unexplained`).
     pub fn name(self) -> &'static str {
         match self {
             PeakKind::Emitter => "emitter",
@@ -52,13 +53,17 @@ impl PeakKind {
 /// How the peaks are explained: the search options apart from the channel centre.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ExplainRule {
+    /// The receive channel width around each peak.
     pub rx_bandwidth: Hz,
     /// Extra tolerance on each side, before half a trace step is added.
     pub tolerance: Hz,
+    /// Highest order Σ|k| searched.
     pub max_order: u32,
+    /// Most distinct emitters in one product.
     pub max_emitters: u32,
     /// Where the junction is assumed, for levels.
     pub junction: Option<GeoPoint>,
+    /// The level model that ranks a peak's candidates.
     pub model: JunctionModel,
     /// Candidates kept per peak, best first (`None`: all). Suspects are judged on the
     /// candidates kept; against thousands of emitters the lists run to millions.
@@ -81,7 +86,9 @@ impl ExplainRule {
 /// A peak with what explains it.
 #[derive(Clone, Debug)]
 pub struct ExplainedPeak {
+    /// The peak found.
     pub peak: Peak,
+    /// What explains it.
     pub kind: PeakKind,
     /// The emitters whose own carrier it is (kind `Emitter`), by index.
     pub co_channel: Vec<usize>,

@@ -41,11 +41,22 @@ pub enum PointRefusal {
     /// More than [`MAX_POINTS`] points in one sweep.
     TooMany,
     /// The frequency is not above the previous point's.
-    NotIncreasing { previous: Hz },
+    NotIncreasing {
+        /// The previous point's frequency.
+        previous: Hz,
+    },
     /// The point is off the grid: not within a quarter step of where it should be.
-    OffGrid { expected_hz: f64, step_hz: f64 },
+    OffGrid {
+        /// Where the point should be, Hz.
+        expected_hz: f64,
+        /// The grid step, Hz.
+        step_hz: f64,
+    },
     /// A later sweep has more points than the first.
-    BeyondGrid { points: usize },
+    BeyondGrid {
+        /// The first sweep's points.
+        points: usize,
+    },
 }
 
 impl PointRefusal {
@@ -81,12 +92,21 @@ impl PointRefusal {
 #[derive(Clone, Debug, PartialEq)]
 pub enum SweepRefusal {
     /// Fewer than [`MIN_POINTS`] points.
-    TooFew { points: usize },
+    TooFew {
+        /// The points read.
+        points: usize,
+    },
     /// A later sweep ended with fewer points than the first.
-    Short { points: usize, grid_points: usize },
+    Short {
+        /// The points read.
+        points: usize,
+        /// The first sweep's points.
+        grid_points: usize,
+    },
 }
 
 impl SweepRefusal {
+    /// The problem in words, without file or line (the reader adds those).
     pub fn message(&self) -> String {
         match self {
             SweepRefusal::TooFew { points } => format!(
@@ -122,6 +142,7 @@ pub struct MaxHold {
 }
 
 impl MaxHold {
+    /// An empty hold, waiting for its first sweep.
     pub fn new() -> Self {
         MaxHold::default()
     }
@@ -227,6 +248,7 @@ impl MaxHold {
 /// A trace on a uniform grid: point `i` is at `start + i·step`.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Trace {
+    /// Frequency of the first point.
     pub start: Hz,
     /// The grid step in hertz (a fraction of a hertz where the span does not divide).
     pub step_hz: f64,
@@ -275,6 +297,7 @@ pub struct SweepRule {
     pub threshold_db: f64,
     /// Floor window in points; `None` for [`floor_window_points`].
     pub floor_window_points: Option<usize>,
+    /// How each peak is explained.
     pub explain: classify::ExplainRule,
     /// Threads to explain the peaks on.
     pub threads: usize,
@@ -283,6 +306,7 @@ pub struct SweepRule {
 /// Everything found on a trace.
 #[derive(Clone, Debug)]
 pub struct Sweep {
+    /// The floor estimated along the trace.
     pub floor: floor::Floor,
     /// The least distance kept between peaks, in points.
     pub min_distance_points: usize,
