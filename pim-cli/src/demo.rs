@@ -15,7 +15,10 @@ use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
 use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
-use pim_report::ticket::TicketInputs;
+use pim_core::trace::classify::ExplainRule;
+use pim_core::trace::{analyse, MaxHold, SweepRule};
+use pim_io::trace::read_trace_into;
+use pim_report::ticket::{BandTrace, TicketInputs};
 
 use crate::ticket::{prepared_at, print_summary, write_ticket};
 
@@ -23,6 +26,8 @@ use crate::ticket::{prepared_at, print_summary, write_ticket};
 pub const EMITTERS_CSV: &str = include_str!("../../field-logs/emitters.csv");
 pub const STRUCTURES_CSV: &str = include_str!("../../field-logs/structures.csv");
 pub const WALK_CSV: &str = include_str!("../../field-logs/walk.csv");
+/// A maximum-hold trace of the site's receive band, 144–160 MHz.
+pub const TRACE_CSV: &str = include_str!("../../field-logs/trace.csv");
 
 /// The repeater input on which the mystery carrier is heard.
 pub const HEARD: Hz = Hz(146_340_000);
@@ -81,7 +86,34 @@ pub fn run(args: Args) -> CliResult {
         model: JunctionModel::default(),
         rx_site: Some(RX_SITE),
         top: 10,
+        band: None,
     };
+    let mut inputs = inputs;
+    let mut hold = MaxHold::new();
+    read_trace_into("trace.csv", TRACE_CSV.as_bytes(), &mut hold)?;
+    if let Some(trace) = hold.finish() {
+        let rule = SweepRule {
+            threshold_db: 10.0,
+            floor_window_points: None,
+            explain: ExplainRule {
+                rx_bandwidth: inputs.params.rx_bandwidth,
+                tolerance: inputs.params.tolerance,
+                max_order: inputs.params.max_order,
+                max_emitters: inputs.params.max_emitters,
+                junction: Some(RX_SITE),
+                model: inputs.model,
+                keep_candidates: Some(5),
+            },
+            threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
+        };
+        let sweep = analyse(&trace, inputs.site.emitters(), &rule);
+        inputs.band = Some(BandTrace {
+            trace,
+            sweep,
+            threshold_db: rule.threshold_db,
+            sources: "trace.csv".into(),
+        });
+    }
     let written = write_ticket(&inputs, &args.out)?;
     print_summary(&mut out, &inputs, &written)?;
     finish(out)

@@ -49,7 +49,7 @@ pub struct Args {
 }
 
 /// clap parser for the threshold: a finite number of dB above zero.
-fn threshold_arg(text: &str) -> Result<f64, String> {
+pub fn threshold_arg(text: &str) -> Result<f64, String> {
     let v = finite_arg(text)?;
     if !(v > 0.0 && v <= 100.0) {
         return Err(format!(
@@ -57,6 +57,29 @@ fn threshold_arg(text: &str) -> Result<f64, String> {
         ));
     }
     Ok(v)
+}
+
+/// The sweep's rule from the search options shared with `explain`.
+pub fn sweep_rule(
+    s: &SearchArgs,
+    threshold_db: f64,
+    floor_window: Option<u64>,
+    keep: Option<usize>,
+) -> SweepRule {
+    SweepRule {
+        threshold_db,
+        floor_window_points: floor_window.map(|w| w as usize),
+        explain: ExplainRule {
+            rx_bandwidth: s.rx_bw,
+            tolerance: s.tol,
+            max_order: s.max_order,
+            max_emitters: s.max_emitters,
+            junction: s.rx_site(),
+            model: s.junction_model(),
+            keep_candidates: keep,
+        },
+        threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
+    }
 }
 
 /// Reads the traces into one by maximum hold.
@@ -89,20 +112,7 @@ pub fn run(args: Args) -> CliResult {
     let emitters = load_emitters(&args.emitters)?;
     let trace = load_traces(&args.traces)?;
     let s = &args.search;
-    let rule = SweepRule {
-        threshold_db: args.threshold_db,
-        floor_window_points: args.floor_window.map(|w| w as usize),
-        explain: ExplainRule {
-            rx_bandwidth: s.rx_bw,
-            tolerance: s.tol,
-            max_order: s.max_order,
-            max_emitters: s.max_emitters,
-            junction: s.rx_site(),
-            model: s.junction_model(),
-            keep_candidates: args.listing.limit,
-        },
-        threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
-    };
+    let rule = sweep_rule(s, args.threshold_db, args.floor_window, args.listing.limit);
     let sweep = analyse(&trace, &emitters, &rule);
     let sources = args
         .traces

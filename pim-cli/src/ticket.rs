@@ -6,9 +6,10 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+use pim_core::trace::analyse;
 use pim_core::{Error, Site};
 use pim_io::emitters::read_structures;
-use pim_report::ticket::{ticket_files, TicketInputs};
+use pim_report::ticket::{ticket_files, BandTrace, TicketInputs};
 
 use crate::args::{HeardArgs, SearchArgs};
 use crate::common::load_emitters;
@@ -32,6 +33,13 @@ pub struct Args {
     /// The site's name, for the title.
     #[arg(long, value_name = "NAME", default_value = "the site")]
     pub site: String,
+    /// An analyser trace of the receive band (repeat for sweeps held together): the
+    /// ticket shows it (trace.svg) with the emitter sets that explain several peaks.
+    #[arg(long = "trace", value_name = "FILE")]
+    pub traces: Vec<PathBuf>,
+    /// Least height of a trace peak above the noise floor, in dB.
+    #[arg(long = "threshold-db", value_name = "DB", default_value = "10", value_parser = crate::sweep::threshold_arg)]
+    pub threshold_db: f64,
     /// Candidates listed in the ticket (candidates.csv has them all).
     #[arg(long, value_name = "N", default_value_t = 10)]
     pub top: usize,
@@ -157,7 +165,25 @@ pub fn run(args: Args) -> CliResult {
         model: s.junction_model(),
         rx_site: s.rx_site(),
         top: args.top,
+        band: None,
     };
+    let mut inputs = inputs;
+    if !args.traces.is_empty() {
+        let trace = crate::sweep::load_traces(&args.traces)?;
+        let rule = crate::sweep::sweep_rule(s, args.threshold_db, None, Some(5));
+        let sweep = analyse(&trace, inputs.site.emitters(), &rule);
+        let sources: Vec<String> = args
+            .traces
+            .iter()
+            .map(|p| p.display().to_string())
+            .collect();
+        inputs.band = Some(BandTrace {
+            trace,
+            sweep,
+            threshold_db: args.threshold_db,
+            sources: sources.join(", "),
+        });
+    }
     let written = write_ticket(&inputs, &args.out)?;
     let mut out = stdout();
     print_summary(&mut out, &inputs, &written)?;

@@ -10,6 +10,7 @@ use pim_core::intermod::SearchParams;
 use pim_core::level::JunctionModel;
 use pim_core::rank::{display_terms, formula, Placement, Ranking};
 use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
+use pim_core::trace::classify::PeakKind;
 use pim_core::{Error, Query, Site};
 use pim_io::export::{bearing_length_m, fix_geojson, fix_kml};
 use pim_io::fieldlog::{Correction, FieldLog};
@@ -37,6 +38,21 @@ pub struct TicketInputs {
     pub model: JunctionModel,
     pub rx_site: Option<GeoPoint>,
     pub top: usize,
+    /// A trace of the receive band (`trace.svg` and the suspects over the band), if taken.
+    pub band: Option<BandTrace>,
+}
+
+/// An analyser trace of the receive band, swept for peaks, for the ticket's view of the
+/// whole band.
+pub struct BandTrace {
+    /// The trace (held sweeps).
+    pub trace: pim_core::trace::Trace,
+    /// Its floor, peaks and suspects.
+    pub sweep: pim_core::trace::Sweep,
+    /// The peak threshold above the floor, dB.
+    pub threshold_db: f64,
+    /// The trace files, as named.
+    pub sources: String,
 }
 
 /// The files of a ticket, by name, with what the summary line needs.
@@ -68,7 +84,7 @@ fn build(
     at_fix: &Ranking,
     at_rx: Option<&Ranking>,
     near: &[NearbyItem],
-) -> (Vec<Block>, String, String) {
+) -> (Vec<Block>, String, String, Option<String>) {
     let carriers = carriers(t.site.emitters());
     let fix = &t.fix;
     let e = &fix.ellipse;
@@ -204,6 +220,19 @@ fn build(
             heard.mhz_text()
         ),
         svg: spectrum.clone(),
+    });
+
+    let band_svg = t.band.as_ref().map(|band| {
+        let picture = crate::sweep::picture_input(
+            &band.trace,
+            &band.sweep,
+            t.site.emitters(),
+            band.threshold_db,
+            &band.sources,
+        );
+        let svg = crate::trace::trace_svg(&picture);
+        doc.extend(band_blocks(band, t.site.emitters(), svg.clone()));
+        svg
     });
 
     // 3. Where
@@ -376,7 +405,92 @@ fn build(
         ),
         "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
     ]));
-    (doc, map, spectrum)
+    (doc, map, spectrum, band_svg)
+}
+
+/// The whole receive band: the trace picture, what its peaks are, and the emitter sets
+/// whose products explain several of them.
+fn band_blocks(band: &BandTrace, emitters: &[Emitter], svg: String) -> Vec<Block> {
+    let sweep = &band.sweep;
+    let count = |k| sweep.peaks.iter().filter(|p| p.kind == k).count();
+    let (e, p, u) = (
+        count(PeakKind::Emitter),
+        count(PeakKind::Product),
+        count(PeakKind::Unexplained),
+    );
+    let mut blocks = vec![
+        Block::Heading(3, "Over the whole receive band".into()),
+        Block::Para(format!(
+            "The trace {} ({:.4}–{:.4} MHz) shows {} peak{} at least {} dB above its floor: {e} a listed emitter's carrier, {p} explained as products, {u} unexplained.",
+            band.sources,
+            band.trace.start.mhz(),
+            band.trace.stop().mhz(),
+            sweep.peaks.len(),
+            if sweep.peaks.len() == 1 { "" } else { "s" },
+            band.threshold_db,
+        )),
+        Block::Picture {
+            file: "trace.svg".into(),
+            alt: "The receive band trace, its noise floor, and each peak marked by kind".into(),
+            svg,
+        },
+    ];
+    let suspects: Vec<String> = sweep
+        .suspects
+        .iter()
+        .take(5)
+        .map(|s| {
+            let ids: Vec<&str> = s
+                .emitters
+                .iter()
+                .map(|&i| emitters[i].id.as_str())
+                .collect();
+            let explains: Vec<String> = s
+                .explains
+                .iter()
+                .map(|(i, product, _)| {
+                    format!(
+                        "{} at {:.4} MHz",
+                        formula(product, emitters),
+                        sweep.peaks[*i].peak.freq.mhz()
+                    )
+                })
+                .collect();
+            format!(
+                "{} explain {} peaks: {}.",
+                ids.join(" + "),
+                s.explains.len(),
+                explains.join("; ")
+            )
+        })
+        .collect();
+    blocks.push(if suspects.is_empty() {
+        Block::Para("No emitter set explains more than one peak of the band.".into())
+    } else {
+        Block::Para("Emitter sets whose products explain several peaks (a junction fed by them makes them all; the strongest evidence a trace gives):".into())
+    });
+    if !suspects.is_empty() {
+        blocks.push(Block::List(suspects));
+    }
+    let unexplained: Vec<String> = sweep
+        .peaks
+        .iter()
+        .filter(|p| p.kind == PeakKind::Unexplained)
+        .map(|p| {
+            format!(
+                "{:.4} MHz, {:.1} dB above the floor",
+                p.peak.freq.mhz(),
+                p.peak.above_floor_db
+            )
+        })
+        .collect();
+    if !unexplained.is_empty() {
+        blocks.push(Block::Para(format!(
+            "Unexplained peaks (an unlisted emitter, a transmitter's own spurious output, or a product beyond the search's order): {}.",
+            unexplained.join("; ")
+        )));
+    }
+    blocks
 }
 
 fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
@@ -530,7 +644,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         },
     );
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
-    let (doc, map, spectrum) = build(t, &at_fix, at_rx.as_ref(), &near);
+    let (doc, map, spectrum, band_svg) = build(t, &at_fix, at_rx.as_ref(), &near);
     let title = format!(
         "PIM ticket: {}, {} MHz",
         t.site_name,
@@ -546,7 +660,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
     write_csv(&mut csv, &listing, None, None, true)
         .map_err(|_| Error::refused("could not format candidates.csv"))?;
     let geojson = serde_json::to_string_pretty(&fix_geojson(&t.fix)).unwrap_or_default();
-    let files: Vec<(&'static str, Vec<u8>)> = vec![
+    let mut files: Vec<(&'static str, Vec<u8>)> = vec![
         ("ticket.md", markdown(&doc).into_bytes()),
         ("ticket.html", html(&title, &doc).into_bytes()),
         ("map.svg", map.into_bytes()),
@@ -555,6 +669,9 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         ("fix.kml", fix_kml(&t.fix, &title).into_bytes()),
         ("candidates.csv", csv),
     ];
+    if let Some(svg) = band_svg {
+        files.push(("trace.svg", svg.into_bytes()));
+    }
     Ok(TicketFiles {
         files,
         top_formula: at_fix

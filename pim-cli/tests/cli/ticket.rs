@@ -1,4 +1,4 @@
-//! End-to-end runs of `pim ticket` and `pim demo`: all seven files written and readable by
+//! End-to-end runs of `pim ticket` and `pim demo`: all seven files (eight with a trace) written and readable by
 //! independent parsers, the ellipse polygon holding the fix with the stated axes, each
 //! line of bearing pointing along its bearing, and the ticket naming the first candidate
 //! and the cautions.
@@ -108,8 +108,17 @@ fn check_ticket_dir(dir: &Path) {
         assert!(text.contains("OLD-TWR-GUY-N"));
         assert!(text.contains("Attenuator test"));
     }
-    // self-contained HTML: pictures inline, no outside references
-    assert_eq!(html.matches("<svg").count(), 2);
+    // self-contained HTML: pictures inline (the trace's too, when one was given), no
+    // outside references
+    let band = dir.join("trace.svg").exists();
+    assert_eq!(html.matches("<svg").count(), 2 + usize::from(band));
+    if band {
+        xml_well_formed(&dir.join("trace.svg"));
+        for text in [&md, &html] {
+            assert!(text.contains("Over the whole receive band"));
+            assert!(text.contains("SKP-152 + SKP-157 + FIRE-DSP explain 3 peaks"));
+        }
+    }
     assert!(!html.contains("src=\"http") && !html.contains("href=\"http"));
     // candidates.csv: a header and the first candidate first
     let csv = std::fs::read_to_string(dir.join("candidates.csv")).unwrap();
@@ -123,6 +132,7 @@ fn check_ticket_dir(dir: &Path) {
 
 #[test]
 fn demo_runs_from_an_empty_directory() {
+    // (the demo's ticket carries the band trace: check_ticket_dir checks trace.svg)
     let tmp = crate::support::scratch();
     let dir = tmp.path();
     let o = pim_in(Some(dir), &["demo"]);
@@ -136,7 +146,7 @@ fn demo_runs_from_an_empty_directory() {
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
-    assert_eq!(names.len(), 7, "{names:?}");
+    assert_eq!(names.len(), 8, "{names:?}"); // the seven of every ticket and trace.svg
 }
 
 #[test]
@@ -173,11 +183,14 @@ fn ticket_from_files() {
         "45.103",
         "--rx-lon",
         "-122.412",
+        "--trace",
+        field_log("trace.csv").to_str().unwrap(),
         "--out",
         dir.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     check_ticket_dir(dir);
+    assert!(dir.join("trace.svg").exists());
     // the same inputs give the same ticket, byte for byte, with the date pinned
     let tmp_again = crate::support::scratch();
     let again = tmp_again.path();
