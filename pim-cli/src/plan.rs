@@ -2,20 +2,16 @@
 //! channels on which no product of them, up to the order asked, lands on a chosen channel
 //! or a protected receive frequency.
 
-use std::io::Write;
 use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
 use pim_core::emitter::{Carrier, Emitter};
 use pim_core::freq::{parse_khz, parse_mhz, Hz, MAX_FREQUENCY};
-use pim_core::plan::{closest_products, grid, plan_until, Plan, PlanMethod, PlanSpec};
-use pim_core::rank::formula;
+use pim_core::plan::{closest_products, grid, plan_until, PlanSpec};
 use pim_io::{read_channels, ListedChannel};
-use serde::Serialize;
-use serde_json::json;
 
 use crate::common::{finish, khz_arg, open, stdout, AnswerFormat, CliResult};
-use pim_report::text_table::{Align, TextTable};
+use pim_report::plan::{label, write_json, write_table, PlanReport};
 
 /// The most channels a grid may have.
 pub const MAX_GRID_COUNT: usize = 100_000;
@@ -109,36 +105,6 @@ pub struct Args {
     pub format: AnswerFormat,
 }
 
-/// The JSON answer; the first three fields are the contract.
-#[derive(Serialize)]
-struct PlanJson<'a> {
-    channels_mhz: Vec<f64>,
-    count: usize,
-    optimal: bool,
-    candidates: usize,
-    order: u32,
-    guard_khz: f64,
-    protected_mhz: Vec<f64>,
-    search: serde_json::Value,
-    channels: Vec<ChannelJson<'a>>,
-}
-
-#[derive(Serialize)]
-struct ChannelJson<'a> {
-    freq_mhz: f64,
-    id: Option<&'a str>,
-    bw_khz: f64,
-    closest_product: Option<ClosestJson>,
-}
-
-#[derive(Serialize)]
-struct ClosestJson {
-    formula: String,
-    product_mhz: f64,
-    distance_khz: f64,
-    order: u32,
-}
-
 fn load_list(path: &std::path::Path) -> CliResult<Vec<ListedChannel>> {
     let source = path.display().to_string();
     let file = read_channels(&source, open(path)?)?;
@@ -149,37 +115,6 @@ fn load_list(path: &std::path::Path) -> CliResult<Vec<ListedChannel>> {
         );
     }
     Ok(file.channels)
-}
-
-fn label(c: &ListedChannel) -> String {
-    c.id.clone().unwrap_or_else(|| c.freq.mhz_text())
-}
-
-fn order_words(order: u32) -> &'static str {
-    if order == 3 {
-        "third"
-    } else {
-        "fifth"
-    }
-}
-
-fn search_text(p: &Plan, time_limit: f64, elapsed: Duration) -> String {
-    let secs = elapsed.as_secs_f64();
-    match p.method {
-        PlanMethod::BranchAndBound => format!(
-            "Proved the largest: the branch and bound examined every larger set ({} conflicts, {} nodes, {secs:.2} s).",
-            p.conflicts, p.nodes
-        ),
-        PlanMethod::BranchAndBoundCutShort => format!(
-            "Best found, not proved the largest: the branch and bound was cut short by the {time_limit} s limit ({} conflicts, {} nodes); a longer --time-limit-s may prove it or find more.",
-            p.conflicts, p.nodes
-        ),
-        PlanMethod::Greedy => format!(
-            "Best found, not proved the largest: the candidates' conflicts could not be listed within the limits of the exact search (at most {} candidates, {} conflicts, the time limit), so greedy passes ran for {secs:.1} s.",
-            pim_core::plan::EXACT_MAX_CANDIDATES,
-            pim_core::plan::MAX_CONFLICTS
-        ),
-    }
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -239,89 +174,23 @@ pub fn run(args: Args) -> CliResult {
         .collect();
     let closest = closest_products(&chosen_carriers, args.order);
 
+    let report = PlanReport {
+        chosen,
+        closest,
+        names,
+        result: &result,
+        candidates: candidates.len(),
+        description,
+        order: args.order,
+        guard: args.guard,
+        protected: &protected,
+        time_limit_s: args.time_limit,
+        elapsed_s: elapsed.as_secs_f64(),
+    };
     let mut out = stdout();
     match args.format {
-        AnswerFormat::Json => {
-            let channels = chosen
-                .iter()
-                .zip(&closest)
-                .map(|(c, near)| ChannelJson {
-                    freq_mhz: c.freq.mhz(),
-                    id: c.id.as_deref(),
-                    bw_khz: c.bandwidth.khz(),
-                    closest_product: near.map(|n| ClosestJson {
-                        formula: formula(&n.product, &names),
-                        product_mhz: n.product.freq.mhz(),
-                        distance_khz: n.distance.khz(),
-                        order: n.product.order(),
-                    }),
-                })
-                .collect();
-            let v = PlanJson {
-                channels_mhz: chosen.iter().map(|c| c.freq.mhz()).collect(),
-                count: chosen.len(),
-                optimal: result.optimal,
-                candidates: candidates.len(),
-                order: args.order,
-                guard_khz: args.guard.khz(),
-                protected_mhz: protected.iter().map(|c| c.freq.mhz()).collect(),
-                search: json!({
-                    "method": result.method,
-                    "conflicts": result.conflicts,
-                    "nodes": result.nodes,
-                    "elapsed_s": (elapsed.as_secs_f64() * 1000.0).round() / 1000.0,
-                    "time_limit_s": args.time_limit,
-                }),
-                channels,
-            };
-            serde_json::to_writer_pretty(&mut out, &v).map_err(std::io::Error::from)?;
-            writeln!(out)?;
-        }
-        AnswerFormat::Table => {
-            writeln!(out, "Channel plan: {} of {description}.", chosen.len())?;
-            writeln!(
-                out,
-                "No product of two or three chosen channels, up to {} order, lands within {} kHz of a chosen channel{}.",
-                order_words(args.order),
-                args.guard.khz_text(),
-                match protected.len() {
-                    0 => String::new(),
-                    1 => " or of the protected frequency".to_string(),
-                    n => format!(" or of any of the {n} protected frequencies"),
-                }
-            )?;
-            writeln!(out, "{}\n", search_text(&result, args.time_limit, elapsed))?;
-            let with_ids = chosen.iter().any(|c| c.id.is_some());
-            let mut headers = vec![("#", Align::Right), ("channel MHz", Align::Right)];
-            if with_ids {
-                headers.push(("id", Align::Left));
-            }
-            headers.extend([
-                ("closest product", Align::Left),
-                ("at MHz", Align::Right),
-                ("distance kHz", Align::Right),
-                ("order", Align::Right),
-            ]);
-            let mut t = TextTable::new(&headers);
-            for (i, (c, near)) in chosen.iter().zip(&closest).enumerate() {
-                let (f, at, d, o) = match near {
-                    Some(n) => (
-                        formula(&n.product, &names),
-                        n.product.freq.mhz_text(),
-                        n.distance.khz_text(),
-                        n.product.order().to_string(),
-                    ),
-                    None => ("—".into(), "—".into(), "—".into(), "—".into()),
-                };
-                let mut row = vec![(i + 1).to_string(), c.freq.mhz_text()];
-                if with_ids {
-                    row.push(c.id.clone().unwrap_or_default());
-                }
-                row.extend([f, at, d, o]);
-                t.push(row);
-            }
-            write!(out, "{}", t.render())?;
-        }
+        AnswerFormat::Json => write_json(&mut out, &report)?,
+        AnswerFormat::Table => write_table(&mut out, &report)?,
     }
     finish(out)
 }

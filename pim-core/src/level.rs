@@ -511,6 +511,12 @@ mod tests {
     }
 
     proptest::proptest! {
+        // A fixed seed and no regression files: the same cases on every run and machine.
+        #![proptest_config(proptest::test_runner::Config {
+            rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_201),
+            failure_persistence: None,
+            ..proptest::test_runner::Config::default()
+        })]
         /// The bound the search may prune by: the level never falls as a drive rises, and
         /// the field never rises with distance.
         #[test]

@@ -1,6 +1,9 @@
 //! The words and shapes of a bearing fix's output.
 
-use pim_core::fix::Method;
+use pim_core::fix::{Fix, Method, RegionKind, SigmaSource};
+use pim_io::fieldlog::Correction;
+
+use crate::text_table::{Align, TextTable};
 
 /// The estimator's name as a reader knows it.
 pub fn method_name(m: Method) -> &'static str {
@@ -9,4 +12,166 @@ pub fn method_name(m: Method) -> &'static str {
         Method::Ls => "least-squares intersection",
         Method::Robust => "robust M-estimate",
     }
+}
+
+#[derive(serde::Serialize)]
+struct EllipseJson {
+    semi_major_m: f64,
+    semi_minor_m: f64,
+    orientation_deg: f64,
+    confidence: f64,
+    area_m2: f64,
+}
+
+#[derive(serde::Serialize)]
+struct OutlierJson {
+    line: u64,
+    residual_deg: f64,
+}
+
+/// The fix as the JSON object of the contract, serialised straight from the results
+/// (no tree of values is built, so a long log costs no second copy).
+#[derive(serde::Serialize)]
+pub struct FixJson<'a> {
+    lat: f64,
+    lon: f64,
+    method: pim_core::fix::Method,
+    ellipse: EllipseJson,
+    cep_m: f64,
+    sigma_deg_used: f64,
+    sigma_source: SigmaSource,
+    /// The region claimed, a closed ring of [lat, lon].
+    region: Vec<[f64; 2]>,
+    region_kind: RegionKind,
+    n_used: usize,
+    residuals: &'a [pim_core::fix::ReadingFit],
+    outliers: Vec<OutlierJson>,
+    declination: &'a [Correction],
+    warnings: Vec<String>,
+}
+
+/// The fix as the JSON object of the contract.
+pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> {
+    let e = &fix.ellipse;
+    FixJson {
+        lat: fix.position.lat_deg,
+        lon: fix.position.lon_deg,
+        method: fix.method,
+        ellipse: EllipseJson {
+            semi_major_m: e.semi_major_m,
+            semi_minor_m: e.semi_minor_m,
+            orientation_deg: e.orientation_deg,
+            confidence: e.confidence,
+            area_m2: e.area_m2(),
+        },
+        cep_m: fix.cep_m,
+        sigma_deg_used: fix.sigma_deg_used,
+        sigma_source: fix.sigma_source,
+        region: fix.region.iter().map(|p| [p.lat_deg, p.lon_deg]).collect(),
+        region_kind: fix.region_kind,
+        n_used: fix.n_used,
+        residuals: &fix.readings,
+        outliers: fix
+            .readings
+            .iter()
+            .filter(|r| r.outlier)
+            .map(|r| OutlierJson {
+                line: r.line,
+                residual_deg: r.residual_deg,
+            })
+            .collect(),
+        declination: corrections,
+        warnings: fix.warnings.iter().map(|w| w.to_string()).collect(),
+    }
+}
+
+/// A few lines that state the fix for people.
+pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> String {
+    let e = &fix.ellipse;
+    let mut s = format!(
+        "Fix by {} from {} of {} readings in {source}\n  {:.6}, {:.6}\n",
+        method_name(fix.method),
+        fix.n_used,
+        fix.readings.len(),
+        fix.position.lat_deg,
+        fix.position.lon_deg
+    );
+    s.push_str(&format!(
+        "  {:.0}% ellipse {:.1} m × {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
+        e.confidence * 100.0,
+        e.semi_major_m,
+        e.semi_minor_m,
+        e.orientation_deg,
+        e.area_m2(),
+        fix.cep_m
+    ));
+    s.push_str(&match fix.sigma_source {
+        SigmaSource::Given => format!("  bearing σ {:.1}° as given (ellipse from χ² with 2 degrees of freedom)\n", fix.sigma_deg_used),
+        SigmaSource::Estimated => format!(
+            "  bearing σ {:.1}° estimated from the residuals (ellipse from F with 2 and {} degrees of freedom)\n",
+            fix.sigma_deg_used,
+            fix.readings.len().saturating_sub(2)
+        ),
+        SigmaSource::Contradicted => format!(
+            "  bearing σ {:.1}° from the residuals, which contradict the σ given (region widened; F with 2 and {} degrees of freedom)\n",
+            fix.sigma_deg_used,
+            fix.readings.len().saturating_sub(2)
+        ),
+    });
+    if fix.region_kind == RegionKind::Likelihood {
+        s.push_str(
+            "  region: the likelihood contour (the ellipse does not hold in this geometry)\n",
+        );
+    }
+    if !corrections.is_empty() {
+        let mut sources: Vec<&str> = corrections.iter().map(|c| c.source.as_str()).collect();
+        sources.dedup();
+        let (lo, hi) = corrections.iter().fold((f64::MAX, f64::MIN), |(a, b), c| {
+            (a.min(c.declination_deg), b.max(c.declination_deg))
+        });
+        let range = if (hi - lo).abs() < 0.05 {
+            format!("{lo:+.1}°")
+        } else {
+            format!("{lo:+.1}° to {hi:+.1}°")
+        };
+        s.push_str(&format!(
+            "  {} magnetic reading{} turned to true north by {range} ({})\n",
+            corrections.len(),
+            if corrections.len() == 1 { "" } else { "s" },
+            sources.join(", ")
+        ));
+    }
+    s
+}
+
+/// Each reading with its residual, range and weight, as a text table.
+pub fn readings_table(fix: &Fix) -> String {
+    let mut t = TextTable::new(&[
+        ("line", Align::Right),
+        ("bearing °", Align::Right),
+        ("to fix °", Align::Right),
+        ("residual °", Align::Right),
+        ("range m", Align::Right),
+        ("weight", Align::Right),
+        ("", Align::Left),
+    ]);
+    for r in &fix.readings {
+        let mut flags = Vec::new();
+        if r.outlier {
+            flags.push("outlier");
+        }
+        if r.flipped {
+            flags.push("taken reversed");
+        }
+        t.push(vec![
+            r.line.to_string(),
+            format!("{:.1}", r.bearing_deg),
+            format!("{:.1}", r.predicted_deg),
+            format!("{:+.1}", r.residual_deg),
+            format!("{:.0}", r.distance_m),
+            format!("{:.2}", r.weight),
+            flags.join(", "),
+        ]);
+    }
+    t.render()
 }

@@ -12,6 +12,7 @@ pub mod document;
 pub mod fix;
 pub mod map;
 pub mod picture;
+pub mod plan;
 pub mod spectrum;
 pub mod sweep;
 pub mod text_table;

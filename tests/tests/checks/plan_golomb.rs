@@ -128,7 +128,8 @@ fn candidates() -> impl Strategy<Value = Vec<Carrier>> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 64, ..ProptestConfig::default() })]
+    // A fixed seed and no regression files: the same cases on every run and machine.
+    #![proptest_config(ProptestConfig { cases: 64, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_201), failure_persistence: None, ..ProptestConfig::default() })]
 
     /// The proved optimum equals the largest conflict-free subset found by trying every
     /// subset, each checked plainly with the product search.
