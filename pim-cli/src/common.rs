@@ -9,6 +9,7 @@ use pim_core::emitter::Emitter;
 use pim_core::freq::{parse_frequency_with_unit, parse_khz, Hz};
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::{Error, Site};
+use pim_io::text::{parse_coordinate, Axis};
 use pim_io::{read_emitters, read_heard, read_on_air, Clock};
 
 /// An error on its way to the user, or a closed pipe (not an error: the reader left).
@@ -76,26 +77,15 @@ pub fn khz_arg(text: &str) -> Result<Hz, String> {
     Ok(w)
 }
 
-/// clap parser for a latitude in degrees.
+/// clap parser for a latitude: decimal degrees, degrees and minutes, or degrees, minutes
+/// and seconds, with N or S (`45.1046`, `45°06.275'N`, `45 06 16.5 N`).
 pub fn lat_arg(text: &str) -> Result<f64, String> {
-    let v: f64 = text
-        .parse()
-        .map_err(|_| format!("`{text}` is not a number"))?;
-    if !v.is_finite() || !(-90.0..=90.0).contains(&v) {
-        return Err(format!("latitude {text} is outside −90…90"));
-    }
-    Ok(v)
+    parse_coordinate(text, Axis::Latitude)
 }
 
-/// clap parser for a longitude in degrees.
+/// clap parser for a longitude, in the notations of [`lat_arg`] with E or W.
 pub fn lon_arg(text: &str) -> Result<f64, String> {
-    let v: f64 = text
-        .parse()
-        .map_err(|_| format!("`{text}` is not a number"))?;
-    if !v.is_finite() || !(-180.0..=180.0).contains(&v) {
-        return Err(format!("longitude {text} is outside −180…180"));
-    }
-    Ok(v)
+    parse_coordinate(text, Axis::Longitude)
 }
 
 /// clap parser for a finite number.

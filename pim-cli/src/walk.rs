@@ -24,6 +24,7 @@ use pim_core::walk::{rank_spots, ring, Spot};
 use pim_io::append::{read_locked, remove_last_row};
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_spots;
+use pim_io::text::{parse_coordinate, Axis};
 use serde_json::{json, Value};
 use subtle::ConstantTimeEq;
 use tiny_http::{Header, Method, Request, Response, Server};
@@ -170,34 +171,9 @@ fn new_token() -> CliResult<String> {
 
 /// The value of `name` in a query string or form body (`a=1&b=2`), percent-decoded.
 fn form_value(text: &str, name: &str) -> Option<String> {
-    text.split('&').find_map(|pair| {
-        let (k, v) = pair.split_once('=').unwrap_or((pair, ""));
-        (percent_decode(k) == name).then(|| percent_decode(v))
-    })
-}
-
-fn percent_decode(text: &str) -> String {
-    let bytes = text.as_bytes();
-    let mut out = Vec::with_capacity(bytes.len());
-    let mut i = 0;
-    while i < bytes.len() {
-        match bytes[i] {
-            b'+' => out.push(b' '),
-            b'%' if i + 2 < bytes.len() => {
-                let hex = |b: u8| (b as char).to_digit(16);
-                match (hex(bytes[i + 1]), hex(bytes[i + 2])) {
-                    (Some(h), Some(l)) => {
-                        out.push((h * 16 + l) as u8);
-                        i += 2;
-                    }
-                    _ => out.push(b'%'),
-                }
-            }
-            b => out.push(b),
-        }
-        i += 1;
-    }
-    String::from_utf8_lossy(&out).into_owned()
+    form_urlencoded::parse(text.as_bytes())
+        .find(|(k, _)| k == name)
+        .map(|(_, v)| v.into_owned())
 }
 
 fn header_value<'a>(request: &'a Request, name: &'static str) -> Option<&'a str> {
@@ -369,8 +345,8 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
     };
     let reading = ReadingText {
         // Both empty: a row for `pim fix --track` to place by its time.
-        lat: get("lat").map(|t| decimal_degrees(&t, 'N', 'S')),
-        lon: get("lon").map(|t| decimal_degrees(&t, 'E', 'W')),
+        lat: get("lat").map(|t| decimal_degrees(&t, Axis::Latitude)),
+        lon: get("lon").map(|t| decimal_degrees(&t, Axis::Longitude)),
         bearing_deg,
         north,
         sigma_deg: get("sigma_deg"),
@@ -392,38 +368,14 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
     }
 }
 
-/// A typed position in degrees and decimal minutes (`51 30.125 N`, `N51°30.125'`,
-/// `-2 36.5`) as decimal degrees with 7 decimals (about 1 cm); anything else is passed
-/// on as typed, for the log's own check to judge.
-fn decimal_degrees(text: &str, positive: char, negative: char) -> String {
-    if text.parse::<f64>().is_ok() {
-        return text.to_string();
+/// A typed position in any notation [`parse_coordinate`] reads, as decimal degrees with
+/// 7 decimals (about 1 cm); anything else is passed on as typed, for the log's own check
+/// to judge and name.
+fn decimal_degrees(text: &str, axis: Axis) -> String {
+    match parse_coordinate(text, axis) {
+        Ok(v) if text.trim().parse::<f64>().is_err() => format!("{v:.7}"),
+        _ => text.to_string(),
     }
-    let upper = text.to_ascii_uppercase();
-    let mut sign = 1.0;
-    let mut rest = upper.trim().to_string();
-    for (c, s) in [(positive, 1.0), (negative, -1.0)] {
-        if let Some(r) = rest.strip_prefix(c).or_else(|| rest.strip_suffix(c)) {
-            sign = s;
-            rest = r.to_string();
-            break;
-        }
-    }
-    let parts: Vec<&str> = rest
-        .split(|ch: char| ch.is_whitespace() || "°'′º".contains(ch))
-        .filter(|p| !p.is_empty())
-        .collect();
-    let [deg, min] = parts[..] else {
-        return text.to_string();
-    };
-    let (Ok(d), Ok(m)) = (deg.parse::<f64>(), min.parse::<f64>()) else {
-        return text.to_string();
-    };
-    if !(0.0..60.0).contains(&m) || d.fract() != 0.0 || !d.is_finite() {
-        return text.to_string();
-    }
-    let sign = if deg.starts_with('-') { -1.0 } else { sign };
-    format!("{:.7}", sign * (d.abs() + m / 60.0))
 }
 
 /// Everything the page shows after a save: the running fix, the map, each reading's
@@ -519,14 +471,11 @@ mod tests {
     use super::*;
 
     #[test]
-    fn degrees_and_decimal_minutes() {
-        assert_eq!(decimal_degrees("51 30.000 N", 'N', 'S'), "51.5000000");
-        assert_eq!(decimal_degrees("N51°30.6'", 'N', 'S'), "51.5100000");
-        assert_eq!(decimal_degrees("2 36.000 W", 'E', 'W'), "-2.6000000");
-        assert_eq!(decimal_degrees("-2 36.000", 'E', 'W'), "-2.6000000");
-        assert_eq!(decimal_degrees("51.25", 'N', 'S'), "51.25");
-        assert_eq!(decimal_degrees("51 75 N", 'N', 'S'), "51 75 N");
-        assert_eq!(decimal_degrees("abc", 'N', 'S'), "abc");
+    fn typed_positions_become_decimal_degrees() {
+        assert_eq!(decimal_degrees("51 30.000 N", Axis::Latitude), "51.5000000");
+        assert_eq!(decimal_degrees("2 36.000 W", Axis::Longitude), "-2.6000000");
+        assert_eq!(decimal_degrees("51.25", Axis::Latitude), "51.25");
+        assert_eq!(decimal_degrees("51 75 N", Axis::Latitude), "51 75 N");
     }
 
     #[test]
@@ -535,8 +484,7 @@ mod tests {
         assert_eq!(form_value(body, "note").as_deref(), Some("gate post, east"));
         assert_eq!(form_value(body, "lat").as_deref(), Some("51.5"));
         assert_eq!(form_value(body, "lon"), None);
-        assert_eq!(percent_decode("100%"), "100%");
-        assert_eq!(percent_decode("%e2%80%99"), "\u{2019}");
+        assert_eq!(form_value("q=%e2%80%99", "q").as_deref(), Some("\u{2019}"));
     }
 
     #[test]

@@ -48,6 +48,91 @@ pub fn parse_time(text: &str) -> Result<(OffsetDateTime, bool), String> {
     }
 }
 
+/// Which axis a coordinate is on: the hemisphere letters it may carry and its range.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Axis {
+    /// Latitude: N or S, −90…90°.
+    Latitude,
+    /// Longitude: E or W, −180…180°.
+    Longitude,
+}
+
+/// Parses a coordinate in decimal degrees (`45.104575`, `-122.41405`), degrees and
+/// decimal minutes (`45 06.275 N`, `N45°06.275'`) or degrees, minutes and seconds
+/// (`122 24 50.5 W`, `122°24'50.5"W`). A hemisphere letter (N/S for latitude, E/W for
+/// longitude) may stand first or last; S and W are negative. Minutes and seconds must be
+/// below 60, and the result within the axis's range.
+///
+/// ```
+/// use pim_io::text::{parse_coordinate, Axis};
+/// assert_eq!(parse_coordinate("45°06.275'N", Axis::Latitude).unwrap(), 45.104_583_333_333_33);
+/// let lon = parse_coordinate("122 24 50.5 W", Axis::Longitude).unwrap();
+/// assert!((lon + 122.414_027_777_8).abs() < 1e-9);
+/// assert!(parse_coordinate("45 75 N", Axis::Latitude).is_err());
+/// ```
+pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
+    let (positive, negative, limit, name) = match axis {
+        Axis::Latitude => ('N', 'S', 90.0, "latitude"),
+        Axis::Longitude => ('E', 'W', 180.0, "longitude"),
+    };
+    let t = text.trim();
+    let out_of_range = || format!("{name} {t} is outside −{limit:.0}…{limit:.0}");
+    if let Ok(v) = t.parse::<f64>() {
+        return if v.is_finite() && v.abs() <= limit {
+            Ok(v)
+        } else {
+            Err(out_of_range())
+        };
+    }
+    let upper = t.to_uppercase();
+    let mut sign = 1.0;
+    let mut rest = upper.as_str();
+    for (c, s) in [(positive, 1.0), (negative, -1.0)] {
+        if let Some(r) = rest.strip_prefix(c).or_else(|| rest.strip_suffix(c)) {
+            sign = s;
+            rest = r;
+            break;
+        }
+    }
+    let parts: Vec<&str> = rest
+        .split(|ch: char| ch.is_whitespace() || "°'′º\"″".contains(ch))
+        .filter(|p| !p.is_empty())
+        .collect();
+    let bad = || {
+        format!("`{t}` is not a {name} in degrees (45.1046), degrees and minutes (45 06.275 {positive}) or degrees, minutes and seconds (45 06 16.5 {positive})")
+    };
+    let numbers: Vec<f64> = parts
+        .iter()
+        .map(|p| p.parse::<f64>().ok().filter(|v| v.is_finite()))
+        .collect::<Option<_>>()
+        .ok_or_else(bad)?;
+    let (deg, min, sec) = match numbers[..] {
+        [d] => (d, 0.0, 0.0),
+        [d, m] => (d, m, 0.0),
+        [d, m, s] => (d, m, s),
+        _ => return Err(bad()),
+    };
+    let whole = |v: f64| v.fract() == 0.0;
+    if numbers.len() > 1
+        && (!whole(deg) || !(0.0..60.0).contains(&min) || !(0.0..60.0).contains(&sec))
+    {
+        return Err(format!(
+            "`{t}`: minutes and seconds must be below 60, after whole degrees"
+        ));
+    }
+    if numbers.len() > 2 && !whole(min) {
+        return Err(format!("`{t}`: with seconds, the minutes must be whole"));
+    }
+    if parts.first().is_some_and(|p| p.starts_with('-')) {
+        sign = -sign;
+    }
+    let v = sign * (deg.abs() + min / 60.0 + sec / 3600.0);
+    if v.abs() > limit {
+        return Err(out_of_range());
+    }
+    Ok(v)
+}
+
 /// Text made safe inside XML (SVG, KML, HTML) content and attribute values: the five
 /// markup characters become entities, and characters XML 1.0 does not allow at all
 /// (C0 controls other than tab, line feed and carriage return; U+FFFE, U+FFFF) are shown
@@ -125,6 +210,26 @@ mod tests {
         assert!(parse_time("2025-02-30T09:30Z")
             .unwrap_err()
             .contains("out of range"));
+    }
+
+    #[test]
+    fn coordinates_in_every_notation() {
+        let lat = |t| parse_coordinate(t, Axis::Latitude);
+        let lon = |t| parse_coordinate(t, Axis::Longitude);
+        assert_eq!(lat("51 30.000 N").unwrap(), 51.5);
+        assert_eq!(lat("N51°30.6'").unwrap(), 51.51);
+        assert_eq!(lon("2 36.000 W").unwrap(), -2.6);
+        assert_eq!(lon("-2 36.000").unwrap(), -2.6);
+        assert_eq!(lat("51.25").unwrap(), 51.25);
+        assert_eq!(
+            lat("45 06 15 S").unwrap(),
+            -(45.0 + 6.0 / 60.0 + 15.0 / 3600.0)
+        );
+        assert!(lat("51 75 N").is_err());
+        assert!(lat("91").is_err());
+        assert!(lat("45.5 30 N").is_err());
+        assert!(lat("abc").unwrap_err().contains("degrees and minutes"));
+        assert!(lon("45 06.275 N").is_err());
     }
 
     #[test]
