@@ -12,6 +12,7 @@ pub mod document;
 pub mod fix;
 pub mod map;
 pub mod picture;
+pub mod slope;
 pub mod spectrum;
 pub mod text_table;
 pub mod ticket;
