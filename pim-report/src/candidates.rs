@@ -164,8 +164,13 @@ pub fn outlook_text(ranking: &Ranking) -> Option<String> {
             "Nothing credible: no product of the listed emitters lands in the channel.".to_string()
         }
         Outlook::OnlyImplausible => format!(
-            "Nothing credible: every product that lands would need a junction mixing more strongly than any passive contact (a third-order level above {:.0} dBc of one tone) or is made away from the fix.",
-            ranking.model.max_im3_dbc
+            "Nothing credible: every product that lands would need a junction mixing more strongly than any passive contact (a third-order level above {:.0} dBc of one tone){}.",
+            ranking.model.max_im3_dbc,
+            if ranking.candidates.iter().any(|c| c.away_from_fix) {
+                " or is made away from the fix"
+            } else {
+                ""
+            }
         ),
     };
     let steps: Vec<String> = ranking
@@ -498,11 +503,12 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
     }
     let mut out = String::new();
     if t.is_empty() {
-        out.push_str("No product of these emitters lands in the channel.\n");
-        if let Some(s) = outlook_text(l.ranking) {
-            out.push_str(&s);
-            out.push('\n');
-        }
+        out.push_str(
+            &outlook_text(l.ranking).unwrap_or_else(|| {
+                "No product of these emitters lands in the channel.".to_string()
+            }),
+        );
+        out.push('\n');
         return out;
     }
     out.push_str(&t.render());
