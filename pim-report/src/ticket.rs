@@ -549,9 +549,20 @@ pub fn fix_map_input(
 }
 
 fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> SpectrumInput {
-    let shown = at_fix.candidates.iter().take(30);
+    // One mark per product: its best-ranked way of being made.
+    let mut seen = Vec::new();
+    let shown: Vec<&pim_core::rank::Candidate> = at_fix
+        .candidates
+        .iter()
+        .filter(|c| {
+            let first = !seen.contains(&c.product);
+            seen.push(c.product);
+            first
+        })
+        .take(30)
+        .collect();
     let products = shown
-        .clone()
+        .iter()
         .map(|c| ProductMark {
             freq_mhz: c.product.freq.mhz(),
             bandwidth_khz: c.product.bandwidth(carriers).khz(),
