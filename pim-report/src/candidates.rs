@@ -733,3 +733,68 @@ pub fn narrowing_text(
     }
     s
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use pim_core::freq::Hz;
+    use pim_core::{Query, Site};
+
+    /// Two invented transmitters 300 m from the junction; 2·152.84 − 159.34 = 146.34 MHz.
+    fn site() -> Site {
+        let j = GeoPoint::new(45.0, -122.0);
+        let mk = |id: &str, hz: i64, az: f64| {
+            let mut e = Emitter::new(id, Hz(hz), Hz(16_000));
+            e.erp_dbm = Some(50.0);
+            e.position = Some(pim_core::geo::destination(j, az, 300.0));
+            e
+        };
+        Site::new(vec![
+            mk("SKP-152", 152_840_000, 0.0),
+            mk("FIRE-DSP", 159_340_000, 120.0),
+        ])
+    }
+
+    #[test]
+    fn the_table_shows_the_terms_it_ranks_by() {
+        let site = site();
+        let q = Query {
+            junction: Some(GeoPoint::new(45.0, -122.0)),
+            ..Query::new(Hz(146_340_000))
+        };
+        let a = site.explain(&q);
+        let l = Listing {
+            emitters: site.emitters(),
+            params: &a.params,
+            ranking: &a.ranking,
+            co_channel: &a.co_channel,
+        };
+        let t = table_text(&l, 10);
+        for want in [
+            "made in",
+            "rel dB",
+            "drive dB",
+            "form dB",
+            "chan dB",
+            "SKP-152 output stage",
+            "junction: source = L3 + form + drive + order",
+            "give --heard-dbm to calibrate",
+        ] {
+            assert!(t.contains(want), "{want}: {t}");
+        }
+        assert!(!t.contains("ERP − path loss"), "{t}");
+        assert!(outlook_text(&a.ranking).is_none());
+    }
+
+    #[test]
+    fn nothing_landing_is_said_with_the_next_steps() {
+        let site = site();
+        let a = site.explain(&Query::new(Hz(300_000_000)));
+        let s = outlook_text(&a.ranking).unwrap();
+        assert!(s.starts_with("Nothing credible: no product"), "{s}");
+        assert!(s.contains("(3) check each nearby transmitter's own spurious output"));
+        let v = outlook_json(&a.ranking);
+        assert_eq!(v["outlook"], "nothing-lands");
+        assert_eq!(v["next_steps"][1]["step"], "receiver-overload");
+    }
+}
