@@ -6,10 +6,11 @@ use std::path::PathBuf;
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::{SearchParams, MAX_ORDER};
-use pim_core::level::LevelModel as JunctionModel;
+use pim_core::level::LevelModel;
+use pim_core::rank::HeardLevel;
 use serde_json::json;
 
-use crate::common::{finite_arg, frequency_arg, khz_arg, lat_arg, lon_arg, ListFormat};
+use crate::common::{frequency_arg, khz_arg, lat_arg, lon_arg, ranged, ListFormat};
 
 /// Search and ranking options shared by `explain` and `study`.
 #[derive(clap::Args, Clone, Debug)]
@@ -32,15 +33,56 @@ pub struct SearchArgs {
     /// Longitude of the receiver site.
     #[arg(long, value_name = "DEG", value_parser = lon_arg, allow_hyphen_values = true, requires = "rx_lat")]
     pub rx_lon: Option<f64>,
-    /// Junction model: third-order level (dBm) from two reference tones.
-    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = finite_arg, allow_hyphen_values = true)]
+    /// Junction: third-order level from two reference tones, dBm (−200 to +43).
+    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = ranged(-200.0, 43.0, "dBm"), allow_hyphen_values = true)]
     pub junction_im3_dbm: f64,
-    /// Junction model: drive of each reference tone (dBm; IEC 62037-1 uses +43).
-    #[arg(long, value_name = "DBM", default_value = "0", value_parser = finite_arg, allow_hyphen_values = true)]
+    /// Junction: drive of each reference tone, dBm (−60 to +60; IEC 62037-1 uses +43).
+    #[arg(long, value_name = "DBM", default_value = "0", value_parser = ranged(-60.0, 60.0, "dBm"), allow_hyphen_values = true)]
     pub junction_ref_dbm: f64,
-    /// Junction model: further loss per order above the third (dB).
-    #[arg(long, value_name = "DB", default_value = "5", value_parser = finite_arg, allow_hyphen_values = true)]
+    /// Junction: further loss per order above the third, dB (0 to 40).
+    #[arg(long, value_name = "DB", default_value = "5", value_parser = ranged(0.0, 40.0, "dB"), allow_hyphen_values = true)]
     pub order_step_db: f64,
+    /// Junction: further loss of even orders, dB (0 to 100).
+    #[arg(long, value_name = "DB", default_value = "20", value_parser = ranged(0.0, 100.0, "dB"), allow_hyphen_values = true)]
+    pub even_order_penalty_db: f64,
+    /// Junction: drive exponent α, the measured slope over the ideal one (0.1 to 1.5; 1 is
+    /// the ideal law, n dB per dB at order n; `pim slope --kind power` measures it).
+    #[arg(long, value_name = "ALPHA", default_value = "1", value_parser = ranged(0.1, 1.5, ""), allow_hyphen_values = true)]
+    pub drive_exponent: f64,
+    /// Height of the junction above ground, m (0 to 600).
+    #[arg(long, value_name = "M", default_value = "0", value_parser = ranged(0.0, 600.0, "m"), allow_hyphen_values = true)]
+    pub junction_height_m: f64,
+    /// The receiver's input third-order intercept, dBm (−60 to +60): levels products made
+    /// in the receiver itself.
+    #[arg(long, value_name = "DBM", value_parser = ranged(-60.0, 60.0, "dBm"), allow_hyphen_values = true)]
+    pub rx_iip3_dbm: Option<f64>,
+    /// A junction needing a third-order level above this, dBc of one reference tone, is
+    /// implausible (−100 to 0).
+    #[arg(long, value_name = "DBC", default_value = "-10", value_parser = ranged(-100.0, 0.0, "dBc"), allow_hyphen_values = true)]
+    pub max_im3_dbc: f64,
+}
+
+/// The level heard on the channel, to calibrate the level model against (`explain`,
+/// `ticket`).
+#[derive(clap::Args, Clone, Debug)]
+pub struct CalibrationArgs {
+    /// Level of the carrier at the receiver input, dBm (−200 to +30): each candidate gets
+    /// the junction it would need, and those needing an implausible one are flagged.
+    #[arg(long, value_name = "DBM", value_parser = ranged(-200.0, 30.0, "dBm"), allow_hyphen_values = true)]
+    pub heard_dbm: Option<f64>,
+}
+
+impl CalibrationArgs {
+    /// The heard level, at the receiver.
+    pub fn heard(&self) -> Vec<HeardLevel> {
+        self.heard_dbm
+            .map(|level_dbm| HeardLevel {
+                position: None,
+                level_dbm,
+            })
+            .into_iter()
+            .collect()
+    }
 }
 
 /// How a listing of candidates is written.
@@ -67,12 +109,18 @@ impl ListingArgs {
 }
 
 impl SearchArgs {
-    pub fn junction_model(&self) -> JunctionModel {
-        JunctionModel {
+    /// The level model the options describe; the others keep their defaults.
+    pub fn junction_model(&self) -> LevelModel {
+        LevelModel {
             im3_dbm: self.junction_im3_dbm,
             reference_tone_dbm: self.junction_ref_dbm,
             order_step_db: self.order_step_db,
-            ..JunctionModel::default()
+            even_order_penalty_db: self.even_order_penalty_db,
+            drive_exponent: self.drive_exponent,
+            junction_height_m: self.junction_height_m,
+            rx_iip3_dbm: self.rx_iip3_dbm,
+            max_im3_dbc: self.max_im3_dbc,
+            ..LevelModel::default()
         }
     }
 

@@ -96,6 +96,28 @@ pub fn finite_arg(text: &str) -> Result<f64, String> {
     }
 }
 
+/// clap parser factory for a finite number within `lo..=hi` (`unit` names it in the
+/// message): a value outside is physically absurd for the option.
+pub fn ranged(
+    lo: f64,
+    hi: f64,
+    unit: &'static str,
+) -> impl Fn(&str) -> Result<f64, String> + Clone + Send + Sync + 'static {
+    move |text: &str| {
+        let v = finite_arg(text)?;
+        if (lo..=hi).contains(&v) {
+            Ok(v)
+        } else {
+            let u = if unit.is_empty() {
+                String::new()
+            } else {
+                format!(" {unit}")
+            };
+            Err(format!("{text}{u} is outside {lo}…{hi}{u}"))
+        }
+    }
+}
+
 /// Output formats shared by the listing commands.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum ListFormat {

@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 use pim_core::freq::Hz;
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
-use pim_core::level::JunctionModel;
+use pim_core::level::LevelModel;
 use pim_core::Site;
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_field_log;
@@ -83,8 +83,9 @@ pub fn run(args: Args) -> CliResult {
             max_order: 7,
             max_emitters: 3,
         },
-        model: JunctionModel::default(),
+        model: LevelModel::default(),
         rx_site: Some(RX_SITE),
+        heard_dbm: None,
         top: 10,
         band: None,
     };

@@ -6,12 +6,12 @@ use std::path::PathBuf;
 
 use pim_core::{Query, Site};
 use pim_report::candidates::{
-    channel_summary, co_channel_json, co_channel_text, markdown_text, narrowing_text, table_text,
-    write_csv, write_json_array, Listing,
+    channel_summary, co_channel_json, co_channel_text, markdown_text, narrowing_text, outlook_json,
+    table_text, write_csv, write_json_array, Listing,
 };
 use serde_json::json;
 
-use crate::args::{coefficient_arg, HeardArgs, ListingArgs, SearchArgs};
+use crate::args::{coefficient_arg, CalibrationArgs, HeardArgs, ListingArgs, SearchArgs};
 use crate::common::{
     coefficient_indices, finish, load_emitters, load_logbook, stdout, CliResult, ListFormat,
 };
@@ -34,6 +34,8 @@ pub struct Args {
     #[command(flatten)]
     pub search: SearchArgs,
     #[command(flatten)]
+    pub calibration: CalibrationArgs,
+    #[command(flatten)]
     pub listing: ListingArgs,
 }
 
@@ -52,6 +54,8 @@ pub fn run(args: Args) -> CliResult {
     let query = Query {
         params,
         junction,
+        receiver: None,
+        heard: args.calibration.heard(),
         model: s.junction_model(),
         coefficients: coefficients.clone(),
         logbook,
@@ -92,11 +96,13 @@ pub fn run(args: Args) -> CliResult {
                 )
             )?;
             let total = ranking.candidates.len();
+            let products = answer.products.len();
             writeln!(
                 out,
-                "{total} product{} land{} in the channel; {}.{}\n",
+                "{products} product{} land{} in the channel ({total} candidate{} with the ways each can be made); {}.{}\n",
+                if products == 1 { "" } else { "s" },
+                if products == 1 { "s" } else { "" },
                 if total == 1 { "" } else { "s" },
-                if total == 1 { "s" } else { "" },
                 ranking.basis(),
                 if total > n {
                     format!(" The first {n}:")
@@ -104,6 +110,12 @@ pub fn run(args: Args) -> CliResult {
                     String::new()
                 }
             )?;
+            if args.calibration.heard_dbm.is_some() && !ranking.calibrated {
+                writeln!(
+                    out,
+                    "The heard level is not used: without a junction location (--rx-lat/--rx-lon) no candidate has a level.\n"
+                )?;
+            }
             write!(out, "{}", table_text(&listing, n))?;
         }
         ListFormat::Markdown => {
@@ -126,6 +138,7 @@ pub fn run(args: Args) -> CliResult {
                 .collect::<std::collections::BTreeMap<_, _>>());
             inputs["on_air_file"] = json!(args.on_air.as_ref().map(|p| p.display().to_string()));
             inputs["heard_file"] = json!(args.heard.as_ref().map(|p| p.display().to_string()));
+            inputs["heard_dbm"] = json!(args.calibration.heard_dbm);
             if let Some(book) = logbook {
                 inputs["heard_times"] = json!(book.heard_count());
                 inputs["silent_times"] = json!(book.observations.len() - book.heard_count());
@@ -137,6 +150,10 @@ pub fn run(args: Args) -> CliResult {
                 serde_json::to_string(&inputs).map_err(std::io::Error::from)?
             )?;
             writeln!(out, "  \"ranking_basis\": {},", json!(ranking.basis()))?;
+            let outlook = outlook_json(ranking);
+            for key in ["outlook", "statement", "next_steps", "calibrated"] {
+                writeln!(out, "  {}: {},", json!(key), outlook[key])?;
+            }
             writeln!(out, "  \"co_channel\": {},", co_channel_json(&listing))?;
             writeln!(out, "  \"found\": {found},")?;
             writeln!(out, "  \"total\": {},", ranking.candidates.len())?;

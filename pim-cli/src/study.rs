@@ -13,7 +13,7 @@ use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use pim_core::{Query, Site};
 use pim_report::candidates::{channel_summary, co_channel_text};
 use pim_report::candidates::{
-    co_channel_json, markdown_text, table_text, write_csv, write_json_array, Listing,
+    co_channel_json, markdown_text, outlook_json, table_text, write_csv, write_json_array, Listing,
 };
 
 #[derive(clap::Args, Debug)]
@@ -142,12 +142,14 @@ pub fn run(args: Args) -> CliResult {
                 }
                 write!(
                     out,
-                    "  {{\"id\": {}, \"freq_mhz\": {}, \"bw_khz\": {}, \"co_channel\": {}, \"ranking_basis\": {}, \"total\": {}, \"candidates\": ",
+                    "  {{\"id\": {}, \"freq_mhz\": {}, \"bw_khz\": {}, \"co_channel\": {}, \"ranking_basis\": {}, \"outlook\": {}, \"next_steps\": {}, \"total\": {}, \"candidates\": ",
                     json!(rx.id),
                     json!(rx.freq.mhz()),
                     json!(params.rx_bandwidth.khz()),
                     co_channel_json(&listing),
                     json!(ranking.basis()),
+                    outlook_json(ranking)["outlook"],
+                    outlook_json(ranking)["next_steps"],
                     ranking.candidates.len()
                 )?;
                 write_json_array(&mut out, &listing, shown)?;

@@ -11,7 +11,7 @@ use pim_core::{Error, Site};
 use pim_io::emitters::read_structures;
 use pim_report::ticket::{ticket_files, BandTrace, TicketInputs};
 
-use crate::args::{HeardArgs, SearchArgs};
+use crate::args::{CalibrationArgs, HeardArgs, SearchArgs};
 use crate::common::load_emitters;
 use crate::common::{finish, open, stdout, CliResult};
 use crate::fix::{fix_from_log, FixArgs};
@@ -45,6 +45,9 @@ pub struct Args {
     pub top: usize,
     #[command(flatten)]
     pub search: SearchArgs,
+    /// Without --heard-dbm, the model is calibrated against the log's `level_dbm`.
+    #[command(flatten)]
+    pub calibration: CalibrationArgs,
     #[command(flatten)]
     pub fix: FixArgs,
 }
@@ -164,6 +167,7 @@ pub fn run(args: Args) -> CliResult {
         params: s.params(args.input.freq, s.rx_bw),
         model: s.junction_model(),
         rx_site: s.rx_site(),
+        heard_dbm: args.calibration.heard_dbm,
         top: args.top,
         band: None,
     };

@@ -29,7 +29,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     println!("fix {lat:.6}, {lon:.6}, CEP {r:.1} m");
     let mut placement = Placement::at(Some(fix.position));
     placement.receiver = Some(rx);
-    let at_fix = answer.ranked_at(&site, placement);
+    let at_fix = answer.ranked_at(&site, placement, &[]);
     let first = site.formula(&at_fix.candidates[0].product);
     println!("at the fix, first {first}");
     Ok(())

@@ -26,7 +26,7 @@ use crate::geo::GeoPoint;
 use crate::intermod::{find_products, retain_coefficients, Hits, Product, SearchParams};
 use crate::level::LevelModel;
 use crate::onair::Logbook;
-use crate::rank::{formula, rank_candidates, Placement, RankInputs, Ranking};
+use crate::rank::{formula, rank_candidates, HeardLevel, Placement, RankInputs, Ranking};
 
 /// The emitters of a site and their carriers, indexed alike.
 #[derive(Clone, Debug, Default)]
@@ -75,15 +75,20 @@ impl Site {
             &self.emitters,
             &query.params,
             &RankInputs {
-                placement: Placement::at(query.junction),
+                placement: Placement {
+                    junction: query.junction,
+                    receiver: query.receiver,
+                    fix_radius_m: None,
+                },
                 model: query.model,
                 logbook: query.logbook.as_ref(),
-                heard: &[],
+                heard: &query.heard,
             },
         );
         Explanation {
             params: query.params,
             model: query.model,
+            heard: query.heard.clone(),
             products,
             co_channel,
             found,
@@ -100,6 +105,10 @@ pub struct Query {
     pub params: SearchParams,
     /// Where the junction is assumed (the receiver site, or a fix); without it, no levels.
     pub junction: Option<GeoPoint>,
+    /// Where the receiver is, when not at the junction.
+    pub receiver: Option<GeoPoint>,
+    /// Levels heard, to calibrate the model against (empty: levels relative to the first).
+    pub heard: Vec<HeardLevel>,
     /// The level model.
     pub model: LevelModel,
     /// Keep only products in which emitter `i` carries |k| = K (a power step's answer).
@@ -118,6 +127,8 @@ impl Query {
                 ..SearchParams::default()
             },
             junction: None,
+            receiver: None,
+            heard: Vec::new(),
             model: LevelModel::default(),
             coefficients: Vec::new(),
             logbook: None,
@@ -132,6 +143,8 @@ pub struct Explanation {
     pub params: SearchParams,
     /// The level model used.
     pub model: LevelModel,
+    /// The heard levels the ranking was calibrated against.
+    pub heard: Vec<HeardLevel>,
     /// The products kept after narrowing, in search order.
     pub products: Vec<Product>,
     /// Emitters whose own carrier lies in the channel (co-channel, not a product).
@@ -144,8 +157,8 @@ pub struct Explanation {
 
 impl Explanation {
     /// The same products ranked with the junction placed as `placement` says (at a fix,
-    /// heard at the receiver), without on-air evidence.
-    pub fn ranked_at(&self, site: &Site, placement: Placement) -> Ranking {
+    /// heard at the receiver), calibrated against `heard`, without on-air evidence.
+    pub fn ranked_at(&self, site: &Site, placement: Placement, heard: &[HeardLevel]) -> Ranking {
         rank_candidates(
             self.products.clone(),
             site.emitters(),
@@ -154,7 +167,7 @@ impl Explanation {
                 placement,
                 model: self.model,
                 logbook: None,
-                heard: &[],
+                heard,
             },
         )
     }

@@ -1,4 +1,6 @@
-//! The readings of a confirming test: CSV `step_db,level_dbm` with an optional `note`.
+//! The readings of a confirming test: CSV `step_db,level_dbm` with an optional `note`;
+//! for power steps also `emitter`, so that the steps of several emitters share one file
+//! (`emitter,step_db,level_dbm`).
 //!
 //! `step_db` is the attenuation inserted (attenuator test, 0 or more) or the change of
 //! one emitter's power (power step, negative for a reduction); `level_dbm` is the level
@@ -13,6 +15,9 @@ use pim_core::slope::StepKind;
 /// Columns the readings reader understands.
 pub const READING_COLUMNS: &[&str] = &["step_db", "level_dbm", "note"];
 
+/// Columns of a power-step file: the readings' and the emitter stepped.
+pub const POWER_STEP_COLUMNS: &[&str] = &["emitter", "step_db", "level_dbm", "note"];
+
 /// The largest step accepted, in dB either way: beyond it the product sinks into any
 /// receiver's noise floor, so the value is a typing error.
 pub const MAX_STEP_DB: f64 = 100.0;
@@ -23,6 +28,8 @@ pub const LEVEL_RANGE_DBM: (f64, f64) = (-200.0, 100.0);
 /// One reading.
 #[derive(Clone, Debug, PartialEq)]
 pub struct LevelStep {
+    /// The emitter stepped (power steps with an `emitter` column).
+    pub emitter: Option<String>,
     pub step_db: f64,
     pub level_dbm: f64,
     pub note: Option<String>,
@@ -39,6 +46,25 @@ pub struct ReadingsFile {
 }
 
 impl ReadingsFile {
+    /// The readings grouped by emitter, in the order each first appears: `(id, points)`.
+    /// Readings without an emitter belong to `unnamed`.
+    pub fn series(&self, unnamed: &str) -> Vec<(String, Vec<(f64, f64)>)> {
+        let mut out: Vec<(String, Vec<(f64, f64)>)> = Vec::new();
+        for r in &self.readings {
+            let id = r.emitter.as_deref().unwrap_or(unnamed);
+            match out.iter_mut().find(|(e, _)| e == id) {
+                Some((_, points)) => points.push((r.step_db, r.level_dbm)),
+                None => out.push((id.to_string(), vec![(r.step_db, r.level_dbm)])),
+            }
+        }
+        out
+    }
+
+    /// Whether the file names the emitter of each reading.
+    pub fn has_emitters(&self) -> bool {
+        self.readings.iter().any(|r| r.emitter.is_some())
+    }
+
     /// The readings as (step, level) points for [`pim_core::slope::judge`].
     pub fn points(&self) -> Vec<(f64, f64)> {
         self.readings
@@ -54,12 +80,24 @@ pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result
     let step_col = table.require("step_db")?;
     let level_col = table.require("level_dbm")?;
     let note_col = table.column("note");
+    let (emitter_col, known) = match kind {
+        StepKind::Power => (table.column("emitter"), POWER_STEP_COLUMNS),
+        StepKind::Attenuator => (None, READING_COLUMNS),
+    };
     let mut file = ReadingsFile {
-        ignored_columns: table.unknown_columns(READING_COLUMNS),
+        ignored_columns: table.unknown_columns(known),
         ..Default::default()
     };
     while let Some(row) = table.next_row()? {
         let place = |f: &str| row.place(f);
+        let emitter = match emitter_col {
+            Some(col) => Some(
+                row.text(Some(col))
+                    .ok_or_else(|| Error::input(place("emitter"), "missing emitter"))?
+                    .to_string(),
+            ),
+            None => None,
+        };
         let step_text = row
             .text(Some(step_col))
             .ok_or_else(|| Error::input(place("step_db"), "missing step"))?;
@@ -90,6 +128,7 @@ pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result
             ));
         }
         file.readings.push(LevelStep {
+            emitter,
             step_db,
             level_dbm,
             note: row.text(note_col).map(str::to_string),
@@ -121,6 +160,28 @@ mod tests {
         assert_eq!(f.readings[0].note.as_deref(), Some("no pad"));
         assert_eq!(f.readings[1].line, 3);
         assert_eq!(f.points(), vec![(0.0, -92.5), (6.0, -98.4)]);
+    }
+
+    #[test]
+    fn power_steps_of_several_emitters_share_a_file() {
+        let f = read(
+            "emitter,step_db,level_dbm\nA,0,-90\nB,0,-90.1\nA,-2,-93.9\nB,-2,-92\n",
+            StepKind::Power,
+        )
+        .unwrap();
+        let s = f.series("X");
+        assert_eq!(s.len(), 2);
+        assert_eq!(s[0], ("A".to_string(), vec![(0.0, -90.0), (-2.0, -93.9)]));
+        assert_eq!(s[1].1.len(), 2);
+        let err = read("emitter,step_db,level_dbm\n,0,-90\n", StepKind::Power).unwrap_err();
+        assert_eq!(
+            err.to_string(),
+            "r.csv, line 2, field `emitter`: missing emitter"
+        );
+        // An attenuator test has no emitter: the column is reported unused.
+        let f = read("emitter,step_db,level_dbm\nA,0,-90\n", StepKind::Attenuator).unwrap();
+        assert_eq!(f.ignored_columns, vec!["emitter".to_string()]);
+        assert_eq!(f.series("X")[0].0, "X");
     }
 
     #[test]

@@ -6,8 +6,12 @@ use std::io::Write;
 use pim_core::emitter::{carriers, Emitter};
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
+use pim_core::level::{FieldRegion, JunctionTerms, Mechanism};
 use pim_core::onair::{Evidence, Logbook};
-use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
+use pim_core::rank::{
+    display_terms, formula, Calibration, Candidate, LevelBreakdown, Missing, NextStep, Outlook,
+    Ranking,
+};
 use serde::Serialize;
 
 use crate::csv_out::write_row;
@@ -42,14 +46,50 @@ struct CandidateJson<'a> {
     rank: usize,
     order: u32,
     formula: String,
+    mechanism: Mechanism,
+    formed_in: Option<&'a str>,
     terms: Vec<TermJson<'a>>,
     product_mhz: f64,
     offset_khz: f64,
     bandwidth_khz: f64,
     predicted_level_dbm: Option<f64>,
-    level_terms: Option<LevelTerms>,
+    in_channel_dbm: Option<f64>,
+    relative_db: Option<f64>,
+    level_terms: Option<LevelBreakdown>,
+    calibration: Option<Calibration>,
+    implausible: bool,
+    away_from_fix: bool,
+    missing: Option<Missing>,
     #[serde(skip_serializing_if = "Option::is_none")]
     on_air: Option<Evidence>,
+}
+
+fn rounded_breakdown(b: &LevelBreakdown) -> LevelBreakdown {
+    LevelBreakdown {
+        junction: b.junction.map(|j| JunctionTerms {
+            im3_dbm: r2(j.im3_dbm),
+            form_db: r2(j.form_db),
+            drive_db: r2(j.drive_db),
+            order_db: r2(j.order_db),
+            even_order_db: r2(j.even_order_db),
+            level_dbm: r2(j.level_dbm),
+        }),
+        source_level_dbm: r2(b.source_level_dbm),
+        path_to_receiver_db: r2(b.path_to_receiver_db),
+        channel_fraction: (b.channel_fraction * 1e6).round() / 1e6,
+        channel_db: r2(b.channel_db),
+        in_channel_dbm: r2(b.in_channel_dbm),
+    }
+}
+
+fn rounded_calibration(k: &Calibration) -> Calibration {
+    Calibration {
+        shift_db: r2(k.shift_db),
+        points: k.points,
+        required_im3_dbm: k.required_im3_dbm.map(r2),
+        required_im3_dbc: k.required_im3_dbc.map(r2),
+        required_im3_dbc_iec: k.required_im3_dbc_iec.map(r2),
+    }
 }
 
 fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
@@ -71,18 +111,100 @@ fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
         rank: c.rank,
         order: c.product.order(),
         formula: formula(&c.product, l.emitters),
+        mechanism: c.mechanism,
+        formed_in: c.formed_in.map(|i| l.emitters[i].id.as_str()),
         terms,
         product_mhz: c.product.freq.mhz(),
         offset_khz: c.product.offset(l.params.target).khz(),
         bandwidth_khz: c.product.bandwidth(&carriers(l.emitters)).khz(),
         predicted_level_dbm: c.level_dbm.map(r2),
-        level_terms: l.ranking.level_terms(&c.product).map(|t| LevelTerms {
-            power_sum_db: r2(t.power_sum_db),
-            conversion_db: r2(t.conversion_db),
-            level_dbm: r2(t.level_dbm),
-        }),
+        in_channel_dbm: c.breakdown.map(|b| r2(b.in_channel_dbm)),
+        relative_db: c.relative_db.map(r2),
+        level_terms: c.breakdown.as_ref().map(rounded_breakdown),
+        calibration: c.calibration.as_ref().map(rounded_calibration),
+        implausible: c.implausible,
+        away_from_fix: c.away_from_fix,
+        missing: c.missing,
         on_air: c.evidence,
     }
+}
+
+/// Where a candidate's product is made, in a few words: `junction`, `SKP-152 harmonic`,
+/// `SKP-152 output stage`, `receiver`.
+pub fn made_in(c: &Candidate, emitters: &[Emitter]) -> String {
+    match c.mechanism {
+        Mechanism::Junction => "junction".to_string(),
+        Mechanism::Transmitter => match c.product.terms().next() {
+            Some(t) => format!("{} harmonic", emitters[t.emitter].id),
+            None => "transmitter".to_string(),
+        },
+        Mechanism::TransmitterIm => match c.formed_in {
+            Some(i) => format!("{} output stage", emitters[i].id),
+            None => "transmitter".to_string(),
+        },
+        Mechanism::Receiver => "receiver".to_string(),
+    }
+}
+
+/// One of the usual next steps, as advice.
+pub fn next_step_text(step: NextStep) -> &'static str {
+    match step {
+        NextStep::UnlistedEmitters => "look for emitters missing from the list: new or unlicensed transmitters, mobiles and portables, a neighbouring site, a broadcaster far off; a product of one of them may land where none of these does",
+        NextStep::ReceiverOverload => "check for receiver overload with the attenuator test (`pim slope --kind attenuator`): a product made in the receiver drops several dB per dB of attenuation, one arriving over the air one",
+        NextStep::TransmitterSpurious => "check each nearby transmitter's own spurious output (a harmonic, or intermodulation in its output stage) at its output with a spectrum analyser, by arrangement with the licensee",
+    }
+}
+
+/// A plain statement when nothing credible lands, with the usual next steps; `None`
+/// when a credible candidate exists (or none could be levelled).
+pub fn outlook_text(ranking: &Ranking) -> Option<String> {
+    let head = match ranking.outlook {
+        Outlook::Credible | Outlook::Unlevelled => return None,
+        Outlook::NothingLands => {
+            "Nothing credible: no product of the listed emitters lands in the channel.".to_string()
+        }
+        Outlook::OnlyImplausible => format!(
+            "Nothing credible: every product that lands would need a junction mixing more strongly than any passive contact (a third-order level above {:.0} dBc of one tone){}.",
+            ranking.model.max_im3_dbc,
+            if ranking.candidates.iter().any(|c| c.away_from_fix) {
+                " or is made away from the fix"
+            } else {
+                ""
+            }
+        ),
+    };
+    let steps: Vec<String> = ranking
+        .next_steps()
+        .iter()
+        .enumerate()
+        .map(|(i, s)| format!("({}) {}", i + 1, next_step_text(*s)))
+        .collect();
+    Some(format!("{head} Usual next steps: {}.", steps.join("; ")))
+}
+
+#[derive(Serialize)]
+struct NextStepJson {
+    step: NextStep,
+    advice: &'static str,
+}
+
+/// The ranking's outlook and next steps as JSON fields: `outlook`, `statement`,
+/// `next_steps`, `calibrated`.
+pub fn outlook_json(ranking: &Ranking) -> serde_json::Value {
+    let steps: Vec<NextStepJson> = ranking
+        .next_steps()
+        .iter()
+        .map(|&step| NextStepJson {
+            step,
+            advice: next_step_text(step),
+        })
+        .collect();
+    serde_json::json!({
+        "outlook": ranking.outlook,
+        "statement": outlook_text(ranking),
+        "next_steps": steps,
+        "calibrated": ranking.calibrated,
+    })
 }
 
 #[derive(Serialize)]
@@ -127,7 +249,7 @@ pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) 
 }
 
 /// The header of the CSV listing.
-pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,predicted_level_dbm,power_sum_db,conversion_db,terms,kinds,owners";
+pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,mechanism,formed_in,predicted_level_dbm,drive_db,form_db,order_db,even_order_db,path_to_receiver_db,channel_db,in_channel_dbm,relative_db,shift_db,required_im3_dbc,implausible,away_from_fix,missing,terms,kinds,owners";
 
 /// The columns the CSV listing adds when on-air evidence was given.
 pub const CSV_EVIDENCE_HEADER: &str =
@@ -145,6 +267,27 @@ fn evidence_cells(e: &Evidence) -> [String; 4] {
 
 /// What the evidence columns of the table mean.
 pub const EVIDENCE_LEGEND: &str = "On-air evidence: support = times heard with all the product's emitters on air; contradictions = times\nnot heard although all were on air; heard off = times heard while one of them was off air (the product\ncannot have made those); unknown = times with an emitter of unknown state.\n";
+
+fn mechanism_name(m: Mechanism) -> &'static str {
+    match m {
+        Mechanism::Junction => "junction",
+        Mechanism::Transmitter => "transmitter",
+        Mechanism::TransmitterIm => "transmitter-im",
+        Mechanism::Receiver => "receiver",
+    }
+}
+
+fn missing_name(m: Missing) -> &'static str {
+    match m {
+        Missing::Location => "location",
+        Missing::ErpOrLocation => "erp-or-location",
+        Missing::Iip3 => "iip3",
+    }
+}
+
+fn cell(x: Option<f64>) -> String {
+    x.map(|v| format!("{v:.2}")).unwrap_or_default()
+}
 
 /// Writes candidates as CSV rows (with the header when `header`); `prefix` fields are
 /// put in front of each row (the receiver of a study).
@@ -182,7 +325,9 @@ pub fn write_csv(
                 .collect::<Vec<_>>()
                 .join(";")
         };
-        let lt = l.ranking.level_terms(&c.product);
+        let b = c.breakdown;
+        let j = b.and_then(|b| b.junction);
+        let k = c.calibration;
         let mut fields = vec![
             c.rank.to_string(),
             formula(&c.product, l.emitters),
@@ -190,13 +335,24 @@ pub fn write_csv(
             c.product.freq.mhz_text(),
             c.product.offset(l.params.target).khz_text(),
             c.product.bandwidth(&carriers).khz_text(),
-            c.level_dbm.map(|v| format!("{v:.2}")).unwrap_or_default(),
-            lt.as_ref()
-                .map(|t| format!("{:.2}", t.power_sum_db))
+            mechanism_name(c.mechanism).to_string(),
+            c.formed_in
+                .map(|i| l.emitters[i].id.clone())
                 .unwrap_or_default(),
-            lt.as_ref()
-                .map(|t| format!("{:.2}", t.conversion_db))
-                .unwrap_or_default(),
+            cell(c.level_dbm),
+            cell(j.map(|j| j.drive_db)),
+            cell(j.map(|j| j.form_db)),
+            cell(j.map(|j| j.order_db)),
+            cell(j.map(|j| j.even_order_db)),
+            cell(b.map(|b| b.path_to_receiver_db)),
+            cell(b.map(|b| b.channel_db)),
+            cell(b.map(|b| b.in_channel_dbm)),
+            cell(c.relative_db),
+            cell(k.map(|k| k.shift_db)),
+            cell(k.and_then(|k| k.required_im3_dbc)),
+            c.implausible.to_string(),
+            c.away_from_fix.to_string(),
+            c.missing.map(missing_name).unwrap_or_default().to_string(),
             terms
                 .iter()
                 .map(|t| format!("{}:{}", l.emitters[t.emitter].id, t.coefficient))
@@ -225,20 +381,67 @@ fn level_text(x: Option<f64>) -> String {
         .unwrap_or_else(|| "—".to_string())
 }
 
-/// The ranked candidates as an aligned terminal table, followed by the incident power
-/// of each emitter that appears in it.
+fn signed_text(x: Option<f64>) -> String {
+    x.map(|v| signed(v, 1)).unwrap_or_else(|| "—".to_string())
+}
+
+/// A candidate's remark for the table: why it ranks low, or why it has no level.
+fn remark(c: &Candidate) -> String {
+    let mut r = Vec::new();
+    if c.implausible {
+        r.push("implausible");
+    }
+    if c.away_from_fix {
+        r.push("away from the fix");
+    }
+    match c.missing {
+        Some(Missing::Location) => r.push("no location"),
+        Some(Missing::ErpOrLocation) => r.push("ERP or location missing"),
+        Some(Missing::Iip3) => r.push("no IIP3"),
+        None => {}
+    }
+    r.join(", ")
+}
+
+/// The calibrated level of the first candidate in the channel (dBm): its prediction
+/// shifted to match the heard level. Every other candidate then stands at this plus its
+/// `relative_db`.
+pub fn calibrated_first_dbm(ranking: &Ranking) -> Option<f64> {
+    let first = ranking
+        .candidates
+        .iter()
+        .find(|c| c.relative_db.is_some())?;
+    Some(first.breakdown?.in_channel_dbm + first.calibration?.shift_db)
+}
+
+/// The ranked candidates as an aligned terminal table, followed by the terms of the
+/// level model a reader needs to check each row's arithmetic.
 pub fn table_text(l: &Listing, limit: usize) -> String {
+    let levelled = l.ranking.junction.is_some();
+    let calibrated = l.ranking.calibrated;
     let mut headers = vec![
         ("#", Align::Right),
         ("product", Align::Left),
+        ("made in", Align::Left),
         ("order", Align::Right),
         ("at MHz", Align::Right),
         ("offset kHz", Align::Right),
         ("width kHz", Align::Right),
-        ("level dBm", Align::Right),
-        ("Σ|k|·P dB", Align::Right),
-        ("C(n) dB", Align::Right),
     ];
+    if levelled {
+        headers.push(("rel dB", Align::Right));
+        if calibrated {
+            headers.push(("needs L3 dBc", Align::Right));
+        }
+        headers.extend([
+            ("source dBm", Align::Right),
+            ("drive dB", Align::Right),
+            ("form dB", Align::Right),
+            ("order dB", Align::Right),
+            ("path dB", Align::Right),
+            ("chan dB", Align::Right),
+        ]);
+    }
     if l.ranking.by_evidence {
         headers.extend([
             ("support", Align::Right),
@@ -247,33 +450,65 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
             ("unknown", Align::Right),
         ]);
     }
+    let shown: Vec<&Candidate> = l.ranking.candidates.iter().take(limit).collect();
+    let remarks = levelled && shown.iter().any(|c| !remark(c).is_empty());
+    if remarks {
+        headers.push(("note", Align::Left));
+    }
     let mut t = TextTable::new(&headers);
     let carriers = carriers(l.emitters);
     let mut used = vec![false; l.emitters.len()];
-    for c in l.ranking.candidates.iter().take(limit) {
-        let lt = l.ranking.level_terms(&c.product);
-        for term in c.product.terms() {
-            used[term.emitter] = true;
+    let mut mechanisms = Vec::new();
+    for c in &shown {
+        if !mechanisms.contains(&c.mechanism) {
+            mechanisms.push(c.mechanism);
+        }
+        if c.mechanism == Mechanism::Junction {
+            for term in c.product.terms() {
+                used[term.emitter] = true;
+            }
         }
         let mut row = vec![
             c.rank.to_string(),
             formula(&c.product, l.emitters),
+            made_in(c, l.emitters),
             c.product.order().to_string(),
             format!("{:.4}", c.product.freq.mhz()),
             signed(c.product.offset(l.params.target).khz(), 1),
             format!("{:.1}", c.product.bandwidth(&carriers).khz()),
-            level_text(c.level_dbm),
-            level_text(lt.as_ref().map(|x| x.power_sum_db)),
-            level_text(lt.as_ref().map(|x| x.conversion_db)),
         ];
+        if levelled {
+            let b = c.breakdown;
+            let j = b.and_then(|b| b.junction);
+            row.push(signed_text(c.relative_db));
+            if calibrated {
+                row.push(signed_text(c.calibration.and_then(|k| k.required_im3_dbc)));
+            }
+            row.extend([
+                level_text(c.level_dbm),
+                signed_text(j.map(|j| j.drive_db)),
+                signed_text(j.map(|j| j.form_db)),
+                signed_text(j.map(|j| j.order_db + j.even_order_db)),
+                signed_text(b.map(|b| -b.path_to_receiver_db)),
+                signed_text(b.map(|b| b.channel_db)),
+            ]);
+        }
         if l.ranking.by_evidence {
             row.extend(c.evidence.as_ref().map(evidence_cells).unwrap_or_default());
+        }
+        if remarks {
+            row.push(remark(c));
         }
         t.push(row);
     }
     let mut out = String::new();
     if t.is_empty() {
-        out.push_str("No product of these emitters lands in the channel.\n");
+        out.push_str(
+            &outlook_text(l.ranking).unwrap_or_else(|| {
+                "No product of these emitters lands in the channel.".to_string()
+            }),
+        );
+        out.push('\n');
         return out;
     }
     out.push_str(&t.render());
@@ -281,34 +516,94 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         out.push('\n');
         out.push_str(EVIDENCE_LEGEND);
     }
+    if levelled {
+        out.push('\n');
+        out.push_str(&model_legend(l, &used, &mechanisms));
+    }
+    if let Some(s) = outlook_text(l.ranking) {
+        out.push('\n');
+        out.push_str(&s);
+        out.push('\n');
+    }
+    out
+}
+
+/// The terms behind the level columns, with the values used, so that each row's
+/// arithmetic can be checked.
+fn model_legend(l: &Listing, used: &[bool], mechanisms: &[Mechanism]) -> String {
+    let m = &l.ranking.model;
+    let mut out = String::new();
     let incident: Vec<String> = used
         .iter()
         .enumerate()
         .filter(|(_, u)| **u)
         .filter_map(|(i, _)| {
             l.ranking.incidence[i].map(|inc| {
+                let region = match inc.region {
+                    FieldRegion::Far => "far field",
+                    FieldRegion::Cylindrical => "near field, cylindrical",
+                    FieldRegion::Reactive => "reactive near field",
+                };
                 format!(
-                    "  {:<12} ERP {:>6.1} dBm − path loss {:>5.1} dB over {:>6.0} m = {:>6.1} dBm",
+                    "  {:<12} ERP {:>6.1} dBm, EIRP {:>6.1} dBm, {:>6.0} m ({region}): E {:>6.1} dB(µV/m), P {:>6.1} dBm",
                     l.emitters[i].id,
                     inc.erp_dbm,
-                    inc.path_loss_db,
+                    inc.eirp_dbm,
                     inc.distance_m,
+                    inc.field_dbuv_m,
                     inc.incident_dbm
                 )
             })
         })
         .collect();
     if !incident.is_empty() {
-        out.push_str("\nIncident power P at the junction (ERP − free-space loss, ITU-R P.525):\n");
+        out.push_str(&format!(
+            "Drive P at the junction: the power a {} m² aperture takes from the field E = √(30·EIRP)/d (ITU-R P.525; EIRP = ERP + 2.15 dB):\n",
+            m.coupling_aperture_m2
+        ));
         for line in incident {
             out.push_str(&line);
             out.push('\n');
         }
-        let m = &l.ranking.model;
+    }
+    if mechanisms.contains(&Mechanism::Junction) {
         out.push_str(&format!(
-            "Level = Σ|k|·P + C(n); C(n) = L3 − s·(n − 3) − n·Pref with L3 = {:.1} dBm, s = {:.1} dB, Pref = {:.1} dBm\n(the junction makes L3 at third order from two Pref tones; change with --junction-im3-dbm, --order-step-db).\n",
-            m.im3_dbm, m.order_step_db, m.reference_tone_dbm
+            "junction: source = L3 + form + drive + order, L3 = {:.1} dBm from two Pref = {:.1} dBm tones; form = 20·log10 of the\n  product's multinomial coefficient over the two-tone one; drive = Σ α·|k|·(P − Pref), α = {:.2}; order = −{:.1} dB per\n  order above the third, −{:.1} dB more for even orders (--junction-im3-dbm, --junction-ref-dbm, --drive-exponent,\n  --order-step-db, --even-order-penalty-db).\n",
+            m.im3_dbm, m.reference_tone_dbm, m.drive_exponent, m.order_step_db, m.even_order_penalty_db
         ));
+    }
+    if mechanisms.contains(&Mechanism::Transmitter) {
+        out.push_str("harmonic: source = the transmitter's EIRP at the ITU-R SM.329 category A spurious limit (an upper figure).\n");
+    }
+    if mechanisms.contains(&Mechanism::TransmitterIm) {
+        out.push_str(&format!(
+            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB)\n  − {:.0} dB conversion loss + 2.15 dB (EIRP).\n",
+            m.min_antenna_isolation_db, m.tx_conversion_loss_db
+        ));
+    }
+    if mechanisms.contains(&Mechanism::Receiver) {
+        if let Some(iip3) = m.rx_iip3_dbm {
+            out.push_str(&format!(
+                "receiver: source = Σ|k|·(carrier at its input) − 2·IIP3 + form, IIP3 = {iip3:.1} dBm (--rx-iip3-dbm).\n"
+            ));
+        }
+    }
+    out.push_str("In the channel at the receiver: source + path (free-space loss to the receiver) + chan (10·log10 of the product's\n  share of the channel); rel dB = that level less the first candidate's.\n");
+    if l.ranking.calibrated {
+        out.push_str(&format!(
+            "Calibrated to the level heard: needs L3 = the third-order level the junction would need, dBc of one Pref tone;\n  above {:.0} dBc (--max-im3-dbc) it is implausible. The first candidate would be heard at {}.\n",
+            m.max_im3_dbc,
+            calibrated_first_dbm(l.ranking)
+                .map(|v| format!("{v:.1} dBm"))
+                .unwrap_or_else(|| "—".into())
+        ));
+    } else {
+        out.push_str("Levels are relative: a real junction may differ by tens of dB; give --heard-dbm to calibrate.\n");
+    }
+    for (mech, missing) in &l.ranking.unmodelled {
+        if *mech == Mechanism::Receiver && *missing == Missing::Iip3 {
+            out.push_str("Products made in the receiver are not levelled: give --rx-iip3-dbm (or run the attenuator test).\n");
+        }
     }
     out
 }
@@ -318,11 +613,11 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
     let carriers = carriers(l.emitters);
     let mut out = if l.ranking.by_evidence {
         String::from(
-            "| # | product | order | at MHz | offset kHz | width kHz | level dBm | support | contradictions | heard off | unknown | emitters |\n|---:|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|\n",
+            "| # | product | made in | order | at MHz | offset kHz | width kHz | rel dB | support | contradictions | heard off | unknown | emitters |\n|---:|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|\n",
         )
     } else {
         String::from(
-            "| # | product | order | at MHz | offset kHz | width kHz | level dBm | emitters |\n|---:|---|---:|---:|---:|---:|---:|---|\n",
+            "| # | product | made in | order | at MHz | offset kHz | width kHz | rel dB | emitters |\n|---:|---|---|---:|---:|---:|---:|---:|---|\n",
         )
     };
     for c in l.ranking.candidates.iter().take(limit) {
@@ -344,16 +639,22 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
             _ => String::new(),
         };
         out.push_str(&format!(
-            "| {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
+            "| {} | {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
             c.rank,
             formula(&c.product, l.emitters).replace('|', "\\|"),
+            made_in(c, l.emitters).replace('|', "\\|"),
             c.product.order(),
             c.product.freq.mhz(),
             signed(c.product.offset(l.params.target).khz(), 1),
             c.product.bandwidth(&carriers).khz(),
-            level_text(c.level_dbm),
+            signed_text(c.relative_db),
             who.join("; ").replace('|', "\\|"),
         ));
+    }
+    if let Some(s) = outlook_text(l.ranking) {
+        out.push('\n');
+        out.push_str(&s);
+        out.push('\n');
     }
     out
 }
@@ -431,4 +732,69 @@ pub fn narrowing_text(
         ));
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use pim_core::freq::Hz;
+    use pim_core::{Query, Site};
+
+    /// Two invented transmitters 300 m from the junction; 2·152.84 − 159.34 = 146.34 MHz.
+    fn site() -> Site {
+        let j = GeoPoint::new(45.0, -122.0);
+        let mk = |id: &str, hz: i64, az: f64| {
+            let mut e = Emitter::new(id, Hz(hz), Hz(16_000));
+            e.erp_dbm = Some(50.0);
+            e.position = Some(pim_core::geo::destination(j, az, 300.0));
+            e
+        };
+        Site::new(vec![
+            mk("SKP-152", 152_840_000, 0.0),
+            mk("FIRE-DSP", 159_340_000, 120.0),
+        ])
+    }
+
+    #[test]
+    fn the_table_shows_the_terms_it_ranks_by() {
+        let site = site();
+        let q = Query {
+            junction: Some(GeoPoint::new(45.0, -122.0)),
+            ..Query::new(Hz(146_340_000))
+        };
+        let a = site.explain(&q);
+        let l = Listing {
+            emitters: site.emitters(),
+            params: &a.params,
+            ranking: &a.ranking,
+            co_channel: &a.co_channel,
+        };
+        let t = table_text(&l, 10);
+        for want in [
+            "made in",
+            "rel dB",
+            "drive dB",
+            "form dB",
+            "chan dB",
+            "SKP-152 output stage",
+            "junction: source = L3 + form + drive + order",
+            "give --heard-dbm to calibrate",
+        ] {
+            assert!(t.contains(want), "{want}: {t}");
+        }
+        assert!(!t.contains("ERP − path loss"), "{t}");
+        assert!(outlook_text(&a.ranking).is_none());
+    }
+
+    #[test]
+    fn nothing_landing_is_said_with_the_next_steps() {
+        let site = site();
+        let a = site.explain(&Query::new(Hz(300_000_000)));
+        let s = outlook_text(&a.ranking).unwrap();
+        assert!(s.starts_with("Nothing credible: no product"), "{s}");
+        assert!(s.contains("(3) check each nearby transmitter's own spurious output"));
+        let v = outlook_json(&a.ranking);
+        assert_eq!(v["outlook"], "nothing-lands");
+        assert_eq!(v["next_steps"][1]["step"], "receiver-overload");
+    }
 }

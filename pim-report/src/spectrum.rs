@@ -1,8 +1,10 @@
 //! `spectrum.svg`: the receive channel and the intermodulation products that land in
 //! it. The frequency axis spans a window around the heard frequency; the receive
 //! channel is a shaded band, the heard frequency a dashed line, each product a stem at
-//! its frequency whose height is its predicted level (or its rank when no level is
-//! known), with a thin bar for the bandwidth it occupies and a label giving its order
+//! its frequency whose height is its level in the receive channel at the receiver, in dB
+//! relative to the first candidate, or in dBm once a heard level calibrates the model
+//! (its rank when no level is known); products more than [`LEVEL_DEPTH_DB`] below the
+//! strongest sit in a band under the axis with those that have no level, with a thin bar for the bandwidth it occupies and a label giving its order
 //! (and formula, for the top few). The emitters that make the products usually lie far
 //! outside the window, so a strip under the chart shows them on a logarithmic
 //! frequency scale.
@@ -35,6 +37,8 @@ const STRIP_PX: u32 = 170;
 pub const LABELLED_PRODUCTS: usize = 10;
 /// Of those, how many also show their formula.
 pub const PRODUCTS_WITH_FORMULA: usize = 3;
+/// The level axis spans at most this many dB below the strongest product shown.
+pub const LEVEL_DEPTH_DB: f64 = 60.0;
 /// The window never spans less than this either side of the heard frequency.
 const MIN_HALF_WINDOW_KHZ: f64 = 25.0;
 
@@ -47,6 +51,10 @@ pub struct SpectrumInput {
     pub target_mhz: f64,
     /// Width of the receive channel in kHz.
     pub rx_bw_khz: f64,
+    /// The first candidate's level in the channel at the receiver, dBm, once a heard level
+    /// calibrates the model: the axis is then in dBm (this plus each product's
+    /// `level_db`); otherwise in dB relative to the first candidate.
+    pub calibrated_first_dbm: Option<f64>,
     /// The products that land in the channel.
     pub products: Vec<ProductMark>,
     /// The emitters that take part in them.
@@ -61,9 +69,9 @@ pub struct ProductMark {
     pub bandwidth_khz: f64,
     /// Σ|kᵢ|.
     pub order: u32,
-    /// Predicted level of the product made at the junction in dBm (Σ|kᵢ|·Pᵢ + C(n)),
-    /// when every emitter's ERP and location are known.
-    pub level_dbm: Option<f64>,
+    /// The product's level in the receive channel at the receiver, dB relative to the
+    /// first candidate, when it could be levelled.
+    pub level_db: Option<f64>,
     /// 1 for the most plausible.
     pub rank: usize,
     /// The product in trade notation, e.g. `2·SKP-152 − FIRE-DSP`; shown for the top
@@ -94,51 +102,66 @@ pub fn spectrum_svg(input: &SpectrumInput) -> String {
 /// What the vertical axis shows.
 #[derive(Clone, Copy, Debug, PartialEq)]
 enum Height {
-    /// Predicted level in dBm from the floor to the top, with a band of `band_db`
-    /// under the floor for products that have no level.
+    /// Level from the floor to the top (dB relative to the first candidate, or dBm when
+    /// `offset_db` calibrates it), with a band of `band_db` under the floor for products
+    /// that have no level or lie more than [`LEVEL_DEPTH_DB`] below the strongest.
     Level {
-        floor_dbm: f64,
-        top_dbm: f64,
+        floor_db: f64,
+        top_db: f64,
         band_db: f64,
+        offset_db: f64,
+        calibrated: bool,
     },
     /// Rank, 1 at the top, over this many ranks.
     Rank { ranks: usize },
 }
 
 impl Height {
-    fn of(products: &[&ProductMark]) -> Height {
+    fn of(products: &[&ProductMark], calibrated_first_dbm: Option<f64>) -> Height {
+        let offset_db = calibrated_first_dbm
+            .filter(|v| v.is_finite())
+            .unwrap_or(0.0);
         let levels: Vec<f64> = products
             .iter()
-            .filter_map(|p| p.level_dbm)
+            .filter_map(|p| p.level_db)
             .filter(|l| l.is_finite())
+            .map(|l| l + offset_db)
             .collect();
         if levels.is_empty() {
             let ranks = products.iter().map(|p| p.rank).max().unwrap_or(1).max(1);
             return Height::Rank { ranks };
         }
-        let lo = levels.iter().copied().fold(f64::INFINITY, f64::min);
         let hi = levels.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        let floor_dbm = ((lo - 10.0) / 10.0).floor() * 10.0;
-        let top_dbm = ((hi + 6.0) / 10.0).ceil() * 10.0;
-        let band_db = if levels.len() < products.len() {
-            0.1 * (top_dbm - floor_dbm)
+        let lo = levels
+            .iter()
+            .copied()
+            .fold(f64::INFINITY, f64::min)
+            .max(hi - LEVEL_DEPTH_DB);
+        let floor_db = ((lo - 10.0) / 10.0).floor() * 10.0;
+        let top_db = ((hi + 6.0) / 10.0).ceil() * 10.0;
+        let shown = levels.iter().filter(|&&l| l >= floor_db).count();
+        let band_db = if shown < products.len() {
+            0.1 * (top_db - floor_db)
         } else {
             0.0
         };
         Height::Level {
-            floor_dbm,
-            top_dbm,
+            floor_db,
+            top_db,
             band_db,
+            offset_db,
+            calibrated: calibrated_first_dbm.is_some_and(|v| v.is_finite()),
         }
     }
 
     fn range(&self) -> Range<f64> {
         match *self {
             Height::Level {
-                floor_dbm,
-                top_dbm,
+                floor_db,
+                top_db,
                 band_db,
-            } => floor_dbm - band_db..top_dbm,
+                ..
+            } => floor_db - band_db..top_db,
             Height::Rank { ranks } => 0.0..ranks as f64 + 0.6,
         }
     }
@@ -146,31 +169,46 @@ impl Height {
     /// Where stems stand.
     fn base(&self) -> f64 {
         match *self {
-            Height::Level { floor_dbm, .. } => floor_dbm,
+            Height::Level { floor_db, .. } => floor_db,
             Height::Rank { .. } => 0.0,
         }
     }
 
-    /// The height of a product's stem top, or `None` for a product without a level on
-    /// a level axis.
+    /// The height of a product's stem top, or `None` for a product without a level (or
+    /// below the floor) on a level axis.
     fn value(&self, p: &ProductMark) -> Option<f64> {
         match *self {
-            Height::Level { .. } => p.level_dbm.filter(|l| l.is_finite()),
+            Height::Level {
+                floor_db,
+                offset_db,
+                ..
+            } => p
+                .level_db
+                .filter(|l| l.is_finite())
+                .map(|l| l + offset_db)
+                .filter(|&v| v >= floor_db),
             Height::Rank { ranks } => Some((ranks + 1 - p.rank.clamp(1, ranks)) as f64),
         }
     }
 
+    /// Whether a product has a level but lies below the floor.
+    fn below(&self, p: &ProductMark) -> bool {
+        matches!(self, Height::Level { .. })
+            && p.level_db.is_some_and(|l| l.is_finite())
+            && self.value(p).is_none()
+    }
+
     /// Where a product's mark goes: its stem top, or the middle of the band under the
-    /// floor when it has no level.
+    /// floor when it has no level or lies below the floor.
     fn mark(&self, p: &ProductMark) -> f64 {
         match (self.value(p), *self) {
             (Some(v), _) => v,
             (
                 None,
                 Height::Level {
-                    floor_dbm, band_db, ..
+                    floor_db, band_db, ..
                 },
-            ) => floor_dbm - band_db / 2.0,
+            ) => floor_db - band_db / 2.0,
             (None, Height::Rank { .. }) => 0.0,
         }
     }
@@ -195,9 +233,9 @@ impl<'a> Clean<'a> {
             .collect();
         products.sort_by(|a, b| {
             a.rank.cmp(&b.rank).then(
-                b.level_dbm
+                b.level_db
                     .unwrap_or(f64::NEG_INFINITY)
-                    .total_cmp(&a.level_dbm.unwrap_or(f64::NEG_INFINITY)),
+                    .total_cmp(&a.level_db.unwrap_or(f64::NEG_INFINITY)),
             )
         });
         let target_known = input.target_mhz.is_finite() && input.target_mhz > 0.0;
@@ -337,7 +375,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
     draw_header(&header, title, subtitle)?;
 
     let window = clean.window_mhz();
-    let height = Height::of(&clean.products);
+    let height = Height::of(&clean.products, input.calibrated_first_dbm);
     let mut chart = ChartBuilder::on(&chart_area)
         .margin(MARGIN_PX)
         .x_label_area_size(X_LABEL_AREA_PX)
@@ -346,7 +384,10 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
     let decimals = mhz_decimals(window.end - window.start);
     let x_tick = move |v: &f64| format!("{v:.decimals$}");
     let y_tick = move |v: &f64| match height {
-        Height::Level { floor_dbm, .. } if *v < floor_dbm - 1e-9 => String::new(),
+        Height::Level { floor_db, .. } if *v < floor_db - 1e-9 => String::new(),
+        Height::Level {
+            calibrated: false, ..
+        } => format!("{v:+.0}"),
         Height::Level { .. } => format!("{v:.0}"),
         Height::Rank { ranks } => {
             let r = ranks as f64 + 1.0 - v;
@@ -358,7 +399,10 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
         }
     };
     let y_desc = match height {
-        Height::Level { .. } => "predicted level, dBm",
+        Height::Level {
+            calibrated: true, ..
+        } => "level in the channel at the receiver, dBm (calibrated)",
+        Height::Level { .. } => "level in the channel, dB relative to #1",
         Height::Rank { .. } => "rank (1 = most plausible)",
     };
     chart
@@ -388,11 +432,11 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
 
     // The band under the floor for products without a level.
     if let Height::Level {
-        floor_dbm, band_db, ..
+        floor_db, band_db, ..
     } = height
     {
         if band_db > 0.0 {
-            let top = to_px(window.start, floor_dbm).1;
+            let top = to_px(window.start, floor_db).1;
             root.draw(&Rectangle::new(
                 [px((plot.x0 + 1.0, top)), px((plot.x1 - 1.0, plot.y1 - 1.0))],
                 GRID.mix(0.7).filled(),
@@ -401,8 +445,17 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
                 vec![px((plot.x0, top)), px((plot.x1, top))],
                 MUTED.stroke_width(1),
             ))?;
+            let weak = clean.products.iter().any(|p| height.below(p));
+            let none = clean
+                .products
+                .iter()
+                .any(|p| p.level_db.is_none_or(|l| !l.is_finite()));
             root.draw(&Text::new(
-                "no level",
+                match (weak, none) {
+                    (true, true) => "weaker / no level",
+                    (true, false) => "weaker",
+                    _ => "no level",
+                },
                 px((plot.x0 - 8.0, (top + plot.y1) / 2.0)),
                 text_style(TICK_PX, MUTED).pos(Pos::new(HPos::Right, VPos::Center)),
             ))?;
@@ -936,13 +989,21 @@ fn draw_legend(
     if n > 0 {
         entries.push((Sym::Width, "bandwidth the product occupies".into()));
     }
+    let weak = clean.products.iter().filter(|p| height.below(p)).count();
     let unlevelled = clean
         .products
         .iter()
         .filter(|p| height.value(p).is_none())
-        .count();
+        .count()
+        - weak;
     if unlevelled > 0 {
         entries.push((Sym::NoLevel, "no level: ERP or location missing".into()));
+    }
+    if weak > 0 {
+        entries.push((
+            Sym::NoLevel,
+            format!("more than {LEVEL_DEPTH_DB:.0} dB below the strongest"),
+        ));
     }
     if emitters_in_window || !clean.emitters.is_empty() {
         entries.push((Sym::Emitter, "emitter".into()));
@@ -998,9 +1059,10 @@ fn draw_legend(
     let mut notes = Vec::new();
     if n > 0 {
         notes.push(match height {
-            Height::Level { .. } => {
-                "Stem height: predicted level of the product made at the junction.".to_string()
-            }
+            Height::Level {
+                calibrated: true, ..
+            } => "Stem height: the product's level in the receive channel at the receiver, the model scaled so that the first candidate matches the level heard.".to_string(),
+            Height::Level { .. } => "Stem height: the product's level in the receive channel at the receiver, relative to the first candidate (the model's absolute level is not known without a heard level).".to_string(),
             Height::Rank { .. } => {
                 "Stem height: rank, the most plausible highest (no levels known).".to_string()
             }
@@ -1039,7 +1101,7 @@ mod tests {
         freq_mhz: f64,
         bandwidth_khz: f64,
         order: u32,
-        level_dbm: Option<f64>,
+        level_db: Option<f64>,
         rank: usize,
         formula: &str,
     ) -> ProductMark {
@@ -1047,7 +1109,7 @@ mod tests {
             freq_mhz,
             bandwidth_khz,
             order,
-            level_dbm,
+            level_db,
             rank,
             formula: formula.to_string(),
         }
@@ -1063,16 +1125,17 @@ mod tests {
             title: "Marrow Hill repeater input".into(),
             target_mhz: 146.34,
             rx_bw_khz: 12.5,
+            calibrated_first_dbm: None,
             products: vec![
-                product(146.34, 43.25, 3, Some(-97.0), 1, "2·SKP-152 − FIRE-DSP"),
-                product(146.34, 70.5, 5, Some(-104.5), 2, "3·TAXI-153 − 2·EMS-157"),
-                product(146.31, 626.0, 5, Some(-109.0), 3, "3·QFMR − TOW-149 − QAMV"),
-                product(146.29, 43.25, 3, Some(-112.0), 4, "UTIL-UHF − 2·TAXI-153"),
+                product(146.34, 43.25, 3, Some(0.0), 1, "2·SKP-152 − FIRE-DSP"),
+                product(146.34, 70.5, 5, Some(-7.5), 2, "3·TAXI-153 − 2·EMS-157"),
+                product(146.31, 626.0, 5, Some(-12.0), 3, "3·QFMR − TOW-149 − QAMV"),
+                product(146.29, 43.25, 3, Some(-15.0), 4, "UTIL-UHF − 2·TAXI-153"),
                 product(
                     146.36,
                     112.0,
                     7,
-                    Some(-121.0),
+                    Some(-24.0),
                     5,
                     "2·TOW-149 + 2·TAXI-153 − 3·SKP-152",
                 ),
@@ -1190,7 +1253,7 @@ mod tests {
     fn without_levels_the_stems_show_rank() {
         let mut input = sample();
         for p in &mut input.products {
-            p.level_dbm = None;
+            p.level_db = None;
         }
         let (svg, layout) = render(&input);
         pim_tests::assert_xml_well_formed(&svg, "svg");
@@ -1209,7 +1272,7 @@ mod tests {
                     146.34,
                     40.0 + 15.0 * i as f64,
                     3 + 2 * (i % 3) as u32,
-                    Some(-95.0 - 0.5 * i as f64),
+                    Some(-0.5 * i as f64),
                     i + 1,
                     "2·SKP-152 − FIRE-DSP",
                 )
@@ -1236,7 +1299,7 @@ mod tests {
 
         let mut odd = sample();
         odd.rx_bw_khz = 0.0;
-        odd.products[0].level_dbm = Some(f64::NAN);
+        odd.products[0].level_db = Some(f64::NAN);
         odd.products[1].freq_mhz = f64::INFINITY;
         odd.products[2].bandwidth_khz = f64::NAN;
         odd.products[3].rank = 0;
@@ -1256,7 +1319,7 @@ mod tests {
 
         let mut same = sample();
         for p in &mut same.products {
-            p.level_dbm = Some(-100.0);
+            p.level_db = Some(-3.0);
             p.bandwidth_khz = 0.0;
         }
         same.emitters = vec![EmitterMark {
@@ -1264,6 +1327,24 @@ mod tests {
             freq_mhz: 146.34,
         }];
         pim_tests::assert_xml_well_formed(&spectrum_svg(&same), "svg");
+    }
+
+    /// The axis never reaches below physical reason: a product hundreds of dB down joins
+    /// the band under the floor instead of stretching the axis.
+    #[test]
+    fn the_level_axis_stays_within_reason() {
+        let mut input = sample();
+        input.products[4].level_db = Some(-380.0);
+        input.calibrated_first_dbm = Some(-96.0);
+        let (svg, layout) = render(&input);
+        pim_tests::assert_xml_well_formed(&svg, "svg");
+        assert!(svg.contains("dBm (calibrated)"));
+        assert!(svg.contains("more than 60 dB below the strongest"));
+        assert_eq!(layout.stem_tops.len(), 5);
+        assert!(!svg.contains(">\n-4"), "no label near −400 dBm");
+        let relative = sample();
+        let (svg, _) = render(&relative);
+        assert!(svg.contains("dB relative to #1"));
     }
 
     #[test]
@@ -1321,7 +1402,7 @@ mod tests {
         if let Ok(dir) = std::env::var("PIM_PICTURES") {
             let mut no_levels = sample();
             for p in &mut no_levels.products[2..] {
-                p.level_dbm = None;
+                p.level_db = None;
             }
             let mut stacked = sample();
             stacked.products = (0..24)
@@ -1330,7 +1411,7 @@ mod tests {
                         146.34 + [0.0, -0.03, -0.05][i % 3],
                         40.0 + 25.0 * i as f64,
                         3 + 2 * (i % 3) as u32,
-                        Some(-95.0 - 1.5 * (i / 3) as f64),
+                        Some(-1.5 * (i / 3) as f64),
                         i + 1,
                         "2·SKP-152 − FIRE-DSP",
                     )

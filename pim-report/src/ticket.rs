@@ -7,15 +7,15 @@ use pim_core::emitter::{carriers, Carrier, Emitter};
 use pim_core::fix::{Fix, SigmaSource};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
-use pim_core::level::JunctionModel;
-use pim_core::rank::{display_terms, formula, Placement, Ranking};
+use pim_core::level::{LevelModel, Mechanism};
+use pim_core::rank::{display_terms, formula, HeardLevel, Placement, Ranking};
 use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
 use pim_core::trace::classify::PeakKind;
 use pim_core::{Error, Query, Site};
 use pim_io::export::{bearing_length_m, fix_geojson, fix_kml};
 use pim_io::fieldlog::{Correction, FieldLog};
 
-use crate::candidates::{write_csv, Listing};
+use crate::candidates::{calibrated_first_dbm, made_in, outlook_text, write_csv, Listing};
 use crate::document::{html, markdown, Block};
 use crate::fix::method_name;
 use crate::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
@@ -35,8 +35,11 @@ pub struct TicketInputs {
     pub corrections: Vec<Correction>,
     pub structures: Vec<Structure>,
     pub params: SearchParams,
-    pub model: JunctionModel,
+    pub model: LevelModel,
     pub rx_site: Option<GeoPoint>,
+    /// The level heard at the receiver, dBm; without it the model is calibrated against
+    /// the field log's `level_dbm` at each reading's position.
+    pub heard_dbm: Option<f64>,
     pub top: usize,
     /// A trace of the receive band (`trace.svg` and the suspects over the band), if taken.
     pub band: Option<BandTrace>,
@@ -76,6 +79,17 @@ fn who(e: &Emitter) -> String {
 
 fn level(x: Option<f64>) -> String {
     x.map(|v| format!("{v:.1}")).unwrap_or_else(|| "—".into())
+}
+
+/// How many distinct products the candidates of a ranking stand for.
+fn distinct_products(r: &Ranking) -> usize {
+    let mut seen = Vec::new();
+    for c in &r.candidates {
+        if !seen.contains(&c.product) {
+            seen.push(c.product);
+        }
+    }
+    seen.len()
 }
 
 /// The ticket as document blocks, plus the two pictures.
@@ -138,52 +152,77 @@ fn build(
     // 2. Candidates
     doc.push(Block::Heading(2, "2. Which emitters make it".into()));
     let total = at_fix.candidates.len();
+    let products = distinct_products(at_fix);
     doc.push(Block::Para(format!(
-        "{total} product{} of up to {} emitters and order up to {} land in the channel. With the junction placed at the fix, they are {}. The first {} follow; candidates.csv lists them all.",
-        if total == 1 { "" } else { "s" },
+        "{products} product{} of up to {} emitters and order up to {} land in the channel, {total} candidate{} with the ways each can be made (a corroded junction, a transmitter's output stage or harmonic). With the junction placed at the fix, they are {}. The first {} follow; candidates.csv lists them all.",
+        if products == 1 { "" } else { "s" },
         t.params.max_emitters,
         t.params.max_order,
+        if total == 1 { "" } else { "s" },
         at_fix.basis(),
         total.min(t.top)
     )));
+    if let Some(statement) = outlook_text(at_fix) {
+        doc.push(Block::Para(statement));
+    }
+    let calibrated = at_fix.calibrated;
     let mut rows = Vec::new();
     for c in at_fix.candidates.iter().take(t.top) {
         let before = at_rx
-            .and_then(|r| r.candidates.iter().find(|x| x.product == c.product))
+            .and_then(|r| {
+                r.candidates
+                    .iter()
+                    .find(|x| x.product == c.product && x.mechanism == c.mechanism)
+            })
             .map(|x| format!("#{}", x.rank))
             .unwrap_or_else(|| "—".into());
         let emitters: Vec<String> = display_terms(&c.product, t.site.emitters())
             .iter()
             .map(|term| who(&t.site.emitters()[term.emitter]))
             .collect();
-        rows.push(vec![
+        let mut note = Vec::new();
+        if c.implausible {
+            note.push("implausible junction");
+        }
+        if c.away_from_fix {
+            note.push("away from the fix");
+        }
+        let mut row = vec![
             c.rank.to_string(),
             formula(&c.product, t.site.emitters()),
+            made_in(c, t.site.emitters()),
             c.product.order().to_string(),
             format!("{:.4}", c.product.freq.mhz()),
             format!("{:+.1}", c.product.offset(heard).khz()),
-            format!("{:.1}", c.product.bandwidth(&carriers).khz()),
-            level(c.level_dbm),
-            before,
-            emitters.join("; "),
-        ]);
+            c.relative_db
+                .map(|v| format!("{v:+.1}"))
+                .unwrap_or_else(|| "—".into()),
+        ];
+        if calibrated {
+            row.push(level(c.calibration.and_then(|k| k.required_im3_dbc)));
+        }
+        row.extend([before, emitters.join("; "), note.join(", ")]);
+        rows.push(row);
     }
+    let mut headers = vec![
+        "#",
+        "product",
+        "made in",
+        "order",
+        "at MHz",
+        "offset kHz",
+        "in channel at receiver, dB rel. #1",
+    ];
+    let mut right = vec![true, false, false, true, true, true, true];
+    if calibrated {
+        headers.push("junction needs L3, dBc");
+        right.push(true);
+    }
+    headers.extend(["rank at receiver", "emitters", "note"]);
+    right.extend([true, false, false]);
     doc.push(Block::Table {
-        headers: [
-            "#",
-            "product",
-            "order",
-            "at MHz",
-            "offset kHz",
-            "width kHz",
-            "level at fix dBm",
-            "at receiver",
-            "emitters",
-        ]
-        .iter()
-        .map(|s| s.to_string())
-        .collect(),
-        right: vec![true, false, true, true, true, true, true, true, false],
+        headers: headers.iter().map(|s| s.to_string()).collect(),
+        right,
         rows,
     });
     if let Some(rx) = at_rx {
@@ -208,10 +247,35 @@ fn build(
         }));
     }
     let m = &t.model;
-    doc.push(Block::Para(format!(
-        "Levels: each emitter drives the junction by its field strength there (ITU-R P.525, EIRP = ERP + 2.15 dB), taken as the power a {:.0} m² aperture collects; a product's level follows a power law from two {:.0} dBm tones making {:.0} dBm at third order, weighted by the product's multinomial coefficient, each further order costing {:.0} dB and even orders {:.0} dB more; candidates rank by the part of the product inside the receive channel at the receiver. A real joint may differ by tens of dB.",
+    let mut levels = format!(
+        "Levels: each emitter drives a junction by its field strength there (ITU-R P.525, EIRP = ERP + 2.15 dB), taken as the power a {:.0} m² aperture collects; a junction's product follows a power law from two {:.0} dBm tones making {:.0} dBm at third order, weighted by the product's multinomial coefficient, each further order costing {:.0} dB and even orders {:.0} dB more. A product made in a transmitter (its harmonic at the ITU-R SM.329 limit, or intermodulation in its output stage) is levelled at that transmitter. Every candidate is compared by the part of its product inside the receive channel at the receiver, in dB relative to the first; a real joint may differ from the model by tens of dB.",
         m.coupling_aperture_m2, m.reference_tone_dbm, m.im3_dbm, m.order_step_db, m.even_order_penalty_db
-    )));
+    );
+    if calibrated {
+        let first = at_fix.candidates.iter().find(|c| c.relative_db.is_some());
+        let points = first.and_then(|c| c.calibration).map_or(0, |k| k.points);
+        levels.push_str(&format!(
+            " Calibrated against {}: the first candidate would be heard at {} at the receiver; \"junction needs L3\" is the third-order level each junction would need from two {:.0} dBm tones, in dBc of one, and above {:.0} dBc no passive contact mixes so strongly (implausible).",
+            match t.heard_dbm {
+                Some(l) => format!("{l:.1} dBm heard at the receiver"),
+                None => format!("the {points} levels of the walk"),
+            },
+            calibrated_first_dbm(at_fix)
+                .map(|v| format!("{v:.1} dBm"))
+                .unwrap_or_else(|| "—".into()),
+            m.reference_tone_dbm,
+            m.max_im3_dbc
+        ));
+        if let Some(iec) = first
+            .and_then(|c| c.calibration)
+            .and_then(|k| k.required_im3_dbc_iec)
+        {
+            levels.push_str(&format!(
+                " At the IEC 62037-1 test condition (two +43 dBm tones) the first would measure about {iec:.0} dBc."
+            ));
+        }
+    }
+    doc.push(Block::Para(levels));
     let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
     doc.push(Block::Picture {
         file: "spectrum.svg".into(),
@@ -370,15 +434,32 @@ fn build(
         "Attenuator test at the receiver: insert a step attenuator ahead of the receiver, note the carrier's level at 0, 2, 4, 6, 8 and 10 dB, and run `pim slope --kind attenuator`. About 1 dB less per dB inserted means it arrives over the air (a junction outside); n dB per dB means the receiver makes it itself (overload), which the receiver's filtering must cure first.".to_string(),
     ];
     if let Some(top) = at_fix.candidates.first() {
-        for term in display_terms(&top.product, t.site.emitters()) {
+        let terms = display_terms(&top.product, t.site.emitters());
+        for term in &terms {
             let em = &t.site.emitters()[term.emitter];
             steps.push(format!(
-                "Power step with the licensee{}: have {} lowered by 3 dB for a few minutes and back; the carrier should fall about {} dB if {} is the cause (|k| = {}). Log level against step and run `pim slope --kind power`.",
+                "Power step with the licensee{}: have {} lowered by 1, 2, 3 and 4 dB for a few minutes each and back; the carrier should fall by up to about {} dB per dB if {} is the cause (|k| = {}).",
                 em.owner.as_deref().map(|o| format!(" ({o})")).unwrap_or_default(),
                 em.id,
-                3 * term.coefficient.abs(),
+                term.coefficient.abs(),
                 formula(&top.product, t.site.emitters()),
                 term.coefficient.abs()
+            ));
+        }
+        if terms.len() > 1 {
+            steps.push(format!(
+                "Log the steps of every emitter of the first candidate ({}) in one file, `emitter,step_db,level_dbm`, and run `pim slope --kind power --readings FILE`: the ratio of their slopes gives the coefficients even when the junction rises less steeply than the ideal law, and the exponent with them.",
+                terms
+                    .iter()
+                    .map(|x| t.site.emitters()[x.emitter].id.clone())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+        }
+        if top.mechanism != Mechanism::Junction {
+            steps.push(format!(
+                "The first candidate is made in {}: have the licensee check the transmitter's output with a spectrum analyser (and its filtering or isolator) before anyone looks for a joint.",
+                made_in(top, t.site.emitters())
             ));
         }
     }
@@ -582,14 +663,25 @@ pub fn fix_map_input(
 }
 
 fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> SpectrumInput {
-    let shown = at_fix.candidates.iter().take(30);
+    // One mark per product: its best-ranked way of being made.
+    let mut seen = Vec::new();
+    let shown: Vec<&pim_core::rank::Candidate> = at_fix
+        .candidates
+        .iter()
+        .filter(|c| {
+            let first = !seen.contains(&c.product);
+            seen.push(c.product);
+            first
+        })
+        .take(30)
+        .collect();
     let products = shown
-        .clone()
+        .iter()
         .map(|c| ProductMark {
             freq_mhz: c.product.freq.mhz(),
             bandwidth_khz: c.product.bandwidth(carriers).khz(),
             order: c.product.order(),
-            level_dbm: c.level_dbm,
+            level_db: c.relative_db,
             rank: c.rank,
             formula: formula(&c.product, t.site.emitters()),
         })
@@ -610,6 +702,7 @@ fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> S
         ),
         target_mhz: t.params.target.mhz(),
         rx_bw_khz: t.params.rx_bandwidth.khz(),
+        calibrated_first_dbm: calibrated_first_dbm(at_fix),
         products,
         emitters: ids
             .iter()
@@ -619,6 +712,27 @@ fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> S
             })
             .collect(),
     }
+}
+
+/// What the ranking at the fix is calibrated against: the level heard at the receiver
+/// when given, else the walk's levels at the readings' positions.
+pub fn heard_levels(t: &TicketInputs) -> Vec<HeardLevel> {
+    if let Some(level_dbm) = t.heard_dbm {
+        return vec![HeardLevel {
+            position: None,
+            level_dbm,
+        }];
+    }
+    t.log
+        .rows
+        .iter()
+        .filter_map(|r| {
+            Some(HeardLevel {
+                position: Some(r.position?),
+                level_dbm: r.level_dbm?,
+            })
+        })
+        .collect()
 }
 
 /// Sources closer than this to the fix agree with the bearings whatever the ellipse, m.
@@ -642,6 +756,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             receiver: t.rx_site,
             fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
         },
+        &heard_levels(t),
     );
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
     let (doc, map, spectrum, band_svg) = build(t, &at_fix, at_rx.as_ref(), &near);
@@ -678,6 +793,6 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             .candidates
             .first()
             .map(|c| formula(&c.product, t.site.emitters())),
-        total: at_fix.candidates.len(),
+        total: distinct_products(&at_fix),
     })
 }

@@ -9,6 +9,7 @@ mod fieldlog;
 mod fix;
 mod invariants;
 mod plan;
+mod ranking;
 mod slope;
 mod sweep;
 mod ticket;

@@ -1,0 +1,326 @@
+//! End-to-end runs of the ranking by what the receiver would hear (issue 11): the JSON
+//! fields of `explain` and their arithmetic, calibration to a heard level, the plain
+//! statement when nothing credible lands, the power steps of two emitters, the spectrum
+//! picture's level axis, and the demo ticket naming the planted pair first.
+
+use crate::support::{field_log, pim, pim_in, scratch, stderr_of, stdout_of};
+
+fn path(p: std::path::PathBuf) -> String {
+    p.display().to_string()
+}
+
+fn explain_json(freq: &str, extra: &[&str]) -> serde_json::Value {
+    let tx = path(field_log("emitters.csv"));
+    let mut args = vec![
+        "explain",
+        freq,
+        "--emitters",
+        &tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+        "--format",
+        "json",
+    ];
+    args.extend_from_slice(extra);
+    let o = pim(&args);
+    assert!(o.status.success(), "{args:?}: {}", stderr_of(&o));
+    serde_json::from_str(&stdout_of(&o)).unwrap()
+}
+
+fn f(v: &serde_json::Value) -> f64 {
+    v.as_f64().unwrap_or_else(|| panic!("not a number: {v}"))
+}
+
+/// Each candidate's JSON carries its mechanism and level terms, and they add up: the
+/// junction's terms to its level (the power law of Pozar, with the multinomial form
+/// weight), the source less the path plus the channel share to the level in the channel,
+/// and that less the first candidate's to `relative_db`.
+#[test]
+fn explain_json_carries_the_terms_and_they_add_up() {
+    let v = explain_json("146.34", &[]);
+    assert_eq!(v["outlook"], "credible");
+    assert!(v["next_steps"].as_array().unwrap().is_empty());
+    assert_eq!(v["calibrated"], false);
+    let cands = v["candidates"].as_array().unwrap();
+    let first_in_channel = f(&cands[0]["in_channel_dbm"]);
+    assert_eq!(f(&cands[0]["relative_db"]), 0.0);
+    let mut mechanisms = Vec::new();
+    for c in cands {
+        let m = c["mechanism"].as_str().unwrap().to_string();
+        let t = &c["level_terms"];
+        let source = f(&t["source_level_dbm"]);
+        assert!((f(&c["predicted_level_dbm"]) - source).abs() < 0.011, "{c}");
+        let heard = source - f(&t["path_to_receiver_db"]) + f(&t["channel_db"]);
+        assert!((heard - f(&c["in_channel_dbm"])).abs() < 0.03, "{c}");
+        assert!(
+            (f(&c["relative_db"]) - (heard - first_in_channel)).abs() < 0.05,
+            "{c}"
+        );
+        if m == "junction" {
+            let j = &t["junction"];
+            let sum = f(&j["im3_dbm"])
+                + f(&j["form_db"])
+                + f(&j["drive_db"])
+                + f(&j["order_db"])
+                + f(&j["even_order_db"]);
+            assert!((sum - f(&j["level_dbm"])).abs() < 0.05, "{c}");
+            assert!(c["formed_in"].is_null());
+        }
+        if m == "transmitter-im" {
+            // 2·SKP-152 − FIRE-DSP made in the paging transmitter's output stage.
+            assert_eq!(c["formed_in"], "SKP-152");
+            assert!(c["level_terms"]["junction"].is_null());
+        }
+        assert_eq!(c["implausible"], false);
+        assert!(c["calibration"].is_null());
+        mechanisms.push(m);
+    }
+    assert!(mechanisms.contains(&"junction".to_string()));
+    assert!(mechanisms.contains(&"transmitter-im".to_string()));
+}
+
+/// A heard level calibrates every levelled candidate: the shift matches its prediction to
+/// the level heard, and a junction the third-order level it would need (dBc of one
+/// reference tone). Heard at −20 dBm on the receiver, no passive contact is strong enough
+/// (above −10 dBc, from memory: a diode mixer's conversion).
+#[test]
+fn a_heard_level_calibrates_and_flags_implausible_junctions() {
+    let v = explain_json("146.34", &["--heard-dbm", "-95"]);
+    assert_eq!(v["calibrated"], true);
+    assert_eq!(v["inputs"]["heard_dbm"], -95.0);
+    for c in v["candidates"].as_array().unwrap() {
+        let k = &c["calibration"];
+        let heard = f(&c["in_channel_dbm"]) + f(&k["shift_db"]);
+        assert!((heard + 95.0).abs() < 0.05, "{c}");
+        if c["mechanism"] == "junction" {
+            let dbc = f(&k["required_im3_dbc"]);
+            assert_eq!(c["implausible"], dbc > -10.0, "{c}");
+        }
+    }
+    // 3·SKP-152 − 2·FIRE-DSP = 139.84 MHz: only junctions make fifth-order products.
+    let loud = explain_json("139.84", &["--max-order", "5", "--heard-dbm", "-20"]);
+    assert_eq!(loud["outlook"], "only-implausible");
+    let steps: Vec<&str> = loud["next_steps"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["step"].as_str().unwrap())
+        .collect();
+    assert_eq!(
+        steps,
+        [
+            "unlisted-emitters",
+            "receiver-overload",
+            "transmitter-spurious"
+        ]
+    );
+    assert!(loud["candidates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .all(|c| c["implausible"] == true));
+}
+
+/// No product of the demo emitters lands on 300 MHz up to the third order: the answer
+/// says so plainly and suggests the usual next steps (exit 0: an empty list is an answer).
+#[test]
+fn nothing_credible_is_said_plainly() {
+    let tx = path(field_log("emitters.csv"));
+    let o = pim(&[
+        "explain",
+        "300",
+        "--emitters",
+        &tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+        "--max-order",
+        "3",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr_of(&o));
+    let t = stdout_of(&o);
+    assert!(t.contains("Nothing credible: no product"), "{t}");
+    assert!(t.contains("emitters missing from the list"), "{t}");
+    assert!(t.contains("attenuator test"), "{t}");
+    assert!(t.contains("spurious output"), "{t}");
+    let v = explain_json("300", &["--max-order", "3"]);
+    assert_eq!(v["outlook"], "nothing-lands");
+    assert_eq!(v["next_steps"].as_array().unwrap().len(), 3);
+    assert!(v["statement"]
+        .as_str()
+        .unwrap()
+        .starts_with("Nothing credible"));
+}
+
+#[test]
+fn csv_has_the_mechanism_and_level_columns() {
+    let tx = path(field_log("emitters.csv"));
+    let o = pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        &tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+        "--format",
+        "csv",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let text = stdout_of(&o);
+    let mut rdr = csv::Reader::from_reader(text.as_bytes());
+    let headers = rdr.headers().unwrap().clone();
+    for h in [
+        "mechanism",
+        "formed_in",
+        "predicted_level_dbm",
+        "relative_db",
+        "drive_db",
+        "form_db",
+        "channel_db",
+        "implausible",
+    ] {
+        assert!(headers.iter().any(|x| x == h), "{h} missing: {headers:?}");
+    }
+    let rows: Vec<csv::StringRecord> = rdr.records().map(|r| r.unwrap()).collect();
+    let col = |name: &str| headers.iter().position(|h| h == name).unwrap();
+    assert!(rows
+        .iter()
+        .any(|r| &r[col("mechanism")] == "transmitter-im" && &r[col("formed_in")] == "SKP-152"));
+}
+
+/// Bounds on the model's options: values no radio site can have are refused (exit 2).
+#[test]
+fn absurd_model_options_are_refused() {
+    let tx = path(field_log("emitters.csv"));
+    for (flag, value) in [
+        ("--drive-exponent", "5"),
+        ("--drive-exponent", "0"),
+        ("--heard-dbm", "80"),
+        ("--junction-height-m", "-3"),
+        ("--rx-iip3-dbm", "200"),
+        ("--max-im3-dbc", "10"),
+        ("--even-order-penalty-db", "nan"),
+    ] {
+        let o = pim(&["explain", "146.34", "--emitters", &tx, flag, value]);
+        assert_eq!(
+            o.status.code(),
+            Some(2),
+            "{flag} {value}: {}",
+            stderr_of(&o)
+        );
+        assert!(stderr_of(&o).contains(flag), "{flag}: {}", stderr_of(&o));
+    }
+}
+
+/// The power law (Pozar): a junction whose product goes as Π Pᵢ^(α·|kᵢ|) gives slopes
+/// α·|kᵢ|. The demo steps of both emitters of the planted 2·SKP-152 − FIRE-DSP (invented,
+/// with α = 0.9) give |k| = 2 and 1 and the exponent; either emitter alone cannot.
+#[test]
+fn two_emitters_power_steps_give_coefficients_and_exponent() {
+    let r = path(field_log("power-steps.csv"));
+    let o = pim(&[
+        "slope",
+        "--readings",
+        &r,
+        "--kind",
+        "power",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["verdict"], "coefficients");
+    let c = v["coefficients"].as_array().unwrap();
+    assert_eq!(c[0]["emitter"], "SKP-152");
+    assert_eq!(c[0]["k"], 2);
+    assert_eq!(c[1]["emitter"], "FIRE-DSP");
+    assert_eq!(c[1]["k"], 1);
+    assert!(c[0]["slope_stderr"].as_f64().unwrap() > 0.0);
+    let e = &v["exponent"];
+    let (lo, hi) = (f(&e["interval_95"][0]), f(&e["interval_95"][1]));
+    assert!(lo < 0.9 && 0.9 < hi, "{e}");
+    assert!(v["advice"]
+        .as_str()
+        .unwrap()
+        .contains("--coefficient SKP-152=2 --coefficient FIRE-DSP=1"));
+    // One emitter alone: today's answer, with the caveat.
+    let o = pim(&[
+        "slope",
+        "--readings",
+        &r,
+        "--kind",
+        "power",
+        "--emitter",
+        "FIRE-DSP",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["coefficient"], 1);
+    assert_eq!(v["emitter"], "FIRE-DSP");
+    assert!(v["caveat"].as_str().unwrap().contains("cannot separate"));
+    let o = pim(&[
+        "slope",
+        "--readings",
+        &r,
+        "--kind",
+        "power",
+        "--emitter",
+        "NOPE",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+}
+
+/// The numbers on the spectrum picture's level axis (tick labels are plain numbers).
+fn axis_numbers(svg: &str) -> Vec<f64> {
+    svg.split("</text>")
+        .filter_map(|chunk| chunk.rsplit('>').next())
+        .filter_map(|t| t.trim().replace('−', "-").parse::<f64>().ok())
+        .collect()
+}
+
+/// The demo ticket: the planted pair first, made at a junction, with believable numbers;
+/// the spectrum's level axis calibrated to the walk's levels and never below physical
+/// reason.
+#[test]
+fn demo_ticket_names_the_planted_pair_first_with_believable_numbers() {
+    let dir = scratch();
+    let o = pim_in(Some(dir.path()), &["demo", "--out", "t"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let t = dir.path().join("t");
+    let md = std::fs::read_to_string(t.join("ticket.md")).unwrap();
+    assert!(
+        md.contains("| 1 | 2·SKP-152 − FIRE-DSP | junction | 3 |"),
+        "{md}"
+    );
+    assert!(
+        md.contains("Calibrated against the 8 levels of the walk"),
+        "{md}"
+    );
+    assert!(!md.contains("Nothing credible"));
+    let csv = std::fs::read_to_string(t.join("candidates.csv")).unwrap();
+    let mut rdr = csv::Reader::from_reader(csv.as_bytes());
+    let headers = rdr.headers().unwrap().clone();
+    let col = |name: &str| headers.iter().position(|h| h == name).unwrap();
+    let first = rdr.records().next().unwrap().unwrap();
+    assert_eq!(&first[col("formula")], "2·SKP-152 − FIRE-DSP");
+    assert_eq!(&first[col("mechanism")], "junction");
+    assert_eq!(&first[col("implausible")], "false");
+    // A believable junction: needing a third-order level well below −10 dBc of one 0 dBm
+    // tone, and heard at the receiver within the walk's range of levels (−99 to −89.5 dBm).
+    let dbc: f64 = first[col("required_im3_dbc")].parse().unwrap();
+    assert!((-60.0..-10.0).contains(&dbc), "{dbc}");
+    let heard = first[col("in_channel_dbm")].parse::<f64>().unwrap()
+        + first[col("shift_db")].parse::<f64>().unwrap();
+    assert!((-105.0..-85.0).contains(&heard), "{heard}");
+    let svg = std::fs::read_to_string(t.join("spectrum.svg")).unwrap();
+    assert!(svg.contains("dBm (calibrated)"), "axis unit");
+    let numbers = axis_numbers(&svg);
+    assert!(!numbers.is_empty());
+    assert!(numbers.iter().all(|&n| n > -200.0), "{numbers:?}");
+}
