@@ -184,20 +184,19 @@ pub fn load_logbook(
 pub fn load_emitters(path: &std::path::Path) -> CliResult<Vec<Emitter>> {
     let source = path.display().to_string();
     let file = read_emitters(&source, open(path)?)?;
-    if !file.ignored_columns.is_empty() {
-        eprintln!(
-            "pim: note: {source}: column{} {} not used",
-            if file.ignored_columns.len() == 1 {
-                ""
-            } else {
-                "s"
-            },
-            file.ignored_columns
-                .iter()
-                .map(|c| format!("`{c}`"))
-                .collect::<Vec<_>>()
-                .join(", ")
-        );
-    }
+    note_unused(&source, &file.ignored_columns);
     Ok(file.emitters)
+}
+
+/// Says on standard error which columns of a file were not read, once per file.
+pub fn note_unused(source: &str, columns: &[String]) {
+    if columns.is_empty() {
+        return;
+    }
+    let names: Vec<String> = columns.iter().map(|c| format!("`{c}`")).collect();
+    let plural = if columns.len() == 1 { "" } else { "s" };
+    eprintln!(
+        "pim: note: {source}: column{plural} {} not used",
+        names.join(", ")
+    );
 }

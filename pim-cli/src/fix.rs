@@ -146,12 +146,7 @@ pub fn fix_from_log(
         Some(text) => read_field_log(&source, text.as_bytes(), args.track.is_some())?,
         None => read_field_log(&source, open(log_path)?, args.track.is_some())?,
     };
-    if !log.ignored_columns.is_empty() {
-        eprintln!(
-            "pim: note: {source}: columns not used: {}",
-            log.ignored_columns.join(", ")
-        );
-    }
+    crate::common::note_unused(&source, &log.ignored_columns);
     let track = match &args.track {
         Some(p) => Some(read_track(&p.display().to_string(), open(p)?)?),
         None => None,

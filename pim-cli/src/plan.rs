@@ -108,12 +108,7 @@ pub struct Args {
 fn load_list(path: &std::path::Path) -> CliResult<Vec<ListedChannel>> {
     let source = path.display().to_string();
     let file = read_channels(&source, open(path)?)?;
-    if !file.ignored_columns.is_empty() {
-        eprintln!(
-            "pim: note: {source}: columns not used: {}",
-            file.ignored_columns.join(", ")
-        );
-    }
+    crate::common::note_unused(&source, &file.ignored_columns);
     Ok(file.channels)
 }
 

@@ -48,12 +48,7 @@ pub fn run(args: Args) -> CliResult {
     };
     let source = args.readings.display().to_string();
     let mut file = read_readings(&source, open(&args.readings)?, kind)?;
-    if !file.ignored_columns.is_empty() {
-        eprintln!(
-            "pim: note: {source}: columns not used: {}",
-            file.ignored_columns.join(", ")
-        );
-    }
+    crate::common::note_unused(&source, &file.ignored_columns);
     if let (Some(id), true) = (&args.emitter, file.has_emitters()) {
         file.readings
             .retain(|r| r.emitter.as_deref() == Some(id.as_str()));

@@ -35,12 +35,7 @@ pub fn run(args: Args) -> CliResult {
     let emitters = site.emitters();
     let rx_source = args.receivers.display().to_string();
     let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
-    if !rx_file.ignored_columns.is_empty() {
-        eprintln!(
-            "pim: note: {rx_source}: columns not used: {}",
-            rx_file.ignored_columns.join(", ")
-        );
-    }
+    crate::common::note_unused(&rx_source, &rx_file.ignored_columns);
     let s = &args.search;
     let model = s.junction_model();
     let progress = if std::io::stderr().is_terminal() && rx_file.receivers.len() > 1 {

@@ -88,21 +88,7 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
     for path in paths {
         let source = path.display().to_string();
         let file = read_trace_into(&source, open(path)?, &mut hold)?;
-        if !file.ignored_columns.is_empty() {
-            eprintln!(
-                "pim: note: {source}: column{} {} not used",
-                if file.ignored_columns.len() == 1 {
-                    ""
-                } else {
-                    "s"
-                },
-                file.ignored_columns
-                    .iter()
-                    .map(|c| format!("`{c}`"))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            );
-        }
+        crate::common::note_unused(&source, &file.ignored_columns);
     }
     hold.finish()
         .ok_or_else(|| Error::input(Place::new("trace"), "no trace read").into())

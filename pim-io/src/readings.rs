@@ -8,7 +8,7 @@
 
 use std::io::Read;
 
-use crate::table::{no_rows, parse_finite, Table};
+use crate::table::{no_rows, parse_finite, Row, Table};
 use pim_core::error::{Error, Result};
 use pim_core::slope::StepKind;
 
@@ -75,6 +75,24 @@ impl ReadingsFile {
 }
 
 /// Reads the readings of a `kind` test; `source` names the file in messages.
+/// A row's `level_dbm`: a finite number within [`LEVEL_RANGE_DBM`], or an error that
+/// names the row and the field (shared by every file that logs levels).
+pub fn level_field(row: &Row<'_>, level_col: usize) -> Result<f64> {
+    let place = |f: &str| row.place(f);
+    let level_text = row
+        .text(Some(level_col))
+        .ok_or_else(|| Error::input(place("level_dbm"), "missing level"))?;
+    let level_dbm = parse_finite(|| place("level_dbm"), level_text)?;
+    let (lowest, highest) = LEVEL_RANGE_DBM;
+    if !(lowest..=highest).contains(&level_dbm) {
+        return Err(Error::input(
+            place("level_dbm"),
+            format!("level {level_text} dBm is outside {lowest}…+{highest} dBm"),
+        ));
+    }
+    Ok(level_dbm)
+}
+
 pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result<ReadingsFile> {
     let mut table = Table::open(source, reader)?;
     let step_col = table.require("step_db")?;
@@ -116,17 +134,7 @@ pub fn read_readings<R: Read>(source: &str, reader: R, kind: StepKind) -> Result
                 ),
             ));
         }
-        let level_text = row
-            .text(Some(level_col))
-            .ok_or_else(|| Error::input(place("level_dbm"), "missing level"))?;
-        let level_dbm = parse_finite(|| place("level_dbm"), level_text)?;
-        let (lowest, highest) = LEVEL_RANGE_DBM;
-        if !(lowest..=highest).contains(&level_dbm) {
-            return Err(Error::input(
-                place("level_dbm"),
-                format!("level {level_text} dBm is outside {lowest}…+{highest} dBm"),
-            ));
-        }
+        let level_dbm = level_field(&row, level_col)?;
         file.readings.push(LevelStep {
             emitter,
             step_db,

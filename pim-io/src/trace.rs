@@ -8,7 +8,7 @@
 
 use std::io::Read;
 
-use crate::readings::LEVEL_RANGE_DBM;
+use crate::readings::level_field;
 use crate::table::{decimal_comma_hint, no_rows, parse_finite, Table};
 use pim_core::error::{Error, Place, Result};
 use pim_core::freq::{parse_scaled_decimal, DecimalError, Hz, MAX_FREQUENCY};
@@ -117,17 +117,7 @@ pub fn read_trace_into<R: Read>(source: &str, reader: R, hold: &mut MaxHold) -> 
             .text(Some(freq_col))
             .ok_or_else(|| Error::input(place(freq_name), "missing frequency"))?;
         let freq = trace_frequency(|| place(freq_name), freq_text, scale)?;
-        let level_text = row
-            .text(Some(level_col))
-            .ok_or_else(|| Error::input(place("level_dbm"), "missing level"))?;
-        let level_dbm = parse_finite(|| place("level_dbm"), level_text)?;
-        let (lowest, highest) = LEVEL_RANGE_DBM;
-        if !(lowest..=highest).contains(&level_dbm) {
-            return Err(Error::input(
-                place("level_dbm"),
-                format!("level {level_text} dBm is outside {lowest}…+{highest} dBm"),
-            ));
-        }
+        let level_dbm = level_field(&row, level_col)?;
         hold.push(freq, level_dbm)
             .map_err(|r| Error::input(place(freq_name), r.message(freq)))?;
         file.points += 1;

@@ -4,6 +4,9 @@
 
 use std::path::{Path, PathBuf};
 
+use pim_core::fix::Reading;
+use pim_core::geo::{destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint};
+
 /// The workspace root.
 pub fn workspace_root() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -65,4 +68,31 @@ pub fn assert_xml_well_formed(text: &str, what: &str) {
         }
     }
     assert_eq!(depth, 0, "{what}: unbalanced elements");
+}
+
+/// The walk simulator every check shares: an observer at each (azimuth from the
+/// junction in degrees, range in metres) of `spots`, its bearing the true geodesic
+/// azimuth to `truth` (Karney 2013) plus `errors_deg[i]` (0 where missing), `sigma_deg`
+/// in the log's σ column. Lines are numbered from 2, as under a header.
+pub fn simulated_walk(
+    truth: GeoPoint,
+    spots: &[(f64, f64)],
+    errors_deg: &[f64],
+    sigma_deg: Option<f64>,
+) -> Vec<Reading> {
+    spots
+        .iter()
+        .enumerate()
+        .map(|(i, &(az, range))| {
+            let observer = destination(truth, az, range);
+            let (_, brg) = distance_and_azimuth(observer, truth);
+            let error = errors_deg.get(i).copied().unwrap_or(0.0);
+            Reading::new(
+                i as u64 + 2,
+                observer,
+                normalize_bearing_deg(brg + error),
+                sigma_deg,
+            )
+        })
+        .collect()
 }

@@ -13,20 +13,7 @@ fn walk(
     errors_deg: &[f64],
     sigma: Option<f64>,
 ) -> Vec<Reading> {
-    spots
-        .iter()
-        .enumerate()
-        .map(|(i, &(az, range))| {
-            let observer = destination(truth, az, range);
-            let (_, brg) = distance_and_azimuth(observer, truth);
-            Reading {
-                line: i as u64 + 2,
-                observer,
-                bearing_deg: normalize_bearing_deg(brg + errors_deg.get(i).copied().unwrap_or(0.0)),
-                sigma_deg: sigma,
-            }
-        })
-        .collect()
+    pim_tests::simulated_walk(truth, spots, errors_deg, sigma)
 }
 
 const TRUTH: GeoPoint = GeoPoint {

@@ -7,7 +7,7 @@
 //! freedom for a stated σ; the outlier rule's Bonferroni bound.
 
 use pim_core::fix::{locate, Fix, FixOptions, Method, Reading, RegionKind, SigmaSource};
-use pim_core::geo::{destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint};
+use pim_core::geo::{destination, distance_and_azimuth, GeoPoint};
 use pim_tests::Rng;
 
 const TRUTH: GeoPoint = GeoPoint {
@@ -28,21 +28,10 @@ fn walk(
     offsets_deg: &[f64],
     stated_deg: Option<f64>,
 ) -> Vec<Reading> {
-    spots
-        .iter()
-        .enumerate()
-        .map(|(i, &(az, range))| {
-            let observer = destination(truth, az, range);
-            let (_, brg) = distance_and_azimuth(observer, truth);
-            let error = scatter_deg * rng.normal() + offsets_deg.get(i).copied().unwrap_or(0.0);
-            Reading {
-                line: i as u64 + 2,
-                observer,
-                bearing_deg: normalize_bearing_deg(brg + error),
-                sigma_deg: stated_deg,
-            }
-        })
-        .collect()
+    let errors: Vec<f64> = (0..spots.len())
+        .map(|i| scatter_deg * rng.normal() + offsets_deg.get(i).copied().unwrap_or(0.0))
+        .collect();
+    pim_tests::simulated_walk(truth, spots, &errors, stated_deg)
 }
 
 /// Twelve spots around the junction, 150–400 m out.
