@@ -173,7 +173,7 @@ pub fn load_emitters(path: &std::path::Path) -> CliResult<Vec<Emitter>> {
     let source = path.display().to_string();
     let file = read_emitters(&source, open(path)?)?;
     if !file.ignored_columns.is_empty() {
-        eprintln!(
+        eprintln_safe!(
             "pim: note: {source}: column{} {} not used",
             if file.ignored_columns.len() == 1 {
                 ""

@@ -148,7 +148,7 @@ pub fn fix_from_log(
         None => read_field_log(&source, open(log_path)?, args.track.is_some())?,
     };
     if !log.ignored_columns.is_empty() {
-        eprintln!(
+        eprintln_safe!(
             "pim: note: {source}: columns not used: {}",
             log.ignored_columns.join(", ")
         );
@@ -160,7 +160,7 @@ pub fn fix_from_log(
     let today = time::OffsetDateTime::now_utc().date();
     let prepared = prepare(&log, track.as_ref(), args.declination_deg, today)?;
     for note in &prepared.notes {
-        eprintln!("pim: note: {note}");
+        eprintln_safe!("pim: note: {note}");
     }
     let fix = locate(&prepared.readings, &args.options()).map_err(refusal_error)?;
     Ok((fix, prepared))

@@ -143,7 +143,7 @@ fn load_list(path: &std::path::Path) -> CliResult<Vec<ListedChannel>> {
     let source = path.display().to_string();
     let file = read_channels(&source, open(path)?)?;
     if !file.ignored_columns.is_empty() {
-        eprintln!(
+        eprintln_safe!(
             "pim: note: {source}: columns not used: {}",
             file.ignored_columns.join(", ")
         );

@@ -195,7 +195,7 @@ pub fn run(args: Args) -> CliResult {
     let source = args.readings.display().to_string();
     let file = read_readings(&source, open(&args.readings)?, kind)?;
     if !file.ignored_columns.is_empty() {
-        eprintln!(
+        eprintln_safe!(
             "pim: note: {source}: columns not used: {}",
             file.ignored_columns.join(", ")
         );

@@ -36,7 +36,7 @@ pub fn run(args: Args) -> CliResult {
     let rx_source = args.receivers.display().to_string();
     let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
     if !rx_file.ignored_columns.is_empty() {
-        eprintln!(
+        eprintln_safe!(
             "pim: note: {rx_source}: columns not used: {}",
             rx_file.ignored_columns.join(", ")
         );

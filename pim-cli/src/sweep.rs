@@ -18,6 +18,8 @@ use crate::args::{ListingArgs, SearchArgs};
 use crate::common::load_emitters;
 use crate::common::{finish, finite_arg, open, stdout, CliResult, ListFormat};
 use pim_report::candidates::{r2, table_text, write_json_array, Listing};
+use pim_report::csv_out::write_row;
+use pim_report::document::md_text;
 use pim_report::trace::{trace_svg, MarkKind, PeakMark, TraceInput};
 
 #[derive(clap::Args, Debug)]
@@ -67,7 +69,7 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
         let source = path.display().to_string();
         let file = read_trace_into(&source, open(path)?, &mut hold)?;
         if !file.ignored_columns.is_empty() {
-            eprintln!(
+            eprintln_safe!(
                 "pim: note: {source}: column{} {} not used",
                 if file.ignored_columns.len() == 1 {
                     ""
@@ -180,39 +182,6 @@ fn counts(sweep: &Sweep) -> (usize, usize, usize) {
     )
 }
 
-/// A CSV text cell: quoted when needed, and a leading `=`, `+`, `-`, `@`, tab or CR made
-/// harmless with an apostrophe (OWASP, CSV injection).
-fn csv_text(text: &str) -> String {
-    let t = if text.starts_with(['=', '+', '-', '@', '\t', '\r']) {
-        format!("'{text}")
-    } else {
-        text.to_string()
-    };
-    if t.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", t.replace('"', "\"\""))
-    } else {
-        t
-    }
-}
-
-/// Text from input files made literal inside a Markdown table cell (CommonMark's
-/// backslash escapes for the characters that open emphasis, code, links, HTML, entities
-/// and cells; a cell never starts a line, so line-start markers need none).
-fn md_text(text: &str) -> String {
-    let mut out = String::with_capacity(text.len());
-    for c in text.chars() {
-        if "\\`*_[]<>|~&!".contains(c) {
-            out.push('\\');
-        }
-        if c == '\n' || c == '\r' {
-            out.push(' ');
-        } else {
-            out.push(c);
-        }
-    }
-    out
-}
-
 pub fn run(args: Args) -> CliResult {
     let emitters = load_emitters(&args.emitters)?;
     let trace = load_traces(&args.traces)?;
@@ -289,29 +258,42 @@ pub fn run(args: Args) -> CliResult {
             write!(out, "{}", markdown(&sweep, &emitters, args.suspects))?;
         }
         ListFormat::Csv => {
-            writeln!(out, "peak,freq_mhz,level_dbm,floor_dbm,above_floor_db,kind,emitters,first_formula,first_level_dbm,candidates")?;
+            write_row(
+                &mut out,
+                [
+                    "peak",
+                    "freq_mhz",
+                    "level_dbm",
+                    "floor_dbm",
+                    "above_floor_db",
+                    "kind",
+                    "emitters",
+                    "first_formula",
+                    "first_level_dbm",
+                    "candidates",
+                ],
+            )?;
             for (i, p) in sweep.peaks.iter().enumerate() {
                 let first = p.ranking.candidates.first();
-                writeln!(
-                    out,
-                    "{},{},{:.2},{:.2},{:.2},{},{},{},{},{}",
-                    i + 1,
-                    p.peak.freq.mhz_text(),
-                    p.peak.level_dbm,
-                    p.peak.floor_dbm,
-                    p.peak.above_floor_db,
-                    p.kind.name(),
-                    csv_text(&peak_emitters(p, &emitters).join(";")),
-                    csv_text(
-                        &first
+                write_row(
+                    &mut out,
+                    [
+                        (i + 1).to_string(),
+                        p.peak.freq.mhz_text(),
+                        format!("{:.2}", p.peak.level_dbm),
+                        format!("{:.2}", p.peak.floor_dbm),
+                        format!("{:.2}", p.peak.above_floor_db),
+                        p.kind.name().to_string(),
+                        peak_emitters(p, &emitters).join(";"),
+                        first
                             .map(|c| formula(&c.product, &emitters))
-                            .unwrap_or_default()
-                    ),
-                    first
-                        .and_then(|c| c.level_dbm)
-                        .map(|v| format!("{v:.2}"))
-                        .unwrap_or_default(),
-                    p.found,
+                            .unwrap_or_default(),
+                        first
+                            .and_then(|c| c.level_dbm)
+                            .map(|v| format!("{v:.2}"))
+                            .unwrap_or_default(),
+                        p.found.to_string(),
+                    ],
                 )?;
             }
         }

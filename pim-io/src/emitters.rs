@@ -90,6 +90,14 @@ fn read_emitters_csv<R: Read>(source: &str, reader: R) -> Result<EmitterFile> {
     Ok(file)
 }
 
+/// Refuses an id that could pass for another ([`crate::text::id_problem`]).
+pub fn checked_id(place: Place, id: &str) -> Result<()> {
+    match crate::text::id_problem(id) {
+        Some(problem) => Err(Error::input(place, problem)),
+        None => Ok(()),
+    }
+}
+
 fn check_unique(
     seen: &mut HashMap<String, u64>,
     id: &str,
@@ -188,6 +196,10 @@ fn read_emitters_json(source: &str, bytes: &[u8]) -> Result<EmitterFile> {
         for (key, v) in object {
             let text = match v {
                 serde_json::Value::Null => continue,
+                serde_json::Value::String(s) if key == "id" => {
+                    checked_id(place(key), s)?;
+                    s.clone()
+                }
                 serde_json::Value::String(s) => s.trim().to_string(),
                 serde_json::Value::Number(n) => n.to_string(),
                 serde_json::Value::Bool(b) => b.to_string(),
@@ -298,6 +310,7 @@ fn emitter_from_fields(record: &dyn Fields) -> Result<Emitter> {
     let place = |name: &str| record.place(name);
     let line = place("id").line.unwrap_or(0);
     let id = get("id").ok_or_else(|| Error::input(place("id"), "missing id"))?;
+    checked_id(place("id"), id)?;
     let freq_text =
         get("freq_mhz").ok_or_else(|| Error::input(place("freq_mhz"), "missing frequency"))?;
     let freq = frequency_field(|| place("freq_mhz"), freq_text)?;
@@ -403,6 +416,7 @@ pub fn read_receivers<R: Read>(source: &str, reader: R) -> Result<ReceiverFile> 
         let id = row
             .get("id")
             .ok_or_else(|| Error::input(place("id"), "missing id"))?;
+        checked_id(place("id"), id)?;
         let freq_text = row
             .get("freq_mhz")
             .ok_or_else(|| Error::input(place("freq_mhz"), "missing frequency"))?;
@@ -444,6 +458,7 @@ pub fn read_structures<R: Read>(
         let id = row
             .get("id")
             .ok_or_else(|| Error::input(row.place("id"), "missing id"))?;
+        checked_id(row.place("id"), id)?;
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         check_unique(&mut seen, id, row.line, &row)?;

@@ -59,6 +59,9 @@ pub struct LogRow {
 pub struct FieldLog {
     pub source: String,
     pub rows: Vec<LogRow>,
+    /// The line of a last row left out because it had no line end (torn by an
+    /// interrupted write, perhaps).
+    pub torn_line: Option<u64>,
     pub ignored_columns: Vec<String>,
 }
 
@@ -144,13 +147,24 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
     })
 }
 
-/// Reads a field log. With `positions_from_track`, `lat` and `lon` may be absent.
+/// Reads a field log. With `positions_from_track`, `lat` and `lon` may be absent. A last
+/// row without a line end (torn by an interrupted write, perhaps) is left out and its
+/// line kept in [`FieldLog::torn_line`]; the rest of the log is used.
 pub fn read_field_log<R: Read>(
     source: &str,
-    reader: R,
+    mut reader: R,
     positions_from_track: bool,
 ) -> Result<FieldLog> {
-    let mut table = Table::open(source, reader)?;
+    let mut bytes = Vec::new();
+    reader
+        .read_to_end(&mut bytes)
+        .map_err(|e| Error::io(source, &e))?;
+    let torn = crate::text::torn_tail(&bytes);
+    let body = match torn {
+        Some((keep, _)) => &bytes[..keep],
+        None => &bytes[..],
+    };
+    let mut table = Table::open(source, body)?;
     table.require("bearing_deg")?;
     if !positions_from_track {
         table.require("lat")?;
@@ -158,6 +172,7 @@ pub fn read_field_log<R: Read>(
     }
     let mut log = FieldLog {
         source: source.to_string(),
+        torn_line: torn.map(|(_, line)| line),
         ignored_columns: table.unknown_columns(LOG_COLUMNS),
         ..Default::default()
     };
@@ -206,21 +221,37 @@ impl Fields for LogEntry {
 }
 
 impl LogEntry {
-    /// The entry as a CSV row in the column order of `header` (an existing log's first
-    /// line); columns it does not know stay empty. Refuses a header that lacks the
-    /// required columns, naming `source`.
-    pub fn row_for_header(&self, header: &str, source: &str) -> Result<String> {
+    /// The entry's cells in the column order of `header` (an existing log's header line,
+    /// in any delimiter the table reader knows). Refuses a header that lacks the required columns,
+    /// and a value the log has no column for unless its column is `droppable` (a time
+    /// taken from the clock, `north` = true), naming `source`, so that nothing typed is
+    /// lost silently.
+    pub fn cells_for_header(
+        &self,
+        header: &str,
+        source: &str,
+        droppable: &[&str],
+    ) -> Result<Vec<String>> {
         let table = Table::open(source, header.as_bytes())?;
         table.require("bearing_deg")?;
         table.require("lat")?;
         table.require("lon")?;
-        let cells: Vec<&str> = table
+        for (name, value) in &self.fields {
+            if !value.is_empty() && table.column(name).is_none() && !droppable.contains(name) {
+                let origin = self.place(name).source;
+                return Err(Error::input(
+                    Place::new(source).at_line(1).at_field(*name),
+                    format!(
+                        "the log has no `{name}` column, so {origin} would be lost; add the column (a `{name}` cell at the end of the header line and an empty cell at the end of every row), or leave {origin} out"
+                    ),
+                ));
+            }
+        }
+        Ok(table
             .headers()
             .iter()
-            .map(|h| self.field(h).unwrap_or_default())
-            .collect();
-        let row = crate::text::csv_record(&cells, b',', false);
-        Ok(row.trim_end_matches('\n').to_string())
+            .map(|h| self.field(h).unwrap_or_default().to_string())
+            .collect())
     }
 }
 
@@ -251,6 +282,12 @@ pub fn prepare(
     today: time::Date,
 ) -> Result<Prepared> {
     let mut out = Prepared::default();
+    if let Some(line) = log.torn_line {
+        out.notes.push(format!(
+            "{}, line {line}: the last row has no line end: it may be torn by an interrupted write, so it is left out; check it and end it with a line end",
+            log.source
+        ));
+    }
     let mut undated = Vec::new();
     for row in &log.rows {
         let place = |f: &str| Place::new(&log.source).at_line(row.line).at_field(f);
@@ -335,7 +372,13 @@ pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         spots.push(pim_core::walk::Spot {
-            name: row.get("name").map(str::to_string),
+            name: match row.get("name") {
+                Some(name) => {
+                    crate::emitters::checked_id(row.place("name"), name)?;
+                    Some(name.to_string())
+                }
+                None => None,
+            },
             position,
         });
     }
@@ -380,10 +423,6 @@ mod tests {
                 "walk.csv, line 1, field `lat`: missing column",
             ),
             (
-                "lat,lon,bearing_deg\n45,-122,10\n45,-122,1",
-                "walk.csv, line 3: the last row has no line end",
-            ),
-            (
                 "lat,lon,bearing_deg,time\n45,-122,10,yesterday\n",
                 "walk.csv, line 2, field `time`: `yesterday` is not an ISO 8601 date and time",
             ),
@@ -391,6 +430,21 @@ mod tests {
             let e = read(text).unwrap_err().to_string();
             assert!(e.starts_with(want), "{e}");
         }
+    }
+
+    /// A torn last row, even one with all its fields, is left out and reported; the
+    /// rest of the log is used. Comment lines and CR line ends are read as usual.
+    #[test]
+    fn a_torn_last_row_is_left_out() {
+        let log = read("lat,lon,bearing_deg\n45,-122,10\n45,-122,1").unwrap();
+        assert_eq!(log.rows.len(), 1);
+        assert_eq!(log.torn_line, Some(3));
+        let prepared = prepare(&log, None, None, time::macros::date!(2026 - 12 - 01)).unwrap();
+        assert!(prepared.notes[0].starts_with("walk.csv, line 3: the last row has no line end"));
+        let log = read("# walk of 1 Dec\rlat,lon,bearing_deg\r45,-122,10\r45.1,-122,20\r").unwrap();
+        assert_eq!(log.rows.len(), 2);
+        assert_eq!(log.torn_line, None);
+        assert_eq!(log.rows[1].line, 4);
     }
 
     #[test]

@@ -11,6 +11,7 @@ use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
 use serde::Serialize;
 
 use crate::csv_out::write_row;
+use crate::document::md_text;
 use crate::text_table::{Align, TextTable};
 type CliResult = std::io::Result<()>;
 
@@ -346,13 +347,13 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
         out.push_str(&format!(
             "| {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
             c.rank,
-            formula(&c.product, l.emitters).replace('|', "\\|"),
+            md_text(&formula(&c.product, l.emitters)),
             c.product.order(),
             c.product.freq.mhz(),
             signed(c.product.offset(l.params.target).khz(), 1),
             c.product.bandwidth(&carriers).khz(),
             level_text(c.level_dbm),
-            who.join("; ").replace('|', "\\|"),
+            md_text(&who.join("; ")),
         ));
     }
     out

@@ -28,8 +28,45 @@ pub enum Block {
     Cautions(Vec<String>),
 }
 
+/// Text made literal in CommonMark, wherever it stands (a paragraph, a list item, a
+/// heading, a table cell): the characters that open emphasis, code, links, images, raw
+/// HTML and comments, entities and cells get a backslash (CommonMark 0.31, "Backslash
+/// escapes": any ASCII punctuation may be escaped); line breaks become spaces, so text
+/// never leaves its line or cell; and what would open a block at the start of a line (a
+/// heading, quote, list, thematic break, fence or indented code) is escaped there too.
+/// Control and invisible characters are shown escaped (`\x1b`), as on the terminal.
+///
+/// ```
+/// use pim_report::document::md_text;
+/// assert_eq!(md_text("x\n## Cautions <!--"), "x \\#\\# Cautions \\<\\!--");
+/// assert_eq!(md_text("- [a](b)"), "\\- \\[a\\](b)");
+/// assert_eq!(md_text("SKP-152"), "SKP-152");
+/// ```
+pub fn md_text(text: &str) -> String {
+    let flat: String = text
+        .chars()
+        .map(|c| if matches!(c, '\n' | '\r') { ' ' } else { c })
+        .collect();
+    let shown = pim_io::text::terminal_escape(flat.trim_start(), false);
+    let flat = shown.as_ref();
+    let mut out = String::with_capacity(flat.len() + 8);
+    for (i, c) in flat.char_indices() {
+        let at_start = i == 0;
+        let ordered_list_mark = matches!(c, '.' | ')')
+            && !flat[..i].is_empty()
+            && flat[..i].bytes().all(|b| b.is_ascii_digit());
+        let escape =
+            "\\`*_[]<>|~&!#".contains(c) || (at_start && "+-=>".contains(c)) || ordered_list_mark;
+        if escape {
+            out.push('\\');
+        }
+        out.push(c);
+    }
+    out
+}
+
 fn md_cell(s: &str) -> String {
-    s.replace('|', "\\|").replace('\n', " ")
+    md_text(s)
 }
 
 /// The document as Markdown.
@@ -38,18 +75,22 @@ pub fn markdown(blocks: &[Block]) -> String {
     for b in blocks {
         match b {
             Block::Heading(level, text) => {
-                out.push_str(&format!("{} {text}\n\n", "#".repeat(*level as usize)));
+                out.push_str(&format!(
+                    "{} {}\n\n",
+                    "#".repeat(*level as usize),
+                    md_text(text)
+                ));
             }
-            Block::Para(text) => out.push_str(&format!("{text}\n\n")),
+            Block::Para(text) => out.push_str(&format!("{}\n\n", md_text(text))),
             Block::List(items) => {
                 for i in items {
-                    out.push_str(&format!("- {i}\n"));
+                    out.push_str(&format!("- {}\n", md_text(i)));
                 }
                 out.push('\n');
             }
             Block::Steps(items) => {
                 for (n, i) in items.iter().enumerate() {
-                    out.push_str(&format!("{}. {i}\n", n + 1));
+                    out.push_str(&format!("{}. {}\n", n + 1, md_text(i)));
                 }
                 out.push('\n');
             }
@@ -85,11 +126,13 @@ pub fn markdown(blocks: &[Block]) -> String {
                 }
                 out.push('\n');
             }
-            Block::Picture { file, alt, .. } => out.push_str(&format!("![{alt}]({file})\n\n")),
+            Block::Picture { file, alt, .. } => {
+                out.push_str(&format!("![{}]({file})\n\n", md_text(alt)))
+            }
             Block::Cautions(items) => {
                 out.push_str("> **Cautions**\n>\n");
                 for i in items {
-                    out.push_str(&format!("> - {i}\n"));
+                    out.push_str(&format!("> - {}\n", md_text(i)));
                 }
                 out.push('\n');
             }
@@ -195,6 +238,29 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
 mod tests {
     use super::*;
 
+    /// A note that tries to forge a section or hide the next one stays inside its line.
+    #[test]
+    fn input_text_cannot_open_markdown_blocks() {
+        let doc = vec![
+            Block::List(vec!["note: x\n\n## Cautions\nnone <!--".into()]),
+            Block::Para("```\ncode".into()),
+            Block::Para("    indented".into()),
+            Block::Table {
+                headers: vec!["id".into()],
+                right: vec![false],
+                rows: vec![vec!["a|b\n# c".into()]],
+            },
+        ];
+        let md = markdown(&doc);
+        for line in md.lines() {
+            assert!(!line.starts_with('#') && !line.starts_with("```"), "{md}");
+        }
+        assert!(!md.contains("<!--"), "{md}");
+        assert!(md.contains("| a\\|b \\# c |"), "{md}");
+        assert!(md.contains("\n\\`\\`\\` code\n"), "{md}");
+        assert!(md.contains("\nindented\n"), "{md}");
+    }
+
     #[test]
     fn both_renderings_carry_the_content() {
         let doc = vec![
@@ -207,7 +273,7 @@ mod tests {
             Block::Cautions(vec!["RF exposure".into()]),
         ];
         let md = markdown(&doc);
-        assert!(md.contains("# Ticket <A&B>"));
+        assert!(md.contains("# Ticket \\<A\\&B\\>"));
         assert!(md.contains("| a | b\\|c |"));
         let h = html("t", &doc);
         assert!(h.contains("<h1>Ticket &lt;A&amp;B&gt;</h1>"));
