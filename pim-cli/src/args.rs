@@ -33,14 +33,49 @@ pub struct SearchArgs {
     #[arg(long, value_name = "DEG", value_parser = lon_arg, allow_hyphen_values = true, requires = "rx_lat")]
     pub rx_lon: Option<f64>,
     /// Junction model: third-order level (dBm) from two reference tones.
-    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = finite_arg, allow_hyphen_values = true)]
+    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = im3_arg, allow_hyphen_values = true)]
     pub junction_im3_dbm: f64,
     /// Junction model: drive of each reference tone (dBm; IEC 62037-1 uses +43).
-    #[arg(long, value_name = "DBM", default_value = "0", value_parser = finite_arg, allow_hyphen_values = true)]
+    #[arg(long, value_name = "DBM", default_value = "0", value_parser = reference_tone_arg, allow_hyphen_values = true)]
     pub junction_ref_dbm: f64,
     /// Junction model: further loss per order above the third (dB).
-    #[arg(long, value_name = "DB", default_value = "5", value_parser = finite_arg, allow_hyphen_values = true)]
+    #[arg(long, value_name = "DB", default_value = "5", value_parser = order_step_arg, allow_hyphen_values = true)]
     pub order_step_db: f64,
+}
+
+/// A number within `range`, or a message naming what it is and the range.
+fn bounded(
+    text: &str,
+    what: &str,
+    unit: &str,
+    range: std::ops::RangeInclusive<f64>,
+) -> Result<f64, String> {
+    let v = finite_arg(text)?;
+    if range.contains(&v) {
+        Ok(v)
+    } else {
+        Err(format!(
+            "{what} {text} {unit} is outside {}…{} {unit}",
+            range.start(),
+            range.end()
+        ))
+    }
+}
+
+/// The junction's third-order level: −200 dBm (far below any receiver's noise) to
+/// +30 dBm (a junction louder than a small transmitter is a transmitter).
+fn im3_arg(text: &str) -> Result<f64, String> {
+    bounded(text, "third-order level", "dBm", -200.0..=30.0)
+}
+
+/// The reference tones: −30 dBm to +70 dBm (10 kW; IEC 62037-1 tests at +43 dBm).
+fn reference_tone_arg(text: &str) -> Result<f64, String> {
+    bounded(text, "reference tone", "dBm", -30.0..=70.0)
+}
+
+/// The further loss per order: 0 (no fall) to 40 dB per order.
+fn order_step_arg(text: &str) -> Result<f64, String> {
+    bounded(text, "order step", "dB", 0.0..=40.0)
 }
 
 /// How a listing of candidates is written.

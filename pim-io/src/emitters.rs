@@ -25,6 +25,8 @@ pub const RECEIVER_COLUMNS: &[&str] = &["id", "freq_mhz", "bw_khz", "lat", "lon"
 
 /// The highest ERP accepted: 100 dBm (10 MW), above any broadcaster.
 pub const MAX_ERP_DBM: f64 = 100.0;
+/// The lowest ERP read (1 nW): less is no emitter but a typing error.
+pub const MIN_ERP_DBM: f64 = -60.0;
 
 /// Emitters read from a file, with what the reader noticed on the way.
 #[derive(Clone, Debug, Default)]
@@ -328,6 +330,12 @@ fn emitter_from_fields(record: &dyn Fields) -> Result<Emitter> {
                 ));
             }
             let dbm = watts_to_dbm(w);
+            if dbm < MIN_ERP_DBM {
+                return Err(Error::input(
+                    place("erp_w"),
+                    format!("power {t} W is below 1 nW: no emitter to rank"),
+                ));
+            }
             if dbm > MAX_ERP_DBM {
                 return Err(Error::input(
                     place("erp_w"),
@@ -341,6 +349,12 @@ fn emitter_from_fields(record: &dyn Fields) -> Result<Emitter> {
     let erp_dbm = match get("erp_dbm") {
         Some(t) => {
             let dbm = parse_finite(|| place("erp_dbm"), t)?;
+            if dbm < MIN_ERP_DBM {
+                return Err(Error::input(
+                    place("erp_dbm"),
+                    format!("power {t} dBm is below {MIN_ERP_DBM} dBm (1 nW): no emitter to rank"),
+                ));
+            }
             if dbm > MAX_ERP_DBM {
                 return Err(Error::input(
                     place("erp_dbm"),

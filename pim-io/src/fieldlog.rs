@@ -30,6 +30,12 @@ pub const LOG_COLUMNS: &[&str] = &[
     "note",
 ];
 
+/// The finest bearing σ accepted (degrees): a hand-held directional antenna does not
+/// resolve a bearing to better than about a degree (common practice); 0.1° leaves room
+/// for a fixed array and refuses a σ that is a typing error and would make a region of
+/// centimetres.
+pub const MIN_SIGMA_DEG: f64 = 0.1;
+
 /// The header `pim log` writes.
 pub const LOG_HEADER: &str = "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,note";
 
@@ -110,6 +116,12 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
                 return Err(Error::input(
                     place("sigma_deg"),
                     format!("σ {t}° must be above zero"),
+                ));
+            }
+            if s < MIN_SIGMA_DEG {
+                return Err(Error::input(
+                    place("sigma_deg"),
+                    format!("σ {t}° is below {MIN_SIGMA_DEG}°, finer than any bearing taken by hand; give the spread of the antenna's bearings"),
                 ));
             }
             if s > 90.0 {

@@ -367,3 +367,36 @@ fn hostile_text_is_harmless_everywhere() {
     let csv = std::fs::read_to_string(out.join("candidates.csv")).unwrap();
     assert!(!csv.contains(",=") && !csv.contains(",@"), "{csv}");
 }
+
+/// The junction model's options are bounded to what a junction can do.
+#[test]
+fn junction_model_options_are_bounded() {
+    for (option, value, want) in [
+        (
+            "--junction-im3-dbm",
+            "500",
+            "third-order level 500 dBm is outside -200…30 dBm",
+        ),
+        (
+            "--junction-ref-dbm",
+            "1e300",
+            "reference tone 1e300 dBm is outside -30…70 dBm",
+        ),
+        (
+            "--order-step-db",
+            "-5",
+            "order step -5 dB is outside 0…40 dB",
+        ),
+    ] {
+        let o = pim(&[
+            "explain",
+            "146.34",
+            "--emitters",
+            field_log("emitters.csv").to_str().unwrap(),
+            option,
+            value,
+        ]);
+        assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+        assert!(stderr_of(&o).contains(want), "{}", stderr_of(&o));
+    }
+}
