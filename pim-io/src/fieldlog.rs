@@ -40,7 +40,7 @@ pub const MIN_SIGMA_DEG: f64 = 0.1;
 pub const LOG_HEADER: &str = "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,note";
 
 /// Which north a bearing is measured from.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum North {
     True,
@@ -301,7 +301,23 @@ pub fn prepare(
         ));
     }
     let mut undated = Vec::new();
+    // A reading logged again (same place, time, bearing and north) is not new evidence:
+    // counted once, or a walk logged twice over would claim half its real uncertainty.
+    let mut first_of: std::collections::HashMap<_, u64> = std::collections::HashMap::new();
+    let mut repeats = Vec::new();
     for row in &log.rows {
+        let key = (
+            row.position
+                .map(|p| (p.lat_deg.to_bits(), p.lon_deg.to_bits())),
+            row.time.map(|t| t.unix_timestamp_nanos()),
+            row.bearing_deg.to_bits(),
+            row.north,
+        );
+        if let Some(first) = first_of.get(&key) {
+            repeats.push(format!("{} (= {first})", row.line));
+            continue;
+        }
+        first_of.insert(key, row.line);
         let place = |f: &str| Place::new(&log.source).at_line(row.line).at_field(f);
         let position = match (row.position, track) {
             (Some(p), _) => p,
@@ -362,6 +378,15 @@ pub fn prepare(
             bearing_deg: normalize_bearing_deg(bearing),
             sigma_deg: row.sigma_deg,
         });
+    }
+    if !repeats.is_empty() {
+        out.notes.push(format!(
+            "{}: line{} {} repeat{} an earlier reading (same place, time and bearing), counted once: a reading logged again is not new evidence",
+            log.source,
+            if repeats.len() == 1 { "" } else { "s" },
+            repeats.join(", "),
+            if repeats.len() == 1 { "s" } else { "" },
+        ));
     }
     if !undated.is_empty() {
         out.notes.push(format!(
@@ -457,6 +482,23 @@ mod tests {
         assert_eq!(log.rows.len(), 2);
         assert_eq!(log.torn_line, None);
         assert_eq!(log.rows[1].line, 4);
+    }
+
+    /// A walk logged three times over is the walk once: the same readings, the same fix.
+    #[test]
+    fn repeated_readings_count_once() {
+        let rows = "45.1025,-122.4132,347.1\n45.1033,-122.4107,296.6\n45.1018,-122.4095,318.0\n";
+        let once = read(&format!("lat,lon,bearing_deg\n{rows}")).unwrap();
+        let thrice = read(&format!("lat,lon,bearing_deg\n{rows}{rows}{rows}")).unwrap();
+        let today = time::macros::date!(2026 - 12 - 01);
+        let a = prepare(&once, None, None, today).unwrap();
+        let b = prepare(&thrice, None, None, today).unwrap();
+        assert_eq!(a.readings, b.readings);
+        assert!(
+            b.notes[0].contains("lines 5 (= 2), 6 (= 3)"),
+            "{:?}",
+            b.notes
+        );
     }
 
     #[test]

@@ -400,3 +400,77 @@ fn junction_model_options_are_bounded() {
         assert!(stderr_of(&o).contains(want), "{}", stderr_of(&o));
     }
 }
+
+/// A walk across longitude ±180° fixes like the same walk anywhere else: the junction
+/// and the ellipse come out the same (geodesics by geographiclib-rs, Karney 2013).
+#[test]
+fn a_walk_across_the_antimeridian_fixes_like_any_other() {
+    use pim_core::fix::{locate, FixOptions, Reading};
+    use pim_core::geo::{destination, distance_and_azimuth, distance_m, GeoPoint};
+    let walk = |junction: GeoPoint| -> Vec<Reading> {
+        [
+            (250.0, 600.0),
+            (200.0, 500.0),
+            (130.0, 700.0),
+            (60.0, 450.0),
+            (300.0, 550.0),
+        ]
+        .iter()
+        .enumerate()
+        .map(|(i, &(az, range))| {
+            let observer = destination(junction, az, range);
+            let (_, back) = distance_and_azimuth(observer, junction);
+            // a fixed pattern of errors of a few degrees
+            let err = [1.5, -2.0, 0.7, -1.1, 2.2][i];
+            Reading {
+                line: i as u64 + 2,
+                observer,
+                bearing_deg: (back + err).rem_euclid(360.0),
+                sigma_deg: Some(3.0),
+            }
+        })
+        .collect()
+    };
+    let across = GeoPoint::new(-16.5, 179.999);
+    let elsewhere = GeoPoint::new(-16.5, 12.0);
+    let a = walk(across);
+    assert!(a.iter().any(|r| r.observer.lon_deg < 0.0));
+    let options = FixOptions::default();
+    let fa = locate(&a, &options).unwrap_or_else(|e| panic!("{e:?}"));
+    let fb = locate(&walk(elsewhere), &options).unwrap_or_else(|e| panic!("{e:?}"));
+    let da = distance_and_azimuth(across, fa.position);
+    let db = distance_and_azimuth(elsewhere, fb.position);
+    assert!((da.0 - db.0).abs() < 0.5, "{da:?} {db:?}");
+    assert!((fa.ellipse.semi_major_m - fb.ellipse.semi_major_m).abs() < 0.5);
+    assert!(distance_m(across, fa.position) < 100.0);
+}
+
+/// A walk logged three times over gives the fix and ellipse of the walk logged once,
+/// with a note saying so.
+#[test]
+fn repeated_readings_are_not_new_evidence() {
+    let tmp = crate::support::scratch();
+    let file = tmp.path().join("walk.csv");
+    let text = std::fs::read_to_string(field_log("walk.csv")).unwrap();
+    let (header, rows) = text.split_once('\n').unwrap();
+    std::fs::write(&file, format!("{header}\n{rows}{rows}{rows}")).unwrap();
+    let once = pim(&[
+        "fix",
+        "--log",
+        field_log("walk.csv").to_str().unwrap(),
+        "--format",
+        "json",
+    ]);
+    let thrice = pim(&["fix", "--log", file.to_str().unwrap(), "--format", "json"]);
+    assert!(thrice.status.success(), "{}", stderr_of(&thrice));
+    assert!(
+        stderr_of(&thrice).contains("counted once"),
+        "{}",
+        stderr_of(&thrice)
+    );
+    let ellipse = |o: &std::process::Output| {
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        v["ellipse"]["semi_major_m"].as_f64().unwrap()
+    };
+    assert!((ellipse(&once) - ellipse(&thrice)).abs() < 1e-6);
+}
