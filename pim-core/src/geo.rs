@@ -89,7 +89,7 @@ pub fn centre_of(points: &[GeoPoint]) -> Option<GeoPoint> {
         z += lat.sin();
     }
     let r = (x * x + y * y + z * z).sqrt();
-    if points.is_empty() || !(r > 1e-12) {
+    if points.is_empty() || r.is_nan() || r <= 1e-12 {
         return None;
     }
     Some(GeoPoint::new(
