@@ -185,6 +185,63 @@ pub fn xml_chars_only(doc: String) -> String {
     out
 }
 
+/// A writer that shows every character of [`is_hidden_or_control`] escaped (line feeds
+/// and tabs kept), for output bound for a terminal; text split mid-character between
+/// writes is held until it is whole. With `active` false it passes bytes through (a file
+/// or a pipe gets the data as it is).
+pub struct TerminalSafe<W: std::io::Write> {
+    inner: W,
+    active: bool,
+    pending: Vec<u8>,
+}
+
+impl<W: std::io::Write> TerminalSafe<W> {
+    pub fn new(inner: W, active: bool) -> Self {
+        TerminalSafe {
+            inner,
+            active,
+            pending: Vec::new(),
+        }
+    }
+
+    fn emit(&mut self, upto: usize) -> std::io::Result<()> {
+        let text = String::from_utf8_lossy(&self.pending[..upto]).into_owned();
+        self.pending.drain(..upto);
+        for (i, part) in text.split('\t').enumerate() {
+            if i > 0 {
+                self.inner.write_all(b"\t")?;
+            }
+            self.inner
+                .write_all(terminal_escape(part, true).as_bytes())?;
+        }
+        Ok(())
+    }
+}
+
+impl<W: std::io::Write> std::io::Write for TerminalSafe<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        if !self.active {
+            return self.inner.write(buf);
+        }
+        self.pending.extend_from_slice(buf);
+        let upto = match std::str::from_utf8(&self.pending) {
+            Ok(_) => self.pending.len(),
+            // an incomplete character at the end waits for the next write
+            Err(e) if e.error_len().is_none() => e.valid_up_to(),
+            Err(_) => self.pending.len(),
+        };
+        self.emit(upto)?;
+        Ok(buf.len())
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        if !self.pending.is_empty() {
+            self.emit(self.pending.len())?;
+        }
+        self.inner.flush()
+    }
+}
+
 /// Line ends in `text`: `\n`, `\r\n` and a lone `\r` each count once.
 pub fn count_line_ends(text: &[u8]) -> u64 {
     let mut n = 0;
@@ -260,6 +317,21 @@ mod tests {
         assert!(parse_time("2025-02-30T09:30Z")
             .unwrap_err()
             .contains("out of range"));
+    }
+
+    #[test]
+    fn terminal_output_is_escaped_across_writes() {
+        use std::io::Write;
+        let mut out = TerminalSafe::new(Vec::new(), true);
+        let text = "a\u{1b}]52;c;x\u{7}\tb\u{202e}c\n".as_bytes();
+        for chunk in text.chunks(3) {
+            out.write_all(chunk).unwrap();
+        }
+        out.flush().unwrap();
+        assert_eq!(
+            String::from_utf8(out.inner).unwrap(),
+            "a\\x1b]52;c;x\\x07\tb\\u{202e}c\n"
+        );
     }
 
     #[test]
