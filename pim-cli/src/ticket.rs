@@ -81,9 +81,12 @@ pub fn write_ticket(
     extra: &[(&str, Vec<u8>)],
 ) -> Result<Written, Error> {
     let made = ticket_files(t)?;
+    let ticket_count = made.files.len();
     let mut files: Vec<(&str, Vec<u8>)> = made.files;
     files.extend(extra.iter().cloned());
-    let paths = write_files_atomically(dir, &files, inputs, existing)?;
+    let mut paths = write_files_atomically(dir, &files, inputs, existing)?;
+    // the summary lists the ticket's own files, not a marker beside them
+    paths.truncate(ticket_count);
     Ok(Written {
         paths,
         top_formula: made.top_formula,
