@@ -19,7 +19,7 @@ use crate::common::load_emitters;
 use crate::common::{finish, finite_arg, open, stdout, CliResult, ListFormat};
 use pim_report::candidates::{r2, table_text, write_json_array, Listing};
 use pim_report::csv_out::write_row;
-use pim_report::document::md_text;
+use pim_report::document::md_inline;
 use pim_report::trace::{trace_svg, MarkKind, PeakMark, TraceInput};
 
 #[derive(clap::Args, Debug)]
@@ -465,7 +465,7 @@ fn markdown(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
             p.peak.level_dbm,
             p.peak.above_floor_db,
             p.kind.name(),
-            md_text(&peak_summary(p, emitters)),
+            md_inline(&peak_summary(p, emitters)),
             if p.kind == PeakKind::Product {
                 p.found.to_string()
             } else {
@@ -478,9 +478,9 @@ fn markdown(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
         out.push_str(&format!(
             "| {} | {} | {} | {} |\n",
             k + 1,
-            md_text(&suspect_ids(x, emitters).join(" + ")),
+            md_inline(&suspect_ids(x, emitters).join(" + ")),
             x.explains.len(),
-            md_text(&suspect_explains(x, sweep, emitters).join("; "))
+            md_inline(&suspect_explains(x, sweep, emitters).join("; "))
         ));
     }
     out

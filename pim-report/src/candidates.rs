@@ -11,7 +11,7 @@ use pim_core::rank::{display_terms, formula, Candidate, LevelTerms, Ranking};
 use serde::Serialize;
 
 use crate::csv_out::write_row;
-use crate::document::md_text;
+use crate::document::md_inline;
 use crate::text_table::{Align, TextTable};
 type CliResult = std::io::Result<()>;
 
@@ -347,13 +347,13 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
         out.push_str(&format!(
             "| {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
             c.rank,
-            md_text(&formula(&c.product, l.emitters)),
+            md_inline(&formula(&c.product, l.emitters)),
             c.product.order(),
             c.product.freq.mhz(),
             signed(c.product.offset(l.params.target).khz(), 1),
             c.product.bandwidth(&carriers).khz(),
             level_text(c.level_dbm),
-            md_text(&who.join("; ")),
+            md_inline(&who.join("; ")),
         ));
     }
     out

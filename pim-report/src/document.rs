@@ -28,36 +28,52 @@ pub enum Block {
     Cautions(Vec<String>),
 }
 
-/// Text made literal in CommonMark, wherever it stands (a paragraph, a list item, a
-/// heading, a table cell): the characters that open emphasis, code, links, images, raw
-/// HTML and comments, entities and cells get a backslash (CommonMark 0.31, "Backslash
-/// escapes": any ASCII punctuation may be escaped); line breaks become spaces, so text
-/// never leaves its line or cell; and what would open a block at the start of a line (a
-/// heading, quote, list, thematic break, fence or indented code) is escaped there too.
-/// Control and invisible characters are shown escaped (`\x1b`), as on the terminal.
+/// Text made literal in CommonMark where it starts a line (a paragraph, a list item):
+/// [`md_inline`], and what would open a block at the start of a line (a heading, quote,
+/// list, thematic break or setext underline; leading spaces, which would make indented
+/// code, are dropped) gets a backslash there too (CommonMark 0.31, "Backslash escapes":
+/// any ASCII punctuation may be escaped).
 ///
 /// ```
 /// use pim_report::document::md_text;
-/// assert_eq!(md_text("x\n## Cautions <!--"), "x \\#\\# Cautions \\<\\!--");
+/// assert_eq!(md_text("x\n## Cautions <!--"), "x ## Cautions \\<!--");
+/// assert_eq!(md_text("## Cautions"), "\\## Cautions");
 /// assert_eq!(md_text("- [a](b)"), "\\- \\[a\\](b)");
-/// assert_eq!(md_text("SKP-152"), "SKP-152");
+/// assert_eq!(md_text("1. SKP-152"), "1\\. SKP-152");
 /// ```
 pub fn md_text(text: &str) -> String {
+    let inline = md_inline(text);
+    let body = inline.trim_start();
+    let digits = body.bytes().take_while(u8::is_ascii_digit).count();
+    if body.starts_with(['#', '+', '-', '=', '>']) {
+        format!("\\{body}")
+    } else if digits > 0 && body[digits..].starts_with(['.', ')']) {
+        format!("{}\\{}", &body[..digits], &body[digits..])
+    } else {
+        body.to_string()
+    }
+}
+
+/// Text made literal inside a line of CommonMark (a table cell, a heading, the middle of
+/// a paragraph): the characters that open emphasis, code spans, links and images, raw
+/// HTML and comments, entities and cells get a backslash; line breaks become spaces, so
+/// text never leaves its line or cell; control and invisible characters are shown
+/// escaped (`\x1b`), as on the terminal.
+///
+/// ```
+/// use pim_report::document::md_inline;
+/// assert_eq!(md_inline("a|b <b>*x*</b>\n`c`"), "a\\|b \\<b\\>\\*x\\*\\</b\\> \\`c\\`");
+/// assert_eq!(md_inline("146.3400"), "146.3400");
+/// ```
+pub fn md_inline(text: &str) -> String {
     let flat: String = text
         .chars()
         .map(|c| if matches!(c, '\n' | '\r') { ' ' } else { c })
         .collect();
-    let shown = pim_io::text::terminal_escape(flat.trim_start(), false);
-    let flat = shown.as_ref();
-    let mut out = String::with_capacity(flat.len() + 8);
-    for (i, c) in flat.char_indices() {
-        let at_start = i == 0;
-        let ordered_list_mark = matches!(c, '.' | ')')
-            && !flat[..i].is_empty()
-            && flat[..i].bytes().all(|b| b.is_ascii_digit());
-        let escape =
-            "\\`*_[]<>|~&!#".contains(c) || (at_start && "+-=>".contains(c)) || ordered_list_mark;
-        if escape {
+    let shown = pim_io::text::terminal_escape(&flat, false);
+    let mut out = String::with_capacity(shown.len() + 8);
+    for c in shown.chars() {
+        if "\\`*_[]<>|~&".contains(c) {
             out.push('\\');
         }
         out.push(c);
@@ -66,7 +82,7 @@ pub fn md_text(text: &str) -> String {
 }
 
 fn md_cell(s: &str) -> String {
-    md_text(s)
+    md_inline(s)
 }
 
 /// The document as Markdown.
@@ -78,7 +94,7 @@ pub fn markdown(blocks: &[Block]) -> String {
                 out.push_str(&format!(
                     "{} {}\n\n",
                     "#".repeat(*level as usize),
-                    md_text(text)
+                    md_inline(text)
                 ));
             }
             Block::Para(text) => out.push_str(&format!("{}\n\n", md_text(text))),
@@ -255,8 +271,8 @@ mod tests {
         for line in md.lines() {
             assert!(!line.starts_with('#') && !line.starts_with("```"), "{md}");
         }
-        assert!(!md.contains("<!--"), "{md}");
-        assert!(md.contains("| a\\|b \\# c |"), "{md}");
+        assert!(!md.contains(" <!--") && md.contains("\\<!--"), "{md}");
+        assert!(md.contains("| a\\|b # c |"), "{md}");
         assert!(md.contains("\n\\`\\`\\` code\n"), "{md}");
         assert!(md.contains("\nindented\n"), "{md}");
     }
@@ -273,7 +289,7 @@ mod tests {
             Block::Cautions(vec!["RF exposure".into()]),
         ];
         let md = markdown(&doc);
-        assert!(md.contains("# Ticket \\<A\\&B\\>"));
+        assert!(md.contains("# Ticket \\<A\\&B\\>"), "{md}");
         assert!(md.contains("| a | b\\|c |"));
         let h = html("t", &doc);
         assert!(h.contains("<h1>Ticket &lt;A&amp;B&gt;</h1>"));
