@@ -9,7 +9,9 @@ fuzz_target!(|data: &[u8]| {
         if let Ok(log) = read_field_log("fuzz.csv", data, from_track) {
             for r in &log.rows {
                 assert!((0.0..=360.0).contains(&r.bearing_deg));
-                assert!(r.sigma_deg.is_none_or(|s| s >= pim_io::fieldlog::MIN_SIGMA_DEG));
+                assert!(r
+                    .sigma_deg
+                    .is_none_or(|s| s >= pim_io::fieldlog::MIN_SIGMA_DEG));
             }
             // a torn tail is never read as a row
             if let Some(torn) = log.torn_line {

@@ -5,8 +5,8 @@
 
 use libfuzzer_sys::fuzz_target;
 use pim_io::text::{
-    count_line_ends, id_problem, is_hidden_or_control, terminal_escape, torn_tail,
-    xml_chars_only, xml_escape,
+    count_line_ends, id_problem, is_hidden_or_control, terminal_escape, torn_tail, xml_chars_only,
+    xml_escape,
 };
 
 fuzz_target!(|data: &[u8]| {
@@ -23,7 +23,9 @@ fuzz_target!(|data: &[u8]| {
     let shown = terminal_escape(text, true);
     assert!(!shown.chars().any(|c| is_hidden_or_control(c) && c != '\n'));
     let allowed = |c: char| {
-        !((c as u32) < 0x20 && !matches!(c, '\t' | '\n' | '\r')) && c != '\u{fffe}' && c != '\u{ffff}'
+        !((c as u32) < 0x20 && !matches!(c, '\t' | '\n' | '\r'))
+            && c != '\u{fffe}'
+            && c != '\u{ffff}'
     };
     assert!(xml_chars_only(text.to_string()).chars().all(allowed));
     let escaped = xml_escape(text);
