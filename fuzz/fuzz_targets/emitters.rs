@@ -13,6 +13,8 @@ fuzz_target!(|data: &[u8]| {
             assert!(e.freq.0 > 0 && e.freq <= MAX_FREQUENCY);
             assert!(e.bandwidth.0 >= 0);
             assert!(e.position.is_none_or(|p| p.is_valid()));
+            // no id passes with a hidden character or a space at either end
+            assert!(pim_io::text::id_problem(&e.id).is_none(), "{:?}", e.id);
         }
     }
 });

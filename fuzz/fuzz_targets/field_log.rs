@@ -9,7 +9,13 @@ fuzz_target!(|data: &[u8]| {
         if let Ok(log) = read_field_log("fuzz.csv", data, from_track) {
             for r in &log.rows {
                 assert!((0.0..=360.0).contains(&r.bearing_deg));
-                assert!(r.sigma_deg.is_none_or(|s| s > 0.0));
+                assert!(r
+                    .sigma_deg
+                    .is_none_or(|s| s >= pim_io::fieldlog::MIN_SIGMA_DEG));
+            }
+            // a torn tail is never read as a row
+            if let Some(torn) = log.torn_line {
+                assert!(log.rows.iter().all(|r| r.line < torn));
             }
             let today = time::Date::from_calendar_date(2026, time::Month::December, 1).unwrap();
             if let Ok(p) = prepare(&log, None, None, today) {

@@ -2,8 +2,8 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use pim_io::readings::read_readings;
 use pim_core::slope::StepKind;
+use pim_io::readings::read_readings;
 
 fuzz_target!(|data: &[u8]| {
     for kind in [StepKind::Attenuator, StepKind::Power] {

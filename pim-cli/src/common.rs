@@ -9,7 +9,7 @@ use pim_core::emitter::Emitter;
 use pim_core::freq::{parse_frequency_with_unit, parse_khz, Hz};
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::{Error, Site};
-use pim_io::text::{parse_coordinate, Axis};
+use pim_io::text::{parse_coordinate, Axis, TerminalSafe};
 use pim_io::{read_emitters, read_heard, read_on_air, Clock};
 
 /// An error on its way to the user, or a closed pipe (not an error: the reader left).
@@ -42,9 +42,14 @@ pub fn open(path: &Path) -> Result<File, Error> {
     File::open(path).map_err(|e| Error::io(path.display().to_string(), &e))
 }
 
-/// Standard output, buffered.
-pub fn stdout() -> BufWriter<io::StdoutLock<'static>> {
-    BufWriter::new(io::stdout().lock())
+/// Standard output, buffered; on a terminal, control and invisible characters from
+/// files are shown escaped (`pim_io::text::TerminalSafe`), so no input can retitle the
+/// terminal or write its clipboard.
+pub fn stdout() -> BufWriter<TerminalSafe<io::StdoutLock<'static>>> {
+    use std::io::IsTerminal;
+    let out = io::stdout();
+    let terminal = out.is_terminal();
+    BufWriter::new(TerminalSafe::new(out.lock(), terminal))
 }
 
 /// Flushes the output; a closed pipe ends quietly.
@@ -195,7 +200,7 @@ pub fn note_unused(source: &str, columns: &[String]) {
     }
     let names: Vec<String> = columns.iter().map(|c| format!("`{c}`")).collect();
     let plural = if columns.len() == 1 { "" } else { "s" };
-    eprintln!(
+    eprintln_safe!(
         "pim: note: {source}: column{plural} {} not used",
         names.join(", ")
     );

@@ -11,6 +11,7 @@ use pim_core::level::LevelModel;
 use pim_core::Site;
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_field_log;
+use pim_io::output::Existing;
 use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
@@ -42,6 +43,21 @@ pub struct Args {
     /// Directory to write the demo ticket into.
     #[arg(long, value_name = "DIR", default_value = "pim-demo")]
     pub out: PathBuf,
+    /// Replace files in DIR that an earlier demo did not write (a folder the demo wrote
+    /// itself, marked by its `.pim-demo` file, is replaced without it).
+    #[arg(long)]
+    pub force: bool,
+}
+
+/// The marker the demo leaves in its folder, so that running it again replaces its own
+/// files while a user's ticket in the same place needs `--force`.
+pub const MARKER: &str = ".pim-demo";
+const MARKER_TEXT: &str =
+    "Written by `pim demo`: running it again replaces the demo files in this folder.\n";
+
+/// Whether `dir` holds the demo's marker as a plain file (a link does not count).
+fn written_by_the_demo(dir: &Path) -> bool {
+    std::fs::symlink_metadata(dir.join(MARKER)).is_ok_and(|m| m.file_type().is_file())
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -115,7 +131,13 @@ pub fn run(args: Args) -> CliResult {
             sources: "trace.csv".into(),
         });
     }
-    let written = write_ticket(&inputs, &args.out)?;
+    let existing = if args.force || written_by_the_demo(&args.out) {
+        Existing::Replace
+    } else {
+        Existing::Refuse
+    };
+    let marker = [(MARKER, MARKER_TEXT.as_bytes().to_vec())];
+    let written = write_ticket(&inputs, &args.out, &[], existing, &marker)?;
     print_summary(&mut out, &inputs, &written)?;
     finish(out)
 }

@@ -60,19 +60,32 @@ pub struct FixArgs {
     pub ambiguous: bool,
 }
 
+/// The confidence levels a region is drawn for: below one half a region says less than
+/// a coin toss; above 0.9999 the χ² and F quantiles rest on the far tail of a model no
+/// bearing walk follows that closely.
+pub const CONFIDENCE_RANGE: std::ops::RangeInclusive<f64> = 0.5..=0.9999;
+
 fn confidence_arg(text: &str) -> Result<f64, String> {
     let v = finite_arg(text)?;
-    if v > 0.0 && v < 1.0 {
+    if CONFIDENCE_RANGE.contains(&v) {
         Ok(v)
     } else {
         Err(format!(
-            "{text} is not a probability strictly between 0 and 1"
+            "confidence {text} is outside {}–{} (0.95 is usual)",
+            CONFIDENCE_RANGE.start(),
+            CONFIDENCE_RANGE.end()
         ))
     }
 }
 
 fn sigma_arg(text: &str) -> Result<f64, String> {
     let v = finite_arg(text)?;
+    if v > 0.0 && v < pim_io::fieldlog::MIN_SIGMA_DEG {
+        return Err(format!(
+            "σ {text}° is below {}°, finer than any bearing taken by hand; give the spread of the antenna's bearings",
+            pim_io::fieldlog::MIN_SIGMA_DEG
+        ));
+    }
     if v > 0.0 && v <= 90.0 {
         Ok(v)
     } else {
@@ -154,7 +167,7 @@ pub fn fix_from_log(
     let today = time::OffsetDateTime::now_utc().date();
     let prepared = prepare(&log, track.as_ref(), args.declination_deg, today)?;
     for note in &prepared.notes {
-        eprintln!("pim: note: {note}");
+        eprintln_safe!("pim: note: {note}");
     }
     let fix = locate(&prepared.readings, &args.options()).map_err(refusal_error)?;
     Ok((fix, prepared))

@@ -131,10 +131,36 @@ pub(crate) fn save_reading(
         origin: COLUMNS.iter().map(|&c| (c, origin(c))).collect(),
     };
     // The reading is checked exactly as the log reader will check it, before any write.
-    log_row(&entry, 0).map_err(as_argument)?;
+    let row = log_row(&entry, 0).map_err(as_argument)?;
+    // A magnetic bearing the World Magnetic Model cannot turn true would block every
+    // later fix of the log: refused before it is written.
+    if row.north == pim_io::fieldlog::North::Magnetic {
+        let date = row.time.unwrap_or(now).date();
+        let at = row
+            .position
+            .unwrap_or(pim_core::geo::GeoPoint::new(0.0, 0.0));
+        if let Err(why) = pim_core::declination::declination_deg(at, date) {
+            return Err(Error::argument(
+                &origin("time"),
+                format!(
+                    "the World Magnetic Model cannot turn a magnetic bearing of this date true ({why}), so the log could not be fixed; apply the declination yourself and log the bearing as true north"
+                ),
+            )
+            .into());
+        }
+    }
     let source = file.display().to_string();
-    Ok(append_row(file, LOG_HEADER, &|header| {
-        entry.row_for_header(header, &source)
+    // What the log may leave out when it has no column for it: a time the clock gave,
+    // and true north (the reader's default).
+    let mut droppable = Vec::new();
+    if reading.time.is_none() {
+        droppable.push("time");
+    }
+    if reading.north == NorthArg::True {
+        droppable.push("north");
+    }
+    Ok(append_row(file, LOG_HEADER, &|header, _delimiter| {
+        entry.cells_for_header(header, &source, &droppable)
     })?)
 }
 

@@ -10,6 +10,16 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+/// `eprintln!` for every note and warning: text from files in the message is shown with
+/// its control and invisible characters escaped (`pim_io::text::terminal_escape`), so no
+/// input can drive the terminal.
+macro_rules! eprintln_safe {
+    ($($arg:tt)*) => {{
+        let text = format!($($arg)*);
+        eprintln!("{}", pim_io::text::terminal_escape(&text, true));
+    }};
+}
+
 mod args;
 mod common;
 mod demo;
@@ -103,7 +113,13 @@ fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(err) => {
             if let CliError::Core(e) = &err {
-                let _ = writeln!(std::io::stderr(), "pim: {e}");
+                // text from files never reaches the terminal raw
+                let shown = e.to_string();
+                let _ = writeln!(
+                    std::io::stderr(),
+                    "pim: {}",
+                    pim_io::text::terminal_escape(&shown, true)
+                );
             }
             ExitCode::from(exit_code(&err))
         }

@@ -9,6 +9,7 @@ use std::path::{Path, PathBuf};
 use pim_core::trace::analyse;
 use pim_core::{Error, Site};
 use pim_io::emitters::read_structures;
+use pim_io::output::{write_files_atomically, Existing};
 use pim_report::ticket::{ticket_files, BandTrace, TicketInputs};
 
 use crate::args::{CalibrationArgs, HeardArgs, SearchArgs};
@@ -30,6 +31,9 @@ pub struct Args {
     /// Directory to write the ticket into (created when missing).
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
+    /// Replace a ticket already in DIR (without it, an existing ticket is never touched).
+    #[arg(long)]
+    pub force: bool,
     /// The site's name, for the title.
     #[arg(long, value_name = "NAME", default_value = "the site")]
     pub site: String,
@@ -77,43 +81,28 @@ pub struct Written {
     pub total: usize,
 }
 
-/// Makes the ticket's files and writes them into `dir`.
-pub fn write_ticket(t: &TicketInputs, dir: &Path) -> Result<Written, Error> {
+/// Makes the ticket's files and writes them into `dir`, all or nothing (pim_io::output):
+/// never over one of `inputs`, and over an existing ticket only as `existing` allows.
+/// `extra` files (a marker) are written with the ticket.
+pub fn write_ticket(
+    t: &TicketInputs,
+    dir: &Path,
+    inputs: &[&Path],
+    existing: Existing,
+    extra: &[(&str, Vec<u8>)],
+) -> Result<Written, Error> {
     let made = ticket_files(t)?;
-    let paths = write_all(dir, &made.files)?;
+    let ticket_count = made.files.len();
+    let mut files: Vec<(&str, Vec<u8>)> = made.files;
+    files.extend(extra.iter().cloned());
+    let mut paths = write_files_atomically(dir, &files, inputs, existing)?;
+    // the summary lists the ticket's own files, not a marker beside them
+    paths.truncate(ticket_count);
     Ok(Written {
         paths,
         top_formula: made.top_formula,
         total: made.total,
     })
-}
-
-/// Writes every file to a temporary name first, then renames them all into place, so
-/// that a failure leaves no half-written file under a ticket's name.
-fn write_all(dir: &Path, files: &[(&str, Vec<u8>)]) -> Result<Vec<PathBuf>, Error> {
-    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir.display().to_string(), &e))?;
-    let mut staged = Vec::new();
-    for (name, bytes) in files {
-        let tmp = dir.join(format!(".{name}.{}.part", std::process::id()));
-        let result = std::fs::File::create(&tmp).and_then(|mut f| {
-            f.write_all(bytes)?;
-            f.sync_all()
-        });
-        if let Err(e) = result {
-            for (t, _) in &staged {
-                let _ = std::fs::remove_file(t);
-            }
-            let _ = std::fs::remove_file(&tmp);
-            return Err(Error::io(tmp.display().to_string(), &e));
-        }
-        staged.push((tmp, dir.join(name)));
-    }
-    let mut done = Vec::new();
-    for (tmp, path) in staged {
-        std::fs::rename(&tmp, &path).map_err(|e| Error::io(path.display().to_string(), &e))?;
-        done.push(path);
-    }
-    Ok(done)
 }
 
 /// The summary printed after writing.
@@ -188,7 +177,16 @@ pub fn run(args: Args) -> CliResult {
             sources: sources.join(", "),
         });
     }
-    let written = write_ticket(&inputs, &args.out)?;
+    let mut input_paths: Vec<&Path> = vec![args.input.emitters.as_path(), args.log.as_path()];
+    input_paths.extend(args.structures.as_deref());
+    input_paths.extend(args.fix.track.as_deref());
+    input_paths.extend(args.traces.iter().map(PathBuf::as_path));
+    let existing = if args.force {
+        Existing::Replace
+    } else {
+        Existing::Refuse
+    };
+    let written = write_ticket(&inputs, &args.out, &input_paths, existing, &[])?;
     let mut out = stdout();
     print_summary(&mut out, &inputs, &written)?;
     finish(out)

@@ -121,12 +121,12 @@ pub fn run(args: Args) -> CliResult {
         writeln!(out, "http://{shown}:{port}/?token={}", walk.token)?;
         out.flush()?;
     }
-    eprintln!(
+    eprintln_safe!(
         "pim: saving readings to {}. Open the address above on the phone; Ctrl-C stops.",
         args.log.display()
     );
     if args.listen.ip().is_unspecified() {
-        eprintln!(
+        eprintln_safe!(
             "pim: from other devices, use this machine's address on the network instead of 127.0.0.1."
         );
     }
@@ -154,7 +154,7 @@ pub fn run(args: Args) -> CliResult {
     for w in workers {
         let _ = w.join();
     }
-    eprintln!("pim: walk stopped; {} is whole.", args.log.display());
+    eprintln_safe!("pim: walk stopped; {} is whole.", args.log.display());
     Ok(())
 }
 

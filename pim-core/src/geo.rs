@@ -79,6 +79,28 @@ pub fn bearing_difference_deg(a: f64, b: f64) -> f64 {
     }
 }
 
+/// The centre of `points` for a local frame: the normalised mean of their unit vectors
+/// from the Earth's centre (on a sphere), so that points on both sides of longitude ±180°
+/// or around a pole have their centre among them, not half a world away as the mean of
+/// their longitudes would. `None` for no points, or points whose vectors cancel.
+pub fn centre_of(points: &[GeoPoint]) -> Option<GeoPoint> {
+    let (mut x, mut y, mut z) = (0.0, 0.0, 0.0);
+    for p in points {
+        let (lat, lon) = (p.lat_deg.to_radians(), p.lon_deg.to_radians());
+        x += lat.cos() * lon.cos();
+        y += lat.cos() * lon.sin();
+        z += lat.sin();
+    }
+    let r = (x * x + y * y + z * z).sqrt();
+    if points.is_empty() || r.is_nan() || r <= 1e-12 {
+        return None;
+    }
+    Some(GeoPoint::new(
+        (z / r).asin().to_degrees(),
+        y.atan2(x).to_degrees(),
+    ))
+}
+
 /// A local east/north plane in metres centred on `origin` (azimuthal equidistant).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct LocalFrame {
@@ -122,6 +144,16 @@ mod tests {
         let (e, n) = f.to_local(p);
         assert_abs_diff_eq!(e, 350.0, epsilon = 1e-6);
         assert_abs_diff_eq!(n, -1200.0, epsilon = 1e-6);
+    }
+
+    #[test]
+    fn the_centre_of_points_across_the_antimeridian_is_among_them() {
+        let c = centre_of(&[GeoPoint::new(-16.5, 179.99), GeoPoint::new(-16.5, -179.99)]).unwrap();
+        assert_abs_diff_eq!(c.lat_deg, -16.5, epsilon = 1e-6);
+        assert_abs_diff_eq!(c.lon_deg.abs(), 180.0, epsilon = 1e-6);
+        let c = centre_of(&[GeoPoint::new(45.0, -122.0), GeoPoint::new(45.0, -122.002)]).unwrap();
+        assert_abs_diff_eq!(c.lon_deg, -122.001, epsilon = 1e-6);
+        assert!(centre_of(&[]).is_none());
     }
 
     #[test]

@@ -32,53 +32,101 @@ fn io_err(path: &Path, e: &std::io::Error) -> Error {
     Error::io(path.display().to_string(), e)
 }
 
-/// The header line of an existing log (without its line end), or `None` for an empty
-/// file, and whether the file ends with a line end. Reads under the caller's lock.
-fn inspect(file: &mut File, path: &Path) -> Result<(Option<String>, bool, u64)> {
+/// What an existing log looks like: its header line (the first line that is neither
+/// blank nor a `#` comment, without its line end), its dialect (delimiter and line end),
+/// whether the file ends with a line end, and how many lines it has.
+struct Shape {
+    header: Option<String>,
+    delimiter: u8,
+    line_end: &'static str,
+    ends_with_line_end: bool,
+    lines: u64,
+}
+
+/// Reads the whole log under the caller's lock and describes it ([`Shape`]).
+fn inspect(file: &mut File, path: &Path) -> Result<Shape> {
     let len = file.metadata().map_err(|e| io_err(path, &e))?.len();
+    let mut shape = Shape {
+        header: None,
+        delimiter: b',',
+        line_end: "\n",
+        ends_with_line_end: true,
+        lines: 0,
+    };
     if len == 0 {
-        return Ok((None, true, 0));
+        return Ok(shape);
     }
     file.seek(SeekFrom::Start(0))
         .map_err(|e| io_err(path, &e))?;
     let mut text = Vec::with_capacity(len.min(1 << 20) as usize);
     file.read_to_end(&mut text).map_err(|e| io_err(path, &e))?;
-    let ends_with_newline = text.last() == Some(&b'\n');
-    let lines = text.iter().filter(|&&b| b == b'\n').count() as u64;
-    let head_end = text.iter().position(|&b| b == b'\n').unwrap_or(text.len());
-    let head = String::from_utf8_lossy(&text[..head_end])
-        .trim_start_matches('\u{feff}')
-        .trim_end_matches('\r')
-        .to_string();
-    Ok((Some(head), ends_with_newline, lines))
+    let body = text.strip_prefix(b"\xef\xbb\xbf").unwrap_or(&text);
+    shape.ends_with_line_end = matches!(body.last(), Some(b'\n' | b'\r'));
+    shape.lines = crate::text::count_line_ends(body) + u64::from(!shape.ends_with_line_end);
+    // the first line end written decides the dialect's line end
+    if let Some(i) = body.iter().position(|&b| b == b'\n' || b == b'\r') {
+        shape.line_end = match (body[i], body.get(i + 1)) {
+            (b'\r', Some(b'\n')) => "\r\n",
+            (b'\r', _) => "\r",
+            _ => "\n",
+        };
+    }
+    let header = body.split(|&b| b == b'\n' || b == b'\r').find(|line| {
+        let t = line.trim_ascii();
+        !t.is_empty() && !t.starts_with(b"#")
+    });
+    if let Some(h) = header {
+        shape.delimiter = crate::table::sniff_delimiter(h);
+        shape.header = Some(String::from_utf8_lossy(h).to_string());
+    }
+    Ok(shape)
 }
 
-/// Appends `row` (one CSV line without its line end) to the log at `path`, creating it
-/// with `header` when missing or empty. `row_for_header` turns the row into the column
-/// order of an existing file's header (or refuses it); it is called with that header.
+/// Appends one row to the log at `path` in the log's own dialect (its delimiter, quoting
+/// and line end), creating the log with `header` (comma-separated, LF) when it is missing
+/// or empty. `row_for_header` gives the row's cells in the column order of the log's
+/// header (or refuses the row); it is called with that header and its delimiter.
 pub fn append_row(
     path: &Path,
     header: &str,
-    row_for_header: &dyn Fn(&str) -> Result<String>,
+    row_for_header: &dyn Fn(&str, u8) -> Result<Vec<String>>,
 ) -> Result<Appended> {
     let existed = path.exists();
     let mut file = open_locked(path, true)?;
-    let (head, ends_with_newline, lines) = inspect(&mut file, path)?;
+    let shape = inspect(&mut file, path)?;
     let source = path.display().to_string();
-    let (text, created, line) = match head {
+    let record = |cells: &[String], delimiter: u8, line_end: &str| {
+        let row = crate::text::csv_record(cells, delimiter, line_end == "\r\n");
+        if line_end == "\r" {
+            format!("{}\r", row.trim_end_matches('\n'))
+        } else {
+            row
+        }
+    };
+    let (text, created, line) = match &shape.header {
+        None if shape.lines == 0 || !existed => {
+            let cells = row_for_header(header, b',')?;
+            (format!("{header}\n{}", record(&cells, b',', "\n")), true, 2)
+        }
         None => {
-            let row = row_for_header(header)?;
-            (format!("{header}\n{row}\n"), true, 2)
+            return Err(Error::input(
+                Place::new(source),
+                "the log has no header line (only blank or comment lines); add one such as time,lat,lon,bearing_deg",
+            ))
         }
         Some(head) => {
-            if !ends_with_newline {
+            if !shape.ends_with_line_end {
                 return Err(Error::input(
-                    Place::new(source).at_line(lines + 1),
-                    "the last row has no line end: it may be torn by an interrupted write; mend it before adding readings",
+                    Place::new(source).at_line(shape.lines),
+                    "the last row has no line end: it may be torn by an interrupted write; end it with a line end if it is whole, or delete it, before adding readings",
                 ));
             }
-            let row = row_for_header(&head)?;
-            (format!("{row}\n"), false, lines + 1)
+            let cells = row_for_header(head, shape.delimiter)?;
+            (
+                record(&cells, shape.delimiter, shape.line_end),
+                false,
+                shape.lines + 1,
+            )
         }
     };
     let before = file.metadata().map_err(|e| io_err(path, &e))?.len();
@@ -216,8 +264,26 @@ mod tests {
     const HEADER: &str = "time,lat,lon,bearing_deg";
 
     fn append(path: &Path, row: &str) -> Appended {
-        let row = row.to_string();
-        append_row(path, HEADER, &move |_| Ok(row.clone())).unwrap()
+        let cells: Vec<String> = row.split(',').map(str::to_string).collect();
+        append_row(path, HEADER, &move |_, _| Ok(cells.clone())).unwrap()
+    }
+
+    /// A row goes down in the log's own delimiter, quoting and line end, after a comment.
+    #[test]
+    fn appends_in_the_logs_dialect() {
+        let dir = tempfile::tempdir().unwrap();
+        for (text, want) in [
+            ("# walk\r\nlat;lon;note\r\n1;2;x\r\n", "1;2;\"a;b\"\r\n"),
+            ("lat\tlon\tnote\n", "1\t2\ta;b\n"),
+            ("lat,lon,note\r1,2,x\r", "1,2,a;b\r"),
+        ] {
+            let path = dir.path().join("walk.csv");
+            std::fs::write(&path, text).unwrap();
+            let cells = vec!["1".to_string(), "2".to_string(), "a;b".to_string()];
+            append_row(&path, HEADER, &move |_, _| Ok(cells.clone())).unwrap();
+            let got = std::fs::read_to_string(&path).unwrap();
+            assert_eq!(&got[text.len()..], want, "{text:?}");
+        }
     }
 
     #[test]

@@ -69,7 +69,13 @@ pub fn read_channels<R: Read>(source: &str, reader: R) -> Result<ChannelFile> {
             None => Hz::ZERO,
         };
         file.channels.push(ListedChannel {
-            id: row.get("id").map(str::to_string),
+            id: match row.get("id") {
+                Some(id) => {
+                    crate::emitters::checked_id(row.place("id"), id)?;
+                    Some(id.to_string())
+                }
+                None => None,
+            },
             freq,
             bandwidth,
             note: row.get("note").map(str::to_string),

@@ -25,6 +25,8 @@ pub const RECEIVER_COLUMNS: &[&str] = &["id", "freq_mhz", "bw_khz", "lat", "lon"
 
 /// The highest ERP accepted: 100 dBm (10 MW), above any broadcaster.
 pub const MAX_ERP_DBM: f64 = 100.0;
+/// The lowest ERP read (1 nW): less is no emitter but a typing error.
+pub const MIN_ERP_DBM: f64 = -60.0;
 
 /// Emitters read from a file, with what the reader noticed on the way.
 #[derive(Clone, Debug, Default)]
@@ -88,6 +90,14 @@ fn read_emitters_csv<R: Read>(source: &str, reader: R) -> Result<EmitterFile> {
         return Err(no_rows(source, "data rows"));
     }
     Ok(file)
+}
+
+/// Refuses an id that could pass for another ([`crate::text::id_problem`]).
+pub fn checked_id(place: Place, id: &str) -> Result<()> {
+    match crate::text::id_problem(id) {
+        Some(problem) => Err(Error::input(place, problem)),
+        None => Ok(()),
+    }
 }
 
 fn check_unique(
@@ -188,6 +198,10 @@ fn read_emitters_json(source: &str, bytes: &[u8]) -> Result<EmitterFile> {
         for (key, v) in object {
             let text = match v {
                 serde_json::Value::Null => continue,
+                serde_json::Value::String(s) if key == "id" => {
+                    checked_id(place(key), s)?;
+                    s.clone()
+                }
                 serde_json::Value::String(s) => s.trim().to_string(),
                 serde_json::Value::Number(n) => n.to_string(),
                 serde_json::Value::Bool(b) => b.to_string(),
@@ -298,6 +312,7 @@ fn emitter_from_fields(record: &dyn Fields) -> Result<Emitter> {
     let place = |name: &str| record.place(name);
     let line = place("id").line.unwrap_or(0);
     let id = get("id").ok_or_else(|| Error::input(place("id"), "missing id"))?;
+    checked_id(place("id"), id)?;
     let freq_text =
         get("freq_mhz").ok_or_else(|| Error::input(place("freq_mhz"), "missing frequency"))?;
     let freq = frequency_field(|| place("freq_mhz"), freq_text)?;
@@ -315,6 +330,12 @@ fn emitter_from_fields(record: &dyn Fields) -> Result<Emitter> {
                 ));
             }
             let dbm = watts_to_dbm(w);
+            if dbm < MIN_ERP_DBM {
+                return Err(Error::input(
+                    place("erp_w"),
+                    format!("power {t} W is below 1 nW: no emitter to rank"),
+                ));
+            }
             if dbm > MAX_ERP_DBM {
                 return Err(Error::input(
                     place("erp_w"),
@@ -328,6 +349,12 @@ fn emitter_from_fields(record: &dyn Fields) -> Result<Emitter> {
     let erp_dbm = match get("erp_dbm") {
         Some(t) => {
             let dbm = parse_finite(|| place("erp_dbm"), t)?;
+            if dbm < MIN_ERP_DBM {
+                return Err(Error::input(
+                    place("erp_dbm"),
+                    format!("power {t} dBm is below {MIN_ERP_DBM} dBm (1 nW): no emitter to rank"),
+                ));
+            }
             if dbm > MAX_ERP_DBM {
                 return Err(Error::input(
                     place("erp_dbm"),
@@ -403,6 +430,7 @@ pub fn read_receivers<R: Read>(source: &str, reader: R) -> Result<ReceiverFile> 
         let id = row
             .get("id")
             .ok_or_else(|| Error::input(place("id"), "missing id"))?;
+        checked_id(place("id"), id)?;
         let freq_text = row
             .get("freq_mhz")
             .ok_or_else(|| Error::input(place("freq_mhz"), "missing frequency"))?;
@@ -444,6 +472,7 @@ pub fn read_structures<R: Read>(
         let id = row
             .get("id")
             .ok_or_else(|| Error::input(row.place("id"), "missing id"))?;
+        checked_id(row.place("id"), id)?;
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         check_unique(&mut seen, id, row.line, &row)?;

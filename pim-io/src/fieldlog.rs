@@ -30,11 +30,17 @@ pub const LOG_COLUMNS: &[&str] = &[
     "note",
 ];
 
+/// The finest bearing σ accepted (degrees): a hand-held directional antenna does not
+/// resolve a bearing to better than about a degree (common practice); 0.1° leaves room
+/// for a fixed array and refuses a σ that is a typing error and would make a region of
+/// centimetres.
+pub const MIN_SIGMA_DEG: f64 = 0.1;
+
 /// The header `pim log` writes.
 pub const LOG_HEADER: &str = "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,note";
 
 /// Which north a bearing is measured from.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum North {
     True,
@@ -59,6 +65,9 @@ pub struct LogRow {
 pub struct FieldLog {
     pub source: String,
     pub rows: Vec<LogRow>,
+    /// The line of a last row left out because it had no line end (torn by an
+    /// interrupted write, perhaps).
+    pub torn_line: Option<u64>,
     pub ignored_columns: Vec<String>,
 }
 
@@ -109,6 +118,12 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
                     format!("σ {t}° must be above zero"),
                 ));
             }
+            if s < MIN_SIGMA_DEG {
+                return Err(Error::input(
+                    place("sigma_deg"),
+                    format!("σ {t}° is below {MIN_SIGMA_DEG}°, finer than any bearing taken by hand; give the spread of the antenna's bearings"),
+                ));
+            }
             if s > 90.0 {
                 return Err(Error::input(
                     place("sigma_deg"),
@@ -144,13 +159,24 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
     })
 }
 
-/// Reads a field log. With `positions_from_track`, `lat` and `lon` may be absent.
+/// Reads a field log. With `positions_from_track`, `lat` and `lon` may be absent. A last
+/// row without a line end (torn by an interrupted write, perhaps) is left out and its
+/// line kept in [`FieldLog::torn_line`]; the rest of the log is used.
 pub fn read_field_log<R: Read>(
     source: &str,
-    reader: R,
+    mut reader: R,
     positions_from_track: bool,
 ) -> Result<FieldLog> {
-    let mut table = Table::open(source, reader)?;
+    let mut bytes = Vec::new();
+    reader
+        .read_to_end(&mut bytes)
+        .map_err(|e| Error::io(source, &e))?;
+    let torn = crate::text::torn_tail(&bytes);
+    let body = match torn {
+        Some((keep, _)) => &bytes[..keep],
+        None => &bytes[..],
+    };
+    let mut table = Table::open(source, body)?;
     table.require("bearing_deg")?;
     if !positions_from_track {
         table.require("lat")?;
@@ -158,6 +184,7 @@ pub fn read_field_log<R: Read>(
     }
     let mut log = FieldLog {
         source: source.to_string(),
+        torn_line: torn.map(|(_, line)| line),
         ignored_columns: table.unknown_columns(LOG_COLUMNS),
         ..Default::default()
     };
@@ -206,21 +233,37 @@ impl Fields for LogEntry {
 }
 
 impl LogEntry {
-    /// The entry as a CSV row in the column order of `header` (an existing log's first
-    /// line); columns it does not know stay empty. Refuses a header that lacks the
-    /// required columns, naming `source`.
-    pub fn row_for_header(&self, header: &str, source: &str) -> Result<String> {
+    /// The entry's cells in the column order of `header` (an existing log's header line,
+    /// in any delimiter the table reader knows). Refuses a header that lacks the required columns,
+    /// and a value the log has no column for unless its column is `droppable` (a time
+    /// taken from the clock, `north` = true), naming `source`, so that nothing typed is
+    /// lost silently.
+    pub fn cells_for_header(
+        &self,
+        header: &str,
+        source: &str,
+        droppable: &[&str],
+    ) -> Result<Vec<String>> {
         let table = Table::open(source, header.as_bytes())?;
         table.require("bearing_deg")?;
         table.require("lat")?;
         table.require("lon")?;
-        let cells: Vec<&str> = table
+        for (name, value) in &self.fields {
+            if !value.is_empty() && table.column(name).is_none() && !droppable.contains(name) {
+                let origin = self.place(name).source;
+                return Err(Error::input(
+                    Place::new(source).at_line(1).at_field(*name),
+                    format!(
+                        "the log has no `{name}` column, so {origin} would be lost; add the column (a `{name}` cell at the end of the header line and an empty cell at the end of every row), or leave {origin} out"
+                    ),
+                ));
+            }
+        }
+        Ok(table
             .headers()
             .iter()
-            .map(|h| self.field(h).unwrap_or_default())
-            .collect();
-        let row = crate::text::csv_record(&cells, b',', false);
-        Ok(row.trim_end_matches('\n').to_string())
+            .map(|h| self.field(h).unwrap_or_default().to_string())
+            .collect())
     }
 }
 
@@ -251,8 +294,30 @@ pub fn prepare(
     today: time::Date,
 ) -> Result<Prepared> {
     let mut out = Prepared::default();
+    if let Some(line) = log.torn_line {
+        out.notes.push(format!(
+            "{}, line {line}: the last row has no line end: it may be torn by an interrupted write, so it is left out; check it and end it with a line end",
+            log.source
+        ));
+    }
     let mut undated = Vec::new();
+    // A reading logged again (same place, time, bearing and north) is not new evidence:
+    // counted once, or a walk logged twice over would claim half its real uncertainty.
+    let mut first_of: std::collections::HashMap<_, u64> = std::collections::HashMap::new();
+    let mut repeats = Vec::new();
     for row in &log.rows {
+        let key = (
+            row.position
+                .map(|p| (p.lat_deg.to_bits(), p.lon_deg.to_bits())),
+            row.time.map(|t| t.unix_timestamp_nanos()),
+            row.bearing_deg.to_bits(),
+            row.north,
+        );
+        if let Some(first) = first_of.get(&key) {
+            repeats.push(format!("{} (= {first})", row.line));
+            continue;
+        }
+        first_of.insert(key, row.line);
         let place = |f: &str| Place::new(&log.source).at_line(row.line).at_field(f);
         let position = match (row.position, track) {
             (Some(p), _) => p,
@@ -314,6 +379,15 @@ pub fn prepare(
             sigma_deg: row.sigma_deg,
         });
     }
+    if !repeats.is_empty() {
+        out.notes.push(format!(
+            "{}: line{} {} repeat{} an earlier reading (same place, time and bearing), counted once: a reading logged again is not new evidence",
+            log.source,
+            if repeats.len() == 1 { "" } else { "s" },
+            repeats.join(", "),
+            if repeats.len() == 1 { "s" } else { "" },
+        ));
+    }
     if !undated.is_empty() {
         out.notes.push(format!(
             "magnetic reading{} without a time (line {}): declination for today's date",
@@ -335,7 +409,13 @@ pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         spots.push(pim_core::walk::Spot {
-            name: row.get("name").map(str::to_string),
+            name: match row.get("name") {
+                Some(name) => {
+                    crate::emitters::checked_id(row.place("name"), name)?;
+                    Some(name.to_string())
+                }
+                None => None,
+            },
             position,
         });
     }
@@ -380,10 +460,6 @@ mod tests {
                 "walk.csv, line 1, field `lat`: missing column",
             ),
             (
-                "lat,lon,bearing_deg\n45,-122,10\n45,-122,1",
-                "walk.csv, line 3: the last row has no line end",
-            ),
-            (
                 "lat,lon,bearing_deg,time\n45,-122,10,yesterday\n",
                 "walk.csv, line 2, field `time`: `yesterday` is not an ISO 8601 date and time",
             ),
@@ -391,6 +467,38 @@ mod tests {
             let e = read(text).unwrap_err().to_string();
             assert!(e.starts_with(want), "{e}");
         }
+    }
+
+    /// A torn last row, even one with all its fields, is left out and reported; the
+    /// rest of the log is used. Comment lines and CR line ends are read as usual.
+    #[test]
+    fn a_torn_last_row_is_left_out() {
+        let log = read("lat,lon,bearing_deg\n45,-122,10\n45,-122,1").unwrap();
+        assert_eq!(log.rows.len(), 1);
+        assert_eq!(log.torn_line, Some(3));
+        let prepared = prepare(&log, None, None, time::macros::date!(2026 - 12 - 01)).unwrap();
+        assert!(prepared.notes[0].starts_with("walk.csv, line 3: the last row has no line end"));
+        let log = read("# walk of 1 Dec\rlat,lon,bearing_deg\r45,-122,10\r45.1,-122,20\r").unwrap();
+        assert_eq!(log.rows.len(), 2);
+        assert_eq!(log.torn_line, None);
+        assert_eq!(log.rows[1].line, 4);
+    }
+
+    /// A walk logged three times over is the walk once: the same readings, the same fix.
+    #[test]
+    fn repeated_readings_count_once() {
+        let rows = "45.1025,-122.4132,347.1\n45.1033,-122.4107,296.6\n45.1018,-122.4095,318.0\n";
+        let once = read(&format!("lat,lon,bearing_deg\n{rows}")).unwrap();
+        let thrice = read(&format!("lat,lon,bearing_deg\n{rows}{rows}{rows}")).unwrap();
+        let today = time::macros::date!(2026 - 12 - 01);
+        let a = prepare(&once, None, None, today).unwrap();
+        let b = prepare(&thrice, None, None, today).unwrap();
+        assert_eq!(a.readings, b.readings);
+        assert!(
+            b.notes[0].contains("lines 5 (= 2), 6 (= 3)"),
+            "{:?}",
+            b.notes
+        );
     }
 
     #[test]

@@ -10,6 +10,7 @@ pub mod emitters;
 pub mod export;
 pub mod fieldlog;
 pub mod onair;
+pub mod output;
 pub mod readings;
 pub mod table;
 pub mod text;

@@ -104,6 +104,7 @@ pub fn read_on_air<R: Read>(
         let id = row
             .get("emitter")
             .ok_or_else(|| Error::input(row.place("emitter"), "missing emitter id"))?;
+        crate::emitters::checked_id(row.place("emitter"), id)?;
         let &e = index.get(id).ok_or_else(|| {
             let ids: Vec<&str> = emitters.iter().map(|e| e.id.as_str()).collect();
             Error::input(

@@ -160,6 +160,198 @@ pub fn xml_escape(s: &str) -> String {
     out
 }
 
+/// True for a character that must not reach a terminal or an id raw: C0 and C1 controls
+/// and DEL (escape sequences, bell, OSC 52 clipboard writes), and the invisible format
+/// characters that make two different ids look alike or reorder a line (zero-width
+/// spaces and joiners, word joiner, byte-order mark, bidi marks, embeddings, overrides
+/// and isolates: Unicode UAX #9).
+pub fn is_hidden_or_control(c: char) -> bool {
+    c.is_control()
+        || matches!(
+            c,
+            '\u{200b}'..='\u{200f}'
+                | '\u{202a}'..='\u{202e}'
+                | '\u{2060}'..='\u{2064}'
+                | '\u{2066}'..='\u{2069}'
+                | '\u{2028}'
+                | '\u{2029}'
+                | '\u{061c}'
+                | '\u{feff}'
+        )
+}
+
+/// Text from a file made safe to show on a terminal: every character of
+/// [`is_hidden_or_control`] is shown escaped (`\x1b`, `\u{202e}`), so that no input can
+/// retitle the terminal, write the clipboard or reorder what is shown. Line feeds are
+/// kept when `keep_line_feeds` (a message of several lines), escaped otherwise (a
+/// table cell).
+///
+/// ```
+/// use pim_io::text::terminal_escape;
+/// assert_eq!(terminal_escape("A\u{1b}]52;c;eA==\u{7}", false), "A\\x1b]52;c;eA==\\x07");
+/// assert_eq!(terminal_escape("SKP-152\u{200b}", false), "SKP-152\\u{200b}");
+/// ```
+pub fn terminal_escape(s: &str, keep_line_feeds: bool) -> std::borrow::Cow<'_, str> {
+    if !s
+        .chars()
+        .any(|c| is_hidden_or_control(c) && !(keep_line_feeds && c == '\n'))
+    {
+        return std::borrow::Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 8);
+    for c in s.chars() {
+        if c == '\n' && keep_line_feeds {
+            out.push(c);
+        } else if is_hidden_or_control(c) {
+            if (c as u32) < 0x100 {
+                out.push_str(&format!("\\x{:02x}", c as u32));
+            } else {
+                out.push_str(&format!("\\u{{{:x}}}", c as u32));
+            }
+        } else {
+            out.push(c);
+        }
+    }
+    std::borrow::Cow::Owned(out)
+}
+
+/// Why `id` cannot be an id, if it cannot: a control character, an invisible character
+/// ([`is_hidden_or_control`]) or whitespace at either end would make two ids that look
+/// the same different (`SKP-152` and `SKP-152` with a zero-width space after it).
+///
+/// ```
+/// assert!(pim_io::text::id_problem("SKP-152").is_none());
+/// assert!(pim_io::text::id_problem("SKP-152\u{200b}").unwrap().contains("U+200B"));
+/// assert!(pim_io::text::id_problem("SKP-152\u{a0}").unwrap().contains("space"));
+/// ```
+pub fn id_problem(id: &str) -> Option<String> {
+    if let Some(c) = id.chars().find(|c| is_hidden_or_control(*c)) {
+        let kind = if c.is_control() {
+            "a control character"
+        } else {
+            "an invisible character"
+        };
+        return Some(format!(
+            "`{}` holds {kind} (U+{:04X}); type the id again with plain characters",
+            terminal_escape(id, false),
+            c as u32
+        ));
+    }
+    if id.starts_with(char::is_whitespace) || id.ends_with(char::is_whitespace) {
+        return Some(format!(
+            "`{id}` starts or ends with a space (U+{:04X}); remove it",
+            id.chars()
+                .find(|c| c.is_whitespace())
+                .map_or(0x20, |c| c as u32)
+        ));
+    }
+    None
+}
+
+/// A finished XML document (a drawing library's SVG) with every character XML 1.0 does
+/// not allow (C0 controls other than tab, line feed and carriage return; U+FFFE, U+FFFF)
+/// shown as `\xNN`, as [`xml_escape`] shows them: text from a file that reached a label
+/// unescaped cannot make the document ill-formed.
+pub fn xml_chars_only(doc: String) -> String {
+    let bad = |c: char| {
+        (c as u32) < 0x20 && !matches!(c, '\t' | '\n' | '\r') || c == '\u{fffe}' || c == '\u{ffff}'
+    };
+    if !doc.contains(bad) {
+        return doc;
+    }
+    let mut out = String::with_capacity(doc.len() + 16);
+    for c in doc.chars() {
+        if bad(c) {
+            out.push_str(&format!("\\x{:02x}", c as u32));
+        } else {
+            out.push(c);
+        }
+    }
+    out
+}
+
+/// A writer that shows every character of [`is_hidden_or_control`] escaped (line feeds
+/// and tabs kept), for output bound for a terminal; text split mid-character between
+/// writes is held until it is whole. With `active` false it passes bytes through (a file
+/// or a pipe gets the data as it is).
+pub struct TerminalSafe<W: std::io::Write> {
+    inner: W,
+    active: bool,
+    pending: Vec<u8>,
+}
+
+impl<W: std::io::Write> TerminalSafe<W> {
+    pub fn new(inner: W, active: bool) -> Self {
+        TerminalSafe {
+            inner,
+            active,
+            pending: Vec::new(),
+        }
+    }
+
+    fn emit(&mut self, upto: usize) -> std::io::Result<()> {
+        let text = String::from_utf8_lossy(&self.pending[..upto]).into_owned();
+        self.pending.drain(..upto);
+        for (i, part) in text.split('\t').enumerate() {
+            if i > 0 {
+                self.inner.write_all(b"\t")?;
+            }
+            self.inner
+                .write_all(terminal_escape(part, true).as_bytes())?;
+        }
+        Ok(())
+    }
+}
+
+impl<W: std::io::Write> std::io::Write for TerminalSafe<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        if !self.active {
+            return self.inner.write(buf);
+        }
+        self.pending.extend_from_slice(buf);
+        let upto = match std::str::from_utf8(&self.pending) {
+            Ok(_) => self.pending.len(),
+            // an incomplete character at the end waits for the next write
+            Err(e) if e.error_len().is_none() => e.valid_up_to(),
+            Err(_) => self.pending.len(),
+        };
+        self.emit(upto)?;
+        Ok(buf.len())
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        if !self.pending.is_empty() {
+            self.emit(self.pending.len())?;
+        }
+        self.inner.flush()
+    }
+}
+
+/// Line ends in `text`: `\n`, `\r\n` and a lone `\r` each count once.
+pub fn count_line_ends(text: &[u8]) -> u64 {
+    let mut n = 0;
+    for (i, &b) in text.iter().enumerate() {
+        if b == b'\n' || (b == b'\r' && text.get(i + 1) != Some(&b'\n')) {
+            n += 1;
+        }
+    }
+    n
+}
+
+/// A torn tail: when `text` does not end with a line end and something other than
+/// blanks follows its last line end, the length to keep (through that line end) and the
+/// number of the torn line. A text of one line is never torn (it is all header).
+pub fn torn_tail(text: &[u8]) -> Option<(usize, u64)> {
+    if matches!(text.last(), None | Some(b'\n' | b'\r')) {
+        return None;
+    }
+    let last_end = text.iter().rposition(|&b| b == b'\n' || b == b'\r')?;
+    if text[last_end + 1..].trim_ascii().is_empty() {
+        return None;
+    }
+    Some((last_end + 1, count_line_ends(&text[..=last_end]) + 1))
+}
+
 /// One CSV record in the given dialect (delimiter, CRLF or LF line end), quoted by the
 /// csv crate's rules (a cell is quoted when it holds the delimiter, a quote or a line
 /// break; every cell when the first starts with `#`, which would read as a comment); the
@@ -230,6 +422,21 @@ mod tests {
         assert!(lat("45.5 30 N").is_err());
         assert!(lat("abc").unwrap_err().contains("degrees and minutes"));
         assert!(lon("45 06.275 N").is_err());
+    }
+
+    #[test]
+    fn terminal_output_is_escaped_across_writes() {
+        use std::io::Write;
+        let mut out = TerminalSafe::new(Vec::new(), true);
+        let text = "a\u{1b}]52;c;x\u{7}\tb\u{202e}c\n".as_bytes();
+        for chunk in text.chunks(3) {
+            out.write_all(chunk).unwrap();
+        }
+        out.flush().unwrap();
+        assert_eq!(
+            String::from_utf8(out.inner).unwrap(),
+            "a\\x1b]52;c;x\\x07\tb\\u{202e}c\n"
+        );
     }
 
     #[test]

@@ -58,13 +58,98 @@ impl Track {
     }
 }
 
+/// The largest GPX file read: 32 MiB, a day's walk logged every second with room to
+/// spare.
+pub const MAX_GPX_BYTES: u64 = 32 << 20;
+
+/// The deepest nesting of XML elements read: a GPX 1.1 track point sits at depth 4
+/// (`gpx`, `trk`, `trkseg`, `trkpt`); 32 leaves room for any extensions a receiver
+/// writes, and refuses in linear time a file built to make the XML reader's work grow
+/// with the square of its size.
+pub const MAX_GPX_DEPTH: usize = 32;
+
+/// One linear pass over the bytes, counting the nesting of elements (comments, CDATA,
+/// processing instructions and quoted attribute values skipped) and refusing a file
+/// nested deeper than [`MAX_GPX_DEPTH`], naming the line.
+fn check_nesting(source: &str, bytes: &[u8]) -> Result<()> {
+    let find = |from: usize, pat: &[u8]| -> usize {
+        bytes[from.min(bytes.len())..]
+            .windows(pat.len())
+            .position(|w| w == pat)
+            .map_or(bytes.len(), |p| from + p + pat.len())
+    };
+    let mut depth = 0usize;
+    let mut i = 0;
+    while i < bytes.len() {
+        if bytes[i] != b'<' {
+            i += 1;
+            continue;
+        }
+        let rest = &bytes[i..];
+        if rest.starts_with(b"<!--") {
+            i = find(i + 4, b"-->");
+        } else if rest.starts_with(b"<![CDATA[") {
+            i = find(i + 9, b"]]>");
+        } else if rest.starts_with(b"<?") {
+            i = find(i + 2, b"?>");
+        } else if rest.starts_with(b"<!") {
+            i = find(i + 2, b">");
+        } else if rest.starts_with(b"</") {
+            depth = depth.saturating_sub(1);
+            i = find(i + 2, b">");
+        } else {
+            // an opening tag: to its `>`, outside quoted attribute values
+            let mut j = i + 1;
+            let mut quote = None;
+            while j < bytes.len() {
+                match (quote, bytes[j]) {
+                    (None, b'"' | b'\'') => quote = Some(bytes[j]),
+                    (Some(q), c) if c == q => quote = None,
+                    (None, b'>') => break,
+                    _ => {}
+                }
+                j += 1;
+            }
+            if j >= bytes.len() || bytes[j - 1] != b'/' {
+                depth += 1;
+                if depth > MAX_GPX_DEPTH {
+                    let line = bytes[..i].iter().filter(|&&b| b == b'\n').count() as u64 + 1;
+                    return Err(Error::input(
+                        Place::new(source).at_line(line),
+                        format!(
+                            "elements nested deeper than {MAX_GPX_DEPTH} levels; a GPS track needs 4 (gpx, trk, trkseg, trkpt) and its extensions a few more"
+                        ),
+                    ));
+                }
+            }
+            i = j + 1;
+        }
+    }
+    Ok(())
+}
+
 /// Reads the timed points of a GPX file: track points of every track and segment, route
 /// points and waypoints (walkers often mark a waypoint at each reading, and a file
 /// written by a GIS tool may hold nothing else). Points without a time cannot place a
 /// reading and are left out; so are points repeated with the same time and place (a
 /// waypoint often repeats a track point).
 pub fn read_track<R: Read>(source: &str, reader: R) -> Result<Track> {
-    let gpx = gpx::read(std::io::BufReader::new(reader))
+    let mut bytes = Vec::new();
+    reader
+        .take(MAX_GPX_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| Error::io(source, &e))?;
+    if bytes.len() as u64 > MAX_GPX_BYTES {
+        return Err(Error::input(
+            Place::new(source),
+            format!(
+                "larger than {} MiB; split the track or leave out its extensions",
+                MAX_GPX_BYTES >> 20
+            ),
+        ));
+    }
+    check_nesting(source, &bytes)?;
+    let gpx = gpx::read(bytes.as_slice())
         .map_err(|e| Error::input(Place::new(source), format!("not a readable GPX file: {e}")))?;
     let track_points = gpx
         .tracks
@@ -107,6 +192,26 @@ mod tests {
 
     /// A GPX 1.1 file with waypoints only (as a GIS tool writes marked spots) is a track
     /// of those timed spots (GPX 1.1 schema: `wpt` carries `time` like `trkpt`).
+    /// Extensions nested a hundred thousand deep are refused in one pass, naming the
+    /// line; the usual depth is read.
+    #[test]
+    fn deep_nesting_is_refused() {
+        let deep = format!(
+            "<gpx version=\"1.1\">\n<extensions>{}{}</extensions></gpx>",
+            "<x a='>'>".repeat(100_000),
+            "</x>".repeat(100_000)
+        );
+        let e = read_track("deep.gpx", deep.as_bytes()).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "deep.gpx, line 2: elements nested deeper than 32 levels; a GPS track needs 4 (gpx, trk, trkseg, trkpt) and its extensions a few more"
+        );
+        let ok = gpx(
+            "<trk><trkseg><trkpt lat=\"45.1\" lon=\"-122.4\"><time>2026-11-28T09:00:00Z</time><extensions><!-- <a><b> --><e><f/><g>1</g></e></extensions></trkpt></trkseg></trk>",
+        );
+        assert!(read_track("ok.gpx", ok.as_bytes()).is_ok());
+    }
+
     #[test]
     fn waypoints_alone_make_a_track() {
         let text = gpx(r#"

@@ -15,6 +15,7 @@ use pim_core::rank::{
 use serde::Serialize;
 
 use crate::csv_out::write_row;
+use crate::document::md_inline;
 use crate::text_table::{Align, TextTable};
 type CliResult = std::io::Result<()>;
 
@@ -641,14 +642,14 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
         out.push_str(&format!(
             "| {} | {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
             c.rank,
-            formula(&c.product, l.emitters).replace('|', "\\|"),
-            made_in(c, l.emitters).replace('|', "\\|"),
+            md_inline(&formula(&c.product, l.emitters)),
+            md_inline(&made_in(c, l.emitters)),
             c.product.order(),
             c.product.freq.mhz(),
             signed(c.product.offset(l.params.target).khz(), 1),
             c.product.bandwidth(&carriers).khz(),
             signed_text(c.relative_db),
-            who.join("; ").replace('|', "\\|"),
+            md_inline(&who.join("; ")),
         ));
     }
     if let Some(s) = outlook_text(l.ranking) {

@@ -28,8 +28,61 @@ pub enum Block {
     Cautions(Vec<String>),
 }
 
+/// Text made literal in CommonMark where it starts a line (a paragraph, a list item):
+/// [`md_inline`], and what would open a block at the start of a line (a heading, quote,
+/// list, thematic break or setext underline; leading spaces, which would make indented
+/// code, are dropped) gets a backslash there too (CommonMark 0.31, "Backslash escapes":
+/// any ASCII punctuation may be escaped).
+///
+/// ```
+/// use pim_report::document::md_text;
+/// assert_eq!(md_text("x\n## Cautions <!--"), "x ## Cautions \\<!--");
+/// assert_eq!(md_text("## Cautions"), "\\## Cautions");
+/// assert_eq!(md_text("- [a](b)"), "\\- \\[a\\](b)");
+/// assert_eq!(md_text("1. SKP-152"), "1\\. SKP-152");
+/// ```
+pub fn md_text(text: &str) -> String {
+    let inline = md_inline(text);
+    let body = inline.trim_start();
+    let digits = body.bytes().take_while(u8::is_ascii_digit).count();
+    if body.starts_with(['#', '+', '-', '=', '>']) {
+        format!("\\{body}")
+    } else if digits > 0 && body[digits..].starts_with(['.', ')']) {
+        format!("{}\\{}", &body[..digits], &body[digits..])
+    } else {
+        body.to_string()
+    }
+}
+
+/// Text made literal inside a line of CommonMark (a table cell, a heading, the middle of
+/// a paragraph): the characters that open emphasis, code spans, links and images, raw
+/// HTML and comments, entities and cells get a backslash; line breaks become spaces, so
+/// text never leaves its line or cell; control and invisible characters are shown
+/// escaped (`\x1b`), as on the terminal.
+///
+/// ```
+/// use pim_report::document::md_inline;
+/// assert_eq!(md_inline("a|b <b>*x*</b>\n`c`"), "a\\|b \\<b\\>\\*x\\*\\</b\\> \\`c\\`");
+/// assert_eq!(md_inline("146.3400"), "146.3400");
+/// ```
+pub fn md_inline(text: &str) -> String {
+    let flat: String = text
+        .chars()
+        .map(|c| if matches!(c, '\n' | '\r') { ' ' } else { c })
+        .collect();
+    let shown = pim_io::text::terminal_escape(&flat, false);
+    let mut out = String::with_capacity(shown.len() + 8);
+    for c in shown.chars() {
+        if "\\`*_[]<>|~&".contains(c) {
+            out.push('\\');
+        }
+        out.push(c);
+    }
+    out
+}
+
 fn md_cell(s: &str) -> String {
-    s.replace('|', "\\|").replace('\n', " ")
+    md_inline(s)
 }
 
 /// The document as Markdown.
@@ -38,18 +91,22 @@ pub fn markdown(blocks: &[Block]) -> String {
     for b in blocks {
         match b {
             Block::Heading(level, text) => {
-                out.push_str(&format!("{} {text}\n\n", "#".repeat(*level as usize)));
+                out.push_str(&format!(
+                    "{} {}\n\n",
+                    "#".repeat(*level as usize),
+                    md_inline(text)
+                ));
             }
-            Block::Para(text) => out.push_str(&format!("{text}\n\n")),
+            Block::Para(text) => out.push_str(&format!("{}\n\n", md_text(text))),
             Block::List(items) => {
                 for i in items {
-                    out.push_str(&format!("- {i}\n"));
+                    out.push_str(&format!("- {}\n", md_text(i)));
                 }
                 out.push('\n');
             }
             Block::Steps(items) => {
                 for (n, i) in items.iter().enumerate() {
-                    out.push_str(&format!("{}. {i}\n", n + 1));
+                    out.push_str(&format!("{}. {}\n", n + 1, md_text(i)));
                 }
                 out.push('\n');
             }
@@ -85,11 +142,13 @@ pub fn markdown(blocks: &[Block]) -> String {
                 }
                 out.push('\n');
             }
-            Block::Picture { file, alt, .. } => out.push_str(&format!("![{alt}]({file})\n\n")),
+            Block::Picture { file, alt, .. } => {
+                out.push_str(&format!("![{}]({file})\n\n", md_text(alt)))
+            }
             Block::Cautions(items) => {
                 out.push_str("> **Cautions**\n>\n");
                 for i in items {
-                    out.push_str(&format!("> - {i}\n"));
+                    out.push_str(&format!("> - {}\n", md_text(i)));
                 }
                 out.push('\n');
             }
@@ -195,6 +254,29 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
 mod tests {
     use super::*;
 
+    /// A note that tries to forge a section or hide the next one stays inside its line.
+    #[test]
+    fn input_text_cannot_open_markdown_blocks() {
+        let doc = vec![
+            Block::List(vec!["note: x\n\n## Cautions\nnone <!--".into()]),
+            Block::Para("```\ncode".into()),
+            Block::Para("    indented".into()),
+            Block::Table {
+                headers: vec!["id".into()],
+                right: vec![false],
+                rows: vec![vec!["a|b\n# c".into()]],
+            },
+        ];
+        let md = markdown(&doc);
+        for line in md.lines() {
+            assert!(!line.starts_with('#') && !line.starts_with("```"), "{md}");
+        }
+        assert!(!md.contains(" <!--") && md.contains("\\<!--"), "{md}");
+        assert!(md.contains("| a\\|b # c |"), "{md}");
+        assert!(md.contains("\n\\`\\`\\` code\n"), "{md}");
+        assert!(md.contains("\nindented\n"), "{md}");
+    }
+
     #[test]
     fn both_renderings_carry_the_content() {
         let doc = vec![
@@ -207,7 +289,7 @@ mod tests {
             Block::Cautions(vec!["RF exposure".into()]),
         ];
         let md = markdown(&doc);
-        assert!(md.contains("# Ticket <A&B>"));
+        assert!(md.contains("# Ticket \\<A\\&B\\>"), "{md}");
         assert!(md.contains("| a | b\\|c |"));
         let h = html("t", &doc);
         assert!(h.contains("<h1>Ticket &lt;A&amp;B&gt;</h1>"));

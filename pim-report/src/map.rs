@@ -101,7 +101,7 @@ pub enum MarkerKind {
 pub fn map_svg(input: &MapInput) -> String {
     let mut svg = String::new();
     match draw_map(input, &mut svg) {
-        Ok(_) => svg,
+        Ok(_) => pim_io::text::xml_chars_only(svg),
         Err(e) => fallback_svg(
             MAP_WIDTH_PX,
             MAP_HEIGHT_PX,

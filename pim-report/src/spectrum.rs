@@ -90,7 +90,7 @@ pub struct EmitterMark {
 pub fn spectrum_svg(input: &SpectrumInput) -> String {
     let mut svg = String::new();
     match draw_spectrum(input, &mut svg) {
-        Ok(_) => svg,
+        Ok(_) => pim_io::text::xml_chars_only(svg),
         Err(e) => fallback_svg(
             SPECTRUM_WIDTH_PX,
             SPECTRUM_HEIGHT_PX,

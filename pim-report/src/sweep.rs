@@ -12,6 +12,7 @@ use serde_json::json;
 
 use crate::candidates::{r2, table_text, write_json_array, Listing};
 use crate::csv_out::write_row;
+use crate::document::md_inline;
 use crate::trace::{MarkKind, PeakMark, TraceInput};
 
 /// A sweep's results with what its outputs name.
@@ -318,24 +319,6 @@ fn counts(sweep: &Sweep) -> (usize, usize, usize) {
     )
 }
 
-/// Text from input files made literal inside a Markdown table cell (CommonMark's
-/// backslash escapes for the characters that open emphasis, code, links, HTML, entities
-/// and cells; a cell never starts a line, so line-start markers need none).
-fn md_text(text: &str) -> String {
-    let mut out = String::with_capacity(text.len());
-    for c in text.chars() {
-        if "\\`*_[]<>|~&!".contains(c) {
-            out.push('\\');
-        }
-        if c == '\n' || c == '\r' {
-            out.push(' ');
-        } else {
-            out.push(c);
-        }
-    }
-    out
-}
-
 fn peaks_table(sweep: &Sweep, emitters: &[Emitter]) -> String {
     use crate::text_table::{Align, TextTable};
     let mut t = TextTable::new(&[
@@ -404,7 +387,7 @@ fn markdown(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
             p.peak.level_dbm,
             p.peak.above_floor_db,
             p.kind.name(),
-            md_text(&peak_summary(p, emitters)),
+            md_inline(&peak_summary(p, emitters)),
             if p.kind == PeakKind::Product {
                 p.found.to_string()
             } else {
@@ -417,9 +400,9 @@ fn markdown(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
         out.push_str(&format!(
             "| {} | {} | {} | {} |\n",
             k + 1,
-            md_text(&suspect_ids(x, emitters).join(" + ")),
+            md_inline(&suspect_ids(x, emitters).join(" + ")),
             x.explains.len(),
-            md_text(&suspect_explains(x, sweep, emitters).join("; "))
+            md_inline(&suspect_explains(x, sweep, emitters).join("; "))
         ));
     }
     out

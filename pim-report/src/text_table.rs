@@ -21,8 +21,14 @@ impl TextTable {
         }
     }
 
+    /// Adds a row; characters that could drive the terminal (escape sequences, bidi
+    /// overrides) are shown escaped (`pim_io::text::terminal_escape`).
     pub fn push(&mut self, row: Vec<String>) {
-        self.rows.push(row);
+        self.rows.push(
+            row.into_iter()
+                .map(|c| pim_io::text::terminal_escape(&c, false).into_owned())
+                .collect(),
+        );
     }
 
     pub fn is_empty(&self) -> bool {

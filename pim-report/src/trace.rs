@@ -65,7 +65,7 @@ pub fn trace_svg(input: &TraceInput) -> String {
         draw_trace_on(&root, input).and_then(|_| root.present())
     };
     match drawn {
-        Ok(()) => svg,
+        Ok(()) => pim_io::text::xml_chars_only(svg),
         Err(e) => fallback_svg(
             TRACE_WIDTH_PX,
             TRACE_HEIGHT_PX,

@@ -67,7 +67,13 @@ const CATALOGUE: &[(&[&str], i32, &str)] = &[
     (&["fix", "--log", "walk-outside-track.csv", "--track", "{F}/walk.gpx"], 3, "pim: walk-outside-track.csv, line 3, field `time`: 2026-11-28T12:00:00Z is outside the track (2026-11-28T09:07:40Z to 2026-11-28T10:22:30Z)"),
     (&["fix", "--log", "walk-parallel.csv"], 5, "pim: the bearings are parallel (they differ by 0.00° at most): they fix no point; take bearings from spots well to the side"),
     (&["fix", "--log", "walk-text-bearing.csv"], 3, "pim: walk-text-bearing.csv, line 2, field `bearing_deg`: `north-east` is not a number"),
-    (&["fix", "--log", "walk-torn.csv"], 3, "pim: walk-torn.csv, line 3: the last row has no line end: it may be torn by an interrupted write; check it and end it with a newline"),
+    (&["fix", "--log", "walk-torn.csv"], 5, "pim: note: walk-torn.csv, line 3: the last row has no line end: it may be torn by an interrupted write, so it is left out; check it and end it with a line end\npim: 1 usable reading: a fix needs at least two bearings from different spots"),
+    (&["explain", "146.34", "--emitters", "emitters-tiny-erp.csv"], 3, "pim: emitters-tiny-erp.csv, line 2, field `erp_dbm`: power -300 dBm is below -60 dBm (1 nW): no emitter to rank"),
+    (&["fix", "--log", "walk-tiny-sigma.csv"], 3, "pim: walk-tiny-sigma.csv, line 2, field `sigma_deg`: σ 0.0001° is below 0.1°, finer than any bearing taken by hand; give the spread of the antenna's bearings"),
+    (&["explain", "146.34", "--emitters", "emitters-invisible-id.csv"], 3, "pim: emitters-invisible-id.csv, line 3, field `id`: `SKP-152\\u{200b}` holds an invisible character (U+200B); type the id again with plain characters"),
+    (&["explain", "146.34", "--emitters", "emitters-control-id.json"], 3, "pim: emitters-control-id.json, line 3, field `id`: `A\\x1b]0;owned\\x07` holds a control character (U+001B); type the id again with plain characters"),
+    (&["explain", "146.34", "--emitters", "emitters-spaced-id.json"], 3, "pim: emitters-spaced-id.json, line 2, field `id`: `A ` starts or ends with a space (U+0020); remove it"),
+    (&["explain", "146.34", "--emitters", "{F}/emitters.csv", "--on-air", "on-air-offset-beyond-14h.csv", "--heard", "{F}/heard.csv"], 3, "pim: on-air-offset-beyond-14h.csv, line 2, field `start`: `2025-06-14T08:00+15:00` has a UTC offset beyond ±14:00, which no time zone uses"),
 ];
 
 #[test]

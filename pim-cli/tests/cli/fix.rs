@@ -180,7 +180,16 @@ fn kml_is_well_formed() {
 #[test]
 fn bad_fix_arguments_are_refused() {
     for (args, want) in [
-        (vec!["--confidence", "1.5"], "not a probability"),
+        (
+            vec!["--confidence", "1.5"],
+            "confidence 1.5 is outside 0.5–0.9999",
+        ),
+        // statrs' quantile panicked on this one once
+        (
+            vec!["--confidence", "1e-200"],
+            "confidence 1e-200 is outside 0.5–0.9999",
+        ),
+        (vec!["--sigma-deg", "0.001"], "σ 0.001° is below 0.1°"),
         (vec!["--sigma-deg", "-1"], "must be above 0"),
         (vec!["--method", "guess"], "invalid value 'guess'"),
     ] {

@@ -7,6 +7,7 @@ mod evidence;
 mod explain;
 mod fieldlog;
 mod fix;
+mod harden;
 mod invariants;
 mod plan;
 mod ranking;

@@ -146,7 +146,9 @@ fn demo_runs_from_an_empty_directory() {
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
-    assert_eq!(names.len(), 8, "{names:?}"); // the seven of every ticket and trace.svg
+    // the seven files of every ticket, the band's trace.svg and the demo's marker
+    assert_eq!(names.len(), 9, "{names:?}");
+    assert!(names.contains(&".pim-demo".to_string()), "{names:?}");
 }
 
 #[test]
@@ -206,6 +208,7 @@ fn ticket_from_files() {
                 field_log("walk.csv").to_str().unwrap(),
                 "--out",
                 d.to_str().unwrap(),
+                "--force",
             ])
             .output()
             .unwrap();

@@ -776,14 +776,10 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
 
     geometry::check_spread_of_bearings(readings)?;
 
-    // Local frame around the observers.
-    let (lat0, lon0) = readings.iter().fold((0.0, 0.0), |(a, b), r| {
-        (
-            a + r.observer.lat_deg / n as f64,
-            b + r.observer.lon_deg / n as f64,
-        )
-    });
-    let frame = LocalFrame::new(GeoPoint::new(lat0, lon0));
+    // Local frame around the observers (their centre on the sphere: a walk across
+    // longitude ±180° is centred among its spots, not half a world away).
+    let observers: Vec<GeoPoint> = readings.iter().map(|r| r.observer).collect();
+    let frame = LocalFrame::new(crate::geo::centre_of(&observers).unwrap_or(readings[0].observer));
     let points: Vec<(f64, f64)> = readings
         .iter()
         .map(|r| frame.to_local(r.observer))

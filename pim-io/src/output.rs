@@ -1,0 +1,269 @@
+//! Writing a set of files into a directory all or nothing (a ticket: ticket.md, the
+//! pictures, the exports), safe in a directory other people can write to.
+//!
+//! - Each file is first written under a random name created with create-new semantics
+//!   (the tempfile crate: `O_CREAT | O_EXCL`, so no existing path and no planted link is
+//!   ever opened), synced, then renamed into place. A rename replaces a link planted at
+//!   the final name; it never writes through it.
+//! - No file of the set may be one of the inputs (the same file by device and inode, or
+//!   by canonical path): refused before anything is written.
+//! - Files that already exist are replaced only when the caller allows it (`--force`);
+//!   otherwise the refusal names them and nothing is written.
+//! - All or nothing: the files being replaced are first moved aside; if any file cannot
+//!   be written or renamed, the new files are removed, the old ones moved back, and no
+//!   staging file is left behind.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use pim_core::{Error, ErrorClass, Place};
+
+/// Whether files that already exist may be replaced.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Existing {
+    /// Refuse, naming the files that exist (the default).
+    Refuse,
+    /// Replace them (`--force`, or a folder the tool itself wrote and marked).
+    Replace,
+}
+
+/// True when `a` and `b` are the same file: same device and inode, or same canonical path.
+fn same_file(a: &Path, b: &Path) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        if let (Ok(ma), Ok(mb)) = (std::fs::metadata(a), std::fs::metadata(b)) {
+            if ma.dev() == mb.dev() && ma.ino() == mb.ino() {
+                return true;
+            }
+        }
+    }
+    match (std::fs::canonicalize(a), std::fs::canonicalize(b)) {
+        (Ok(ca), Ok(cb)) => ca == cb,
+        _ => false,
+    }
+}
+
+fn write_refused(place: impl Into<String>, message: impl Into<String>) -> Error {
+    Error {
+        class: ErrorClass::Io,
+        place: Some(Place::new(place)),
+        message: message.into(),
+    }
+}
+
+/// Checks, before anything is written, that no file of the set is one of `inputs` and,
+/// under [`Existing::Refuse`], that none exists yet.
+pub fn check_targets(
+    dir: &Path,
+    names: &[&str],
+    inputs: &[&Path],
+    existing: Existing,
+) -> Result<(), Error> {
+    let mut present = Vec::new();
+    for name in names {
+        let path = dir.join(name);
+        if let Some(input) = inputs.iter().find(|i| same_file(&path, i)) {
+            return Err(write_refused(
+                path.display().to_string(),
+                format!(
+                    "is the input {}; choose another output directory, an input is never overwritten",
+                    input.display()
+                ),
+            ));
+        }
+        if std::fs::symlink_metadata(&path).is_ok() {
+            present.push(path.display().to_string());
+        }
+    }
+    if existing == Existing::Refuse && !present.is_empty() {
+        return Err(write_refused(
+            dir.display().to_string(),
+            format!(
+                "a ticket is already there ({}); nothing was written: give --force to replace it, or another directory",
+                present.join(", ")
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// A file staged under a random name, or a replaced file moved aside.
+struct Moved {
+    target: PathBuf,
+    backup: Option<PathBuf>,
+}
+
+/// Writes `files` (name, content) into `dir` (created when missing) all or nothing, as
+/// the module docs say; returns the paths written, in order.
+pub fn write_files_atomically(
+    dir: &Path,
+    files: &[(&str, Vec<u8>)],
+    inputs: &[&Path],
+    existing: Existing,
+) -> Result<Vec<PathBuf>, Error> {
+    for (name, _) in files {
+        if name.is_empty() || name.contains(['/', '\\']) || *name == "." || *name == ".." {
+            return Err(Error::refused(format!("`{name}` is not a plain file name")));
+        }
+    }
+    let names: Vec<&str> = files.iter().map(|(n, _)| *n).collect();
+    check_targets(dir, &names, inputs, existing)?;
+    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir.display().to_string(), &e))?;
+    // 1. stage every file under a random, never-existing name
+    let mut staged = Vec::new();
+    for (name, bytes) in files {
+        let made = tempfile::Builder::new()
+            .prefix(&format!(".{name}."))
+            .suffix(".part")
+            .tempfile_in(dir)
+            .and_then(|mut f| {
+                f.write_all(bytes)?;
+                f.as_file().sync_all()?;
+                Ok(f.into_temp_path())
+            });
+        match made {
+            Ok(tmp) => staged.push((tmp, dir.join(name))),
+            // dropping `staged` removes the files staged so far
+            Err(e) => return Err(Error::io(dir.join(name).display().to_string(), &e)),
+        }
+    }
+    // 2. move each old file aside, then the new one into place; undo all on a failure
+    let mut done: Vec<Moved> = Vec::new();
+    let mut failure = None;
+    for (tmp, target) in &staged {
+        let backup = if std::fs::symlink_metadata(target).is_ok() {
+            let aside = tempfile::Builder::new()
+                .prefix(".replaced.")
+                .suffix(".part")
+                .tempfile_in(dir)
+                .map(|f| f.into_temp_path());
+            match aside.and_then(|reserved| {
+                std::fs::rename(target, &reserved)?;
+                // the old file now lives at the reserved name; keep it past this scope
+                reserved.keep().map_err(|e| e.error)
+            }) {
+                Ok(path) => Some(path),
+                Err(e) => {
+                    failure = Some(Error::io(target.display().to_string(), &e));
+                    break;
+                }
+            }
+        } else {
+            None
+        };
+        let moved = Moved {
+            target: target.clone(),
+            backup,
+        };
+        if let Err(e) = std::fs::rename(tmp, target) {
+            failure = Some(Error::io(target.display().to_string(), &e));
+            done.push(moved);
+            break;
+        }
+        done.push(moved);
+    }
+    if let Some(err) = failure {
+        for m in done.iter().rev() {
+            match &m.backup {
+                Some(b) => {
+                    let _ = std::fs::rename(b, &m.target);
+                }
+                None => {
+                    let _ = std::fs::remove_file(&m.target);
+                }
+            }
+        }
+        // `staged` is dropped here: the staging files not yet renamed are removed
+        return Err(err);
+    }
+    for m in &done {
+        if let Some(b) = &m.backup {
+            let _ = std::fs::remove_file(b);
+        }
+    }
+    // the staged paths are renamed away; dropping them finds nothing to remove
+    drop(staged);
+    if let Ok(d) = std::fs::File::open(dir) {
+        let _ = d.sync_all();
+    }
+    Ok(done.into_iter().map(|m| m.target).collect())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn files() -> Vec<(&'static str, Vec<u8>)> {
+        vec![
+            ("a.md", b"new a".to_vec()),
+            ("b.svg", b"new b".to_vec()),
+            ("c.csv", b"new c".to_vec()),
+        ]
+    }
+
+    fn listing(dir: &Path) -> Vec<String> {
+        let mut v: Vec<String> = std::fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        v.sort();
+        v
+    }
+
+    #[test]
+    fn writes_and_replaces_only_when_allowed() {
+        let tmp = tempfile::tempdir().unwrap();
+        let dir = tmp.path().join("t");
+        write_files_atomically(&dir, &files(), &[], Existing::Refuse).unwrap();
+        assert_eq!(listing(&dir), ["a.md", "b.svg", "c.csv"]);
+        let err = write_files_atomically(&dir, &files(), &[], Existing::Refuse).unwrap_err();
+        assert!(err.message.contains("a.md") && err.message.contains("--force"));
+        write_files_atomically(&dir, &files(), &[], Existing::Replace).unwrap();
+        assert_eq!(listing(&dir), ["a.md", "b.svg", "c.csv"]);
+    }
+
+    #[test]
+    fn an_input_is_never_overwritten() {
+        let tmp = tempfile::tempdir().unwrap();
+        let input = tmp.path().join("b.svg");
+        std::fs::write(&input, "input").unwrap();
+        let err =
+            write_files_atomically(tmp.path(), &files(), &[&input], Existing::Replace).unwrap_err();
+        assert!(err.message.contains("is the input"), "{err}");
+        assert_eq!(std::fs::read_to_string(&input).unwrap(), "input");
+        assert_eq!(listing(tmp.path()), ["b.svg"]);
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_planted_link_is_replaced_never_written_through() {
+        let tmp = tempfile::tempdir().unwrap();
+        let victim = tmp.path().join("victim");
+        std::fs::write(&victim, "keep").unwrap();
+        let dir = tmp.path().join("shared");
+        std::fs::create_dir(&dir).unwrap();
+        std::os::unix::fs::symlink(&victim, dir.join("a.md")).unwrap();
+        write_files_atomically(&dir, &files(), &[], Existing::Replace).unwrap();
+        assert_eq!(std::fs::read_to_string(&victim).unwrap(), "keep");
+        assert_eq!(std::fs::read_to_string(dir.join("a.md")).unwrap(), "new a");
+        assert!(!std::fs::symlink_metadata(dir.join("a.md"))
+            .unwrap()
+            .file_type()
+            .is_symlink());
+    }
+
+    #[test]
+    fn a_failed_rename_leaves_the_old_set_whole() {
+        let tmp = tempfile::tempdir().unwrap();
+        let dir = tmp.path();
+        std::fs::write(dir.join("a.md"), "old a").unwrap();
+        // c.csv is a non-empty directory: it cannot be moved over a file
+        std::fs::create_dir(dir.join("c.csv")).unwrap();
+        std::fs::write(dir.join("c.csv").join("x"), "x").unwrap();
+        let err = write_files_atomically(dir, &files(), &[], Existing::Replace).unwrap_err();
+        assert_eq!(err.class, ErrorClass::Io);
+        assert_eq!(std::fs::read_to_string(dir.join("a.md")).unwrap(), "old a");
+        assert_eq!(listing(dir), ["a.md", "c.csv"]);
+    }
+}
