@@ -57,6 +57,7 @@ pub mod rank;
 pub mod site;
 pub mod slope;
 pub mod ticket;
+mod top;
 pub mod trace;
 pub mod walk;
 
