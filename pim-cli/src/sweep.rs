@@ -227,7 +227,7 @@ pub fn run(args: Args) -> CliResult {
             max_emitters: s.max_emitters,
             junction: s.rx_site(),
             model: s.junction_model(),
-            keep_candidates: args.listing.limit,
+            keep_candidates: args.listing.count(),
         },
         threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
     };

@@ -56,6 +56,7 @@ pub mod plan;
 pub mod rank;
 pub mod site;
 pub mod slope;
+pub mod study;
 pub mod ticket;
 mod top;
 pub mod trace;

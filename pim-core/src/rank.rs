@@ -659,11 +659,24 @@ impl<'a> Ranker<'a> {
 
     /// Appends the candidates of `product`, each levelled where it can be.
     pub(crate) fn evaluate(&self, product: &Product, out: &mut Vec<Candidate>) {
+        self.evaluate_only(product, out, &|_| true)
+    }
+
+    /// [`Ranker::evaluate`] for the mechanisms `keep` accepts.
+    pub(crate) fn evaluate_only(
+        &self,
+        product: &Product,
+        out: &mut Vec<Candidate>,
+        keep: &dyn Fn(Mechanism) -> bool,
+    ) {
         let (emitters, inputs, params) = (self.emitters, self.inputs, self.params);
         let ranking = &self.shell;
         let model = ranking.model;
         let (junction, receiver) = (ranking.junction, ranking.receiver);
         for mut c in mechanisms_of(product, self.receiver_modelled) {
+            if !keep(c.mechanism) {
+                continue;
+            }
             c.evidence = inputs.logbook.map(|book| book.evidence(product));
             if let (Some(j), Some(radius)) = (junction, inputs.placement.fix_radius_m) {
                 let at = match source_of(&c, emitters, j) {

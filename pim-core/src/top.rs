@@ -29,7 +29,9 @@
 use std::cmp::Ordering;
 
 use crate::emitter::{Carrier, Emitter};
+use crate::intermod::SearchParams;
 use crate::intermod::{co_channel, coefficient_sets, search_products, Product, Term, MAX_ORDER};
+use crate::level::Mechanism;
 use crate::level::{
     form_weight_db, free_space_loss_db, slant_distance_m, wavelength_m, DIPOLE_GAIN_DBI,
 };
@@ -102,14 +104,10 @@ impl<'r, 'a> Best<'r, 'a> {
     }
 }
 
-/// An upper bound on the in-channel level (dBm) of any candidate whose product involves
-/// each emitter (module docs); −∞ where none can be levelled, +∞ where no bound holds.
-fn emitter_bounds(
-    ranker: &Ranker,
-    query: &Query,
-    emitters: &[Emitter],
-    carriers: &[Carrier],
-) -> Vec<f64> {
+/// An upper bound on the in-channel level (dBm) of any junction or receiver candidate
+/// whose product involves each emitter (module docs); −∞ where none can be levelled, +∞
+/// where no bound holds. A transmitter's own products are listed apart, whole.
+fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f64> {
     let n = emitters.len();
     let r = &ranker.shell;
     let (Some(rx), Some(_)) = (r.receiver, r.junction) else {
@@ -122,13 +120,6 @@ fn emitter_bounds(
     }
     let max_order = params.max_order.min(MAX_ORDER);
     let max_emitters = params.max_emitters.clamp(1, 3) as usize;
-    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
-    // The lowest frequency at which a product can hit the channel.
-    let f_lo = (params.target.0
-        - (max_order as i64 * max_bw + params.rx_bandwidth.0) / 2
-        - 1
-        - params.tolerance.0)
-        .max(1) as f64;
     let path_floor = |slant: f64, f: f64| {
         free_space_loss_db(f, slant.max(wavelength_m(f) / (2.0 * std::f64::consts::PI)))
             - m.rx_antenna_gain_dbi
@@ -177,14 +168,6 @@ fn emitter_bounds(
             }
             + a * n * (p_max - m.reference_tone_dbm)
     })) - junction_path;
-    let floor: Vec<Option<f64>> = slant
-        .iter()
-        .map(|s| s.map(|s| path_floor(s, f_lo)))
-        .collect();
-    let txim = max_order >= 3 && max_emitters >= 2;
-    let txim_gain = -m.min_antenna_isolation_db - m.tx_conversion_loss_db + DIPOLE_GAIN_DBI;
-    let erp_max = fold_max(&mut (0..n).filter_map(erp_at));
-    let floor_min = floor.iter().flatten().fold(f64::INFINITY, |x, &y| x.min(y));
     let rx_input: Vec<Option<f64>> = (0..n)
         .map(|i| {
             let (erp, s) = (erp_at(i)?, slant[i]?);
@@ -203,17 +186,6 @@ fn emitter_bounds(
             let mut h = f64::NEG_INFINITY;
             if let Some(inc) = r.incidence[i] {
                 h = h.max(junction_top - a * (p_max - inc.incident_dbm));
-            }
-            if let (Some(erp), Some(fl)) = (erp_at(i), floor[i]) {
-                if max_order >= 2 {
-                    h = h.max(m.spurious_limit_eirp_dbm(erp) - fl);
-                }
-                if txim {
-                    h = h.max(erp + txim_gain - floor_min);
-                }
-            }
-            if let (Some(fl), true) = (floor[i], txim && erp_max.is_finite()) {
-                h = h.max(erp_max + txim_gain - fl);
             }
             if let (Some(extra), Some(input)) = (receiver, rx_input[i]) {
                 h = h.max(input + extra);
@@ -274,35 +246,95 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
     };
     let mut found = 0usize;
     let mut kept = 0usize;
-    let mut scratch = Vec::with_capacity(4);
     let mut complete = true;
+    // A transmitter's harmonics and its intermodulation with one other emitter are few
+    // (one emitter, or two at third order): every one is levelled exactly, up front;
+    // the search below then weighs the junction and receiver candidates only.
+    let own = |m: Mechanism| matches!(m, Mechanism::Transmitter | Mechanism::TransmitterIm);
+    let rest = |m: Mechanism| !own(m);
+    let mut transmitters: Vec<Candidate> = Vec::new();
+    let mut trimmed = false;
+    let mut best = Best::new(&ranker, k);
+    if query.logbook.is_none() {
+        let all: Vec<usize> = (0..n).collect();
+        let mut pass = |params: SearchParams, orders: std::ops::RangeInclusive<u32>| {
+            let q = Query {
+                params,
+                ..query.clone()
+            };
+            search_among(carriers, &all, &q, orders, &mut |p| {
+                if narrow(&p) {
+                    ranker.evaluate_only(&p, &mut transmitters, &own);
+                    if transmitters.len() >= 4 * k + 256 {
+                        trimmed = true;
+                        let mut b = Best::new(&ranker, k);
+                        for c in transmitters.drain(..) {
+                            b.offer(c);
+                        }
+                        b.compact();
+                        transmitters = b.held;
+                    }
+                }
+            });
+        };
+        pass(
+            SearchParams {
+                max_emitters: 1,
+                ..query.params
+            },
+            2..=MAX_ORDER,
+        );
+        if query.params.max_emitters >= 2 {
+            pass(
+                SearchParams {
+                    max_emitters: 2,
+                    ..query.params
+                },
+                3..=3,
+            );
+        }
+    }
+    let mut scratch = Vec::with_capacity(4);
+    let every = |_: Mechanism| true;
+    let keep: &dyn Fn(Mechanism) -> bool = if query.logbook.is_some() {
+        &every
+    } else {
+        &rest
+    };
     let mut offer = |best: &mut Best, found: &mut usize, kept: &mut usize, p: Product| {
         *found += 1;
         if narrow(&p) {
             *kept += 1;
             scratch.clear();
-            ranker.evaluate(&p, &mut scratch);
+            ranker.evaluate_only(&p, &mut scratch, keep);
             for c in scratch.drain(..) {
                 best.offer(c);
             }
         }
     };
-    let mut best = Best::new(&ranker, k);
+    let fresh = |transmitters: &[Candidate]| {
+        let mut b = Best::new(&ranker, k);
+        for c in transmitters {
+            b.offer(*c);
+        }
+        b
+    };
     if query.logbook.is_some() {
         let all: Vec<usize> = (0..n).collect();
         search_among(carriers, &all, query, 2..=MAX_ORDER, &mut |p| {
             offer(&mut best, &mut found, &mut kept, p)
         });
     } else {
-        let bounds = emitter_bounds(&ranker, query, emitters, carriers);
+        let bounds = emitter_bounds(&ranker, query, emitters);
         let mut order: Vec<usize> = (0..n).filter(|&i| bounds[i] > f64::NEG_INFINITY).collect();
         order.sort_by(|&a, &b| bounds[b].total_cmp(&bounds[a]).then(a.cmp(&b)));
         let levelled = order.len();
+        best = fresh(&transmitters);
         let mut m = levelled.min(FIRST_SET);
         let mut settled = false;
         if levelled > 0 {
             loop {
-                best = Best::new(&ranker, k);
+                best = fresh(&transmitters);
                 (found, kept) = (0, 0);
                 search_among(carriers, &order[..m], query, 2..=MAX_ORDER, &mut |p| {
                     offer(&mut best, &mut found, &mut kept, p)
@@ -349,6 +381,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
         }
     }
     best.compact();
+    complete &= !trimmed;
     let Best { held, tally, .. } = best;
     let mut products: Vec<Product> = Vec::with_capacity(held.len());
     for c in &held {
