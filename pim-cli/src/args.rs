@@ -85,25 +85,57 @@ impl CalibrationArgs {
     }
 }
 
+/// How many candidates JSON and CSV listings hold unless `--limit` says otherwise;
+/// beyond it, `--limit all`.
+pub const MACHINE_LISTING_LENGTH: usize = 1_000;
+
+/// A listing's length: a count, or every candidate.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Limit {
+    Count(usize),
+    All,
+}
+
+/// clap parser for `--limit`: a whole number or `all`.
+pub fn limit_arg(text: &str) -> Result<Limit, String> {
+    if text.trim().eq_ignore_ascii_case("all") {
+        return Ok(Limit::All);
+    }
+    text.trim()
+        .parse()
+        .map(Limit::Count)
+        .map_err(|_| format!("`{text}` is neither a whole number nor `all`"))
+}
+
 /// How a listing of candidates is written.
 #[derive(clap::Args, Clone, Debug)]
 pub struct ListingArgs {
-    /// Show at most N candidates (default: the first few in tables and Markdown, all in
-    /// JSON and CSV).
-    #[arg(long, value_name = "N")]
-    pub limit: Option<usize>,
+    /// Show at most N candidates, or `all` (default: the first few in tables and
+    /// Markdown, the first 1000 in JSON and CSV). Only the first N are kept in memory.
+    #[arg(long, value_name = "N|all", value_parser = limit_arg)]
+    pub limit: Option<Limit>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = ListFormat::Table)]
     pub format: ListFormat,
 }
 
 impl ListingArgs {
-    /// How many candidates a listing shows; `for_reading` in tables and Markdown.
+    /// How many candidates a listing shows (`None`: every one); `for_reading` in tables
+    /// and Markdown, [`MACHINE_LISTING_LENGTH`] in JSON and CSV.
     pub fn shown(&self, for_reading: usize) -> Option<usize> {
         match (self.limit, self.format) {
-            (Some(n), _) => Some(n),
+            (Some(Limit::Count(n)), _) => Some(n),
+            (Some(Limit::All), _) => None,
             (None, ListFormat::Table | ListFormat::Markdown) => Some(for_reading),
-            (None, _) => None,
+            (None, _) => Some(MACHINE_LISTING_LENGTH),
+        }
+    }
+
+    /// The count `--limit` gave, if any (`all` and no option: `None`).
+    pub fn count(&self) -> Option<usize> {
+        match self.limit {
+            Some(Limit::Count(n)) => Some(n),
+            _ => None,
         }
     }
 }

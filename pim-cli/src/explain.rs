@@ -51,6 +51,7 @@ pub fn run(args: Args) -> CliResult {
     let s = &args.search;
     let params = s.params(args.input.freq, s.rx_bw);
     let junction = s.rx_site();
+    let shown = args.listing.shown(20);
     let query = Query {
         params,
         junction,
@@ -59,6 +60,7 @@ pub fn run(args: Args) -> CliResult {
         model: s.junction_model(),
         coefficients: coefficients.clone(),
         logbook,
+        limit: shown,
     };
     let answer = site.explain(&query);
     let (ranking, found, logbook) = (&answer.ranking, answer.found, query.logbook.as_ref());
@@ -69,7 +71,8 @@ pub fn run(args: Args) -> CliResult {
         co_channel: &answer.co_channel,
     };
     let mut out = stdout();
-    let shown = args.listing.shown(20);
+    let total = answer.ranking.total;
+    let counted = counted_text(&answer);
     match args.listing.format {
         ListFormat::Table => {
             let n = shown.unwrap_or(usize::MAX);
@@ -87,22 +90,13 @@ pub fn run(args: Args) -> CliResult {
             write!(
                 out,
                 "{}",
-                narrowing_text(
-                    emitters,
-                    &coefficients,
-                    found,
-                    ranking.candidates.len(),
-                    logbook
-                )
+                narrowing_text(emitters, &coefficients, found, answer.kept, logbook)
             )?;
-            let total = ranking.candidates.len();
-            let products = answer.products.len();
             writeln!(
                 out,
-                "{products} product{} land{} in the channel ({total} candidate{} with the ways each can be made); {}.{}\n",
-                if products == 1 { "" } else { "s" },
-                if products == 1 { "s" } else { "" },
+                "{counted}{total} candidate{} (a product with a way it can be made) land{} in the channel; {}.{}\n",
                 if total == 1 { "" } else { "s" },
+                if total == 1 { "s" } else { "" },
                 ranking.basis(),
                 if total > n {
                     format!(" The first {n}:")
@@ -125,7 +119,15 @@ pub fn run(args: Args) -> CliResult {
                 markdown_text(&listing, shown.unwrap_or(usize::MAX))
             )?;
         }
-        ListFormat::Csv => write_csv(&mut out, &listing, shown, None, true)?,
+        ListFormat::Csv => {
+            write_csv(&mut out, &listing, shown, None, true)?;
+            if ranking.candidates.len() < total || !answer.complete {
+                eprintln!(
+                    "pim: note: {} of {counted}{total} candidates written; --limit all writes every one",
+                    ranking.candidates.len()
+                );
+            }
+        }
         ListFormat::Json => {
             let mut inputs = s.inputs_json();
             inputs["target_mhz"] = json!(args.input.freq.mhz());
@@ -156,11 +158,22 @@ pub fn run(args: Args) -> CliResult {
             }
             writeln!(out, "  \"co_channel\": {},", co_channel_json(&listing))?;
             writeln!(out, "  \"found\": {found},")?;
-            writeln!(out, "  \"total\": {},", ranking.candidates.len())?;
+            writeln!(out, "  \"total\": {total},")?;
+            writeln!(out, "  \"counted_all\": {},", answer.complete)?;
+            writeln!(out, "  \"shown\": {},", ranking.candidates.len())?;
             write!(out, "  \"candidates\": ")?;
             write_json_array(&mut out, &listing, shown)?;
             writeln!(out, "\n}}")?;
         }
     }
     finish(out)
+}
+
+/// "at least " when products that provably rank below the listing were not counted.
+fn counted_text(answer: &pim_core::Explanation) -> &'static str {
+    if answer.complete {
+        ""
+    } else {
+        "at least "
+    }
 }

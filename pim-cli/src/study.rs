@@ -48,24 +48,6 @@ pub fn run(args: Args) -> CliResult {
     } else {
         None
     };
-    let mut results = Vec::with_capacity(rx_file.receivers.len());
-    for rx in &rx_file.receivers {
-        let params = s.params(rx.freq, rx.bandwidth.unwrap_or(s.rx_bw));
-        let junction = rx.position.or(s.rx_site());
-        let answer = site.explain(&Query {
-            params,
-            junction,
-            model,
-            ..Query::new(rx.freq)
-        });
-        results.push((params, junction, answer.ranking, answer.co_channel));
-        if let Some(bar) = &progress {
-            bar.inc(1);
-        }
-    }
-    if let Some(bar) = progress {
-        bar.finish_and_clear();
-    }
     let mut out = stdout();
     let format = args.listing.format;
     let shown = args.listing.shown(10);
@@ -81,21 +63,45 @@ pub fn run(args: Args) -> CliResult {
         )?;
         writeln!(out, "  \"receivers\": [")?;
     }
-    for (i, (rx, (params, junction, ranking, co))) in
-        rx_file.receivers.iter().zip(&results).enumerate()
-    {
+    let receivers = &rx_file.receivers;
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+    // Each receiver on its own thread, written in file order as soon as it and every
+    // earlier one are done.
+    let work = |i: usize| {
+        let rx = &receivers[i];
+        let params = s.params(rx.freq, rx.bandwidth.unwrap_or(s.rx_bw));
+        let junction = rx.position.or(s.rx_site());
+        let answer = site.explain(&Query {
+            params,
+            junction,
+            model,
+            limit: shown,
+            ..Query::new(rx.freq)
+        });
+        (params, junction, answer)
+    };
+    let write_one = |i: usize,
+                     (params, junction, answer): (
+        pim_core::intermod::SearchParams,
+        Option<pim_core::geo::GeoPoint>,
+        pim_core::Explanation,
+    )|
+     -> std::io::Result<()> {
+        let rx = &receivers[i];
+        let ranking = &answer.ranking;
         let listing = Listing {
             emitters,
-            params,
+            params: &params,
             ranking,
-            co_channel: co,
+            co_channel: &answer.co_channel,
         };
+        let total = ranking.total;
+        let at_least = if answer.complete { "" } else { "at least " };
         match format {
             ListFormat::Table => {
-                let total = ranking.candidates.len();
                 writeln!(
                     out,
-                    "━━ {} ━━ {} product{}; {}.",
+                    "━━ {} ━━ {at_least}{} product{}; {}.",
                     rx.id,
                     total,
                     if total == 1 { "" } else { "s" },
@@ -105,10 +111,10 @@ pub fn run(args: Args) -> CliResult {
                     out,
                     "{}",
                     channel_summary(
-                        params,
+                        &params,
                         emitters.len(),
                         &args.emitters.display().to_string(),
-                        *junction
+                        junction
                     )
                 )?;
                 write!(out, "{}", co_channel_text(&listing))?;
@@ -137,7 +143,7 @@ pub fn run(args: Args) -> CliResult {
                 }
                 write!(
                     out,
-                    "  {{\"id\": {}, \"freq_mhz\": {}, \"bw_khz\": {}, \"co_channel\": {}, \"ranking_basis\": {}, \"outlook\": {}, \"next_steps\": {}, \"total\": {}, \"candidates\": ",
+                    "  {{\"id\": {}, \"freq_mhz\": {}, \"bw_khz\": {}, \"co_channel\": {}, \"ranking_basis\": {}, \"outlook\": {}, \"next_steps\": {}, \"total\": {}, \"counted_all\": {}, \"shown\": {}, \"candidates\": ",
                     json!(rx.id),
                     json!(rx.freq.mhz()),
                     json!(params.rx_bandwidth.khz()),
@@ -145,12 +151,23 @@ pub fn run(args: Args) -> CliResult {
                     json!(ranking.basis()),
                     outlook_json(ranking)["outlook"],
                     outlook_json(ranking)["next_steps"],
+                    total,
+                    answer.complete,
                     ranking.candidates.len()
                 )?;
                 write_json_array(&mut out, &listing, shown)?;
                 write!(out, "}}")?;
             }
         }
+        out.flush()?;
+        if let Some(bar) = &progress {
+            bar.inc(1);
+        }
+        Ok(())
+    };
+    pim_core::study::in_order(receivers.len(), threads, work, write_one)?;
+    if let Some(bar) = &progress {
+        bar.finish_and_clear();
     }
     if format == ListFormat::Json {
         writeln!(out, "\n  ]\n}}")?;

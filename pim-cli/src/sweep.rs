@@ -98,7 +98,12 @@ pub fn run(args: Args) -> CliResult {
     let emitters = load_emitters(&args.emitters)?;
     let trace = load_traces(&args.traces)?;
     let s = &args.search;
-    let rule = sweep_rule(s, args.threshold_db, args.floor_window, args.listing.limit);
+    let rule = sweep_rule(
+        s,
+        args.threshold_db,
+        args.floor_window,
+        args.listing.count(),
+    );
     let sweep = analyse(&trace, &emitters, &rule);
     let sources = args
         .traces

@@ -56,7 +56,9 @@ pub mod plan;
 pub mod rank;
 pub mod site;
 pub mod slope;
+pub mod study;
 pub mod ticket;
+mod top;
 pub mod trace;
 pub mod walk;
 

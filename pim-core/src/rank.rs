@@ -202,8 +202,11 @@ pub enum NextStep {
 /// Ranked candidates and what the ranking rested on.
 #[derive(Clone, Debug)]
 pub struct Ranking {
-    /// The candidates, best first.
+    /// The candidates kept, in ranking order (the first K when a limit was given).
     pub candidates: Vec<Candidate>,
+    /// How many candidates were weighed: every one when no limit was given; with a
+    /// limit, those of the products the search examined (see [`crate::site::Explanation`]).
+    pub total: usize,
     /// The junction location used for fields (the receiver site, or a fix).
     pub junction: Option<GeoPoint>,
     /// Where the candidates are heard.
@@ -270,7 +273,7 @@ impl Ranking {
     }
 
     fn basis_after_evidence(&self) -> String {
-        let total = self.candidates.len();
+        let total = self.total;
         match (self.junction, self.unlevelled) {
             (None, _) => "ranked by order, then offset: no junction location given, so no levels".to_string(),
             (Some(_), 0) => "ranked by predicted level in the receive channel".to_string(),
@@ -568,36 +571,124 @@ pub fn rank_candidates(
     params: &SearchParams,
     inputs: &RankInputs,
 ) -> Ranking {
-    let model = inputs.model;
-    let junction = inputs.placement.junction;
-    let receiver = inputs.placement.receiver();
-    let incidence = emitters
-        .iter()
-        .map(|e| junction.and_then(|j| model.incidence(e, j)))
-        .collect();
-    let receiver_modelled = model.rx_iip3_dbm.is_some() && receiver.is_some();
-    let mut unmodelled = Vec::new();
-    if model.rx_iip3_dbm.is_none() {
-        unmodelled.push((Mechanism::Receiver, Missing::Iip3));
-    } else if receiver.is_none() {
-        unmodelled.push((Mechanism::Receiver, Missing::Location));
-    }
-    let mut ranking = Ranking {
-        candidates: Vec::with_capacity(products.len()),
-        junction,
-        receiver,
-        model,
-        incidence,
-        unlevelled: 0,
-        by_evidence: inputs.logbook.is_some(),
-        calibrated: false,
-        unmodelled,
-        outlook: Outlook::NothingLands,
-    };
-    let carriers = carriers(emitters);
+    let ranker = Ranker::new(emitters, params, inputs);
+    let mut tally = Tally::default();
     let mut candidates = Vec::with_capacity(products.len());
     for product in &products {
-        for mut c in mechanisms_of(product, receiver_modelled) {
+        let from = candidates.len();
+        ranker.evaluate(product, &mut candidates);
+        for c in &candidates[from..] {
+            tally.count(c);
+        }
+    }
+    candidates.sort_by(|a, b| ranker.cmp(a, b));
+    tally.first_levelled = candidates.iter().find(|c| c.breakdown.is_some()).copied();
+    ranker.finish(candidates, tally)
+}
+
+/// What a ranking counts over every candidate it weighs, kept or not.
+#[derive(Clone, Copy, Debug, Default)]
+pub(crate) struct Tally {
+    pub(crate) total: usize,
+    pub(crate) unlevelled: usize,
+    pub(crate) calibrated: bool,
+    pub(crate) credible: bool,
+    pub(crate) levelled: bool,
+    /// The first levelled candidate in ranking order, for the relative levels.
+    pub(crate) first_levelled: Option<Candidate>,
+}
+
+impl Tally {
+    pub(crate) fn count(&mut self, c: &Candidate) {
+        self.total += 1;
+        self.calibrated |= c.calibration.is_some();
+        if c.level_dbm.is_none() {
+            self.unlevelled += 1;
+        } else {
+            self.levelled = true;
+            self.credible |= !c.implausible && !c.away_from_fix;
+        }
+    }
+}
+
+/// Everything ranking one product needs, worked out once per ranking: the fields of the
+/// emitters at the junction, which mechanisms are modelled, the carriers.
+pub(crate) struct Ranker<'a> {
+    emitters: &'a [Emitter],
+    params: &'a SearchParams,
+    inputs: &'a RankInputs<'a>,
+    carriers: Vec<crate::emitter::Carrier>,
+    receiver_modelled: bool,
+    /// The ranking's frame: everything but the candidates and the counts.
+    pub(crate) shell: Ranking,
+}
+
+impl<'a> Ranker<'a> {
+    pub(crate) fn new(
+        emitters: &'a [Emitter],
+        params: &'a SearchParams,
+        inputs: &'a RankInputs<'a>,
+    ) -> Ranker<'a> {
+        let model = inputs.model;
+        let junction = inputs.placement.junction;
+        let receiver = inputs.placement.receiver();
+        let incidence = emitters
+            .iter()
+            .map(|e| junction.and_then(|j| model.incidence(e, j)))
+            .collect();
+        let receiver_modelled = model.rx_iip3_dbm.is_some() && receiver.is_some();
+        let mut unmodelled = Vec::new();
+        if model.rx_iip3_dbm.is_none() {
+            unmodelled.push((Mechanism::Receiver, Missing::Iip3));
+        } else if receiver.is_none() {
+            unmodelled.push((Mechanism::Receiver, Missing::Location));
+        }
+        Ranker {
+            emitters,
+            params,
+            inputs,
+            carriers: carriers(emitters),
+            receiver_modelled,
+            shell: Ranking {
+                candidates: Vec::new(),
+                total: 0,
+                junction,
+                receiver,
+                model,
+                incidence,
+                unlevelled: 0,
+                by_evidence: inputs.logbook.is_some(),
+                calibrated: false,
+                unmodelled,
+                outlook: Outlook::NothingLands,
+            },
+        }
+    }
+
+    pub(crate) fn receiver_modelled(&self) -> bool {
+        self.receiver_modelled
+    }
+
+    /// Appends the candidates of `product`, each levelled where it can be.
+    pub(crate) fn evaluate(&self, product: &Product, out: &mut Vec<Candidate>) {
+        self.evaluate_only(product, out, &|_| true)
+    }
+
+    /// [`Ranker::evaluate`] for the mechanisms `keep` accepts.
+    pub(crate) fn evaluate_only(
+        &self,
+        product: &Product,
+        out: &mut Vec<Candidate>,
+        keep: &dyn Fn(Mechanism) -> bool,
+    ) {
+        let (emitters, inputs, params) = (self.emitters, self.inputs, self.params);
+        let ranking = &self.shell;
+        let model = ranking.model;
+        let (junction, receiver) = (ranking.junction, ranking.receiver);
+        for mut c in mechanisms_of(product, self.receiver_modelled) {
+            if !keep(c.mechanism) {
+                continue;
+            }
             c.evidence = inputs.logbook.map(|book| book.evidence(product));
             if let (Some(j), Some(radius)) = (junction, inputs.placement.fix_radius_m) {
                 let at = match source_of(&c, emitters, j) {
@@ -607,7 +698,7 @@ pub fn rank_candidates(
                 c.away_from_fix = at.is_some_and(|p| crate::geo::distance_m(p, j) > radius);
             }
             match (junction, receiver) {
-                (Some(j), Some(rx)) => match source_level(&c, emitters, &ranking, rx) {
+                (Some(j), Some(rx)) => match source_level(&c, emitters, ranking, rx) {
                     Ok((level, junction_terms)) => {
                         let path = match source_of(&c, emitters, j) {
                             Some((from, h)) => {
@@ -617,7 +708,7 @@ pub fn rank_candidates(
                         };
                         let fraction = channel_fraction(
                             product.offset(params.target),
-                            product.bandwidth(&carriers),
+                            product.bandwidth(&self.carriers),
                             params.rx_bandwidth,
                         );
                         let channel_db = 10.0 * fraction.log10();
@@ -630,7 +721,7 @@ pub fn rank_candidates(
                             in_channel_dbm: level - path + channel_db,
                         };
                         c.level_dbm = Some(level);
-                        c.calibration = calibrate(&c, &b, emitters, &ranking, j, inputs.heard);
+                        c.calibration = calibrate(&c, &b, emitters, ranking, j, inputs.heard);
                         c.implausible = c
                             .calibration
                             .and_then(|k| k.required_im3_dbc)
@@ -641,13 +732,13 @@ pub fn rank_candidates(
                 },
                 _ => c.missing = Some(Missing::Location),
             }
-            candidates.push(c);
+            out.push(c);
         }
     }
-    ranking.calibrated = candidates.iter().any(|c| c.calibration.is_some());
-    ranking.unlevelled = candidates.iter().filter(|c| c.level_dbm.is_none()).count();
-    let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
-    candidates.sort_by(|a, b| {
+
+    /// The ranking order (module docs): `Less` when `a` ranks before `b`.
+    pub(crate) fn cmp(&self, a: &Candidate, b: &Candidate) -> Ordering {
+        let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
         let by_evidence = match (&a.evidence, &b.evidence) {
             (Some(x), Some(y)) => x.ranking_cmp(y),
             _ => Ordering::Equal,
@@ -658,42 +749,50 @@ pub fn rank_candidates(
             (None, Some(_)) => Ordering::Greater,
             (None, None) => Ordering::Equal,
         };
+        let target = self.params.target;
         by_evidence
             .then(a.away_from_fix.cmp(&b.away_from_fix))
             .then(by_level)
             .then(a.product.order().cmp(&b.product.order()))
             .then(
                 a.product
-                    .offset(params.target)
+                    .offset(target)
                     .0
                     .abs()
-                    .cmp(&b.product.offset(params.target).0.abs()),
+                    .cmp(&b.product.offset(target).0.abs()),
             )
-            .then_with(|| tie_break(&a.product, &b.product, emitters))
+            .then_with(|| tie_break(&a.product, &b.product, self.emitters))
             .then(a.mechanism.cmp(&b.mechanism))
-    });
-    let first = candidates.iter().find_map(heard_key);
-    for (i, c) in candidates.iter_mut().enumerate() {
-        c.rank = i + 1;
-        c.relative_db = match (heard_key(c), first) {
-            (Some(x), Some(f)) => Some(x - f),
-            _ => None,
-        };
     }
-    ranking.outlook = if candidates.is_empty() {
-        Outlook::NothingLands
-    } else if candidates
-        .iter()
-        .any(|c| c.level_dbm.is_some() && !c.implausible && !c.away_from_fix)
-    {
-        Outlook::Credible
-    } else if candidates.iter().any(|c| c.level_dbm.is_some()) {
-        Outlook::OnlyImplausible
-    } else {
-        Outlook::Unlevelled
-    };
-    ranking.candidates = candidates;
-    ranking
+
+    /// The ranking of `candidates`, already in ranking order, with the counts of every
+    /// candidate weighed.
+    pub(crate) fn finish(self, mut candidates: Vec<Candidate>, tally: Tally) -> Ranking {
+        let mut ranking = self.shell;
+        let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
+        let first = tally.first_levelled.as_ref().and_then(heard_key);
+        for (i, c) in candidates.iter_mut().enumerate() {
+            c.rank = i + 1;
+            c.relative_db = match (heard_key(c), first) {
+                (Some(x), Some(f)) => Some(x - f),
+                _ => None,
+            };
+        }
+        ranking.calibrated = tally.calibrated;
+        ranking.unlevelled = tally.unlevelled;
+        ranking.total = tally.total;
+        ranking.outlook = if tally.total == 0 {
+            Outlook::NothingLands
+        } else if tally.credible {
+            Outlook::Credible
+        } else if tally.levelled {
+            Outlook::OnlyImplausible
+        } else {
+            Outlook::Unlevelled
+        };
+        ranking.candidates = candidates;
+        ranking
+    }
 }
 
 #[cfg(test)]

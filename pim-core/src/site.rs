@@ -62,14 +62,21 @@ impl Site {
         formula(product, &self.emitters)
     }
 
-    /// Searches, narrows and ranks (module docs).
+    /// Searches, narrows and ranks (module docs). With [`Query::limit`] only the first K
+    /// candidates are kept, in memory bounded by K and the emitters ([`crate::top`]).
     pub fn explain(&self, query: &Query) -> Explanation {
+        // The pruned search ranks with the junction at the receiver and no calibration;
+        // with a receiver elsewhere or heard levels the whole listing is ranked.
+        if let (Some(k), true, None) = (query.limit, query.heard.is_empty(), query.receiver) {
+            return crate::top::explain_top(self, query, k);
+        }
         let Hits {
             mut products,
             co_channel,
         } = find_products(&self.carriers, &query.params);
         let found = products.len();
         retain_coefficients(&mut products, &query.coefficients);
+        let kept = products.len();
         let ranking = rank_candidates(
             products.clone(),
             &self.emitters,
@@ -92,6 +99,9 @@ impl Site {
             products,
             co_channel,
             found,
+            kept,
+            limit: None,
+            complete: true,
             ranking,
         }
     }
@@ -115,6 +125,9 @@ pub struct Query {
     pub coefficients: Vec<(usize, u32)>,
     /// On-air and listening logs, ranked before the level when given.
     pub logbook: Option<Logbook>,
+    /// Keep only the first K candidates (equal to the first K of the full ranking), in
+    /// memory bounded by K and the emitters; `None` keeps every candidate.
+    pub limit: Option<usize>,
 }
 
 impl Query {
@@ -132,6 +145,7 @@ impl Query {
             model: LevelModel::default(),
             coefficients: Vec::new(),
             logbook: None,
+            limit: None,
         }
     }
 }
@@ -145,12 +159,22 @@ pub struct Explanation {
     pub model: LevelModel,
     /// The heard levels the ranking was calibrated against.
     pub heard: Vec<HeardLevel>,
-    /// The products kept after narrowing, in search order.
+    /// The products kept after narrowing, in search order; with a limit, only those of
+    /// the candidates kept, in ranking order.
     pub products: Vec<Product>,
     /// Emitters whose own carrier lies in the channel (co-channel, not a product).
     pub co_channel: Vec<usize>,
-    /// Products the search found before the coefficients narrowed them.
+    /// Products the search found before the coefficients narrowed them (with a limit,
+    /// those it examined: see `complete`).
     pub found: usize,
+    /// Of those, the products the coefficients kept.
+    pub kept: usize,
+    /// The limit the candidates were cut to.
+    pub limit: Option<usize>,
+    /// Whether every product landing in the channel was counted in `found`, `kept` and
+    /// [`Ranking::total`]. With a limit, products of emitters (or of orders) that provably
+    /// rank below the K-th candidate are not searched, and are not counted.
+    pub complete: bool,
     /// The products ranked.
     pub ranking: Ranking,
 }

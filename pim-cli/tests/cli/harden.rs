@@ -382,11 +382,7 @@ fn junction_model_options_are_bounded() {
             "1e300",
             "1e300 dBm is outside -60…60 dBm",
         ),
-        (
-            "--order-step-db",
-            "-5",
-            "-5 dB is outside 0…40 dB",
-        ),
+        ("--order-step-db", "-5", "-5 dB is outside 0…40 dB"),
     ] {
         let o = pim(&[
             "explain",

@@ -277,10 +277,17 @@ fn cost(model: &BearingModel, scale: &[f64], e: f64, n: f64) -> f64 {
     r.iter().zip(scale).map(|(r, s)| (r * s).powi(2)).sum()
 }
 
+/// Gauss–Newton stops when the norm of the weighted residuals changes by less than this
+/// fraction of its value at the start: relative, so the iterations stay near ten at any
+/// number of readings (an absolute change of a sum over all readings cannot fall below
+/// its own rounding once the readings are many).
+const RELATIVE_COST_TOLERANCE: f64 = 1e-10;
+
 /// Gauss–Newton from `start` (local metres); falls back to a damped step, and to the start
 /// itself, when a full step does not lower the cost.
 fn gauss_newton(model: &BearingModel, scale: &[f64], start: (f64, f64)) -> Result<(f64, f64)> {
     let start_cost = cost(model, scale, start.0, start.1);
+    let tolerance = (RELATIVE_COST_TOLERANCE * start_cost.sqrt()).max(1e-14);
     let mut best = (start, start_cost);
     for gamma in [1.0, 0.5, 0.25] {
         let problem = Problem {
@@ -290,7 +297,7 @@ fn gauss_newton(model: &BearingModel, scale: &[f64], start: (f64, f64)) -> Resul
         };
         let solver = GaussNewton::new()
             .with_gamma(gamma)
-            .and_then(|s| s.with_tolerance(1e-14))
+            .and_then(|s| s.with_tolerance(tolerance))
             .map_err(|e| FixRefusal::Solver {
                 detail: e.to_string(),
             })?;
@@ -490,14 +497,12 @@ fn fit_robust(
             .collect();
         let next = gauss_newton(model, &scale, at)?;
         let moved = (next.0 - at.0).hypot(next.1 - at.1);
-        let settled = weights
-            .iter()
-            .zip(&new_weights)
-            .all(|(a, b)| (a - b).abs() < 1e-6)
-            && (s - s_before).abs() <= 1e-6 * s;
+        let settled = (s - s_before).abs() <= 1e-6 * s;
         at = next;
         weights = new_weights;
-        // a millimetre, weights and scale steady: settled for any survey purpose
+        // a millimetre and the scale steady to a part in a million: the weights are a
+        // function of both, so they are steady too; settled for any survey purpose, at any
+        // number of readings
         if moved < 1e-3 && settled {
             break;
         }

@@ -214,34 +214,66 @@ pub(crate) fn coefficient_sets(n: usize, max_order: u32) -> Vec<Vec<i64>> {
 /// Finds every product of one to three distinct emitters that hits the channel (the hit
 /// rule in the module docs), and the co-channel emitters. `carriers[i]` is emitter `i`.
 pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
-    let mut hits = Hits::default();
-    let max_order = params.max_order.min(MAX_ORDER);
+    let mut hits = Hits {
+        products: Vec::new(),
+        co_channel: co_channel(carriers, params),
+    };
+    search_products(carriers, params, 2..=MAX_ORDER, &mut |p| {
+        hits.products.push(p)
+    });
+    hits
+}
+
+/// The emitters whose own carrier (k = 1) falls in the channel, by index.
+pub fn co_channel(carriers: &[Carrier], params: &SearchParams) -> Vec<usize> {
+    carriers
+        .iter()
+        .enumerate()
+        .filter(|(_, c)| params.hits(c.freq, c.bandwidth))
+        .map(|(i, _)| i)
+        .collect()
+}
+
+/// Hands every product that hits the channel, of an order in `orders` (and at most
+/// `params.max_order`), to `visit`, one at a time and each once, without keeping them:
+/// the memory of the search does not grow with the number of products.
+pub fn search_products(
+    carriers: &[Carrier],
+    params: &SearchParams,
+    orders: std::ops::RangeInclusive<u32>,
+    visit: &mut dyn FnMut(Product),
+) {
+    let max_order = params.max_order.min(MAX_ORDER).min(*orders.end());
+    let min_order = (*orders.start()).max(2);
+    if max_order < min_order {
+        return;
+    }
+    let in_orders = |v: &Vec<i64>| {
+        let n: i64 = v.iter().map(|k| k.abs()).sum();
+        n >= min_order as i64 && n <= max_order as i64
+    };
     let f0 = params.target.0;
     let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
     let s = Sorted::new(carriers);
     let n = s.freq.len();
 
-    // One emitter: co-channel (k = 1) and harmonics (k ≥ 2).
+    // One emitter with k ≥ 2: harmonics.
     for (i, c) in carriers.iter().enumerate() {
-        for k in 1..=max_order.max(1) as i64 {
+        for k in min_order as i64..=max_order as i64 {
             let p = Hz(k * c.freq.0);
             if params.hits(p, Hz(k * c.bandwidth.0)) {
-                if k == 1 {
-                    hits.co_channel.push(i);
-                } else {
-                    hits.products.push(Product::new(
-                        &[Term {
-                            emitter: i,
-                            coefficient: k as i32,
-                        }],
-                        p,
-                    ));
-                }
+                visit(Product::new(
+                    &[Term {
+                        emitter: i,
+                        coefficient: k as i32,
+                    }],
+                    p,
+                ));
             }
         }
     }
-    if params.max_emitters < 2 || max_order < 2 || n < 2 {
-        return hits;
+    if params.max_emitters < 2 || n < 2 {
+        return;
     }
 
     // The last emitter, with coefficient k, must satisfy 2·k·f ∈ [r2 − w, r2 + w], where
@@ -253,7 +285,7 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
                 k: i64,
                 fixed_bw: i64,
                 fixed: &[(usize, i64)],
-                out: &mut Vec<Product>| {
+                out: &mut dyn FnMut(Product)| {
         if from >= n {
             return;
         }
@@ -285,13 +317,14 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
                     emitter: s.index[j] as usize,
                     coefficient: k as i32,
                 };
-                out.push(Product::new(&terms[..=fixed.len()], p));
+                out(Product::new(&terms[..=fixed.len()], p));
             }
         }
     };
 
     let pairs: Vec<(i64, i64)> = coefficient_sets(2, max_order)
         .into_iter()
+        .filter(in_orders)
         .map(|v| (v[0], v[1]))
         .collect();
     for a in 0..n {
@@ -300,12 +333,12 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
             let r2 = 2 * (f0 - k1 * fa);
             let fixed_bw = k1.abs() * bwa;
             let w = fixed_bw + k2.abs() * s.max_bandwidth + base;
-            scan(a + 1, r2, w, k2, fixed_bw, &[(ia, k1)], &mut hits.products);
+            scan(a + 1, r2, w, k2, fixed_bw, &[(ia, k1)], visit);
         }
     }
 
     if params.max_emitters < 3 || max_order < 3 || n < 3 {
-        return hits;
+        return;
     }
     // Three emitters at sorted positions a < b < c with coefficients (k1, k2, k3): the
     // third must satisfy 2·|k3|·f_c ∈ [T − w, T + w] with T = sign(k3)·2·(f₀ − k1·f_a −
@@ -315,6 +348,7 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
     // cannot meet the emitters at all.
     let triples: Vec<[i64; 3]> = coefficient_sets(3, max_order)
         .into_iter()
+        .filter(in_orders)
         .map(|v| [v[0], v[1], v[2]])
         .collect();
     let f = &s.freq;
@@ -332,7 +366,7 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
                 continue;
             }
             let mut lo = a + 2;
-            let mut visit = |b: usize, out: &mut Vec<Product>| -> bool {
+            let mut sweep = |b: usize, out: &mut dyn FnMut(Product)| -> bool {
                 let t = t0 + slope * f[b];
                 if t - w > 2 * m * f[n - 1] {
                     return false; // T only grows from here: no partner for later b
@@ -348,7 +382,7 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
                     }
                     let p = Hz(fixed + k3 * fc);
                     if params.hits(p, Hz(fixed_bw + m * s.bandwidth[c])) {
-                        out.push(Product::new(
+                        out(Product::new(
                             &[
                                 Term {
                                     emitter: ia,
@@ -371,20 +405,19 @@ pub fn find_products(carriers: &[Carrier], params: &SearchParams) -> Hits {
             };
             if slope > 0 {
                 for b in a + 1..n - 1 {
-                    if !visit(b, &mut hits.products) {
+                    if !sweep(b, visit) {
                         break;
                     }
                 }
             } else {
                 for b in (a + 1..n - 1).rev() {
-                    if !visit(b, &mut hits.products) {
+                    if !sweep(b, visit) {
                         break;
                     }
                 }
             }
         }
     }
-    hits
 }
 
 #[cfg(test)]

@@ -11,3 +11,4 @@ mod published_checks;
 mod region_coverage;
 mod slope_simulated;
 mod sweep_checks;
+mod top_k_checks;

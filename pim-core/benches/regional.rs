@@ -1,0 +1,160 @@
+//! Regional scale (targets from the scale issue), on a seeded synthetic regional licence
+//! list: a 100 km square, emitters clustered on tower sites (VHF and UHF land mobile,
+//! paging, trunking, FM broadcast).
+//! - explain, 20,000 emitters, order ≤ 5, three emitters, junction at a tower, top 20:
+//!   at most 1 s;
+//! - a fix of 100,000 readings: ml at most 0.5 s, robust at most 1.5 s.
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use pim_core::emitter::Emitter;
+use pim_core::fix::{locate, FixOptions, Method, Reading};
+use pim_core::freq::Hz;
+use pim_core::geo::{destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint};
+use pim_core::{Query, Site};
+
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        self.0
+    }
+    fn below(&mut self, n: i64) -> i64 {
+        (self.next() % n as u64) as i64
+    }
+    fn unit(&mut self) -> f64 {
+        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
+/// The south-west corner of the square.
+const CORNER: (f64, f64) = (44.55, -122.64);
+
+/// `n` emitters on `n / 8` tower sites in a 100 km square (about 0.9° of latitude by
+/// 1.27° of longitude at 45° N): class, channel raster, width and ERP drawn per emitter.
+pub fn regional(n: usize, seed: u64) -> (Vec<Emitter>, Vec<GeoPoint>) {
+    let mut rng = Rng(seed | 1);
+    let towers: Vec<GeoPoint> = (0..(n / 8).max(1))
+        .map(|_| GeoPoint::new(CORNER.0 + 0.9 * rng.unit(), CORNER.1 + 1.27 * rng.unit()))
+        .collect();
+    let emitters = (0..n)
+        .map(|i| {
+            let tower = towers[rng.below(towers.len() as i64) as usize];
+            let class = rng.below(100);
+            // (low Hz, channels, raster Hz, width Hz, ERP W low, high, kind)
+            let (lo, channels, raster, width, erp, kind) = match class {
+                0..=39 => (
+                    150_800_000,
+                    9_000,
+                    2_500,
+                    11_250,
+                    (20.0, 300.0),
+                    "land mobile",
+                ),
+                40..=64 => (
+                    450_000_000,
+                    3_200,
+                    6_250,
+                    11_250,
+                    (20.0, 200.0),
+                    "land mobile",
+                ),
+                65..=69 => (152_000_000, 560, 12_500, 16_000, (100.0, 1_000.0), "paging"),
+                70..=94 => (
+                    851_000_000,
+                    1_440,
+                    12_500,
+                    16_000,
+                    (50.0, 500.0),
+                    "trunking",
+                ),
+                _ => (
+                    88_100_000,
+                    100,
+                    200_000,
+                    180_000,
+                    (1_000.0, 50_000.0),
+                    "FM broadcast",
+                ),
+            };
+            let f = lo + rng.below(channels) * raster;
+            let mut e = Emitter::new(format!("TX{i}"), Hz(f), Hz(width));
+            let w = erp.0 + (erp.1 - erp.0) * rng.unit();
+            e.erp_dbm = Some(pim_core::emitter::watts_to_dbm(w));
+            e.position = Some(destination(tower, 360.0 * rng.unit(), 50.0 * rng.unit()));
+            e.height_m = Some(20.0 + 60.0 * rng.unit());
+            e.kind = Some(kind.to_string());
+            e
+        })
+        .collect();
+    (emitters, towers)
+}
+
+fn explain_top(c: &mut Criterion) {
+    let (emitters, towers) = regional(20_000, 7);
+    let site = Site::new(emitters);
+    let mut query = Query::new(Hz(155_175_000));
+    query.params.max_order = 5;
+    query.params.max_emitters = 3;
+    query.junction = Some(towers[0]);
+    query.limit = Some(20);
+    let answer = site.explain(&query);
+    eprintln!(
+        "20,000 emitters: {} candidates kept, {} products examined",
+        answer.ranking.candidates.len(),
+        answer.found
+    );
+    let mut g = c.benchmark_group("regional explain");
+    g.sample_size(10);
+    g.bench_function("20000 emitters, order 5, top 20", |b| {
+        b.iter(|| site.explain(&query))
+    });
+    g.finish();
+}
+
+fn readings(n: usize) -> Vec<Reading> {
+    let truth = GeoPoint::new(45.10462, -122.414033);
+    let mut rng = Rng(0x9E37_79B9_7F4A_7C15);
+    (0..n)
+        .map(|i| {
+            let observer = destination(truth, 360.0 * rng.unit(), 100.0 + 400.0 * rng.unit());
+            let (_, brg) = distance_and_azimuth(observer, truth);
+            let err = 2.45 * (rng.unit() + rng.unit() - 1.0) * 2.0;
+            Reading {
+                line: i as u64 + 2,
+                observer,
+                bearing_deg: normalize_bearing_deg(brg + err),
+                sigma_deg: None,
+            }
+        })
+        .collect()
+}
+
+fn fix_large(c: &mut Criterion) {
+    let log = readings(100_000);
+    let mut g = c.benchmark_group("100000-reading log");
+    g.sample_size(10);
+    for (name, method) in [
+        ("ml", Method::Ml),
+        ("robust", Method::Robust),
+        ("ls", Method::Ls),
+    ] {
+        g.bench_function(name, |b| {
+            b.iter(|| {
+                locate(
+                    &log,
+                    &FixOptions {
+                        method,
+                        ..Default::default()
+                    },
+                )
+            })
+        });
+    }
+    g.finish();
+}
+
+criterion_group!(benches, explain_top, fix_large);
+criterion_main!(benches);

@@ -1,0 +1,124 @@
+//! Many receivers studied at once: each receiver's explanation is worked out on one of
+//! several threads and handed back in receiver order as soon as it and every earlier one
+//! are ready, so the first result is out long before the last is done and memory holds
+//! only the results waiting for an earlier one (at most a few per thread).
+
+use std::collections::BTreeMap;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::{mpsc, Condvar, Mutex};
+
+/// How far (in items) a thread may work ahead of the first result not yet handed back,
+/// per thread.
+const AHEAD_PER_THREAD: usize = 4;
+
+/// Runs `work(i)` for every `i` in `0..count` on `threads` threads and hands each result
+/// to `deliver` in order of `i`, from the calling thread. Stops at the first error
+/// `deliver` returns, and returns it.
+pub fn in_order<T, E, W, D>(count: usize, threads: usize, work: W, mut deliver: D) -> Result<(), E>
+where
+    T: Send,
+    W: Fn(usize) -> T + Sync,
+    D: FnMut(usize, T) -> Result<(), E>,
+{
+    let threads = threads.clamp(1, count.max(1));
+    let window = threads * AHEAD_PER_THREAD;
+    let next = AtomicUsize::new(0);
+    let stop = AtomicBool::new(false);
+    // The first index not yet handed back, and a signal when it moves.
+    let handed = (Mutex::new(0usize), Condvar::new());
+    let (tx, rx) = mpsc::channel::<(usize, T)>();
+    std::thread::scope(|scope| {
+        for _ in 0..threads {
+            let tx = tx.clone();
+            let (next, stop, handed, work) = (&next, &stop, &handed, &work);
+            scope.spawn(move || loop {
+                let i = next.fetch_add(1, Ordering::Relaxed);
+                if i >= count {
+                    return;
+                }
+                {
+                    let (lock, moved) = handed;
+                    let mut first = lock.lock().unwrap_or_else(|e| e.into_inner());
+                    while i >= *first + window && !stop.load(Ordering::Relaxed) {
+                        first = moved.wait(first).unwrap_or_else(|e| e.into_inner());
+                    }
+                }
+                if stop.load(Ordering::Relaxed) || tx.send((i, work(i))).is_err() {
+                    return;
+                }
+            });
+        }
+        drop(tx);
+        let mut waiting = BTreeMap::new();
+        let mut first = 0usize;
+        let mut outcome = Ok(());
+        for (i, result) in rx.iter() {
+            waiting.insert(i, result);
+            while let Some(result) = waiting.remove(&first) {
+                if let Err(e) = deliver(first, result) {
+                    outcome = Err(e);
+                    break;
+                }
+                first += 1;
+            }
+            let (lock, moved) = &handed;
+            *lock.lock().unwrap_or_else(|e| e.into_inner()) = first;
+            if outcome.is_err() {
+                stop.store(true, Ordering::Relaxed);
+            }
+            moved.notify_all();
+            if outcome.is_err() {
+                break;
+            }
+        }
+        outcome
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn results_come_back_in_order_from_several_threads() {
+        let mut seen = Vec::new();
+        let r: Result<(), ()> = in_order(
+            200,
+            4,
+            |i| {
+                // later items finish first now and then
+                if i % 7 == 0 {
+                    std::thread::sleep(std::time::Duration::from_millis(2));
+                }
+                i * i
+            },
+            |i, v| {
+                assert_eq!(v, i * i);
+                seen.push(i);
+                Ok(())
+            },
+        );
+        assert!(r.is_ok());
+        assert_eq!(seen, (0..200).collect::<Vec<_>>());
+    }
+
+    #[test]
+    fn an_error_stops_the_run() {
+        let mut seen = 0;
+        let r = in_order(
+            1_000,
+            3,
+            |i| i,
+            |i, _| {
+                seen += 1;
+                if i == 10 {
+                    Err("closed")
+                } else {
+                    Ok(())
+                }
+            },
+        );
+        assert_eq!(r, Err("closed"));
+        assert_eq!(seen, 11);
+    }
+}

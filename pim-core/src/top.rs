@@ -1,0 +1,405 @@
+//! The first K candidates of an explanation in memory bounded by K and the emitters,
+//! never by the number of products, and equal to the first K of the full listing.
+//!
+//! **Bounded list.** Candidates are offered one at a time to a list that keeps the best
+//! K in the ranking order of [`crate::rank`] (at most 2K + 64 held between compactions);
+//! everything is counted as it passes.
+//!
+//! **Exact bound.** Every mechanism's level is non-decreasing in each emitter's drive
+//! ([`crate::level`], "Bound for pruning"), and the channel fraction is at most 1. So
+//! for each emitter j an upper bound hⱼ on the in-channel level of any candidate whose
+//! product involves j follows from j's own drive with every other emitter at the
+//! strongest drive found: the junction law at each order with the largest form weight,
+//! the harmonic at its spurious limit, transmitter intermodulation at the least antenna
+//! isolation, the receiver's own product from the strongest inputs. The path to the
+//! receiver is taken at the lowest frequency a hit can have (free-space loss rises with
+//! frequency). Emitters are searched strongest bound first, the set doubling from 16:
+//! once the K-th levelled candidate among the emitters searched lies strictly above the
+//! bound of the first emitter left out, no product involving that emitter or any later
+//! one can enter the first K, and the search stops.
+//!
+//! **Without levels.** Emitters without ERP or location make only unlevelled candidates,
+//! which follow every levelled one by order, then offset: their products are searched
+//! one order at a time, and the search stops at the order at which the K-th candidate
+//! is settled.
+//!
+//! With on-air evidence (which ranks before the level) nothing is skipped; the list is
+//! still bounded.
+
+use std::cmp::Ordering;
+
+use crate::emitter::{Carrier, Emitter};
+use crate::intermod::SearchParams;
+use crate::intermod::{co_channel, coefficient_sets, search_products, Product, Term, MAX_ORDER};
+use crate::level::Mechanism;
+use crate::level::{
+    form_weight_db, free_space_loss_db, slant_distance_m, wavelength_m, DIPOLE_GAIN_DBI,
+};
+use crate::rank::{Candidate, Placement, RankInputs, Ranker, Tally};
+use crate::site::{Explanation, Query, Site};
+
+/// The emitters searched first: the set doubles from here until the bound settles.
+const FIRST_SET: usize = 16;
+
+/// Margin on every bound, dB: rounding in the level arithmetic never prunes a tie.
+const BOUND_MARGIN_DB: f64 = 1e-6;
+
+/// The best K candidates offered so far, with the counts of all.
+struct Best<'r, 'a> {
+    ranker: &'r Ranker<'a>,
+    k: usize,
+    held: Vec<Candidate>,
+    kth: Option<Candidate>,
+    tally: Tally,
+}
+
+impl<'r, 'a> Best<'r, 'a> {
+    fn new(ranker: &'r Ranker<'a>, k: usize) -> Self {
+        Best {
+            ranker,
+            k,
+            held: Vec::new(),
+            kth: None,
+            tally: Tally::default(),
+        }
+    }
+
+    fn offer(&mut self, c: Candidate) {
+        self.tally.count(&c);
+        if c.breakdown.is_some()
+            && self
+                .tally
+                .first_levelled
+                .is_none_or(|f| self.ranker.cmp(&c, &f) == Ordering::Less)
+        {
+            self.tally.first_levelled = Some(c);
+        }
+        if self.k == 0 {
+            return;
+        }
+        if let Some(kth) = &self.kth {
+            if self.ranker.cmp(&c, kth) != Ordering::Less {
+                return;
+            }
+        }
+        self.held.push(c);
+        if self.held.len() >= 2 * self.k + 64 {
+            self.compact();
+        }
+    }
+
+    fn compact(&mut self) {
+        let ranker = self.ranker;
+        self.held.sort_by(|a, b| ranker.cmp(a, b));
+        self.held.truncate(self.k);
+        if self.k > 0 && self.held.len() == self.k {
+            self.kth = self.held.last().copied();
+        }
+    }
+
+    /// The K-th candidate, once K are held.
+    fn kth(&mut self) -> Option<Candidate> {
+        self.compact();
+        self.kth
+    }
+}
+
+/// An upper bound on the in-channel level (dBm) of any junction or receiver candidate
+/// whose product involves each emitter (module docs); −∞ where none can be levelled, +∞
+/// where no bound holds. A transmitter's own products are listed apart, whole.
+fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f64> {
+    let n = emitters.len();
+    let r = &ranker.shell;
+    let (Some(rx), Some(_)) = (r.receiver, r.junction) else {
+        return vec![f64::NEG_INFINITY; n];
+    };
+    let m = &r.model;
+    let params = &query.params;
+    if m.drive_exponent < 0.0 || !m.drive_exponent.is_finite() {
+        return vec![f64::INFINITY; n];
+    }
+    let max_order = params.max_order.min(MAX_ORDER);
+    let max_emitters = params.max_emitters.clamp(1, 3) as usize;
+    let path_floor = |slant: f64, f: f64| {
+        free_space_loss_db(f, slant.max(wavelength_m(f) / (2.0 * std::f64::consts::PI)))
+            - m.rx_antenna_gain_dbi
+    };
+    // The largest form weight of each order, over the shapes the search makes.
+    let mut form_max = vec![f64::NEG_INFINITY; max_order as usize + 1];
+    for parts in 1..=max_emitters {
+        for ks in coefficient_sets(parts, max_order) {
+            let ks: Vec<u32> = ks.iter().map(|k| k.unsigned_abs() as u32).collect();
+            let order: u32 = ks.iter().sum();
+            if order >= 2 {
+                let f = form_weight_db(&ks);
+                let slot = &mut form_max[order as usize];
+                *slot = slot.max(f);
+            }
+        }
+    }
+    let slant: Vec<Option<f64>> = emitters
+        .iter()
+        .zip(&r.incidence)
+        .map(|(e, inc)| match inc {
+            Some(i) => Some(i.distance_m),
+            None => e.position.map(|p| {
+                slant_distance_m(
+                    crate::geo::distance_m(p, rx),
+                    e.height_m.unwrap_or(m.junction_height_m),
+                    m.junction_height_m,
+                )
+            }),
+        })
+        .collect();
+    let erp_at = |i: usize| emitters[i].position.and(emitters[i].erp_dbm);
+    let fold_max = |it: &mut dyn Iterator<Item = f64>| it.fold(f64::NEG_INFINITY, f64::max);
+    let p_max = fold_max(&mut r.incidence.iter().flatten().map(|i| i.incident_dbm));
+    let a = m.drive_exponent;
+    // Junction: the path from the junction to a receiver at it is the λ/2π floor, 6.02 dB.
+    let junction_path = 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi;
+    let junction_top = fold_max(&mut (2..=max_order).map(|order| {
+        let n = order as f64;
+        m.im3_dbm + form_max[order as usize]
+            - m.order_step_db * (n - 3.0)
+            - if order % 2 == 0 {
+                m.even_order_penalty_db
+            } else {
+                0.0
+            }
+            + a * n * (p_max - m.reference_tone_dbm)
+    })) - junction_path;
+    let rx_input: Vec<Option<f64>> = (0..n)
+        .map(|i| {
+            let (erp, s) = (erp_at(i)?, slant[i]?);
+            Some(erp + DIPOLE_GAIN_DBI - path_floor(s, emitters[i].freq.0 as f64))
+        })
+        .collect();
+    let rx_max = fold_max(&mut rx_input.iter().flatten().copied());
+    let receiver = match m.rx_iip3_dbm {
+        Some(iip3) if ranker.receiver_modelled() && max_order >= 3 => {
+            Some(2.0 * rx_max - 2.0 * iip3 + form_max[3])
+        }
+        _ => None,
+    };
+    (0..n)
+        .map(|i| {
+            let mut h = f64::NEG_INFINITY;
+            if let Some(inc) = r.incidence[i] {
+                h = h.max(junction_top - a * (p_max - inc.incident_dbm));
+            }
+            if let (Some(extra), Some(input)) = (receiver, rx_input[i]) {
+                h = h.max(input + extra);
+            }
+            if h.is_nan() {
+                f64::INFINITY
+            } else {
+                h + BOUND_MARGIN_DB
+            }
+        })
+        .collect()
+}
+
+/// Searches the emitters `ids` (indices into `carriers`) at the orders given and hands
+/// each product, in the site's index space, to `visit`.
+fn search_among(
+    carriers: &[Carrier],
+    ids: &[usize],
+    query: &Query,
+    orders: std::ops::RangeInclusive<u32>,
+    visit: &mut dyn FnMut(Product),
+) {
+    let sub: Vec<Carrier> = ids.iter().map(|&i| carriers[i]).collect();
+    search_products(&sub, &query.params, orders, &mut |p| {
+        let mut terms = [Term {
+            emitter: 0,
+            coefficient: 0,
+        }; 3];
+        let mut len = 0;
+        for (slot, t) in terms.iter_mut().zip(p.terms()) {
+            *slot = Term {
+                emitter: ids[t.emitter],
+                coefficient: t.coefficient,
+            };
+            len += 1;
+        }
+        visit(Product::new(&terms[..len], p.freq))
+    });
+}
+
+/// The first `k` candidates of [`Site::explain`] (module docs).
+pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
+    let emitters = site.emitters();
+    let carriers = site.carriers();
+    let n = emitters.len();
+    let inputs = RankInputs {
+        placement: Placement::at(query.junction),
+        model: query.model,
+        logbook: query.logbook.as_ref(),
+        heard: &[],
+    };
+    let ranker = Ranker::new(emitters, &query.params, &inputs);
+    let narrow = |p: &Product| {
+        query
+            .coefficients
+            .iter()
+            .all(|&(e, kk)| p.coefficient_of(e).unsigned_abs() == kk)
+    };
+    let mut found = 0usize;
+    let mut kept = 0usize;
+    let mut complete = true;
+    // A transmitter's harmonics and its intermodulation with one other emitter are few
+    // (one emitter, or two at third order): every one is levelled exactly, up front;
+    // the search below then weighs the junction and receiver candidates only.
+    let own = |m: Mechanism| matches!(m, Mechanism::Transmitter | Mechanism::TransmitterIm);
+    let rest = |m: Mechanism| !own(m);
+    let mut transmitters: Vec<Candidate> = Vec::new();
+    let mut trimmed = false;
+    let mut best = Best::new(&ranker, k);
+    if query.logbook.is_none() {
+        let all: Vec<usize> = (0..n).collect();
+        let mut pass = |params: SearchParams, orders: std::ops::RangeInclusive<u32>| {
+            let q = Query {
+                params,
+                ..query.clone()
+            };
+            search_among(carriers, &all, &q, orders, &mut |p| {
+                if narrow(&p) {
+                    ranker.evaluate_only(&p, &mut transmitters, &own);
+                    if transmitters.len() >= 4 * k + 256 {
+                        trimmed = true;
+                        let mut b = Best::new(&ranker, k);
+                        for c in transmitters.drain(..) {
+                            b.offer(c);
+                        }
+                        b.compact();
+                        transmitters = b.held;
+                    }
+                }
+            });
+        };
+        pass(
+            SearchParams {
+                max_emitters: 1,
+                ..query.params
+            },
+            2..=MAX_ORDER,
+        );
+        if query.params.max_emitters >= 2 {
+            pass(
+                SearchParams {
+                    max_emitters: 2,
+                    ..query.params
+                },
+                3..=3,
+            );
+        }
+    }
+    let mut scratch = Vec::with_capacity(4);
+    let every = |_: Mechanism| true;
+    let keep: &dyn Fn(Mechanism) -> bool = if query.logbook.is_some() {
+        &every
+    } else {
+        &rest
+    };
+    let mut offer = |best: &mut Best, found: &mut usize, kept: &mut usize, p: Product| {
+        *found += 1;
+        if narrow(&p) {
+            *kept += 1;
+            scratch.clear();
+            ranker.evaluate_only(&p, &mut scratch, keep);
+            for c in scratch.drain(..) {
+                best.offer(c);
+            }
+        }
+    };
+    let fresh = |transmitters: &[Candidate]| {
+        let mut b = Best::new(&ranker, k);
+        for c in transmitters {
+            b.offer(*c);
+        }
+        b
+    };
+    if query.logbook.is_some() {
+        let all: Vec<usize> = (0..n).collect();
+        search_among(carriers, &all, query, 2..=MAX_ORDER, &mut |p| {
+            offer(&mut best, &mut found, &mut kept, p)
+        });
+    } else {
+        let bounds = emitter_bounds(&ranker, query, emitters);
+        let mut order: Vec<usize> = (0..n).filter(|&i| bounds[i] > f64::NEG_INFINITY).collect();
+        order.sort_by(|&a, &b| bounds[b].total_cmp(&bounds[a]).then(a.cmp(&b)));
+        let levelled = order.len();
+        best = fresh(&transmitters);
+        let mut m = levelled.min(FIRST_SET);
+        let mut settled = false;
+        if levelled > 0 {
+            loop {
+                best = fresh(&transmitters);
+                (found, kept) = (0, 0);
+                search_among(carriers, &order[..m], query, 2..=MAX_ORDER, &mut |p| {
+                    offer(&mut best, &mut found, &mut kept, p)
+                });
+                let kth = best.kth();
+                let kth_level = kth
+                    .filter(|c| !c.implausible && !c.away_from_fix)
+                    .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm));
+                if let Some(t) = kth_level {
+                    if m == levelled || bounds[order[m]] < t {
+                        settled = true;
+                        complete = m == n;
+                        break;
+                    }
+                }
+                if m == levelled {
+                    break;
+                }
+                m = (2 * m).min(levelled);
+            }
+        }
+        if !settled && levelled < n {
+            // Products with an emitter that has no level: unlevelled, by order then offset.
+            let mut unlevelled = vec![false; n];
+            for (i, b) in bounds.iter().enumerate() {
+                unlevelled[i] = *b == f64::NEG_INFINITY;
+            }
+            let all: Vec<usize> = (0..n).collect();
+            let max_order = query.params.max_order.min(MAX_ORDER);
+            for o in 2..=max_order {
+                search_among(carriers, &all, query, o..=o, &mut |p| {
+                    if p.terms().any(|t| unlevelled[t.emitter]) {
+                        offer(&mut best, &mut found, &mut kept, p)
+                    }
+                });
+                if best
+                    .kth()
+                    .is_some_and(|c| c.breakdown.is_some() || c.product.order() <= o)
+                {
+                    complete = o == max_order;
+                    break;
+                }
+            }
+        }
+    }
+    best.compact();
+    complete &= !trimmed;
+    let Best { held, tally, .. } = best;
+    let mut products: Vec<Product> = Vec::with_capacity(held.len());
+    for c in &held {
+        if !products.contains(&c.product) {
+            products.push(c.product);
+        }
+    }
+    let ranking = ranker.finish(held, tally);
+    Explanation {
+        params: query.params,
+        model: query.model,
+        heard: query.heard.clone(),
+        products,
+        co_channel: co_channel(carriers, &query.params),
+        found,
+        kept,
+        limit: Some(k),
+        complete,
+        ranking,
+    }
+}

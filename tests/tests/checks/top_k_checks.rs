@@ -1,0 +1,107 @@
+//! The first K of a ranking kept in bounded memory equal the first K of the full
+//! ranking, with and without locations (the bound the search prunes by is exact: see
+//! `pim_core::level`, "Bound for pruning"). The reference is the full listing itself.
+
+use pim_core::emitter::{watts_to_dbm, Emitter};
+use pim_core::freq::Hz;
+use pim_core::geo::{destination, GeoPoint};
+use pim_core::level::LevelModel;
+use pim_core::{Query, Site};
+use proptest::prelude::*;
+
+/// One generated emitter: channel on a 12.5 kHz raster near 150 MHz (or an FM station),
+/// width, and optionally an ERP and a place round the junction.
+#[derive(Clone, Debug)]
+struct Spec {
+    channel: i64,
+    fm: bool,
+    width: i64,
+    erp_w: Option<f64>,
+    place: Option<(f64, f64)>,
+}
+
+fn spec() -> impl Strategy<Value = Spec> {
+    (
+        0i64..96,
+        prop::bool::weighted(0.1),
+        prop::sample::select(vec![0i64, 11_250, 16_000, 180_000]),
+        prop::option::weighted(0.9, 1.0f64..500.0),
+        prop::option::weighted(0.9, (0.0f64..360.0, 5.0f64..5_000.0)),
+    )
+        .prop_map(|(channel, fm, width, erp_w, place)| Spec {
+            channel,
+            fm,
+            width,
+            erp_w,
+            place,
+        })
+}
+
+fn build(specs: &[Spec], junction: GeoPoint, located: bool) -> Site {
+    Site::new(
+        specs
+            .iter()
+            .enumerate()
+            .map(|(i, s)| {
+                let f = if s.fm {
+                    88_100_000 + (s.channel % 100) * 200_000
+                } else {
+                    148_000_000 + s.channel * 12_500
+                };
+                let mut e = Emitter::new(format!("TX{i:02}"), Hz(f), Hz(s.width));
+                if located {
+                    e.erp_dbm = s.erp_w.map(watts_to_dbm);
+                    e.position = s.place.map(|(az, d)| destination(junction, az, d));
+                }
+                e
+            })
+            .collect(),
+    )
+}
+
+proptest! {
+    // A fixed seed and no regression files: the same cases on every run and machine.
+    #![proptest_config(ProptestConfig { cases: 256, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_201), failure_persistence: None, ..ProptestConfig::default() })]
+
+    /// `limit: Some(K)` gives exactly the first K candidates of the full ranking, ranks,
+    /// levels and relative levels included.
+    #[test]
+    fn limit_k_equals_the_first_k_of_the_full_listing(
+        specs in prop::collection::vec(spec(), 3..56),
+        target_channel in 0i64..96,
+        k in 0usize..30,
+        max_order in 2u32..7,
+        max_emitters in 1u32..4,
+        located in prop::bool::weighted(0.7),
+        iip3 in prop::option::of(-20.0f64..20.0),
+        alpha in 0.3f64..1.2,
+        narrow in prop::option::of(0u32..3),
+    ) {
+        let junction = GeoPoint::new(45.0, -122.0);
+        let site = build(&specs, junction, located);
+        let mut query = Query::new(Hz(148_000_000 + target_channel * 12_500));
+        query.params.max_order = max_order;
+        query.params.max_emitters = max_emitters;
+        query.junction = located.then_some(junction);
+        query.model = LevelModel { rx_iip3_dbm: iip3, drive_exponent: alpha, ..LevelModel::default() };
+        query.coefficients = narrow.map(|kk| vec![(0, kk)]).unwrap_or_default();
+        let full = site.explain(&query);
+        query.limit = Some(k);
+        let top = site.explain(&query);
+        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
+        prop_assert_eq!(top.ranking.candidates.len(), want.len());
+        for (a, b) in top.ranking.candidates.iter().zip(want) {
+            prop_assert_eq!(a, b);
+        }
+        prop_assert_eq!(&top.co_channel, &full.co_channel);
+        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
+        if top.complete {
+            prop_assert_eq!(top.found, full.found);
+            prop_assert_eq!(top.kept, full.kept);
+            prop_assert_eq!(top.ranking.total, full.ranking.total);
+            prop_assert_eq!(top.ranking.unlevelled, full.ranking.unlevelled);
+        } else {
+            prop_assert!(top.found <= full.found);
+        }
+    }
+}
