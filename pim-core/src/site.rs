@@ -63,7 +63,7 @@ impl Site {
     }
 
     /// Searches, narrows and ranks (module docs). With [`Query::limit`] only the first K
-    /// candidates are kept, in memory bounded by K and the emitters ([`crate::top`]).
+    /// candidates are kept, in memory bounded by K and the emitters.
     pub fn explain(&self, query: &Query) -> Explanation {
         // The pruned search ranks with the junction at the receiver and no calibration;
         // with a receiver elsewhere or heard levels the whole listing is ranked.
