@@ -3,13 +3,12 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use pim_core::walk::{rank_spots, ring, ScoredSpot};
+use pim_core::walk::{rank_spots, ring};
 use pim_io::fieldlog::read_spots;
-use serde_json::json;
 
 use crate::common::{finish, open, stdout, CliResult};
 use crate::fix::{fix_from_log, FixArgs};
-use pim_report::text_table::{Align, TextTable};
+use pim_report::walk::{next_json, next_text};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum NextFormat {
@@ -52,19 +51,6 @@ fn positive_arg(text: &str) -> Result<f64, String> {
     }
 }
 
-fn spot_json(s: &ScoredSpot) -> serde_json::Value {
-    json!({
-        "name": s.spot.name,
-        "lat": s.spot.position.lat_deg,
-        "lon": s.spot.position.lon_deg,
-        "distance_m": s.distance_m,
-        "bearing_to_fix_deg": s.bearing_to_fix_deg,
-        "expected_semi_major_m": s.expected.semi_major_m,
-        "expected_semi_minor_m": s.expected.semi_minor_m,
-        "information_det": s.information_det,
-    })
-}
-
 pub fn run(args: Args) -> CliResult {
     let (fix, _) = fix_from_log(&args.log, None, &args.fix)?;
     let spots = match (&args.candidates, args.radius_m) {
@@ -85,59 +71,11 @@ pub fn run(args: Args) -> CliResult {
     let mut out = stdout();
     match args.format {
         NextFormat::Json => {
-            let mut v = spot_json(best);
-            v["current"] = json!({
-                "semi_major_m": fix.ellipse.semi_major_m,
-                "semi_minor_m": fix.ellipse.semi_minor_m,
-                "orientation_deg": fix.ellipse.orientation_deg,
-                "confidence": fix.ellipse.confidence,
-            });
-            v["sigma_deg_assumed"] = json!(sigma);
-            v["alternatives"] = alternatives.iter().map(spot_json).collect();
+            let v = next_json(&fix, sigma, best, alternatives);
             serde_json::to_writer_pretty(&mut out, &v).map_err(std::io::Error::from)?;
             writeln!(out)?;
         }
-        NextFormat::Table => {
-            let e = &fix.ellipse;
-            writeln!(
-                out,
-                "Now: {:.0}% ellipse {:.0} × {:.0} m from {} readings; next bearing assumed σ {:.1}°.",
-                e.confidence * 100.0,
-                e.semi_major_m,
-                e.semi_minor_m,
-                fix.n_used,
-                sigma
-            )?;
-            writeln!(
-                out,
-                "Go to {}: {:.6}, {:.6}, {:.0} m from the fix; expect the antenna to point {:.0}°.\n",
-                best.spot.name.as_deref().unwrap_or("the spot"),
-                best.spot.position.lat_deg,
-                best.spot.position.lon_deg,
-                best.distance_m,
-                best.bearing_to_fix_deg
-            )?;
-            let mut t = TextTable::new(&[
-                ("spot", Align::Left),
-                ("lat", Align::Right),
-                ("lon", Align::Right),
-                ("range m", Align::Right),
-                ("ellipse after m", Align::Right),
-            ]);
-            for s in std::iter::once(best).chain(alternatives) {
-                t.push(vec![
-                    s.spot.name.clone().unwrap_or_default(),
-                    format!("{:.6}", s.spot.position.lat_deg),
-                    format!("{:.6}", s.spot.position.lon_deg),
-                    format!("{:.0}", s.distance_m),
-                    format!(
-                        "{:.0} × {:.0}",
-                        s.expected.semi_major_m, s.expected.semi_minor_m
-                    ),
-                ]);
-            }
-            write!(out, "{}", t.render())?;
-        }
+        NextFormat::Table => write!(out, "{}", next_text(&fix, sigma, best, alternatives))?,
     }
     finish(out)
 }

@@ -19,3 +19,4 @@ pub mod sweep;
 pub mod text_table;
 pub mod ticket;
 pub mod trace;
+pub mod walk;
