@@ -7,9 +7,8 @@
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use pim_core::emitter::Emitter;
-use pim_core::fix::{locate, FixOptions, Method, Reading};
 use pim_core::freq::Hz;
-use pim_core::geo::{destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint};
+use pim_core::geo::{destination, GeoPoint};
 use pim_core::{Query, Site};
 
 struct Rng(u64);
@@ -114,47 +113,5 @@ fn explain_top(c: &mut Criterion) {
     g.finish();
 }
 
-fn readings(n: usize) -> Vec<Reading> {
-    let truth = GeoPoint::new(45.10462, -122.414033);
-    let mut rng = Rng(0x9E37_79B9_7F4A_7C15);
-    (0..n)
-        .map(|i| {
-            let observer = destination(truth, 360.0 * rng.unit(), 100.0 + 400.0 * rng.unit());
-            let (_, brg) = distance_and_azimuth(observer, truth);
-            let err = 2.45 * (rng.unit() + rng.unit() - 1.0) * 2.0;
-            Reading {
-                line: i as u64 + 2,
-                observer,
-                bearing_deg: normalize_bearing_deg(brg + err),
-                sigma_deg: None,
-            }
-        })
-        .collect()
-}
-
-fn fix_large(c: &mut Criterion) {
-    let log = readings(100_000);
-    let mut g = c.benchmark_group("100000-reading log");
-    g.sample_size(10);
-    for (name, method) in [
-        ("ml", Method::Ml),
-        ("robust", Method::Robust),
-        ("ls", Method::Ls),
-    ] {
-        g.bench_function(name, |b| {
-            b.iter(|| {
-                locate(
-                    &log,
-                    &FixOptions {
-                        method,
-                        ..Default::default()
-                    },
-                )
-            })
-        });
-    }
-    g.finish();
-}
-
-criterion_group!(benches, explain_top, fix_large);
+criterion_group!(benches, explain_top);
 criterion_main!(benches);
