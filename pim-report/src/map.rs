@@ -16,7 +16,7 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use crate::picture::{
-    axis_font, bold_style, draw_header, draw_labels, fallback_svg, framed_plot, px, round_length,
+    axis_font, bold_style, draw_header, draw_labels, finished_svg, framed_plot, px, round_length,
     text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID,
     HEADER_PX, INK, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST,
     SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
@@ -100,14 +100,8 @@ pub enum MarkerKind {
 /// The map as an SVG document.
 pub fn map_svg(input: &MapInput) -> String {
     let mut svg = String::new();
-    match draw_map(input, &mut svg) {
-        Ok(_) => pim_io::text::xml_chars_only(svg),
-        Err(e) => fallback_svg(
-            MAP_WIDTH_PX,
-            MAP_HEIGHT_PX,
-            &format!("The map could not be drawn: {e}"),
-        ),
-    }
+    let drawn = draw_map(input, &mut svg);
+    finished_svg(drawn, svg, (MAP_WIDTH_PX, MAP_HEIGHT_PX), "The map")
 }
 
 /// The confidence ellipse around `center` as a ring of `n` vertices (at least 4; the

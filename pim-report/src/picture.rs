@@ -413,6 +413,21 @@ pub fn px(p: (f64, f64)) -> (i32, i32) {
     (p.0.round() as i32, p.1.round() as i32)
 }
 
+/// A drawn picture as the finished SVG document: only characters XML allows are kept
+/// (text from files may hold controls), and a drawing that failed gives the plain SVG of
+/// [`fallback_svg`] saying that `what` could not be drawn.
+pub fn finished_svg<T, E: std::fmt::Display>(
+    drawn: Result<T, E>,
+    svg: String,
+    (width, height): (u32, u32),
+    what: &str,
+) -> String {
+    match drawn {
+        Ok(_) => pim_io::text::xml_chars_only(svg),
+        Err(e) => fallback_svg(width, height, &format!("{what} could not be drawn: {e}")),
+    }
+}
+
 /// A plain SVG saying a picture could not be drawn (writing into memory does not fail
 /// in practice; this keeps a ticket whole if it ever does).
 pub fn fallback_svg(width: u32, height: u32, message: &str) -> String {

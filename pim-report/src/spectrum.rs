@@ -21,7 +21,7 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use crate::picture::{
-    axis_font, bold_style, draw_header, draw_label, draw_labels, fallback_svg, framed_plot,
+    axis_font, bold_style, draw_header, draw_label, draw_labels, finished_svg, framed_plot,
     label_size_px, px, text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob,
     LabelPlacer, PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MARGIN_PX, MOSS,
     MUTED, OCHRE, OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX,
@@ -89,14 +89,13 @@ pub struct EmitterMark {
 /// The spectrum picture as an SVG document.
 pub fn spectrum_svg(input: &SpectrumInput) -> String {
     let mut svg = String::new();
-    match draw_spectrum(input, &mut svg) {
-        Ok(_) => pim_io::text::xml_chars_only(svg),
-        Err(e) => fallback_svg(
-            SPECTRUM_WIDTH_PX,
-            SPECTRUM_HEIGHT_PX,
-            &format!("The spectrum could not be drawn: {e}"),
-        ),
-    }
+    let drawn = draw_spectrum(input, &mut svg);
+    finished_svg(
+        drawn,
+        svg,
+        (SPECTRUM_WIDTH_PX, SPECTRUM_HEIGHT_PX),
+        "The spectrum",
+    )
 }
 
 /// What the vertical axis shows.

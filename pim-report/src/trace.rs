@@ -12,7 +12,7 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 
 use crate::picture::{
-    axis_font, draw_header, draw_labels, fallback_svg, framed_plot, px, text_style, Area,
+    axis_font, draw_header, draw_labels, finished_svg, framed_plot, px, text_style, Area,
     DrawResult, LabelJob, LabelPlacer, Rect, GRID, HEADER_PX, INK, LABEL_PX, MARGIN_PX, MOSS,
     MUTED, OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
 };
@@ -64,14 +64,7 @@ pub fn trace_svg(input: &TraceInput) -> String {
             .into_drawing_area();
         draw_trace_on(&root, input).and_then(|_| root.present())
     };
-    match drawn {
-        Ok(()) => pim_io::text::xml_chars_only(svg),
-        Err(e) => fallback_svg(
-            TRACE_WIDTH_PX,
-            TRACE_HEIGHT_PX,
-            &format!("The trace could not be drawn: {e}"),
-        ),
-    }
+    finished_svg(drawn, svg, (TRACE_WIDTH_PX, TRACE_HEIGHT_PX), "The trace")
 }
 
 /// The lowest and highest level in each of `columns` equal frequency slices, as a path
