@@ -16,8 +16,7 @@ use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
 use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
-use pim_core::trace::classify::ExplainRule;
-use pim_core::trace::{analyse, MaxHold, SweepRule};
+use pim_core::trace::{analyse, MaxHold};
 use pim_io::trace::read_trace_into;
 use pim_report::ticket::{BandTrace, TicketInputs};
 
@@ -109,20 +108,14 @@ pub fn run(args: Args) -> CliResult {
     let mut hold = MaxHold::new();
     read_trace_into("trace.csv", TRACE_CSV.as_bytes(), &mut hold)?;
     if let Some(trace) = hold.finish() {
-        let rule = SweepRule {
-            threshold_db: 10.0,
-            floor_window_points: None,
-            explain: ExplainRule {
-                rx_bandwidth: inputs.params.rx_bandwidth,
-                tolerance: inputs.params.tolerance,
-                max_order: inputs.params.max_order,
-                max_emitters: inputs.params.max_emitters,
-                junction: Some(RX_SITE),
-                model: inputs.model,
-                keep_candidates: Some(5),
-            },
-            threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
-        };
+        let rule = crate::sweep::sweep_rule(
+            &inputs.params,
+            Some(RX_SITE),
+            inputs.model,
+            10.0,
+            None,
+            Some(5),
+        );
         let sweep = analyse(&trace, inputs.site.emitters(), &rule);
         inputs.band = Some(BandTrace {
             trace,

@@ -5,6 +5,10 @@
 
 use std::path::PathBuf;
 
+use pim_core::freq::Hz;
+use pim_core::geo::GeoPoint;
+use pim_core::intermod::SearchParams;
+use pim_core::level::LevelModel;
 use pim_core::trace::classify::ExplainRule;
 use pim_core::trace::{analyse, MaxHold, SweepRule, Trace};
 use pim_core::{Error, Place};
@@ -61,7 +65,9 @@ pub fn threshold_arg(text: &str) -> Result<f64, String> {
 
 /// The sweep's rule from the search options shared with `explain`.
 pub fn sweep_rule(
-    s: &SearchArgs,
+    params: &SearchParams,
+    junction: Option<GeoPoint>,
+    model: LevelModel,
     threshold_db: f64,
     floor_window: Option<u64>,
     keep: Option<usize>,
@@ -70,12 +76,12 @@ pub fn sweep_rule(
         threshold_db,
         floor_window_points: floor_window.map(|w| w as usize),
         explain: ExplainRule {
-            rx_bandwidth: s.rx_bw,
-            tolerance: s.tol,
-            max_order: s.max_order,
-            max_emitters: s.max_emitters,
-            junction: s.rx_site(),
-            model: s.junction_model(),
+            rx_bandwidth: params.rx_bandwidth,
+            tolerance: params.tolerance,
+            max_order: params.max_order,
+            max_emitters: params.max_emitters,
+            junction,
+            model,
             keep_candidates: keep,
         },
         threads: std::thread::available_parallelism().map_or(1, |n| n.get()),
@@ -99,7 +105,9 @@ pub fn run(args: Args) -> CliResult {
     let trace = load_traces(&args.traces)?;
     let s = &args.search;
     let rule = sweep_rule(
-        s,
+        &s.params(Hz::ZERO, s.rx_bw),
+        s.rx_site(),
+        s.junction_model(),
         args.threshold_db,
         args.floor_window,
         args.listing.count(),

@@ -163,7 +163,14 @@ pub fn run(args: Args) -> CliResult {
     let mut inputs = inputs;
     if !args.traces.is_empty() {
         let trace = crate::sweep::load_traces(&args.traces)?;
-        let rule = crate::sweep::sweep_rule(s, args.threshold_db, None, Some(5));
+        let rule = crate::sweep::sweep_rule(
+            &inputs.params,
+            inputs.rx_site,
+            inputs.model,
+            args.threshold_db,
+            None,
+            Some(5),
+        );
         let sweep = analyse(&trace, inputs.site.emitters(), &rule);
         let sources: Vec<String> = args
             .traces
