@@ -213,3 +213,48 @@ pub fn coefficient_arg(text: &str) -> Result<(String, u32), String> {
     }
     Ok((id.to_string(), k))
 }
+
+/// The evidence a listing can be narrowed and ranked by, shared by `explain` and
+/// `ticket`: on-air and listening logs, and coefficients from power steps.
+#[derive(clap::Args, Debug, Default)]
+pub struct EvidenceArgs {
+    /// Keep only candidates in which EMITTER carries |k| = K, as a power step found it
+    /// (K = 0: candidates without EMITTER). Repeatable.
+    #[arg(long = "coefficient", value_name = "EMITTER=K", value_parser = coefficient_arg)]
+    pub coefficients: Vec<(String, u32)>,
+    /// On-air log: CSV `emitter,start,end` with ISO 8601 times (needs --heard).
+    #[arg(long = "on-air", value_name = "FILE", requires = "heard")]
+    pub on_air: Option<PathBuf>,
+    /// Listening log: CSV `time,heard` with heard true or false (needs --on-air).
+    #[arg(long, value_name = "FILE", requires = "on_air")]
+    pub heard: Option<PathBuf>,
+}
+
+impl EvidenceArgs {
+    /// The coefficients as emitter indices of `site` (`source` names the emitter file).
+    pub fn coefficient_indices(
+        &self,
+        site: &pim_core::Site,
+        source: &str,
+    ) -> Result<Vec<(usize, u32)>, pim_core::Error> {
+        crate::common::coefficient_indices(&self.coefficients, site, source)
+    }
+
+    /// The on-air and listening logs read against `emitters`, when both are given.
+    pub fn logbook(
+        &self,
+        emitters: &[pim_core::Emitter],
+    ) -> crate::common::CliResult<Option<pim_core::onair::Logbook>> {
+        match (&self.on_air, &self.heard) {
+            (Some(on_air), Some(heard)) => {
+                Ok(Some(crate::common::load_logbook(on_air, heard, emitters)?))
+            }
+            _ => Ok(None),
+        }
+    }
+
+    /// The files read, for a ticket's list of inputs.
+    pub fn paths(&self) -> impl Iterator<Item = &std::path::Path> {
+        self.on_air.iter().chain(&self.heard).map(PathBuf::as_path)
+    }
+}

@@ -2,7 +2,6 @@
 //! a carrier heard on a receive channel, ranked by plausibility.
 
 use std::io::Write;
-use std::path::PathBuf;
 
 use pim_core::{Query, Site};
 use pim_report::candidates::{
@@ -11,26 +10,16 @@ use pim_report::candidates::{
 };
 use serde_json::json;
 
-use crate::args::{coefficient_arg, CalibrationArgs, HeardArgs, ListingArgs, SearchArgs};
-use crate::common::{
-    coefficient_indices, finish, load_emitters, load_logbook, stdout, CliResult, ListFormat,
-};
+use crate::args::{CalibrationArgs, EvidenceArgs, HeardArgs, ListingArgs, SearchArgs};
+use crate::common::{finish, load_emitters, stdout, CliResult, ListFormat};
 
 #[derive(clap::Args, Debug)]
 #[command(allow_negative_numbers = true)]
 pub struct Args {
     #[command(flatten)]
     pub input: HeardArgs,
-    /// Keep only candidates in which EMITTER carries |k| = K, as a power step found it
-    /// (K = 0: candidates without EMITTER). Repeatable.
-    #[arg(long = "coefficient", value_name = "EMITTER=K", value_parser = coefficient_arg)]
-    pub coefficients: Vec<(String, u32)>,
-    /// On-air log: CSV `emitter,start,end` with ISO 8601 times (needs --heard).
-    #[arg(long = "on-air", value_name = "FILE", requires = "heard")]
-    pub on_air: Option<PathBuf>,
-    /// Listening log: CSV `time,heard` with heard true or false (needs --on-air).
-    #[arg(long, value_name = "FILE", requires = "on_air")]
-    pub heard: Option<PathBuf>,
+    #[command(flatten)]
+    pub evidence: EvidenceArgs,
     #[command(flatten)]
     pub search: SearchArgs,
     #[command(flatten)]
@@ -43,11 +32,8 @@ pub fn run(args: Args) -> CliResult {
     let site = Site::new(load_emitters(&args.input.emitters)?);
     let emitters = site.emitters();
     let source = args.input.emitters.display().to_string();
-    let coefficients = coefficient_indices(&args.coefficients, &site, &source)?;
-    let logbook = match (&args.on_air, &args.heard) {
-        (Some(on_air), Some(heard)) => Some(load_logbook(on_air, heard, emitters)?),
-        _ => None,
-    };
+    let coefficients = args.evidence.coefficient_indices(&site, &source)?;
+    let logbook = args.evidence.logbook(emitters)?;
     let s = &args.search;
     let params = s.params(args.input.freq, s.rx_bw);
     let junction = s.rx_site();
@@ -92,18 +78,20 @@ pub fn run(args: Args) -> CliResult {
                 "{}",
                 narrowing_text(emitters, &coefficients, found, answer.kept, logbook)
             )?;
-            writeln!(
+            if total > 0 {
+                writeln!(
                 out,
                 "{counted}{total} candidate{} (a product with a way it can be made) land{} in the channel; {}.{}\n",
                 if total == 1 { "" } else { "s" },
                 if total == 1 { "s" } else { "" },
                 ranking.basis(),
-                if total > n {
+                if total > n && n > 0 {
                     format!(" The first {n}:")
                 } else {
                     String::new()
                 }
             )?;
+            }
             if args.calibration.heard_dbm.is_some() && !ranking.calibrated {
                 writeln!(
                     out,
@@ -138,8 +126,10 @@ pub fn run(args: Args) -> CliResult {
                 .iter()
                 .map(|&(i, k)| (emitters[i].id.clone(), k))
                 .collect::<std::collections::BTreeMap<_, _>>());
-            inputs["on_air_file"] = json!(args.on_air.as_ref().map(|p| p.display().to_string()));
-            inputs["heard_file"] = json!(args.heard.as_ref().map(|p| p.display().to_string()));
+            let shown_path =
+                |p: &Option<std::path::PathBuf>| p.as_ref().map(|p| p.display().to_string());
+            inputs["on_air_file"] = json!(shown_path(&args.evidence.on_air));
+            inputs["heard_file"] = json!(shown_path(&args.evidence.heard));
             inputs["heard_dbm"] = json!(args.calibration.heard_dbm);
             if let Some(book) = logbook {
                 inputs["heard_times"] = json!(book.heard_count());
@@ -166,7 +156,12 @@ pub fn run(args: Args) -> CliResult {
             writeln!(out, "\n}}")?;
         }
     }
-    finish(out)
+    finish(out)?;
+    // Nothing credible: the listing above says what to check next; exit 5.
+    match pim_report::candidates::nothing_explains_text(ranking, &params) {
+        Some(statement) => Err(pim_core::Error::refused(statement).into()),
+        None => Ok(()),
+    }
 }
 
 /// "at least " when products that provably rank below the listing were not counted.

@@ -143,10 +143,25 @@ pub struct Incidence {
     pub region: FieldRegion,
     /// Field strength at the junction, dB(µV/m).
     pub field_dbuv_m: f64,
+    /// The distance the field was worked out at, m: the slant distance, or λ/2π when
+    /// the junction lies inside the reactive near field (nothing closer is predicted).
+    pub distance_used_m: f64,
     /// Free-space loss at the distance used, dB (for reference).
     pub path_loss_db: f64,
     /// The drive: the power the coupling aperture takes from the field, dBm.
     pub incident_dbm: f64,
+}
+
+/// The path from where a product is made to the receiver.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct PathToReceiver {
+    /// Free-space loss less the receiving antenna's gain, dB.
+    pub loss_db: f64,
+    /// The slant distance from the source to the receiver, m.
+    pub distance_m: f64,
+    /// When the distance is under λ/2π, the loss is taken at λ/2π (m): nothing closer is
+    /// predicted.
+    pub floor_m: Option<f64>,
 }
 
 /// Slant distance between two points at heights above flat ground.
@@ -382,6 +397,7 @@ impl LevelModel {
             distance_m: slant,
             region,
             field_dbuv_m: field,
+            distance_used_m: used,
             path_loss_db: free_space_loss_db(f, used),
             incident_dbm: coupled_power_dbm(field, self.coupling_aperture_m2),
         })
@@ -397,6 +413,19 @@ impl LevelModel {
         from_height_m: Option<f64>,
         to: GeoPoint,
     ) -> f64 {
+        self.path_to_receiver(freq_hz, from, from_height_m, to)
+            .loss_db
+    }
+
+    /// [`LevelModel::path_to_receiver_db`] with the distance it was taken over and the
+    /// floor, when one was applied.
+    pub fn path_to_receiver(
+        &self,
+        freq_hz: f64,
+        from: GeoPoint,
+        from_height_m: Option<f64>,
+        to: GeoPoint,
+    ) -> PathToReceiver {
         let ground = distance_m(from, to);
         let slant = slant_distance_m(
             ground,
@@ -404,7 +433,11 @@ impl LevelModel {
             self.junction_height_m,
         );
         let floor = wavelength_m(freq_hz) / (2.0 * std::f64::consts::PI);
-        free_space_loss_db(freq_hz, slant.max(floor)) - self.rx_antenna_gain_dbi
+        PathToReceiver {
+            loss_db: free_space_loss_db(freq_hz, slant.max(floor)) - self.rx_antenna_gain_dbi,
+            distance_m: slant,
+            floor_m: (slant < floor).then_some(floor),
+        }
     }
 
     /// EIRP of a harmonic at the ITU-R SM.329 category A limit, dBm (module docs).

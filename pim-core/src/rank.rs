@@ -108,6 +108,11 @@ pub struct LevelBreakdown {
     pub source_level_dbm: f64,
     /// Loss from the source to the receiver less the receiving antenna's gain, dB.
     pub path_to_receiver_db: f64,
+    /// The slant distance from the source to the receiver, m (`None` for a product
+    /// made in the receiver).
+    pub path_distance_m: Option<f64>,
+    /// When that distance is under λ/2π, the loss is taken at this floor, m.
+    pub path_floor_m: Option<f64>,
     /// The fraction of the product inside the receive channel.
     pub channel_fraction: f64,
     /// 10·log10 of it, dB.
@@ -700,12 +705,10 @@ impl<'a> Ranker<'a> {
             match (junction, receiver) {
                 (Some(j), Some(rx)) => match source_level(&c, emitters, ranking, rx) {
                     Ok((level, junction_terms)) => {
-                        let path = match source_of(&c, emitters, j) {
-                            Some((from, h)) => {
-                                model.path_to_receiver_db(product.freq.0 as f64, from, h, rx)
-                            }
-                            None => 0.0,
-                        };
+                        let route = source_of(&c, emitters, j).map(|(from, h)| {
+                            model.path_to_receiver(product.freq.0 as f64, from, h, rx)
+                        });
+                        let path = route.map_or(0.0, |r| r.loss_db);
                         let fraction = channel_fraction(
                             product.offset(params.target),
                             product.bandwidth(&self.carriers),
@@ -716,6 +719,8 @@ impl<'a> Ranker<'a> {
                             junction: junction_terms,
                             source_level_dbm: level,
                             path_to_receiver_db: path,
+                            path_distance_m: route.map(|r| r.distance_m),
+                            path_floor_m: route.and_then(|r| r.floor_m),
                             channel_fraction: fraction,
                             channel_db,
                             in_channel_dbm: level - path + channel_db,

@@ -77,6 +77,8 @@ fn rounded_breakdown(b: &LevelBreakdown) -> LevelBreakdown {
         }),
         source_level_dbm: r2(b.source_level_dbm),
         path_to_receiver_db: r2(b.path_to_receiver_db),
+        path_distance_m: b.path_distance_m.map(r2),
+        path_floor_m: b.path_floor_m.map(|f| (f * 1000.0).round() / 1000.0),
         channel_fraction: (b.channel_fraction * 1e6).round() / 1e6,
         channel_db: r2(b.channel_db),
         in_channel_dbm: r2(b.in_channel_dbm),
@@ -183,6 +185,20 @@ pub fn outlook_text(ranking: &Ranking) -> Option<String> {
     Some(format!("{head} Usual next steps: {}.", steps.join("; ")))
 }
 
+/// The one-line refusal of `explain` when nothing credible lands (exit 5), naming what
+/// to check next; `None` when a candidate is credible or none could be levelled.
+pub fn nothing_explains_text(ranking: &Ranking, params: &SearchParams) -> Option<String> {
+    let why = match ranking.outlook {
+        Outlook::Credible | Outlook::Unlevelled => return None,
+        Outlook::NothingLands => "no product of the listed emitters lands in the channel",
+        Outlook::OnlyImplausible => "every product that lands would need an implausible junction",
+    };
+    Some(format!(
+        "nothing explains the carrier on {} MHz: {why}; check next for emitters missing from the list, receiver overload (the attenuator test) and a transmitter's own spurious output",
+        params.target.mhz_text()
+    ))
+}
+
 #[derive(Serialize)]
 struct NextStepJson {
     step: NextStep,
@@ -250,7 +266,7 @@ pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) 
 }
 
 /// The header of the CSV listing.
-pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,mechanism,formed_in,predicted_level_dbm,drive_db,form_db,order_db,even_order_db,path_to_receiver_db,channel_db,in_channel_dbm,relative_db,shift_db,required_im3_dbc,implausible,away_from_fix,missing,terms,kinds,owners";
+pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,mechanism,formed_in,predicted_level_dbm,drive_db,form_db,order_db,even_order_db,path_to_receiver_db,path_distance_m,path_floor_m,channel_db,in_channel_dbm,relative_db,shift_db,required_im3_dbc,implausible,away_from_fix,missing,terms,kinds,owners";
 
 /// The columns the CSV listing adds when on-air evidence was given.
 pub const CSV_EVIDENCE_HEADER: &str =
@@ -346,6 +362,10 @@ pub fn write_csv(
             cell(j.map(|j| j.order_db)),
             cell(j.map(|j| j.even_order_db)),
             cell(b.map(|b| b.path_to_receiver_db)),
+            cell(b.and_then(|b| b.path_distance_m)),
+            b.and_then(|b| b.path_floor_m)
+                .map(|f| format!("{f:.3}"))
+                .unwrap_or_default(),
             cell(b.map(|b| b.channel_db)),
             cell(b.map(|b| b.in_channel_dbm)),
             cell(c.relative_db),
@@ -384,6 +404,34 @@ fn level_text(x: Option<f64>) -> String {
 
 fn signed_text(x: Option<f64>) -> String {
     x.map(|v| signed(v, 1)).unwrap_or_else(|| "—".to_string())
+}
+
+/// The path column: the loss as a negative term, marked `*` where the distance was
+/// raised to its floor (the legend says which floor).
+fn path_text(b: Option<&LevelBreakdown>) -> String {
+    match b {
+        Some(b) if b.path_floor_m.is_some() => format!("{}*", signed(-b.path_to_receiver_db, 1)),
+        Some(b) => signed(-b.path_to_receiver_db, 1),
+        None => "—".to_string(),
+    }
+}
+
+/// What the floored path terms of the candidates shown assumed, for the legend: one
+/// line when any path was taken at its floor.
+pub fn path_floor_text(candidates: &[&Candidate]) -> Option<String> {
+    let floored: Vec<&LevelBreakdown> = candidates
+        .iter()
+        .filter_map(|c| c.breakdown.as_ref())
+        .filter(|b| b.path_floor_m.is_some())
+        .collect();
+    let first = floored.first()?;
+    let d = first.path_distance_m.unwrap_or(0.0);
+    let floor = first.path_floor_m.unwrap_or(0.0);
+    Some(format!(
+        "* path at its floor: the source lies {d:.1} m from the receiver, closer than λ/2π = {floor:.2} m, so the\n  loss is taken over {floor:.2} m, nothing closer being predicted ({} candidate{} shown).",
+        floored.len(),
+        if floored.len() == 1 { "" } else { "s" }
+    ))
 }
 
 /// A candidate's remark for the table: why it ranks low, or why it has no level.
@@ -490,7 +538,7 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
                 signed_text(j.map(|j| j.drive_db)),
                 signed_text(j.map(|j| j.form_db)),
                 signed_text(j.map(|j| j.order_db + j.even_order_db)),
-                signed_text(b.map(|b| -b.path_to_receiver_db)),
+                path_text(b.as_ref()),
                 signed_text(b.map(|b| b.channel_db)),
             ]);
         }
@@ -519,7 +567,7 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
     }
     if levelled {
         out.push('\n');
-        out.push_str(&model_legend(l, &used, &mechanisms));
+        out.push_str(&model_legend(l, &used, &mechanisms, &shown));
     }
     if let Some(s) = outlook_text(l.ranking) {
         out.push('\n');
@@ -531,7 +579,12 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
 
 /// The terms behind the level columns, with the values used, so that each row's
 /// arithmetic can be checked.
-fn model_legend(l: &Listing, used: &[bool], mechanisms: &[Mechanism]) -> String {
+fn model_legend(
+    l: &Listing,
+    used: &[bool],
+    mechanisms: &[Mechanism],
+    shown: &[&Candidate],
+) -> String {
     let m = &l.ranking.model;
     let mut out = String::new();
     let incident: Vec<String> = used
@@ -541,9 +594,12 @@ fn model_legend(l: &Listing, used: &[bool], mechanisms: &[Mechanism]) -> String 
         .filter_map(|(i, _)| {
             l.ranking.incidence[i].map(|inc| {
                 let region = match inc.region {
-                    FieldRegion::Far => "far field",
-                    FieldRegion::Cylindrical => "near field, cylindrical",
-                    FieldRegion::Reactive => "reactive near field",
+                    FieldRegion::Far => "far field".to_string(),
+                    FieldRegion::Cylindrical => "near field, cylindrical".to_string(),
+                    FieldRegion::Reactive => format!(
+                        "reactive near field: raised to λ/2π = {:.2} m",
+                        inc.distance_used_m
+                    ),
                 };
                 format!(
                     "  {:<12} ERP {:>6.1} dBm, EIRP {:>6.1} dBm, {:>6.0} m ({region}): E {:>6.1} dB(µV/m), P {:>6.1} dBm",
@@ -590,6 +646,10 @@ fn model_legend(l: &Listing, used: &[bool], mechanisms: &[Mechanism]) -> String 
         }
     }
     out.push_str("In the channel at the receiver: source + path (free-space loss to the receiver) + chan (10·log10 of the product's\n  share of the channel); rel dB = that level less the first candidate's.\n");
+    if let Some(floor) = path_floor_text(shown) {
+        out.push_str(&floor);
+        out.push('\n');
+    }
     if l.ranking.calibrated {
         out.push_str(&format!(
             "Calibrated to the level heard: needs L3 = the third-order level the junction would need, dBc of one Pref tone;\n  above {:.0} dBc (--max-im3-dbc) it is implausible. The first candidate would be heard at {}.\n",
@@ -651,6 +711,12 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
             signed_text(c.relative_db),
             md_inline(&who.join("; ")),
         ));
+    }
+    let shown: Vec<&Candidate> = l.ranking.candidates.iter().take(limit).collect();
+    if let Some(floor) = path_floor_text(&shown) {
+        out.push('\n');
+        out.push_str(&crate::document::md_text(&floor));
+        out.push('\n');
     }
     if let Some(s) = outlook_text(l.ranking) {
         out.push('\n');
