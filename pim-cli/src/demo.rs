@@ -101,8 +101,10 @@ pub fn run(args: Args) -> CliResult {
         model: LevelModel::default(),
         rx_site: Some(RX_SITE),
         heard_dbm: None,
-        top: 10,
+        limit: 10,
         band: None,
+        evidence: Default::default(),
+        work_order: Default::default(),
     };
     let mut inputs = inputs;
     let mut hold = MaxHold::new();

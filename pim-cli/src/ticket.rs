@@ -6,13 +6,18 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+use pim_core::slope::{judge, judge_power_steps, StepKind};
 use pim_core::trace::analyse;
 use pim_core::{Error, Site};
 use pim_io::emitters::read_structures;
 use pim_io::output::{write_files_atomically, Existing};
-use pim_report::ticket::{ticket_files, BandTrace, TicketInputs};
+use pim_io::{read_readings, read_receivers};
+use pim_report::ticket::{
+    ticket_files, AttenuatorTest, BandTrace, FieldEvidence, PowerStepAnswer, PowerStepTest,
+    TicketInputs, WorkOrder,
+};
 
-use crate::args::{CalibrationArgs, HeardArgs, SearchArgs};
+use crate::args::{CalibrationArgs, EvidenceArgs, HeardArgs, SearchArgs};
 use crate::common::load_emitters;
 use crate::common::{finish, open, stdout, CliResult};
 use crate::fix::{fix_from_log, FixArgs};
@@ -46,7 +51,30 @@ pub struct Args {
     pub threshold_db: f64,
     /// Candidates listed in the ticket (candidates.csv has them all).
     #[arg(long, value_name = "N", default_value_t = 10)]
-    pub top: usize,
+    pub limit: usize,
+    #[command(flatten)]
+    pub evidence: EvidenceArgs,
+    /// An attenuator test at the receiver: CSV `step_db,level_dbm` (as `pim slope --kind
+    /// attenuator` reads it); its verdict is shown as done.
+    #[arg(long, value_name = "FILE")]
+    pub attenuator_readings: Option<PathBuf>,
+    /// Power steps: CSV `step_db,level_dbm`, or `emitter,step_db,level_dbm` for several
+    /// emitters (as `pim slope --kind power` reads it); its coefficients are shown as done.
+    #[arg(long, value_name = "FILE")]
+    pub power_steps: Option<PathBuf>,
+    /// The receiver the carrier is heard on, by its id in --receivers: its channel width
+    /// and position are used, and the ticket names it.
+    #[arg(long, value_name = "ID", requires = "receivers")]
+    pub receiver: Option<String>,
+    /// Receiver file: CSV with `id`, `freq_mhz`, optional `bw_khz`, `lat`, `lon`.
+    #[arg(long, value_name = "FILE", requires = "receiver")]
+    pub receivers: Option<PathBuf>,
+    /// The ticket's number, shown at its top.
+    #[arg(long, value_name = "TEXT")]
+    pub ticket_id: Option<String>,
+    /// Who the ticket is assigned to.
+    #[arg(long, value_name = "NAME")]
+    pub assignee: Option<String>,
     #[command(flatten)]
     pub search: SearchArgs,
     /// Without --heard-dbm, the model is calibrated against the log's `level_dbm`.
@@ -79,6 +107,7 @@ pub struct Written {
     pub paths: Vec<PathBuf>,
     pub top_formula: Option<String>,
     pub total: usize,
+    pub nothing_explains: Option<String>,
 }
 
 /// Makes the ticket's files and writes them into `dir`, all or nothing (pim_io::output):
@@ -102,12 +131,19 @@ pub fn write_ticket(
         paths,
         top_formula: made.top_formula,
         total: made.total,
+        nothing_explains: made.nothing_explains,
     })
 }
 
 /// The summary printed after writing.
 pub fn print_summary(out: &mut dyn Write, t: &TicketInputs, w: &Written) -> CliResult {
     let e = &t.fix.ellipse;
+    if let Some(statement) = &w.nothing_explains {
+        writeln!(
+            out,
+            "Written all the same, for the fix and the walk: {statement}."
+        )?;
+    }
     writeln!(
         out,
         "{} products land on {} MHz; first: {}.",
@@ -131,6 +167,67 @@ pub fn print_summary(out: &mut dyn Write, t: &TicketInputs, w: &Written) -> CliR
     Ok(())
 }
 
+/// The attenuator test of a file, read as `pim slope --kind attenuator` reads it.
+fn attenuator_test(path: &Path) -> CliResult<AttenuatorTest> {
+    let source = path.display().to_string();
+    let file = read_readings(&source, open(path)?, StepKind::Attenuator)?;
+    crate::common::note_unused(&source, &file.ignored_columns);
+    let answer = judge(StepKind::Attenuator, &file.points())?;
+    Ok(AttenuatorTest { answer, source })
+}
+
+/// The power steps of a file, read as `pim slope --kind power` reads it: several
+/// emitters' slopes together, or one emitter's.
+fn power_step_test(path: &Path) -> CliResult<PowerStepTest> {
+    let source = path.display().to_string();
+    let file = read_readings(&source, open(path)?, StepKind::Power)?;
+    crate::common::note_unused(&source, &file.ignored_columns);
+    let series = file.series("the emitter");
+    let answer = if series.len() > 1 {
+        PowerStepAnswer::Several {
+            answer: judge_power_steps(&series)?,
+            counts: series.iter().map(|(_, p)| p.len()).collect(),
+        }
+    } else {
+        PowerStepAnswer::One {
+            answer: judge(StepKind::Power, &file.points())?,
+            emitter: file.readings.first().and_then(|r| r.emitter.clone()),
+        }
+    };
+    Ok(PowerStepTest { answer, source })
+}
+
+/// The affected receiver from its file; the heard frequency must lie in its channel.
+fn affected_receiver(
+    path: &Path,
+    id: &str,
+    heard: &HeardArgs,
+    s: &SearchArgs,
+) -> CliResult<(pim_core::emitter::Receiver, String)> {
+    let source = path.display().to_string();
+    let file = read_receivers(&source, open(path)?)?;
+    crate::common::note_unused(&source, &file.ignored_columns);
+    let rx = file
+        .receivers
+        .into_iter()
+        .find(|r| r.id == id)
+        .ok_or_else(|| Error::argument("--receiver", format!("no receiver `{id}` in {source}")))?;
+    let width = rx.bandwidth.unwrap_or(s.rx_bw);
+    if (heard.freq - rx.freq).0.abs() > width.0 / 2 + s.tol.0 {
+        return Err(Error::argument(
+            "--receiver",
+            format!(
+                "{} MHz lies outside the channel of `{id}` ({} MHz, {} kHz wide)",
+                heard.freq.mhz_text(),
+                rx.freq.mhz_text(),
+                width.khz_text()
+            ),
+        )
+        .into());
+    }
+    Ok((rx, source))
+}
+
 pub fn run(args: Args) -> CliResult {
     let emitters = load_emitters(&args.input.emitters)?;
     let structures = match &args.structures {
@@ -144,21 +241,56 @@ pub fn run(args: Args) -> CliResult {
         args.fix.track.is_some(),
     )?;
     let s = &args.search;
+    let site = Site::new(emitters);
+    let source = args.input.emitters.display().to_string();
+    let receiver = match (&args.receivers, &args.receiver) {
+        (Some(path), Some(id)) => Some(affected_receiver(path, id, &args.input, s)?),
+        _ => None,
+    };
+    let rx_bw = receiver
+        .as_ref()
+        .and_then(|(rx, _)| rx.bandwidth)
+        .unwrap_or(s.rx_bw);
+    let rx_site = s
+        .rx_site()
+        .or(receiver.as_ref().and_then(|(rx, _)| rx.position));
+    let shown = |p: &Option<PathBuf>| p.as_ref().map(|p| p.display().to_string());
+    let evidence = FieldEvidence {
+        coefficients: args.evidence.coefficient_indices(&site, &source)?,
+        logbook: args.evidence.logbook(site.emitters())?,
+        logbook_sources: shown(&args.evidence.on_air).zip(shown(&args.evidence.heard)),
+        attenuator: args
+            .attenuator_readings
+            .as_deref()
+            .map(attenuator_test)
+            .transpose()?,
+        power_steps: args
+            .power_steps
+            .as_deref()
+            .map(power_step_test)
+            .transpose()?,
+        receiver,
+    };
     let inputs = TicketInputs {
         site_name: args.site.clone(),
         prepared: prepared_at(),
-        site: Site::new(emitters),
-        emitters_source: args.input.emitters.display().to_string(),
+        site,
+        emitters_source: source,
         log,
         fix,
         corrections: prepared.corrections,
         structures,
-        params: s.params(args.input.freq, s.rx_bw),
+        params: s.params(args.input.freq, rx_bw),
         model: s.junction_model(),
-        rx_site: s.rx_site(),
+        rx_site,
         heard_dbm: args.calibration.heard_dbm,
-        top: args.top,
+        limit: args.limit,
         band: None,
+        evidence,
+        work_order: WorkOrder {
+            ticket_id: args.ticket_id.clone(),
+            assignee: args.assignee.clone(),
+        },
     };
     let mut inputs = inputs;
     if !args.traces.is_empty() {
@@ -188,6 +320,10 @@ pub fn run(args: Args) -> CliResult {
     input_paths.extend(args.structures.as_deref());
     input_paths.extend(args.fix.track.as_deref());
     input_paths.extend(args.traces.iter().map(PathBuf::as_path));
+    input_paths.extend(args.evidence.paths());
+    input_paths.extend(args.attenuator_readings.as_deref());
+    input_paths.extend(args.power_steps.as_deref());
+    input_paths.extend(args.receivers.as_deref());
     let existing = if args.force {
         Existing::Replace
     } else {

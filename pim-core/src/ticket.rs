@@ -1,15 +1,17 @@
 //! What a maintenance ticket rests on, beyond the search and the fix: the site's
 //! structures and emitters in or near the ellipse, how the ranking moves when the
-//! junction is put at the fix rather than at the receiver, and what to inspect on each
-//! kind of structure (common practice of site maintenance).
+//! junction is put at the fix rather than at the receiver, what to inspect on each
+//! kind of structure (common practice of site maintenance), and which candidate is
+//! credible enough to ask a licensee for a power step.
 
 use serde::Serialize;
 
 use crate::emitter::Emitter;
 use crate::fix::Fix;
 use crate::geo::{distance_and_azimuth, GeoPoint, LocalFrame};
-use crate::intermod::Product;
-use crate::rank::Ranking;
+use crate::intermod::{Product, SearchParams};
+use crate::level::Mechanism;
+use crate::rank::{Candidate, Outlook, Ranking};
 
 /// A structure on the site: a tower, a fence, a shed, a guy anchor.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -164,6 +166,63 @@ pub fn rank_changes(at_fix: &Ranking, at_receiver: &Ranking, top: usize) -> Vec<
         .collect()
 }
 
+/// Why a candidate is not put to a licensee for a power step.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PowerStepDoubt {
+    /// Calibrated to the level heard, it needs a junction no passive contact makes.
+    Implausible,
+    /// It is made away from the fix, where the bearings do not point.
+    AwayFromFix,
+    /// It was heard while one of its emitters was off the air.
+    HeardOffAir,
+    /// A product above the third order whose centre lies outside the receive channel:
+    /// only the skirt of its spectrum reaches the channel.
+    FarOffCentre,
+    /// It is made inside the receiver: the attenuator test, not a power step, settles it.
+    InReceiver,
+}
+
+/// Why `c` should not be put to a licensee for a power step, or `None` when it is
+/// credible: not implausible once calibrated, made at the fix, never heard with one of
+/// its emitters off the air, not made in the receiver, and either of the third order or
+/// centred in the channel (|offset| ≤ B_rx/2 + tolerance). A high-order product of wide
+/// carriers (a broadcaster's seventh-order product hundreds of kHz off centre) lands on
+/// the channel only by its skirt, and a power step would not tell it from noise.
+pub fn power_step_doubt(c: &Candidate, params: &SearchParams) -> Option<PowerStepDoubt> {
+    let half_channel = params.rx_bandwidth.0 / 2 + params.tolerance.0;
+    if c.implausible {
+        Some(PowerStepDoubt::Implausible)
+    } else if c.away_from_fix {
+        Some(PowerStepDoubt::AwayFromFix)
+    } else if c.evidence.is_some_and(|e| e.heard_off_air > 0) {
+        Some(PowerStepDoubt::HeardOffAir)
+    } else if c.mechanism == Mechanism::Receiver {
+        Some(PowerStepDoubt::InReceiver)
+    } else if c.product.order() > 3 && c.product.offset(params.target).0.abs() > half_channel {
+        Some(PowerStepDoubt::FarOffCentre)
+    } else {
+        None
+    }
+}
+
+/// The first candidate credible enough for a power step ([`power_step_doubt`]) among the
+/// first `within` of the ranking; none when nothing credible lands.
+pub fn power_step_candidate<'a>(
+    ranking: &'a Ranking,
+    params: &SearchParams,
+    within: usize,
+) -> Option<&'a Candidate> {
+    if ranking.outlook != Outlook::Credible {
+        return None;
+    }
+    ranking
+        .candidates
+        .iter()
+        .take(within)
+        .find(|c| power_step_doubt(c, params).is_none())
+}
+
 /// What to look at on a kind of structure when hunting a corroded or loose junction
 /// (common practice of site maintenance).
 pub fn inspection_points(kind: Option<&str>) -> &'static [&'static str] {
@@ -207,5 +266,51 @@ mod tests {
         assert!(inspection_points(Some("guy anchor"))[0].contains("clamps"));
         assert!(inspection_points(Some("Guyed tower"))[0].contains("clamps"));
         assert!(inspection_points(None)[0].contains("metal-to-metal"));
+    }
+
+    /// The case: a seventh-order product 435 kHz off the centre of a 12.5 kHz
+    /// channel is not put to a broadcaster for a power step; a centred third-order one is.
+    #[test]
+    fn only_credible_candidates_get_a_power_step() {
+        use crate::freq::Hz;
+        use crate::intermod::Term;
+        let params = SearchParams {
+            target: Hz(146_340_000),
+            rx_bandwidth: Hz(12_500),
+            ..SearchParams::default()
+        };
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        let mk = |product| Candidate {
+            rank: 1,
+            product,
+            mechanism: Mechanism::Junction,
+            formed_in: None,
+            level_dbm: Some(-100.0),
+            breakdown: None,
+            missing: None,
+            relative_db: Some(0.0),
+            calibration: None,
+            implausible: false,
+            away_from_fix: false,
+            evidence: None,
+        };
+        let seventh = mk(Product::new(&[t(0, 4), t(1, -3)], Hz(146_775_000)));
+        assert_eq!(
+            power_step_doubt(&seventh, &params),
+            Some(PowerStepDoubt::FarOffCentre)
+        );
+        let third = mk(Product::new(&[t(0, 2), t(1, -1)], Hz(146_341_000)));
+        assert_eq!(power_step_doubt(&third, &params), None);
+        let implausible = Candidate {
+            implausible: true,
+            ..third
+        };
+        assert_eq!(
+            power_step_doubt(&implausible, &params),
+            Some(PowerStepDoubt::Implausible)
+        );
     }
 }

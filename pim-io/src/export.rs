@@ -1,13 +1,17 @@
 //! A fix for any mapping program: GeoJSON (RFC 7946) and KML (OGC KML 2.2). Both carry
 //! the fix as a point, the region it claims as a polygon (the confidence ellipse, or the
 //! likelihood contour where the ellipse does not hold), each line of bearing as a line
-//! from its observer along the bearing used, and the observers as points.
+//! from its observer along the bearing used, and the observers as points. The site
+//! exports ([`site_geojson`], [`site_kml`]) add the site's structures and emitters as
+//! points (id, kind, owner; an emitter's frequency and ERP), the KML styled by kind.
 
 use crate::text::xml_escape;
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject, JsonValue};
 
+use pim_core::emitter::Emitter;
 use pim_core::fix::{Fix, RegionKind};
 use pim_core::geo::{destination, GeoPoint, LocalFrame};
+use pim_core::ticket::Structure;
 
 /// Vertices of the ellipse outline.
 pub const ELLIPSE_VERTICES: usize = 72;
@@ -89,8 +93,67 @@ fn feature(geometry: Geometry, props: &[(&str, JsonValue)]) -> Feature {
     }
 }
 
+/// The site around a fix: its structures and emitters.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct SiteItems<'a> {
+    pub structures: &'a [Structure],
+    pub emitters: &'a [Emitter],
+}
+
+/// One placed item of the site, as the exports show it.
+struct SitePoint<'a> {
+    /// `structure` or `emitter`.
+    item: &'static str,
+    id: &'a str,
+    kind: Option<&'a str>,
+    owner: Option<&'a str>,
+    note: Option<&'a str>,
+    position: GeoPoint,
+    freq_mhz: Option<f64>,
+    erp_dbm: Option<f64>,
+}
+
+/// The structures, then the emitters with a position (an emitter without one cannot be
+/// placed).
+fn site_points<'a>(items: &SiteItems<'a>) -> Vec<SitePoint<'a>> {
+    let structures = items.structures.iter().map(|s| SitePoint {
+        item: "structure",
+        id: &s.id,
+        kind: s.kind.as_deref(),
+        owner: None,
+        note: s.note.as_deref(),
+        position: s.position,
+        freq_mhz: None,
+        erp_dbm: None,
+    });
+    let emitters = items.emitters.iter().filter_map(|e| {
+        Some(SitePoint {
+            item: "emitter",
+            id: &e.id,
+            kind: e.kind.as_deref(),
+            owner: e.owner.as_deref(),
+            note: e.note.as_deref(),
+            position: e.position?,
+            freq_mhz: Some(e.freq.mhz()),
+            erp_dbm: e.erp_dbm,
+        })
+    });
+    structures.chain(emitters).collect()
+}
+
+fn erp_w(erp_dbm: f64) -> f64 {
+    10f64.powf((erp_dbm - 30.0) / 10.0)
+}
+
 /// The fix as an RFC 7946 FeatureCollection.
 pub fn fix_geojson(fix: &Fix) -> FeatureCollection {
+    site_geojson(fix, &SiteItems::default())
+}
+
+/// The fix and the site's structures and emitters as an RFC 7946 FeatureCollection: each
+/// item a point with `kind` (`structure` or `emitter`), `id`, `item_kind` (its kind as its
+/// file says), `owner`, `note`, and for an emitter `freq_mhz`, `erp_dbm` and `erp_w`.
+pub fn site_geojson(fix: &Fix, items: &SiteItems) -> FeatureCollection {
     let shapes = fix_shapes(fix);
     let e = &fix.ellipse;
     let mut features = vec![
@@ -135,6 +198,21 @@ pub fn fix_geojson(fix: &Fix) -> FeatureCollection {
             &[("kind", "observer".into()), ("line", b.line.into())],
         ));
     }
+    for p in site_points(items) {
+        let mut props: Vec<(&str, JsonValue)> = vec![
+            ("kind", p.item.into()),
+            ("id", p.id.into()),
+            ("item_kind", p.kind.into()),
+            ("owner", p.owner.into()),
+            ("note", p.note.into()),
+        ];
+        if p.item == "emitter" {
+            props.push(("freq_mhz", p.freq_mhz.into()));
+            props.push(("erp_dbm", p.erp_dbm.into()));
+            props.push(("erp_w", p.erp_dbm.map(erp_w).into()));
+        }
+        features.push(feature(Geometry::new_point(position(p.position)), &props));
+    }
     FeatureCollection::new(features)
 }
 
@@ -155,6 +233,40 @@ fn kml_coords(points: &[GeoPoint]) -> String {
 
 /// The fix as an OGC KML 2.2 document named `title`.
 pub fn fix_kml(fix: &Fix, title: &str) -> String {
+    site_kml(fix, &SiteItems::default(), title)
+}
+
+/// A KML style id for an item of `kind`: `structure-guy-anchor`, `emitter-paging`, or
+/// the bare item name without a kind (ASCII letters, digits and hyphens only).
+fn style_id(item: &str, kind: Option<&str>) -> String {
+    let slug: String = kind
+        .unwrap_or("")
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() {
+                c.to_ascii_lowercase()
+            } else {
+                '-'
+            }
+        })
+        .collect();
+    let slug = slug.trim_matches('-');
+    if slug.is_empty() {
+        item.to_string()
+    } else {
+        format!("{item}-{slug}")
+    }
+}
+
+/// Icon colours (KML aabbggrr) for the kinds, in order of first appearance.
+const KIND_COLOURS: [&str; 8] = [
+    "ff2b8cd9", "ff3fa33f", "ffb0562b", "ff9e3fb5", "ff2bb3c9", "ff5a5a5a", "ff1f6fe0", "ff8a8a1f",
+];
+
+/// The fix and the site's structures and emitters as an OGC KML 2.2 document named
+/// `title`; one style per kind of structure and emitter, each placemark pointing at its
+/// kind's style.
+pub fn site_kml(fix: &Fix, items: &SiteItems, title: &str) -> String {
     let shapes = fix_shapes(fix);
     let e = &fix.ellipse;
     let mut k = String::new();
@@ -206,6 +318,60 @@ pub fn fix_kml(fix: &Fix, title: &str) -> String {
             "  <Placemark><name>Observer, line {}</name><styleUrl>#observer</styleUrl><Point><coordinates>{}</coordinates></Point></Placemark>\n",
             b.line,
             kml_coords(&[b.from])
+        ));
+    }
+    let points = site_points(items);
+    let mut styles: Vec<String> = Vec::new();
+    for p in &points {
+        let id = style_id(p.item, p.kind);
+        if !styles.contains(&id) {
+            let colour = KIND_COLOURS[styles.len() % KIND_COLOURS.len()];
+            k.push_str(&format!(
+                "  <Style id=\"{id}\"><IconStyle><color>{colour}</color><scale>{}</scale></IconStyle><LabelStyle><scale>0.8</scale></LabelStyle></Style>\n",
+                if p.item == "emitter" { "1.1" } else { "0.9" }
+            ));
+            styles.push(id);
+        }
+    }
+    for p in &points {
+        let mut about: Vec<String> = vec![p.item.to_string()];
+        about.extend(p.kind.map(str::to_string));
+        about.extend(p.owner.map(str::to_string));
+        if let Some(f) = p.freq_mhz {
+            about.push(format!("{f:.4} MHz"));
+        }
+        if let Some(erp) = p.erp_dbm {
+            let w = erp_w(erp);
+            let digits = if w >= 10.0 {
+                0
+            } else if w >= 1.0 {
+                1
+            } else {
+                3
+            };
+            about.push(format!("ERP {w:.digits$} W ({erp:.1} dBm)"));
+        }
+        about.extend(p.note.map(str::to_string));
+        let mut data = vec![("item", p.item.to_string())];
+        data.extend(p.kind.map(|v| ("kind", v.to_string())));
+        data.extend(p.owner.map(|v| ("owner", v.to_string())));
+        data.extend(p.freq_mhz.map(|v| ("freq_mhz", format!("{v}"))));
+        data.extend(p.erp_dbm.map(|v| ("erp_dbm", format!("{v:.2}"))));
+        let data: String = data
+            .iter()
+            .map(|(name, value)| {
+                format!(
+                    "<Data name=\"{name}\"><value>{}</value></Data>",
+                    xml_escape(value)
+                )
+            })
+            .collect();
+        k.push_str(&format!(
+            "  <Placemark><name>{}</name><description>{}</description><styleUrl>#{}</styleUrl><ExtendedData>{data}</ExtendedData><Point><coordinates>{}</coordinates></Point></Placemark>\n",
+            xml_escape(p.id),
+            xml_escape(&about.join("; ")),
+            style_id(p.item, p.kind),
+            kml_coords(&[p.position])
         ));
     }
     k.push_str("</Document>\n</kml>\n");

@@ -3,19 +3,28 @@
 //! candidates are re-ranked with the junction at the fix; the ticket lists what to
 //! inspect near the fix, how to confirm the cause, and the cautions of tower and RF work.
 
-use pim_core::emitter::{carriers, Carrier, Emitter};
+use pim_core::emitter::{carriers, Carrier, Emitter, Receiver};
 use pim_core::fix::{Fix, SigmaSource};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
 use pim_core::level::{LevelModel, Mechanism};
-use pim_core::rank::{display_terms, formula, HeardLevel, Placement, Ranking};
-use pim_core::ticket::{inspection_points, nearby, rank_changes, ItemKind, NearbyItem, Structure};
+use pim_core::onair::Logbook;
+use pim_core::rank::{
+    display_terms, formula, rank_candidates, HeardLevel, Outlook, Placement, RankInputs, Ranking,
+};
+use pim_core::slope::{PowerSteps, PowerVerdict, SlopeAnswer};
+use pim_core::ticket::{
+    inspection_points, nearby, power_step_candidate, power_step_doubt, rank_changes, ItemKind,
+    NearbyItem, PowerStepDoubt, Structure,
+};
 use pim_core::trace::classify::PeakKind;
 use pim_core::{Error, Query, Site};
-use pim_io::export::{bearing_length_m, fix_geojson, fix_kml};
+use pim_io::export::{bearing_length_m, site_geojson, site_kml, SiteItems};
 use pim_io::fieldlog::{Correction, FieldLog};
 
-use crate::candidates::{calibrated_first_dbm, made_in, outlook_text, write_csv, Listing};
+use crate::candidates::{
+    calibrated_first_dbm, made_in, narrowing_text, next_step_text, outlook_text, write_csv, Listing,
+};
 use crate::document::{html, markdown, Block};
 use crate::fix::method_name;
 use crate::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
@@ -40,9 +49,63 @@ pub struct TicketInputs {
     /// The level heard at the receiver, dBm; without it the model is calibrated against
     /// the field log's `level_dbm` at each reading's position.
     pub heard_dbm: Option<f64>,
-    pub top: usize,
+    /// Candidates listed in the ticket (candidates.csv has them all).
+    pub limit: usize,
     /// A trace of the receive band (`trace.svg` and the suspects over the band), if taken.
     pub band: Option<BandTrace>,
+    /// What the crew has already measured: on-air logs, power steps, the attenuator test,
+    /// coefficients, the affected receiver.
+    pub evidence: FieldEvidence,
+    /// The ticket's number and who it is assigned to, when given.
+    pub work_order: WorkOrder,
+}
+
+/// The evidence gathered before the ticket, each item optional.
+#[derive(Default)]
+pub struct FieldEvidence {
+    /// Keep only products in which emitter `i` carries |k| = K (a power step's answer).
+    pub coefficients: Vec<(usize, u32)>,
+    /// On-air and listening logs: the ranking puts their evidence first.
+    pub logbook: Option<Logbook>,
+    /// The on-air and listening log files, as named.
+    pub logbook_sources: Option<(String, String)>,
+    /// The attenuator test at the receiver, read from its file.
+    pub attenuator: Option<AttenuatorTest>,
+    /// The power steps, read from their file.
+    pub power_steps: Option<PowerStepTest>,
+    /// The receiver the carrier is heard on (its channel width and position are used).
+    pub receiver: Option<(Receiver, String)>,
+}
+
+/// The ticket's number and assignee.
+#[derive(Clone, Debug, Default)]
+pub struct WorkOrder {
+    pub ticket_id: Option<String>,
+    pub assignee: Option<String>,
+}
+
+/// An attenuator test read from its file (as `pim slope --kind attenuator` reads it).
+pub struct AttenuatorTest {
+    pub answer: SlopeAnswer,
+    pub source: String,
+}
+
+/// Power steps read from their file (as `pim slope --kind power` reads it).
+pub struct PowerStepTest {
+    pub answer: PowerStepAnswer,
+    pub source: String,
+}
+
+/// One emitter's steps, or the steps of several.
+pub enum PowerStepAnswer {
+    One {
+        answer: SlopeAnswer,
+        emitter: Option<String>,
+    },
+    Several {
+        answer: PowerSteps,
+        counts: Vec<usize>,
+    },
 }
 
 /// An analyser trace of the receive band, swept for peaks, for the ticket's view of the
@@ -66,6 +129,9 @@ pub struct TicketFiles {
     pub top_formula: Option<String>,
     /// How many products land.
     pub total: usize,
+    /// When nothing credible explains the carrier, the plain statement the ticket opens
+    /// with.
+    pub nothing_explains: Option<String>,
 }
 
 fn who(e: &Emitter) -> String {
@@ -98,6 +164,7 @@ fn build(
     at_fix: &Ranking,
     at_rx: Option<&Ranking>,
     near: &[NearbyItem],
+    (found, kept): (usize, usize),
 ) -> (Vec<Block>, String, String, Option<String>) {
     let carriers = carriers(t.site.emitters());
     let fix = &t.fix;
@@ -114,8 +181,33 @@ fn build(
             t.log.source,
             t.log.rows.len()
         )),
-        Block::Heading(2, "1. What was heard".into()),
     ];
+    let mut header = Vec::new();
+    if let Some(id) = &t.work_order.ticket_id {
+        header.push(format!("Ticket: {id}."));
+    }
+    if let Some(who) = &t.work_order.assignee {
+        header.push(format!("Assigned to: {who}."));
+    }
+    if let Some(visit) = visit_text(&t.log) {
+        header.push(format!(
+            "Site visit: {visit} (the field log's first and last readings)."
+        ));
+    }
+    if let Some((rx, source)) = &t.evidence.receiver {
+        header.push(receiver_text(rx, source, &t.params));
+    }
+    if !header.is_empty() {
+        doc.push(Block::List(header));
+    }
+    let credible = at_fix.outlook == Outlook::Credible;
+    if let Some(statement) = outlook_text(at_fix) {
+        doc.push(Block::Para(format!(
+            "Nothing explains the carrier. {} The fix and the walk below still show where it comes from; no power step is asked for until a candidate is credible.",
+            statement.trim_start_matches("Nothing credible: ")
+        )));
+    }
+    doc.push(Block::Heading(2, "1. What was heard".into()));
     let mut heard_points = vec![format!(
         "An unexplained carrier at {} MHz in the {} kHz receive channel (tolerance {} kHz).",
         heard.mhz_text(),
@@ -134,18 +226,34 @@ fn build(
             "Levels on the walk: {weakest:.1} to {strongest:.1} dBm, strongest at line {line} of the log."
         ));
     }
-    let dates: Vec<String> = t
-        .log
-        .rows
-        .iter()
-        .filter_map(|r| r.time.map(|x| x.date().to_string()))
-        .collect();
-    if let (Some(first), Some(last)) = (dates.iter().min(), dates.iter().max()) {
-        heard_points.push(if first == last {
-            format!("Bearings taken on {first}.")
-        } else {
-            format!("Bearings taken from {first} to {last}.")
-        });
+    if let Some(level) = t.heard_dbm {
+        heard_points.push(format!(
+            "Heard at {level:.1} dBm at the receiver input (the level the model is calibrated to)."
+        ));
+    }
+    let narrowing = narrowing_text(
+        t.site.emitters(),
+        &t.evidence.coefficients,
+        found,
+        kept,
+        t.evidence.logbook.as_ref(),
+    );
+    for line in narrowing.lines() {
+        heard_points.push(
+            if !t.evidence.coefficients.is_empty() && line.starts_with("Kept") {
+                format!(
+                    "{} (the coefficients a power step found, given with --coefficient).",
+                    line.trim_end_matches('.')
+                )
+            } else {
+                line.to_string()
+            },
+        );
+    }
+    if let Some((on_air, heard_log)) = &t.evidence.logbook_sources {
+        heard_points.push(format!(
+            "On-air log {on_air} and listening log {heard_log}: candidates are ranked first by that evidence."
+        ));
     }
     doc.push(Block::List(heard_points));
 
@@ -153,21 +261,35 @@ fn build(
     doc.push(Block::Heading(2, "2. Which emitters make it".into()));
     let total = at_fix.candidates.len();
     let products = distinct_products(at_fix);
-    doc.push(Block::Para(format!(
-        "{products} product{} of up to {} emitters and order up to {} land in the channel, {total} candidate{} with the ways each can be made (a corroded junction, a transmitter's output stage or harmonic). With the junction placed at the fix, they are {}. The first {} follow; candidates.csv lists them all.",
-        if products == 1 { "" } else { "s" },
-        t.params.max_emitters,
-        t.params.max_order,
-        if total == 1 { "" } else { "s" },
-        at_fix.basis(),
-        total.min(t.top)
-    )));
+    let listed = total.min(t.limit);
+    doc.push(Block::Para(if total == 0 {
+        format!(
+            "No product of up to {} emitters and order up to {} lands in the channel.",
+            t.params.max_emitters, t.params.max_order
+        )
+    } else {
+        format!(
+            "{products} product{} of up to {} emitters and order up to {} land{} in the channel, {total} candidate{} with the ways each can be made (a corroded junction, a transmitter's output stage or harmonic). With the junction placed at the fix, they are {}. {}",
+            if products == 1 { "" } else { "s" },
+            t.params.max_emitters,
+            t.params.max_order,
+            if products == 1 { "s" } else { "" },
+            if total == 1 { "" } else { "s" },
+            at_fix.basis(),
+            match listed {
+                0 => "candidates.csv lists them.".to_string(),
+                n if n == total => "They follow; candidates.csv lists them too.".to_string(),
+                n => format!("The first {n} follow; candidates.csv lists them all."),
+            }
+        )
+    }));
     if let Some(statement) = outlook_text(at_fix) {
         doc.push(Block::Para(statement));
     }
     let calibrated = at_fix.calibrated;
     let mut rows = Vec::new();
-    for c in at_fix.candidates.iter().take(t.top) {
+    let by_evidence = at_fix.by_evidence;
+    for c in at_fix.candidates.iter().take(t.limit) {
         let before = at_rx
             .and_then(|r| {
                 r.candidates
@@ -201,6 +323,14 @@ fn build(
         if calibrated {
             row.push(level(c.calibration.and_then(|k| k.required_im3_dbc)));
         }
+        if by_evidence {
+            let e = c.evidence.unwrap_or_default();
+            row.extend([
+                e.support.to_string(),
+                e.contradictions.to_string(),
+                e.heard_off_air.to_string(),
+            ]);
+        }
         row.extend([before, emitters.join("; "), note.join(", ")]);
         rows.push(row);
     }
@@ -218,15 +348,29 @@ fn build(
         headers.push("junction needs L3, dBc");
         right.push(true);
     }
+    if by_evidence {
+        headers.extend(["support", "contradictions", "heard off air"]);
+        right.extend([true, true, true]);
+    }
     headers.extend(["rank at receiver", "emitters", "note"]);
     right.extend([true, false, false]);
-    doc.push(Block::Table {
-        headers: headers.iter().map(|s| s.to_string()).collect(),
-        right,
-        rows,
-    });
-    if let Some(rx) = at_rx {
-        let changes = rank_changes(at_fix, rx, t.top);
+    if !rows.is_empty() {
+        doc.push(Block::Table {
+            headers: headers.iter().map(|s| s.to_string()).collect(),
+            right,
+            rows,
+        });
+    }
+    if by_evidence {
+        doc.push(Block::Para(
+            crate::candidates::EVIDENCE_LEGEND
+                .replace('\n', " ")
+                .trim()
+                .to_string(),
+        ));
+    }
+    if let Some(rx) = at_rx.filter(|_| total > 0) {
+        let changes = rank_changes(at_fix, rx, t.limit);
         let moved: Vec<String> = changes
             .iter()
             .filter(|c| c.rank_at_receiver != Some(c.rank_at_fix))
@@ -430,15 +574,39 @@ fn build(
 
     // 5. Confirm
     doc.push(Block::Heading(2, "5. How to confirm".into()));
-    let mut steps = vec![
-        "Attenuator test at the receiver: insert a step attenuator ahead of the receiver, note the carrier's level at 0, 2, 4, 6, 8 and 10 dB, and run `pim slope --kind attenuator`. About 1 dB less per dB inserted means it arrives over the air (a junction outside); n dB per dB means the receiver makes it itself (overload), which the receiver's filtering must cure first.".to_string(),
-    ];
-    if let Some(top) = at_fix.candidates.first() {
+    let mut steps = Vec::new();
+    match &t.evidence.attenuator {
+        Some(test) => steps.push(attenuator_done(test)),
+        None => steps.push("Attenuator test at the receiver: insert a step attenuator ahead of the receiver, note the carrier's level at 0, 2, 4, 6, 8 and 10 dB, and run `pim slope --kind attenuator` (or give the file to the ticket with --attenuator-readings). About 1 dB less per dB inserted means it arrives over the air (a junction outside); n dB per dB means the receiver makes it itself (overload), which the receiver's filtering must cure first.".to_string()),
+    }
+    if let Some(test) = &t.evidence.power_steps {
+        steps.push(power_steps_done(test));
+    }
+    let proposed = power_step_candidate(at_fix, &t.params, t.limit);
+    if !credible {
+        for step in at_fix.next_steps() {
+            steps.push(format!("Check instead: {}.", next_step_text(*step)));
+        }
+    } else if let Some(first) = at_fix.candidates.first() {
+        if let Some(doubt) = power_step_doubt(first, &t.params) {
+            steps.push(format!(
+                "No power step for the first candidate, {}: {}.",
+                formula(&first.product, t.site.emitters()),
+                doubt_text(doubt)
+            ));
+        }
+    }
+    if let (Some(top), None) = (proposed, &t.evidence.power_steps) {
         let terms = display_terms(&top.product, t.site.emitters());
+        let which = if top.rank == 1 {
+            "the first candidate".to_string()
+        } else {
+            format!("#{}, the first credible candidate", top.rank)
+        };
         for term in &terms {
             let em = &t.site.emitters()[term.emitter];
             steps.push(format!(
-                "Power step with the licensee{}: have {} lowered by 1, 2, 3 and 4 dB for a few minutes each and back; the carrier should fall by up to about {} dB per dB if {} is the cause (|k| = {}).",
+                "Power step with the licensee{}: have {} lowered by 1, 2, 3 and 4 dB for a few minutes each and back; the carrier should fall by up to about {} dB per dB if {} ({which}) is the cause (|k| = {}).",
                 em.owner.as_deref().map(|o| format!(" ({o})")).unwrap_or_default(),
                 em.id,
                 term.coefficient.abs(),
@@ -448,7 +616,7 @@ fn build(
         }
         if terms.len() > 1 {
             steps.push(format!(
-                "Log the steps of every emitter of the first candidate ({}) in one file, `emitter,step_db,level_dbm`, and run `pim slope --kind power --readings FILE`: the ratio of their slopes gives the coefficients even when the junction rises less steeply than the ideal law, and the exponent with them.",
+                "Log the steps of every emitter of {which} ({}) in one file, `emitter,step_db,level_dbm`, and run `pim slope --kind power --readings FILE` (or give the file to the ticket with --power-steps): the ratio of their slopes gives the coefficients even when the junction rises less steeply than the ideal law, and the exponent with them.",
                 terms
                     .iter()
                     .map(|x| t.site.emitters()[x.emitter].id.clone())
@@ -458,13 +626,25 @@ fn build(
         }
         if top.mechanism != Mechanism::Junction {
             steps.push(format!(
-                "The first candidate is made in {}: have the licensee check the transmitter's output with a spectrum analyser (and its filtering or isolator) before anyone looks for a joint.",
+                "{} is made in {}: have the licensee check the transmitter's output with a spectrum analyser (and its filtering or isolator) before anyone looks for a joint.",
+                formula(&top.product, t.site.emitters()),
                 made_in(top, t.site.emitters())
             ));
         }
     }
-    steps.push("On-air check: compare the times the carrier is heard with the keying of each candidate's emitters (`pim explain --on-air FILE --heard FILE`); an emitter off the air while the carrier is heard rules its candidates out.".into());
-    steps.push("At the suspect joint, with someone watching the receiver: flex or tap each joint with an insulated tool; the carrier jumps or drops when the bad joint moves. Clean, bond or replace it, then check the channel with all emitters on the air.".into());
+    match (&t.evidence.logbook, &t.evidence.logbook_sources) {
+        (Some(book), Some((on_air, heard))) => steps.push(format!(
+            "Done: on-air check ({on_air}, {heard}): {} listening times, heard at {}; the candidates above are ranked by it first (support, contradictions, heard off air).",
+            book.observations.len(),
+            book.heard_count()
+        )),
+        _ => steps.push("On-air check: compare the times the carrier is heard with the keying of each candidate's emitters (`pim explain --on-air FILE --heard FILE`, or the same options of the ticket); an emitter off the air while the carrier is heard rules its candidates out.".into()),
+    }
+    if credible {
+        steps.push("At the suspect joint, with someone watching the receiver: flex or tap each joint with an insulated tool; the carrier jumps or drops when the bad joint moves. Clean, bond or replace it, then check the channel with all emitters on the air.".into());
+    } else {
+        steps.push("Near the fix, with someone watching the receiver: flex or tap the joints of the structures listed above with an insulated tool; a junction the emitter list cannot explain still jumps or drops when it moves.".into());
+    }
     doc.push(Block::Steps(steps));
 
     // 6. Cautions
@@ -487,6 +667,142 @@ fn build(
         "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
     ]));
     (doc, map, spectrum, band_svg)
+}
+
+/// The span of the field log's reading times, in UTC: `2026-11-28, 09:12–09:41 UTC`, or
+/// both dates when the walk ran over midnight; `None` when no reading has a time.
+pub fn visit_text(log: &FieldLog) -> Option<String> {
+    let utc = pim_core::time::UtcOffset::UTC;
+    let times: Vec<_> = log
+        .rows
+        .iter()
+        .filter_map(|r| r.time)
+        .map(|x| x.to_offset(utc))
+        .collect();
+    let first = times.iter().min()?;
+    let last = times.iter().max()?;
+    let hm = |x: &pim_core::time::OffsetDateTime| format!("{:02}:{:02}", x.hour(), x.minute());
+    Some(if first.date() == last.date() {
+        format!("{}, {}–{} UTC", first.date(), hm(first), hm(last))
+    } else {
+        format!(
+            "{} {} UTC to {} {} UTC",
+            first.date(),
+            hm(first),
+            last.date(),
+            hm(last)
+        )
+    })
+}
+
+/// The affected receiver, named with what of it the ranking uses.
+fn receiver_text(rx: &Receiver, source: &str, params: &SearchParams) -> String {
+    format!(
+        "Affected receiver: {} ({} MHz, line {} of {}); its {} kHz channel{} used.{}",
+        rx.id,
+        rx.freq.mhz_text(),
+        rx.line,
+        source,
+        params.rx_bandwidth.khz_text(),
+        match rx.position {
+            Some(p) => format!(" and its position {:.6}, {:.6} are", p.lat_deg, p.lon_deg),
+            None => " is".to_string(),
+        },
+        rx.note
+            .as_deref()
+            .map(|n| format!(" Its note: {n}."))
+            .unwrap_or_default()
+    )
+}
+
+/// Why a candidate is not put to a licensee for a power step, in words.
+fn doubt_text(d: PowerStepDoubt) -> &'static str {
+    match d {
+        PowerStepDoubt::Implausible => "calibrated to the level heard, it needs a junction mixing more strongly than any passive contact",
+        PowerStepDoubt::AwayFromFix => "it is made away from the fix, where the bearings do not point",
+        PowerStepDoubt::HeardOffAir => "the carrier was heard while one of its emitters was off the air",
+        PowerStepDoubt::FarOffCentre => "a product above the third order whose centre lies outside the channel reaches it only by the skirt of its spectrum, and a power step would not tell it from noise",
+        PowerStepDoubt::InReceiver => "it is made in the receiver, which the attenuator test settles",
+    }
+}
+
+fn interval_text(interval: Option<(f64, f64)>) -> String {
+    interval
+        .map(|(lo, hi)| format!(" (95 % interval {lo:.2} to {hi:.2})"))
+        .unwrap_or_default()
+}
+
+/// The attenuator test, marked as done with its figures and verdict.
+fn attenuator_done(test: &AttenuatorTest) -> String {
+    let a = &test.answer;
+    format!(
+        "Done: attenuator test ({}, {} readings): the level drops {:.2} dB per dB of attenuation{}; {}",
+        test.source,
+        a.fit.n,
+        a.slope_db_per_db,
+        interval_text(a.interval),
+        crate::slope::advice(a, None)
+    )
+}
+
+/// The power steps, marked as done with each emitter's slope and coefficient.
+fn power_steps_done(test: &PowerStepTest) -> String {
+    match &test.answer {
+        PowerStepAnswer::One { answer, emitter } => format!(
+            "Done: power step of {} ({}, {} readings): the level changes {:.2} dB per dB of its power{}; {}{}",
+            emitter.as_deref().unwrap_or("one emitter"),
+            test.source,
+            answer.fit.n,
+            answer.slope_db_per_db,
+            interval_text(answer.interval),
+            crate::slope::advice(answer, emitter.as_deref()),
+            if answer.unsettled.is_none() {
+                format!(" Note: {}", crate::slope::SINGLE_EMITTER_CAVEAT)
+            } else {
+                String::new()
+            }
+        ),
+        PowerStepAnswer::Several { answer, counts } => {
+            let each: Vec<String> = answer
+                .coefficients
+                .iter()
+                .zip(counts)
+                .map(|(c, n)| {
+                    format!(
+                        "{} {:.2} dB/dB over {n} readings, |k| = {}",
+                        c.emitter,
+                        c.slope_db_per_db,
+                        c.k.map_or("unsettled".to_string(), |k| k.to_string())
+                    )
+                })
+                .collect();
+            let verdict = match answer.verdict {
+                PowerVerdict::Coefficients => {
+                    let order: u32 = answer.coefficients.iter().filter_map(|c| c.k).sum();
+                    format!(
+                        "coefficients settled (order {order}){}",
+                        answer
+                            .exponent
+                            .map(|e| format!(
+                                ", drive exponent α = {:.2} (95 % interval {:.2} to {:.2})",
+                                e.estimate, e.interval.0, e.interval.1
+                            ))
+                            .unwrap_or_default()
+                    )
+                }
+                PowerVerdict::Ambiguous => "ambiguous".to_string(),
+                PowerVerdict::NoneConsistent => "no set of coefficients consistent".to_string(),
+                PowerVerdict::TooFewReadings => "too few readings".to_string(),
+                PowerVerdict::SingleEmitter => "one emitter only".to_string(),
+            };
+            format!(
+                "Done: power steps ({}): {}; {verdict}. {}",
+                test.source,
+                each.join("; "),
+                crate::slope::power_steps_advice(answer)
+            )
+        }
+    }
 }
 
 /// The whole receive band: the trace picture, what its peaks are, and the emitter sets
@@ -687,7 +1003,7 @@ fn spectrum_input(t: &TicketInputs, at_fix: &Ranking, carriers: &[Carrier]) -> S
         })
         .collect();
     let mut ids: Vec<usize> = Vec::new();
-    for c in at_fix.candidates.iter().take(t.top) {
+    for c in at_fix.candidates.iter().take(t.limit) {
         for term in c.product.terms() {
             if !ids.contains(&term.emitter) {
                 ids.push(term.emitter);
@@ -746,20 +1062,35 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         params: t.params,
         junction: t.rx_site,
         model: t.model,
+        coefficients: t.evidence.coefficients.clone(),
+        logbook: t.evidence.logbook.clone(),
         ..Query::new(t.params.target)
     });
     let at_rx = t.rx_site.map(|_| answer.ranking.clone());
-    let at_fix = answer.ranked_at(
-        &t.site,
-        Placement {
-            junction: Some(t.fix.position),
-            receiver: t.rx_site,
-            fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
+    let heard = heard_levels(t);
+    let at_fix = rank_candidates(
+        answer.products.clone(),
+        t.site.emitters(),
+        &t.params,
+        &RankInputs {
+            placement: Placement {
+                junction: Some(t.fix.position),
+                receiver: t.rx_site,
+                fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
+            },
+            model: t.model,
+            logbook: t.evidence.logbook.as_ref(),
+            heard: &heard,
         },
-        &heard_levels(t),
     );
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
-    let (doc, map, spectrum, band_svg) = build(t, &at_fix, at_rx.as_ref(), &near);
+    let (doc, map, spectrum, band_svg) = build(
+        t,
+        &at_fix,
+        at_rx.as_ref(),
+        &near,
+        (answer.found, answer.kept),
+    );
     let title = format!(
         "PIM ticket: {}, {} MHz",
         t.site_name,
@@ -774,14 +1105,18 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
     };
     write_csv(&mut csv, &listing, None, None, true)
         .map_err(|_| Error::refused("could not format candidates.csv"))?;
-    let geojson = serde_json::to_string_pretty(&fix_geojson(&t.fix)).unwrap_or_default();
+    let items = SiteItems {
+        structures: &t.structures,
+        emitters: t.site.emitters(),
+    };
+    let geojson = serde_json::to_string_pretty(&site_geojson(&t.fix, &items)).unwrap_or_default();
     let mut files: Vec<(&'static str, Vec<u8>)> = vec![
         ("ticket.md", markdown(&doc).into_bytes()),
         ("ticket.html", html(&title, &doc).into_bytes()),
         ("map.svg", map.into_bytes()),
         ("spectrum.svg", spectrum.into_bytes()),
         ("fix.geojson", geojson.into_bytes()),
-        ("fix.kml", fix_kml(&t.fix, &title).into_bytes()),
+        ("fix.kml", site_kml(&t.fix, &items, &title).into_bytes()),
         ("candidates.csv", csv),
     ];
     if let Some(svg) = band_svg {
@@ -794,5 +1129,6 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             .first()
             .map(|c| formula(&c.product, t.site.emitters())),
         total: distinct_products(&at_fix),
+        nothing_explains: crate::candidates::nothing_explains_text(&at_fix, &t.params),
     })
 }
