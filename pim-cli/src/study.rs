@@ -1,5 +1,6 @@
 //! `pim study --emitters TX --receivers RX`: the forward audit of a site, every product
-//! that lands on each receiver, worst first.
+//! that lands on each receiver, worst first (`--order file`: in file order, each written
+//! as soon as it is ready).
 
 use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
@@ -28,6 +29,17 @@ pub struct Args {
     pub search: SearchArgs,
     #[command(flatten)]
     pub listing: ListingArgs,
+    /// Order of the receivers: `worst` first by their first candidate's level (written
+    /// when the last is done), or `file` order, each written as soon as it is ready.
+    #[arg(long, value_enum, default_value_t = StudyOrder::Worst)]
+    pub order: StudyOrder,
+}
+
+/// The order receivers are written in.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum StudyOrder {
+    Worst,
+    File,
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -56,6 +68,10 @@ pub fn run(args: Args) -> CliResult {
         let mut inputs = s.inputs_json();
         inputs["emitters_file"] = json!(args.emitters.display().to_string());
         inputs["receivers_file"] = json!(rx_source);
+        inputs["order"] = json!(match args.order {
+            StudyOrder::Worst => "worst",
+            StudyOrder::File => "file",
+        });
         writeln!(
             out,
             "  \"inputs\": {},",
@@ -80,8 +96,9 @@ pub fn run(args: Args) -> CliResult {
         });
         (params, junction, answer)
     };
-    let write_one = |i: usize,
-                     (params, junction, answer): (
+    let mut write_one = |pos: usize,
+                         i: usize,
+                         (params, junction, answer): (
         pim_core::intermod::SearchParams,
         Option<pim_core::geo::GeoPoint>,
         pim_core::Explanation,
@@ -135,10 +152,10 @@ pub fn run(args: Args) -> CliResult {
                 &listing,
                 shown,
                 Some(("receiver", &rx.id)),
-                i == 0,
+                pos == 0,
             )?,
             ListFormat::Json => {
-                if i > 0 {
+                if pos > 0 {
                     writeln!(out, ",")?;
                 }
                 write!(
@@ -160,12 +177,33 @@ pub fn run(args: Args) -> CliResult {
             }
         }
         out.flush()?;
+        Ok(())
+    };
+    let tick = || {
         if let Some(bar) = &progress {
             bar.inc(1);
         }
-        Ok(())
     };
-    pim_core::study::in_order(receivers.len(), threads, work, write_one)?;
+    match args.order {
+        StudyOrder::File => pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
+            tick();
+            write_one(i, i, r)
+        })?,
+        StudyOrder::Worst => {
+            let mut done = Vec::with_capacity(receivers.len());
+            pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
+                tick();
+                done.push((i, r));
+                Ok::<(), std::io::Error>(())
+            })?;
+            done.sort_by(|(_, a), (_, b)| {
+                pim_core::study::worst_first((&a.2.ranking, a.0.target), (&b.2.ranking, b.0.target))
+            });
+            for (pos, (i, r)) in done.into_iter().enumerate() {
+                write_one(pos, i, r)?;
+            }
+        }
+    }
     if let Some(bar) = &progress {
         bar.finish_and_clear();
     }

@@ -75,6 +75,40 @@ where
     })
 }
 
+/// How bad a receiver's outlook is, from its ranking's first candidate: its level in the
+/// channel (higher is worse), then, for a receiver whose first candidate has no level,
+/// its order (lower is worse) and offset from the channel's centre (smaller is worse), as
+/// the ranking orders candidates. Receivers without a candidate come last.
+pub fn worst_first(
+    a: (&crate::rank::Ranking, crate::freq::Hz),
+    b: (&crate::rank::Ranking, crate::freq::Hz),
+) -> std::cmp::Ordering {
+    use std::cmp::Ordering as O;
+    let (ra, rb) = (a.0.candidates.first(), b.0.candidates.first());
+    let (ca, cb) = match (ra, rb) {
+        (Some(x), Some(y)) => (x, y),
+        (Some(_), None) => return O::Less,
+        (None, Some(_)) => return O::Greater,
+        (None, None) => return O::Equal,
+    };
+    let level = |c: &crate::rank::Candidate| c.breakdown.map(|b| b.in_channel_dbm);
+    let by_level = match (level(ca), level(cb)) {
+        (Some(x), Some(y)) => y.total_cmp(&x),
+        (Some(_), None) => O::Less,
+        (None, Some(_)) => O::Greater,
+        (None, None) => O::Equal,
+    };
+    by_level
+        .then(ca.product.order().cmp(&cb.product.order()))
+        .then(
+            ca.product
+                .offset(a.1)
+                .0
+                .abs()
+                .cmp(&cb.product.offset(b.1).0.abs()),
+        )
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -278,6 +278,7 @@ fn build(
             at_fix.basis(),
             match listed {
                 0 => "candidates.csv lists them.".to_string(),
+                1 if total == 1 => "It follows; candidates.csv lists it too.".to_string(),
                 n if n == total => "They follow; candidates.csv lists them too.".to_string(),
                 n => format!("The first {n} follow; candidates.csv lists them all."),
             }

@@ -242,3 +242,287 @@ fn ticket_refuses_an_out_path_that_is_a_file() {
     assert_eq!(o.status.code(), Some(4), "{}", stderr_of(&o));
     assert!(stderr_of(&o).contains("taken"));
 }
+
+fn s(p: std::path::PathBuf) -> String {
+    p.to_str().unwrap().to_string()
+}
+
+/// The slope `pim slope` reads from a file, as JSON (the ticket must state the same).
+fn slope_json(file: &str, kind: &str) -> serde_json::Value {
+    let o = pim(&[
+        "slope",
+        "--readings",
+        &s(field_log(file)),
+        "--kind",
+        kind,
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    serde_json::from_str(&stdout_of(&o)).unwrap()
+}
+
+/// The ticket takes in the evidence the crew gathered: on-air logs (ranked first, support
+/// columns), coefficients (narrowing, stated), the attenuator test and power steps (shown
+/// as done with the figures `pim slope` gives for the same files), the affected receiver,
+/// the ticket's number and assignee, and the visit from the log's reading times.
+#[test]
+fn ticket_takes_the_evidence() {
+    let tmp = crate::support::scratch();
+    let dir = tmp.path().join("t");
+    let o = pim(&[
+        "ticket",
+        "146.34",
+        "--emitters",
+        &s(field_log("emitters.csv")),
+        "--log",
+        &s(field_log("walk.csv")),
+        "--structures",
+        &s(field_log("structures.csv")),
+        "--out",
+        dir.to_str().unwrap(),
+        "--on-air",
+        &s(field_log("on-air.csv")),
+        "--heard",
+        &s(field_log("heard.csv")),
+        "--coefficient",
+        "SKP-152=2",
+        "--attenuator-readings",
+        &s(field_log("attenuator-readings.csv")),
+        "--power-steps",
+        &s(field_log("power-steps.csv")),
+        "--receiver",
+        "QK7MHR-IN",
+        "--receivers",
+        &s(field_log("receivers.csv")),
+        "--ticket-id",
+        "T-0042",
+        "--assignee",
+        "R. Ostrander",
+        "--limit",
+        "5",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let md = std::fs::read_to_string(dir.join("ticket.md")).unwrap();
+    // walk.csv: first reading 09:12:40Z, last 10:22 on 2026-11-28
+    for want in [
+        "Ticket: T-0042.",
+        "Assigned to: R. Ostrander.",
+        "Site visit: 2026-11-28, 09:12–10:22 UTC",
+        "Affected receiver: QK7MHR-IN (146.34 MHz, line 2 of",
+        "its 12.5 kHz channel and its position 45.103000, -122.412000 are used",
+        "Kept 3 of 5 products: those with SKP-152 \\|k\\| = 2 (the coefficients a power step found",
+        "On-air evidence: 12 listening times, heard at 5, silent at 7.",
+        "| support | contradictions | heard off air |",
+        "Done: attenuator test",
+        "Done: power steps",
+        "Done: on-air check",
+    ] {
+        assert!(md.contains(want), "{want}\n{md}");
+    }
+    // the figures are those of pim slope on the same files
+    let att = slope_json("attenuator-readings.csv", "attenuator");
+    let slope = att["slope_db_per_db"].as_f64().unwrap();
+    assert!(
+        md.contains(&format!("drops {slope:.2} dB per dB")),
+        "{slope}\n{md}"
+    );
+    let steps = slope_json("power-steps.csv", "power");
+    for c in steps["coefficients"].as_array().unwrap() {
+        let want = format!(
+            "{} {:.2} dB/dB over {} readings, \\|k\\| = {}",
+            c["emitter"].as_str().unwrap(),
+            c["slope_db_per_db"].as_f64().unwrap(),
+            c["n"],
+            c["k"]
+        );
+        assert!(md.contains(&want), "{want}\n{md}");
+    }
+    // the power steps are done: none is asked for again
+    assert!(!md.contains("Power step with the licensee"), "{md}");
+    let csv = std::fs::read_to_string(dir.join("candidates.csv")).unwrap();
+    assert!(csv.lines().next().unwrap().contains("on_air_support"));
+    // every kept candidate carries SKP-152 with |k| = 2
+    for row in csv.lines().skip(1) {
+        assert!(
+            row.contains("SKP-152:2") || row.contains("SKP-152:-2"),
+            "{row}"
+        );
+    }
+    xml_well_formed(&dir.join("fix.kml"));
+
+    // a receiver whose channel does not hold the carrier is a bad argument
+    let o = pim(&[
+        "ticket",
+        "146.34",
+        "--emitters",
+        &s(field_log("emitters.csv")),
+        "--log",
+        &s(field_log("walk.csv")),
+        "--out",
+        tmp.path().join("u").to_str().unwrap(),
+        "--receiver",
+        "FIRE-RX",
+        "--receivers",
+        &s(field_log("receivers.csv")),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+    assert!(stderr_of(&o).contains("outside the channel of `FIRE-RX`"));
+}
+
+/// When nothing explains the carrier the ticket is still written (the fix and the walk
+/// are useful) but says so first, asks for no power step and lists what to check.
+#[test]
+fn ticket_says_first_when_nothing_explains_the_carrier() {
+    let tmp = crate::support::scratch();
+    let dir = tmp.path().join("t");
+    let o = pim(&[
+        "ticket",
+        "300",
+        "--max-order",
+        "3",
+        "--emitters",
+        &s(field_log("emitters.csv")),
+        "--log",
+        &s(field_log("walk.csv")),
+        "--out",
+        dir.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let out = stdout_of(&o);
+    assert!(out.starts_with("Written all the same"), "{out}");
+    let md = std::fs::read_to_string(dir.join("ticket.md")).unwrap();
+    let said = md.find("Nothing explains the carrier.").expect(&md);
+    assert!(said < md.find("## 1. What was heard").unwrap(), "{md}");
+    assert!(md.contains("No product of up to 3 emitters and order up to 3 lands"));
+    assert!(!md.contains("The first 0"), "{md}");
+    assert!(!md.contains("Power step with the licensee"), "{md}");
+    assert_eq!(md.matches("Check instead:").count(), 3, "{md}");
+    assert!(md.contains("## 3. Where the junction is"));
+}
+
+/// The issue's case: a seventh-order product of a broadcaster lands 435 kHz off the
+/// centre of the 12.5 kHz channel by the skirt of its 920 kHz-wide spectrum; no power
+/// step is asked of the broadcaster (invented stations).
+#[test]
+fn no_power_step_for_a_high_order_product_off_centre() {
+    let tmp = crate::support::scratch();
+    let tx = tmp.path().join("tx.csv");
+    std::fs::write(
+        &tx,
+        "id,freq_mhz,bw_khz,erp_w,lat,lon,height_m,kind,owner\n\
+         KQBC-FM,98.100,200,50000,45.110000,-122.400000,120,fm,Cedar Valley Broadcasting\n\
+         LB-PAGE,81.875,40,200,45.104000,-122.413000,30,paging,Skerry Paging Co.\n",
+    )
+    .unwrap();
+    let dir = tmp.path().join("t");
+    let o = pim(&[
+        "ticket",
+        "146.34",
+        "--emitters",
+        tx.to_str().unwrap(),
+        "--log",
+        &s(field_log("walk.csv")),
+        "--out",
+        dir.to_str().unwrap(),
+        "--heard-dbm",
+        "-125",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let md = std::fs::read_to_string(dir.join("ticket.md")).unwrap();
+    // 4 × 98.100 − 3 × 81.875 = 146.775 MHz, 435 kHz above 146.34
+    assert!(
+        md.contains("| 4·KQBC-FM − 3·LB-PAGE | junction | 7 | 146.7750 | +435.0 |"),
+        "{md}"
+    );
+    assert!(
+        md.contains("No power step for the first candidate, 4·KQBC-FM − 3·LB-PAGE"),
+        "{md}"
+    );
+    assert!(!md.contains("Power step with the licensee"), "{md}");
+}
+
+/// fix.geojson and fix.kml carry the whole site: every structure and every placed
+/// emitter (id, kind, owner; frequency and ERP), the KML with one style per kind and each
+/// placemark pointing at its kind's style; both stay well-formed with markup in the names.
+#[test]
+fn exports_carry_the_structures_and_emitters() {
+    let tmp = crate::support::scratch();
+    let tx = tmp.path().join("tx.csv");
+    std::fs::write(
+        &tx,
+        "id,freq_mhz,bw_khz,erp_w,lat,lon,height_m,kind,owner\n\
+         SKP-152,152.840,16,300,45.103405,-122.410791,40,paging,\"Skerry <Paging> & Co.\"\n\
+         FIRE-DSP,159.340,11.25,100,45.105340,-122.412764,25,land mobile,Tillery County Fire\n\
+         MOBILE-7,151.000,11.25,,,,,land mobile,\n",
+    )
+    .unwrap();
+    let dir = tmp.path().join("t");
+    let o = pim(&[
+        "ticket",
+        "146.34",
+        "--emitters",
+        tx.to_str().unwrap(),
+        "--log",
+        &s(field_log("walk.csv")),
+        "--structures",
+        &s(field_log("structures.csv")),
+        "--out",
+        dir.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let fc: geojson::FeatureCollection = std::fs::read_to_string(dir.join("fix.geojson"))
+        .unwrap()
+        .parse()
+        .unwrap();
+    let prop = |f: &geojson::Feature, k: &str| f.property(k).cloned().unwrap_or_default();
+    let structures = std::fs::read_to_string(field_log("structures.csv")).unwrap();
+    let structure_count = structures.lines().count() - 1;
+    let of = |kind: &str| {
+        fc.features
+            .iter()
+            .filter(|f| prop(f, "kind") == kind)
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(of("structure").len(), structure_count);
+    let emitters = of("emitter");
+    // MOBILE-7 has no position and cannot be placed
+    assert_eq!(emitters.len(), 2);
+    let skp = emitters
+        .iter()
+        .find(|f| prop(f, "id") == "SKP-152")
+        .unwrap();
+    assert_eq!(prop(skp, "item_kind"), "paging");
+    assert_eq!(prop(skp, "owner"), "Skerry <Paging> & Co.");
+    assert_eq!(prop(skp, "freq_mhz").as_f64(), Some(152.84));
+    // 300 W is 54.77 dBm
+    assert!((prop(skp, "erp_dbm").as_f64().unwrap() - 54.771).abs() < 0.01);
+    let p = point(&skp.geometry.as_ref().unwrap().value);
+    assert!((p.lat_deg - 45.103405).abs() < 1e-9 && (p.lon_deg + 122.410791).abs() < 1e-9);
+
+    let kml = std::fs::read_to_string(dir.join("fix.kml")).unwrap();
+    xml_well_formed(&dir.join("fix.kml"));
+    assert!(kml.contains("Skerry &lt;Paging&gt; &amp; Co."), "{kml}");
+    for (style, placemark) in [
+        ("emitter-paging", "SKP-152"),
+        ("emitter-land-mobile", "FIRE-DSP"),
+        ("structure-guy-anchor", "OLD-TWR-GUY-N"),
+        ("structure-guyed-tower", "OLD-TWR"),
+    ] {
+        assert_eq!(
+            kml.matches(&format!("<Style id=\"{style}\">")).count(),
+            1,
+            "{style}"
+        );
+        assert!(
+            kml.contains(&format!("<Placemark><name>{placemark}</name><description>"))
+                && kml.contains(&format!("<styleUrl>#{style}</styleUrl>")),
+            "{placemark}: {kml}"
+        );
+    }
+    // every styleUrl points at a Style of the document
+    for url in kml.split("<styleUrl>#").skip(1) {
+        let id = &url[..url.find('<').unwrap()];
+        assert!(kml.contains(&format!("<Style id=\"{id}\">")), "{id}");
+    }
+}
