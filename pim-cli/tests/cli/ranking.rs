@@ -338,3 +338,103 @@ fn demo_ticket_names_the_planted_pair_first_with_believable_numbers() {
     assert!(!numbers.is_empty());
     assert!(numbers.iter().all(|&n| n > -200.0), "{numbers:?}");
 }
+
+/// `pim study` lists receivers worst first, by their first candidate's level in the
+/// channel; `--order file` keeps the receivers' file order (each written when ready).
+#[test]
+fn study_lists_receivers_worst_first() {
+    let tx = path(field_log("emitters.csv"));
+    let rx = path(field_log("receivers.csv"));
+    let run = |order: &[&str]| {
+        let mut args = vec![
+            "study",
+            "--emitters",
+            &tx,
+            "--receivers",
+            &rx,
+            "--format",
+            "json",
+            "--limit",
+            "1",
+        ];
+        args.extend_from_slice(order);
+        let o = pim(&args);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+        v["receivers"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| {
+                (
+                    r["id"].as_str().unwrap().to_string(),
+                    r["candidates"][0]["in_channel_dbm"].as_f64(),
+                )
+            })
+            .collect::<Vec<_>>()
+    };
+    let worst = run(&[]);
+    let levels: Vec<f64> = worst.iter().map(|(_, l)| l.unwrap()).collect();
+    assert!(levels.windows(2).all(|w| w[0] >= w[1]), "{worst:?}");
+    assert_eq!(worst, run(&["--order", "worst"]));
+    let file: Vec<String> = run(&["--order", "file"]).into_iter().map(|r| r.0).collect();
+    let listed: Vec<String> = std::fs::read_to_string(field_log("receivers.csv"))
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').next().unwrap().to_string())
+        .collect();
+    assert_eq!(file, listed);
+    assert_ne!(
+        worst.iter().map(|r| r.0.clone()).collect::<Vec<_>>(),
+        listed,
+        "the demo's receivers are not already worst first"
+    );
+}
+
+/// With the junction taken at the receiver the path between them is 0 m: the loss is
+/// taken at λ/2π (ITU-R P.525 needs a distance; common practice for the near-field limit),
+/// and every rendering says so where the path is shown.
+#[test]
+fn the_path_floor_is_shown_where_the_path_is() {
+    let tx = path(field_log("emitters.csv"));
+    let base = [
+        "explain",
+        "146.34",
+        "--emitters",
+        &tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+    ];
+    let run = |extra: &[&str]| {
+        let mut args = base.to_vec();
+        args.extend_from_slice(extra);
+        let o = pim(&args);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        stdout_of(&o)
+    };
+    let table = run(&[]);
+    assert!(table.contains("-6.0*"), "{table}");
+    // λ/2π at 146.34 MHz: 299792458 / 146.34e6 / 2π = 0.326 m
+    assert!(
+        table.contains("* path at its floor: the source lies 0.0 m from the receiver, closer than λ/2π = 0.33 m"),
+        "{table}"
+    );
+    let v: serde_json::Value = serde_json::from_str(&run(&["--format", "json"])).unwrap();
+    let t = &v["candidates"][0]["level_terms"];
+    assert_eq!(t["path_distance_m"].as_f64(), Some(0.0));
+    let floor = t["path_floor_m"].as_f64().unwrap();
+    assert!(
+        (floor - 299_792_458.0 / 146.31e6 / std::f64::consts::TAU).abs() < 0.002,
+        "{t}"
+    );
+    let csv = run(&["--format", "csv"]);
+    let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
+    let col = header.iter().position(|h| *h == "path_floor_m").unwrap();
+    let first: Vec<&str> = csv.lines().nth(1).unwrap().split(',').collect();
+    assert!(!first[col].is_empty(), "{csv}");
+    let md = run(&["--format", "markdown"]);
+    assert!(md.contains("path at its floor"), "{md}");
+}
