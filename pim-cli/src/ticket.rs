@@ -52,6 +52,22 @@ pub struct Args {
     /// Candidates listed in the ticket (candidates.csv has them all).
     #[arg(long, value_name = "N", default_value_t = 10)]
     pub limit: usize,
+    /// The evidence gathered, the receiver and the work order (boxed: they make the
+    /// command's options the largest of all).
+    #[command(flatten)]
+    pub gathered: Box<Gathered>,
+    #[command(flatten)]
+    pub search: SearchArgs,
+    /// Without --heard-dbm, the model is calibrated against the log's `level_dbm`.
+    #[command(flatten)]
+    pub calibration: CalibrationArgs,
+    #[command(flatten)]
+    pub fix: FixArgs,
+}
+
+/// What the ticket takes in beyond the walk: the evidence, the receiver, the work order.
+#[derive(clap::Args, Debug)]
+pub struct Gathered {
     #[command(flatten)]
     pub evidence: EvidenceArgs,
     /// An attenuator test at the receiver: CSV `step_db,level_dbm` (as `pim slope --kind
@@ -75,13 +91,6 @@ pub struct Args {
     /// Who the ticket is assigned to.
     #[arg(long, value_name = "NAME")]
     pub assignee: Option<String>,
-    #[command(flatten)]
-    pub search: SearchArgs,
-    /// Without --heard-dbm, the model is calibrated against the log's `level_dbm`.
-    #[command(flatten)]
-    pub calibration: CalibrationArgs,
-    #[command(flatten)]
-    pub fix: FixArgs,
 }
 
 /// The date and time the ticket is dated: SOURCE_DATE_EPOCH when set (for reproducible
@@ -241,9 +250,10 @@ pub fn run(args: Args) -> CliResult {
         args.fix.track.is_some(),
     )?;
     let s = &args.search;
+    let g = &args.gathered;
     let site = Site::new(emitters);
     let source = args.input.emitters.display().to_string();
-    let receiver = match (&args.receivers, &args.receiver) {
+    let receiver = match (&g.receivers, &g.receiver) {
         (Some(path), Some(id)) => Some(affected_receiver(path, id, &args.input, s)?),
         _ => None,
     };
@@ -256,19 +266,15 @@ pub fn run(args: Args) -> CliResult {
         .or(receiver.as_ref().and_then(|(rx, _)| rx.position));
     let shown = |p: &Option<PathBuf>| p.as_ref().map(|p| p.display().to_string());
     let evidence = FieldEvidence {
-        coefficients: args.evidence.coefficient_indices(&site, &source)?,
-        logbook: args.evidence.logbook(site.emitters())?,
-        logbook_sources: shown(&args.evidence.on_air).zip(shown(&args.evidence.heard)),
-        attenuator: args
+        coefficients: g.evidence.coefficient_indices(&site, &source)?,
+        logbook: g.evidence.logbook(site.emitters())?,
+        logbook_sources: shown(&g.evidence.on_air).zip(shown(&g.evidence.heard)),
+        attenuator: g
             .attenuator_readings
             .as_deref()
             .map(attenuator_test)
             .transpose()?,
-        power_steps: args
-            .power_steps
-            .as_deref()
-            .map(power_step_test)
-            .transpose()?,
+        power_steps: g.power_steps.as_deref().map(power_step_test).transpose()?,
         receiver,
     };
     let inputs = TicketInputs {
@@ -288,8 +294,8 @@ pub fn run(args: Args) -> CliResult {
         band: None,
         evidence,
         work_order: WorkOrder {
-            ticket_id: args.ticket_id.clone(),
-            assignee: args.assignee.clone(),
+            ticket_id: g.ticket_id.clone(),
+            assignee: g.assignee.clone(),
         },
     };
     let mut inputs = inputs;
@@ -320,10 +326,10 @@ pub fn run(args: Args) -> CliResult {
     input_paths.extend(args.structures.as_deref());
     input_paths.extend(args.fix.track.as_deref());
     input_paths.extend(args.traces.iter().map(PathBuf::as_path));
-    input_paths.extend(args.evidence.paths());
-    input_paths.extend(args.attenuator_readings.as_deref());
-    input_paths.extend(args.power_steps.as_deref());
-    input_paths.extend(args.receivers.as_deref());
+    input_paths.extend(g.evidence.paths());
+    input_paths.extend(g.attenuator_readings.as_deref());
+    input_paths.extend(g.power_steps.as_deref());
+    input_paths.extend(g.receivers.as_deref());
     let existing = if args.force {
         Existing::Replace
     } else {
