@@ -416,6 +416,18 @@ fn path_text(b: Option<&LevelBreakdown>) -> String {
     }
 }
 
+/// The channel column: `≤−120.0` where the product's share of the channel was raised to
+/// its floor ([`pim_core::level::MIN_CHANNEL_FRACTION`]).
+fn chan_text(b: Option<&LevelBreakdown>) -> String {
+    match b {
+        Some(b) if b.channel_fraction <= pim_core::level::MIN_CHANNEL_FRACTION => {
+            format!("≤{}", signed(b.channel_db, 1))
+        }
+        Some(b) => signed(b.channel_db, 1),
+        None => "—".to_string(),
+    }
+}
+
 /// What the floored path terms of the candidates shown assumed, for the legend: one
 /// line when any path was taken at its floor.
 pub fn path_floor_text(candidates: &[&Candidate]) -> Option<String> {
@@ -539,7 +551,7 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
                 signed_text(j.map(|j| j.form_db)),
                 signed_text(j.map(|j| j.order_db + j.even_order_db)),
                 path_text(b.as_ref()),
-                signed_text(b.map(|b| b.channel_db)),
+                chan_text(b.as_ref()),
             ]);
         }
         if l.ranking.by_evidence {

@@ -420,6 +420,25 @@ fn build(
             ));
         }
     }
+    if at_fix
+        .candidates
+        .iter()
+        .take(t.limit)
+        .any(|c| c.away_from_fix)
+    {
+        let radius = fix_radius_m(&t.fix);
+        levels.push_str(&format!(
+            " \"Away from the fix\": made more than {radius:.0} m from the fix ({}), where the bearings do not point; such candidates rank after those made at the fix.",
+            if radius > t.fix.ellipse.semi_major_m {
+                format!(
+                    "the ellipse's semi-major axis of {:.1} m raised to the {FIX_RADIUS_FLOOR_M:.0} m floor",
+                    t.fix.ellipse.semi_major_m
+                )
+            } else {
+                "the ellipse's semi-major axis".to_string()
+            }
+        ));
+    }
     doc.push(Block::Para(levels));
     let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
     doc.push(Block::Picture {
@@ -558,8 +577,13 @@ fn build(
         .map(|(points, places)| format!("{}: {}.", places.join(", "), points.join("; ")))
         .collect();
     inspect.push(format!(
-        "Anything metal within {:.0} m of the fix that is not listed: fences, roofing, loose hardware, cable trays, abandoned antennas and brackets.",
-        e.semi_major_m.max(10.0)
+        "Anything metal within {:.0} m of the fix{} that is not listed: fences, roofing, loose hardware, cable trays, abandoned antennas and brackets.",
+        e.semi_major_m.max(10.0),
+        if e.semi_major_m < 10.0 {
+            " (the ellipse's semi-major axis, raised to 10 m)"
+        } else {
+            ""
+        }
     ));
     if let Some(top) = at_fix.candidates.first() {
         let ids: Vec<String> = display_terms(&top.product, t.site.emitters())
@@ -1055,6 +1079,12 @@ pub fn heard_levels(t: &TicketInputs) -> Vec<HeardLevel> {
 /// Sources closer than this to the fix agree with the bearings whatever the ellipse, m.
 const FIX_RADIUS_FLOOR_M: f64 = 30.0;
 
+/// How far from the fix a source may lie and still agree with the bearings, m: the
+/// ellipse's semi-major axis, at least [`FIX_RADIUS_FLOOR_M`].
+fn fix_radius_m(fix: &Fix) -> f64 {
+    fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)
+}
+
 /// Searches, ranks at the receiver and at the fix, and makes the seven files of the
 /// ticket: ticket.md, ticket.html, map.svg, spectrum.svg, fix.geojson, fix.kml and
 /// candidates.csv.
@@ -1077,7 +1107,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             placement: Placement {
                 junction: Some(t.fix.position),
                 receiver: t.rx_site,
-                fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
+                fix_radius_m: Some(fix_radius_m(&t.fix)),
             },
             model: t.model,
             logbook: t.evidence.logbook.as_ref(),

@@ -317,6 +317,8 @@ fn ticket_takes_the_evidence() {
         "Done: attenuator test",
         "Done: power steps",
         "Done: on-air check",
+        // the output-stage candidate is away from the fix, and the radius is stated
+        "\"Away from the fix\": made more than",
     ] {
         assert!(md.contains(want), "{want}\n{md}");
     }
