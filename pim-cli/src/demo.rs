@@ -26,6 +26,9 @@ use crate::ticket::{prepared_at, print_summary, write_ticket};
 pub const EMITTERS_CSV: &str = include_str!("../../field-logs/emitters.csv");
 pub const STRUCTURES_CSV: &str = include_str!("../../field-logs/structures.csv");
 pub const WALK_CSV: &str = include_str!("../../field-logs/walk.csv");
+/// The attenuator test and the power steps of SKP-152 and FIRE-DSP, done on the visit.
+pub const ATTENUATOR_CSV: &str = include_str!("../../field-logs/attenuator-readings.csv");
+pub const POWER_STEPS_CSV: &str = include_str!("../../field-logs/power-steps.csv");
 /// A maximum-hold trace of the site's receive band, 144–160 MHz.
 pub const TRACE_CSV: &str = include_str!("../../field-logs/trace.csv");
 
@@ -103,7 +106,17 @@ pub fn run(args: Args) -> CliResult {
         heard_dbm: None,
         limit: 10,
         band: None,
-        evidence: Default::default(),
+        evidence: pim_report::ticket::FieldEvidence {
+            attenuator: Some(crate::ticket::attenuator_test_from(
+                "attenuator-readings.csv".into(),
+                ATTENUATOR_CSV.as_bytes(),
+            )?),
+            power_steps: Some(crate::ticket::power_step_test_from(
+                "power-steps.csv".into(),
+                POWER_STEPS_CSV.as_bytes(),
+            )?),
+            ..Default::default()
+        },
         work_order: Default::default(),
     };
     let mut inputs = inputs;

@@ -178,8 +178,15 @@ pub fn print_summary(out: &mut dyn Write, t: &TicketInputs, w: &Written) -> CliR
 
 /// The attenuator test of a file, read as `pim slope --kind attenuator` reads it.
 fn attenuator_test(path: &Path) -> CliResult<AttenuatorTest> {
-    let source = path.display().to_string();
-    let file = read_readings(&source, open(path)?, StepKind::Attenuator)?;
+    attenuator_test_from(path.display().to_string(), open(path)?)
+}
+
+/// [`attenuator_test`] of readings from `reader`, named `source`.
+pub fn attenuator_test_from(
+    source: String,
+    reader: impl std::io::Read,
+) -> CliResult<AttenuatorTest> {
+    let file = read_readings(&source, reader, StepKind::Attenuator)?;
     crate::common::note_unused(&source, &file.ignored_columns);
     let answer = judge(StepKind::Attenuator, &file.points())?;
     Ok(AttenuatorTest { answer, source })
@@ -188,8 +195,15 @@ fn attenuator_test(path: &Path) -> CliResult<AttenuatorTest> {
 /// The power steps of a file, read as `pim slope --kind power` reads it: several
 /// emitters' slopes together, or one emitter's.
 fn power_step_test(path: &Path) -> CliResult<PowerStepTest> {
-    let source = path.display().to_string();
-    let file = read_readings(&source, open(path)?, StepKind::Power)?;
+    power_step_test_from(path.display().to_string(), open(path)?)
+}
+
+/// [`power_step_test`] of readings from `reader`, named `source`.
+pub fn power_step_test_from(
+    source: String,
+    reader: impl std::io::Read,
+) -> CliResult<PowerStepTest> {
+    let file = read_readings(&source, reader, StepKind::Power)?;
     crate::common::note_unused(&source, &file.ignored_columns);
     let series = file.series("the emitter");
     let answer = if series.len() > 1 {
