@@ -201,10 +201,14 @@ fn build(
         doc.push(Block::List(header));
     }
     let credible = at_fix.outlook == Outlook::Credible;
-    if let Some(statement) = outlook_text(at_fix) {
+    let why = match at_fix.outlook {
+        Outlook::NothingLands => Some("no product of the listed emitters lands in the channel"),
+        Outlook::OnlyImplausible => Some("every product that lands would need a junction mixing more strongly than any passive contact, or is made away from the fix"),
+        Outlook::Credible | Outlook::Unlevelled => None,
+    };
+    if let Some(why) = why {
         doc.push(Block::Para(format!(
-            "Nothing explains the carrier. {} The fix and the walk below still show where it comes from; no power step is asked for until a candidate is credible.",
-            statement.trim_start_matches("Nothing credible: ")
+            "Nothing explains the carrier: {why}. The fix and the walk below still show where it comes from; no power step is asked for, and \"How to confirm\" lists what to check instead."
         )));
     }
     doc.push(Block::Heading(2, "1. What was heard".into()));
@@ -610,7 +614,10 @@ fn build(
     let proposed = power_step_candidate(at_fix, &t.params, t.limit);
     if !credible {
         for step in at_fix.next_steps() {
-            steps.push(format!("Check instead: {}.", next_step_text(*step)));
+            steps.push(format!(
+                "Instead of a power step, {}.",
+                next_step_text(*step)
+            ));
         }
     } else if let Some(first) = at_fix.candidates.first() {
         if let Some(doubt) = power_step_doubt(first, &t.params) {
