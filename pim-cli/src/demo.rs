@@ -18,7 +18,7 @@ use crate::common::{finish, stdout, CliResult};
 use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
 use pim_core::trace::{analyse, MaxHold};
 use pim_io::trace::read_trace_into;
-use pim_report::ticket::{BandTrace, TicketInputs};
+use pim_report::ticket::{AttenuatorTest, BandTrace, PowerStepTest, TicketInputs};
 
 use crate::ticket::{prepared_at, print_summary, write_ticket};
 
@@ -107,14 +107,12 @@ pub fn run(args: Args) -> CliResult {
         limit: 10,
         band: None,
         evidence: pim_report::ticket::FieldEvidence {
-            attenuator: Some(crate::ticket::attenuator_test_from(
-                "attenuator-readings.csv".into(),
-                ATTENUATOR_CSV.as_bytes(),
-            )?),
-            power_steps: Some(crate::ticket::power_step_test_from(
-                "power-steps.csv".into(),
-                POWER_STEPS_CSV.as_bytes(),
-            )?),
+            attenuator: Some(
+                AttenuatorTest::read("attenuator-readings.csv", ATTENUATOR_CSV.as_bytes())?.0,
+            ),
+            power_steps: Some(
+                PowerStepTest::read("power-steps.csv", POWER_STEPS_CSV.as_bytes())?.0,
+            ),
             ..Default::default()
         },
         work_order: Default::default(),

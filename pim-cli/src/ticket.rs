@@ -6,15 +6,13 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use pim_core::slope::{judge, judge_power_steps, StepKind};
 use pim_core::trace::analyse;
 use pim_core::{Error, Site};
 use pim_io::emitters::read_structures;
 use pim_io::output::{write_files_atomically, Existing};
-use pim_io::{read_readings, read_receivers};
+use pim_io::read_receivers;
 use pim_report::ticket::{
-    ticket_files, AttenuatorTest, BandTrace, FieldEvidence, PowerStepAnswer, PowerStepTest,
-    TicketInputs, WorkOrder,
+    ticket_files, AttenuatorTest, BandTrace, FieldEvidence, PowerStepTest, TicketInputs, WorkOrder,
 };
 
 use crate::args::{CalibrationArgs, EvidenceArgs, HeardArgs, SearchArgs};
@@ -178,46 +176,18 @@ pub fn print_summary(out: &mut dyn Write, t: &TicketInputs, w: &Written) -> CliR
 
 /// The attenuator test of a file, read as `pim slope --kind attenuator` reads it.
 fn attenuator_test(path: &Path) -> CliResult<AttenuatorTest> {
-    attenuator_test_from(path.display().to_string(), open(path)?)
+    let source = path.display().to_string();
+    let (test, unused) = AttenuatorTest::read(&source, open(path)?)?;
+    crate::common::note_unused(&source, &unused);
+    Ok(test)
 }
 
-/// [`attenuator_test`] of readings from `reader`, named `source`.
-pub fn attenuator_test_from(
-    source: String,
-    reader: impl std::io::Read,
-) -> CliResult<AttenuatorTest> {
-    let file = read_readings(&source, reader, StepKind::Attenuator)?;
-    crate::common::note_unused(&source, &file.ignored_columns);
-    let answer = judge(StepKind::Attenuator, &file.points())?;
-    Ok(AttenuatorTest { answer, source })
-}
-
-/// The power steps of a file, read as `pim slope --kind power` reads it: several
-/// emitters' slopes together, or one emitter's.
+/// The power steps of a file, read as `pim slope --kind power` reads it.
 fn power_step_test(path: &Path) -> CliResult<PowerStepTest> {
-    power_step_test_from(path.display().to_string(), open(path)?)
-}
-
-/// [`power_step_test`] of readings from `reader`, named `source`.
-pub fn power_step_test_from(
-    source: String,
-    reader: impl std::io::Read,
-) -> CliResult<PowerStepTest> {
-    let file = read_readings(&source, reader, StepKind::Power)?;
-    crate::common::note_unused(&source, &file.ignored_columns);
-    let series = file.series("the emitter");
-    let answer = if series.len() > 1 {
-        PowerStepAnswer::Several {
-            answer: judge_power_steps(&series)?,
-            counts: series.iter().map(|(_, p)| p.len()).collect(),
-        }
-    } else {
-        PowerStepAnswer::One {
-            answer: judge(StepKind::Power, &file.points())?,
-            emitter: file.readings.first().and_then(|r| r.emitter.clone()),
-        }
-    };
-    Ok(PowerStepTest { answer, source })
+    let source = path.display().to_string();
+    let (test, unused) = PowerStepTest::read(&source, open(path)?)?;
+    crate::common::note_unused(&source, &unused);
+    Ok(test)
 }
 
 /// The affected receiver from its file; the heard frequency must lie in its channel.

@@ -12,7 +12,7 @@ use pim_core::onair::Logbook;
 use pim_core::rank::{
     display_terms, formula, rank_candidates, HeardLevel, Outlook, Placement, RankInputs, Ranking,
 };
-use pim_core::slope::{PowerSteps, PowerVerdict, SlopeAnswer};
+use pim_core::slope::{judge, judge_power_steps, PowerSteps, PowerVerdict, SlopeAnswer, StepKind};
 use pim_core::ticket::{
     inspection_points, nearby, power_step_candidate, power_step_doubt, rank_changes, ItemKind,
     NearbyItem, PowerStepDoubt, Structure,
@@ -21,6 +21,7 @@ use pim_core::trace::classify::PeakKind;
 use pim_core::{Error, Query, Site};
 use pim_io::export::{bearing_length_m, site_geojson, site_kml, SiteItems};
 use pim_io::fieldlog::{Correction, FieldLog};
+use pim_io::read_readings;
 
 use crate::candidates::{
     calibrated_first_dbm, made_in, narrowing_text, next_step_text, outlook_text, write_csv, Listing,
@@ -94,6 +95,46 @@ pub struct AttenuatorTest {
 pub struct PowerStepTest {
     pub answer: PowerStepAnswer,
     pub source: String,
+}
+
+impl AttenuatorTest {
+    /// Reads an attenuator test (`step_db,level_dbm`) and judges it as `pim slope --kind
+    /// attenuator` does; also the columns not read.
+    pub fn read(source: &str, reader: impl std::io::Read) -> Result<(Self, Vec<String>), Error> {
+        let file = read_readings(source, reader, StepKind::Attenuator)?;
+        let answer = judge(StepKind::Attenuator, &file.points())?;
+        let test = AttenuatorTest {
+            answer,
+            source: source.to_string(),
+        };
+        Ok((test, file.ignored_columns))
+    }
+}
+
+impl PowerStepTest {
+    /// Reads power steps as `pim slope --kind power` does: with an `emitter` column naming
+    /// several emitters, their slopes together (coefficients and drive exponent);
+    /// otherwise one emitter's slope. Also the columns not read.
+    pub fn read(source: &str, reader: impl std::io::Read) -> Result<(Self, Vec<String>), Error> {
+        let file = read_readings(source, reader, StepKind::Power)?;
+        let series = file.series("the emitter");
+        let answer = if series.len() > 1 {
+            PowerStepAnswer::Several {
+                answer: judge_power_steps(&series)?,
+                counts: series.iter().map(|(_, p)| p.len()).collect(),
+            }
+        } else {
+            PowerStepAnswer::One {
+                answer: judge(StepKind::Power, &file.points())?,
+                emitter: file.readings.first().and_then(|r| r.emitter.clone()),
+            }
+        };
+        let test = PowerStepTest {
+            answer,
+            source: source.to_string(),
+        };
+        Ok((test, file.ignored_columns))
+    }
 }
 
 /// One emitter's steps, or the steps of several.
