@@ -245,9 +245,11 @@ pub fn run(args: Args) -> CliResult {
         .as_ref()
         .and_then(|(rx, _)| rx.bandwidth)
         .unwrap_or(s.rx_bw);
-    let rx_site = s
-        .rx_site()
-        .or(receiver.as_ref().and_then(|(rx, _)| rx.position));
+    // the named receiver's own width and position; the options only fill its gaps
+    let rx_site = receiver
+        .as_ref()
+        .and_then(|(rx, _)| rx.position)
+        .or(s.rx_site());
     let shown = |p: &Option<PathBuf>| p.as_ref().map(|p| p.display().to_string());
     let evidence = FieldEvidence {
         coefficients: g.evidence.coefficient_indices(&site, &source)?,
