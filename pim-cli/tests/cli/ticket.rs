@@ -531,3 +531,41 @@ fn exports_carry_the_structures_and_emitters() {
         assert!(kml.contains(&format!("<Style id=\"{id}\">")), "{id}");
     }
 }
+
+/// The affected receiver's own channel width and position are used, before the options'
+/// defaults, and the ticket names it.
+#[test]
+fn the_affected_receivers_channel_and_position_are_used() {
+    let tmp = crate::support::scratch();
+    let rx = tmp.path().join("rx.csv");
+    std::fs::write(
+        &rx,
+        "id,freq_mhz,bw_khz,lat,lon\nRX-W,146.345,25,45.1035,-122.4125\n",
+    )
+    .unwrap();
+    let dir = tmp.path().join("t");
+    let o = pim(&[
+        "ticket",
+        "146.34",
+        "--emitters",
+        &s(field_log("emitters.csv")),
+        "--log",
+        &s(field_log("walk.csv")),
+        "--out",
+        dir.to_str().unwrap(),
+        "--receiver",
+        "RX-W",
+        "--receivers",
+        rx.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let md = std::fs::read_to_string(dir.join("ticket.md")).unwrap();
+    assert!(
+        md.contains("Affected receiver: RX-W (146.345 MHz, line 2 of")
+            && md.contains("its 25.0 kHz channel and its position 45.103500, -122.412500 are used"),
+        "{md}"
+    );
+    assert!(md.contains("in the 25.0 kHz receive channel"), "{md}");
+    // ranked at the receiver too: its position is where the carrier is heard
+    assert!(md.contains("rank at receiver"), "{md}");
+}
