@@ -567,5 +567,8 @@ fn the_affected_receivers_channel_and_position_are_used() {
     );
     assert!(md.contains("in the 25.0 kHz receive channel"), "{md}");
     // ranked at the receiver too (its position is where the carrier is heard)
-    assert!(md.contains("Moving the junction from the receiver to the fix"), "{md}");
+    assert!(
+        md.contains("Moving the junction from the receiver to the fix"),
+        "{md}"
+    );
 }
