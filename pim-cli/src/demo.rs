@@ -129,8 +129,59 @@ pub fn run(args: Args) -> CliResult {
     } else {
         Existing::Refuse
     };
-    let marker = [(MARKER, MARKER_TEXT.as_bytes().to_vec())];
-    let written = write_ticket(&inputs, &args.out, &[], existing, &marker)?;
+    // The demo's own inputs go beside the ticket, so that its commands can be run again.
+    let extra: Vec<(&str, Vec<u8>)> = [
+        (MARKER, MARKER_TEXT),
+        ("emitters.csv", EMITTERS_CSV),
+        ("structures.csv", STRUCTURES_CSV),
+        ("walk.csv", WALK_CSV),
+        ("trace.csv", TRACE_CSV),
+    ]
+    .iter()
+    .map(|(name, text)| (*name, text.as_bytes().to_vec()))
+    .collect();
+    let written = write_ticket(&inputs, &args.out, &[], existing, &extra)?;
     print_summary(&mut out, &inputs, &written)?;
+    writeln!(
+        out,
+        "\nIts inputs are in {} too. The commands it ran, to run on your own files:",
+        args.out.display()
+    )?;
+    for line in commands(&args.out) {
+        writeln!(out, "  {line}")?;
+    }
     finish(out)
+}
+
+/// The `pim` command lines that do what the demo did, on the inputs it wrote into `dir`.
+fn commands(dir: &Path) -> Vec<String> {
+    let file = |name: &str| shell_word(&dir.join(name).display().to_string());
+    let again = shell_word(&format!("{}-again", dir.display()));
+    vec![
+        format!("pim fix --log {}", file("walk.csv")),
+        format!(
+            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --rx-lat {} --rx-lon {} --site 'Marrow Hill' --out {again}",
+            HEARD.mhz_text(),
+            file("emitters.csv"),
+            file("walk.csv"),
+            file("structures.csv"),
+            file("trace.csv"),
+            RX_SITE.lat_deg,
+            RX_SITE.lon_deg,
+        ),
+    ]
+}
+
+/// A path as one word of a POSIX shell command line: quoted when it holds anything but
+/// letters, digits and `-_./+,:@%`.
+fn shell_word(text: &str) -> String {
+    if !text.is_empty()
+        && text
+            .chars()
+            .all(|c| c.is_ascii_alphanumeric() || "-_./+,:@%".contains(c))
+    {
+        text.to_string()
+    } else {
+        format!("'{}'", text.replace('\'', "'\\''"))
+    }
 }

@@ -1,12 +1,13 @@
-//! `pim log FILE`: add one bearing reading to a field log, safely, and show the running
-//! fix.
+//! `pim log --log FILE`: add one bearing reading to a field log, safely, and show the
+//! running fix; or take the last reading back (`--undo`), or list the readings with
+//! their residuals at the running fix (`--list`).
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use pim_core::error::{Error, ErrorClass};
-use pim_io::append::{append_row, read_locked, Appended};
-use pim_io::fieldlog::{log_row, LogEntry, LOG_HEADER};
+use pim_io::append::{append_row, read_locked, remove_last_row, Appended};
+use pim_io::fieldlog::{log_row, read_field_log, LogEntry, LOG_HEADER};
 use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
 
@@ -20,37 +21,51 @@ pub enum NorthArg {
 }
 
 #[derive(clap::Args, Debug)]
+#[command(group(clap::ArgGroup::new("field_log").required(true).args(["file", "log"])))]
 pub struct Args {
-    /// The field log to add to (created with its header when missing).
+    /// The field log (a shorthand for --log FILE).
     #[arg(value_name = "FILE")]
-    pub file: PathBuf,
-    /// Latitude of the spot, WGS84 degrees.
+    pub file: Option<PathBuf>,
+    /// The field log to add to (created with its header when missing).
+    #[arg(long, value_name = "FILE")]
+    pub log: Option<PathBuf>,
+    /// Take back the last reading of the log (it is printed) instead of adding one.
+    #[arg(long, conflicts_with_all = ["list", "lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "note", "time"])]
+    pub undo: bool,
+    /// List the readings with their residuals at the running fix instead of adding one.
+    #[arg(long, conflicts_with_all = ["lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "note", "time"])]
+    pub list: bool,
+    /// Latitude of the spot: degrees (45.1046), degrees and minutes (45°06.275'N) or
+    /// degrees, minutes and seconds (45 06 16.5 N).
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub lat: Option<String>,
-    /// Longitude of the spot, WGS84 degrees.
+    /// Longitude of the spot, in the notations of --lat with E or W.
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub lon: Option<String>,
-    /// Take the position from the newest point of this GPS track instead.
-    #[arg(long, value_name = "GPX", conflicts_with_all = ["lat", "lon"])]
-    pub gps_from: Option<PathBuf>,
     /// The bearing read on the antenna, degrees clockwise from north.
-    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
-    pub bearing_deg: String,
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true, required_unless_present_any = ["undo", "list"])]
+    pub bearing_deg: Option<String>,
     /// Which north the bearing is from.
     #[arg(long, value_enum, default_value_t = NorthArg::True)]
     pub north: NorthArg,
-    /// This reading's standard deviation in degrees.
+    /// This reading's standard deviation in degrees (the log's `sigma_deg` column;
+    /// --sigma-deg overrides every reading's σ in the running fix, as in `pim fix`).
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
-    pub sigma_deg: Option<String>,
+    pub reading_sigma_deg: Option<String>,
     /// Signal level seen, dBm.
     #[arg(long, value_name = "DBM", allow_hyphen_values = true)]
     pub level_dbm: Option<String>,
     /// A note (where, what was seen).
     #[arg(long)]
     pub note: Option<String>,
-    /// When the reading was taken, ISO 8601 (default: now, UTC).
+    /// When the reading was taken, ISO 8601 (default: now, UTC; with --track and no
+    /// --lat/--lon, the time of the track's newest point).
     #[arg(long, value_name = "TIME")]
     pub time: Option<String>,
+    /// The running fix's estimator; --track also gives the new reading its position when
+    /// --lat/--lon are left out (at --time, else the track's newest point).
+    #[command(flatten)]
+    pub fix: FixArgs,
 }
 
 /// A bad value typed on the command line: the option is named, exit code 2.
@@ -164,70 +179,99 @@ pub(crate) fn save_reading(
     })?)
 }
 
-pub fn run(args: Args) -> CliResult {
-    let (lat, lon, time) = match &args.gps_from {
-        Some(gpx) => {
-            let track = read_track(&gpx.display().to_string(), open(gpx)?)?;
-            let (t, p) = track.newest().ok_or_else(|| {
-                Error::input(
-                    pim_core::Place::new(gpx.display().to_string()),
-                    "no timed track point",
+/// The option of `pim log` that fills a log column.
+fn option_of(column: &str) -> String {
+    match column {
+        "sigma_deg" => "--reading-sigma-deg".to_string(),
+        other => format!("--{}", other.replace('_', "-")),
+    }
+}
+
+/// The new reading's position and time: as typed, or from the GPS track (at `--time`
+/// when given, else its newest point).
+type Spot = (Option<String>, Option<String>, Option<String>);
+
+fn position_and_time(args: &Args) -> CliResult<Spot> {
+    let (Some(gpx), None, None) = (&args.fix.track, &args.lat, &args.lon) else {
+        if args.lat.is_none() || args.lon.is_none() {
+            return Err(Error::argument(
+                "--lat/--lon",
+                "give the spot's position, or --track with a GPS track to take it from",
+            )
+            .into());
+        }
+        return Ok((args.lat.clone(), args.lon.clone(), args.time.clone()));
+    };
+    let source = gpx.display().to_string();
+    let track = read_track(&source, open(gpx)?)?;
+    let (when, p) = match &args.time {
+        Some(text) => {
+            let t = pim_io::fieldlog::parse_time(text).map_err(|m| Error::argument("--time", m))?;
+            let p = track.position_at(t).ok_or_else(|| {
+                Error::argument(
+                    "--time",
+                    format!("{text} is outside the track {source}; give --lat and --lon"),
                 )
             })?;
-            let when = args.time.clone().or_else(|| t.format(&Rfc3339).ok());
-            (
-                Some(format!("{:.7}", p.lat_deg)),
-                Some(format!("{:.7}", p.lon_deg)),
-                when,
-            )
+            (text.clone(), p)
         }
-        None => (args.lat.clone(), args.lon.clone(), args.time.clone()),
+        None => {
+            let (t, p) = track.newest().ok_or_else(|| {
+                Error::input(pim_core::Place::new(&source), "no timed track point")
+            })?;
+            (t.format(&Rfc3339).unwrap_or_default(), p)
+        }
     };
-    if lat.is_none() || lon.is_none() {
-        return Err(Error::argument(
-            "--lat/--lon",
-            "give the spot's position, or --gps-from a GPS track",
-        )
-        .into());
-    }
-    let reading = ReadingText {
-        lat,
-        lon,
-        bearing_deg: args.bearing_deg.clone(),
-        north: args.north,
-        sigma_deg: args.sigma_deg.clone(),
-        level_dbm: args.level_dbm.clone(),
-        note: args.note.clone(),
-        time,
+    Ok((
+        Some(format!("{:.7}", p.lat_deg)),
+        Some(format!("{:.7}", p.lon_deg)),
+        Some(when),
+    ))
+}
+
+pub fn run(args: Args) -> CliResult {
+    let Some(file) = args.log.clone().or(args.file.clone()) else {
+        return Err(Error::argument("--log", "give the field log").into());
     };
-    let appended = save_reading(&args.file, &reading, &|column| {
-        format!("--{}", column.replace('_', "-"))
-    })?;
-    let source = args.file.display().to_string();
+    let source = file.display().to_string();
     let mut out = stdout();
-    writeln!(
-        out,
-        "Saved to {source}, line {}{}.",
-        appended.line,
-        if appended.created { " (new log)" } else { "" }
-    )?;
+    if args.undo {
+        let removed = remove_last_row(&file)?;
+        writeln!(
+            out,
+            "Took back line {} of {source}: {}",
+            removed.line, removed.row
+        )?;
+    } else if !args.list {
+        let (lat, lon, time) = position_and_time(&args)?;
+        let reading = ReadingText {
+            lat,
+            lon,
+            bearing_deg: args.bearing_deg.clone().unwrap_or_default(),
+            north: args.north,
+            sigma_deg: args.reading_sigma_deg.clone(),
+            level_dbm: args.level_dbm.clone(),
+            note: args.note.clone(),
+            time,
+        };
+        let appended = save_reading(&file, &reading, &option_of)?;
+        writeln!(
+            out,
+            "Saved to {source}, line {}{}.",
+            appended.line,
+            if appended.created { " (new log)" } else { "" }
+        )?;
+    }
     // The running fix, from the whole log as it now stands.
-    let bytes = read_locked(&args.file)?;
+    let bytes = read_locked(&file)?;
     let text = String::from_utf8_lossy(&bytes);
-    match fix_from_log(&args.file, Some(&text), &FixArgs::default()) {
+    match fix_from_log(&file, Some(&text), &args.fix) {
         Ok((fix, _)) => {
-            let e = &fix.ellipse;
-            writeln!(
-                out,
-                "Running fix {:.6}, {:.6} from {} readings; {:.0}% ellipse {:.0} × {:.0} m at {:.0}°.",
-                fix.position.lat_deg,
-                fix.position.lon_deg,
-                fix.n_used,
-                e.confidence * 100.0,
-                e.semi_major_m,
-                e.semi_minor_m,
-                e.orientation_deg
-            )?;
+            write!(out, "{}", pim_report::walk::running_fix_line(&fix))?;
+            if args.list {
+                let log = read_field_log(&source, text.as_bytes(), args.fix.track.is_some())?;
+                write!(out, "{}", pim_report::walk::log_listing(&fix, &log.rows))?;
+            }
         }
         Err(crate::common::CliError::Core(e)) if e.class == ErrorClass::Refused => {
             writeln!(out, "No fix yet: {}", e.message)?;

@@ -17,7 +17,7 @@ use serde_json::json;
 
 use crate::args::{ListingArgs, SearchArgs};
 use crate::common::load_emitters;
-use crate::common::{finish, finite_arg, open, stdout, CliResult, ListFormat};
+use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use pim_report::sweep::{
     picture_input, write_csv, write_json, write_markdown, write_table, SweepReport,
 };
@@ -54,7 +54,7 @@ pub struct Args {
 
 /// clap parser for the threshold: a finite number of dB above zero.
 pub fn threshold_arg(text: &str) -> Result<f64, String> {
-    let v = finite_arg(text)?;
+    let v = pim_io::text::parse_quantity(text, "dB")?;
     if !(v > 0.0 && v <= 100.0) {
         return Err(format!(
             "threshold {text} dB must be above 0 dB and at most 100 dB"

@@ -398,8 +398,9 @@ pub fn prepare(
     Ok(out)
 }
 
-/// Reads candidate spots for the next bearing: CSV with `lat`, `lon` and an optional
-/// `name` (gates, road bends, a walkable path).
+/// Reads candidate spots for the next bearing: CSV with `lat`, `lon` (any notation of
+/// [`crate::text::parse_coordinate`]) and an optional `name` or `id` (gates, road bends,
+/// a walkable path; a structures file, whose column is `id`, will do).
 pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk::Spot>> {
     let mut table = Table::open(source, reader)?;
     table.require("lat")?;
@@ -409,9 +410,12 @@ pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         spots.push(pim_core::walk::Spot {
-            name: match row.get("name") {
-                Some(name) => {
-                    crate::emitters::checked_id(row.place("name"), name)?;
+            name: match ["name", "id"]
+                .into_iter()
+                .find_map(|c| row.get(c).map(|v| (c, v)))
+            {
+                Some((column, name)) => {
+                    crate::emitters::checked_id(row.place(column), name)?;
                     Some(name.to_string())
                 }
                 None => None,
