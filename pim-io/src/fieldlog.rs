@@ -505,6 +505,40 @@ mod tests {
         );
     }
 
+    /// Positions in degrees and minutes or degrees, minutes and seconds read as decimal
+    /// degrees; a bad one names its line and field.
+    #[test]
+    fn positions_in_any_notation() {
+        let log =
+            read("lat;lon;bearing_deg\n45°06.275'N;122 24 50.5 W;10\nN45 06 16.5;-122.414;20\n")
+                .unwrap();
+        let p = log.rows[0].position.unwrap();
+        assert!((p.lat_deg - 45.104_583_333).abs() < 1e-8);
+        assert!((p.lon_deg + 122.414_027_778).abs() < 1e-8);
+        assert!((log.rows[1].position.unwrap().lat_deg - 45.104_583_333).abs() < 1e-8);
+        for (text, want) in [
+            (
+                "lat;lon;bearing_deg\n45 75 N;-122;10\n",
+                "walk.csv, line 2, field `lat`: `45 75 N`: minutes and seconds must be below 60",
+            ),
+            (
+                "lat;lon;bearing_deg\n45,1;-122;10\n",
+                "walk.csv, line 2, field `lat`: `45,1` is not a number (a decimal comma?",
+            ),
+            (
+                "lat,lon,bearing_deg\n45,122 24 50 N,10\n",
+                "walk.csv, line 2, field `lon`: `122 24 50 N` is not a longitude",
+            ),
+            (
+                "lat,lon,bearing_deg\n91,0,10\n",
+                "walk.csv, line 2, field `lat`: latitude 91 is outside −90…90",
+            ),
+        ] {
+            let e = read(text).unwrap_err().to_string();
+            assert!(e.starts_with(want), "{e}");
+        }
+    }
+
     #[test]
     fn times_without_offset_are_utc() {
         let a = parse_time("2026-11-30T14:05:00").unwrap();

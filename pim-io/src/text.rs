@@ -580,6 +580,49 @@ mod tests {
     }
 
     #[test]
+    fn quantities_carry_their_unit() {
+        use pim_core::freq::Hz;
+        assert_eq!(parse_quantity("3dB", "dB"), Ok(3.0));
+        assert_eq!(parse_quantity("-80 dBm", "dBm"), Ok(-80.0));
+        assert_eq!(parse_quantity("150m", "m"), Ok(150.0));
+        assert_eq!(parse_quantity("10°", "°"), Ok(10.0));
+        assert_eq!(parse_quantity("10deg", "°"), Ok(10.0));
+        assert_eq!(parse_quantity("-3", "dB"), Ok(-3.0));
+        assert_eq!(parse_quantity("1e3", ""), Ok(1000.0));
+        for (text, unit, want) in [
+            ("3dBm", "dB", "`3dBm` is in dBm; expected dB"),
+            ("150km", "dB", "`150km` is in m; expected dB"),
+            ("3dB", "", "`3dB` is in dB; expected a plain number"),
+            (
+                "5furlongs",
+                "m",
+                "`5furlongs`: unknown unit `furlongs`; expected metres",
+            ),
+            (
+                "12,5",
+                "m",
+                "`12,5` is not a number (a decimal comma? write the number with a point)",
+            ),
+            ("-inf", "dB", "`-inf` is not a finite number"),
+            ("NaN", "", "`NaN` is not a finite number"),
+        ] {
+            let got = parse_quantity(text, unit).unwrap_err();
+            assert!(got.starts_with(want), "{text}: {got}");
+        }
+        assert_eq!(parse_frequency_in("12.5", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("12.5kHz", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("0.0125MHz", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("12500Hz", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("146.52", 6), Ok(Hz(146_520_000)));
+        assert!(parse_frequency_in("146,52", 6)
+            .unwrap_err()
+            .contains("decimal comma"));
+        assert!(parse_frequency_in("12.5m", 3)
+            .unwrap_err()
+            .contains("is in m; expected a frequency"));
+    }
+
+    #[test]
     fn terminal_output_is_escaped_across_writes() {
         use std::io::Write;
         let mut out = TerminalSafe::new(Vec::new(), true);
