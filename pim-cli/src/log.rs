@@ -8,6 +8,7 @@ use std::path::{Path, PathBuf};
 use pim_core::error::{Error, ErrorClass};
 use pim_io::append::{append_row, read_locked, remove_last_row, Appended};
 use pim_io::fieldlog::{log_row, read_field_log, LogEntry, LOG_HEADER};
+use pim_io::text::{decimal_degrees, Axis};
 use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
 
@@ -200,7 +201,12 @@ fn position_and_time(args: &Args) -> CliResult<Spot> {
             )
             .into());
         }
-        return Ok((args.lat.clone(), args.lon.clone(), args.time.clone()));
+        let typed = |text: &Option<String>, axis| text.as_deref().map(|t| decimal_degrees(t, axis));
+        return Ok((
+            typed(&args.lat, Axis::Latitude),
+            typed(&args.lon, Axis::Longitude),
+            args.time.clone(),
+        ));
     };
     let source = gpx.display().to_string();
     let track = read_track(&source, open(gpx)?)?;

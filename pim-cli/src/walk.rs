@@ -24,7 +24,7 @@ use pim_core::walk::{rank_spots, ring, Spot};
 use pim_io::append::{read_locked, remove_last_row};
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_spots;
-use pim_io::text::{parse_coordinate, Axis};
+use pim_io::text::{decimal_degrees, Axis};
 use serde_json::{json, Value};
 use subtle::ConstantTimeEq;
 use tiny_http::{Header, Method, Request, Response, Server};
@@ -365,16 +365,6 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
             json!({"error": error_json(&e)}),
         ),
         Err(CliError::BrokenPipe) => (500, json!({"error": {"message": "write failed"}})),
-    }
-}
-
-/// A typed position in any notation [`parse_coordinate`] reads, as decimal degrees with
-/// 7 decimals (about 1 cm); anything else is passed on as typed, for the log's own check
-/// to judge and name.
-fn decimal_degrees(text: &str, axis: Axis) -> String {
-    match parse_coordinate(text, axis) {
-        Ok(v) if text.trim().parse::<f64>().is_err() => format!("{v:.7}"),
-        _ => text.to_string(),
     }
 }
 

@@ -288,6 +288,23 @@ pub fn parse_frequency_in(text: &str, default_exp: i32) -> Result<pim_core::freq
         })
 }
 
+/// A typed position in any notation [`parse_coordinate`] reads, as decimal degrees with
+/// 7 decimals (about 1 cm), as a log stores it; a plain number or anything the grammar
+/// refuses is returned as typed, for the log's own check to judge and name.
+///
+/// ```
+/// use pim_io::text::{decimal_degrees, Axis};
+/// assert_eq!(decimal_degrees("51 30.000 N", Axis::Latitude), "51.5000000");
+/// assert_eq!(decimal_degrees("51.25", Axis::Latitude), "51.25");
+/// assert_eq!(decimal_degrees("51 75 N", Axis::Latitude), "51 75 N");
+/// ```
+pub fn decimal_degrees(text: &str, axis: Axis) -> String {
+    match parse_coordinate(text, axis) {
+        Ok(v) if text.trim().parse::<f64>().is_err() => format!("{v:.7}"),
+        _ => text.to_string(),
+    }
+}
+
 /// Text made safe inside XML (SVG, KML, HTML) content and attribute values: the five
 /// markup characters become entities, and characters XML 1.0 does not allow at all
 /// (C0 controls other than tab, line feed and carriage return; U+FFFE, U+FFFF) are shown
