@@ -15,7 +15,7 @@ use pim_io::output::Existing;
 use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
-use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
+use crate::fix::{fix_from_log, fix_summary, FixArgs};
 use pim_core::trace::{analyse, MaxHold};
 use pim_io::trace::read_trace_into;
 use pim_report::ticket::{BandTrace, TicketInputs};
@@ -63,11 +63,8 @@ pub fn run(args: Args) -> CliResult {
     let emitters = read_emitters("emitters.csv", EMITTERS_CSV.as_bytes())?.emitters;
     let structures = read_structures("structures.csv", STRUCTURES_CSV.as_bytes())?;
     // A reflection off the metal shed spoils one bearing of the walk: the robust
-    // estimate sets it aside.
-    let fix_args = FixArgs {
-        method: MethodArg::Robust,
-        ..FixArgs::default()
-    };
+    // estimate, every command's default, sets it aside.
+    let fix_args = FixArgs::default();
     let (fix, prepared) = fix_from_log(Path::new("walk.csv"), Some(WALK_CSV), &fix_args)?;
     let log = read_field_log("walk.csv", WALK_CSV.as_bytes(), false)?;
     let mut out = stdout();

@@ -66,11 +66,15 @@ pub struct Args {
     /// default a ring around the fix at the walk's typical range.
     #[arg(long, value_name = "FILE")]
     pub candidates: Option<PathBuf>,
+    /// The running fix's estimator, as in `pim fix`.
+    #[command(flatten)]
+    pub fix: FixArgs,
 }
 
 /// What every request handler reads.
 struct Walk {
     log: PathBuf,
+    fix: FixArgs,
     token: String,
     port: u16,
     structures: Vec<Structure>,
@@ -101,6 +105,7 @@ pub fn run(args: Args) -> CliResult {
         .unwrap_or(args.listen.port());
     let walk = Arc::new(Walk {
         log: args.log.clone(),
+        fix: args.fix.clone(),
         token: new_token()?,
         port,
         structures,
@@ -384,7 +389,7 @@ fn walk_state(walk: &Walk) -> Value {
         .filter(|l| !l.trim().is_empty())
         .count();
     let last_spot = last_position(&walk.log, &text);
-    let (fix, prepared) = match fix_from_log(&walk.log, Some(&text), &FixArgs::default()) {
+    let (fix, prepared) = match fix_from_log(&walk.log, Some(&text), &walk.fix) {
         Ok(v) => v,
         Err(CliError::Core(e)) => {
             return json!({"rows": rows, "no_fix": if e.class == ErrorClass::Refused { e.message } else { e.to_string() }})
