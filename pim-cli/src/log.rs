@@ -3,11 +3,11 @@
 //! their residuals at the running fix (`--list`).
 
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use pim_core::error::{Error, ErrorClass};
-use pim_io::append::{append_row, read_locked, remove_last_row, Appended};
-use pim_io::fieldlog::{log_row, read_field_log, LogEntry, LOG_HEADER};
+use pim_io::append::{read_locked, remove_last_row};
+use pim_io::fieldlog::{read_field_log, save_reading, North, ReadingText};
 use pim_io::text::{decimal_degrees, Axis};
 use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
@@ -67,117 +67,6 @@ pub struct Args {
     /// --lat/--lon are left out (at --time, else the track's newest point).
     #[command(flatten)]
     pub fix: FixArgs,
-}
-
-/// A bad value typed on the command line: the option is named, exit code 2.
-fn as_argument(e: Error) -> Error {
-    if e.class == ErrorClass::Input && e.place.as_ref().is_some_and(|p| p.line.is_none()) {
-        Error {
-            class: ErrorClass::Argument,
-            ..e
-        }
-    } else {
-        e
-    }
-}
-
-/// One reading as typed: the text of each column, checked only by [`save_reading`].
-#[derive(Clone, Debug)]
-pub(crate) struct ReadingText {
-    pub lat: Option<String>,
-    pub lon: Option<String>,
-    pub bearing_deg: String,
-    pub north: NorthArg,
-    pub sigma_deg: Option<String>,
-    pub level_dbm: Option<String>,
-    pub note: Option<String>,
-    /// ISO 8601; now (UTC, whole seconds) when `None`.
-    pub time: Option<String>,
-}
-
-/// Checks a reading exactly as the log reader will and appends it to the log under the
-/// log's lock. A bad value's error is placed at `origin(column)` (an option name for
-/// `pim log`, an input's name for the walk page).
-pub(crate) fn save_reading(
-    file: &Path,
-    reading: &ReadingText,
-    origin: &dyn Fn(&'static str) -> String,
-) -> CliResult<Appended> {
-    let now = time::OffsetDateTime::now_utc()
-        .replace_nanosecond(0)
-        .unwrap_or_else(|_| time::OffsetDateTime::now_utc());
-    let time = reading
-        .time
-        .clone()
-        .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
-    if let Some(note) = &reading.note {
-        if note.contains(['\n', '\r']) {
-            return Err(Error::argument(&origin("note"), "a note must fit on one line").into());
-        }
-    }
-    let text = |v: &Option<String>| v.clone().unwrap_or_default();
-    const COLUMNS: [&str; 8] = [
-        "time",
-        "lat",
-        "lon",
-        "bearing_deg",
-        "north",
-        "sigma_deg",
-        "level_dbm",
-        "note",
-    ];
-    let entry = LogEntry {
-        fields: vec![
-            ("time", time),
-            ("lat", text(&reading.lat)),
-            ("lon", text(&reading.lon)),
-            ("bearing_deg", reading.bearing_deg.clone()),
-            (
-                "north",
-                match reading.north {
-                    NorthArg::True => "true",
-                    NorthArg::Magnetic => "magnetic",
-                }
-                .to_string(),
-            ),
-            ("sigma_deg", text(&reading.sigma_deg)),
-            ("level_dbm", text(&reading.level_dbm)),
-            ("note", text(&reading.note)),
-        ],
-        origin: COLUMNS.iter().map(|&c| (c, origin(c))).collect(),
-    };
-    // The reading is checked exactly as the log reader will check it, before any write.
-    let row = log_row(&entry, 0).map_err(as_argument)?;
-    // A magnetic bearing the World Magnetic Model cannot turn true would block every
-    // later fix of the log: refused before it is written.
-    if row.north == pim_io::fieldlog::North::Magnetic {
-        let date = row.time.unwrap_or(now).date();
-        let at = row
-            .position
-            .unwrap_or(pim_core::geo::GeoPoint::new(0.0, 0.0));
-        if let Err(why) = pim_core::declination::declination_deg(at, date) {
-            return Err(Error::argument(
-                &origin("time"),
-                format!(
-                    "the World Magnetic Model cannot turn a magnetic bearing of this date true ({why}), so the log could not be fixed; apply the declination yourself and log the bearing as true north"
-                ),
-            )
-            .into());
-        }
-    }
-    let source = file.display().to_string();
-    // What the log may leave out when it has no column for it: a time the clock gave,
-    // and true north (the reader's default).
-    let mut droppable = Vec::new();
-    if reading.time.is_none() {
-        droppable.push("time");
-    }
-    if reading.north == NorthArg::True {
-        droppable.push("north");
-    }
-    Ok(append_row(file, LOG_HEADER, &|header, _delimiter| {
-        entry.cells_for_header(header, &source, &droppable)
-    })?)
 }
 
 /// The option of `pim log` that fills a log column.
@@ -254,7 +143,10 @@ pub fn run(args: Args) -> CliResult {
             lat,
             lon,
             bearing_deg: args.bearing_deg.clone().unwrap_or_default(),
-            north: args.north,
+            north: match args.north {
+                NorthArg::True => North::True,
+                NorthArg::Magnetic => North::Magnetic,
+            },
             sigma_deg: args.reading_sigma_deg.clone(),
             level_dbm: args.level_dbm.clone(),
             note: args.note.clone(),

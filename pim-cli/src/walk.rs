@@ -31,7 +31,7 @@ use tiny_http::{Header, Method, Request, Response, Server};
 
 use crate::common::{open, CliError, CliResult};
 use crate::fix::{fix_from_log, fix_json, FixArgs};
-use crate::log::{save_reading, NorthArg, ReadingText};
+use pim_io::fieldlog::{save_reading, North, ReadingText};
 use pim_report::map::map_svg;
 use pim_report::ticket::fix_map_input;
 
@@ -344,8 +344,8 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
         return missing("bearing_deg", "missing bearing");
     };
     let north = match get("north").as_deref() {
-        None | Some("true") => NorthArg::True,
-        Some("magnetic") => NorthArg::Magnetic,
+        None | Some("true") => North::True,
+        Some("magnetic") => North::Magnetic,
         Some(_) => return missing("north", "north is either `true` or `magnetic`"),
     };
     let reading = ReadingText {
@@ -365,11 +365,10 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
             json!({"saved": {"line": appended.line, "created": appended.created},
                    "state": walk_state(walk)}),
         ),
-        Err(CliError::Core(e)) => (
+        Err(e) => (
             if e.class == ErrorClass::Io { 500 } else { 422 },
             json!({"error": error_json(&e)}),
         ),
-        Err(CliError::BrokenPipe) => (500, json!({"error": {"message": "write failed"}})),
     }
 }
 
