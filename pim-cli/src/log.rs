@@ -69,6 +69,18 @@ pub struct Args {
     pub fix: FixArgs,
 }
 
+/// A typed quantity as the log stores it: its unit, when given and of the right kind
+/// (`10°`, `-95dBm`), dropped; the number is checked by the log's own rules.
+fn number_of(text: &Option<String>, unit: &str, option: &str) -> CliResult<Option<String>> {
+    let Some(t) = text else { return Ok(None) };
+    let (number, given) = pim_io::text::split_unit(t);
+    if given.is_empty() {
+        return Ok(Some(t.clone()));
+    }
+    pim_io::text::parse_quantity(t, unit).map_err(|m| Error::argument(option, m))?;
+    Ok(Some(number.to_string()))
+}
+
 /// The option of `pim log` that fills a log column.
 fn option_of(column: &str) -> String {
     match column {
@@ -142,13 +154,13 @@ pub fn run(args: Args) -> CliResult {
         let reading = ReadingText {
             lat,
             lon,
-            bearing_deg: args.bearing_deg.clone().unwrap_or_default(),
+            bearing_deg: number_of(&args.bearing_deg, "°", "--bearing-deg")?.unwrap_or_default(),
             north: match args.north {
                 NorthArg::True => North::True,
                 NorthArg::Magnetic => North::Magnetic,
             },
-            sigma_deg: args.reading_sigma_deg.clone(),
-            level_dbm: args.level_dbm.clone(),
+            sigma_deg: number_of(&args.reading_sigma_deg, "°", "--reading-sigma-deg")?,
+            level_dbm: number_of(&args.level_dbm, "dBm", "--level-dbm")?,
             note: args.note.clone(),
             time,
         };

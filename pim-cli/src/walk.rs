@@ -62,7 +62,7 @@ pub struct Args {
     /// Emitters (CSV) to show on the map.
     #[arg(long, value_name = "FILE")]
     pub emitters: Option<PathBuf>,
-    /// Spots one can reach (CSV with lat, lon, name) to suggest the next one from; by
+    /// Spots one can reach (CSV with lat, lon and an `id` or `name`) to suggest the next one from; by
     /// default a ring around the fix at the walk's typical range.
     #[arg(long, value_name = "FILE")]
     pub candidates: Option<PathBuf>,

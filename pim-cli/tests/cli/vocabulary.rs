@@ -218,8 +218,53 @@ fn quantities_take_their_units() {
             "{args:?}: {err}"
         );
     }
-    // a decimal comma in a file gets the same words
+    // pim log stores the number of a quantity typed with its unit
     let tmp = scratch();
+    let log = tmp.path().join("walk.csv");
+    let l = log.to_str().unwrap();
+    let o = pim(&[
+        "log",
+        "--log",
+        l,
+        "--lat",
+        "45.1",
+        "--lon",
+        "-122.4",
+        "--bearing-deg",
+        "10°",
+        "--reading-sigma-deg",
+        "3deg",
+        "--level-dbm",
+        "-95dBm",
+        "--time",
+        "2026-11-28T09:00:00Z",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    assert!(
+        std::fs::read_to_string(&log)
+            .unwrap()
+            .ends_with("\n2026-11-28T09:00:00Z,45.1,-122.4,10,true,3,-95,\n"),
+        "{}",
+        std::fs::read_to_string(&log).unwrap()
+    );
+    let o = pim(&[
+        "log",
+        "--log",
+        l,
+        "--lat",
+        "45.1",
+        "--lon",
+        "-122.4",
+        "--bearing-deg",
+        "10dB",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr_of(&o).starts_with("pim: --bearing-deg: `10dB` is in dB; expected degrees"),
+        "{}",
+        stderr_of(&o)
+    );
+    // a decimal comma in a file gets the same words
     let bad = tmp.path().join("emitters.csv");
     std::fs::write(&bad, "id;freq_mhz\nA;146,94\n").unwrap();
     let o = pim(&["explain", "146.34", "--emitters", bad.to_str().unwrap()]);
