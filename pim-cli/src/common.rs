@@ -125,6 +125,30 @@ pub fn ranged(
     }
 }
 
+/// clap parser factory for a whole number within `lo..=hi` (a count, an order); a
+/// decimal comma gets the table reader's hint.
+pub fn whole<T>(
+    lo: u64,
+    hi: u64,
+) -> impl Fn(&str) -> Result<T, String> + Clone + Send + Sync + 'static
+where
+    T: TryFrom<u64> + Clone + Send + Sync + 'static,
+{
+    move |text: &str| {
+        let t = text.trim();
+        let v: u64 = t.parse().map_err(|_| {
+            format!(
+                "`{t}` is not a whole number{}",
+                pim_io::table::decimal_comma_hint(t)
+            )
+        })?;
+        if !(lo..=hi).contains(&v) {
+            return Err(format!("{v} is not in {lo}..={hi}"));
+        }
+        T::try_from(v).map_err(|_| format!("{v} is too large"))
+    }
+}
+
 /// clap parser factory for a quantity in `unit` above zero (a distance, a time).
 pub fn positive(
     unit: &'static str,

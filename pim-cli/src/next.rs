@@ -6,7 +6,7 @@ use std::path::PathBuf;
 use pim_core::walk::{rank_spots, ring};
 use pim_io::fieldlog::read_spots;
 
-use crate::common::{finish, open, positive, stdout, CliResult, ListFormat};
+use crate::common::{finish, open, positive, stdout, whole, CliResult, ListFormat};
 use crate::fix::{fix_from_log, FixArgs};
 use pim_report::walk::{next_csv, next_json, next_markdown, next_text};
 
@@ -24,13 +24,13 @@ pub struct Args {
     #[arg(long, value_name = "M", value_parser = positive("m"))]
     pub radius_m: Option<f64>,
     /// How many spots on the ring.
-    #[arg(long, default_value_t = 16, value_parser = clap::value_parser!(u32).range(3..=360))]
+    #[arg(long, default_value_t = 16, value_parser = whole::<u32>(3, 360))]
     pub ring_spots: u32,
     /// Leave out spots closer than this to the fix (bearings that close are unreliable).
     #[arg(long, value_name = "M", default_value = "25", value_parser = positive("m"))]
     pub min_range_m: f64,
     /// How many alternatives to list after the best.
-    #[arg(long, default_value_t = 4)]
+    #[arg(long, default_value_t = 4, value_parser = whole::<usize>(0, 1000))]
     pub alternatives: usize,
     #[command(flatten)]
     pub fix: FixArgs,
