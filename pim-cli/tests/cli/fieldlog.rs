@@ -532,3 +532,93 @@ fn files_take_positions_in_minutes_and_seconds() {
         assert!((x - y).abs() < 1e-6, "{k}: {x} vs {y}\n{text}");
     }
 }
+
+/// Emitter and structure files with positions in degrees, minutes and seconds give the
+/// same levels and the same next spot as the decimal ones.
+#[test]
+fn site_files_take_positions_in_minutes_and_seconds() {
+    let tmp = crate::support::scratch();
+    // 45.103405 = 45°06'12.258"N; -122.410791 = 122°24'38.8476"W
+    let dms = |v: f64, axis: (char, char)| {
+        let h = if v < 0.0 { axis.1 } else { axis.0 };
+        let a = v.abs();
+        let d = a.floor();
+        let m = ((a - d) * 60.0).floor();
+        let s = ((a - d) * 60.0 - m) * 60.0;
+        format!("{d}°{m:02}'{s:07.4}\"{h}")
+    };
+    let convert = |name: &str| {
+        let mut out = csv::Writer::from_writer(Vec::new());
+        let mut r = csv::Reader::from_path(field_log(name)).unwrap();
+        let headers = r.headers().unwrap().clone();
+        out.write_record(&headers).unwrap();
+        for rec in r.records() {
+            let rec = rec.unwrap();
+            let cells: Vec<String> = headers
+                .iter()
+                .zip(rec.iter())
+                .map(|(h, c)| match (h, c.parse::<f64>()) {
+                    ("lat", Ok(v)) => dms(v, ('N', 'S')),
+                    ("lon", Ok(v)) => dms(v, ('E', 'W')),
+                    _ => c.to_string(),
+                })
+                .collect();
+            out.write_record(&cells).unwrap();
+        }
+        let path = tmp.path().join(name);
+        std::fs::write(&path, out.into_inner().unwrap()).unwrap();
+        path
+    };
+    let (emitters, structures) = (convert("emitters.csv"), convert("structures.csv"));
+    assert!(std::fs::read_to_string(&emitters)
+        .unwrap()
+        .contains("45°06'12.25"));
+    let run = |args: &[&str]| {
+        let o = pim(args);
+        assert!(o.status.success(), "{args:?}: {}", stderr_of(&o));
+        stdout_of(&o)
+    };
+    let walk = field_log("walk.csv");
+    let w = walk.to_str().unwrap();
+    let plain = field_log("emitters.csv");
+    let at = |f: &Path| {
+        run(&[
+            "explain",
+            "146.34",
+            "--emitters",
+            f.to_str().unwrap(),
+            "--rx-lat",
+            "45.103",
+            "--rx-lon",
+            "-122.412",
+            "--format",
+            "csv",
+            "--limit",
+            "5",
+        ])
+        .replace(f.to_str().unwrap(), "emitters.csv")
+    };
+    assert_eq!(at(&emitters), at(&plain));
+    let next = |f: &Path| {
+        run(&[
+            "next",
+            "--log",
+            w,
+            "--candidates",
+            f.to_str().unwrap(),
+            "--format",
+            "csv",
+        ])
+    };
+    let (a, b) = (next(&structures), next(&field_log("structures.csv")));
+    let first = |t: &str| {
+        t.lines()
+            .nth(1)
+            .unwrap()
+            .split(',')
+            .nth(1)
+            .unwrap()
+            .to_string()
+    };
+    assert_eq!(first(&a), first(&b), "{a}\n{b}");
+}
