@@ -32,8 +32,10 @@ fuzz_target!(|data: &[u8]| {
     if !text.contains(['"', '\n', '\r', ',', ';', '\t', '#']) {
         let log = format!("lat,lon,bearing_deg\n{text},{text},10\n");
         if let Ok(read) = pim_io::fieldlog::read_field_log("fuzz.csv", log.as_bytes(), false) {
-            let p = read.rows[0].position.unwrap();
-            assert!(p.lat_deg.abs() <= 90.0 && p.lon_deg.abs() <= 180.0);
+            // an empty or blank cell is no position; any other is one within range
+            let p = read.rows[0].position;
+            assert_eq!(p.is_none(), text.trim().is_empty());
+            assert!(p.is_none_or(|p| p.lat_deg.abs() <= 90.0 && p.lon_deg.abs() <= 180.0));
         }
     }
 });
