@@ -29,9 +29,9 @@ pub struct Args {
     /// Leave out spots closer than this to the fix (bearings that close are unreliable).
     #[arg(long, value_name = "M", default_value = "25", value_parser = positive("m"))]
     pub min_range_m: f64,
-    /// How many alternatives to list after the best.
-    #[arg(long, default_value_t = 4, value_parser = whole::<usize>(0, 1000))]
-    pub alternatives: usize,
+    /// How many spots to list, the best first (the others are the alternatives).
+    #[arg(long, value_name = "N", default_value_t = 5, value_parser = whole::<usize>(1, 1000))]
+    pub limit: usize,
     #[command(flatten)]
     pub fix: FixArgs,
     /// Output format.
@@ -55,7 +55,7 @@ pub fn run(args: Args) -> CliResult {
         ))
         .into());
     };
-    let alternatives = &ranked[1..ranked.len().min(args.alternatives + 1)];
+    let alternatives = &ranked[1..ranked.len().min(args.limit)];
     let mut out = stdout();
     match args.format {
         ListFormat::Json => {

@@ -98,7 +98,10 @@ fn next_lists_in_every_format_and_names_every_spot() {
         lines.next().unwrap().starts_with(&format!("1,{best},")),
         "{csv}"
     );
-    assert_eq!(csv.lines().count(), 1 + 1 + 4, "{csv}");
+    assert_eq!(csv.lines().count(), 1 + 5, "{csv}");
+    // --limit, as in every listing, bounds the spots listed
+    let o = pim(&[&base[..], &["--format", "csv", "--limit", "2"]].concat());
+    assert_eq!(stdout_of(&o).lines().count(), 1 + 2, "{}", stdout_of(&o));
     let md = run("markdown");
     assert!(md.contains("| # | spot | lat | lon |"), "{md}");
     assert!(md.contains(&format!("| 1 | {} |", best)), "{md}");
