@@ -12,7 +12,7 @@ use pim_io::text::{decimal_degrees, Axis};
 use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
 
-use crate::common::{finish, open, stdout, CliResult};
+use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use crate::fix::{fix_from_log, FixArgs};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -63,6 +63,9 @@ pub struct Args {
     /// --lat/--lon, the time of the track's newest point).
     #[arg(long, value_name = "TIME")]
     pub time: Option<String>,
+    /// Format of the --list listing.
+    #[arg(long, value_enum, default_value_t = ListFormat::Table)]
+    pub format: ListFormat,
     /// The running fix's estimator; --track also gives the new reading its position when
     /// --lat/--lon are left out (at --time, else the track's newest point).
     #[command(flatten)]
@@ -140,6 +143,9 @@ pub fn run(args: Args) -> CliResult {
     let Some(file) = args.log.clone().or(args.file.clone()) else {
         return Err(Error::argument("--log", "give the field log").into());
     };
+    if args.format != ListFormat::Table && !args.list {
+        return Err(Error::argument("--format", "only the --list listing has formats").into());
+    }
     let source = file.display().to_string();
     let mut out = stdout();
     if args.undo {
@@ -176,13 +182,17 @@ pub fn run(args: Args) -> CliResult {
     let bytes = read_locked(&file)?;
     let text = String::from_utf8_lossy(&bytes);
     match fix_from_log(&file, Some(&text), &args.fix) {
-        Ok((fix, _)) => {
-            write!(out, "{}", pim_report::walk::running_fix_line(&fix))?;
-            if args.list {
-                let log = read_field_log(&source, text.as_bytes(), args.fix.track.is_some())?;
-                write!(out, "{}", pim_report::walk::log_listing(&fix, &log.rows))?;
+        Ok((fix, _)) if args.list => {
+            use pim_report::walk as w;
+            let rows = read_field_log(&source, text.as_bytes(), args.fix.track.is_some())?.rows;
+            match args.format {
+                ListFormat::Table => write!(out, "{}", w::log_listing(&fix, &rows))?,
+                ListFormat::Markdown => write!(out, "{}", w::log_listing_markdown(&fix, &rows))?,
+                ListFormat::Csv => w::log_listing_csv(&mut out, &fix, &rows)?,
+                ListFormat::Json => writeln!(out, "{:#}", w::log_listing_json(&fix, &rows))?,
             }
         }
+        Ok((fix, _)) => write!(out, "{}", pim_report::walk::running_fix_line(&fix))?,
         Err(crate::common::CliError::Core(e)) if e.class == ErrorClass::Refused => {
             writeln!(out, "No fix yet: {}", e.message)?;
         }

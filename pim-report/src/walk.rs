@@ -194,9 +194,58 @@ pub fn running_fix_line(fix: &Fix) -> String {
 /// A robust weight below this marks a reading as down-weighted in the listing.
 const DOWN_WEIGHTED: f64 = 0.999;
 
-/// The log's readings with their residuals at the running fix: line, time, position,
-/// bearing, residual (degrees), weight, and whether each was down-weighted, flagged as
-/// an outlier, taken reversed, or not used (a repeat of an earlier reading).
+/// The columns of the readings listing, as CSV and Markdown name them.
+const LISTING_COLUMNS: [&str; 9] = [
+    "line",
+    "time",
+    "lat",
+    "lon",
+    "bearing_deg",
+    "residual_deg",
+    "weight",
+    "status",
+    "note",
+];
+
+/// Each row of the log as the listing shows it: line, time, position, bearing as logged,
+/// residual (degrees) and weight at the running fix, and its status: down-weighted,
+/// flagged as an outlier, taken reversed, or not used (a repeat of an earlier reading).
+fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
+    rows.iter()
+        .map(|row| {
+            let fit = fix.readings.iter().find(|r| r.line == row.line);
+            let position = fit.map(|f| f.observer).or(row.position);
+            let mut flags = Vec::new();
+            match fit {
+                None => flags.push("not used (a repeat)"),
+                Some(f) => {
+                    if f.outlier {
+                        flags.push("outlier");
+                    } else if f.weight < DOWN_WEIGHTED {
+                        flags.push("down-weighted");
+                    }
+                    if f.flipped {
+                        flags.push("taken reversed");
+                    }
+                }
+            }
+            [
+                row.line.to_string(),
+                row.time.map(pim_io::text::time_text).unwrap_or_default(),
+                position.map_or(String::new(), |p| format!("{:.6}", p.lat_deg)),
+                position.map_or(String::new(), |p| format!("{:.6}", p.lon_deg)),
+                format!("{:.1}", row.bearing_deg),
+                fit.map_or(String::new(), |f| format!("{:+.1}", f.residual_deg)),
+                fit.map_or(String::new(), |f| format!("{:.2}", f.weight)),
+                flags.join(", "),
+                row.note.clone().unwrap_or_default(),
+            ]
+        })
+        .collect()
+}
+
+/// The log's readings with their residuals at the running fix, as a text table under the
+/// running fix's line.
 pub fn log_listing(fix: &Fix, rows: &[LogRow]) -> String {
     let mut t = TextTable::new(&[
         ("line", Align::Right),
@@ -209,34 +258,61 @@ pub fn log_listing(fix: &Fix, rows: &[LogRow]) -> String {
         ("", Align::Left),
         ("note", Align::Left),
     ]);
-    for row in rows {
-        let fit = fix.readings.iter().find(|r| r.line == row.line);
-        let position = fit.map(|f| f.observer).or(row.position);
-        let mut flags = Vec::new();
-        match fit {
-            None => flags.push("not used (a repeat)"),
-            Some(f) => {
-                if f.outlier {
-                    flags.push("outlier");
-                } else if f.weight < DOWN_WEIGHTED {
-                    flags.push("down-weighted");
-                }
-                if f.flipped {
-                    flags.push("taken reversed");
-                }
-            }
-        }
-        t.push(vec![
-            row.line.to_string(),
-            row.time.map(pim_io::text::time_text).unwrap_or_default(),
-            position.map_or(String::new(), |p| format!("{:.6}", p.lat_deg)),
-            position.map_or(String::new(), |p| format!("{:.6}", p.lon_deg)),
-            format!("{:.1}", row.bearing_deg),
-            fit.map_or(String::new(), |f| format!("{:+.1}", f.residual_deg)),
-            fit.map_or(String::new(), |f| format!("{:.2}", f.weight)),
-            flags.join(", "),
-            row.note.clone().unwrap_or_default(),
-        ]);
+    for cells in listing_cells(fix, rows) {
+        t.push(cells.to_vec());
     }
-    t.render()
+    format!("{}{}", running_fix_line(fix), t.render())
+}
+
+/// The listing as Markdown: the running fix's line, then a table.
+pub fn log_listing_markdown(fix: &Fix, rows: &[LogRow]) -> String {
+    let mut out = format!(
+        "{}\n| line | time | lat | lon | bearing ° | residual ° | weight | status | note |\n|---:|---|---:|---:|---:|---:|---:|---|---|\n",
+        running_fix_line(fix)
+    );
+    for c in listing_cells(fix, rows) {
+        let cells: Vec<String> = c.iter().map(|x| crate::document::md_inline(x)).collect();
+        out.push_str(&format!("| {} |\n", cells.join(" | ")));
+    }
+    out
+}
+
+/// The listing as CSV (spreadsheet-safe), one row per reading.
+pub fn log_listing_csv(
+    out: &mut dyn std::io::Write,
+    fix: &Fix,
+    rows: &[LogRow],
+) -> std::io::Result<()> {
+    crate::csv_out::write_row(out, LISTING_COLUMNS)?;
+    for c in listing_cells(fix, rows) {
+        crate::csv_out::write_row(out, c)?;
+    }
+    Ok(())
+}
+
+/// The listing as JSON: the running fix (as `pim fix --format json` gives it, without
+/// corrections) and each reading with its residual, weight and status.
+pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
+    let readings: Vec<Value> = listing_cells(fix, rows)
+        .iter()
+        .zip(rows)
+        .map(|(c, row)| {
+            let fit = fix.readings.iter().find(|r| r.line == row.line);
+            json!({
+                "line": row.line,
+                "time": (!c[1].is_empty()).then(|| c[1].clone()),
+                "lat": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
+                "lon": fit.map(|f| f.observer.lon_deg).or(row.position.map(|p| p.lon_deg)),
+                "bearing_deg": row.bearing_deg,
+                "residual_deg": fit.map(|f| f.residual_deg),
+                "weight": fit.map(|f| f.weight),
+                "status": c[7],
+                "note": row.note,
+            })
+        })
+        .collect();
+    json!({
+        "fix": serde_json::to_value(crate::fix::fix_json(fix, &[])).unwrap_or(Value::Null),
+        "readings": readings,
+    })
 }

@@ -418,6 +418,30 @@ fn log_takes_back_and_lists_readings() {
         shown.contains("outlier") || shown.contains("down-weighted"),
         "{shown}"
     );
+    // the listing in the formats of every listing
+    let listed = |format: &str| {
+        let o = pim(&[
+            "log",
+            "--log",
+            file.to_str().unwrap(),
+            "--list",
+            "--format",
+            format,
+        ]);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        stdout_of(&o)
+    };
+    let v: serde_json::Value = serde_json::from_str(&listed("json")).unwrap();
+    assert_eq!(v["fix"]["method"], "robust");
+    assert_eq!(v["readings"].as_array().unwrap().len(), 8);
+    assert_eq!(v["readings"][4]["status"], "outlier");
+    let csv = listed("csv");
+    assert!(
+        csv.starts_with("line,time,lat,lon,bearing_deg,residual_deg,weight,status,note\n"),
+        "{csv}"
+    );
+    assert_eq!(csv.lines().count(), 9, "{csv}");
+    assert!(listed("markdown").contains("| line | time |"));
     // the estimator options reach the running fix
     let o = pim(&[
         "log",
