@@ -152,6 +152,7 @@ pub fn run(args: Args) -> CliResult {
 
 /// The `pim` command lines that do what the demo did, on the inputs it wrote into `dir`.
 fn commands(dir: &Path) -> Vec<String> {
+    use pim_io::text::shell_word;
     let file = |name: &str| shell_word(&dir.join(name).display().to_string());
     let again = shell_word(&format!("{}-again", dir.display()));
     vec![
@@ -167,18 +168,4 @@ fn commands(dir: &Path) -> Vec<String> {
             RX_SITE.lon_deg,
         ),
     ]
-}
-
-/// A path as one word of a POSIX shell command line: quoted when it holds anything but
-/// letters, digits and `-_./+,:@%`.
-fn shell_word(text: &str) -> String {
-    if !text.is_empty()
-        && text
-            .chars()
-            .all(|c| c.is_ascii_alphanumeric() || "-_./+,:@%".contains(c))
-    {
-        text.to_string()
-    } else {
-        format!("'{}'", text.replace('\'', "'\\''"))
-    }
 }

@@ -305,6 +305,23 @@ pub fn decimal_degrees(text: &str, axis: Axis) -> String {
     }
 }
 
+/// Text as one word of a POSIX shell command line (a path in a command printed for the
+/// user to run): as it is when it holds only letters, digits and `-_./+,:@%`, else in
+/// single quotes.
+///
+/// ```
+/// assert_eq!(pim_io::text::shell_word("pim-demo/walk.csv"), "pim-demo/walk.csv");
+/// assert_eq!(pim_io::text::shell_word("Marrow Hill's"), "'Marrow Hill'\\''s'");
+/// ```
+pub fn shell_word(text: &str) -> String {
+    let plain = |c: char| c.is_ascii_alphanumeric() || "-_./+,:@%".contains(c);
+    if !text.is_empty() && text.chars().all(plain) {
+        text.to_string()
+    } else {
+        format!("'{}'", text.replace('\'', "'\\''"))
+    }
+}
+
 /// Text made safe inside XML (SVG, KML, HTML) content and attribute values: the five
 /// markup characters become entities, and characters XML 1.0 does not allow at all
 /// (C0 controls other than tab, line feed and carriage return; U+FFFE, U+FFFF) are shown
