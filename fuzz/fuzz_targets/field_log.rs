@@ -9,6 +9,10 @@ fuzz_target!(|data: &[u8]| {
         if let Ok(log) = read_field_log("fuzz.csv", data, from_track) {
             for r in &log.rows {
                 assert!((0.0..=360.0).contains(&r.bearing_deg));
+                // positions in any notation end within range
+                assert!(r
+                    .position
+                    .is_none_or(|p| p.lat_deg.abs() <= 90.0 && p.lon_deg.abs() <= 180.0));
                 assert!(r
                     .sigma_deg
                     .is_none_or(|s| s >= pim_io::fieldlog::MIN_SIGMA_DEG));

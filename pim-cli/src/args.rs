@@ -10,7 +10,7 @@ use pim_core::level::LevelModel;
 use pim_core::rank::HeardLevel;
 use serde_json::json;
 
-use crate::common::{frequency_arg, khz_arg, lat_arg, lon_arg, ranged, ListFormat};
+use crate::common::{frequency_arg, khz_arg, lat_arg, lon_arg, ranged, whole, ListFormat};
 
 /// Search and ranking options shared by `explain` and `study`.
 #[derive(clap::Args, Clone, Debug)]
@@ -22,10 +22,10 @@ pub struct SearchArgs {
     #[arg(long = "tol-khz", value_name = "KHZ", default_value = "0", value_parser = khz_arg)]
     pub tol: Hz,
     /// Highest order Σ|k| to consider (1–15).
-    #[arg(long, default_value_t = 7, value_parser = clap::value_parser!(u32).range(1..=15))]
+    #[arg(long, default_value_t = 7, value_parser = whole::<u32>(1, 15))]
     pub max_order: u32,
     /// Most distinct emitters in one product (1–3).
-    #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u32).range(1..=3))]
+    #[arg(long, default_value_t = 3, value_parser = whole::<u32>(1, 3))]
     pub max_emitters: u32,
     /// Latitude of the receiver site, where the junction is assumed until a fix exists.
     #[arg(long, value_name = "DEG", value_parser = lat_arg, allow_hyphen_values = true, requires = "rx_lon")]
@@ -101,10 +101,12 @@ pub fn limit_arg(text: &str) -> Result<Limit, String> {
     if text.trim().eq_ignore_ascii_case("all") {
         return Ok(Limit::All);
     }
-    text.trim()
-        .parse()
-        .map(Limit::Count)
-        .map_err(|_| format!("`{text}` is neither a whole number nor `all`"))
+    text.trim().parse().map(Limit::Count).map_err(|_| {
+        format!(
+            "`{text}` is neither a whole number nor `all`{}",
+            pim_io::table::decimal_comma_hint(text)
+        )
+    })
 }
 
 /// How a listing of candidates is written.

@@ -6,10 +6,10 @@ use std::io::{self, BufWriter, Write};
 use std::path::Path;
 
 use pim_core::emitter::Emitter;
-use pim_core::freq::{parse_frequency_with_unit, parse_khz, Hz};
+use pim_core::freq::Hz;
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::{Error, Site};
-use pim_io::text::{parse_coordinate, Axis, TerminalSafe};
+use pim_io::text::{parse_coordinate, parse_frequency_in, parse_quantity, Axis, TerminalSafe};
 use pim_io::{read_emitters, read_heard, read_on_air, Clock};
 
 /// An error on its way to the user, or a closed pipe (not an error: the reader left).
@@ -60,7 +60,7 @@ pub fn finish(mut out: impl Write) -> CliResult {
 
 /// clap parser for a frequency with an optional unit (bare numbers are MHz).
 pub fn frequency_arg(text: &str) -> Result<Hz, String> {
-    let f = parse_frequency_with_unit(text).map_err(|e| e.to_string())?;
+    let f = parse_frequency_in(text, 6)?;
     if f.0 <= 0 {
         return Err(format!("frequency {text} must be above zero"));
     }
@@ -70,14 +70,15 @@ pub fn frequency_arg(text: &str) -> Result<Hz, String> {
     Ok(f)
 }
 
-/// clap parser for a width in kHz, zero or more, exact to the hertz.
+/// clap parser for a width in kHz, zero or more, exact to the hertz; a unit may be given
+/// (`12.5kHz`, `0.0125MHz`, `12500Hz`).
 pub fn khz_arg(text: &str) -> Result<Hz, String> {
-    let w = parse_khz(text).map_err(|e| e.to_string())?;
+    let w = parse_frequency_in(text, 3)?;
     if w.0 < 0 {
-        return Err(format!("{text} kHz is negative"));
+        return Err(format!("`{text}` is negative"));
     }
     if w > pim_core::freq::MAX_FREQUENCY {
-        return Err(format!("{text} kHz is absurd"));
+        return Err(format!("`{text}` is absurd for a width"));
     }
     Ok(w)
 }
@@ -93,23 +94,23 @@ pub fn lon_arg(text: &str) -> Result<f64, String> {
     parse_coordinate(text, Axis::Longitude)
 }
 
-/// clap parser for a finite number.
+/// clap parser for a finite number without a unit (a decimal comma gets the table
+/// reader's hint).
 pub fn finite_arg(text: &str) -> Result<f64, String> {
-    match text.parse::<f64>() {
-        Ok(v) if v.is_finite() => Ok(v),
-        _ => Err(format!("`{text}` is not a finite number")),
-    }
+    parse_quantity(text, "")
 }
 
-/// clap parser factory for a finite number within `lo..=hi` (`unit` names it in the
-/// message): a value outside is physically absurd for the option.
+/// clap parser factory for a finite number in `unit` (`dB`, `dBm`, `dBc`, `m`, `°`, `s`,
+/// or `""` for none) within `lo..=hi`: the unit may be written after the number (`3dB`,
+/// `-80dBm`, `150m`), a unit of another kind is refused, and a value outside the range is
+/// physically absurd for the option.
 pub fn ranged(
     lo: f64,
     hi: f64,
     unit: &'static str,
 ) -> impl Fn(&str) -> Result<f64, String> + Clone + Send + Sync + 'static {
     move |text: &str| {
-        let v = finite_arg(text)?;
+        let v = parse_quantity(text, unit)?;
         if (lo..=hi).contains(&v) {
             Ok(v)
         } else {
@@ -118,7 +119,46 @@ pub fn ranged(
             } else {
                 format!(" {unit}")
             };
-            Err(format!("{text}{u} is outside {lo}…{hi}{u}"))
+            let number = pim_io::text::split_unit(text).0;
+            Err(format!("{number}{u} is outside {lo}…{hi}{u}"))
+        }
+    }
+}
+
+/// clap parser factory for a whole number within `lo..=hi` (a count, an order); a
+/// decimal comma gets the table reader's hint.
+pub fn whole<T>(
+    lo: u64,
+    hi: u64,
+) -> impl Fn(&str) -> Result<T, String> + Clone + Send + Sync + 'static
+where
+    T: TryFrom<u64> + Clone + Send + Sync + 'static,
+{
+    move |text: &str| {
+        let t = text.trim();
+        let v: u64 = t.parse().map_err(|_| {
+            format!(
+                "`{t}` is not a whole number{}",
+                pim_io::table::decimal_comma_hint(t)
+            )
+        })?;
+        if !(lo..=hi).contains(&v) {
+            return Err(format!("{v} is not in {lo}..={hi}"));
+        }
+        T::try_from(v).map_err(|_| format!("{v} is too large"))
+    }
+}
+
+/// clap parser factory for a quantity in `unit` above zero (a distance, a time).
+pub fn positive(
+    unit: &'static str,
+) -> impl Fn(&str) -> Result<f64, String> + Clone + Send + Sync + 'static {
+    move |text: &str| {
+        let v = parse_quantity(text, unit)?;
+        if v > 0.0 {
+            Ok(v)
+        } else {
+            Err(format!("`{text}` must be above zero"))
         }
     }
 }

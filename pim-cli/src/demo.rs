@@ -15,7 +15,7 @@ use pim_io::output::Existing;
 use pim_io::read_emitters;
 
 use crate::common::{finish, stdout, CliResult};
-use crate::fix::{fix_from_log, fix_summary, FixArgs, MethodArg};
+use crate::fix::{fix_from_log, fix_summary, FixArgs};
 use pim_core::trace::{analyse, MaxHold};
 use pim_io::trace::read_trace_into;
 use pim_report::ticket::{AttenuatorTest, BandTrace, PowerStepTest, TicketInputs};
@@ -66,11 +66,8 @@ pub fn run(args: Args) -> CliResult {
     let emitters = read_emitters("emitters.csv", EMITTERS_CSV.as_bytes())?.emitters;
     let structures = read_structures("structures.csv", STRUCTURES_CSV.as_bytes())?;
     // A reflection off the metal shed spoils one bearing of the walk: the robust
-    // estimate sets it aside.
-    let fix_args = FixArgs {
-        method: MethodArg::Robust,
-        ..FixArgs::default()
-    };
+    // estimate, every command's default, sets it aside.
+    let fix_args = FixArgs::default();
     let (fix, prepared) = fix_from_log(Path::new("walk.csv"), Some(WALK_CSV), &fix_args)?;
     let log = read_field_log("walk.csv", WALK_CSV.as_bytes(), false)?;
     let mut out = stdout();
@@ -142,8 +139,46 @@ pub fn run(args: Args) -> CliResult {
     } else {
         Existing::Refuse
     };
-    let marker = [(MARKER, MARKER_TEXT.as_bytes().to_vec())];
-    let written = write_ticket(&inputs, &args.out, &[], existing, &marker)?;
+    // The demo's own inputs go beside the ticket, so that its commands can be run again.
+    let extra: Vec<(&str, Vec<u8>)> = [
+        (MARKER, MARKER_TEXT),
+        ("emitters.csv", EMITTERS_CSV),
+        ("structures.csv", STRUCTURES_CSV),
+        ("walk.csv", WALK_CSV),
+        ("trace.csv", TRACE_CSV),
+    ]
+    .iter()
+    .map(|(name, text)| (*name, text.as_bytes().to_vec()))
+    .collect();
+    let written = write_ticket(&inputs, &args.out, &[], existing, &extra)?;
     print_summary(&mut out, &inputs, &written)?;
+    writeln!(
+        out,
+        "\nIts inputs are in {} too. The commands it ran, to run on your own files:",
+        args.out.display()
+    )?;
+    for line in commands(&args.out) {
+        writeln!(out, "  {line}")?;
+    }
     finish(out)
+}
+
+/// The `pim` command lines that do what the demo did, on the inputs it wrote into `dir`.
+fn commands(dir: &Path) -> Vec<String> {
+    use pim_io::text::shell_word;
+    let file = |name: &str| shell_word(&dir.join(name).display().to_string());
+    let again = shell_word(&format!("{}-again", dir.display()));
+    vec![
+        format!("pim fix --log {}", file("walk.csv")),
+        format!(
+            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --rx-lat {} --rx-lon {} --site 'Marrow Hill' --out {again}",
+            HEARD.mhz_text(),
+            file("emitters.csv"),
+            file("walk.csv"),
+            file("structures.csv"),
+            file("trace.csv"),
+            RX_SITE.lat_deg,
+            RX_SITE.lon_deg,
+        ),
+    ]
 }

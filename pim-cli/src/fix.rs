@@ -79,7 +79,7 @@ fn confidence_arg(text: &str) -> Result<f64, String> {
 }
 
 fn sigma_arg(text: &str) -> Result<f64, String> {
-    let v = finite_arg(text)?;
+    let v = pim_io::text::parse_quantity(text, "°")?;
     if v > 0.0 && v < pim_io::fieldlog::MIN_SIGMA_DEG {
         return Err(format!(
             "σ {text}° is below {}°, finer than any bearing taken by hand; give the spread of the antenna's bearings",
@@ -94,7 +94,7 @@ fn sigma_arg(text: &str) -> Result<f64, String> {
 }
 
 fn declination_arg(text: &str) -> Result<f64, String> {
-    let v = finite_arg(text)?;
+    let v = pim_io::text::parse_quantity(text, "°")?;
     if (-180.0..=180.0).contains(&v) {
         Ok(v)
     } else {

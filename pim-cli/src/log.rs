@@ -1,16 +1,18 @@
-//! `pim log FILE`: add one bearing reading to a field log, safely, and show the running
-//! fix.
+//! `pim log --log FILE`: add one bearing reading to a field log, safely, and show the
+//! running fix; or take the last reading back (`--undo`), or list the readings with
+//! their residuals at the running fix (`--list`).
 
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use pim_core::error::{Error, ErrorClass};
-use pim_io::append::{append_row, read_locked, Appended};
-use pim_io::fieldlog::{log_row, LogEntry, LOG_HEADER};
+use pim_io::append::{read_locked, remove_last_row};
+use pim_io::fieldlog::{read_field_log, save_reading, North, ReadingText};
+use pim_io::text::{decimal_degrees, Axis};
 use pim_io::track::read_track;
 use time::format_description::well_known::Rfc3339;
 
-use crate::common::{finish, open, stdout, CliResult};
+use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use crate::fix::{fix_from_log, FixArgs};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -20,215 +22,177 @@ pub enum NorthArg {
 }
 
 #[derive(clap::Args, Debug)]
+#[command(group(clap::ArgGroup::new("field_log").required(true).args(["file", "log"])))]
 pub struct Args {
-    /// The field log to add to (created with its header when missing).
+    /// The field log (a shorthand for --log FILE).
     #[arg(value_name = "FILE")]
-    pub file: PathBuf,
-    /// Latitude of the spot, WGS84 degrees.
+    pub file: Option<PathBuf>,
+    /// The field log to add to (created with its header when missing).
+    #[arg(long, value_name = "FILE")]
+    pub log: Option<PathBuf>,
+    /// Take back the last reading of the log (it is printed) instead of adding one.
+    #[arg(long, conflicts_with_all = ["list", "lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "note", "time"])]
+    pub undo: bool,
+    /// List the readings with their residuals at the running fix instead of adding one.
+    #[arg(long, conflicts_with_all = ["lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "note", "time"])]
+    pub list: bool,
+    /// Latitude of the spot: degrees (45.1046), degrees and minutes (45°06.275'N) or
+    /// degrees, minutes and seconds (45 06 16.5 N).
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub lat: Option<String>,
-    /// Longitude of the spot, WGS84 degrees.
+    /// Longitude of the spot, in the notations of --lat with E or W.
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub lon: Option<String>,
-    /// Take the position from the newest point of this GPS track instead.
-    #[arg(long, value_name = "GPX", conflicts_with_all = ["lat", "lon"])]
-    pub gps_from: Option<PathBuf>,
     /// The bearing read on the antenna, degrees clockwise from north.
-    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
-    pub bearing_deg: String,
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true, required_unless_present_any = ["undo", "list"])]
+    pub bearing_deg: Option<String>,
     /// Which north the bearing is from.
     #[arg(long, value_enum, default_value_t = NorthArg::True)]
     pub north: NorthArg,
-    /// This reading's standard deviation in degrees.
+    /// This reading's standard deviation in degrees (the log's `sigma_deg` column;
+    /// --sigma-deg overrides every reading's σ in the running fix, as in `pim fix`).
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
-    pub sigma_deg: Option<String>,
+    pub reading_sigma_deg: Option<String>,
     /// Signal level seen, dBm.
     #[arg(long, value_name = "DBM", allow_hyphen_values = true)]
     pub level_dbm: Option<String>,
     /// A note (where, what was seen).
     #[arg(long)]
     pub note: Option<String>,
-    /// When the reading was taken, ISO 8601 (default: now, UTC).
+    /// When the reading was taken, ISO 8601 (default: now, UTC; with --track and no
+    /// --lat/--lon, the time of the track's newest point).
     #[arg(long, value_name = "TIME")]
     pub time: Option<String>,
+    /// Format of the --list listing.
+    #[arg(long, value_enum, default_value_t = ListFormat::Table)]
+    pub format: ListFormat,
+    /// The running fix's estimator; --track also gives the new reading its position when
+    /// --lat/--lon are left out (at --time, else the track's newest point).
+    #[command(flatten)]
+    pub fix: FixArgs,
 }
 
-/// A bad value typed on the command line: the option is named, exit code 2.
-fn as_argument(e: Error) -> Error {
-    if e.class == ErrorClass::Input && e.place.as_ref().is_some_and(|p| p.line.is_none()) {
-        Error {
-            class: ErrorClass::Argument,
-            ..e
-        }
-    } else {
-        e
+/// A typed quantity as the log stores it: its unit, when given and of the right kind
+/// (`10°`, `-95dBm`), dropped; the number is checked by the log's own rules.
+fn number_of(text: &Option<String>, unit: &str, option: &str) -> CliResult<Option<String>> {
+    let Some(t) = text else { return Ok(None) };
+    let (number, given) = pim_io::text::split_unit(t);
+    if given.is_empty() {
+        return Ok(Some(t.clone()));
+    }
+    pim_io::text::parse_quantity(t, unit).map_err(|m| Error::argument(option, m))?;
+    Ok(Some(number.to_string()))
+}
+
+/// The option of `pim log` that fills a log column.
+fn option_of(column: &str) -> String {
+    match column {
+        "sigma_deg" => "--reading-sigma-deg".to_string(),
+        other => format!("--{}", other.replace('_', "-")),
     }
 }
 
-/// One reading as typed: the text of each column, checked only by [`save_reading`].
-#[derive(Clone, Debug)]
-pub(crate) struct ReadingText {
-    pub lat: Option<String>,
-    pub lon: Option<String>,
-    pub bearing_deg: String,
-    pub north: NorthArg,
-    pub sigma_deg: Option<String>,
-    pub level_dbm: Option<String>,
-    pub note: Option<String>,
-    /// ISO 8601; now (UTC, whole seconds) when `None`.
-    pub time: Option<String>,
-}
+/// The new reading's position and time: as typed, or from the GPS track (at `--time`
+/// when given, else its newest point).
+type Spot = (Option<String>, Option<String>, Option<String>);
 
-/// Checks a reading exactly as the log reader will and appends it to the log under the
-/// log's lock. A bad value's error is placed at `origin(column)` (an option name for
-/// `pim log`, an input's name for the walk page).
-pub(crate) fn save_reading(
-    file: &Path,
-    reading: &ReadingText,
-    origin: &dyn Fn(&'static str) -> String,
-) -> CliResult<Appended> {
-    let now = time::OffsetDateTime::now_utc()
-        .replace_nanosecond(0)
-        .unwrap_or_else(|_| time::OffsetDateTime::now_utc());
-    let time = reading
-        .time
-        .clone()
-        .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
-    if let Some(note) = &reading.note {
-        if note.contains(['\n', '\r']) {
-            return Err(Error::argument(&origin("note"), "a note must fit on one line").into());
-        }
-    }
-    let text = |v: &Option<String>| v.clone().unwrap_or_default();
-    const COLUMNS: [&str; 8] = [
-        "time",
-        "lat",
-        "lon",
-        "bearing_deg",
-        "north",
-        "sigma_deg",
-        "level_dbm",
-        "note",
-    ];
-    let entry = LogEntry {
-        fields: vec![
-            ("time", time),
-            ("lat", text(&reading.lat)),
-            ("lon", text(&reading.lon)),
-            ("bearing_deg", reading.bearing_deg.clone()),
-            (
-                "north",
-                match reading.north {
-                    NorthArg::True => "true",
-                    NorthArg::Magnetic => "magnetic",
-                }
-                .to_string(),
-            ),
-            ("sigma_deg", text(&reading.sigma_deg)),
-            ("level_dbm", text(&reading.level_dbm)),
-            ("note", text(&reading.note)),
-        ],
-        origin: COLUMNS.iter().map(|&c| (c, origin(c))).collect(),
-    };
-    // The reading is checked exactly as the log reader will check it, before any write.
-    let row = log_row(&entry, 0).map_err(as_argument)?;
-    // A magnetic bearing the World Magnetic Model cannot turn true would block every
-    // later fix of the log: refused before it is written.
-    if row.north == pim_io::fieldlog::North::Magnetic {
-        let date = row.time.unwrap_or(now).date();
-        let at = row
-            .position
-            .unwrap_or(pim_core::geo::GeoPoint::new(0.0, 0.0));
-        if let Err(why) = pim_core::declination::declination_deg(at, date) {
+fn position_and_time(args: &Args) -> CliResult<Spot> {
+    let (Some(gpx), None, None) = (&args.fix.track, &args.lat, &args.lon) else {
+        if args.lat.is_none() || args.lon.is_none() {
             return Err(Error::argument(
-                &origin("time"),
-                format!(
-                    "the World Magnetic Model cannot turn a magnetic bearing of this date true ({why}), so the log could not be fixed; apply the declination yourself and log the bearing as true north"
-                ),
+                "--lat/--lon",
+                "give the spot's position, or --track with a GPS track to take it from",
             )
             .into());
         }
-    }
-    let source = file.display().to_string();
-    // What the log may leave out when it has no column for it: a time the clock gave,
-    // and true north (the reader's default).
-    let mut droppable = Vec::new();
-    if reading.time.is_none() {
-        droppable.push("time");
-    }
-    if reading.north == NorthArg::True {
-        droppable.push("north");
-    }
-    Ok(append_row(file, LOG_HEADER, &|header, _delimiter| {
-        entry.cells_for_header(header, &source, &droppable)
-    })?)
+        let typed = |text: &Option<String>, axis| text.as_deref().map(|t| decimal_degrees(t, axis));
+        return Ok((
+            typed(&args.lat, Axis::Latitude),
+            typed(&args.lon, Axis::Longitude),
+            args.time.clone(),
+        ));
+    };
+    let source = gpx.display().to_string();
+    let track = read_track(&source, open(gpx)?)?;
+    let (when, p) = match &args.time {
+        Some(text) => {
+            let t = pim_io::fieldlog::parse_time(text).map_err(|m| Error::argument("--time", m))?;
+            let p = track.position_at(t).ok_or_else(|| {
+                Error::argument(
+                    "--time",
+                    format!("{text} is outside the track {source}; give --lat and --lon"),
+                )
+            })?;
+            (text.clone(), p)
+        }
+        None => {
+            let (t, p) = track.newest().ok_or_else(|| {
+                Error::input(pim_core::Place::new(&source), "no timed track point")
+            })?;
+            (t.format(&Rfc3339).unwrap_or_default(), p)
+        }
+    };
+    Ok((
+        Some(format!("{:.7}", p.lat_deg)),
+        Some(format!("{:.7}", p.lon_deg)),
+        Some(when),
+    ))
 }
 
 pub fn run(args: Args) -> CliResult {
-    let (lat, lon, time) = match &args.gps_from {
-        Some(gpx) => {
-            let track = read_track(&gpx.display().to_string(), open(gpx)?)?;
-            let (t, p) = track.newest().ok_or_else(|| {
-                Error::input(
-                    pim_core::Place::new(gpx.display().to_string()),
-                    "no timed track point",
-                )
-            })?;
-            let when = args.time.clone().or_else(|| t.format(&Rfc3339).ok());
-            (
-                Some(format!("{:.7}", p.lat_deg)),
-                Some(format!("{:.7}", p.lon_deg)),
-                when,
-            )
-        }
-        None => (args.lat.clone(), args.lon.clone(), args.time.clone()),
+    let Some(file) = args.log.clone().or(args.file.clone()) else {
+        return Err(Error::argument("--log", "give the field log").into());
     };
-    if lat.is_none() || lon.is_none() {
-        return Err(Error::argument(
-            "--lat/--lon",
-            "give the spot's position, or --gps-from a GPS track",
-        )
-        .into());
+    if args.format != ListFormat::Table && !args.list {
+        return Err(Error::argument("--format", "only the --list listing has formats").into());
     }
-    let reading = ReadingText {
-        lat,
-        lon,
-        bearing_deg: args.bearing_deg.clone(),
-        north: args.north,
-        sigma_deg: args.sigma_deg.clone(),
-        level_dbm: args.level_dbm.clone(),
-        note: args.note.clone(),
-        time,
-    };
-    let appended = save_reading(&args.file, &reading, &|column| {
-        format!("--{}", column.replace('_', "-"))
-    })?;
-    let source = args.file.display().to_string();
+    let source = file.display().to_string();
     let mut out = stdout();
-    writeln!(
-        out,
-        "Saved to {source}, line {}{}.",
-        appended.line,
-        if appended.created { " (new log)" } else { "" }
-    )?;
+    if args.undo {
+        let removed = remove_last_row(&file)?;
+        writeln!(
+            out,
+            "Took back line {} of {source}: {}",
+            removed.line, removed.row
+        )?;
+    } else if !args.list {
+        let (lat, lon, time) = position_and_time(&args)?;
+        let reading = ReadingText {
+            lat,
+            lon,
+            bearing_deg: number_of(&args.bearing_deg, "°", "--bearing-deg")?.unwrap_or_default(),
+            north: match args.north {
+                NorthArg::True => North::True,
+                NorthArg::Magnetic => North::Magnetic,
+            },
+            sigma_deg: number_of(&args.reading_sigma_deg, "°", "--reading-sigma-deg")?,
+            level_dbm: number_of(&args.level_dbm, "dBm", "--level-dbm")?,
+            note: args.note.clone(),
+            time,
+        };
+        let appended = save_reading(&file, &reading, &option_of)?;
+        writeln!(
+            out,
+            "Saved to {source}, line {}{}.",
+            appended.line,
+            if appended.created { " (new log)" } else { "" }
+        )?;
+    }
     // The running fix, from the whole log as it now stands.
-    let bytes = read_locked(&args.file)?;
+    let bytes = read_locked(&file)?;
     let text = String::from_utf8_lossy(&bytes);
-    match fix_from_log(&args.file, Some(&text), &FixArgs::default()) {
-        Ok((fix, _)) => {
-            let e = &fix.ellipse;
-            writeln!(
-                out,
-                "Running fix {:.6}, {:.6} from {} readings; {:.0}% ellipse {:.0} × {:.0} m at {:.0}°.",
-                fix.position.lat_deg,
-                fix.position.lon_deg,
-                fix.n_used,
-                e.confidence * 100.0,
-                e.semi_major_m,
-                e.semi_minor_m,
-                e.orientation_deg
-            )?;
+    match fix_from_log(&file, Some(&text), &args.fix) {
+        Ok((fix, _)) if args.list => {
+            use pim_report::walk as w;
+            let rows = read_field_log(&source, text.as_bytes(), args.fix.track.is_some())?.rows;
+            match args.format {
+                ListFormat::Table => write!(out, "{}", w::log_listing(&fix, &rows))?,
+                ListFormat::Markdown => write!(out, "{}", w::log_listing_markdown(&fix, &rows))?,
+                ListFormat::Csv => w::log_listing_csv(&mut out, &fix, &rows)?,
+                ListFormat::Json => writeln!(out, "{:#}", w::log_listing_json(&fix, &rows))?,
+            }
         }
+        Ok((fix, _)) => write!(out, "{}", pim_report::walk::running_fix_line(&fix))?,
         Err(crate::common::CliError::Core(e)) if e.class == ErrorClass::Refused => {
             writeln!(out, "No fix yet: {}", e.message)?;
         }

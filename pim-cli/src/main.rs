@@ -87,6 +87,29 @@ fn exit_code(err: &CliError) -> u8 {
     }
 }
 
+/// The argument parser's own refusal in the style of every other error (`pim: …`, exit
+/// 2); help and version are printed as they are and exit 0.
+fn argument_error(e: clap::Error) -> ExitCode {
+    use clap::error::ErrorKind;
+    match e.kind() {
+        ErrorKind::DisplayHelp | ErrorKind::DisplayVersion => {
+            let _ = e.print();
+            ExitCode::SUCCESS
+        }
+        ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand => {
+            let _ = e.print();
+            ExitCode::from(2)
+        }
+        _ => {
+            let text = e.render().to_string();
+            let text = text.trim_end();
+            let text = text.strip_prefix("error: ").unwrap_or(text);
+            let _ = writeln!(std::io::stderr(), "pim: {text}");
+            ExitCode::from(2)
+        }
+    }
+}
+
 fn main() -> ExitCode {
     std::panic::set_hook(Box::new(|info| {
         let _ = writeln!(
@@ -95,7 +118,10 @@ fn main() -> ExitCode {
         );
         std::process::exit(70);
     }));
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => return argument_error(e),
+    };
     let result = match cli.command {
         Command::Explain(args) => explain::run(args),
         Command::Fix(args) => fix::run(args),

@@ -6,15 +6,9 @@ use std::path::PathBuf;
 use pim_core::walk::{rank_spots, ring};
 use pim_io::fieldlog::read_spots;
 
-use crate::common::{finish, open, stdout, CliResult};
+use crate::common::{finish, open, positive, stdout, whole, CliResult, ListFormat};
 use crate::fix::{fix_from_log, FixArgs};
-use pim_report::walk::{next_json, next_text};
-
-#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
-pub enum NextFormat {
-    Table,
-    Json,
-}
+use pim_report::walk::{next_csv, next_json, next_markdown, next_text};
 
 #[derive(clap::Args, Debug)]
 #[command(group(clap::ArgGroup::new("spots").required(true).args(["candidates", "radius_m"])))]
@@ -22,33 +16,27 @@ pub struct Args {
     /// The field log so far.
     #[arg(long, value_name = "FILE")]
     pub log: PathBuf,
-    /// Spots one can reach: CSV with lat, lon and an optional name.
+    /// Spots one can reach: CSV with lat, lon and an optional `id` or `name` (a structures
+    /// file will do); a spot without one is called by its coordinates.
     #[arg(long, value_name = "FILE")]
     pub candidates: Option<PathBuf>,
     /// Or a ring of spots at this distance around the fix.
-    #[arg(long, value_name = "M", value_parser = positive_arg)]
+    #[arg(long, value_name = "M", value_parser = positive("m"))]
     pub radius_m: Option<f64>,
     /// How many spots on the ring.
-    #[arg(long, default_value_t = 16, value_parser = clap::value_parser!(u32).range(3..=360))]
+    #[arg(long, default_value_t = 16, value_parser = whole::<u32>(3, 360))]
     pub ring_spots: u32,
     /// Leave out spots closer than this to the fix (bearings that close are unreliable).
-    #[arg(long, value_name = "M", default_value = "25", value_parser = positive_arg)]
+    #[arg(long, value_name = "M", default_value = "25", value_parser = positive("m"))]
     pub min_range_m: f64,
-    /// How many alternatives to list after the best.
-    #[arg(long, default_value_t = 4)]
-    pub alternatives: usize,
+    /// How many spots to list, the best first (the others are the alternatives).
+    #[arg(long, value_name = "N", default_value_t = 5, value_parser = whole::<usize>(1, 1000))]
+    pub limit: usize,
     #[command(flatten)]
     pub fix: FixArgs,
     /// Output format.
-    #[arg(long, value_enum, default_value_t = NextFormat::Table)]
-    pub format: NextFormat,
-}
-
-fn positive_arg(text: &str) -> Result<f64, String> {
-    match text.parse::<f64>() {
-        Ok(v) if v.is_finite() && v > 0.0 => Ok(v),
-        _ => Err(format!("`{text}` is not a positive distance in metres")),
-    }
+    #[arg(long, value_enum, default_value_t = ListFormat::Table)]
+    pub format: ListFormat,
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -67,15 +55,17 @@ pub fn run(args: Args) -> CliResult {
         ))
         .into());
     };
-    let alternatives = &ranked[1..ranked.len().min(args.alternatives + 1)];
+    let alternatives = &ranked[1..ranked.len().min(args.limit)];
     let mut out = stdout();
     match args.format {
-        NextFormat::Json => {
+        ListFormat::Json => {
             let v = next_json(&fix, sigma, best, alternatives);
             serde_json::to_writer_pretty(&mut out, &v).map_err(std::io::Error::from)?;
             writeln!(out)?;
         }
-        NextFormat::Table => write!(out, "{}", next_text(&fix, sigma, best, alternatives))?,
+        ListFormat::Table => write!(out, "{}", next_text(&fix, sigma, best, alternatives))?,
+        ListFormat::Markdown => write!(out, "{}", next_markdown(&fix, sigma, best, alternatives))?,
+        ListFormat::Csv => next_csv(&mut out, best, alternatives)?,
     }
     finish(out)
 }

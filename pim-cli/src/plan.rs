@@ -70,8 +70,9 @@ fn order_arg(text: &str) -> Result<u32, String> {
 
 /// clap parser for the time limit in seconds.
 fn seconds_arg(text: &str) -> Result<f64, String> {
-    match text.parse::<f64>() {
-        Ok(s) if s.is_finite() && s > 0.0 && s <= 86_400.0 => Ok(s),
+    match pim_io::text::parse_quantity(text, "s") {
+        Ok(s) if s > 0.0 && s <= 86_400.0 => Ok(s),
+        Err(e) => Err(e),
         _ => Err(format!("`{text}` is not a time above 0 and up to 86400 s")),
     }
 }
@@ -89,8 +90,8 @@ pub struct Args {
     #[arg(long, value_name = "START_MHZ,STEP_KHZ,COUNT", value_parser = grid_arg, allow_hyphen_values = true)]
     pub grid: Option<GridArg>,
     /// Highest order of the products that must not land: 3 or 5.
-    #[arg(long, default_value = "3", value_parser = order_arg)]
-    pub order: u32,
+    #[arg(long, value_name = "3|5", default_value = "3", value_parser = order_arg)]
+    pub max_order: u32,
     /// Clearance on each side of a chosen channel or protected frequency, in kHz.
     #[arg(long = "guard-khz", value_name = "KHZ", default_value = "0", value_parser = khz_arg)]
     pub guard: Hz,
@@ -153,7 +154,7 @@ pub fn run(args: Args) -> CliResult {
     let cand_carriers: Vec<Carrier> = candidates.iter().map(ListedChannel::carrier).collect();
     let prot_carriers: Vec<Carrier> = protected.iter().map(ListedChannel::carrier).collect();
     let spec = PlanSpec {
-        order: args.order,
+        order: args.max_order,
         guard: args.guard,
     };
     let start = Instant::now();
@@ -167,7 +168,7 @@ pub fn run(args: Args) -> CliResult {
         .iter()
         .map(|c| Emitter::new(label(c), c.freq, c.bandwidth))
         .collect();
-    let closest = closest_products(&chosen_carriers, args.order);
+    let closest = closest_products(&chosen_carriers, args.max_order);
 
     let report = PlanReport {
         chosen,
@@ -176,7 +177,7 @@ pub fn run(args: Args) -> CliResult {
         result: &result,
         candidates: candidates.len(),
         description,
-        order: args.order,
+        order: args.max_order,
         guard: args.guard,
         protected: &protected,
         time_limit_s: args.time_limit,

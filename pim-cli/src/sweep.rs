@@ -17,7 +17,7 @@ use serde_json::json;
 
 use crate::args::{ListingArgs, SearchArgs};
 use crate::common::load_emitters;
-use crate::common::{finish, finite_arg, open, stdout, CliResult, ListFormat};
+use crate::common::{finish, open, stdout, whole, CliResult, ListFormat};
 use pim_report::sweep::{
     picture_input, write_csv, write_json, write_markdown, write_table, SweepReport,
 };
@@ -38,13 +38,13 @@ pub struct Args {
     pub threshold_db: f64,
     /// Points in each window of the running-median floor (default: 25 receive channel
     /// widths, at least 101 points).
-    #[arg(long = "floor-window", value_name = "POINTS", value_parser = clap::value_parser!(u64).range(3..=1_000_000))]
+    #[arg(long = "floor-window", value_name = "POINTS", value_parser = whole::<u64>(3, 1_000_000))]
     pub floor_window: Option<u64>,
     /// Also draw the trace, its floor and its peaks into this SVG file.
     #[arg(long, value_name = "FILE")]
     pub svg: Option<PathBuf>,
     /// Suspects listed at most (tables and Markdown; JSON and CSV list all).
-    #[arg(long, value_name = "N", default_value_t = 10)]
+    #[arg(long, value_name = "N", default_value_t = 10, value_parser = whole::<usize>(0, 1_000_000))]
     pub suspects: usize,
     #[command(flatten)]
     pub search: SearchArgs,
@@ -54,7 +54,7 @@ pub struct Args {
 
 /// clap parser for the threshold: a finite number of dB above zero.
 pub fn threshold_arg(text: &str) -> Result<f64, String> {
-    let v = finite_arg(text)?;
+    let v = pim_io::text::parse_quantity(text, "dB")?;
     if !(v > 0.0 && v <= 100.0) {
         return Err(format!(
             "threshold {text} dB must be above 0 dB and at most 100 dB"

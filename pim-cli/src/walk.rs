@@ -24,14 +24,14 @@ use pim_core::walk::{rank_spots, ring, Spot};
 use pim_io::append::{read_locked, remove_last_row};
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_spots;
-use pim_io::text::{parse_coordinate, Axis};
+use pim_io::text::{decimal_degrees, Axis};
 use serde_json::{json, Value};
 use subtle::ConstantTimeEq;
 use tiny_http::{Header, Method, Request, Response, Server};
 
 use crate::common::{open, CliError, CliResult};
 use crate::fix::{fix_from_log, fix_json, FixArgs};
-use crate::log::{save_reading, NorthArg, ReadingText};
+use pim_io::fieldlog::{save_reading, North, ReadingText};
 use pim_report::map::map_svg;
 use pim_report::ticket::fix_map_input;
 
@@ -62,15 +62,19 @@ pub struct Args {
     /// Emitters (CSV) to show on the map.
     #[arg(long, value_name = "FILE")]
     pub emitters: Option<PathBuf>,
-    /// Spots one can reach (CSV with lat, lon, name) to suggest the next one from; by
+    /// Spots one can reach (CSV with lat, lon and an `id` or `name`) to suggest the next one from; by
     /// default a ring around the fix at the walk's typical range.
     #[arg(long, value_name = "FILE")]
     pub candidates: Option<PathBuf>,
+    /// The running fix's estimator, as in `pim fix`.
+    #[command(flatten)]
+    pub fix: FixArgs,
 }
 
 /// What every request handler reads.
 struct Walk {
     log: PathBuf,
+    fix: FixArgs,
     token: String,
     port: u16,
     structures: Vec<Structure>,
@@ -101,6 +105,7 @@ pub fn run(args: Args) -> CliResult {
         .unwrap_or(args.listen.port());
     let walk = Arc::new(Walk {
         log: args.log.clone(),
+        fix: args.fix.clone(),
         token: new_token()?,
         port,
         structures,
@@ -339,8 +344,8 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
         return missing("bearing_deg", "missing bearing");
     };
     let north = match get("north").as_deref() {
-        None | Some("true") => NorthArg::True,
-        Some("magnetic") => NorthArg::Magnetic,
+        None | Some("true") => North::True,
+        Some("magnetic") => North::Magnetic,
         Some(_) => return missing("north", "north is either `true` or `magnetic`"),
     };
     let reading = ReadingText {
@@ -360,21 +365,10 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
             json!({"saved": {"line": appended.line, "created": appended.created},
                    "state": walk_state(walk)}),
         ),
-        Err(CliError::Core(e)) => (
+        Err(e) => (
             if e.class == ErrorClass::Io { 500 } else { 422 },
             json!({"error": error_json(&e)}),
         ),
-        Err(CliError::BrokenPipe) => (500, json!({"error": {"message": "write failed"}})),
-    }
-}
-
-/// A typed position in any notation [`parse_coordinate`] reads, as decimal degrees with
-/// 7 decimals (about 1 cm); anything else is passed on as typed, for the log's own check
-/// to judge and name.
-fn decimal_degrees(text: &str, axis: Axis) -> String {
-    match parse_coordinate(text, axis) {
-        Ok(v) if text.trim().parse::<f64>().is_err() => format!("{v:.7}"),
-        _ => text.to_string(),
     }
 }
 
@@ -394,7 +388,7 @@ fn walk_state(walk: &Walk) -> Value {
         .filter(|l| !l.trim().is_empty())
         .count();
     let last_spot = last_position(&walk.log, &text);
-    let (fix, prepared) = match fix_from_log(&walk.log, Some(&text), &FixArgs::default()) {
+    let (fix, prepared) = match fix_from_log(&walk.log, Some(&text), &walk.fix) {
         Ok(v) => v,
         Err(CliError::Core(e)) => {
             return json!({"rows": rows, "no_fix": if e.class == ErrorClass::Refused { e.message } else { e.to_string() }})

@@ -209,33 +209,56 @@ pub fn remove_last_row(path: &Path) -> Result<Removed> {
     let source = path.display().to_string();
     let mut text = Vec::new();
     file.read_to_end(&mut text).map_err(|e| io_err(path, &e))?;
-    let lines = text.iter().filter(|&&b| b == b'\n').count() as u64;
-    if text.last().is_some_and(|&b| b != b'\n') {
+    if text.last().is_some_and(|&b| !matches!(b, b'\n' | b'\r')) {
         return Err(Error::input(
-            Place::new(source).at_line(lines + 1),
+            Place::new(source).at_line(crate::text::count_line_ends(&text) + 1),
             "the last row has no line end: it may be torn by an interrupted write; mend it before taking a reading back",
         ));
     }
-    // The row is the last line; the header is line 1 and is never taken.
-    let body = &text[..text.len().saturating_sub(1)];
-    let start = match body.iter().rposition(|&b| b == b'\n') {
-        Some(i) if lines >= 2 => i + 1,
+    // Lines with their byte ranges, in any line end (LF, CRLF or a lone CR).
+    let mut lines: Vec<(usize, usize)> = Vec::new();
+    let mut start = 0;
+    let mut i = 0;
+    while i < text.len() {
+        if matches!(text[i], b'\n' | b'\r') {
+            lines.push((start, i));
+            i += if text[i] == b'\r' && text.get(i + 1) == Some(&b'\n') {
+                2
+            } else {
+                1
+            };
+            start = i;
+        } else {
+            i += 1;
+        }
+    }
+    let is_row = |&(a, b): &(usize, usize)| {
+        let t = text[a..b].trim_ascii();
+        let t = t.strip_prefix(b"\xef\xbb\xbf").unwrap_or(t);
+        !t.is_empty() && !t.starts_with(b"#")
+    };
+    // The header (the first line that is neither blank nor a comment) is never taken.
+    let header = lines.iter().position(is_row);
+    let last = lines.iter().rposition(is_row);
+    let (index, (start, end)) = match (header, last) {
+        (Some(h), Some(l)) if l > h => (l, lines[l]),
         _ => {
             return Err(Error::refused(format!(
                 "{source} has no reading to take back"
             )))
         }
     };
-    let row = String::from_utf8_lossy(&body[start..])
-        .trim_end_matches('\r')
-        .to_string();
+    let row = String::from_utf8_lossy(&text[start..end]).to_string();
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => Path::new("."),
     };
     let mut temp = tempfile::NamedTempFile::new_in(dir).map_err(|e| io_err(path, &e))?;
     let permissions = file.metadata().map_err(|e| io_err(path, &e))?.permissions();
+    // blank and comment lines after the row stay
+    let after = lines.get(index + 1).map_or(text.len(), |l| l.0);
     temp.write_all(&text[..start])
+        .and_then(|_| temp.write_all(&text[after..]))
         .and_then(|_| temp.as_file().set_permissions(permissions))
         .and_then(|_| temp.as_file().sync_all())
         .map_err(|e| io_err(path, &e))?;
@@ -244,7 +267,10 @@ pub fn remove_last_row(path: &Path) -> Result<Removed> {
         let _ = d.sync_all();
     }
     let _ = file.unlock();
-    Ok(Removed { line: lines, row })
+    Ok(Removed {
+        line: index as u64 + 1,
+        row,
+    })
 }
 
 /// Reads a whole file under a shared lock, so that no half-written row is seen.
@@ -316,6 +342,29 @@ mod tests {
         );
         // Nothing but the log is left in the directory.
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
+    }
+
+    /// CRLF and lone-CR logs lose their last row and keep their line ends; a comment
+    /// after the row stays.
+    #[test]
+    fn the_last_row_is_taken_back_in_any_line_end() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("walk.csv");
+        for (text, row, left) in [
+            ("h\r\n1,2\r\n3,4\r\n", "3,4", "h\r\n1,2\r\n"),
+            ("h\r1,2\r3,4\r", "3,4", "h\r1,2\r"),
+            ("h\n1,2\n3,4\n# end\n\n", "3,4", "h\n1,2\n# end\n\n"),
+        ] {
+            std::fs::write(&path, text).unwrap();
+            let removed = remove_last_row(&path).unwrap();
+            assert_eq!((removed.line, removed.row.as_str()), (3, row), "{text:?}");
+            assert_eq!(std::fs::read_to_string(&path).unwrap(), left, "{text:?}");
+        }
+        std::fs::write(&path, "# walk\r\nh\r\n").unwrap();
+        assert_eq!(
+            remove_last_row(&path).unwrap_err().class,
+            pim_core::ErrorClass::Refused
+        );
     }
 
     #[test]

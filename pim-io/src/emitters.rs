@@ -8,7 +8,8 @@
 use std::collections::HashMap;
 use std::io::Read;
 
-use crate::table::{no_rows, parse_finite, Fields, Table};
+use crate::table::{decimal_comma_hint, no_rows, parse_finite, Fields, Table};
+use crate::text::{parse_coordinate, Axis};
 use pim_core::emitter::{watts_to_dbm, Emitter, Keying, Receiver};
 use pim_core::error::{Error, Place, Result};
 use pim_core::freq::{parse_khz, parse_mhz, DecimalError, Hz, MAX_FREQUENCY};
@@ -274,7 +275,31 @@ pub fn bandwidth_field(place: impl Fn() -> Place, text: &str) -> Result<Hz> {
     Ok(bw)
 }
 
-/// Reads `lat` and `lon` together: both or neither.
+/// A coordinate field: decimal degrees, degrees and decimal minutes, or degrees, minutes
+/// and seconds with a hemisphere letter (`45.1046`, `45°06.275'N`, `122 24 50.5 W`:
+/// [`parse_coordinate`]), within the axis's range.
+fn coordinate_field(place: impl Fn() -> Place, text: &str, axis: Axis) -> Result<f64> {
+    let t = text.trim();
+    if t.parse::<f64>().is_err() && decimal_comma_hint(t).is_empty() {
+        return parse_coordinate(t, axis).map_err(|m| Error::input(place(), m));
+    }
+    // a plain number keeps the number's own messages (`inf`, a decimal comma)
+    let v = parse_finite(&place, t)?;
+    let (name, limit) = match axis {
+        Axis::Latitude => ("latitude", 90.0),
+        Axis::Longitude => ("longitude", 180.0),
+    };
+    if v.abs() > limit {
+        return Err(Error::input(
+            place(),
+            format!("{name} {text} is outside −{limit}…{limit}"),
+        ));
+    }
+    Ok(v)
+}
+
+/// Reads `lat` and `lon` together: both or neither; each in any notation of
+/// [`parse_coordinate`].
 pub fn position_fields(record: &dyn Fields) -> Result<Option<GeoPoint>> {
     let place = |f: &str| record.place(f);
     match (record.field("lat"), record.field("lon")) {
@@ -288,20 +313,8 @@ pub fn position_fields(record: &dyn Fields) -> Result<Option<GeoPoint>> {
             "`lon` is given but `lat` is empty",
         )),
         (Some(lat), Some(lon)) => {
-            let lat_v = parse_finite(|| place("lat"), lat)?;
-            if !(-90.0..=90.0).contains(&lat_v) {
-                return Err(Error::input(
-                    place("lat"),
-                    format!("latitude {lat} is outside −90…90"),
-                ));
-            }
-            let lon_v = parse_finite(|| place("lon"), lon)?;
-            if !(-180.0..=180.0).contains(&lon_v) {
-                return Err(Error::input(
-                    place("lon"),
-                    format!("longitude {lon} is outside −180…180"),
-                ));
-            }
+            let lat_v = coordinate_field(|| place("lat"), lat, Axis::Latitude)?;
+            let lon_v = coordinate_field(|| place("lon"), lon, Axis::Longitude)?;
             Ok(Some(GeoPoint::new(lat_v, lon_v)))
         }
     }

@@ -5,16 +5,18 @@
 //! `lon` empty when a GPS track is given to place it by its time.
 
 use std::io::Read;
+use std::path::Path;
 
 use serde::Serialize;
 use time::format_description::well_known::Rfc3339;
 use time::OffsetDateTime;
 
+use crate::append::{append_row, Appended};
 use crate::emitters::position_fields;
 use crate::table::{no_rows, parse_finite, Fields, Table};
 use crate::track::Track;
 use pim_core::declination::{declination_deg, model_name};
-use pim_core::error::{Error, Place, Result};
+use pim_core::error::{Error, ErrorClass, Place, Result};
 use pim_core::fix::Reading;
 use pim_core::geo::{normalize_bearing_deg, GeoPoint};
 
@@ -267,6 +269,120 @@ impl LogEntry {
     }
 }
 
+/// A bad value typed on the command line: the option is named, exit code 2.
+fn as_argument(e: Error) -> Error {
+    if e.class == ErrorClass::Input && e.place.as_ref().is_some_and(|p| p.line.is_none()) {
+        Error {
+            class: ErrorClass::Argument,
+            ..e
+        }
+    } else {
+        e
+    }
+}
+
+/// One reading as typed (`pim log`, the walk page): the text of each column, checked
+/// only by [`save_reading`].
+#[derive(Clone, Debug)]
+pub struct ReadingText {
+    pub lat: Option<String>,
+    pub lon: Option<String>,
+    pub bearing_deg: String,
+    pub north: North,
+    pub sigma_deg: Option<String>,
+    pub level_dbm: Option<String>,
+    pub note: Option<String>,
+    /// ISO 8601; now (UTC, whole seconds) when `None`.
+    pub time: Option<String>,
+}
+
+/// Checks a reading exactly as the log reader will and appends it to the log under the
+/// log's lock. A bad value's error is placed at `origin(column)` (an option name for
+/// `pim log`, an input's name for the walk page).
+pub fn save_reading(
+    file: &Path,
+    reading: &ReadingText,
+    origin: &dyn Fn(&'static str) -> String,
+) -> Result<Appended> {
+    let now = time::OffsetDateTime::now_utc()
+        .replace_nanosecond(0)
+        .unwrap_or_else(|_| time::OffsetDateTime::now_utc());
+    let time = reading
+        .time
+        .clone()
+        .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
+    if let Some(note) = &reading.note {
+        if note.contains(['\n', '\r']) {
+            return Err(Error::argument(
+                &origin("note"),
+                "a note must fit on one line",
+            ));
+        }
+    }
+    let text = |v: &Option<String>| v.clone().unwrap_or_default();
+    const COLUMNS: [&str; 8] = [
+        "time",
+        "lat",
+        "lon",
+        "bearing_deg",
+        "north",
+        "sigma_deg",
+        "level_dbm",
+        "note",
+    ];
+    let entry = LogEntry {
+        fields: vec![
+            ("time", time),
+            ("lat", text(&reading.lat)),
+            ("lon", text(&reading.lon)),
+            ("bearing_deg", reading.bearing_deg.clone()),
+            (
+                "north",
+                match reading.north {
+                    North::True => "true",
+                    North::Magnetic => "magnetic",
+                }
+                .to_string(),
+            ),
+            ("sigma_deg", text(&reading.sigma_deg)),
+            ("level_dbm", text(&reading.level_dbm)),
+            ("note", text(&reading.note)),
+        ],
+        origin: COLUMNS.iter().map(|&c| (c, origin(c))).collect(),
+    };
+    // The reading is checked exactly as the log reader will check it, before any write.
+    let row = log_row(&entry, 0).map_err(as_argument)?;
+    // A magnetic bearing the World Magnetic Model cannot turn true would block every
+    // later fix of the log: refused before it is written.
+    if row.north == North::Magnetic {
+        let date = row.time.unwrap_or(now).date();
+        let at = row
+            .position
+            .unwrap_or(pim_core::geo::GeoPoint::new(0.0, 0.0));
+        if let Err(why) = pim_core::declination::declination_deg(at, date) {
+            return Err(Error::argument(
+                &origin("time"),
+                format!(
+                    "the World Magnetic Model cannot turn a magnetic bearing of this date true ({why}), so the log could not be fixed; apply the declination yourself and log the bearing as true north"
+                ),
+            ));
+        }
+    }
+    let source = file.display().to_string();
+    // What the log may leave out when it has no column for it: a time the clock gave,
+    // and true north (the reader's default).
+    let mut droppable = Vec::new();
+    if reading.time.is_none() {
+        droppable.push("time");
+    }
+    if reading.north == North::True {
+        droppable.push("north");
+    }
+    append_row(file, LOG_HEADER, &|header, _delimiter| {
+        entry.cells_for_header(header, &source, &droppable)
+    })
+}
+
 /// A declination applied to a magnetic reading.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Correction {
@@ -398,8 +514,9 @@ pub fn prepare(
     Ok(out)
 }
 
-/// Reads candidate spots for the next bearing: CSV with `lat`, `lon` and an optional
-/// `name` (gates, road bends, a walkable path).
+/// Reads candidate spots for the next bearing: CSV with `lat`, `lon` (any notation of
+/// [`crate::text::parse_coordinate`]) and an optional `name` or `id` (gates, road bends,
+/// a walkable path; a structures file, whose column is `id`, will do).
 pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk::Spot>> {
     let mut table = Table::open(source, reader)?;
     table.require("lat")?;
@@ -409,9 +526,12 @@ pub fn read_spots<R: Read>(source: &str, reader: R) -> Result<Vec<pim_core::walk
         let position = position_fields(&row)?
             .ok_or_else(|| Error::input(row.place("lat"), "missing position"))?;
         spots.push(pim_core::walk::Spot {
-            name: match row.get("name") {
-                Some(name) => {
-                    crate::emitters::checked_id(row.place("name"), name)?;
+            name: match ["name", "id"]
+                .into_iter()
+                .find_map(|c| row.get(c).map(|v| (c, v)))
+            {
+                Some((column, name)) => {
+                    crate::emitters::checked_id(row.place(column), name)?;
                     Some(name.to_string())
                 }
                 None => None,
@@ -499,6 +619,40 @@ mod tests {
             "{:?}",
             b.notes
         );
+    }
+
+    /// Positions in degrees and minutes or degrees, minutes and seconds read as decimal
+    /// degrees; a bad one names its line and field.
+    #[test]
+    fn positions_in_any_notation() {
+        let log =
+            read("lat;lon;bearing_deg\n45°06.275'N;122 24 50.5 W;10\nN45 06 16.5;-122.414;20\n")
+                .unwrap();
+        let p = log.rows[0].position.unwrap();
+        assert!((p.lat_deg - 45.104_583_333).abs() < 1e-8);
+        assert!((p.lon_deg + 122.414_027_778).abs() < 1e-8);
+        assert!((log.rows[1].position.unwrap().lat_deg - 45.104_583_333).abs() < 1e-8);
+        for (text, want) in [
+            (
+                "lat;lon;bearing_deg\n45 75 N;-122;10\n",
+                "walk.csv, line 2, field `lat`: `45 75 N`: minutes and seconds must be below 60",
+            ),
+            (
+                "lat;lon;bearing_deg\n45,1;-122;10\n",
+                "walk.csv, line 2, field `lat`: `45,1` is not a number (a decimal comma?",
+            ),
+            (
+                "lat,lon,bearing_deg\n45,122 24 50 N,10\n",
+                "walk.csv, line 2, field `lon`: `122 24 50 N` is not a longitude",
+            ),
+            (
+                "lat,lon,bearing_deg\n91,0,10\n",
+                "walk.csv, line 2, field `lat`: latitude 91 is outside −90…90",
+            ),
+        ] {
+            let e = read(text).unwrap_err().to_string();
+            assert!(e.starts_with(want), "{e}");
+        }
     }
 
     #[test]

@@ -48,6 +48,12 @@ pub fn parse_time(text: &str) -> Result<(OffsetDateTime, bool), String> {
     }
 }
 
+/// A time as RFC 3339 text (`2026-12-01T10:05:00Z`), as the tool writes times.
+pub fn time_text(t: OffsetDateTime) -> String {
+    t.format(&time::format_description::well_known::Rfc3339)
+        .unwrap_or_default()
+}
+
 /// Which axis a coordinate is on: the hemisphere letters it may carry and its range.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Axis {
@@ -99,6 +105,10 @@ pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
         .filter(|p| !p.is_empty())
         .collect();
     let bad = || {
+        let hint = crate::table::decimal_comma_hint(t);
+        if !hint.is_empty() {
+            return format!("`{t}` is not a number{hint}");
+        }
         format!("`{t}` is not a {name} in degrees (45.1046), degrees and minutes (45 06.275 {positive}) or degrees, minutes and seconds (45 06 16.5 {positive})")
     };
     let numbers: Vec<f64> = parts
@@ -131,6 +141,185 @@ pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
         return Err(out_of_range());
     }
     Ok(v)
+}
+
+/// The units a quantity may be written with, by kind; the first of each is the one named
+/// in messages.
+const UNITS: &[(&str, &[(&str, f64)])] = &[
+    (
+        "Hz",
+        &[("hz", 1.0), ("khz", 1e3), ("mhz", 1e6), ("ghz", 1e9)],
+    ),
+    ("dBm", &[("dbm", 1.0)]),
+    ("dBc", &[("dbc", 1.0)]),
+    ("dB", &[("db", 1.0)]),
+    ("m", &[("m", 1.0), ("km", 1e3)]),
+    (
+        "°",
+        &[("°", 1.0), ("deg", 1.0), ("degrees", 1.0), ("º", 1.0)],
+    ),
+    ("s", &[("s", 1.0)]),
+];
+
+/// Splits `12.5kHz`, `-80 dBm` or `10°` into the number's text and the unit's text
+/// (empty when there is none): the unit is the trailing run of letters and degree signs.
+pub fn split_unit(text: &str) -> (&str, &str) {
+    let t = text.trim();
+    let cut = t
+        .char_indices()
+        .rev()
+        .take_while(|(_, c)| c.is_alphabetic() || matches!(c, '°' | 'º'))
+        .last()
+        .map_or(t.len(), |(i, _)| i);
+    let (number, unit) = t.split_at(cut);
+    if number.trim().trim_matches(['+', '-']).is_empty() {
+        // `inf`, `nan`, `abc`: all of it is the number's text, for the number's message
+        return (t, "");
+    }
+    (number.trim_end(), unit)
+}
+
+/// The kind of a unit's text (`kHz` → `Hz`) and its factor to that kind's base unit.
+fn unit_kind(unit: &str) -> Option<(&'static str, f64)> {
+    let lower = unit.to_lowercase();
+    UNITS.iter().find_map(|(kind, names)| {
+        names
+            .iter()
+            .find(|(n, _)| *n == lower)
+            .map(|(_, factor)| (*kind, *factor))
+    })
+}
+
+/// The refusal of a unit of the wrong kind or an unknown one, naming the unit expected.
+pub fn wrong_unit(text: &str, unit: &str, expected: &str) -> String {
+    let wanted = match expected {
+        "" => "a plain number, without a unit".to_string(),
+        "Hz" => "a frequency (Hz, kHz, MHz or GHz)".to_string(),
+        "°" => "degrees (10, 10° or 10deg)".to_string(),
+        "m" => "metres (150 or 150m)".to_string(),
+        other => format!("{other} (a bare number or the number followed by {other})"),
+    };
+    match unit_kind(unit) {
+        Some((kind, _)) => format!("`{}` is in {kind}; expected {wanted}", text.trim()),
+        None => format!(
+            "`{}`: unknown unit `{unit}`; expected {wanted}",
+            text.trim()
+        ),
+    }
+}
+
+/// A finite decimal number, or why not (with the decimal-comma hint of the table reader).
+pub fn parse_number(text: &str) -> Result<f64, String> {
+    let t = text.trim();
+    match t.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(format!("`{t}` is not a finite number")),
+        Err(_) => Err(format!(
+            "`{t}` is not a number{}",
+            crate::table::decimal_comma_hint(t)
+        )),
+    }
+}
+
+/// Parses a quantity in `unit` (`dB`, `dBm`, `dBc`, `m`, `°`, `s`; `""` for a plain
+/// number): a bare number, or the number followed by its unit (`3dB`, `-80 dBm`, `150m`,
+/// `0.15km`, `10°`, `10deg`). A unit of another kind is refused with a message naming
+/// the unit expected.
+///
+/// ```
+/// use pim_io::text::parse_quantity;
+/// assert_eq!(parse_quantity("-80dBm", "dBm"), Ok(-80.0));
+/// assert_eq!(parse_quantity("0.15 km", "m"), Ok(150.0));
+/// assert_eq!(parse_quantity("10deg", "°"), Ok(10.0));
+/// assert!(parse_quantity("3dBm", "dB").unwrap_err().contains("expected dB"));
+/// assert!(parse_quantity("12,5", "m").unwrap_err().contains("decimal comma"));
+/// ```
+pub fn parse_quantity(text: &str, unit: &str) -> Result<f64, String> {
+    let (number, given) = split_unit(text);
+    let factor = if given.is_empty() {
+        1.0
+    } else {
+        match unit_kind(given) {
+            Some((kind, factor)) if kind == unit => factor,
+            _ => return Err(wrong_unit(text, given, unit)),
+        }
+    };
+    let v = parse_number(number)? * factor;
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(format!("`{}` is not a finite number", text.trim()))
+    }
+}
+
+/// Parses a frequency with an optional unit (`12.5kHz`, `0.0125MHz`, `12500Hz`) into
+/// exact hertz; a bare number is in `default_exp` (10^exp Hz: 3 for kHz, 6 for MHz).
+/// A unit of another kind is refused naming the expected one; a decimal comma gets the
+/// table reader's hint.
+///
+/// ```
+/// use pim_io::text::parse_frequency_in;
+/// use pim_core::freq::Hz;
+/// assert_eq!(parse_frequency_in("12.5", 3), Ok(Hz(12_500)));
+/// assert_eq!(parse_frequency_in("0.0125MHz", 3), Ok(Hz(12_500)));
+/// assert_eq!(parse_frequency_in("12500 Hz", 3), Ok(Hz(12_500)));
+/// assert!(parse_frequency_in("3dB", 3).unwrap_err().contains("is in dB"));
+/// ```
+pub fn parse_frequency_in(text: &str, default_exp: i32) -> Result<pim_core::freq::Hz, String> {
+    use pim_core::freq::{parse_scaled_decimal, DecimalError, Hz};
+    let (number, given) = split_unit(text);
+    let exp = if given.is_empty() {
+        default_exp
+    } else {
+        match unit_kind(given) {
+            Some(("Hz", factor)) => factor.log10().round() as i32,
+            _ => return Err(wrong_unit(text, given, "Hz")),
+        }
+    };
+    parse_scaled_decimal(number, exp)
+        .map(Hz)
+        .map_err(|e| match e {
+            DecimalError::NotANumber(_) => format!(
+                "`{}` is not a number{}",
+                text.trim(),
+                crate::table::decimal_comma_hint(number)
+            ),
+            other => other.to_string(),
+        })
+}
+
+/// A typed position in any notation [`parse_coordinate`] reads, as decimal degrees with
+/// 7 decimals (about 1 cm), as a log stores it; a plain number or anything the grammar
+/// refuses is returned as typed, for the log's own check to judge and name.
+///
+/// ```
+/// use pim_io::text::{decimal_degrees, Axis};
+/// assert_eq!(decimal_degrees("51 30.000 N", Axis::Latitude), "51.5000000");
+/// assert_eq!(decimal_degrees("51.25", Axis::Latitude), "51.25");
+/// assert_eq!(decimal_degrees("51 75 N", Axis::Latitude), "51 75 N");
+/// ```
+pub fn decimal_degrees(text: &str, axis: Axis) -> String {
+    match parse_coordinate(text, axis) {
+        Ok(v) if text.trim().parse::<f64>().is_err() => format!("{v:.7}"),
+        _ => text.to_string(),
+    }
+}
+
+/// Text as one word of a POSIX shell command line (a path in a command printed for the
+/// user to run): as it is when it holds only letters, digits and `-_./+,:@%`, else in
+/// single quotes.
+///
+/// ```
+/// assert_eq!(pim_io::text::shell_word("pim-demo/walk.csv"), "pim-demo/walk.csv");
+/// assert_eq!(pim_io::text::shell_word("Marrow Hill's"), "'Marrow Hill'\\''s'");
+/// ```
+pub fn shell_word(text: &str) -> String {
+    let plain = |c: char| c.is_ascii_alphanumeric() || "-_./+,:@%".contains(c);
+    if !text.is_empty() && text.chars().all(plain) {
+        text.to_string()
+    } else {
+        format!("'{}'", text.replace('\'', "'\\''"))
+    }
 }
 
 /// Text made safe inside XML (SVG, KML, HTML) content and attribute values: the five
@@ -422,6 +611,49 @@ mod tests {
         assert!(lat("45.5 30 N").is_err());
         assert!(lat("abc").unwrap_err().contains("degrees and minutes"));
         assert!(lon("45 06.275 N").is_err());
+    }
+
+    #[test]
+    fn quantities_carry_their_unit() {
+        use pim_core::freq::Hz;
+        assert_eq!(parse_quantity("3dB", "dB"), Ok(3.0));
+        assert_eq!(parse_quantity("-80 dBm", "dBm"), Ok(-80.0));
+        assert_eq!(parse_quantity("150m", "m"), Ok(150.0));
+        assert_eq!(parse_quantity("10°", "°"), Ok(10.0));
+        assert_eq!(parse_quantity("10deg", "°"), Ok(10.0));
+        assert_eq!(parse_quantity("-3", "dB"), Ok(-3.0));
+        assert_eq!(parse_quantity("1e3", ""), Ok(1000.0));
+        for (text, unit, want) in [
+            ("3dBm", "dB", "`3dBm` is in dBm; expected dB"),
+            ("150km", "dB", "`150km` is in m; expected dB"),
+            ("3dB", "", "`3dB` is in dB; expected a plain number"),
+            (
+                "5furlongs",
+                "m",
+                "`5furlongs`: unknown unit `furlongs`; expected metres",
+            ),
+            (
+                "12,5",
+                "m",
+                "`12,5` is not a number (a decimal comma? write the number with a point)",
+            ),
+            ("-inf", "dB", "`-inf` is not a finite number"),
+            ("NaN", "", "`NaN` is not a finite number"),
+        ] {
+            let got = parse_quantity(text, unit).unwrap_err();
+            assert!(got.starts_with(want), "{text}: {got}");
+        }
+        assert_eq!(parse_frequency_in("12.5", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("12.5kHz", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("0.0125MHz", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("12500Hz", 3), Ok(Hz(12_500)));
+        assert_eq!(parse_frequency_in("146.52", 6), Ok(Hz(146_520_000)));
+        assert!(parse_frequency_in("146,52", 6)
+            .unwrap_err()
+            .contains("decimal comma"));
+        assert!(parse_frequency_in("12.5m", 3)
+            .unwrap_err()
+            .contains("is in m; expected a frequency"));
     }
 
     #[test]

@@ -3,9 +3,93 @@
 
 use pim_core::fix::Fix;
 use pim_core::walk::ScoredSpot;
+use pim_io::fieldlog::LogRow;
 use serde_json::{json, Value};
 
 use crate::text_table::{Align, TextTable};
+
+/// A spot's name, or its coordinates when it has none (`45.104583, -122.414028`).
+pub fn spot_label(s: &ScoredSpot) -> String {
+    match &s.spot.name {
+        Some(name) => name.clone(),
+        None => format!(
+            "{:.6}, {:.6}",
+            s.spot.position.lat_deg, s.spot.position.lon_deg
+        ),
+    }
+}
+
+/// The columns of the spot listing in CSV and Markdown.
+const SPOT_COLUMNS: [&str; 8] = [
+    "rank",
+    "spot",
+    "lat",
+    "lon",
+    "range_m",
+    "antenna_points_deg",
+    "ellipse_after_semi_major_m",
+    "ellipse_after_semi_minor_m",
+];
+
+fn spot_cells(rank: usize, s: &ScoredSpot) -> [String; 8] {
+    [
+        rank.to_string(),
+        spot_label(s),
+        format!("{:.6}", s.spot.position.lat_deg),
+        format!("{:.6}", s.spot.position.lon_deg),
+        format!("{:.0}", s.distance_m),
+        format!("{:.0}", s.bearing_to_fix_deg),
+        format!("{:.0}", s.expected.semi_major_m),
+        format!("{:.0}", s.expected.semi_minor_m),
+    ]
+}
+
+/// The best spot and the alternatives as CSV (spreadsheet-safe), best first.
+pub fn next_csv(
+    out: &mut dyn std::io::Write,
+    best: &ScoredSpot,
+    alternatives: &[ScoredSpot],
+) -> std::io::Result<()> {
+    crate::csv_out::write_row(out, SPOT_COLUMNS)?;
+    for (i, s) in std::iter::once(best).chain(alternatives).enumerate() {
+        crate::csv_out::write_row(out, spot_cells(i + 1, s))?;
+    }
+    Ok(())
+}
+
+/// The best spot and the alternatives as a Markdown table under the region now.
+pub fn next_markdown(
+    fix: &Fix,
+    sigma_deg: f64,
+    best: &ScoredSpot,
+    alternatives: &[ScoredSpot],
+) -> String {
+    let e = &fix.ellipse;
+    let mut out = format!(
+        "Now: {:.0}% ellipse {:.0} × {:.0} m from {} readings; next bearing assumed σ {:.1}°.\n\n",
+        e.confidence * 100.0,
+        e.semi_major_m,
+        e.semi_minor_m,
+        fix.n_used,
+        sigma_deg
+    );
+    out.push_str("| # | spot | lat | lon | range m | antenna points ° | ellipse after m |\n|---:|---|---:|---:|---:|---:|---|\n");
+    for (i, s) in std::iter::once(best).chain(alternatives).enumerate() {
+        let c = spot_cells(i + 1, s);
+        out.push_str(&format!(
+            "| {} | {} | {} | {} | {} | {} | {} × {} |\n",
+            c[0],
+            crate::document::md_inline(&c[1]),
+            c[2],
+            c[3],
+            c[4],
+            c[5],
+            c[6],
+            c[7]
+        ));
+    }
+    out
+}
 
 /// One scored spot as JSON.
 pub fn spot_json(s: &ScoredSpot) -> serde_json::Value {
@@ -57,10 +141,14 @@ pub fn next_text(
         sigma_deg
     );
     out.push_str(&format!(
-        "Go to {}: {:.6}, {:.6}, {:.0} m from the fix; expect the antenna to point {:.0}°.\n\n",
-        best.spot.name.as_deref().unwrap_or("the spot"),
-        best.spot.position.lat_deg,
-        best.spot.position.lon_deg,
+        "Go to {}, {:.0} m from the fix; expect the antenna to point {:.0}°.\n\n",
+        match &best.spot.name {
+            Some(name) => format!(
+                "{name}: {:.6}, {:.6}",
+                best.spot.position.lat_deg, best.spot.position.lon_deg
+            ),
+            None => spot_label(best),
+        },
         best.distance_m,
         best.bearing_to_fix_deg
     ));
@@ -73,7 +161,7 @@ pub fn next_text(
     ]);
     for s in std::iter::once(best).chain(alternatives) {
         t.push(vec![
-            s.spot.name.clone().unwrap_or_default(),
+            spot_label(s),
             format!("{:.6}", s.spot.position.lat_deg),
             format!("{:.6}", s.spot.position.lon_deg),
             format!("{:.0}", s.distance_m),
@@ -85,4 +173,146 @@ pub fn next_text(
     }
     out.push_str(&t.render());
     out
+}
+
+/// The running fix in one line, as `pim log` shows it after each change to the log.
+pub fn running_fix_line(fix: &Fix) -> String {
+    let e = &fix.ellipse;
+    format!(
+        "Running fix {:.6}, {:.6} from {} readings ({}); {:.0}% ellipse {:.0} × {:.0} m at {:.0}°.\n",
+        fix.position.lat_deg,
+        fix.position.lon_deg,
+        fix.n_used,
+        crate::fix::method_name(fix.method),
+        e.confidence * 100.0,
+        e.semi_major_m,
+        e.semi_minor_m,
+        e.orientation_deg
+    )
+}
+
+/// A robust weight below this marks a reading as down-weighted in the listing.
+const DOWN_WEIGHTED: f64 = 0.999;
+
+/// The columns of the readings listing, as CSV and Markdown name them.
+const LISTING_COLUMNS: [&str; 9] = [
+    "line",
+    "time",
+    "lat",
+    "lon",
+    "bearing_deg",
+    "residual_deg",
+    "weight",
+    "status",
+    "note",
+];
+
+/// Each row of the log as the listing shows it: line, time, position, bearing as logged,
+/// residual (degrees) and weight at the running fix, and its status: down-weighted,
+/// flagged as an outlier, taken reversed, or not used (a repeat of an earlier reading).
+fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
+    rows.iter()
+        .map(|row| {
+            let fit = fix.readings.iter().find(|r| r.line == row.line);
+            let position = fit.map(|f| f.observer).or(row.position);
+            let mut flags = Vec::new();
+            match fit {
+                None => flags.push("not used (a repeat)"),
+                Some(f) => {
+                    if f.outlier {
+                        flags.push("outlier");
+                    } else if f.weight < DOWN_WEIGHTED {
+                        flags.push("down-weighted");
+                    }
+                    if f.flipped {
+                        flags.push("taken reversed");
+                    }
+                }
+            }
+            [
+                row.line.to_string(),
+                row.time.map(pim_io::text::time_text).unwrap_or_default(),
+                position.map_or(String::new(), |p| format!("{:.6}", p.lat_deg)),
+                position.map_or(String::new(), |p| format!("{:.6}", p.lon_deg)),
+                format!("{:.1}", row.bearing_deg),
+                fit.map_or(String::new(), |f| format!("{:+.1}", f.residual_deg)),
+                fit.map_or(String::new(), |f| format!("{:.2}", f.weight)),
+                flags.join(", "),
+                row.note.clone().unwrap_or_default(),
+            ]
+        })
+        .collect()
+}
+
+/// The log's readings with their residuals at the running fix, as a text table under the
+/// running fix's line.
+pub fn log_listing(fix: &Fix, rows: &[LogRow]) -> String {
+    let mut t = TextTable::new(&[
+        ("line", Align::Right),
+        ("time", Align::Left),
+        ("lat", Align::Right),
+        ("lon", Align::Right),
+        ("bearing °", Align::Right),
+        ("residual °", Align::Right),
+        ("weight", Align::Right),
+        ("", Align::Left),
+        ("note", Align::Left),
+    ]);
+    for cells in listing_cells(fix, rows) {
+        t.push(cells.to_vec());
+    }
+    format!("{}{}", running_fix_line(fix), t.render())
+}
+
+/// The listing as Markdown: the running fix's line, then a table.
+pub fn log_listing_markdown(fix: &Fix, rows: &[LogRow]) -> String {
+    let mut out = format!(
+        "{}\n| line | time | lat | lon | bearing ° | residual ° | weight | status | note |\n|---:|---|---:|---:|---:|---:|---:|---|---|\n",
+        running_fix_line(fix)
+    );
+    for c in listing_cells(fix, rows) {
+        let cells: Vec<String> = c.iter().map(|x| crate::document::md_inline(x)).collect();
+        out.push_str(&format!("| {} |\n", cells.join(" | ")));
+    }
+    out
+}
+
+/// The listing as CSV (spreadsheet-safe), one row per reading.
+pub fn log_listing_csv(
+    out: &mut dyn std::io::Write,
+    fix: &Fix,
+    rows: &[LogRow],
+) -> std::io::Result<()> {
+    crate::csv_out::write_row(out, LISTING_COLUMNS)?;
+    for c in listing_cells(fix, rows) {
+        crate::csv_out::write_row(out, c)?;
+    }
+    Ok(())
+}
+
+/// The listing as JSON: the running fix (as `pim fix --format json` gives it, without
+/// corrections) and each reading with its residual, weight and status.
+pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
+    let readings: Vec<Value> = listing_cells(fix, rows)
+        .iter()
+        .zip(rows)
+        .map(|(c, row)| {
+            let fit = fix.readings.iter().find(|r| r.line == row.line);
+            json!({
+                "line": row.line,
+                "time": (!c[1].is_empty()).then(|| c[1].clone()),
+                "lat": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
+                "lon": fit.map(|f| f.observer.lon_deg).or(row.position.map(|p| p.lon_deg)),
+                "bearing_deg": row.bearing_deg,
+                "residual_deg": fit.map(|f| f.residual_deg),
+                "weight": fit.map(|f| f.weight),
+                "status": c[7],
+                "note": row.note,
+            })
+        })
+        .collect();
+    json!({
+        "fix": serde_json::to_value(crate::fix::fix_json(fix, &[])).unwrap_or(Value::Null),
+        "readings": readings,
+    })
 }

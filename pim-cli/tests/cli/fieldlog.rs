@@ -116,6 +116,7 @@ fn a_refused_reading_leaves_the_log_untouched() {
     for bad in [
         vec!["--bearing-deg", "400"],
         vec!["--bearing-deg", "NaN"],
+        vec!["--bearing-deg", "12", "--reading-sigma-deg", "-1"],
         vec!["--bearing-deg", "12", "--sigma-deg", "-1"],
         vec!["--bearing-deg", "12", "--time", "yesterday"],
     ] {
@@ -306,8 +307,8 @@ fn next_picks_the_spot_with_the_largest_information() {
     assert!((r["distance_m"].as_f64().unwrap() - 120.0).abs() < 0.5);
 }
 
-/// `--gps-from` takes the position (and, without --time, the time) of the newest track
-/// point.
+/// `--track` without --lat/--lon takes the position (and, without --time, the time) of
+/// the newest track point.
 #[test]
 fn log_takes_the_position_from_the_newest_track_point() {
     let tmp = crate::support::scratch();
@@ -317,7 +318,7 @@ fn log_takes_the_position_from_the_newest_track_point() {
     let o = pim(&[
         "log",
         file.to_str().unwrap(),
-        "--gps-from",
+        "--track",
         gpx.to_str().unwrap(),
         "--bearing-deg",
         "23.0",
@@ -338,7 +339,7 @@ fn log_takes_the_position_from_the_newest_track_point() {
     let both = pim(&[
         "log",
         file.to_str().unwrap(),
-        "--gps-from",
+        "--track",
         gpx.to_str().unwrap(),
         "--lat",
         "45.1",
@@ -346,4 +347,302 @@ fn log_takes_the_position_from_the_newest_track_point() {
         "23.0",
     ]);
     assert_eq!(both.status.code(), Some(2));
+}
+
+/// `pim log --undo` takes back the last reading whole (printed) and leaves the log as it
+/// was before it, in LF and CRLF logs; `--list` shows each reading's residual at the
+/// running fix and marks the one the robust estimate sets aside. Positions typed in
+/// degrees and minutes or degrees, minutes and seconds are saved as decimal degrees.
+#[test]
+fn log_takes_back_and_lists_readings() {
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
+    for crlf in [false, true] {
+        let file = dir.join(if crlf { "walk-crlf.csv" } else { "walk.csv" });
+        let original = std::fs::read_to_string(field_log("walk.csv")).unwrap();
+        let original = if crlf {
+            original.replace('\n', "\r\n")
+        } else {
+            original
+        };
+        std::fs::write(&file, &original).unwrap();
+        let o = pim(&[
+            "log",
+            "--log",
+            file.to_str().unwrap(),
+            "--lat",
+            "45°06.275'N",
+            "--lon",
+            "122 24 50.5 W",
+            "--bearing-deg",
+            "150",
+            "--time",
+            "2026-11-28T10:30:00Z",
+        ]);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        assert!(stdout_of(&o).contains("Saved to"), "{}", stdout_of(&o));
+        let text = std::fs::read_to_string(&file).unwrap();
+        let end = if crlf { "\r\n" } else { "\n" };
+        assert!(
+            text.ends_with(&format!(
+                "2026-11-28T10:30:00Z,45.1045833,-122.4140278,150,true,,,{end}"
+            )),
+            "{text:?}"
+        );
+        // the positional form is the same log
+        let o = pim(&["log", file.to_str().unwrap(), "--undo"]);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        let shown = stdout_of(&o);
+        assert!(
+            shown.starts_with(&format!(
+                "Took back line 10 of {}: 2026-11-28T10:30:00Z,45.1045833,-122.4140278,150,true,,,\n",
+                file.display()
+            )),
+            "{shown}"
+        );
+        assert!(shown.contains("Running fix"), "{shown}");
+        assert_eq!(std::fs::read_to_string(&file).unwrap(), original);
+    }
+    let file = dir.join("walk.csv");
+    let o = pim(&["log", "--log", file.to_str().unwrap(), "--list"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let shown = stdout_of(&o);
+    // the demo walk: 7 of 8 readings carry the robust fix, the shed's reflection is set aside
+    assert!(
+        shown.starts_with("Running fix 45.104574, -122.414040 from 7 readings (robust"),
+        "{shown}"
+    );
+    assert!(shown.contains("residual °"), "{shown}");
+    assert_eq!(shown.matches("2026-11-28T").count(), 8, "{shown}");
+    assert!(
+        shown.contains("outlier") || shown.contains("down-weighted"),
+        "{shown}"
+    );
+    // the listing in the formats of every listing
+    let listed = |format: &str| {
+        let o = pim(&[
+            "log",
+            "--log",
+            file.to_str().unwrap(),
+            "--list",
+            "--format",
+            format,
+        ]);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        stdout_of(&o)
+    };
+    let v: serde_json::Value = serde_json::from_str(&listed("json")).unwrap();
+    assert_eq!(v["fix"]["method"], "robust");
+    assert_eq!(v["readings"].as_array().unwrap().len(), 8);
+    assert_eq!(v["readings"][4]["status"], "outlier");
+    let csv = listed("csv");
+    assert!(
+        csv.starts_with("line,time,lat,lon,bearing_deg,residual_deg,weight,status,note\n"),
+        "{csv}"
+    );
+    assert_eq!(csv.lines().count(), 9, "{csv}");
+    assert!(listed("markdown").contains("| line | time |"));
+    // the estimator options reach the running fix
+    let o = pim(&[
+        "log",
+        "--log",
+        file.to_str().unwrap(),
+        "--list",
+        "--method",
+        "ml",
+    ]);
+    assert!(
+        stdout_of(&o).contains("from 7 readings (maximum likelihood"),
+        "{}",
+        stdout_of(&o)
+    );
+    // nothing to take back under the header: refused, exit 5
+    let empty = dir.join("empty.csv");
+    std::fs::write(&empty, "time,lat,lon,bearing_deg\r\n").unwrap();
+    let o = pim(&["log", "--log", empty.to_str().unwrap(), "--undo"]);
+    assert_eq!(o.status.code(), Some(5), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).starts_with("pim: ") && stderr_of(&o).contains("no reading to take back"),
+        "{}",
+        stderr_of(&o)
+    );
+}
+
+/// `--track` with --time places the new reading on the track at that time.
+#[test]
+fn log_places_a_reading_on_the_track_at_its_time() {
+    let tmp = crate::support::scratch();
+    let file = tmp.path().join("walk.csv");
+    let gpx = field_log("walk.gpx");
+    let o = pim(&[
+        "log",
+        "--log",
+        file.to_str().unwrap(),
+        "--track",
+        gpx.to_str().unwrap(),
+        "--time",
+        "2026-11-28T09:10:10Z",
+        "--bearing-deg",
+        "10",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let log = read_field_log("walk", std::fs::File::open(&file).unwrap(), false).unwrap();
+    let p = log.rows[0].position.unwrap();
+    // the track point at 09:10:10 in field-logs/walk.gpx
+    assert!(
+        (p.lat_deg - 45.102767).abs() < 1e-6 && (p.lon_deg + 122.412622).abs() < 1e-6,
+        "{p:?}"
+    );
+    let o = pim(&[
+        "log",
+        "--log",
+        file.to_str().unwrap(),
+        "--track",
+        gpx.to_str().unwrap(),
+        "--time",
+        "2026-11-29T09:10:10Z",
+        "--bearing-deg",
+        "10",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("outside the track"),
+        "{}",
+        stderr_of(&o)
+    );
+}
+
+/// Files take positions in degrees and minutes, or degrees, minutes and seconds: a walk
+/// so written fixes where the decimal one does.
+#[test]
+fn files_take_positions_in_minutes_and_seconds() {
+    let tmp = crate::support::scratch();
+    let file = tmp.path().join("walk-dms.csv");
+    let mut text = String::new();
+    for (i, line) in std::fs::read_to_string(field_log("walk.csv"))
+        .unwrap()
+        .lines()
+        .enumerate()
+    {
+        if i == 0 {
+            text.push_str(line);
+        } else {
+            // lat,lon as 45°06.15204'N and 122 24 47.678 W
+            let cells: Vec<&str> = line.splitn(4, ',').collect();
+            let lat: f64 = cells[1].parse().unwrap();
+            let lon: f64 = -cells[2].parse::<f64>().unwrap();
+            let m = (lat - 45.0) * 60.0;
+            let (lm, ls) = (
+                ((lon - 122.0) * 60.0).floor(),
+                ((lon - 122.0) * 60.0).fract() * 60.0,
+            );
+            text.push_str(&format!(
+                "{},\"45°{m:08.5}'N\",122 {lm:02} {ls:06.3} W,{}",
+                cells[0], cells[3]
+            ));
+        }
+        text.push('\n');
+    }
+    std::fs::write(&file, &text).unwrap();
+    let json = |path: &Path| -> serde_json::Value {
+        let o = pim(&["fix", "--log", path.to_str().unwrap(), "--format", "json"]);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        serde_json::from_str(&stdout_of(&o)).unwrap()
+    };
+    let a = json(&field_log("walk.csv"));
+    let b = json(&file);
+    for k in ["lat", "lon"] {
+        let (x, y) = (a[k].as_f64().unwrap(), b[k].as_f64().unwrap());
+        assert!((x - y).abs() < 1e-6, "{k}: {x} vs {y}\n{text}");
+    }
+}
+
+/// Emitter and structure files with positions in degrees, minutes and seconds give the
+/// same levels and the same next spot as the decimal ones.
+#[test]
+fn site_files_take_positions_in_minutes_and_seconds() {
+    let tmp = crate::support::scratch();
+    // 45.103405 = 45°06'12.258"N; -122.410791 = 122°24'38.8476"W
+    let dms = |v: f64, axis: (char, char)| {
+        let h = if v < 0.0 { axis.1 } else { axis.0 };
+        let a = v.abs();
+        let d = a.floor();
+        let m = ((a - d) * 60.0).floor();
+        let s = ((a - d) * 60.0 - m) * 60.0;
+        format!("{d}°{m:02}'{s:07.4}\"{h}")
+    };
+    let convert = |name: &str| {
+        let mut out = csv::Writer::from_writer(Vec::new());
+        let mut r = csv::Reader::from_path(field_log(name)).unwrap();
+        let headers = r.headers().unwrap().clone();
+        out.write_record(&headers).unwrap();
+        for rec in r.records() {
+            let rec = rec.unwrap();
+            let cells: Vec<String> = headers
+                .iter()
+                .zip(rec.iter())
+                .map(|(h, c)| match (h, c.parse::<f64>()) {
+                    ("lat", Ok(v)) => dms(v, ('N', 'S')),
+                    ("lon", Ok(v)) => dms(v, ('E', 'W')),
+                    _ => c.to_string(),
+                })
+                .collect();
+            out.write_record(&cells).unwrap();
+        }
+        let path = tmp.path().join(name);
+        std::fs::write(&path, out.into_inner().unwrap()).unwrap();
+        path
+    };
+    let (emitters, structures) = (convert("emitters.csv"), convert("structures.csv"));
+    assert!(std::fs::read_to_string(&emitters)
+        .unwrap()
+        .contains("45°06'12.25"));
+    let run = |args: &[&str]| {
+        let o = pim(args);
+        assert!(o.status.success(), "{args:?}: {}", stderr_of(&o));
+        stdout_of(&o)
+    };
+    let walk = field_log("walk.csv");
+    let w = walk.to_str().unwrap();
+    let plain = field_log("emitters.csv");
+    let at = |f: &Path| {
+        run(&[
+            "explain",
+            "146.34",
+            "--emitters",
+            f.to_str().unwrap(),
+            "--rx-lat",
+            "45.103",
+            "--rx-lon",
+            "-122.412",
+            "--format",
+            "csv",
+            "--limit",
+            "5",
+        ])
+        .replace(f.to_str().unwrap(), "emitters.csv")
+    };
+    assert_eq!(at(&emitters), at(&plain));
+    let next = |f: &Path| {
+        run(&[
+            "next",
+            "--log",
+            w,
+            "--candidates",
+            f.to_str().unwrap(),
+            "--format",
+            "csv",
+        ])
+    };
+    let (a, b) = (next(&structures), next(&field_log("structures.csv")));
+    let first = |t: &str| {
+        t.lines()
+            .nth(1)
+            .unwrap()
+            .split(',')
+            .nth(1)
+            .unwrap()
+            .to_string()
+    };
+    assert_eq!(first(&a), first(&b), "{a}\n{b}");
 }

@@ -14,6 +14,7 @@ mod ranking;
 mod slope;
 mod sweep;
 mod ticket;
+mod vocabulary;
 mod walk_page;
 
 /// Running the binary under test, and the shared helpers of the `pim-tests` crate.

@@ -91,7 +91,7 @@ fn demo_candidates_with_protected_receivers() {
     // Without the protected receivers the plan can only grow; fifth order can only shrink it.
     let free = plan_json(&["--channels", &cands]);
     assert!(free["count"].as_u64().unwrap() as usize >= count);
-    let fifth = plan_json(&["--channels", &cands, "--protect", &prot, "--order", "5"]);
+    let fifth = plan_json(&["--channels", &cands, "--protect", &prot, "--max-order", "5"]);
     assert!(fifth["count"].as_u64().unwrap() as usize <= count);
     // The table says whether the plan is proved.
     let o = pim(&["plan", "--channels", &cands, "--protect", &prot]);
@@ -127,7 +127,7 @@ fn bad_plan_arguments_are_refused() {
         (vec!["plan", "--grid", "150.0,12.5,0"], "count 0 is outside"),
         (vec!["plan", "--grid", "299999,1000000,10"], "above 300 GHz"),
         (
-            vec!["plan", "--grid", "150.0,12.5,10", "--order", "4"],
+            vec!["plan", "--grid", "150.0,12.5,10", "--max-order", "4"],
             "order `4` is neither 3 nor 5",
         ),
         (
