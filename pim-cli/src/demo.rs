@@ -146,6 +146,8 @@ pub fn run(args: Args) -> CliResult {
         ("structures.csv", STRUCTURES_CSV),
         ("walk.csv", WALK_CSV),
         ("trace.csv", TRACE_CSV),
+        ("attenuator-readings.csv", ATTENUATOR_CSV),
+        ("power-steps.csv", POWER_STEPS_CSV),
     ]
     .iter()
     .map(|(name, text)| (*name, text.as_bytes().to_vec()))
@@ -171,12 +173,14 @@ fn commands(dir: &Path) -> Vec<String> {
     vec![
         format!("pim fix --log {}", file("walk.csv")),
         format!(
-            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --rx-lat {} --rx-lon {} --site 'Marrow Hill' --out {again}",
+            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --attenuator-readings {} --power-steps {} --rx-lat {} --rx-lon {} --site 'Marrow Hill' --out {again}",
             HEARD.mhz_text(),
             file("emitters.csv"),
             file("walk.csv"),
             file("structures.csv"),
             file("trace.csv"),
+            file("attenuator-readings.csv"),
+            file("power-steps.csv"),
             RX_SITE.lat_deg,
             RX_SITE.lon_deg,
         ),

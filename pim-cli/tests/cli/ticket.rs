@@ -148,8 +148,9 @@ fn demo_runs_from_an_empty_directory() {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     // the seven files of every ticket, the band's trace.svg, the demo's marker and its
-    // four inputs (emitters, structures, walk, trace), for the commands it prints
-    assert_eq!(names.len(), 13, "{names:?}");
+    // six inputs (emitters, structures, walk, trace, attenuator readings, power steps),
+    // for the commands it prints
+    assert_eq!(names.len(), 15, "{names:?}");
     assert!(names.contains(&".pim-demo".to_string()), "{names:?}");
 }
 
