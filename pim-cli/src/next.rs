@@ -27,7 +27,7 @@ pub struct Args {
     #[arg(long, default_value_t = 16, value_parser = whole::<u32>(3, 360))]
     pub ring_spots: u32,
     /// Leave out spots closer than this to the fix (bearings that close are unreliable).
-    #[arg(long, value_name = "M", default_value = "25", value_parser = positive("m"))]
+    #[arg(long, value_name = "M", default_value_t = pim_core::walk::MIN_SPOT_RANGE_M, value_parser = positive("m"))]
     pub min_range_m: f64,
     /// How many spots to list, the best first (the others are the alternatives).
     #[arg(long, value_name = "N", default_value_t = 5, value_parser = whole::<usize>(1, 1000))]

@@ -18,9 +18,9 @@ use std::time::Duration;
 
 use pim_core::emitter::Emitter;
 use pim_core::error::{Error, ErrorClass};
-use pim_core::geo::{distance_and_azimuth, GeoPoint};
+use pim_core::geo::GeoPoint;
 use pim_core::ticket::{nearby, Structure};
-use pim_core::walk::{rank_spots, ring, Spot};
+use pim_core::walk::{rank_spots, walk_ring, Spot, MIN_SPOT_RANGE_M};
 use pim_io::append::{read_locked, remove_last_row};
 use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_spots;
@@ -34,6 +34,7 @@ use crate::fix::{fix_from_log, fix_json, FixArgs};
 use pim_io::fieldlog::{save_reading, North, ReadingText};
 use pim_report::map::map_svg;
 use pim_report::ticket::fix_map_input;
+use pim_report::walk::{form_error_json, page_next_json};
 
 /// The page: one HTML document with its style, script and pictures inline.
 const PAGE: &str = include_str!("walk_page.html");
@@ -41,12 +42,6 @@ const PAGE: &str = include_str!("walk_page.html");
 const MAX_BODY_BYTES: usize = 8 * 1024;
 /// Threads answering requests (phones of one walk team and a laptop).
 const WORKERS: usize = 4;
-/// Spots on the ring the next spot is chosen from when no candidates are given.
-const RING_SPOTS: usize = 16;
-/// A next spot closer to the fix than this gives unreliable bearings (as `pim next`).
-const MIN_RANGE_M: f64 = 25.0;
-/// The ring is never drawn tighter than this around the fix.
-const MIN_RING_M: f64 = 50.0;
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
@@ -294,40 +289,12 @@ fn handle(walk: &Walk, mut request: Request) {
                     json!({"removed": {"line": removed.line, "row": removed.row},
                            "state": walk_state(walk)}),
                 ),
-                Err(e) => (409, json!({"error": error_json(&e)})),
+                Err(e) => (409, json!({"error": form_error_json(&e)})),
             };
             respond_json(request, status, &value)
         }
         _ => refuse(request, 404, "not here"),
     }
-}
-
-/// The inputs of the page, by the log column each fills.
-const INPUTS: [&str; 8] = [
-    "lat",
-    "lon",
-    "bearing_deg",
-    "north",
-    "sigma_deg",
-    "level_dbm",
-    "note",
-    "time",
-];
-
-fn error_json(e: &Error) -> Value {
-    let field = e
-        .place
-        .as_ref()
-        .filter(|p| p.line.is_none())
-        .map(|p| p.source.as_str())
-        .filter(|s| INPUTS.contains(s));
-    json!({
-        "field": field,
-        "message": match field {
-            Some(_) => e.message.clone(),
-            None => e.to_string(),
-        },
-    })
 }
 
 /// Saves one reading from the page's form body; the reply carries the new state or the
@@ -367,7 +334,7 @@ fn save(walk: &Walk, body: &str) -> (u16, Value) {
         ),
         Err(e) => (
             if e.class == ErrorClass::Io { 500 } else { 422 },
-            json!({"error": error_json(&e)}),
+            json!({"error": form_error_json(&e)}),
         ),
     }
 }
@@ -430,47 +397,17 @@ fn last_position(path: &Path, text: &str) -> Option<GeoPoint> {
 fn next_spot(walk: &Walk, fix: &pim_core::fix::Fix, from: Option<GeoPoint>) -> Value {
     let spots = match &walk.candidates {
         Some(c) => c.clone(),
-        None => {
-            let mut ranges: Vec<f64> = fix.readings.iter().map(|r| r.distance_m).collect();
-            ranges.sort_by(f64::total_cmp);
-            let median = ranges.get(ranges.len() / 2).copied().unwrap_or(MIN_RING_M);
-            ring(fix.position, median.max(MIN_RING_M), RING_SPOTS)
-        }
+        None => walk_ring(fix),
     };
-    let ranked = match rank_spots(fix, &spots, fix.sigma_deg_used, MIN_RANGE_M) {
-        Ok(r) => r,
-        Err(e) => return json!({"none": e.to_string()}),
-    };
-    let Some(best) = ranked.first() else {
-        return json!({"none": format!("no candidate spot is at least {MIN_RANGE_M:.0} m from the fix")});
-    };
-    let walk_to = from.map(|p| {
-        let (d, az) = distance_and_azimuth(p, best.spot.position);
-        json!({"distance_m": d, "bearing_deg": az})
-    });
-    json!({
-        "name": best.spot.name,
-        "lat": best.spot.position.lat_deg,
-        "lon": best.spot.position.lon_deg,
-        "distance_from_fix_m": best.distance_m,
-        "bearing_to_fix_deg": best.bearing_to_fix_deg,
-        "expected_semi_major_m": best.expected.semi_major_m,
-        "expected_semi_minor_m": best.expected.semi_minor_m,
-        "walk": walk_to,
-    })
+    match rank_spots(fix, &spots, fix.sigma_deg_used, MIN_SPOT_RANGE_M) {
+        Ok(ranked) => page_next_json(ranked.first(), from),
+        Err(e) => json!({"none": e.to_string()}),
+    }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn typed_positions_become_decimal_degrees() {
-        assert_eq!(decimal_degrees("51 30.000 N", Axis::Latitude), "51.5000000");
-        assert_eq!(decimal_degrees("2 36.000 W", Axis::Longitude), "-2.6000000");
-        assert_eq!(decimal_degrees("51.25", Axis::Latitude), "51.25");
-        assert_eq!(decimal_degrees("51 75 N", Axis::Latitude), "51 75 N");
-    }
 
     #[test]
     fn form_values_are_decoded() {

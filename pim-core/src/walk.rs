@@ -76,6 +76,28 @@ pub fn bearing_information(from: GeoPoint, at: GeoPoint, sigma_deg: f64) -> [[f6
     ]
 }
 
+/// A spot closer to the fix than this gives unreliable bearings (the default of the
+/// walk's suggestions).
+pub const MIN_SPOT_RANGE_M: f64 = 25.0;
+
+/// Spots on the ring [`walk_ring`] draws.
+const WALK_RING_SPOTS: usize = 16;
+
+/// The ring is never drawn tighter than this around the fix, m.
+const MIN_WALK_RING_M: f64 = 50.0;
+
+/// The spots a walk without a list of reachable spots is offered: a ring around the fix
+/// at the median range of its readings (at least 50 m).
+pub fn walk_ring(fix: &Fix) -> Vec<Spot> {
+    let mut ranges: Vec<f64> = fix.readings.iter().map(|r| r.distance_m).collect();
+    ranges.sort_by(f64::total_cmp);
+    let median = ranges
+        .get(ranges.len() / 2)
+        .copied()
+        .unwrap_or(MIN_WALK_RING_M);
+    ring(fix.position, median.max(MIN_WALK_RING_M), WALK_RING_SPOTS)
+}
+
 /// Scores every spot at least `min_range_m` from the fix, best first (ties by input
 /// order). `sigma_deg` is the σ expected of the next bearing.
 pub fn rank_spots(

@@ -580,6 +580,14 @@ mod tests {
     use super::*;
 
     #[test]
+    fn typed_positions_become_decimal_degrees() {
+        assert_eq!(decimal_degrees("51 30.000 N", Axis::Latitude), "51.5000000");
+        assert_eq!(decimal_degrees("2 36.000 W", Axis::Longitude), "-2.6000000");
+        assert_eq!(decimal_degrees("51.25", Axis::Latitude), "51.25");
+        assert_eq!(decimal_degrees("51 75 N", Axis::Latitude), "51 75 N");
+    }
+
+    #[test]
     fn times_with_and_without_offsets() {
         let (a, zoned) = parse_time("2026-11-30T14:05:00").unwrap();
         assert!(!zoned);

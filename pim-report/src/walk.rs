@@ -2,7 +2,9 @@
 //! region should shrink.
 
 use pim_core::fix::Fix;
-use pim_core::walk::ScoredSpot;
+use pim_core::geo::{distance_and_azimuth, GeoPoint};
+use pim_core::walk::{ScoredSpot, MIN_SPOT_RANGE_M};
+use pim_core::Error;
 use pim_io::fieldlog::LogRow;
 use serde_json::{json, Value};
 
@@ -102,6 +104,60 @@ pub fn spot_json(s: &ScoredSpot) -> serde_json::Value {
         "expected_semi_major_m": s.expected.semi_major_m,
         "expected_semi_minor_m": s.expected.semi_minor_m,
         "information_det": s.information_det,
+    })
+}
+
+/// The walk page's next spot: the best one with the walk to it from the newest
+/// reading's spot, or why there is none.
+pub fn page_next_json(best: Option<&ScoredSpot>, from: Option<GeoPoint>) -> Value {
+    let Some(best) = best else {
+        return json!({"none": format!(
+            "no candidate spot is at least {MIN_SPOT_RANGE_M:.0} m from the fix"
+        )});
+    };
+    let walk_to = from.map(|p| {
+        let (d, az) = distance_and_azimuth(p, best.spot.position);
+        json!({"distance_m": d, "bearing_deg": az})
+    });
+    json!({
+        "name": best.spot.name,
+        "lat": best.spot.position.lat_deg,
+        "lon": best.spot.position.lon_deg,
+        "distance_from_fix_m": best.distance_m,
+        "bearing_to_fix_deg": best.bearing_to_fix_deg,
+        "expected_semi_major_m": best.expected.semi_major_m,
+        "expected_semi_minor_m": best.expected.semi_minor_m,
+        "walk": walk_to,
+    })
+}
+
+/// The inputs of the walk page, by the log column each fills.
+const PAGE_INPUTS: [&str; 8] = [
+    "lat",
+    "lon",
+    "bearing_deg",
+    "north",
+    "sigma_deg",
+    "level_dbm",
+    "note",
+    "time",
+];
+
+/// A refused reading for the walk page: the message beside the input it concerns, when
+/// the error names one of the page's fields.
+pub fn form_error_json(e: &Error) -> Value {
+    let field = e
+        .place
+        .as_ref()
+        .filter(|p| p.line.is_none())
+        .map(|p| p.source.as_str())
+        .filter(|s| PAGE_INPUTS.contains(s));
+    json!({
+        "field": field,
+        "message": match field {
+            Some(_) => e.message.clone(),
+            None => e.to_string(),
+        },
     })
 }
 
