@@ -20,7 +20,7 @@ use pim_core::trace::{analyse, MaxHold};
 use pim_io::trace::read_trace_into;
 use pim_report::ticket::{AttenuatorTest, BandTrace, PowerStepTest, TicketInputs};
 
-use crate::ticket::{prepared_at, print_summary, write_ticket};
+use crate::ticket::{prepared_at, write_ticket};
 
 /// The invented demo site's emitters, structures and bearing walk.
 pub const EMITTERS_CSV: &str = include_str!("../../field-logs/emitters.csv");
@@ -152,8 +152,8 @@ pub fn run(args: Args) -> CliResult {
     .iter()
     .map(|(name, text)| (*name, text.as_bytes().to_vec()))
     .collect();
-    let written = write_ticket(&inputs, &args.out, &[], existing, &extra)?;
-    print_summary(&mut out, &inputs, &written)?;
+    let summary = write_ticket(&inputs, &args.out, &[], existing, &extra)?;
+    write!(out, "{summary}")?;
     writeln!(
         out,
         "\nIts inputs are in {} too. The commands it ran, to run on your own files:",

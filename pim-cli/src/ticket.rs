@@ -109,69 +109,24 @@ pub fn prepared_at() -> String {
     )
 }
 
-/// What was written, for the summary.
-pub struct Written {
-    pub paths: Vec<PathBuf>,
-    pub top_formula: Option<String>,
-    pub total: usize,
-    pub nothing_explains: Option<String>,
-}
-
 /// Makes the ticket's files and writes them into `dir`, all or nothing (pim_io::output):
 /// never over one of `inputs`, and over an existing ticket only as `existing` allows.
-/// `extra` files (a marker) are written with the ticket.
+/// `extra` files (a marker) are written with the ticket. Returns what to say after.
 pub fn write_ticket(
     t: &TicketInputs,
     dir: &Path,
     inputs: &[&Path],
     existing: Existing,
     extra: &[(&str, Vec<u8>)],
-) -> Result<Written, Error> {
-    let made = ticket_files(t)?;
-    let ticket_count = made.files.len();
-    let mut files: Vec<(&str, Vec<u8>)> = made.files;
+) -> Result<String, Error> {
+    let mut made = ticket_files(t)?;
+    let mut files: Vec<(&str, Vec<u8>)> = std::mem::take(&mut made.files);
+    let ticket_count = files.len();
     files.extend(extra.iter().cloned());
     let mut paths = write_files_atomically(dir, &files, inputs, existing)?;
     // the summary lists the ticket's own files, not a marker beside them
     paths.truncate(ticket_count);
-    Ok(Written {
-        paths,
-        top_formula: made.top_formula,
-        total: made.total,
-        nothing_explains: made.nothing_explains,
-    })
-}
-
-/// The summary printed after writing.
-pub fn print_summary(out: &mut dyn Write, t: &TicketInputs, w: &Written) -> CliResult {
-    let e = &t.fix.ellipse;
-    if let Some(statement) = &w.nothing_explains {
-        writeln!(
-            out,
-            "Written all the same, for the fix and the walk: {statement}."
-        )?;
-    }
-    writeln!(
-        out,
-        "{} products land on {} MHz; first: {}.",
-        w.total,
-        t.params.target.mhz_text(),
-        w.top_formula.as_deref().unwrap_or("none")
-    )?;
-    writeln!(
-        out,
-        "Junction at {:.6}, {:.6}; {:.0}% ellipse {:.0} × {:.0} m.",
-        t.fix.position.lat_deg,
-        t.fix.position.lon_deg,
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m
-    )?;
-    writeln!(out, "Wrote:")?;
-    for p in &w.paths {
-        writeln!(out, "  {}", p.display())?;
-    }
-    Ok(())
+    Ok(made.summary(t, &paths))
 }
 
 /// The attenuator test of a file, read as `pim slope --kind attenuator` reads it.
@@ -321,8 +276,8 @@ pub fn run(args: Args) -> CliResult {
     } else {
         Existing::Refuse
     };
-    let written = write_ticket(&inputs, &args.out, &input_paths, existing, &[])?;
+    let summary = write_ticket(&inputs, &args.out, &input_paths, existing, &[])?;
     let mut out = stdout();
-    print_summary(&mut out, &inputs, &written)?;
+    write!(out, "{summary}")?;
     finish(out)
 }

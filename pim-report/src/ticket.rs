@@ -175,6 +175,38 @@ pub struct TicketFiles {
     pub nothing_explains: Option<String>,
 }
 
+impl TicketFiles {
+    /// What is said after the ticket is written into `paths`: the nothing-explains
+    /// statement first when there is one, the first candidate, the fix and the files.
+    pub fn summary(&self, t: &TicketInputs, paths: &[std::path::PathBuf]) -> String {
+        let e = &t.fix.ellipse;
+        let mut out = String::new();
+        if let Some(statement) = &self.nothing_explains {
+            out.push_str(&format!(
+                "Written all the same, for the fix and the walk: {statement}.\n"
+            ));
+        }
+        out.push_str(&format!(
+            "{} products land on {} MHz; first: {}.\n",
+            self.total,
+            t.params.target.mhz_text(),
+            self.top_formula.as_deref().unwrap_or("none")
+        ));
+        out.push_str(&format!(
+            "Junction at {:.6}, {:.6}; {:.0}% ellipse {:.0} × {:.0} m.\nWrote:\n",
+            t.fix.position.lat_deg,
+            t.fix.position.lon_deg,
+            e.confidence * 100.0,
+            e.semi_major_m,
+            e.semi_minor_m
+        ));
+        for p in paths {
+            out.push_str(&format!("  {}\n", p.display()));
+        }
+        out
+    }
+}
+
 fn who(e: &Emitter) -> String {
     match (&e.kind, &e.owner) {
         (Some(k), Some(o)) => format!("{} ({k}, {o})", e.id),
