@@ -6,58 +6,13 @@ use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
 use pim_core::emitter::{Carrier, Emitter};
-use pim_core::freq::{parse_khz, parse_mhz, Hz, MAX_FREQUENCY};
-use pim_core::plan::{closest_products, grid, plan_until, PlanSpec};
+use pim_core::freq::Hz;
+use pim_core::plan::{closest_products, plan_until, PlanSpec};
+use pim_io::channels::Grid;
 use pim_io::{read_channels, ListedChannel};
 
 use crate::common::{finish, khz_arg, open, stdout, AnswerFormat, CliResult};
 use pim_report::plan::{label, write_json, write_table, PlanReport};
-
-/// The most channels a grid may have.
-pub const MAX_GRID_COUNT: usize = 100_000;
-
-/// A uniform grid of candidate channels.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub struct GridArg {
-    pub start: Hz,
-    pub step: Hz,
-    pub count: usize,
-}
-
-/// clap parser for `START_MHZ,STEP_KHZ,COUNT`.
-pub fn grid_arg(text: &str) -> Result<GridArg, String> {
-    let parts: Vec<&str> = text.split(',').map(str::trim).collect();
-    let [start, step, count] = parts[..] else {
-        return Err(format!(
-            "`{text}` is not START_MHZ,STEP_KHZ,COUNT (such as 150.0,12.5,35)"
-        ));
-    };
-    let start_hz = parse_mhz(start).map_err(|e| format!("start: {e}"))?;
-    if start_hz.0 <= 0 {
-        return Err(format!("start {start} MHz must be above zero"));
-    }
-    let step_hz = parse_khz(step).map_err(|e| format!("step: {e}"))?;
-    if step_hz.0 <= 0 {
-        return Err(format!("step {step} kHz must be above zero"));
-    }
-    let count: usize = count
-        .parse()
-        .map_err(|_| format!("count `{count}` is not a whole number"))?;
-    if !(1..=MAX_GRID_COUNT).contains(&count) {
-        return Err(format!("count {count} is outside 1…{MAX_GRID_COUNT}"));
-    }
-    let top = (count as i64 - 1)
-        .checked_mul(step_hz.0)
-        .and_then(|span| span.checked_add(start_hz.0));
-    if top.is_none_or(|top| top > MAX_FREQUENCY.0) {
-        return Err("the grid reaches above 300 GHz".to_string());
-    }
-    Ok(GridArg {
-        start: start_hz,
-        step: step_hz,
-        count,
-    })
-}
 
 /// clap parser for the order: 3 or 5.
 fn order_arg(text: &str) -> Result<u32, String> {
@@ -87,8 +42,8 @@ pub struct Args {
     #[arg(long, value_name = "FILE")]
     pub channels: Option<PathBuf>,
     /// Candidate channels on a uniform grid: first frequency in MHz, step in kHz, count.
-    #[arg(long, value_name = "START_MHZ,STEP_KHZ,COUNT", value_parser = grid_arg, allow_hyphen_values = true)]
-    pub grid: Option<GridArg>,
+    #[arg(long, value_name = "START_MHZ,STEP_KHZ,COUNT", value_parser = Grid::parse, allow_hyphen_values = true)]
+    pub grid: Option<Grid>,
     /// Highest order of the products that must not land: 3 or 5.
     #[arg(long, value_name = "3|5", default_value = "3", value_parser = order_arg)]
     pub max_order: u32,
@@ -120,25 +75,7 @@ pub fn run(args: Args) -> CliResult {
             let d = format!("{} candidate channels from {}", list.len(), path.display());
             (list, d)
         }
-        (None, Some(g)) => {
-            let list: Vec<ListedChannel> = grid(g.start, g.step, g.count)
-                .into_iter()
-                .map(|c| ListedChannel {
-                    id: None,
-                    freq: c.freq,
-                    bandwidth: c.bandwidth,
-                    note: None,
-                    line: 0,
-                })
-                .collect();
-            let d = format!(
-                "{} candidate channels on a grid from {} MHz in {} kHz steps",
-                g.count,
-                g.start.mhz_text(),
-                g.step.khz_text()
-            );
-            (list, d)
-        }
+        (None, Some(g)) => (g.channels(), g.describe()),
         (None, None) => {
             return Err(pim_core::Error::argument(
                 "--channels",

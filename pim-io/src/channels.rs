@@ -35,6 +35,88 @@ impl ListedChannel {
     }
 }
 
+/// The most channels a grid may have.
+pub const MAX_GRID_COUNT: usize = 100_000;
+
+/// A uniform grid of candidate channels: `START,STEP,COUNT`, the start in MHz and the
+/// step in kHz unless a unit is written (`150.0,12.5,35`, `150MHz,12.5kHz,35`).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Grid {
+    pub start: Hz,
+    pub step: Hz,
+    pub count: usize,
+}
+
+impl Grid {
+    /// Reads `START,STEP,COUNT`; a grid reaching above 300 GHz or longer than
+    /// [`MAX_GRID_COUNT`] is refused.
+    ///
+    /// ```
+    /// use pim_io::channels::Grid;
+    /// let g = Grid::parse("150MHz, 12.5, 35").unwrap();
+    /// assert_eq!((g.start.0, g.step.0, g.count), (150_000_000, 12_500, 35));
+    /// assert!(Grid::parse("150,0,3").is_err());
+    /// ```
+    pub fn parse(text: &str) -> std::result::Result<Grid, String> {
+        use crate::text::parse_frequency_in;
+        let parts: Vec<&str> = text.split(',').map(str::trim).collect();
+        let [start, step, count] = parts[..] else {
+            return Err(format!(
+                "`{text}` is not START_MHZ,STEP_KHZ,COUNT (such as 150.0,12.5,35)"
+            ));
+        };
+        let start_hz = parse_frequency_in(start, 6).map_err(|e| format!("start: {e}"))?;
+        if start_hz.0 <= 0 {
+            return Err(format!("start {start} must be above zero"));
+        }
+        let step_hz = parse_frequency_in(step, 3).map_err(|e| format!("step: {e}"))?;
+        if step_hz.0 <= 0 {
+            return Err(format!("step {step} must be above zero"));
+        }
+        let count: usize = count
+            .parse()
+            .map_err(|_| format!("count `{count}` is not a whole number"))?;
+        if !(1..=MAX_GRID_COUNT).contains(&count) {
+            return Err(format!("count {count} is outside 1…{MAX_GRID_COUNT}"));
+        }
+        let top = (count as i64 - 1)
+            .checked_mul(step_hz.0)
+            .and_then(|span| span.checked_add(start_hz.0));
+        if top.is_none_or(|top| top > pim_core::freq::MAX_FREQUENCY.0) {
+            return Err("the grid reaches above 300 GHz".to_string());
+        }
+        Ok(Grid {
+            start: start_hz,
+            step: step_hz,
+            count,
+        })
+    }
+
+    /// The grid's channels, as a list from a file would give them (no width).
+    pub fn channels(&self) -> Vec<ListedChannel> {
+        pim_core::plan::grid(self.start, self.step, self.count)
+            .into_iter()
+            .map(|c| ListedChannel {
+                id: None,
+                freq: c.freq,
+                bandwidth: c.bandwidth,
+                note: None,
+                line: 0,
+            })
+            .collect()
+    }
+
+    /// The grid in words.
+    pub fn describe(&self) -> String {
+        format!(
+            "{} candidate channels on a grid from {} MHz in {} kHz steps",
+            self.count,
+            self.start.mhz_text(),
+            self.step.khz_text()
+        )
+    }
+}
+
 /// A frequency list read from a file.
 #[derive(Clone, Debug, Default)]
 pub struct ChannelFile {

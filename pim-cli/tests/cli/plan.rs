@@ -117,7 +117,7 @@ fn bad_plan_arguments_are_refused() {
         ),
         (
             vec!["plan", "--grid", "150.0,0,10"],
-            "step 0 kHz must be above zero",
+            "step 0 must be above zero",
         ),
         (vec!["plan", "--grid", "-150,12.5,10"], "must be above zero"),
         (
