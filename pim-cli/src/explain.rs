@@ -13,7 +13,8 @@ use serde_json::json;
 
 use crate::args::{coefficient_arg, CalibrationArgs, HeardArgs, ListingArgs, SearchArgs};
 use crate::common::{
-    coefficient_indices, finish, load_emitters, load_logbook, stdout, CliResult, ListFormat,
+    budgeted, coefficient_indices, finish, listing_hint, load_emitters, load_logbook, stdout,
+    CliResult, ListFormat,
 };
 
 #[derive(clap::Args, Debug)]
@@ -40,7 +41,7 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let site = Site::new(load_emitters(&args.input.emitters)?);
+    let site = budgeted(Site::new(load_emitters(&args.input.emitters)?))?;
     let emitters = site.emitters();
     let source = args.input.emitters.display().to_string();
     let coefficients = coefficient_indices(&args.coefficients, &site, &source)?;
@@ -62,7 +63,7 @@ pub fn run(args: Args) -> CliResult {
         logbook,
         limit: shown,
     };
-    let answer = site.explain(&query);
+    let answer = site.explain(&query).map_err(listing_hint)?;
     let (ranking, found, logbook) = (&answer.ranking, answer.found, query.logbook.as_ref());
     let listing = Listing {
         emitters,

@@ -31,7 +31,7 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let site = Site::new(load_emitters(&args.emitters)?);
+    let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters)?))?;
     let emitters = site.emitters();
     let rx_source = args.receivers.display().to_string();
     let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
@@ -71,22 +71,25 @@ pub fn run(args: Args) -> CliResult {
         let rx = &receivers[i];
         let params = s.params(rx.freq, rx.bandwidth.unwrap_or(s.rx_bw));
         let junction = rx.position.or(s.rx_site());
-        let answer = site.explain(&Query {
-            params,
-            junction,
-            model,
-            limit: shown,
-            ..Query::new(rx.freq)
-        });
+        let answer = site
+            .explain(&Query {
+                params,
+                junction,
+                model,
+                limit: shown,
+                ..Query::new(rx.freq)
+            })
+            .map_err(crate::common::listing_hint);
         (params, junction, answer)
     };
     let write_one = |i: usize,
                      (params, junction, answer): (
         pim_core::intermod::SearchParams,
         Option<pim_core::geo::GeoPoint>,
-        pim_core::Explanation,
+        pim_core::Result<pim_core::Explanation>,
     )|
-     -> std::io::Result<()> {
+     -> CliResult {
+        let answer = answer?;
         let rx = &receivers[i];
         let ranking = &answer.ranking;
         let listing = Listing {

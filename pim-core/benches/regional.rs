@@ -99,7 +99,7 @@ fn explain_top(c: &mut Criterion) {
     query.params.max_emitters = 3;
     query.junction = Some(towers[0]);
     query.limit = Some(20);
-    let answer = site.explain(&query);
+    let answer = site.explain(&query).expect("within the memory budget");
     eprintln!(
         "20,000 emitters: {} candidates kept, {} products examined",
         answer.ranking.candidates.len(),

@@ -404,6 +404,18 @@ fn candidate(product: Product, mechanism: Mechanism, formed_in: Option<usize>) -
 }
 
 /// The mechanisms that can make `product`, each as a candidate (module docs).
+/// How many candidates [`mechanisms_of`] makes of `product`, without making them.
+pub(crate) fn mechanism_count(product: &Product, receiver_modelled: bool) -> usize {
+    let third = product.order() == 3;
+    1 + usize::from(product.is_harmonic())
+        + usize::from(
+            third
+                && product.emitter_count() == 2
+                && product.terms().any(|t| t.coefficient.abs() == 2),
+        )
+        + usize::from(receiver_modelled && third)
+}
+
 fn mechanisms_of(product: &Product, receiver_modelled: bool) -> Vec<Candidate> {
     let mut out = vec![candidate(*product, Mechanism::Junction, None)];
     let terms: Vec<Term> = product.terms().collect();
@@ -573,7 +585,7 @@ pub fn rank_candidates(
 ) -> Ranking {
     let ranker = Ranker::new(emitters, params, inputs);
     let mut tally = Tally::default();
-    let mut candidates = Vec::with_capacity(products.len());
+    let mut candidates = Vec::with_capacity(ranker.candidate_count(&products));
     for product in &products {
         let from = candidates.len();
         ranker.evaluate(product, &mut candidates);
@@ -667,6 +679,14 @@ impl<'a> Ranker<'a> {
 
     pub(crate) fn receiver_modelled(&self) -> bool {
         self.receiver_modelled
+    }
+
+    /// How many candidates ranking `products` makes.
+    pub(crate) fn candidate_count(&self, products: &[Product]) -> usize {
+        products
+            .iter()
+            .map(|p| mechanism_count(p, self.receiver_modelled))
+            .sum()
     }
 
     /// Appends the candidates of `product`, each levelled where it can be.
@@ -801,6 +821,28 @@ mod tests {
     use crate::freq::Hz;
     use crate::onair::{Interval, Observation, Schedule};
     use time::macros::datetime;
+
+    #[test]
+    fn mechanism_count_matches_the_candidates_made() {
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        for p in [
+            Product::new(&[t(0, 3)], Hz(1)),
+            Product::new(&[t(0, 2), t(1, -1)], Hz(1)),
+            Product::new(&[t(0, 1), t(1, 2)], Hz(1)),
+            Product::new(&[t(0, 1), t(1, 1), t(2, -1)], Hz(1)),
+            Product::new(&[t(0, 3), t(1, -2)], Hz(1)),
+        ] {
+            for modelled in [false, true] {
+                assert_eq!(
+                    mechanism_count(&p, modelled),
+                    mechanisms_of(&p, modelled).len()
+                );
+            }
+        }
+    }
 
     #[test]
     fn evidence_comes_before_order_and_level() {

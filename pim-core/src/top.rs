@@ -25,18 +25,24 @@
 //!
 //! With on-air evidence (which ranks before the level) nothing is skipped; the list is
 //! still bounded.
+//!
+//! **Budget.** The list holds at most 2K + 64 candidates (and the transmitters' own
+//! products 4K + 256): where K is so large that these would pass the site's memory
+//! budget, the search stops at the budget and is refused.
 
 use std::cmp::Ordering;
 
 use crate::emitter::{Carrier, Emitter};
+use crate::error::Result;
+use crate::intermod::search_products_while;
 use crate::intermod::SearchParams;
-use crate::intermod::{co_channel, coefficient_sets, search_products, Product, Term, MAX_ORDER};
+use crate::intermod::{co_channel, coefficient_sets, Product, Term, MAX_ORDER};
 use crate::level::Mechanism;
 use crate::level::{
     form_weight_db, free_space_loss_db, slant_distance_m, wavelength_m, DIPOLE_GAIN_DBI,
 };
 use crate::rank::{Candidate, Placement, RankInputs, Ranker, Tally};
-use crate::site::{Explanation, Query, Site};
+use crate::site::{Explanation, Query, Site, BYTES_PER_CANDIDATE};
 
 /// The emitters searched first: the set doubles from here until the bound settles.
 const FIRST_SET: usize = 16;
@@ -83,7 +89,7 @@ impl<'r, 'a> Best<'r, 'a> {
             }
         }
         self.held.push(c);
-        if self.held.len() >= 2 * self.k + 64 {
+        if self.held.len() >= self.k.saturating_mul(2).saturating_add(64) {
             self.compact();
         }
     }
@@ -200,16 +206,16 @@ fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f
 }
 
 /// Searches the emitters `ids` (indices into `carriers`) at the orders given and hands
-/// each product, in the site's index space, to `visit`.
+/// each product, in the site's index space, to `visit`, until it returns false.
 fn search_among(
     carriers: &[Carrier],
     ids: &[usize],
     query: &Query,
     orders: std::ops::RangeInclusive<u32>,
-    visit: &mut dyn FnMut(Product),
+    visit: &mut dyn FnMut(Product) -> bool,
 ) {
     let sub: Vec<Carrier> = ids.iter().map(|&i| carriers[i]).collect();
-    search_products(&sub, &query.params, orders, &mut |p| {
+    search_products_while(&sub, &query.params, orders, &mut |p| {
         let mut terms = [Term {
             emitter: 0,
             coefficient: 0,
@@ -227,7 +233,7 @@ fn search_among(
 }
 
 /// The first `k` candidates of [`Site::explain`] (module docs).
-pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
+pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explanation> {
     let emitters = site.emitters();
     let carriers = site.carriers();
     let n = emitters.len();
@@ -244,6 +250,11 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
             .iter()
             .all(|&(e, kk)| p.coefficient_of(e).unsigned_abs() == kk)
     };
+    // The candidates the lists may hold within the memory budget.
+    let cap = usize::try_from(site.memory_budget() / BYTES_PER_CANDIDATE).unwrap_or(usize::MAX);
+    let over = std::cell::Cell::new(false);
+    // products the transmitters' own search reached (for the refusal)
+    let mut reached = 0usize;
     let mut found = 0usize;
     let mut kept = 0usize;
     let mut complete = true;
@@ -263,9 +274,10 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
                 ..query.clone()
             };
             search_among(carriers, &all, &q, orders, &mut |p| {
+                reached += 1;
                 if narrow(&p) {
                     ranker.evaluate_only(&p, &mut transmitters, &own);
-                    if transmitters.len() >= 4 * k + 256 {
+                    if transmitters.len() >= k.saturating_mul(4).saturating_add(256) {
                         trimmed = true;
                         let mut b = Best::new(&ranker, k);
                         for c in transmitters.drain(..) {
@@ -274,7 +286,11 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
                         b.compact();
                         transmitters = b.held;
                     }
+                    if transmitters.len() > cap {
+                        over.set(true);
+                    }
                 }
+                !over.get()
             });
         };
         pass(
@@ -284,7 +300,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
             },
             2..=MAX_ORDER,
         );
-        if query.params.max_emitters >= 2 {
+        if query.params.max_emitters >= 2 && !over.get() {
             pass(
                 SearchParams {
                     max_emitters: 2,
@@ -292,6 +308,9 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
                 },
                 3..=3,
             );
+        }
+        if over.get() {
+            return Err(site.over_budget(reached));
         }
     }
     let mut scratch = Vec::with_capacity(4);
@@ -301,7 +320,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
     } else {
         &rest
     };
-    let mut offer = |best: &mut Best, found: &mut usize, kept: &mut usize, p: Product| {
+    let mut offer = |best: &mut Best, found: &mut usize, kept: &mut usize, p: Product| -> bool {
         *found += 1;
         if narrow(&p) {
             *kept += 1;
@@ -310,7 +329,11 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
             for c in scratch.drain(..) {
                 best.offer(c);
             }
+            if best.held.len() + transmitters.len() > cap {
+                over.set(true);
+            }
         }
+        !over.get()
     };
     let fresh = |transmitters: &[Candidate]| {
         let mut b = Best::new(&ranker, k);
@@ -339,6 +362,9 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
                 search_among(carriers, &order[..m], query, 2..=MAX_ORDER, &mut |p| {
                     offer(&mut best, &mut found, &mut kept, p)
                 });
+                if over.get() {
+                    break;
+                }
                 let kth = best.kth();
                 let kth_level = kth
                     .filter(|c| !c.implausible && !c.away_from_fix)
@@ -356,7 +382,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
                 m = (2 * m).min(levelled);
             }
         }
-        if !settled && levelled < n {
+        if !settled && levelled < n && !over.get() {
             // Products with an emitter that has no level: unlevelled, by order then offset.
             let mut unlevelled = vec![false; n];
             for (i, b) in bounds.iter().enumerate() {
@@ -368,8 +394,13 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
                 search_among(carriers, &all, query, o..=o, &mut |p| {
                     if p.terms().any(|t| unlevelled[t.emitter]) {
                         offer(&mut best, &mut found, &mut kept, p)
+                    } else {
+                        true
                     }
                 });
+                if over.get() {
+                    break;
+                }
                 if best
                     .kth()
                     .is_some_and(|c| c.breakdown.is_some() || c.product.order() <= o)
@@ -380,17 +411,20 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
             }
         }
     }
+    if over.get() {
+        return Err(site.over_budget(found.max(reached)));
+    }
     best.compact();
     complete &= !trimmed;
     let Best { held, tally, .. } = best;
-    let mut products: Vec<Product> = Vec::with_capacity(held.len());
-    for c in &held {
-        if !products.contains(&c.product) {
-            products.push(c.product);
-        }
-    }
+    let mut seen = std::collections::HashSet::with_capacity(held.len());
+    let products: Vec<Product> = held
+        .iter()
+        .map(|c| c.product)
+        .filter(|p| seen.insert(*p))
+        .collect();
     let ranking = ranker.finish(held, tally);
-    Explanation {
+    Ok(Explanation {
         params: query.params,
         model: query.model,
         heard: query.heard.clone(),
@@ -401,5 +435,5 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Explanation {
         limit: Some(k),
         complete,
         ranking,
-    }
+    })
 }

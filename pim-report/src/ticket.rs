@@ -747,7 +747,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         junction: t.rx_site,
         model: t.model,
         ..Query::new(t.params.target)
-    });
+    })?;
     let at_rx = t.rx_site.map(|_| answer.ranking.clone());
     let at_fix = answer.ranked_at(
         &t.site,
@@ -757,7 +757,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             fix_radius_m: Some(t.fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)),
         },
         &heard_levels(t),
-    );
+    )?;
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
     let (doc, map, spectrum, band_svg) = build(t, &at_fix, at_rx.as_ref(), &near);
     let title = format!(
