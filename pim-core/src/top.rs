@@ -18,6 +18,13 @@
 //! bound of the first emitter left out, no product involving that emitter or any later
 //! one can enter the first K, and the search stops.
 //!
+//! **Strong emitters apart.** A bound that takes every partner at the strongest drive
+//! found is loose when one emitter (a broadcaster near the junction) is far stronger than
+//! the rest. So the [`STRONG`] emitters with the strongest drive at the junction have
+//! every product they take part in searched whole, apart (each partner found by its
+//! frequency window, each product once), and the bounds of the others take their partners
+//! among the others only.
+//!
 //! **Without levels.** Emitters without ERP or location make only unlevelled candidates,
 //! which follow every levelled one by order, then offset: their products are searched
 //! one order at a time, and the search stops at the order at which the K-th candidate
@@ -34,6 +41,7 @@ use std::cmp::Ordering;
 
 use crate::emitter::{Carrier, Emitter};
 use crate::error::Result;
+use crate::freq::Hz;
 use crate::intermod::search_products_while;
 use crate::intermod::SearchParams;
 use crate::intermod::{co_channel, coefficient_sets, Product, Term, MAX_ORDER};
@@ -103,6 +111,34 @@ impl<'r, 'a> Best<'r, 'a> {
         }
     }
 
+    /// Holds `c` without counting it (it was counted where it was found).
+    fn place(&mut self, c: Candidate) {
+        if self.k == 0 {
+            return;
+        }
+        self.held.push(c);
+        if self.held.len() >= self.k.saturating_mul(2).saturating_add(64) {
+            self.compact();
+        }
+    }
+
+    /// Adds the counts of `other`, whose candidates were offered apart.
+    fn absorb(&mut self, other: &Tally) {
+        let t = &mut self.tally;
+        t.total += other.total;
+        t.unlevelled += other.unlevelled;
+        t.calibrated |= other.calibrated;
+        t.credible |= other.credible;
+        t.levelled |= other.levelled;
+        if let Some(c) = other.first_levelled {
+            if t.first_levelled
+                .is_none_or(|f| self.ranker.cmp(&c, &f) == Ordering::Less)
+            {
+                t.first_levelled = Some(c);
+            }
+        }
+    }
+
     /// The K-th candidate, once K are held.
     fn kth(&mut self) -> Option<Candidate> {
         self.compact();
@@ -113,7 +149,12 @@ impl<'r, 'a> Best<'r, 'a> {
 /// An upper bound on the in-channel level (dBm) of any junction or receiver candidate
 /// whose product involves each emitter (module docs); −∞ where none can be levelled, +∞
 /// where no bound holds. A transmitter's own products are listed apart, whole.
-fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f64> {
+fn emitter_bounds(
+    ranker: &Ranker,
+    query: &Query,
+    emitters: &[Emitter],
+    strong: &[bool],
+) -> Vec<f64> {
     let n = emitters.len();
     let r = &ranker.shell;
     let (Some(rx), Some(_)) = (r.receiver, r.junction) else {
@@ -159,7 +200,16 @@ fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f
         .collect();
     let erp_at = |i: usize| emitters[i].position.and(emitters[i].erp_dbm);
     let fold_max = |it: &mut dyn Iterator<Item = f64>| it.fold(f64::NEG_INFINITY, f64::max);
-    let p_max = fold_max(&mut r.incidence.iter().flatten().map(|i| i.incident_dbm));
+    // the strong emitters' products are searched whole, apart: the partners of every
+    // other product are among the rest
+    let p_max = fold_max(
+        &mut r
+            .incidence
+            .iter()
+            .zip(strong)
+            .filter(|(_, s)| !**s)
+            .filter_map(|(i, _)| i.map(|i| i.incident_dbm)),
+    );
     let a = m.drive_exponent;
     // Junction: the path from the junction to a receiver at it is the λ/2π floor, 6.02 dB.
     let junction_path = 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi;
@@ -180,7 +230,13 @@ fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f
             Some(erp + DIPOLE_GAIN_DBI - path_floor(s, emitters[i].freq.0 as f64))
         })
         .collect();
-    let rx_max = fold_max(&mut rx_input.iter().flatten().copied());
+    let rx_max = fold_max(
+        &mut rx_input
+            .iter()
+            .zip(strong)
+            .filter(|(_, s)| !**s)
+            .filter_map(|(i, _)| *i),
+    );
     let receiver = match m.rx_iip3_dbm {
         Some(iip3) if ranker.receiver_modelled() && max_order >= 3 => {
             Some(2.0 * rx_max - 2.0 * iip3 + form_max[3])
@@ -203,6 +259,104 @@ fn emitter_bounds(ranker: &Ranker, query: &Query, emitters: &[Emitter]) -> Vec<f
             }
         })
         .collect()
+}
+
+/// How many of the strongest emitters at the junction have their products searched whole,
+/// apart from the pruned search: a strong broadcaster near the junction would otherwise
+/// lift every other emitter's bound.
+const STRONG: usize = 8;
+
+/// Hands every product of the channel that involves emitter `x` and otherwise only
+/// emitters not `excluded` (and not `x`) to `visit`, each once, until it returns false.
+fn search_with(
+    carriers: &[Carrier],
+    sorted: &[usize],
+    x: usize,
+    excluded: &[bool],
+    params: &SearchParams,
+    visit: &mut dyn FnMut(Product) -> bool,
+) -> bool {
+    let max_order = params.max_order.min(MAX_ORDER) as i64;
+    let max_emitters = params.max_emitters.clamp(1, 3);
+    let (fx, bx) = (carriers[x].freq.0, carriers[x].bandwidth.0);
+    let f0 = params.target.0;
+    let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
+    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
+    let term = |emitter: usize, coefficient: i64| Term {
+        emitter,
+        coefficient: coefficient as i32,
+    };
+    for k in 2..=max_order {
+        let f = k * fx;
+        if params.hits(Hz(f), Hz(k * bx)) && !visit(Product::new(&[term(x, k)], Hz(f))) {
+            return false;
+        }
+    }
+    if max_emitters < 2 {
+        return true;
+    }
+    let freq: Vec<i64> = sorted.iter().map(|&i| carriers[i].freq.0).collect();
+    // positions whose 2·k·f lies in [t − w, t + w], from position `from` on
+    let window = |from: usize, t: i64, w: i64, k: i64| -> std::ops::Range<usize> {
+        let (m, t) = if k > 0 { (k, t) } else { (-k, -t) };
+        let lo = from + freq[from..].partition_point(|&f| 2 * m * f < t - w);
+        let hi = from + freq[from..].partition_point(|&f| 2 * m * f <= t + w);
+        lo..hi.max(lo)
+    };
+    let signed = |total: i64| -> Vec<i64> { (1..=total).flat_map(|k| [k, -k]).collect() };
+    for kx in signed(max_order - 1) {
+        for ky in signed(max_order - kx.abs()) {
+            let t = 2 * (f0 - kx * fx);
+            let w = kx.abs() * bx + ky.abs() * max_bw + base;
+            for pos in window(0, t, w, ky) {
+                let y = sorted[pos];
+                if y == x || excluded[y] {
+                    continue;
+                }
+                let f = kx * fx + ky * carriers[y].freq.0;
+                let bw = kx.abs() * bx + ky.abs() * carriers[y].bandwidth.0;
+                if params.hits(Hz(f), Hz(bw))
+                    && !visit(Product::new(&[term(x, kx), term(y, ky)], Hz(f)))
+                {
+                    return false;
+                }
+            }
+        }
+    }
+    if max_emitters < 3 || max_order < 3 {
+        return true;
+    }
+    for kx in signed(max_order - 2) {
+        for ky in signed(max_order - kx.abs() - 1) {
+            for kz in signed(max_order - kx.abs() - ky.abs()) {
+                for (py, &y) in sorted.iter().enumerate() {
+                    if y == x || excluded[y] {
+                        continue;
+                    }
+                    let (fy, by) = (carriers[y].freq.0, carriers[y].bandwidth.0);
+                    let t = 2 * (f0 - kx * fx - ky * fy);
+                    let w = kx.abs() * bx + ky.abs() * by + kz.abs() * max_bw + base;
+                    for pos in window(py + 1, t, w, kz) {
+                        let z = sorted[pos];
+                        if z == x || excluded[z] {
+                            continue;
+                        }
+                        let f = kx * fx + ky * fy + kz * carriers[z].freq.0;
+                        let bw = kx.abs() * bx + ky.abs() * by + kz.abs() * carriers[z].bandwidth.0;
+                        if params.hits(Hz(f), Hz(bw))
+                            && !visit(Product::new(
+                                &[term(x, kx), term(y, ky), term(z, kz)],
+                                Hz(f),
+                            ))
+                        {
+                            return false;
+                        }
+                    }
+                }
+            }
+        }
+    }
+    true
 }
 
 /// Searches the emitters `ids` (indices into `carriers`) at the orders given and hands
@@ -335,10 +489,13 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         }
         !over.get()
     };
-    let fresh = |transmitters: &[Candidate]| {
+    let fresh = |transmitters: &[Candidate], strong: &[Candidate]| {
         let mut b = Best::new(&ranker, k);
         for c in transmitters {
             b.offer(*c);
+        }
+        for c in strong {
+            b.place(*c);
         }
         b
     };
@@ -348,16 +505,52 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             offer(&mut best, &mut found, &mut kept, p)
         });
     } else {
-        let bounds = emitter_bounds(&ranker, query, emitters);
-        let mut order: Vec<usize> = (0..n).filter(|&i| bounds[i] > f64::NEG_INFINITY).collect();
+        // The strongest emitters at the junction: their products are searched whole.
+        let mut strong = vec![false; n];
+        let mut by_drive: Vec<(f64, usize)> = ranker
+            .shell
+            .incidence
+            .iter()
+            .enumerate()
+            .filter_map(|(i, inc)| inc.map(|inc| (inc.incident_dbm, i)))
+            .collect();
+        if by_drive.len() > 2 * STRONG {
+            by_drive.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+            for &(_, i) in &by_drive[..STRONG] {
+                strong[i] = true;
+            }
+        }
+        let strong_count = strong.iter().filter(|s| **s).count();
+        let mut strong_best = Best::new(&ranker, k);
+        let (mut strong_found, mut strong_kept) = (0usize, 0usize);
+        if strong_count > 0 {
+            let mut sorted: Vec<usize> = (0..n).collect();
+            sorted.sort_by_key(|&i| (carriers[i].freq, i));
+            let mut excluded = vec![false; n];
+            for x in (0..n).filter(|&x| strong[x]) {
+                search_with(carriers, &sorted, x, &excluded, &query.params, &mut |p| {
+                    offer(&mut strong_best, &mut strong_found, &mut strong_kept, p)
+                });
+                if over.get() {
+                    return Err(site.over_budget(strong_found));
+                }
+                excluded[x] = true;
+            }
+            strong_best.compact();
+        }
+        let strong_held = strong_best.held.clone();
+        let bounds = emitter_bounds(&ranker, query, emitters, &strong);
+        let mut order: Vec<usize> = (0..n)
+            .filter(|&i| bounds[i] > f64::NEG_INFINITY && !strong[i])
+            .collect();
         order.sort_by(|&a, &b| bounds[b].total_cmp(&bounds[a]).then(a.cmp(&b)));
         let levelled = order.len();
-        best = fresh(&transmitters);
+        best = fresh(&transmitters, &strong_held);
         let mut m = levelled.min(FIRST_SET);
         let mut settled = false;
         if levelled > 0 {
             loop {
-                best = fresh(&transmitters);
+                best = fresh(&transmitters, &strong_held);
                 (found, kept) = (0, 0);
                 search_among(carriers, &order[..m], query, 2..=MAX_ORDER, &mut |p| {
                     offer(&mut best, &mut found, &mut kept, p)
@@ -372,7 +565,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 if let Some(t) = kth_level {
                     if m == levelled || bounds[order[m]] < t {
                         settled = true;
-                        complete = m == n;
+                        complete = m + strong_count == n;
                         break;
                     }
                 }
@@ -392,7 +585,9 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             let max_order = query.params.max_order.min(MAX_ORDER);
             for o in 2..=max_order {
                 search_among(carriers, &all, query, o..=o, &mut |p| {
-                    if p.terms().any(|t| unlevelled[t.emitter]) {
+                    if p.terms().any(|t| unlevelled[t.emitter])
+                        && !p.terms().any(|t| strong[t.emitter])
+                    {
                         offer(&mut best, &mut found, &mut kept, p)
                     } else {
                         true
@@ -410,6 +605,9 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 }
             }
         }
+        best.absorb(&strong_best.tally);
+        found += strong_found;
+        kept += strong_kept;
     }
     if over.get() {
         return Err(site.over_budget(found.max(reached)));
