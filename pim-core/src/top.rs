@@ -23,7 +23,10 @@
 //! the rest. So the [`STRONG`] emitters with the strongest drive at the junction have
 //! every product they take part in searched whole, apart (each partner found by its
 //! frequency window, each product once), and the bounds of the others take their partners
-//! among the others only.
+//! among the others only. Their products are looked at first among the [`FIRST_LOOK`]
+//! emitters of strongest drive; the K-th level found there is a floor below which the
+//! whole search of their products skips a partner (its drive bounds the level as above),
+//! and an emitter without a level.
 //!
 //! **Without levels.** Emitters without ERP or location make only unlevelled candidates,
 //! which follow every levelled one by order, then offset: their products are searched
@@ -45,10 +48,10 @@ use crate::freq::Hz;
 use crate::intermod::search_products_while;
 use crate::intermod::SearchParams;
 use crate::intermod::{co_channel, coefficient_sets, Product, Term, MAX_ORDER};
-use crate::level::Mechanism;
 use crate::level::{
     form_weight_db, free_space_loss_db, slant_distance_m, wavelength_m, DIPOLE_GAIN_DBI,
 };
+use crate::level::{LevelModel, Mechanism};
 use crate::rank::{Candidate, Placement, RankInputs, Ranker, Tally};
 use crate::site::{Explanation, Query, Site, BYTES_PER_CANDIDATE};
 
@@ -266,16 +269,64 @@ fn emitter_bounds(
 /// lift every other emitter's bound.
 const STRONG: usize = 8;
 
+/// The emitters of the strongest drive among which the strong emitters' products are
+/// looked at first, for a K-th level to search the rest against.
+const FIRST_LOOK: usize = 64;
+
+/// What the strong emitters' search may skip: products whose junction level cannot reach
+/// `level` (dBm) at the emitters' drives (the receiver's own products not modelled), and
+/// products of an emitter without a level (they follow every levelled candidate).
+struct Floor<'a> {
+    level: f64,
+    drive: &'a [Option<f64>],
+    model: &'a LevelModel,
+    /// The path from the junction to the receiver at it, dB.
+    path_db: f64,
+}
+
+impl Floor<'_> {
+    /// The junction level's bound less the drive terms: Σ α·|kᵢ|·Pᵢ is added by the caller.
+    fn constant(&self, ks: &[i64]) -> f64 {
+        let m = self.model;
+        let abs: Vec<u32> = ks.iter().map(|k| k.unsigned_abs() as u32).collect();
+        let n: u32 = abs.iter().sum();
+        m.im3_dbm + form_weight_db(&abs)
+            - m.order_step_db * (n as f64 - 3.0)
+            - if n.is_multiple_of(2) {
+                m.even_order_penalty_db
+            } else {
+                0.0
+            }
+            - m.drive_exponent * n as f64 * m.reference_tone_dbm
+            - self.path_db
+            + BOUND_MARGIN_DB
+    }
+}
+
 /// Hands every product of the channel that involves emitter `x` and otherwise only
-/// emitters not `excluded` (and not `x`) to `visit`, each once, until it returns false.
+/// emitters not `excluded` (and not `x`) to `visit`, each once, until it returns false;
+/// with a `floor`, skips what it allows and notes in `skipped` that it did.
+#[allow(clippy::too_many_arguments)]
 fn search_with(
     carriers: &[Carrier],
     sorted: &[usize],
     x: usize,
     excluded: &[bool],
     params: &SearchParams,
+    floor: Option<&Floor>,
+    skipped: &mut bool,
     visit: &mut dyn FnMut(Product) -> bool,
 ) -> bool {
+    let a = floor.map_or(0.0, |f| f.model.drive_exponent);
+    let drive_of = |i: usize| floor.and_then(|f| f.drive[i]);
+    let px = drive_of(x).unwrap_or(f64::NEG_INFINITY);
+    // the strongest drive any partner can have
+    let partner_max = floor.map_or(f64::INFINITY, |f| {
+        (0..carriers.len())
+            .filter(|&i| i != x && !excluded[i])
+            .filter_map(|i| f.drive[i])
+            .fold(f64::NEG_INFINITY, f64::max)
+    });
     let max_order = params.max_order.min(MAX_ORDER) as i64;
     let max_emitters = params.max_emitters.clamp(1, 3);
     let (fx, bx) = (carriers[x].freq.0, carriers[x].bandwidth.0);
@@ -308,10 +359,20 @@ fn search_with(
         for ky in signed(max_order - kx.abs()) {
             let t = 2 * (f0 - kx * fx);
             let w = kx.abs() * bx + ky.abs() * max_bw + base;
+            let c = floor.map(|f| (f.level, f.constant(&[kx, ky]) + a * kx.abs() as f64 * px));
             for pos in window(0, t, w, ky) {
                 let y = sorted[pos];
                 if y == x || excluded[y] {
                     continue;
+                }
+                if let Some((level, c)) = c {
+                    match drive_of(y) {
+                        Some(py) if c + a * ky.abs() as f64 * py >= level => {}
+                        _ => {
+                            *skipped = true;
+                            continue;
+                        }
+                    }
                 }
                 let f = kx * fx + ky * carriers[y].freq.0;
                 let bw = kx.abs() * bx + ky.abs() * carriers[y].bandwidth.0;
@@ -329,10 +390,32 @@ fn search_with(
     for kx in signed(max_order - 2) {
         for ky in signed(max_order - kx.abs() - 1) {
             for kz in signed(max_order - kx.abs() - ky.abs()) {
+                let c = floor.map(|f| {
+                    (
+                        f.level,
+                        f.constant(&[kx, ky, kz]) + a * kx.abs() as f64 * px,
+                    )
+                });
                 for (py, &y) in sorted.iter().enumerate() {
                     if y == x || excluded[y] {
                         continue;
                     }
+                    // the level with the third partner at the strongest drive left
+                    let with_y = match (c, drive_of(y)) {
+                        (None, _) => None,
+                        (Some((level, c)), Some(dy)) => {
+                            let c = c + a * ky.abs() as f64 * dy;
+                            if c + a * kz.abs() as f64 * partner_max < level {
+                                *skipped = true;
+                                continue;
+                            }
+                            Some((level, c))
+                        }
+                        (Some(_), None) => {
+                            *skipped = true;
+                            continue;
+                        }
+                    };
                     let (fy, by) = (carriers[y].freq.0, carriers[y].bandwidth.0);
                     let t = 2 * (f0 - kx * fx - ky * fy);
                     let w = kx.abs() * bx + ky.abs() * by + kz.abs() * max_bw + base;
@@ -340,6 +423,15 @@ fn search_with(
                         let z = sorted[pos];
                         if z == x || excluded[z] {
                             continue;
+                        }
+                        if let Some((level, c)) = with_y {
+                            match drive_of(z) {
+                                Some(dz) if c + a * kz.abs() as f64 * dz >= level => {}
+                                _ => {
+                                    *skipped = true;
+                                    continue;
+                                }
+                            }
                         }
                         let f = kx * fx + ky * fy + kz * carriers[z].freq.0;
                         let bw = kx.abs() * bx + ky.abs() * by + kz.abs() * carriers[z].bandwidth.0;
@@ -523,14 +615,70 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         let strong_count = strong.iter().filter(|s| **s).count();
         let mut strong_best = Best::new(&ranker, k);
         let (mut strong_found, mut strong_kept) = (0usize, 0usize);
+        let mut strong_skipped = false;
         if strong_count > 0 {
             let mut sorted: Vec<usize> = (0..n).collect();
             sorted.sort_by_key(|&i| (carriers[i].freq, i));
+            // A first look among the strongest partners only gives a K-th level that the
+            // whole search of the strong emitters' products need not look below.
+            let drive: Vec<Option<f64>> = ranker
+                .shell
+                .incidence
+                .iter()
+                .map(|i| i.map(|i| i.incident_dbm))
+                .collect();
+            let m = &ranker.shell.model;
+            let prunable = !ranker.receiver_modelled()
+                && m.drive_exponent >= 0.0
+                && m.drive_exponent.is_finite();
+            let mut floor = None;
+            if prunable {
+                let mut outside = vec![true; n];
+                for &(_, i) in by_drive.iter().take(FIRST_LOOK) {
+                    outside[i] = false;
+                }
+                let mut look = Best::new(&ranker, k);
+                let (mut f, mut kk, mut skipped) = (0usize, 0usize, false);
+                let mut excluded = outside.clone();
+                for x in (0..n).filter(|&x| strong[x]) {
+                    search_with(
+                        carriers,
+                        &sorted,
+                        x,
+                        &excluded,
+                        &query.params,
+                        None,
+                        &mut skipped,
+                        &mut |p| offer(&mut look, &mut f, &mut kk, p),
+                    );
+                    if over.get() {
+                        return Err(site.over_budget(f));
+                    }
+                    excluded[x] = true;
+                }
+                floor = look
+                    .kth()
+                    .filter(|c| !c.implausible && !c.away_from_fix)
+                    .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
+                    .map(|level| Floor {
+                        level,
+                        drive: &drive,
+                        model: m,
+                        path_db: 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi,
+                    });
+            }
             let mut excluded = vec![false; n];
             for x in (0..n).filter(|&x| strong[x]) {
-                search_with(carriers, &sorted, x, &excluded, &query.params, &mut |p| {
-                    offer(&mut strong_best, &mut strong_found, &mut strong_kept, p)
-                });
+                search_with(
+                    carriers,
+                    &sorted,
+                    x,
+                    &excluded,
+                    &query.params,
+                    floor.as_ref(),
+                    &mut strong_skipped,
+                    &mut |p| offer(&mut strong_best, &mut strong_found, &mut strong_kept, p),
+                );
                 if over.get() {
                     return Err(site.over_budget(strong_found));
                 }
@@ -606,6 +754,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             }
         }
         best.absorb(&strong_best.tally);
+        complete &= !strong_skipped;
         found += strong_found;
         kept += strong_kept;
     }
