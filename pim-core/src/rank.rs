@@ -630,6 +630,10 @@ pub(crate) struct Ranker<'a> {
     params: &'a SearchParams,
     inputs: &'a RankInputs<'a>,
     carriers: Vec<crate::emitter::Carrier>,
+    /// Ground distance from each emitter, and from the junction, to the receiver, metres:
+    /// worked out once, when first needed.
+    to_receiver_m: Vec<std::cell::OnceCell<f64>>,
+    junction_to_receiver_m: std::cell::OnceCell<f64>,
     receiver_modelled: bool,
     /// The ranking's frame: everything but the candidates and the counts.
     pub(crate) shell: Ranking,
@@ -660,6 +664,10 @@ impl<'a> Ranker<'a> {
             params,
             inputs,
             carriers: carriers(emitters),
+            to_receiver_m: (0..emitters.len())
+                .map(|_| std::cell::OnceCell::new())
+                .collect(),
+            junction_to_receiver_m: std::cell::OnceCell::new(),
             receiver_modelled,
             shell: Ranking {
                 candidates: Vec::new(),
@@ -720,11 +728,26 @@ impl<'a> Ranker<'a> {
             match (junction, receiver) {
                 (Some(j), Some(rx)) => match source_level(&c, emitters, ranking, rx) {
                     Ok((level, junction_terms)) => {
-                        let path = match source_of(&c, emitters, j) {
-                            Some((from, h)) => {
-                                model.path_to_receiver_db(product.freq.0 as f64, from, h, rx)
+                        let f = product.freq.0 as f64;
+                        let path = match (source_of(&c, emitters, j), c.mechanism) {
+                            (None, _) => 0.0,
+                            (Some((from, h)), Mechanism::Junction) => {
+                                let ground = *self
+                                    .junction_to_receiver_m
+                                    .get_or_init(|| crate::geo::distance_m(from, rx));
+                                model.path_over_ground_db(f, ground, h)
                             }
-                            None => 0.0,
+                            (Some((from, h)), _) => {
+                                let i = c
+                                    .formed_in
+                                    .or_else(|| c.product.terms().next().map(|t| t.emitter));
+                                let ground = match i {
+                                    Some(i) => *self.to_receiver_m[i]
+                                        .get_or_init(|| crate::geo::distance_m(from, rx)),
+                                    None => crate::geo::distance_m(from, rx),
+                                };
+                                model.path_over_ground_db(f, ground, h)
+                            }
                         };
                         let fraction = channel_fraction(
                             product.offset(params.target),
