@@ -245,3 +245,28 @@ pub fn note_unused(source: &str, columns: &[String]) {
         names.join(", ")
     );
 }
+
+/// `site` with the memory budget of its listings from `PIM_MEMORY_BUDGET_MB` (whole
+/// megabytes) when that is set, else the engine's default.
+pub fn budgeted(site: Site) -> Result<Site, Error> {
+    let Some(text) = std::env::var_os("PIM_MEMORY_BUDGET_MB") else {
+        return Ok(site);
+    };
+    match text.to_str().and_then(|t| t.trim().parse::<u64>().ok()) {
+        Some(mb) if mb > 0 => Ok(site.with_memory_budget(mb.saturating_mul(1_000_000))),
+        _ => Err(Error::argument(
+            "PIM_MEMORY_BUDGET_MB",
+            "must be a whole number of megabytes above 0",
+        )),
+    }
+}
+
+/// A listing refused for its memory, with the options that shorten or narrow it.
+pub fn listing_hint(mut e: Error) -> Error {
+    if e.class == pim_core::ErrorClass::Refused {
+        e.message.push_str(
+            " (--limit N keeps only the first N; --max-order, --max-emitters and --rx-bw-khz narrow the search)",
+        );
+    }
+    e
+}

@@ -11,7 +11,7 @@ use pim_report::candidates::{
 use serde_json::json;
 
 use crate::args::{CalibrationArgs, EvidenceArgs, HeardArgs, ListingArgs, SearchArgs};
-use crate::common::{finish, load_emitters, stdout, CliResult, ListFormat};
+use crate::common::{budgeted, finish, listing_hint, load_emitters, stdout, CliResult, ListFormat};
 
 #[derive(clap::Args, Debug)]
 #[command(allow_negative_numbers = true)]
@@ -29,7 +29,7 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let site = Site::new(load_emitters(&args.input.emitters)?);
+    let site = budgeted(Site::new(load_emitters(&args.input.emitters)?))?;
     let emitters = site.emitters();
     let source = args.input.emitters.display().to_string();
     let coefficients = args.evidence.coefficient_indices(&site, &source)?;
@@ -48,7 +48,7 @@ pub fn run(args: Args) -> CliResult {
         logbook,
         limit: shown,
     };
-    let answer = site.explain(&query);
+    let answer = site.explain(&query).map_err(listing_hint)?;
     let (ranking, found, logbook) = (&answer.ranking, answer.found, query.logbook.as_ref());
     let listing = Listing {
         emitters,

@@ -12,10 +12,7 @@ use crate::args::{ListingArgs, SearchArgs};
 use crate::common::load_emitters;
 use crate::common::{finish, open, stdout, CliResult, ListFormat};
 use pim_core::{Query, Site};
-use pim_report::candidates::{channel_summary, co_channel_text};
-use pim_report::candidates::{
-    co_channel_json, markdown_text, outlook_json, table_text, write_csv, write_json_array, Listing,
-};
+use pim_report::study::StudiedReceiver;
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
@@ -43,7 +40,7 @@ pub enum StudyOrder {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let site = Site::new(load_emitters(&args.emitters)?);
+    let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters)?))?;
     let emitters = site.emitters();
     let rx_source = args.receivers.display().to_string();
     let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
@@ -83,97 +80,43 @@ pub fn run(args: Args) -> CliResult {
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     // Each receiver on its own thread, written in file order as soon as it and every
     // earlier one are done.
-    let work = |i: usize| {
+    let work = |i: usize| -> CliResult<StudiedReceiver> {
         let rx = &receivers[i];
         let params = s.params(rx.freq, rx.bandwidth.unwrap_or(s.rx_bw));
         let junction = rx.position.or(s.rx_site());
-        let answer = site.explain(&Query {
+        let answer = site
+            .explain(&Query {
+                params,
+                junction,
+                model,
+                limit: shown,
+                ..Query::new(rx.freq)
+            })
+            .map_err(crate::common::listing_hint)?;
+        Ok(StudiedReceiver {
+            receiver: rx,
             params,
             junction,
-            model,
-            limit: shown,
-            ..Query::new(rx.freq)
-        });
-        (params, junction, answer)
+            answer,
+        })
     };
-    let mut write_one = |pos: usize,
-                         i: usize,
-                         (params, junction, answer): (
-        pim_core::intermod::SearchParams,
-        Option<pim_core::geo::GeoPoint>,
-        pim_core::Explanation,
-    )|
-     -> std::io::Result<()> {
-        let rx = &receivers[i];
-        let ranking = &answer.ranking;
-        let listing = Listing {
-            emitters,
-            params: &params,
-            ranking,
-            co_channel: &answer.co_channel,
-        };
-        let total = ranking.total;
-        let at_least = if answer.complete { "" } else { "at least " };
+    let emitters_source = args.emitters.display().to_string();
+    let mut write_one = |pos: usize, r: StudiedReceiver| -> CliResult {
         match format {
-            ListFormat::Table => {
-                writeln!(
-                    out,
-                    "━━ {} ━━ {at_least}{} product{}; {}.",
-                    rx.id,
-                    total,
-                    if total == 1 { "" } else { "s" },
-                    ranking.basis()
-                )?;
-                write!(
-                    out,
-                    "{}",
-                    channel_summary(
-                        &params,
-                        emitters.len(),
-                        &args.emitters.display().to_string(),
-                        junction
-                    )
-                )?;
-                write!(out, "{}", co_channel_text(&listing))?;
-                write!(out, "{}", table_text(&listing, shown.unwrap_or(usize::MAX)))?;
-                writeln!(out)?;
-            }
-            ListFormat::Markdown => {
-                writeln!(out, "## {} ({} MHz)\n", rx.id, rx.freq.mhz_text())?;
-                write!(
-                    out,
-                    "{}",
-                    markdown_text(&listing, shown.unwrap_or(usize::MAX))
-                )?;
-                writeln!(out)?;
-            }
-            ListFormat::Csv => write_csv(
-                &mut out,
-                &listing,
-                shown,
-                Some(("receiver", &rx.id)),
-                pos == 0,
+            ListFormat::Table => write!(
+                out,
+                "{}",
+                r.table(emitters, &emitters_source, shown.unwrap_or(usize::MAX))
             )?,
+            ListFormat::Markdown => {
+                write!(out, "{}", r.markdown(emitters, shown.unwrap_or(usize::MAX)))?
+            }
+            ListFormat::Csv => r.write_csv(&mut out, emitters, shown, pos == 0)?,
             ListFormat::Json => {
                 if pos > 0 {
                     writeln!(out, ",")?;
                 }
-                write!(
-                    out,
-                    "  {{\"id\": {}, \"freq_mhz\": {}, \"bw_khz\": {}, \"co_channel\": {}, \"ranking_basis\": {}, \"outlook\": {}, \"next_steps\": {}, \"total\": {}, \"counted_all\": {}, \"shown\": {}, \"candidates\": ",
-                    json!(rx.id),
-                    json!(rx.freq.mhz()),
-                    json!(params.rx_bandwidth.khz()),
-                    co_channel_json(&listing),
-                    json!(ranking.basis()),
-                    outlook_json(ranking)["outlook"],
-                    outlook_json(ranking)["next_steps"],
-                    total,
-                    answer.complete,
-                    ranking.candidates.len()
-                )?;
-                write_json_array(&mut out, &listing, shown)?;
-                write!(out, "}}")?;
+                r.write_json(&mut out, emitters, shown)?;
             }
         }
         out.flush()?;
@@ -187,20 +130,23 @@ pub fn run(args: Args) -> CliResult {
     match args.order {
         StudyOrder::File => pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
             tick();
-            write_one(i, i, r)
+            write_one(i, r?)
         })?,
         StudyOrder::Worst => {
             let mut done = Vec::with_capacity(receivers.len());
-            pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
+            pim_core::study::in_order(receivers.len(), threads, work, |_, r| {
                 tick();
-                done.push((i, r));
-                Ok::<(), std::io::Error>(())
+                done.push(r?);
+                Ok::<(), crate::common::CliError>(())
             })?;
-            done.sort_by(|(_, a), (_, b)| {
-                pim_core::study::worst_first((&a.2.ranking, a.0.target), (&b.2.ranking, b.0.target))
+            done.sort_by(|a, b| {
+                pim_core::study::worst_first(
+                    (&a.answer.ranking, a.params.target),
+                    (&b.answer.ranking, b.params.target),
+                )
             });
-            for (pos, (i, r)) in done.into_iter().enumerate() {
-                write_one(pos, i, r)?;
+            for (pos, r) in done.into_iter().enumerate() {
+                write_one(pos, r)?;
             }
         }
     }

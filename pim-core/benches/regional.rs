@@ -3,7 +3,10 @@
 //! paging, trunking, FM broadcast).
 //! - explain, 20,000 emitters, order ≤ 5, three emitters, junction at a tower, top 20:
 //!   at most 1 s;
-//! - a fix of 100,000 readings: ml at most 0.5 s, robust at most 1.5 s.
+//! - study, top 10 at each receiver, receivers on 2 threads written in order: the target
+//!   is 100,000 emitters × 5,000 receivers in 60 s; benched at 20,000 emitters × 8
+//!   receivers for the rate per receiver (no spatial index yet: each receiver weighs
+//!   every emitter).
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use pim_core::emitter::Emitter;
@@ -99,7 +102,7 @@ fn explain_top(c: &mut Criterion) {
     query.params.max_emitters = 3;
     query.junction = Some(towers[0]);
     query.limit = Some(20);
-    let answer = site.explain(&query);
+    let answer = site.explain(&query).expect("within the memory budget");
     eprintln!(
         "20,000 emitters: {} candidates kept, {} products examined",
         answer.ranking.candidates.len(),
@@ -113,5 +116,43 @@ fn explain_top(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, explain_top);
+fn study(c: &mut Criterion) {
+    let (emitters, towers) = regional(20_000, 7);
+    let site = Site::new(emitters);
+    // receivers at towers, on channels of the land mobile, UHF and trunking bands
+    let receivers: Vec<(GeoPoint, Hz)> = (0..8)
+        .map(|i| {
+            let f = [155_175_000, 460_012_500, 152_512_500, 853_000_000][i % 4];
+            (towers[(i * 97) % towers.len()], Hz(f))
+        })
+        .collect();
+    let run = || {
+        let mut kept = 0;
+        let r: Result<(), pim_core::Error> = pim_core::study::in_order(
+            receivers.len(),
+            2,
+            |i| {
+                let (at, f) = receivers[i];
+                let mut q = Query::new(f);
+                q.params.max_order = 5;
+                q.junction = Some(at);
+                q.limit = Some(10);
+                site.explain(&q)
+            },
+            |_, answer| {
+                kept += answer?.ranking.candidates.len();
+                Ok(())
+            },
+        );
+        r.map(|_| kept)
+    };
+    let mut g = c.benchmark_group("regional study");
+    g.sample_size(10);
+    g.bench_function("20000 emitters, 8 receivers, top 10, 2 threads", |b| {
+        b.iter(&run)
+    });
+    g.finish();
+}
+
+criterion_group!(benches, explain_top, study);
 criterion_main!(benches);

@@ -12,7 +12,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     ]);
     let mut query = Query::new(Hz(146_340_000));
     query.junction = Some(rx);
-    let answer = site.explain(&query);
+    let answer = site.explain(&query)?;
     let first = site.formula(&answer.ranking.candidates[0].product);
     println!("at the receiver, first {first}");
     let junction = dest(rx, 45.0, 60.0);
@@ -29,7 +29,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     println!("fix {lat:.6}, {lon:.6}, CEP {r:.1} m");
     let mut placement = Placement::at(Some(fix.position));
     placement.receiver = Some(rx);
-    let at_fix = answer.ranked_at(&site, placement, &[]);
+    let at_fix = answer.ranked_at(&site, placement, &[])?;
     let first = site.formula(&at_fix.candidates[0].product);
     println!("at the fix, first {first}");
     Ok(())

@@ -426,7 +426,17 @@ impl LevelModel {
         from_height_m: Option<f64>,
         to: GeoPoint,
     ) -> PathToReceiver {
-        let ground = distance_m(from, to);
+        self.path_over_ground(freq_hz, distance_m(from, to), from_height_m)
+    }
+
+    /// [`LevelModel::path_to_receiver`] from a source `ground` metres from the receiver
+    /// along the ground.
+    pub fn path_over_ground(
+        &self,
+        freq_hz: f64,
+        ground: f64,
+        from_height_m: Option<f64>,
+    ) -> PathToReceiver {
         let slant = slant_distance_m(
             ground,
             from_height_m.unwrap_or(self.junction_height_m),

@@ -30,7 +30,7 @@
 //! ]);
 //! let mut query = Query::new(Hz(146_340_000));
 //! query.params.max_order = 3;
-//! let answer = site.explain(&query);
+//! let answer = site.explain(&query).unwrap();
 //! assert_eq!(answer.products.len(), 1);
 //! assert_eq!(answer.products[0].order(), 3);
 //! ```

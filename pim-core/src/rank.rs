@@ -409,6 +409,18 @@ fn candidate(product: Product, mechanism: Mechanism, formed_in: Option<usize>) -
 }
 
 /// The mechanisms that can make `product`, each as a candidate (module docs).
+/// How many candidates [`mechanisms_of`] makes of `product`, without making them.
+pub(crate) fn mechanism_count(product: &Product, receiver_modelled: bool) -> usize {
+    let third = product.order() == 3;
+    1 + usize::from(product.is_harmonic())
+        + usize::from(
+            third
+                && product.emitter_count() == 2
+                && product.terms().any(|t| t.coefficient.abs() == 2),
+        )
+        + usize::from(receiver_modelled && third)
+}
+
 fn mechanisms_of(product: &Product, receiver_modelled: bool) -> Vec<Candidate> {
     let mut out = vec![candidate(*product, Mechanism::Junction, None)];
     let terms: Vec<Term> = product.terms().collect();
@@ -578,7 +590,7 @@ pub fn rank_candidates(
 ) -> Ranking {
     let ranker = Ranker::new(emitters, params, inputs);
     let mut tally = Tally::default();
-    let mut candidates = Vec::with_capacity(products.len());
+    let mut candidates = Vec::with_capacity(ranker.candidate_count(&products));
     for product in &products {
         let from = candidates.len();
         ranker.evaluate(product, &mut candidates);
@@ -623,6 +635,10 @@ pub(crate) struct Ranker<'a> {
     params: &'a SearchParams,
     inputs: &'a RankInputs<'a>,
     carriers: Vec<crate::emitter::Carrier>,
+    /// Ground distance from each emitter, and from the junction, to the receiver, metres:
+    /// worked out once, when first needed.
+    to_receiver_m: Vec<std::cell::OnceCell<f64>>,
+    junction_to_receiver_m: std::cell::OnceCell<f64>,
     receiver_modelled: bool,
     /// The ranking's frame: everything but the candidates and the counts.
     pub(crate) shell: Ranking,
@@ -653,6 +669,10 @@ impl<'a> Ranker<'a> {
             params,
             inputs,
             carriers: carriers(emitters),
+            to_receiver_m: (0..emitters.len())
+                .map(|_| std::cell::OnceCell::new())
+                .collect(),
+            junction_to_receiver_m: std::cell::OnceCell::new(),
             receiver_modelled,
             shell: Ranking {
                 candidates: Vec::new(),
@@ -672,6 +692,14 @@ impl<'a> Ranker<'a> {
 
     pub(crate) fn receiver_modelled(&self) -> bool {
         self.receiver_modelled
+    }
+
+    /// How many candidates ranking `products` makes.
+    pub(crate) fn candidate_count(&self, products: &[Product]) -> usize {
+        products
+            .iter()
+            .map(|p| mechanism_count(p, self.receiver_modelled))
+            .sum()
     }
 
     /// Appends the candidates of `product`, each levelled where it can be.
@@ -705,9 +733,27 @@ impl<'a> Ranker<'a> {
             match (junction, receiver) {
                 (Some(j), Some(rx)) => match source_level(&c, emitters, ranking, rx) {
                     Ok((level, junction_terms)) => {
-                        let route = source_of(&c, emitters, j).map(|(from, h)| {
-                            model.path_to_receiver(product.freq.0 as f64, from, h, rx)
-                        });
+                        let f = product.freq.0 as f64;
+                        let route = match (source_of(&c, emitters, j), c.mechanism) {
+                            (None, _) => None,
+                            (Some((from, h)), Mechanism::Junction) => {
+                                let ground = *self
+                                    .junction_to_receiver_m
+                                    .get_or_init(|| crate::geo::distance_m(from, rx));
+                                Some(model.path_over_ground(f, ground, h))
+                            }
+                            (Some((from, h)), _) => {
+                                let i = c
+                                    .formed_in
+                                    .or_else(|| c.product.terms().next().map(|t| t.emitter));
+                                let ground = match i {
+                                    Some(i) => *self.to_receiver_m[i]
+                                        .get_or_init(|| crate::geo::distance_m(from, rx)),
+                                    None => crate::geo::distance_m(from, rx),
+                                };
+                                Some(model.path_over_ground(f, ground, h))
+                            }
+                        };
                         let path = route.map_or(0.0, |r| r.loss_db);
                         let fraction = channel_fraction(
                             product.offset(params.target),
@@ -806,6 +852,28 @@ mod tests {
     use crate::freq::Hz;
     use crate::onair::{Interval, Observation, Schedule};
     use time::macros::datetime;
+
+    #[test]
+    fn mechanism_count_matches_the_candidates_made() {
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        for p in [
+            Product::new(&[t(0, 3)], Hz(1)),
+            Product::new(&[t(0, 2), t(1, -1)], Hz(1)),
+            Product::new(&[t(0, 1), t(1, 2)], Hz(1)),
+            Product::new(&[t(0, 1), t(1, 1), t(2, -1)], Hz(1)),
+            Product::new(&[t(0, 3), t(1, -2)], Hz(1)),
+        ] {
+            for modelled in [false, true] {
+                assert_eq!(
+                    mechanism_count(&p, modelled),
+                    mechanisms_of(&p, modelled).len()
+                );
+            }
+        }
+    }
 
     #[test]
     fn evidence_comes_before_order_and_level() {

@@ -12,7 +12,7 @@
 //!     Emitter::new("SKP-152", Hz(152_840_000), Hz(16_000)),
 //!     Emitter::new("FIRE-DSP", Hz(159_340_000), Hz(11_250)),
 //! ]);
-//! let answer = site.explain(&Query::new(Hz(146_340_000)));
+//! let answer = site.explain(&Query::new(Hz(146_340_000))).unwrap();
 //! // one product, which a corroded joint or either transmitter's output stage may make
 //! assert_eq!(answer.products.len(), 1);
 //! let first = &answer.ranking.candidates[0];
@@ -21,25 +21,88 @@
 //! ```
 
 use crate::emitter::{carriers, Carrier, Emitter};
+use crate::error::{Error, Result};
 use crate::freq::Hz;
 use crate::geo::GeoPoint;
-use crate::intermod::{find_products, retain_coefficients, Hits, Product, SearchParams};
+use crate::intermod::{
+    co_channel, retain_coefficients, search_products_while, Product, SearchParams, MAX_ORDER,
+};
 use crate::level::LevelModel;
 use crate::onair::Logbook;
-use crate::rank::{formula, rank_candidates, HeardLevel, Placement, RankInputs, Ranking};
+use crate::rank::{
+    formula, rank_candidates, Candidate, HeardLevel, Placement, RankInputs, Ranker, Ranking,
+};
 
-/// The emitters of a site and their carriers, indexed alike.
-#[derive(Clone, Debug, Default)]
+/// The memory a listing may hold unless [`Site::with_memory_budget`] says otherwise:
+/// 4 GiB (about nine million products of one candidate each in a full listing).
+pub const DEFAULT_MEMORY_BUDGET_BYTES: u64 = 4 << 30;
+
+/// What a listing holds per product: the product in the listing with its room to grow,
+/// and in the ranking's copy.
+pub const BYTES_PER_PRODUCT: u64 = 3 * std::mem::size_of::<Product>() as u64;
+
+/// What a listing holds per candidate: the candidate and its share of the sort's scratch
+/// space (half a candidate).
+pub const BYTES_PER_CANDIDATE: u64 = 3 * std::mem::size_of::<Candidate>() as u64 / 2;
+
+/// The emitters of a site and their carriers, indexed alike, and the memory a listing of
+/// its products may hold.
+#[derive(Clone, Debug)]
 pub struct Site {
     emitters: Vec<Emitter>,
     carriers: Vec<Carrier>,
+    memory_budget: u64,
+}
+
+impl Default for Site {
+    fn default() -> Self {
+        Site::new(Vec::new())
+    }
 }
 
 impl Site {
-    /// A site of `emitters`; their order is the index space of every result.
+    /// A site of `emitters`; their order is the index space of every result. Listings
+    /// hold at most [`DEFAULT_MEMORY_BUDGET_BYTES`].
     pub fn new(emitters: Vec<Emitter>) -> Site {
         let carriers = carriers(&emitters);
-        Site { emitters, carriers }
+        Site {
+            emitters,
+            carriers,
+            memory_budget: DEFAULT_MEMORY_BUDGET_BYTES,
+        }
+    }
+
+    /// The same site whose listings hold at most `bytes` (products and candidates as
+    /// [`BYTES_PER_PRODUCT`] and [`BYTES_PER_CANDIDATE`] count them): a listing that
+    /// would pass it is refused before it is made.
+    pub fn with_memory_budget(mut self, bytes: u64) -> Site {
+        self.memory_budget = bytes;
+        self
+    }
+
+    /// The memory a listing may hold, bytes.
+    pub fn memory_budget(&self) -> u64 {
+        self.memory_budget
+    }
+
+    /// The refusal of a listing that has reached `products` products and would pass the
+    /// memory budget.
+    pub(crate) fn over_budget(&self, products: usize) -> Error {
+        Error::refused(format!(
+            "the search reached {products} products landing in the channel, more than a \
+             listing can hold within its memory budget of {} MB; a shorter listing (only the \
+             first candidates, kept in bounded memory) or a narrower search (a lower order, \
+             fewer emitters per product, a narrower channel) is needed",
+            self.memory_budget / 1_000_000
+        ))
+    }
+
+    /// Whether `products` products with `candidates` candidates fit the memory budget.
+    pub(crate) fn fits(&self, products: usize, candidates: usize) -> bool {
+        (products as u64)
+            .saturating_mul(BYTES_PER_PRODUCT)
+            .saturating_add((candidates as u64).saturating_mul(BYTES_PER_CANDIDATE))
+            <= self.memory_budget
     }
 
     /// The emitters, in the order given.
@@ -64,46 +127,60 @@ impl Site {
 
     /// Searches, narrows and ranks (module docs). With [`Query::limit`] only the first K
     /// candidates are kept, in memory bounded by K and the emitters.
-    pub fn explain(&self, query: &Query) -> Explanation {
+    ///
+    /// Refused (class `Refused`) when the listing would pass the site's memory budget
+    /// ([`Site::with_memory_budget`]): the search stops as soon as the products it holds
+    /// would, before anything larger is allocated.
+    pub fn explain(&self, query: &Query) -> Result<Explanation> {
         // The pruned search ranks with the junction at the receiver and no calibration;
         // with a receiver elsewhere or heard levels the whole listing is ranked.
         if let (Some(k), true, None) = (query.limit, query.heard.is_empty(), query.receiver) {
             return crate::top::explain_top(self, query, k);
         }
-        let Hits {
-            mut products,
-            co_channel,
-        } = find_products(&self.carriers, &query.params);
+        // Every product makes at least one candidate: the search stops once the products
+        // and one candidate each would pass the budget.
+        let mut products = Vec::new();
+        let whole = search_products_while(&self.carriers, &query.params, 2..=MAX_ORDER, &mut |p| {
+            if !self.fits(products.len() + 1, products.len() + 1) {
+                return false;
+            }
+            products.push(p);
+            true
+        });
+        if !whole {
+            return Err(self.over_budget(products.len()));
+        }
         let found = products.len();
         retain_coefficients(&mut products, &query.coefficients);
         let kept = products.len();
-        let ranking = rank_candidates(
-            products.clone(),
-            &self.emitters,
-            &query.params,
-            &RankInputs {
-                placement: Placement {
-                    junction: query.junction,
-                    receiver: query.receiver,
-                    fix_radius_m: None,
-                },
-                model: query.model,
-                logbook: query.logbook.as_ref(),
-                heard: &query.heard,
+        let inputs = RankInputs {
+            placement: Placement {
+                junction: query.junction,
+                receiver: query.receiver,
+                fix_radius_m: None,
             },
-        );
-        Explanation {
+            model: query.model,
+            logbook: query.logbook.as_ref(),
+            heard: &query.heard,
+        };
+        let candidates =
+            Ranker::new(&self.emitters, &query.params, &inputs).candidate_count(&products);
+        if !self.fits(found, candidates) {
+            return Err(self.over_budget(found));
+        }
+        let ranking = rank_candidates(products.clone(), &self.emitters, &query.params, &inputs);
+        Ok(Explanation {
             params: query.params,
             model: query.model,
             heard: query.heard.clone(),
             products,
-            co_channel,
+            co_channel: co_channel(&self.carriers, &query.params),
             found,
             kept,
             limit: None,
             complete: true,
             ranking,
-        }
+        })
     }
 }
 
@@ -182,11 +259,16 @@ pub struct Explanation {
 impl Explanation {
     /// The same products ranked with the junction placed as `placement` says (at a fix,
     /// heard at the receiver), calibrated against `heard`, without on-air evidence.
-    pub fn ranked_at(&self, site: &Site, placement: Placement, heard: &[HeardLevel]) -> Ranking {
-        rank_candidates(
-            self.products.clone(),
-            site.emitters(),
-            &self.params,
+    /// Refused when this ranking and the one held would together pass the site's memory
+    /// budget.
+    pub fn ranked_at(
+        &self,
+        site: &Site,
+        placement: Placement,
+        heard: &[HeardLevel],
+    ) -> Result<Ranking> {
+        self.ranked_with(
+            site,
             &RankInputs {
                 placement,
                 model: self.model,
@@ -194,5 +276,23 @@ impl Explanation {
                 heard,
             },
         )
+    }
+
+    /// The same products ranked with `inputs` (a placement, a model, on-air evidence and
+    /// heard levels of their own). Refused when this ranking and the one held would
+    /// together pass the site's memory budget.
+    pub fn ranked_with(&self, site: &Site, inputs: &RankInputs) -> Result<Ranking> {
+        let candidates =
+            Ranker::new(site.emitters(), &self.params, inputs).candidate_count(&self.products);
+        let held = self.ranking.candidates.len() + candidates;
+        if !site.fits(self.products.len(), held) {
+            return Err(site.over_budget(self.products.len()));
+        }
+        Ok(rank_candidates(
+            self.products.clone(),
+            site.emitters(),
+            &self.params,
+            inputs,
+        ))
     }
 }

@@ -841,7 +841,7 @@ mod tests {
             junction: Some(GeoPoint::new(45.0, -122.0)),
             ..Query::new(Hz(146_340_000))
         };
-        let a = site.explain(&q);
+        let a = site.explain(&q).unwrap();
         let l = Listing {
             emitters: site.emitters(),
             params: &a.params,
@@ -868,7 +868,7 @@ mod tests {
     #[test]
     fn nothing_landing_is_said_with_the_next_steps() {
         let site = site();
-        let a = site.explain(&Query::new(Hz(300_000_000)));
+        let a = site.explain(&Query::new(Hz(300_000_000))).unwrap();
         let s = outlook_text(&a.ranking).unwrap();
         assert!(s.starts_with("Nothing credible: no product"), "{s}");
         assert!(s.contains("(3) check each nearby transmitter's own spurious output"));

@@ -15,6 +15,7 @@ pub mod picture;
 pub mod plan;
 pub mod slope;
 pub mod spectrum;
+pub mod study;
 pub mod sweep;
 pub mod text_table;
 pub mod ticket;

@@ -9,9 +9,7 @@ use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
 use pim_core::level::{LevelModel, Mechanism};
 use pim_core::onair::Logbook;
-use pim_core::rank::{
-    display_terms, formula, rank_candidates, HeardLevel, Outlook, Placement, RankInputs, Ranking,
-};
+use pim_core::rank::{display_terms, formula, HeardLevel, Outlook, Placement, RankInputs, Ranking};
 use pim_core::slope::{judge, judge_power_steps, PowerSteps, PowerVerdict, SlopeAnswer, StepKind};
 use pim_core::ticket::{
     inspection_points, nearby, power_step_candidate, power_step_doubt, rank_changes, ItemKind,
@@ -1176,13 +1174,11 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         coefficients: t.evidence.coefficients.clone(),
         logbook: t.evidence.logbook.clone(),
         ..Query::new(t.params.target)
-    });
+    })?;
     let at_rx = t.rx_site.map(|_| answer.ranking.clone());
     let heard = heard_levels(t);
-    let at_fix = rank_candidates(
-        answer.products.clone(),
-        t.site.emitters(),
-        &t.params,
+    let at_fix = answer.ranked_with(
+        &t.site,
         &RankInputs {
             placement: Placement {
                 junction: Some(t.fix.position),
@@ -1193,7 +1189,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             logbook: t.evidence.logbook.as_ref(),
             heard: &heard,
         },
-    );
+    )?;
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
     let (doc, map, spectrum, band_svg) = build(
         t,

@@ -286,6 +286,16 @@ const RELATIVE_COST_TOLERANCE: f64 = 1e-10;
 /// Gauss–Newton from `start` (local metres); falls back to a damped step, and to the start
 /// itself, when a full step does not lower the cost.
 fn gauss_newton(model: &BearingModel, scale: &[f64], start: (f64, f64)) -> Result<(f64, f64)> {
+    gauss_newton_steps(model, scale, start, 60)
+}
+
+/// [`gauss_newton`] with at most `max_iters` steps.
+fn gauss_newton_steps(
+    model: &BearingModel,
+    scale: &[f64],
+    start: (f64, f64),
+    max_iters: u64,
+) -> Result<(f64, f64)> {
     let start_cost = cost(model, scale, start.0, start.1);
     let tolerance = (RELATIVE_COST_TOLERANCE * start_cost.sqrt()).max(1e-14);
     let mut best = (start, start_cost);
@@ -304,7 +314,7 @@ fn gauss_newton(model: &BearingModel, scale: &[f64], start: (f64, f64)) -> Resul
         let run = Executor::new(problem, solver)
             .configure(|s| {
                 s.param(DVector::from_vec(vec![start.0, start.1]))
-                    .max_iters(60)
+                    .max_iters(max_iters)
             })
             .run();
         if let Ok(result) = run {
@@ -457,6 +467,9 @@ fn ls_scale(
     ((rest.norm_squared() / dof).sqrt().max(MIN_SCALE), dof)
 }
 
+/// Most steps of Proposal 2's scale iteration at one set of residuals.
+const SCALE_STEPS: usize = 200;
+
 /// The M-estimate from the maximum-likelihood point `start`: IRLS with weights ψ(u)/u,
 /// u = rᵢ/(σᵢ·s); when the scale is not known it is Huber's Proposal 2, the s solving
 /// Σψ(rᵢ/(σᵢs))² = (n − 2)·E[ψ(Z)²], iterated jointly with the position (Huber 1981,
@@ -483,8 +496,17 @@ fn fit_robust(
         let e = standardised(model, sigma_rad, at);
         let s_before = s;
         if !known && dof >= 1.0 {
-            let sum: f64 = e.iter().map(|x| rho.psi(x / s).powi(2)).sum();
-            s = (s * (sum / (dof * beta)).sqrt()).max(MIN_SCALE);
+            // the scale solved at these residuals (no geodesic needed), so the outer
+            // loop waits only on the point
+            for _ in 0..SCALE_STEPS {
+                let sum: f64 = e.iter().map(|x| rho.psi(x / s).powi(2)).sum();
+                let next = (s * (sum / (dof * beta)).sqrt()).max(MIN_SCALE);
+                let steady = (next - s).abs() <= 1e-9 * s;
+                s = next;
+                if steady {
+                    break;
+                }
+            }
         }
         let new_weights: Vec<f64> = e.iter().map(|x| rho.weight(x / s)).collect();
         if new_weights.iter().filter(|w| **w > 0.0).count() < 2 {
@@ -495,7 +517,9 @@ fn fit_robust(
             .zip(&new_weights)
             .map(|(si, w)| w.sqrt() / si)
             .collect();
-        let next = gauss_newton(model, &scale, at)?;
+        // one step per reweighting: the weights move with the point, so solving to the
+        // end at weights about to change would spend passes over every reading for nothing
+        let next = gauss_newton_steps(model, &scale, at, 1)?;
         let moved = (next.0 - at.0).hypot(next.1 - at.1);
         let settled = (s - s_before).abs() <= 1e-6 * s;
         at = next;
@@ -823,9 +847,11 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         readings
             .iter()
             .zip(bearings)
-            .map(|(r, &b)| Line {
+            .zip(&points)
+            .map(|((r, &b), &o)| Line {
                 observer: r.observer,
                 bearing_deg: b,
+                observer_local_m: o,
             })
             .collect()
     };
@@ -1194,7 +1220,17 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
         .collect();
     let a = a_at(centre, &w_scale);
     let h = outer_sum(&a, &vec![1.0; a.len()]);
-    let base_w = cost(model, &w_scale, centre.0, centre.1);
+    // away from the centre, on the plane (model docs): a geodesic per reading per probe
+    // would cost a pass over every reading for each point looked at
+    let plane = model.plane_at(centre);
+    let plane_cost = |scale: &[f64], e: f64, n: f64| -> f64 {
+        plane
+            .residuals(e, n)
+            .zip(scale)
+            .map(|(r, s)| (r * s).powi(2))
+            .sum()
+    };
+    let base_w = plane_cost(&w_scale, centre.0, centre.1);
     let probe_t = k2 * (det2(v) * det2(h)).max(0.0).sqrt();
     let quad_radius = |m: &[[f64; 2]; 2], t: f64, d: (f64, f64)| {
         let q = m[0][0] * d.0 * d.0 + 2.0 * m[0][1] * d.0 * d.1 + m[1][1] * d.1 * d.1;
@@ -1205,7 +1241,7 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
             let t = 2.0 * std::f64::consts::PI * i as f64 / LINEARITY_PROBES as f64;
             let d = (t.cos(), t.sin());
             let r = quad_radius(&h, probe_t, d);
-            let g = cost(model, &w_scale, centre.0 + r * d.0, centre.1 + r * d.1) - base_w;
+            let g = plane_cost(&w_scale, centre.0 + r * d.0, centre.1 + r * d.1) - base_w;
             region::radius_mismatch(probe_t, g)
         })
         .fold(0.0, f64::max);
@@ -1233,8 +1269,8 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
     let c = (det2(v) * det2(hpsi)).max(0.0).sqrt();
     let threshold = k2 * if c > 0.0 { c } else { 1.0 };
     let deviance = |e: f64, n: f64| -> f64 {
-        let (r, _) = model.residuals_and_jacobian(model.point(e, n));
-        r.iter()
+        plane
+            .residuals(e, n)
             .zip(&dev_scale)
             .map(|(r, c)| 2.0 * dev_rho.rho(r * c))
             .sum()

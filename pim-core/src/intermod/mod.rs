@@ -243,10 +243,24 @@ pub fn search_products(
     orders: std::ops::RangeInclusive<u32>,
     visit: &mut dyn FnMut(Product),
 ) {
+    search_products_while(carriers, params, orders, &mut |p| {
+        visit(p);
+        true
+    });
+}
+
+/// [`search_products`], stopping as soon as `visit` returns false; returns whether the
+/// search ran to its end.
+pub fn search_products_while(
+    carriers: &[Carrier],
+    params: &SearchParams,
+    orders: std::ops::RangeInclusive<u32>,
+    visit: &mut dyn FnMut(Product) -> bool,
+) -> bool {
     let max_order = params.max_order.min(MAX_ORDER).min(*orders.end());
     let min_order = (*orders.start()).max(2);
     if max_order < min_order {
-        return;
+        return true;
     }
     let in_orders = |v: &Vec<i64>| {
         let n: i64 = v.iter().map(|k| k.abs()).sum();
@@ -261,19 +275,21 @@ pub fn search_products(
     for (i, c) in carriers.iter().enumerate() {
         for k in min_order as i64..=max_order as i64 {
             let p = Hz(k * c.freq.0);
-            if params.hits(p, Hz(k * c.bandwidth.0)) {
-                visit(Product::new(
+            if params.hits(p, Hz(k * c.bandwidth.0))
+                && !visit(Product::new(
                     &[Term {
                         emitter: i,
                         coefficient: k as i32,
                     }],
                     p,
-                ));
+                ))
+            {
+                return false;
             }
         }
     }
     if params.max_emitters < 2 || n < 2 {
-        return;
+        return true;
     }
 
     // The last emitter, with coefficient k, must satisfy 2·k·f ∈ [r2 − w, r2 + w], where
@@ -285,14 +301,15 @@ pub fn search_products(
                 k: i64,
                 fixed_bw: i64,
                 fixed: &[(usize, i64)],
-                out: &mut dyn FnMut(Product)| {
+                out: &mut dyn FnMut(Product) -> bool|
+     -> bool {
         if from >= n {
-            return;
+            return true;
         }
         let (m, t) = if k > 0 { (k, r2) } else { (-k, -r2) };
         // Quick reject against the partner's frequency span, without division.
         if t + w < 2 * m * s.freq[from] || t - w > 2 * m * s.freq[n - 1] {
-            return;
+            return true;
         }
         let lo = t - w;
         let start = from + s.freq[from..].partition_point(|&f| 2 * m * f < lo);
@@ -317,9 +334,12 @@ pub fn search_products(
                     emitter: s.index[j] as usize,
                     coefficient: k as i32,
                 };
-                out(Product::new(&terms[..=fixed.len()], p));
+                if !out(Product::new(&terms[..=fixed.len()], p)) {
+                    return false;
+                }
             }
         }
+        true
     };
 
     let pairs: Vec<(i64, i64)> = coefficient_sets(2, max_order)
@@ -333,12 +353,14 @@ pub fn search_products(
             let r2 = 2 * (f0 - k1 * fa);
             let fixed_bw = k1.abs() * bwa;
             let w = fixed_bw + k2.abs() * s.max_bandwidth + base;
-            scan(a + 1, r2, w, k2, fixed_bw, &[(ia, k1)], visit);
+            if !scan(a + 1, r2, w, k2, fixed_bw, &[(ia, k1)], visit) {
+                return false;
+            }
         }
     }
 
     if params.max_emitters < 3 || max_order < 3 || n < 3 {
-        return;
+        return true;
     }
     // Three emitters at sorted positions a < b < c with coefficients (k1, k2, k3): the
     // third must satisfy 2·|k3|·f_c ∈ [T − w, T + w] with T = sign(k3)·2·(f₀ − k1·f_a −
@@ -366,10 +388,11 @@ pub fn search_products(
                 continue;
             }
             let mut lo = a + 2;
-            let mut sweep = |b: usize, out: &mut dyn FnMut(Product)| -> bool {
+            // Some(false): no partner for any later b; None: the visitor stopped the search
+            let mut sweep = |b: usize, out: &mut dyn FnMut(Product) -> bool| -> Option<bool> {
                 let t = t0 + slope * f[b];
                 if t - w > 2 * m * f[n - 1] {
-                    return false; // T only grows from here: no partner for later b
+                    return Some(false); // T only grows from here: no partner for later b
                 }
                 while lo < n && 2 * m * f[lo] < t - w {
                     lo += 1;
@@ -381,8 +404,8 @@ pub fn search_products(
                         break;
                     }
                     let p = Hz(fixed + k3 * fc);
-                    if params.hits(p, Hz(fixed_bw + m * s.bandwidth[c])) {
-                        out(Product::new(
+                    if params.hits(p, Hz(fixed_bw + m * s.bandwidth[c]))
+                        && !out(Product::new(
                             &[
                                 Term {
                                     emitter: ia,
@@ -398,26 +421,33 @@ pub fn search_products(
                                 },
                             ],
                             p,
-                        ));
+                        ))
+                    {
+                        return None;
                     }
                 }
-                true
+                Some(true)
             };
             if slope > 0 {
                 for b in a + 1..n - 1 {
-                    if !sweep(b, visit) {
-                        break;
+                    match sweep(b, visit) {
+                        Some(true) => {}
+                        Some(false) => break,
+                        None => return false,
                     }
                 }
             } else {
                 for b in (a + 1..n - 1).rev() {
-                    if !sweep(b, visit) {
-                        break;
+                    match sweep(b, visit) {
+                        Some(true) => {}
+                        Some(false) => break,
+                        None => return false,
                     }
                 }
             }
         }
     }
+    true
 }
 
 #[cfg(test)]

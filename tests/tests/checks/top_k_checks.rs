@@ -85,9 +85,9 @@ proptest! {
         query.junction = located.then_some(junction);
         query.model = LevelModel { rx_iip3_dbm: iip3, drive_exponent: alpha, ..LevelModel::default() };
         query.coefficients = narrow.map(|kk| vec![(0, kk)]).unwrap_or_default();
-        let full = site.explain(&query);
+        let full = site.explain(&query).unwrap();
         query.limit = Some(k);
-        let top = site.explain(&query);
+        let top = site.explain(&query).unwrap();
         let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
         prop_assert_eq!(top.ranking.candidates.len(), want.len());
         for (a, b) in top.ranking.candidates.iter().zip(want) {
