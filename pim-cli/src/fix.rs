@@ -4,7 +4,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use pim_core::fix::{locate, Fix, FixOptions, FixRefusal, Loss, Method};
-use pim_io::export::{fix_geojson, fix_kml};
+use pim_io::export::{site_geojson, site_kml, SiteItems};
 use pim_io::fieldlog::{prepare, read_field_log, Prepared};
 use pim_io::track::read_track;
 
@@ -146,6 +146,12 @@ pub struct Args {
     /// Output format.
     #[arg(long, value_enum, default_value_t = FixFormat::Table)]
     pub format: FixFormat,
+    /// Site structures (CSV) to put beside the fix in GeoJSON and KML.
+    #[arg(long, value_name = "FILE")]
+    pub structures: Option<PathBuf>,
+    /// Emitters (CSV or JSON) to put beside the fix in GeoJSON and KML.
+    #[arg(long, value_name = "FILE")]
+    pub emitters: Option<PathBuf>,
 }
 
 /// Reads a field log (and a track), applies declination, and fixes.
@@ -192,7 +198,27 @@ pub fn refusal_error(r: FixRefusal) -> pim_core::Error {
 pub use pim_report::fix::{fix_json, fix_summary, readings_table};
 
 pub fn run(args: Args) -> CliResult {
+    let no_map = matches!(args.format, FixFormat::Table | FixFormat::Json);
+    if no_map && (args.structures.is_some() || args.emitters.is_some()) {
+        return Err(pim_core::Error::argument(
+            "--structures/--emitters",
+            "are shown in --format geojson and kml only",
+        )
+        .into());
+    }
+    let structures = match &args.structures {
+        Some(p) => pim_io::emitters::read_structures(&p.display().to_string(), open(p)?)?,
+        None => Vec::new(),
+    };
+    let emitters = match &args.emitters {
+        Some(p) => crate::common::load_emitters(p)?,
+        None => Vec::new(),
+    };
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
+    let items = SiteItems {
+        structures: &structures,
+        emitters: &emitters,
+    };
     let mut out = stdout();
     match args.format {
         FixFormat::Table => {
@@ -213,7 +239,7 @@ pub fn run(args: Args) -> CliResult {
             writeln!(out)?;
         }
         FixFormat::Geojson => {
-            serde_json::to_writer_pretty(&mut out, &fix_geojson(&fix))
+            serde_json::to_writer_pretty(&mut out, &site_geojson(&fix, &items))
                 .map_err(std::io::Error::from)?;
             writeln!(out)?;
         }
@@ -221,7 +247,7 @@ pub fn run(args: Args) -> CliResult {
             write!(
                 out,
                 "{}",
-                fix_kml(&fix, &format!("Fix from {}", args.log.display()))
+                site_kml(&fix, &items, &format!("Fix from {}", args.log.display()))
             )?;
         }
     }

@@ -145,11 +145,6 @@ fn erp_w(erp_dbm: f64) -> f64 {
     10f64.powf((erp_dbm - 30.0) / 10.0)
 }
 
-/// The fix as an RFC 7946 FeatureCollection.
-pub fn fix_geojson(fix: &Fix) -> FeatureCollection {
-    site_geojson(fix, &SiteItems::default())
-}
-
 /// The fix and the site's structures and emitters as an RFC 7946 FeatureCollection: each
 /// item a point with `kind` (`structure` or `emitter`), `id`, `item_kind` (its kind as its
 /// file says), `owner`, `note`, and for an emitter `freq_mhz`, `erp_dbm` and `erp_w`.
@@ -229,11 +224,6 @@ fn kml_coords(points: &[GeoPoint]) -> String {
         .map(|p| format!("{:.7},{:.7},0", p.lon_deg, p.lat_deg))
         .collect::<Vec<_>>()
         .join(" ")
-}
-
-/// The fix as an OGC KML 2.2 document named `title`.
-pub fn fix_kml(fix: &Fix, title: &str) -> String {
-    site_kml(fix, &SiteItems::default(), title)
 }
 
 /// A KML style id for an item of `kind`: `structure-guy-anchor`, `emitter-paging`, or

@@ -200,3 +200,60 @@ fn bad_fix_arguments_are_refused() {
         assert!(stderr_of(&o).contains(want), "{}", stderr_of(&o));
     }
 }
+
+/// `pim fix` exports the site beside the fix when given its structures and emitters, as
+/// the ticket's fix.geojson and fix.kml do; the text formats refuse them.
+#[test]
+fn fix_exports_carry_the_site_when_given() {
+    let (structures, emitters) = (p(field_log("structures.csv")), p(field_log("emitters.csv")));
+    let log = p(field_log("walk.csv"));
+    let with = |format: &str| {
+        pim(&[
+            "fix",
+            "--log",
+            &log,
+            "--format",
+            format,
+            "--structures",
+            &structures,
+            "--emitters",
+            &emitters,
+        ])
+    };
+    let o = with("geojson");
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let fc: geojson::FeatureCollection = stdout_of(&o).parse().unwrap();
+    let ids: Vec<(String, String)> = fc
+        .features
+        .iter()
+        .filter_map(|f| {
+            Some((
+                f.property("kind")?.as_str()?.to_string(),
+                f.property("id")?.as_str()?.to_string(),
+            ))
+        })
+        .collect();
+    assert!(
+        ids.contains(&("structure".into(), "OLD-TWR".into())),
+        "{ids:?}"
+    );
+    assert!(
+        ids.contains(&("emitter".into(), "SKP-152".into())),
+        "{ids:?}"
+    );
+    let o = with("kml");
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let kml = stdout_of(&o);
+    crate::support::assert_xml_well_formed(&kml, "fix --format kml");
+    assert!(
+        kml.contains("<styleUrl>#emitter-paging</styleUrl>"),
+        "{kml}"
+    );
+    let o = with("table");
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("geojson and kml only"),
+        "{}",
+        stderr_of(&o)
+    );
+}
