@@ -192,7 +192,12 @@ pub fn run(args: Args) -> CliResult {
                 ListFormat::Json => writeln!(out, "{:#}", w::log_listing_json(&fix, &rows))?,
             }
         }
-        Ok((fix, _)) => write!(out, "{}", pim_report::walk::running_fix_line(&fix))?,
+        Ok((fix, _)) => {
+            write!(out, "{}", pim_report::walk::running_fix_line(&fix))?;
+            for w in &fix.warnings {
+                writeln!(out, "warning: {w}")?;
+            }
+        }
         Err(crate::common::CliError::Core(e)) if e.class == ErrorClass::Refused => {
             writeln!(out, "No fix yet: {}", e.message)?;
         }

@@ -4,7 +4,7 @@
 //! inspect near the fix, how to confirm the cause, and the cautions of tower and RF work.
 
 use pim_core::emitter::{carriers, Carrier, Emitter, Receiver};
-use pim_core::fix::{Fix, SigmaSource};
+use pim_core::fix::{Fix, RegionKind, SigmaSource};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
 use pim_core::level::{LevelModel, Mechanism};
@@ -504,13 +504,17 @@ fn build(
         let radius = fix_radius_m(&t.fix);
         levels.push_str(&format!(
             " \"Away from the fix\": made more than {radius:.0} m from the fix ({}), where the bearings do not point; such candidates rank after those made at the fix.",
-            if radius > t.fix.ellipse.semi_major_m {
-                format!(
+            match (t.fix.region_kind, radius > t.fix.reach_m()) {
+                (RegionKind::Ellipse, true) => format!(
                     "the ellipse's semi-major axis of {:.1} m raised to the {FIX_RADIUS_FLOOR_M:.0} m floor",
                     t.fix.ellipse.semi_major_m
-                )
-            } else {
-                "the ellipse's semi-major axis".to_string()
+                ),
+                (RegionKind::Ellipse, false) => "the ellipse's semi-major axis".to_string(),
+                (RegionKind::Likelihood, true) => format!(
+                    "the likelihood contour's reach of {:.1} m raised to the {FIX_RADIUS_FLOOR_M:.0} m floor",
+                    t.fix.reach_m()
+                ),
+                (RegionKind::Likelihood, false) => "the likelihood contour's reach".to_string(),
             }
         ));
     }
@@ -546,6 +550,13 @@ fn build(
             "{:.0}% ellipse: {:.1} m by {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; circular error probable {:.1} m.",
             e.confidence * 100.0, e.semi_major_m, e.semi_minor_m, e.orientation_deg, e.area_m2(), fix.cep_m
         ),
+        match fix.region_kind {
+            RegionKind::Ellipse => "The ellipse is the region claimed (the bearings are close to linear over it).".to_string(),
+            RegionKind::Likelihood => format!(
+                "The region claimed is the likelihood contour drawn on the map, reaching {:.0} m from the fix: the ellipse does not hold in this geometry.",
+                fix.reach_m()
+            ),
+        },
         match fix.sigma_source {
             SigmaSource::Given => format!("Bearing σ {:.1}° as given.", fix.sigma_deg_used),
             SigmaSource::Estimated => format!("Bearing σ {:.1}° estimated from the residuals (the ellipse widened for it).", fix.sigma_deg_used),
@@ -1158,9 +1169,10 @@ pub fn heard_levels(t: &TicketInputs) -> Vec<HeardLevel> {
 const FIX_RADIUS_FLOOR_M: f64 = 30.0;
 
 /// How far from the fix a source may lie and still agree with the bearings, m: the
-/// ellipse's semi-major axis, at least [`FIX_RADIUS_FLOOR_M`].
+/// reach of the region claimed (the ellipse's semi-major axis, or the likelihood
+/// contour's farthest point), at least [`FIX_RADIUS_FLOOR_M`].
 fn fix_radius_m(fix: &Fix) -> f64 {
-    fix.ellipse.semi_major_m.max(FIX_RADIUS_FLOOR_M)
+    fix.reach_m().max(FIX_RADIUS_FLOOR_M)
 }
 
 /// Searches, ranks at the receiver and at the fix, and makes the seven files of the

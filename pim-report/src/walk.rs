@@ -234,16 +234,26 @@ pub fn next_text(
 /// The running fix in one line, as `pim log` shows it after each change to the log.
 pub fn running_fix_line(fix: &Fix) -> String {
     let e = &fix.ellipse;
+    let region = match fix.region_kind {
+        pim_core::fix::RegionKind::Ellipse => format!(
+            "{:.0}% ellipse {:.0} × {:.0} m at {:.0}°",
+            e.confidence * 100.0,
+            e.semi_major_m,
+            e.semi_minor_m,
+            e.orientation_deg
+        ),
+        pim_core::fix::RegionKind::Likelihood => format!(
+            "{:.0}% region the likelihood contour, reaching {:.0} m from the fix (the ellipse does not hold here)",
+            e.confidence * 100.0,
+            fix.reach_m()
+        ),
+    };
     format!(
-        "Running fix {:.6}, {:.6} from {} readings ({}); {:.0}% ellipse {:.0} × {:.0} m at {:.0}°.\n",
+        "Running fix {:.6}, {:.6} from {} readings ({}); {region}.\n",
         fix.position.lat_deg,
         fix.position.lon_deg,
         fix.n_used,
         crate::fix::method_name(fix.method),
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m,
-        e.orientation_deg
     )
 }
 

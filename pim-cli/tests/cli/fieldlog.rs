@@ -646,3 +646,55 @@ fn site_files_take_positions_in_minutes_and_seconds() {
     };
     assert_eq!(first(&a), first(&b), "{a}\n{b}");
 }
+
+/// A reading taken a few metres from the junction bends the region out of its ellipse:
+/// the running fix then names the likelihood contour and its reach, not the ellipse, and
+/// shows the fix's warnings as `pim fix` does.
+#[test]
+fn the_running_fix_names_the_region_it_claims() {
+    let tmp = crate::support::scratch();
+    let log = tmp.path().join("walk.csv");
+    std::fs::copy(field_log("walk.csv"), &log).unwrap();
+    let log = log.display().to_string();
+    let o = pim(&[
+        "log",
+        &log,
+        "--lat",
+        "45.1045833",
+        "--lon",
+        "-122.4140278",
+        "--bearing-deg",
+        "200",
+        "--time",
+        "2026-11-28T10:30:00Z",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let out = stdout_of(&o);
+    assert!(
+        out.contains("95% region the likelihood contour, reaching"),
+        "{out}"
+    );
+    assert!(!out.contains("95% ellipse"), "{out}");
+    assert!(
+        out.contains("warning: the ellipse misses the likelihood contour"),
+        "{out}"
+    );
+    // the same log through pim fix: the reach is the contour's farthest point
+    let o = pim(&["fix", "--log", &log, "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["region_kind"], "likelihood", "{v}");
+    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    let reach = v["region"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|p| {
+            let q = GeoPoint::new(p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
+            distance_and_azimuth(GeoPoint::new(lat, lon), q).0
+        })
+        .fold(0.0, f64::max);
+    assert!(
+        out.contains(&format!("reaching {reach:.0} m")),
+        "{out} vs {reach}"
+    );
+}

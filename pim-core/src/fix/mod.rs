@@ -221,6 +221,20 @@ impl Fix {
         let ring: Vec<(f64, f64)> = self.region.iter().map(|q| frame.to_local(*q)).collect();
         region::ring_contains(&ring, frame.to_local(p))
     }
+
+    /// How far from the fix the region claimed reaches, m: the ellipse's semi-major axis,
+    /// or the farthest point of the likelihood contour when that is the region.
+    pub fn reach_m(&self) -> f64 {
+        let ring = self
+            .region
+            .iter()
+            .map(|q| crate::geo::distance_m(self.position, *q))
+            .fold(0.0, f64::max);
+        match self.region_kind {
+            RegionKind::Ellipse => self.ellipse.semi_major_m,
+            RegionKind::Likelihood => ring,
+        }
+    }
 }
 
 /// Wrapped, weighted bearing residuals for argmin's Gauss–Newton. The last evaluation is
