@@ -43,6 +43,8 @@ pub struct FixJson<'a> {
     /// The region claimed, a closed ring of [lat, lon].
     region: Vec<[f64; 2]>,
     region_kind: RegionKind,
+    /// How far the region reaches from the fix, m ([`Fix::reach_m`]).
+    reach_m: f64,
     n_used: usize,
     residuals: &'a [pim_core::fix::ReadingFit],
     outliers: Vec<OutlierJson>,
@@ -69,6 +71,7 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
         sigma_source: fix.sigma_source,
         region: fix.region.iter().map(|p| [p.lat_deg, p.lon_deg]).collect(),
         region_kind: fix.region_kind,
+        reach_m: fix.reach_m(),
         n_used: fix.n_used,
         residuals: &fix.readings,
         outliers: fix

@@ -402,14 +402,20 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     let lon = fix_copy["lon"].as_f64().unwrap();
     assert_eq!(page_fix, format!("{lat:.6}, {lon:.6}"));
     let e = &fix_copy["ellipse"];
-    assert!(
-        page_region.starts_with(&format!(
+    // the page names the region pim fix claims: the ellipse, or the contour and its reach
+    let claimed = if fix_copy["region_kind"] == "likelihood" {
+        format!(
+            "95% region: the likelihood contour on the map, reaching {:.0} m",
+            fix_copy["reach_m"].as_f64().unwrap()
+        )
+    } else {
+        format!(
             "95% ellipse {:.1} × {:.1} m",
             e["semi_major_m"].as_f64().unwrap(),
             e["semi_minor_m"].as_f64().unwrap()
-        )),
-        "{page_region}"
-    );
+        )
+    };
+    assert!(page_region.starts_with(&claimed), "{page_region}");
     assert!(
         page_cep.starts_with(&format!("CEP {:.1} m", fix_copy["cep_m"].as_f64().unwrap())),
         "{page_cep}"
