@@ -3,7 +3,7 @@
 
 use std::io::Write;
 
-use pim_core::emitter::{carriers, Emitter};
+use pim_core::emitter::{carriers, Carrier, Emitter};
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
 use pim_core::level::{FieldRegion, JunctionTerms, Mechanism};
@@ -95,7 +95,9 @@ fn rounded_calibration(k: &Calibration) -> Calibration {
     }
 }
 
-fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
+/// One candidate's JSON element; `carriers` are the listing's emitters' carriers, made
+/// once per listing.
+fn candidate_json<'a>(l: &Listing<'a>, carriers: &[Carrier], c: &Candidate) -> CandidateJson<'a> {
     let terms = display_terms(&c.product, l.emitters)
         .into_iter()
         .map(|t| {
@@ -119,7 +121,7 @@ fn candidate_json<'a>(l: &Listing<'a>, c: &Candidate) -> CandidateJson<'a> {
         terms,
         product_mhz: c.product.freq.mhz(),
         offset_khz: c.product.offset(l.params.target).khz(),
-        bandwidth_khz: c.product.bandwidth(&carriers(l.emitters)).khz(),
+        bandwidth_khz: c.product.bandwidth(carriers).khz(),
         predicted_level_dbm: c.level_dbm.map(r2),
         in_channel_dbm: c.breakdown.map(|b| r2(b.in_channel_dbm)),
         relative_db: c.relative_db.map(r2),
@@ -249,8 +251,9 @@ pub fn co_channel_json(l: &Listing) -> serde_json::Value {
 }
 
 /// Writes the candidates as a JSON array, one element at a time (no second copy of the
-/// results is built).
+/// results is built); the carriers the rows need are made once.
 pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) -> CliResult {
+    let carriers = carriers(l.emitters);
     out.write_all(b"[")?;
     let shown = l
         .ranking
@@ -259,7 +262,8 @@ pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) 
         .take(limit.unwrap_or(usize::MAX));
     for (i, c) in shown.enumerate() {
         out.write_all(if i == 0 { b"\n    " } else { b",\n    " })?;
-        serde_json::to_writer(&mut *out, &candidate_json(l, c)).map_err(std::io::Error::from)?;
+        serde_json::to_writer(&mut *out, &candidate_json(l, &carriers, c))
+            .map_err(std::io::Error::from)?;
     }
     out.write_all(b"\n  ]")?;
     Ok(())

@@ -11,10 +11,11 @@
 //! `|f_p − f₀| ≤ (B_p + B_rx)/2 + tol`; the edge counts. All arithmetic is in whole hertz
 //! (the rule is evaluated doubled, so no rounding enters).
 //!
-//! **Search.** [`find_products`] sorts the emitters by frequency. For two emitters it
-//! takes each emitter and coefficient pair and binary-searches the window in which the
-//! partner must lie; for three it takes each pair and coefficient triple and
-//! binary-searches the third. The work grows as N² per coefficient set plus the hits
+//! **Search.** [`find_products`] groups the emitters by bandwidth class (widths within a
+//! factor of four) and sorts each class by frequency. For two emitters it takes each
+//! emitter, coefficient pair and partner class and binary-searches the window in which
+//! the partner must lie, as wide as that class's widest emitter allows; for three it
+//! takes each pair and coefficient triple and sweeps the third's class. The work grows as N² per coefficient set plus the hits
 //! themselves. [`oracle::find_products_brute_force`] is the plain enumeration kept as the
 //! reference the search is checked against.
 
@@ -168,25 +169,58 @@ pub struct Hits {
     pub co_channel: Vec<usize>,
 }
 
-/// The emitters sorted by frequency, as parallel arrays.
-struct Sorted {
+/// The emitters of one bandwidth class sorted by frequency (then index), as parallel
+/// arrays.
+struct Class {
     freq: Vec<i64>,
     bandwidth: Vec<i64>,
     index: Vec<u32>,
     max_bandwidth: i64,
 }
 
-impl Sorted {
-    fn new(carriers: &[Carrier]) -> Sorted {
-        let mut order: Vec<usize> = (0..carriers.len()).collect();
-        order.sort_by_key(|&i| (carriers[i].freq, i));
-        Sorted {
-            freq: order.iter().map(|&i| carriers[i].freq.0).collect(),
-            bandwidth: order.iter().map(|&i| carriers[i].bandwidth.0).collect(),
-            index: order.iter().map(|&i| i as u32).collect(),
-            max_bandwidth: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
+/// How much wider than its narrowest emitter a bandwidth class may reach.
+const CLASS_SPAN: i64 = 4;
+
+/// The narrowest width a class is counted from, Hz: widths below it (plain carriers) share
+/// one class.
+const CLASS_FLOOR: i64 = 1_000;
+
+/// The emitters grouped by bandwidth: each class holds widths up to [`CLASS_SPAN`] times
+/// its narrowest, or the doubled channel-and-tolerance `base` or [`CLASS_FLOOR`] if more,
+/// so that a partner's window is only as wide as the widest emitter of its own class
+/// (FM broadcast at 200 kHz no longer widens the window among 12.5 kHz land mobile).
+/// Classes come narrowest first; a file of similar widths is one class.
+fn classes(carriers: &[Carrier], base: i64) -> Vec<Class> {
+    let mut order: Vec<usize> = (0..carriers.len()).collect();
+    order.sort_by_key(|&i| (carriers[i].bandwidth, carriers[i].freq, i));
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    let mut limit = i64::MIN;
+    for i in order {
+        let w = carriers[i].bandwidth.0;
+        if groups.is_empty() || w > limit {
+            limit = CLASS_SPAN.saturating_mul(w.max(base).max(CLASS_FLOOR));
+            groups.push(Vec::new());
+        }
+        if let Some(g) = groups.last_mut() {
+            g.push(i);
         }
     }
+    groups
+        .into_iter()
+        .map(|mut g| {
+            g.sort_by_key(|&i| (carriers[i].freq, i));
+            Class {
+                freq: g.iter().map(|&i| carriers[i].freq.0).collect(),
+                bandwidth: g.iter().map(|&i| carriers[i].bandwidth.0).collect(),
+                index: g.iter().map(|&i| i as u32).collect(),
+                max_bandwidth: g
+                    .iter()
+                    .map(|&i| carriers[i].bandwidth.0)
+                    .max()
+                    .unwrap_or(0),
+            }
+        })
+        .collect()
 }
 
 /// Every (coefficient list) of `n` nonzero integers with Σ|k| ≤ `max_order`.
@@ -268,8 +302,8 @@ pub fn search_products_while(
     };
     let f0 = params.target.0;
     let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
-    let s = Sorted::new(carriers);
-    let n = s.freq.len();
+    let classes = classes(carriers, base);
+    let n = carriers.len();
 
     // One emitter with k ≥ 2: harmonics.
     for (i, c) in carriers.iter().enumerate() {
@@ -292,33 +326,39 @@ pub fn search_products_while(
         return true;
     }
 
-    // The last emitter, with coefficient k, must satisfy 2·k·f ∈ [r2 − w, r2 + w], where
-    // r2 = 2·(f₀ − Σ other terms) and w bounds the doubled window with the widest
-    // partner. `scan` finds the partners among sorted[from..] and checks each exactly.
-    let scan = |from: usize,
+    // Each set of emitters is taken once, in the order (class, frequency, index): the
+    // first from any class, each later one from the same class after it or from a later
+    // class. The last emitter, with coefficient k, must satisfy 2·k·f ∈ [r2 − w, r2 + w],
+    // where r2 = 2·(f₀ − Σ other terms) and w bounds the doubled window with the widest
+    // partner of its class. `scan` finds the partners among class.freq[from..] and checks
+    // each exactly.
+    let scan = |class: &Class,
+                from: usize,
                 r2: i64,
-                w: i64,
                 k: i64,
                 fixed_bw: i64,
                 fixed: &[(usize, i64)],
                 out: &mut dyn FnMut(Product) -> bool|
      -> bool {
+        let f = &class.freq;
+        let n = f.len();
         if from >= n {
             return true;
         }
         let (m, t) = if k > 0 { (k, r2) } else { (-k, -r2) };
+        let w = fixed_bw + m * class.max_bandwidth + base;
         // Quick reject against the partner's frequency span, without division.
-        if t + w < 2 * m * s.freq[from] || t - w > 2 * m * s.freq[n - 1] {
+        if t + w < 2 * m * f[from] || t - w > 2 * m * f[n - 1] {
             return true;
         }
         let lo = t - w;
-        let start = from + s.freq[from..].partition_point(|&f| 2 * m * f < lo);
-        for j in start..n {
-            if 2 * m * s.freq[j] > t + w {
+        let start = from + f[from..].partition_point(|&f| 2 * m * f < lo);
+        for (j, &fj) in f.iter().enumerate().skip(start) {
+            if 2 * m * fj > t + w {
                 break;
             }
-            let p = Hz(f0 - r2 / 2 + k * s.freq[j]);
-            let bw = Hz(fixed_bw + m * s.bandwidth[j]);
+            let p = Hz(f0 - r2 / 2 + k * fj);
+            let bw = Hz(fixed_bw + m * class.bandwidth[j]);
             if params.hits(p, bw) {
                 let mut terms = [Term {
                     emitter: 0,
@@ -331,7 +371,7 @@ pub fn search_products_while(
                     };
                 }
                 terms[fixed.len()] = Term {
-                    emitter: s.index[j] as usize,
+                    emitter: class.index[j] as usize,
                     coefficient: k as i32,
                 };
                 if !out(Product::new(&terms[..=fixed.len()], p)) {
@@ -347,14 +387,22 @@ pub fn search_products_while(
         .filter(in_orders)
         .map(|v| (v[0], v[1]))
         .collect();
-    for a in 0..n {
-        let (fa, bwa, ia) = (s.freq[a], s.bandwidth[a], s.index[a] as usize);
-        for &(k1, k2) in &pairs {
-            let r2 = 2 * (f0 - k1 * fa);
-            let fixed_bw = k1.abs() * bwa;
-            let w = fixed_bw + k2.abs() * s.max_bandwidth + base;
-            if !scan(a + 1, r2, w, k2, fixed_bw, &[(ia, k1)], visit) {
-                return false;
+    for (ca, class_a) in classes.iter().enumerate() {
+        for a in 0..class_a.freq.len() {
+            let (fa, bwa, ia) = (
+                class_a.freq[a],
+                class_a.bandwidth[a],
+                class_a.index[a] as usize,
+            );
+            for &(k1, k2) in &pairs {
+                let r2 = 2 * (f0 - k1 * fa);
+                let fixed_bw = k1.abs() * bwa;
+                for (cb, class_b) in classes.iter().enumerate().skip(ca) {
+                    let from = if cb == ca { a + 1 } else { 0 };
+                    if !scan(class_b, from, r2, k2, fixed_bw, &[(ia, k1)], visit) {
+                        return false;
+                    }
+                }
             }
         }
     }
@@ -362,92 +410,174 @@ pub fn search_products_while(
     if params.max_emitters < 3 || max_order < 3 || n < 3 {
         return true;
     }
-    // Three emitters at sorted positions a < b < c with coefficients (k1, k2, k3): the
-    // third must satisfy 2·|k3|·f_c ∈ [T − w, T + w] with T = sign(k3)·2·(f₀ − k1·f_a −
-    // k2·f_b), linear in f_b. For each a and coefficient triple, b is swept in the
-    // direction in which T grows, so the window's lower edge only moves up and one
-    // pointer finds it: no binary search, and a whole sweep is skipped when the window
-    // cannot meet the emitters at all.
+    // Three emitters a, b, c in that order (classes A ≤ B ≤ C) with coefficients (k1, k2,
+    // k3): the third must satisfy 2·|k3|·f_c ∈ [T − w, T + w] with T = sign(k3)·2·(f₀ −
+    // k1·f_a − k2·f_b), linear in f_b, and w bounded by the widest emitters of B and C.
+    // For each a, coefficient triple and pair of classes, only the run of b whose window
+    // meets class C at all is swept (two binary searches), in the direction in which T
+    // grows, so the window's lower edge only moves up and one pointer follows it.
     let triples: Vec<[i64; 3]> = coefficient_sets(3, max_order)
         .into_iter()
         .filter(in_orders)
         .map(|v| [v[0], v[1], v[2]])
         .collect();
-    let f = &s.freq;
-    for a in 0..n - 2 {
-        let (fa, bwa, ia) = (f[a], s.bandwidth[a], s.index[a] as usize);
-        for &[k1, k2, k3] in &triples {
-            let m = k3.abs();
-            let sign = k3.signum();
-            let w = k1.abs() * bwa + (k2.abs() + m) * s.max_bandwidth + base;
-            let t0 = sign * 2 * (f0 - k1 * fa);
-            let slope = -sign * 2 * k2;
-            let (t_first, t_last) = (t0 + slope * f[a + 1], t0 + slope * f[n - 2]);
-            let (t_min, t_max) = (t_first.min(t_last), t_first.max(t_last));
-            if t_max + w < 2 * m * f[a + 2] || t_min - w > 2 * m * f[n - 1] {
-                continue;
-            }
-            let mut lo = a + 2;
-            // Some(false): no partner for any later b; None: the visitor stopped the search
-            let mut sweep = |b: usize, out: &mut dyn FnMut(Product) -> bool| -> Option<bool> {
-                let t = t0 + slope * f[b];
-                if t - w > 2 * m * f[n - 1] {
-                    return Some(false); // T only grows from here: no partner for later b
-                }
-                while lo < n && 2 * m * f[lo] < t - w {
-                    lo += 1;
-                }
-                let fixed = k1 * fa + k2 * f[b];
-                let fixed_bw = k1.abs() * bwa + k2.abs() * s.bandwidth[b];
-                for (c, &fc) in f.iter().enumerate().skip(lo.max(b + 1)) {
-                    if 2 * m * fc > t + w {
-                        break;
-                    }
-                    let p = Hz(fixed + k3 * fc);
-                    if params.hits(p, Hz(fixed_bw + m * s.bandwidth[c]))
-                        && !out(Product::new(
-                            &[
-                                Term {
-                                    emitter: ia,
-                                    coefficient: k1 as i32,
-                                },
-                                Term {
-                                    emitter: s.index[b] as usize,
-                                    coefficient: k2 as i32,
-                                },
-                                Term {
-                                    emitter: s.index[c] as usize,
-                                    coefficient: k3 as i32,
-                                },
-                            ],
-                            p,
-                        ))
-                    {
-                        return None;
-                    }
-                }
-                Some(true)
-            };
-            if slope > 0 {
-                for b in a + 1..n - 1 {
-                    match sweep(b, visit) {
-                        Some(true) => {}
-                        Some(false) => break,
-                        None => return false,
-                    }
-                }
-            } else {
-                for b in (a + 1..n - 1).rev() {
-                    match sweep(b, visit) {
-                        Some(true) => {}
-                        Some(false) => break,
-                        None => return false,
+    for (ca, class_a) in classes.iter().enumerate() {
+        for a in 0..class_a.freq.len() {
+            let (fa, bwa, ia) = (
+                class_a.freq[a],
+                class_a.bandwidth[a],
+                class_a.index[a] as usize,
+            );
+            for &[k1, k2, k3] in &triples {
+                for (cb, class_b) in classes.iter().enumerate().skip(ca) {
+                    for (cc, class_c) in classes.iter().enumerate().skip(cb) {
+                        let sweep = ThreeSweep {
+                            params,
+                            a: (ia, fa, bwa),
+                            b_from: if cb == ca { a + 1 } else { 0 },
+                            class_b,
+                            class_c,
+                            same_bc: cc == cb,
+                            k: [k1, k2, k3],
+                            base,
+                        };
+                        if !sweep.run(visit) {
+                            return false;
+                        }
                     }
                 }
             }
         }
     }
     true
+}
+
+/// One sweep of the three-emitter search: a fixed first emitter and coefficient triple,
+/// the second from class B (from `b_from` on), the third from class C (after the second
+/// when B and C are the same class).
+struct ThreeSweep<'a> {
+    params: &'a SearchParams,
+    /// The first emitter: index, frequency, width.
+    a: (usize, i64, i64),
+    b_from: usize,
+    class_b: &'a Class,
+    class_c: &'a Class,
+    same_bc: bool,
+    k: [i64; 3],
+    base: i64,
+}
+
+impl ThreeSweep<'_> {
+    /// Hands the hits to `out`; false when `out` stopped the search.
+    fn run(&self, out: &mut dyn FnMut(Product) -> bool) -> bool {
+        let (ia, fa, bwa) = self.a;
+        let [k1, k2, k3] = self.k;
+        let (fb, fc) = (&self.class_b.freq, &self.class_c.freq);
+        // The second emitter needs a third after it when both share a class.
+        let b_end = if self.same_bc {
+            fb.len().saturating_sub(1)
+        } else {
+            fb.len()
+        };
+        if self.b_from >= b_end || fc.is_empty() {
+            return true;
+        }
+        let c_first = if self.same_bc { self.b_from + 1 } else { 0 };
+        let n = fc.len();
+        let m = k3.abs();
+        let sign = k3.signum();
+        let w = k1.abs() * bwa
+            + k2.abs() * self.class_b.max_bandwidth
+            + m * self.class_c.max_bandwidth
+            + self.base;
+        let f0 = self.params.target.0;
+        let t0 = sign * 2 * (f0 - k1 * fa);
+        let slope = -sign * 2 * k2;
+        // Only the second emitters whose window meets the third's span [low, high]: T is
+        // monotone in f_b, so they are one run of class B, found by two binary searches.
+        let (low, high) = (2 * m * fc[c_first], 2 * m * fc[n - 1]);
+        let bs = &fb[self.b_from..b_end];
+        let t = |f: i64| t0 + slope * f;
+        let (start, end) = if slope > 0 {
+            (
+                bs.partition_point(|&f| t(f) + w < low),
+                bs.partition_point(|&f| t(f) - w <= high),
+            )
+        } else {
+            (
+                bs.partition_point(|&f| t(f) - w > high),
+                bs.partition_point(|&f| t(f) + w >= low),
+            )
+        };
+        if start >= end {
+            return true;
+        }
+        let (start, end) = (self.b_from + start, self.b_from + end);
+        // The window's lower edge at the first second emitter swept; it only rises after.
+        let t_first = t(fb[if slope > 0 { start } else { end - 1 }]);
+        let mut lo = c_first + fc[c_first..].partition_point(|&f| 2 * m * f < t_first - w);
+        // Some(false): no partner for any later b; None: the visitor stopped the search
+        let mut sweep = |b: usize, out: &mut dyn FnMut(Product) -> bool| -> Option<bool> {
+            let t = t(fb[b]);
+            if t - w > high {
+                return Some(false); // T only grows from here: no partner for later b
+            }
+            while lo < n && 2 * m * fc[lo] < t - w {
+                lo += 1;
+            }
+            let fixed = k1 * fa + k2 * fb[b];
+            let fixed_bw = k1.abs() * bwa + k2.abs() * self.class_b.bandwidth[b];
+            let from = if self.same_bc { lo.max(b + 1) } else { lo };
+            for (c, &f) in fc.iter().enumerate().skip(from) {
+                if 2 * m * f > t + w {
+                    break;
+                }
+                let p = Hz(fixed + k3 * f);
+                if self
+                    .params
+                    .hits(p, Hz(fixed_bw + m * self.class_c.bandwidth[c]))
+                    && !out(Product::new(
+                        &[
+                            Term {
+                                emitter: ia,
+                                coefficient: k1 as i32,
+                            },
+                            Term {
+                                emitter: self.class_b.index[b] as usize,
+                                coefficient: k2 as i32,
+                            },
+                            Term {
+                                emitter: self.class_c.index[c] as usize,
+                                coefficient: k3 as i32,
+                            },
+                        ],
+                        p,
+                    ))
+                {
+                    return None;
+                }
+            }
+            Some(true)
+        };
+        if slope > 0 {
+            for b in start..end {
+                match sweep(b, out) {
+                    Some(true) => {}
+                    Some(false) => break,
+                    None => return false,
+                }
+            }
+        } else {
+            for b in (start..end).rev() {
+                match sweep(b, out) {
+                    Some(true) => {}
+                    Some(false) => break,
+                    None => return false,
+                }
+            }
+        }
+        true
+    }
 }
 
 #[cfg(test)]

@@ -108,3 +108,61 @@ fn dense_site_agrees_with_brute_force() {
     assert_eq!(a, b);
     assert_eq!(a.len(), fast.products.len());
 }
+
+/// FM broadcast stations (200 kHz) beside 12.5 kHz land mobile and plain carriers: the
+/// search takes each bandwidth class with its own window, and must still find exactly the
+/// oracle's set, products mixing the classes included.
+#[test]
+fn mixed_bandwidth_classes_agree_with_brute_force() {
+    let mut state = 0x9e37_79b9_7f4a_7c15u64;
+    let mut next = move |m: i64| {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state % m as u64) as i64
+    };
+    let mut tx: Vec<Carrier> = Vec::new();
+    for i in 0..60 {
+        let (freq, bandwidth) = match i % 6 {
+            // FM broadcast on its 200 kHz raster, 88–108 MHz
+            0 => (88_100_000 + next(100) * 200_000, 200_000),
+            // a plain carrier (no modulation given)
+            1 => (140_000_000 + next(40_000) * 1_000, 0),
+            // UHF land mobile
+            2 => (450_000_000 + next(1_600) * 12_500, 12_500),
+            // VHF land mobile
+            _ => (150_000_000 + next(2_000) * 12_500, 12_500),
+        };
+        tx.push(Carrier {
+            freq: Hz(freq),
+            bandwidth: Hz(bandwidth),
+        });
+    }
+    for (target, tol) in [(155_012_500, 0), (160_000_000, 2_500), (98_700_000, 0)] {
+        let params = SearchParams {
+            target: Hz(target),
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(tol),
+            max_order: 5,
+            max_emitters: 3,
+        };
+        let fast = find_products(&tx, &params);
+        let slow = find_products_brute_force(&tx, &params);
+        let a: HashSet<_> = fast.products.iter().map(key).collect();
+        let b: HashSet<_> = slow.products.iter().map(key).collect();
+        let mixed = slow
+            .products
+            .iter()
+            .filter(|p| {
+                let w: HashSet<i64> = p.terms().map(|t| tx[t.emitter].bandwidth.0).collect();
+                w.len() > 1
+            })
+            .count();
+        assert!(
+            mixed > 20,
+            "only {mixed} products mix widths at {target} Hz"
+        );
+        assert_eq!(a, b, "at {target} Hz");
+        assert_eq!(a.len(), fast.products.len());
+    }
+}
