@@ -15,8 +15,8 @@
 //! factor of four) and sorts each class by frequency. For two emitters it takes each
 //! emitter, coefficient pair and partner class and binary-searches the window in which
 //! the partner must lie, as wide as that class's widest emitter allows; for three it
-//! takes each pair and coefficient triple and sweeps the third's class. The work grows as N² per coefficient set plus the hits
-//! themselves. [`oracle::find_products_brute_force`] is the plain enumeration kept as the
+//! takes each pair and coefficient triple and sweeps the third's class. The work grows
+//! as N² per coefficient set plus the hits themselves. [`oracle::find_products_brute_force`] is the plain enumeration kept as the
 //! reference the search is checked against.
 
 pub mod oracle;
