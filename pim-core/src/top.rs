@@ -157,10 +157,12 @@ fn emitter_bounds(
     query: &Query,
     emitters: &[Emitter],
     strong: &[bool],
+    drive: &[Option<f64>],
+    ground: &[Option<f64>],
 ) -> Vec<f64> {
     let n = emitters.len();
     let r = &ranker.shell;
-    let (Some(rx), Some(_)) = (r.receiver, r.junction) else {
+    let (Some(_), Some(_)) = (r.receiver, r.junction) else {
         return vec![f64::NEG_INFINITY; n];
     };
     let m = &r.model;
@@ -187,18 +189,18 @@ fn emitter_bounds(
             }
         }
     }
+    // the receiver is at the junction: a lower bound on the distance to it
     let slant: Vec<Option<f64>> = emitters
         .iter()
-        .zip(&r.incidence)
-        .map(|(e, inc)| match inc {
-            Some(i) => Some(i.distance_m),
-            None => e.position.map(|p| {
+        .zip(ground)
+        .map(|(e, g)| {
+            g.map(|g| {
                 slant_distance_m(
-                    crate::geo::distance_m(p, rx),
+                    g,
                     e.height_m.unwrap_or(m.junction_height_m),
                     m.junction_height_m,
                 )
-            }),
+            })
         })
         .collect();
     let erp_at = |i: usize| emitters[i].position.and(emitters[i].erp_dbm);
@@ -206,12 +208,11 @@ fn emitter_bounds(
     // the strong emitters' products are searched whole, apart: the partners of every
     // other product are among the rest
     let p_max = fold_max(
-        &mut r
-            .incidence
+        &mut drive
             .iter()
             .zip(strong)
             .filter(|(_, s)| !**s)
-            .filter_map(|(i, _)| i.map(|i| i.incident_dbm)),
+            .filter_map(|(d, _)| *d),
     );
     let a = m.drive_exponent;
     // Junction: the path from the junction to a receiver at it is the λ/2π floor, 6.02 dB.
@@ -249,8 +250,8 @@ fn emitter_bounds(
     (0..n)
         .map(|i| {
             let mut h = f64::NEG_INFINITY;
-            if let Some(inc) = r.incidence[i] {
-                h = h.max(junction_top - a * (p_max - inc.incident_dbm));
+            if let Some(d) = drive[i] {
+                h = h.max(junction_top - a * (p_max - d));
             }
             if let (Some(extra), Some(input)) = (receiver, rx_input[i]) {
                 h = h.max(input + extra);
@@ -387,6 +388,40 @@ fn search_with(
     if max_emitters < 3 || max_order < 3 {
         return true;
     }
+    // The second partners worth a look: with a floor, only those whose drive can lift a
+    // product of some shape to it with the third at the strongest drive left.
+    let mut y_cut = f64::INFINITY;
+    if let Some(f) = floor {
+        for kx in signed(max_order - 2) {
+            for ky in signed(max_order - kx.abs() - 1) {
+                for kz in signed(max_order - kx.abs() - ky.abs()) {
+                    let c = f.constant(&[kx, ky, kz]) + a * kx.abs() as f64 * px;
+                    let cut =
+                        (f.level - c - a * kz.abs() as f64 * partner_max) / (a * ky.abs() as f64);
+                    y_cut = y_cut.min(cut);
+                }
+            }
+        }
+        if y_cut.is_nan() || a <= 0.0 {
+            y_cut = f64::NEG_INFINITY;
+        }
+        if y_cut.is_finite() {
+            y_cut -= 1e-9 * (1.0 + y_cut.abs());
+        }
+    }
+    let ys: Vec<usize> = (0..sorted.len())
+        .filter(|&pos| {
+            let y = sorted[pos];
+            if y == x || excluded[y] {
+                return false;
+            }
+            if floor.is_some() && drive_of(y).is_none_or(|d| d < y_cut) {
+                *skipped = true;
+                return false;
+            }
+            true
+        })
+        .collect();
     for kx in signed(max_order - 2) {
         for ky in signed(max_order - kx.abs() - 1) {
             for kz in signed(max_order - kx.abs() - ky.abs()) {
@@ -396,10 +431,8 @@ fn search_with(
                         f.constant(&[kx, ky, kz]) + a * kx.abs() as f64 * px,
                     )
                 });
-                for (py, &y) in sorted.iter().enumerate() {
-                    if y == x || excluded[y] {
-                        continue;
-                    }
+                for &py in &ys {
+                    let y = sorted[py];
                     // the level with the third partner at the strongest drive left
                     let with_y = match (c, drive_of(y)) {
                         (None, _) => None,
@@ -478,6 +511,140 @@ fn search_among(
     });
 }
 
+/// Brings the strongest bounds of `order[*ready..]` to the front of that part, strongest
+/// first, until at least `upto` of `order` are in place (more, to spread the work).
+fn bring_forward(order: &mut [usize], ready: &mut usize, upto: usize, bounds: &[f64]) {
+    let len = order.len();
+    if upto.min(len) <= *ready {
+        return;
+    }
+    let target = upto.max(2 * *ready).max(FIRST_SET).min(len);
+    let cmp = |a: &usize, b: &usize| bounds[*b].total_cmp(&bounds[*a]).then(a.cmp(b));
+    let rest = &mut order[*ready..];
+    let take = target - *ready;
+    if take < rest.len() {
+        rest.select_nth_unstable_by(take - 1, cmp);
+    }
+    rest[..take].sort_unstable_by(cmp);
+    *ready = target;
+}
+
+/// Bounds on the candidates made in each emitter's own output stage (module docs): for
+/// each emitter, the loss of the path from it to the receiver can be no lower than
+/// `path[i]` (dB), and no such candidate of it lies above `bound[i]` (dBm in the channel;
+/// −∞ where none can be levelled).
+struct OwnBounds {
+    bound: Vec<f64>,
+    path: Vec<f64>,
+}
+
+/// [`OwnBounds`] for a receiver at least `slant[i]` from each emitter.
+fn own_bounds(site: &Site, query: &Query, slant: &[Option<f64>]) -> OwnBounds {
+    let (emitters, carriers) = (site.emitters(), site.carriers());
+    let m = &query.model;
+    let params = &query.params;
+    let max_order = params.max_order.min(MAX_ORDER);
+    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
+    // The lowest frequency a product in the channel can have: the path loss rises with it.
+    let f_low = (params.target.0
+        - (max_order as i64 * max_bw + params.rx_bandwidth.0 + 2 * params.tolerance.0) / 2)
+        .max(1) as f64;
+    let tx_im = params.max_emitters >= 2 && max_order >= 3;
+    // 2·f_A ± f_B with B at the strongest ERP of the site and the least isolation
+    let im_top = site.index.max_erp_dbm - m.min_antenna_isolation_db - m.tx_conversion_loss_db
+        + DIPOLE_GAIN_DBI;
+    let mut bound = vec![f64::NEG_INFINITY; emitters.len()];
+    let mut path = vec![f64::INFINITY; emitters.len()];
+    for (i, e) in emitters.iter().enumerate() {
+        let Some(s) = slant[i] else { continue };
+        let floor = free_space_loss_db(
+            f_low,
+            s.max(wavelength_m(f_low) / (2.0 * std::f64::consts::PI)),
+        ) - m.rx_antenna_gain_dbi;
+        path[i] = floor;
+        let mut top = f64::NEG_INFINITY;
+        if max_order >= 2 {
+            if let Some(erp) = e.erp_dbm {
+                top = m.spurious_limit_eirp_dbm(erp);
+            }
+        }
+        if tx_im {
+            top = top.max(im_top);
+        }
+        let b = top - floor + BOUND_MARGIN_DB;
+        bound[i] = if b.is_nan() { f64::INFINITY } else { b };
+    }
+    OwnBounds { bound, path }
+}
+
+/// Hands every product of the channel made in emitter `a`'s own output stage (its
+/// harmonics, and 2·f_a ± f_b with any other emitter b) to `visit` until it returns false;
+/// skips a partner `b` for which `partner` is false, noting in `skipped` that it did.
+fn search_own(
+    carriers: &[Carrier],
+    sorted: &[usize],
+    a: usize,
+    params: &SearchParams,
+    max_bw: i64,
+    partner: &dyn Fn(usize) -> bool,
+    skipped: &mut bool,
+    visit: &mut dyn FnMut(Product) -> bool,
+) -> bool {
+    let max_order = params.max_order.min(MAX_ORDER) as i64;
+    let (fa, ba) = (carriers[a].freq.0, carriers[a].bandwidth.0);
+    let term = |emitter: usize, coefficient: i64| Term {
+        emitter,
+        coefficient: coefficient as i32,
+    };
+    for k in 2..=max_order {
+        let f = k * fa;
+        if params.hits(Hz(f), Hz(k * ba)) && !visit(Product::new(&[term(a, k)], Hz(f))) {
+            return false;
+        }
+    }
+    if params.max_emitters < 2 || max_order < 3 {
+        return true;
+    }
+    let f0 = params.target.0;
+    let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
+    for ka in [2i64, -2] {
+        for kb in [1i64, -1] {
+            // positions whose 2·kb·f lies in [t − w, t + w]
+            let t = 2 * (f0 - ka * fa);
+            let w = 2 * ba + max_bw + base;
+            let (mm, t) = if kb > 0 { (kb, t) } else { (-kb, -t) };
+            let lo = sorted.partition_point(|&i| 2 * mm * carriers[i].freq.0 < t - w);
+            let hi = sorted.partition_point(|&i| 2 * mm * carriers[i].freq.0 <= t + w);
+            for &b in &sorted[lo..hi.max(lo)] {
+                if b == a {
+                    continue;
+                }
+                let f = ka * fa + kb * carriers[b].freq.0;
+                let bw = 2 * ba + carriers[b].bandwidth.0;
+                if !params.hits(Hz(f), Hz(bw)) {
+                    continue;
+                }
+                if !partner(b) {
+                    *skipped = true;
+                    continue;
+                }
+                if !visit(Product::new(&[term(a, ka), term(b, kb)], Hz(f))) {
+                    return false;
+                }
+            }
+        }
+    }
+    true
+}
+
+/// The in-channel level of the K-th candidate, where it bounds everything after it: a
+/// levelled candidate neither implausible nor away from the fix.
+fn kth_level(best: &mut Best) -> Option<f64> {
+    best.kth()
+        .filter(|c| !c.implausible && !c.away_from_fix)
+        .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
+}
+
 /// The first `k` candidates of [`Site::explain`] (module docs).
 pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explanation> {
     let emitters = site.emitters();
@@ -489,7 +656,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         logbook: query.logbook.as_ref(),
         heard: &[],
     };
-    let ranker = Ranker::new(emitters, &query.params, &inputs);
+    let ranker = Ranker::lazy(emitters, &query.params, &inputs);
     let narrow = |p: &Product| {
         query
             .coefficients
@@ -499,66 +666,31 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
     // The candidates the lists may hold within the memory budget.
     let cap = usize::try_from(site.memory_budget() / BYTES_PER_CANDIDATE).unwrap_or(usize::MAX);
     let over = std::cell::Cell::new(false);
-    // products the transmitters' own search reached (for the refusal)
-    let mut reached = 0usize;
     let mut found = 0usize;
     let mut kept = 0usize;
     let mut complete = true;
-    // A transmitter's harmonics and its intermodulation with one other emitter are few
-    // (one emitter, or two at third order): every one is levelled exactly, up front;
-    // the search below then weighs the junction and receiver candidates only.
     let own = |m: Mechanism| matches!(m, Mechanism::Transmitter | Mechanism::TransmitterIm);
     let rest = |m: Mechanism| !own(m);
-    let mut transmitters: Vec<Candidate> = Vec::new();
-    let mut trimmed = false;
+    let m = &query.model;
+    let sorted = &site.index.by_freq[..];
+    // Lower bounds on each emitter's distance to the junction (and the receiver at it),
+    // so upper bounds on its drive there: the exact field is worked out only for the
+    // emitters of the candidates weighed.
+    let at = query.junction.map(crate::site::normal);
+    let ground: Vec<Option<f64>> = match at {
+        Some(at) => (0..n)
+            .map(|i| site.index.ground_at_least_m(i, at))
+            .collect(),
+        None => vec![None; n],
+    };
+    let drive: Vec<Option<f64>> = (0..n)
+        .map(|i| {
+            let g = ground[i]?;
+            m.incidence_over_ground(&emitters[i], g)
+                .map(|inc| inc.incident_dbm)
+        })
+        .collect();
     let mut best = Best::new(&ranker, k);
-    if query.logbook.is_none() {
-        let all: Vec<usize> = (0..n).collect();
-        let mut pass = |params: SearchParams, orders: std::ops::RangeInclusive<u32>| {
-            let q = Query {
-                params,
-                ..query.clone()
-            };
-            search_among(carriers, &all, &q, orders, &mut |p| {
-                reached += 1;
-                if narrow(&p) {
-                    ranker.evaluate_only(&p, &mut transmitters, &own);
-                    if transmitters.len() >= k.saturating_mul(4).saturating_add(256) {
-                        trimmed = true;
-                        let mut b = Best::new(&ranker, k);
-                        for c in transmitters.drain(..) {
-                            b.offer(c);
-                        }
-                        b.compact();
-                        transmitters = b.held;
-                    }
-                    if transmitters.len() > cap {
-                        over.set(true);
-                    }
-                }
-                !over.get()
-            });
-        };
-        pass(
-            SearchParams {
-                max_emitters: 1,
-                ..query.params
-            },
-            2..=MAX_ORDER,
-        );
-        if query.params.max_emitters >= 2 && !over.get() {
-            pass(
-                SearchParams {
-                    max_emitters: 2,
-                    ..query.params
-                },
-                3..=3,
-            );
-        }
-        if over.get() {
-            return Err(site.over_budget(reached));
-        }
-    }
     let mut scratch = Vec::with_capacity(4);
     let every = |_: Mechanism| true;
     let keep: &dyn Fn(Mechanism) -> bool = if query.logbook.is_some() {
@@ -575,17 +707,14 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             for c in scratch.drain(..) {
                 best.offer(c);
             }
-            if best.held.len() + transmitters.len() > cap {
+            if best.held.len() > cap {
                 over.set(true);
             }
         }
         !over.get()
     };
-    let fresh = |transmitters: &[Candidate], strong: &[Candidate]| {
+    let fresh = |strong: &[Candidate]| {
         let mut b = Best::new(&ranker, k);
-        for c in transmitters {
-            b.offer(*c);
-        }
         for c in strong {
             b.place(*c);
         }
@@ -599,15 +728,18 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
     } else {
         // The strongest emitters at the junction: their products are searched whole.
         let mut strong = vec![false; n];
-        let mut by_drive: Vec<(f64, usize)> = ranker
-            .shell
-            .incidence
+        let mut by_drive: Vec<(f64, usize)> = drive
             .iter()
             .enumerate()
-            .filter_map(|(i, inc)| inc.map(|inc| (inc.incident_dbm, i)))
+            .filter_map(|(i, d)| d.map(|d| (d, i)))
             .collect();
+        let by_cmp = |a: &(f64, usize), b: &(f64, usize)| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1));
+        if by_drive.len() > FIRST_LOOK {
+            by_drive.select_nth_unstable_by(FIRST_LOOK - 1, by_cmp);
+            by_drive.truncate(FIRST_LOOK);
+        }
+        by_drive.sort_by(by_cmp);
         if by_drive.len() > 2 * STRONG {
-            by_drive.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
             for &(_, i) in &by_drive[..STRONG] {
                 strong[i] = true;
             }
@@ -617,17 +749,8 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         let (mut strong_found, mut strong_kept) = (0usize, 0usize);
         let mut strong_skipped = false;
         if strong_count > 0 {
-            let mut sorted: Vec<usize> = (0..n).collect();
-            sorted.sort_by_key(|&i| (carriers[i].freq, i));
             // A first look among the strongest partners only gives a K-th level that the
             // whole search of the strong emitters' products need not look below.
-            let drive: Vec<Option<f64>> = ranker
-                .shell
-                .incidence
-                .iter()
-                .map(|i| i.map(|i| i.incident_dbm))
-                .collect();
-            let m = &ranker.shell.model;
             let prunable = !ranker.receiver_modelled()
                 && m.drive_exponent >= 0.0
                 && m.drive_exponent.is_finite();
@@ -643,7 +766,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 for x in (0..n).filter(|&x| strong[x]) {
                     search_with(
                         carriers,
-                        &sorted,
+                        sorted,
                         x,
                         &excluded,
                         &query.params,
@@ -656,22 +779,18 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                     }
                     excluded[x] = true;
                 }
-                floor = look
-                    .kth()
-                    .filter(|c| !c.implausible && !c.away_from_fix)
-                    .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
-                    .map(|level| Floor {
-                        level,
-                        drive: &drive,
-                        model: m,
-                        path_db: 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi,
-                    });
+                floor = kth_level(&mut look).map(|level| Floor {
+                    level,
+                    drive: &drive,
+                    model: m,
+                    path_db: 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi,
+                });
             }
             let mut excluded = vec![false; n];
             for x in (0..n).filter(|&x| strong[x]) {
                 search_with(
                     carriers,
-                    &sorted,
+                    sorted,
                     x,
                     &excluded,
                     &query.params,
@@ -687,40 +806,37 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             strong_best.compact();
         }
         let strong_held = strong_best.held.clone();
-        let bounds = emitter_bounds(&ranker, query, emitters, &strong);
+        let bounds = emitter_bounds(&ranker, query, emitters, &strong, &drive, &ground);
         let mut order: Vec<usize> = (0..n)
             .filter(|&i| bounds[i] > f64::NEG_INFINITY && !strong[i])
             .collect();
-        order.sort_by(|&a, &b| bounds[b].total_cmp(&bounds[a]).then(a.cmp(&b)));
+        let mut ready = 0usize;
         let levelled = order.len();
-        best = fresh(&transmitters, &strong_held);
-        let mut m = levelled.min(FIRST_SET);
+        best = fresh(&strong_held);
+        let mut size = levelled.min(FIRST_SET);
         let mut settled = false;
         if levelled > 0 {
             loop {
-                best = fresh(&transmitters, &strong_held);
+                bring_forward(&mut order, &mut ready, size + 1, &bounds);
+                best = fresh(&strong_held);
                 (found, kept) = (0, 0);
-                search_among(carriers, &order[..m], query, 2..=MAX_ORDER, &mut |p| {
+                search_among(carriers, &order[..size], query, 2..=MAX_ORDER, &mut |p| {
                     offer(&mut best, &mut found, &mut kept, p)
                 });
                 if over.get() {
                     break;
                 }
-                let kth = best.kth();
-                let kth_level = kth
-                    .filter(|c| !c.implausible && !c.away_from_fix)
-                    .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm));
-                if let Some(t) = kth_level {
-                    if m == levelled || bounds[order[m]] < t {
+                if let Some(t) = kth_level(&mut best) {
+                    if size == levelled || bounds[order[size]] < t {
                         settled = true;
-                        complete = m + strong_count == n;
+                        complete = size + strong_count == n;
                         break;
                     }
                 }
-                if m == levelled {
+                if size == levelled {
                     break;
                 }
-                m = (2 * m).min(levelled);
+                size = (2 * size).min(levelled);
             }
         }
         if !settled && levelled < n && !over.get() {
@@ -757,12 +873,16 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         complete &= !strong_skipped;
         found += strong_found;
         kept += strong_kept;
+        if !over.get() {
+            complete &= own_products(
+                site, query, &ranker, &narrow, &ground, &mut best, cap, &over,
+            );
+        }
     }
     if over.get() {
-        return Err(site.over_budget(found.max(reached)));
+        return Err(site.over_budget(found));
     }
     best.compact();
-    complete &= !trimmed;
     let Best { held, tally, .. } = best;
     let mut seen = std::collections::HashSet::with_capacity(held.len());
     let products: Vec<Product> = held
@@ -783,4 +903,92 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         complete,
         ranking,
     })
+}
+
+/// Offers to `best` the candidates made in the transmitters' own output stages (a
+/// harmonic, or 2·f_A ± f_B made in A) that can rank among its first K: emitters are
+/// taken by their bound ([`own_bounds`]), strongest first, until the bound falls below
+/// the K-th candidate held; a partner B is skipped when its ERP at the least distance
+/// between the antennas cannot lift the product to the K-th. Returns whether nothing
+/// was skipped.
+#[allow(clippy::too_many_arguments)]
+fn own_products(
+    site: &Site,
+    query: &Query,
+    ranker: &Ranker,
+    narrow: &dyn Fn(&Product) -> bool,
+    ground: &[Option<f64>],
+    best: &mut Best,
+    cap: usize,
+    over: &std::cell::Cell<bool>,
+) -> bool {
+    let (emitters, carriers) = (site.emitters(), site.carriers());
+    let n = emitters.len();
+    let m = &query.model;
+    let height = |i: usize| emitters[i].height_m.unwrap_or(m.junction_height_m);
+    let slant: Vec<Option<f64>> = (0..n)
+        .map(|i| ground[i].map(|g| slant_distance_m(g, height(i), m.junction_height_m)))
+        .collect();
+    let OwnBounds { bound, path } = own_bounds(site, query, &slant);
+    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
+    let own = |m: Mechanism| matches!(m, Mechanism::Transmitter | Mechanism::TransmitterIm);
+    let mut order: Vec<usize> = (0..n).collect();
+    let mut ready = 0usize;
+    let mut complete = true;
+    let mut scratch = Vec::with_capacity(2);
+    let mut t = kth_level(best);
+    for pos in 0..n {
+        bring_forward(&mut order, &mut ready, pos + 1, &bound);
+        let a = order[pos];
+        if t.is_some_and(|t| bound[a] < t) {
+            // every emitter left is bounded below the K-th
+            return false;
+        }
+        let partner = |b: usize| -> bool {
+            let Some(t) = t else { return true };
+            // unlevelled candidates follow the K-th
+            let (Some(erp), Some(at)) = (emitters[b].erp_dbm, site.index.normals[a]) else {
+                return false;
+            };
+            let Some(g) = site.index.ground_at_least_m(b, at) else {
+                return false;
+            };
+            let d = slant_distance_m(g, height(a), height(b));
+            m.transmitter_im_eirp_dbm(erp, carriers[b].freq.0 as f64, d) - path[a] + BOUND_MARGIN_DB
+                >= t
+        };
+        let mut skipped = false;
+        let mut offered = false;
+        search_own(
+            carriers,
+            &site.index.by_freq,
+            a,
+            &query.params,
+            max_bw,
+            &partner,
+            &mut skipped,
+            &mut |p| {
+                if narrow(&p) {
+                    scratch.clear();
+                    ranker.evaluate_only(&p, &mut scratch, &own);
+                    for c in scratch.drain(..) {
+                        best.offer(c);
+                        offered = true;
+                    }
+                    if best.held.len() > cap {
+                        over.set(true);
+                    }
+                }
+                !over.get()
+            },
+        );
+        complete &= !skipped;
+        if over.get() {
+            return false;
+        }
+        if offered {
+            t = kth_level(best);
+        }
+    }
+    complete
 }
