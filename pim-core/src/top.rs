@@ -142,6 +142,14 @@ impl<'r, 'a> Best<'r, 'a> {
         }
     }
 
+    /// The level of the K-th candidate at the last compaction, where it bounds everything
+    /// after it (see [`kth_level`]).
+    fn kth_level_held(&self) -> Option<f64> {
+        self.kth
+            .filter(|c| !c.implausible && !c.away_from_fix)
+            .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
+    }
+
     /// The K-th candidate, once K are held.
     fn kth(&mut self) -> Option<Candidate> {
         self.compact();
@@ -278,7 +286,8 @@ const FIRST_LOOK: usize = 64;
 /// `level` (dBm) at the emitters' drives (the receiver's own products not modelled), and
 /// products of an emitter without a level (they follow every levelled candidate).
 struct Floor<'a> {
-    level: f64,
+    /// Raised as the search finds better: the K-th level of what it has found.
+    level: std::cell::Cell<f64>,
     drive: &'a [Option<f64>],
     model: &'a LevelModel,
     /// The path from the junction to the receiver at it, dB.
@@ -360,7 +369,7 @@ fn search_with(
         for ky in signed(max_order - kx.abs()) {
             let t = 2 * (f0 - kx * fx);
             let w = kx.abs() * bx + ky.abs() * max_bw + base;
-            let c = floor.map(|f| (f.level, f.constant(&[kx, ky]) + a * kx.abs() as f64 * px));
+            let c = floor.map(|f| (f.level.get(), f.constant(&[kx, ky]) + a * kx.abs() as f64 * px));
             for pos in window(0, t, w, ky) {
                 let y = sorted[pos];
                 if y == x || excluded[y] {
@@ -397,7 +406,7 @@ fn search_with(
                 for kz in signed(max_order - kx.abs() - ky.abs()) {
                     let c = f.constant(&[kx, ky, kz]) + a * kx.abs() as f64 * px;
                     let cut =
-                        (f.level - c - a * kz.abs() as f64 * partner_max) / (a * ky.abs() as f64);
+                        (f.level.get() - c - a * kz.abs() as f64 * partner_max) / (a * ky.abs() as f64);
                     y_cut = y_cut.min(cut);
                 }
             }
@@ -422,25 +431,46 @@ fn search_with(
             true
         })
         .collect();
+    // The third partner is one of them too, found by its frequency among them.
+    let ys_freq: Vec<i64> = ys.iter().map(|&pos| freq[pos]).collect();
+    let among = |from: usize, t: i64, w: i64, k: i64| -> std::ops::Range<usize> {
+        let (m, t) = if k > 0 { (k, t) } else { (-k, -t) };
+        let lo = from + ys_freq[from..].partition_point(|&f| 2 * m * f < t - w);
+        let hi = from + ys_freq[from..].partition_point(|&f| 2 * m * f <= t + w);
+        lo..hi.max(lo)
+    };
+    // Each pair of partners is taken once, the second before the third in `by_drive`:
+    // with a floor, strongest drive first, so that the third is never stronger than the
+    // second, and once a second partner cannot lift the product to the floor with a third
+    // as strong, no later one can.
+    let mut by_drive: Vec<usize> = (0..ys.len()).collect();
+    if floor.is_some() {
+        let d = |i: usize| drive_of(sorted[ys[i]]).unwrap_or(f64::NEG_INFINITY);
+        by_drive.sort_by(|&i, &j| d(j).total_cmp(&d(i)).then(i.cmp(&j)));
+    }
+    let mut rank = vec![0usize; ys.len()];
+    for (r, &i) in by_drive.iter().enumerate() {
+        rank[i] = r;
+    }
     for kx in signed(max_order - 2) {
         for ky in signed(max_order - kx.abs() - 1) {
             for kz in signed(max_order - kx.abs() - ky.abs()) {
                 let c = floor.map(|f| {
                     (
-                        f.level,
+                        f.level.get(),
                         f.constant(&[kx, ky, kz]) + a * kx.abs() as f64 * px,
                     )
                 });
-                for &py in &ys {
-                    let y = sorted[py];
-                    // the level with the third partner at the strongest drive left
+                for &iy in &by_drive {
+                    let y = sorted[ys[iy]];
+                    // the level with the third partner as strong as the second
                     let with_y = match (c, drive_of(y)) {
                         (None, _) => None,
                         (Some((level, c)), Some(dy)) => {
                             let c = c + a * ky.abs() as f64 * dy;
-                            if c + a * kz.abs() as f64 * partner_max < level {
+                            if c + a * kz.abs() as f64 * dy.min(partner_max) < level {
                                 *skipped = true;
-                                continue;
+                                break;
                             }
                             Some((level, c))
                         }
@@ -452,11 +482,11 @@ fn search_with(
                     let (fy, by) = (carriers[y].freq.0, carriers[y].bandwidth.0);
                     let t = 2 * (f0 - kx * fx - ky * fy);
                     let w = kx.abs() * bx + ky.abs() * by + kz.abs() * max_bw + base;
-                    for pos in window(py + 1, t, w, kz) {
-                        let z = sorted[pos];
-                        if z == x || excluded[z] {
+                    for jz in among(0, t, w, kz) {
+                        if rank[jz] <= rank[iy] {
                             continue;
                         }
+                        let z = sorted[ys[jz]];
                         if let Some((level, c)) = with_y {
                             match drive_of(z) {
                                 Some(dz) if c + a * kz.abs() as f64 * dz >= level => {}
@@ -780,7 +810,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                     excluded[x] = true;
                 }
                 floor = kth_level(&mut look).map(|level| Floor {
-                    level,
+                    level: std::cell::Cell::new(level),
                     drive: &drive,
                     model: m,
                     path_db: 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi,
@@ -796,7 +826,16 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                     &query.params,
                     floor.as_ref(),
                     &mut strong_skipped,
-                    &mut |p| offer(&mut strong_best, &mut strong_found, &mut strong_kept, p),
+                    &mut |p| {
+                        let go = offer(&mut strong_best, &mut strong_found, &mut strong_kept, p);
+                        // what is found raises the floor: it holds K candidates above it
+                        if let (Some(f), Some(l)) = (&floor, strong_best.kth_level_held()) {
+                            if l > f.level.get() {
+                                f.level.set(l);
+                            }
+                        }
+                        go
+                    },
                 );
                 if over.get() {
                     return Err(site.over_budget(strong_found));
