@@ -66,6 +66,12 @@ pub(crate) struct SiteIndex {
     pub(crate) normals: Vec<Option<[f64; 3]>>,
     /// Emitter indices by carrier frequency, then index.
     pub(crate) by_freq: Vec<usize>,
+    /// The frequencies in that order, Hz.
+    pub(crate) freq_sorted: Vec<i64>,
+    /// Each emitter's place in that order.
+    pub(crate) place: Vec<usize>,
+    /// The widest occupied bandwidth, Hz.
+    pub(crate) max_bw: i64,
     /// The strongest ERP of an emitter with a position, dBm (−∞ without one).
     pub(crate) max_erp_dbm: f64,
 }
@@ -79,7 +85,14 @@ impl SiteIndex {
     fn new(emitters: &[Emitter], carriers: &[Carrier]) -> SiteIndex {
         let mut by_freq: Vec<usize> = (0..emitters.len()).collect();
         by_freq.sort_by_key(|&i| (carriers[i].freq, i));
+        let mut place = vec![0; by_freq.len()];
+        for (pos, &i) in by_freq.iter().enumerate() {
+            place[i] = pos;
+        }
         SiteIndex {
+            freq_sorted: by_freq.iter().map(|&i| carriers[i].freq.0).collect(),
+            place,
+            max_bw: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
             normals: emitters.iter().map(|e| e.position.map(normal)).collect(),
             by_freq,
             max_erp_dbm: emitters

@@ -289,6 +289,10 @@ struct Floor<'a> {
     /// Raised as the search finds better: the K-th level of what it has found.
     level: std::cell::Cell<f64>,
     drive: &'a [Option<f64>],
+    /// The drive at each place of the site's frequency order (−∞ without one).
+    by_pos: &'a [f64],
+    /// The strongest drives, strongest first, with their emitters.
+    strongest: &'a [(f64, usize)],
     model: &'a LevelModel,
     /// The path from the junction to the receiver at it, dB.
     path_db: f64,
@@ -318,31 +322,38 @@ impl Floor<'_> {
 /// with a `floor`, skips what it allows and notes in `skipped` that it did.
 #[allow(clippy::too_many_arguments)]
 fn search_with(
-    carriers: &[Carrier],
-    sorted: &[usize],
+    site: &Site,
     x: usize,
     excluded: &[bool],
+    only: Option<&[usize]>,
     params: &SearchParams,
     floor: Option<&Floor>,
     skipped: &mut bool,
     visit: &mut dyn FnMut(Product) -> bool,
 ) -> bool {
+    let carriers = site.carriers();
+    let sorted = &site.index.by_freq[..];
+    let freq = &site.index.freq_sorted[..];
     let a = floor.map_or(0.0, |f| f.model.drive_exponent);
     let drive_of = |i: usize| floor.and_then(|f| f.drive[i]);
     let px = drive_of(x).unwrap_or(f64::NEG_INFINITY);
     // the strongest drive any partner can have
     let partner_max = floor.map_or(f64::INFINITY, |f| {
-        (0..carriers.len())
-            .filter(|&i| i != x && !excluded[i])
-            .filter_map(|i| f.drive[i])
-            .fold(f64::NEG_INFINITY, f64::max)
+        // the strongest drives lead every other
+        match f.strongest.iter().find(|(_, i)| *i != x && !excluded[*i]) {
+            Some(&(d, _)) => d,
+            None => (0..carriers.len())
+                .filter(|&i| i != x && !excluded[i])
+                .filter_map(|i| f.drive[i])
+                .fold(f64::NEG_INFINITY, f64::max),
+        }
     });
     let max_order = params.max_order.min(MAX_ORDER) as i64;
     let max_emitters = params.max_emitters.clamp(1, 3);
     let (fx, bx) = (carriers[x].freq.0, carriers[x].bandwidth.0);
     let f0 = params.target.0;
     let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
-    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
+    let max_bw = site.index.max_bw;
     let term = |emitter: usize, coefficient: i64| Term {
         emitter,
         coefficient: coefficient as i32,
@@ -356,7 +367,6 @@ fn search_with(
     if max_emitters < 2 {
         return true;
     }
-    let freq: Vec<i64> = sorted.iter().map(|&i| carriers[i].freq.0).collect();
     // positions whose 2·k·f lies in [t − w, t + w], from position `from` on
     let window = |from: usize, t: i64, w: i64, k: i64| -> std::ops::Range<usize> {
         let (m, t) = if k > 0 { (k, t) } else { (-k, -t) };
@@ -418,17 +428,26 @@ fn search_with(
             y_cut -= 1e-9 * (1.0 + y_cut.abs());
         }
     }
-    let ys: Vec<usize> = (0..sorted.len())
+    let all: Vec<usize>;
+    let places: &[usize] = match only {
+        Some(p) => p,
+        None => {
+            all = (0..sorted.len()).collect();
+            &all
+        }
+    };
+    let ys: Vec<usize> = places
+        .iter()
+        .copied()
         .filter(|&pos| {
+            if let Some(f) = floor {
+                if !(f.by_pos[pos] >= y_cut) {
+                    *skipped = true;
+                    return false;
+                }
+            }
             let y = sorted[pos];
-            if y == x || excluded[y] {
-                return false;
-            }
-            if floor.is_some() && drive_of(y).is_none_or(|d| d < y_cut) {
-                *skipped = true;
-                return false;
-            }
-            true
+            y != x && !excluded[y]
         })
         .collect();
     // The third partner is one of them too, found by its frequency among them.
@@ -444,9 +463,10 @@ fn search_with(
     // second, and once a second partner cannot lift the product to the floor with a third
     // as strong, no later one can.
     let mut by_drive: Vec<usize> = (0..ys.len()).collect();
-    if floor.is_some() {
-        let d = |i: usize| drive_of(sorted[ys[i]]).unwrap_or(f64::NEG_INFINITY);
-        by_drive.sort_by(|&i, &j| d(j).total_cmp(&d(i)).then(i.cmp(&j)));
+    if let Some(f) = floor {
+        let mut keyed: Vec<(f64, usize)> = ys.iter().map(|&p| f.by_pos[p]).zip(0..).collect();
+        keyed.sort_unstable_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+        by_drive = keyed.into_iter().map(|(_, i)| i).collect();
     }
     let mut rank = vec![0usize; ys.len()];
     for (r, &i) in by_drive.iter().enumerate() {
@@ -785,6 +805,10 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 && m.drive_exponent >= 0.0
                 && m.drive_exponent.is_finite();
             let mut floor = None;
+            let by_pos: Vec<f64> = sorted
+                .iter()
+                .map(|&i| drive[i].unwrap_or(f64::NEG_INFINITY))
+                .collect();
             if prunable {
                 let mut outside = vec![true; n];
                 for &(_, i) in by_drive.iter().take(FIRST_LOOK) {
@@ -793,12 +817,18 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 let mut look = Best::new(&ranker, k);
                 let (mut f, mut kk, mut skipped) = (0usize, 0usize, false);
                 let mut excluded = outside.clone();
+                let mut places: Vec<usize> = by_drive
+                    .iter()
+                    .take(FIRST_LOOK)
+                    .map(|&(_, i)| site.index.place[i])
+                    .collect();
+                places.sort_unstable();
                 for x in (0..n).filter(|&x| strong[x]) {
                     search_with(
-                        carriers,
-                        sorted,
+                        site,
                         x,
                         &excluded,
+                        Some(&places),
                         &query.params,
                         None,
                         &mut skipped,
@@ -812,6 +842,8 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 floor = kth_level(&mut look).map(|level| Floor {
                     level: std::cell::Cell::new(level),
                     drive: &drive,
+                    by_pos: &by_pos,
+                    strongest: &by_drive,
                     model: m,
                     path_db: 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi,
                 });
@@ -819,10 +851,10 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             let mut excluded = vec![false; n];
             for x in (0..n).filter(|&x| strong[x]) {
                 search_with(
-                    carriers,
-                    sorted,
+                    site,
                     x,
                     &excluded,
+                    None,
                     &query.params,
                     floor.as_ref(),
                     &mut strong_skipped,
