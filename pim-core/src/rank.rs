@@ -641,14 +641,14 @@ pub(crate) struct Ranker<'a> {
     emitters: &'a [Emitter],
     params: &'a SearchParams,
     inputs: &'a RankInputs<'a>,
-    carriers: Vec<crate::emitter::Carrier>,
+    carriers: std::borrow::Cow<'a, [crate::emitter::Carrier]>,
     /// Ground distance from each emitter, and from the junction, to the receiver, metres:
     /// worked out once, when first needed.
-    to_receiver_m: Vec<std::cell::OnceCell<f64>>,
+    to_receiver_m: std::cell::RefCell<std::collections::HashMap<usize, f64>>,
     junction_to_receiver_m: std::cell::OnceCell<f64>,
     /// Each emitter's field at the junction, worked out when first needed (a ranking of
     /// the first K only), or `None` when the shell holds every emitter's.
-    lazy: Option<Vec<std::cell::OnceCell<Option<Incidence>>>>,
+    lazy: Option<std::cell::RefCell<std::collections::HashMap<usize, Option<Incidence>>>>,
     receiver_modelled: bool,
     /// The ranking's frame: everything but the candidates and the counts.
     pub(crate) shell: Ranking,
@@ -661,7 +661,8 @@ impl<'a> Ranker<'a> {
         inputs: &'a RankInputs<'a>,
     ) -> Ranker<'a> {
         let junction = inputs.placement.junction;
-        let mut ranker = Ranker::lazy(emitters, params, inputs);
+        let mut ranker = Ranker::lazy(emitters, &[], params, inputs);
+        ranker.carriers = std::borrow::Cow::Owned(carriers(emitters));
         ranker.shell.incidence = emitters
             .iter()
             .map(|e| junction.and_then(|j| inputs.model.incidence(e, j)))
@@ -675,6 +676,7 @@ impl<'a> Ranker<'a> {
     /// candidates (and of those worked out on the way).
     pub(crate) fn lazy(
         emitters: &'a [Emitter],
+        carriers: &'a [crate::emitter::Carrier],
         params: &'a SearchParams,
         inputs: &'a RankInputs<'a>,
     ) -> Ranker<'a> {
@@ -693,16 +695,10 @@ impl<'a> Ranker<'a> {
             emitters,
             params,
             inputs,
-            carriers: carriers(emitters),
-            to_receiver_m: (0..emitters.len())
-                .map(|_| std::cell::OnceCell::new())
-                .collect(),
+            carriers: std::borrow::Cow::Borrowed(carriers),
+            to_receiver_m: Default::default(),
             junction_to_receiver_m: std::cell::OnceCell::new(),
-            lazy: Some(
-                (0..emitters.len())
-                    .map(|_| std::cell::OnceCell::new())
-                    .collect(),
-            ),
+            lazy: Some(Default::default()),
             receiver_modelled,
             shell: Ranking {
                 candidates: Vec::new(),
@@ -727,10 +723,17 @@ impl<'a> Ranker<'a> {
     /// Emitter `i`'s field at the junction (`None` without ERP, location or junction).
     pub(crate) fn incidence(&self, i: usize) -> Option<Incidence> {
         match &self.lazy {
-            Some(cells) => *cells[i].get_or_init(|| {
-                let j = self.shell.junction?;
-                self.shell.model.incidence(&self.emitters[i], j)
-            }),
+            Some(cells) => {
+                if let Some(known) = cells.borrow().get(&i) {
+                    return *known;
+                }
+                let inc = self
+                    .shell
+                    .junction
+                    .and_then(|j| self.shell.model.incidence(&self.emitters[i], j));
+                cells.borrow_mut().insert(i, inc);
+                inc
+            }
             None => self.shell.incidence[i],
         }
     }
@@ -790,8 +793,14 @@ impl<'a> Ranker<'a> {
                                     .formed_in
                                     .or_else(|| c.product.terms().next().map(|t| t.emitter));
                                 let ground = match i {
-                                    Some(i) => *self.to_receiver_m[i]
-                                        .get_or_init(|| crate::geo::distance_m(from, rx)),
+                                    Some(i) => {
+                                        let known = self.to_receiver_m.borrow().get(&i).copied();
+                                        known.unwrap_or_else(|| {
+                                            let d = crate::geo::distance_m(from, rx);
+                                            self.to_receiver_m.borrow_mut().insert(i, d);
+                                            d
+                                        })
+                                    }
                                     None => crate::geo::distance_m(from, rx),
                                 };
                                 Some(model.path_over_ground(f, ground, h))
@@ -871,10 +880,10 @@ impl<'a> Ranker<'a> {
         }
         let mut ranking = self.shell;
         if let Some(cells) = self.lazy {
-            ranking.incidence = cells
-                .into_iter()
-                .map(|c| c.into_inner().flatten())
-                .collect();
+            ranking.incidence = vec![None; self.emitters.len()];
+            for (i, inc) in cells.into_inner() {
+                ranking.incidence[i] = inc;
+            }
         }
         let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
         let first = tally.first_levelled.as_ref().and_then(heard_key);

@@ -233,7 +233,7 @@ impl Site {
             heard: &query.heard,
         };
         let candidates =
-            Ranker::lazy(&self.emitters, &query.params, &inputs).candidate_count(&products);
+            Ranker::lazy(&self.emitters, &self.carriers, &query.params, &inputs).candidate_count(&products);
         if !self.fits(found, candidates) {
             return Err(self.over_budget(found));
         }
@@ -352,7 +352,7 @@ impl Explanation {
     /// together pass the site's memory budget.
     pub fn ranked_with(&self, site: &Site, inputs: &RankInputs) -> Result<Ranking> {
         let candidates =
-            Ranker::lazy(site.emitters(), &self.params, inputs).candidate_count(&self.products);
+            Ranker::lazy(site.emitters(), site.carriers(), &self.params, inputs).candidate_count(&self.products);
         let held = self.ranking.candidates.len() + candidates;
         if !site.fits(self.products.len(), held) {
             return Err(site.over_budget(self.products.len()));

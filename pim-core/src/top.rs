@@ -441,7 +441,7 @@ fn search_with(
         .copied()
         .filter(|&pos| {
             if let Some(f) = floor {
-                if !(f.by_pos[pos] >= y_cut) {
+                if f.by_pos[pos] < y_cut {
                     *skipped = true;
                     return false;
                 }
@@ -706,7 +706,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         logbook: query.logbook.as_ref(),
         heard: &[],
     };
-    let ranker = Ranker::lazy(emitters, &query.params, &inputs);
+    let ranker = Ranker::lazy(emitters, carriers, &query.params, &inputs);
     let narrow = |p: &Product| {
         query
             .coefficients
