@@ -149,6 +149,14 @@ impl Site {
         self
     }
 
+    /// The same site with its memory budget shared among `listings` listings held at once
+    /// (a study's receivers in flight, [`crate::study::listings_in_flight`]): each may
+    /// hold the budget divided by their number, so together they stay within it.
+    pub fn shared_by(self, listings: usize) -> Site {
+        let each = self.memory_budget / listings.max(1) as u64;
+        self.with_memory_budget(each)
+    }
+
     /// The memory a listing may hold, bytes.
     pub fn memory_budget(&self) -> u64 {
         self.memory_budget
@@ -232,8 +240,8 @@ impl Site {
             logbook: query.logbook.as_ref(),
             heard: &query.heard,
         };
-        let candidates =
-            Ranker::lazy(&self.emitters, &self.carriers, &query.params, &inputs).candidate_count(&products);
+        let candidates = Ranker::lazy(&self.emitters, &self.carriers, &query.params, &inputs)
+            .candidate_count(&products);
         if !self.fits(found, candidates) {
             return Err(self.over_budget(found));
         }
@@ -351,8 +359,8 @@ impl Explanation {
     /// heard levels of their own). Refused when this ranking and the one held would
     /// together pass the site's memory budget.
     pub fn ranked_with(&self, site: &Site, inputs: &RankInputs) -> Result<Ranking> {
-        let candidates =
-            Ranker::lazy(site.emitters(), site.carriers(), &self.params, inputs).candidate_count(&self.products);
+        let candidates = Ranker::lazy(site.emitters(), site.carriers(), &self.params, inputs)
+            .candidate_count(&self.products);
         let held = self.ranking.candidates.len() + candidates;
         if !site.fits(self.products.len(), held) {
             return Err(site.over_budget(self.products.len()));

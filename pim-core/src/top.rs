@@ -379,7 +379,12 @@ fn search_with(
         for ky in signed(max_order - kx.abs()) {
             let t = 2 * (f0 - kx * fx);
             let w = kx.abs() * bx + ky.abs() * max_bw + base;
-            let c = floor.map(|f| (f.level.get(), f.constant(&[kx, ky]) + a * kx.abs() as f64 * px));
+            let c = floor.map(|f| {
+                (
+                    f.level.get(),
+                    f.constant(&[kx, ky]) + a * kx.abs() as f64 * px,
+                )
+            });
             for pos in window(0, t, w, ky) {
                 let y = sorted[pos];
                 if y == x || excluded[y] {
@@ -415,8 +420,8 @@ fn search_with(
             for ky in signed(max_order - kx.abs() - 1) {
                 for kz in signed(max_order - kx.abs() - ky.abs()) {
                     let c = f.constant(&[kx, ky, kz]) + a * kx.abs() as f64 * px;
-                    let cut =
-                        (f.level.get() - c - a * kz.abs() as f64 * partner_max) / (a * ky.abs() as f64);
+                    let cut = (f.level.get() - c - a * kz.abs() as f64 * partner_max)
+                        / (a * ky.abs() as f64);
                     y_cut = y_cut.min(cut);
                 }
             }

@@ -84,4 +84,3 @@ pub fn regional(n: usize, seed: u64) -> (Vec<Emitter>, Vec<GeoPoint>) {
         .collect();
     (emitters, towers)
 }
-
