@@ -595,11 +595,11 @@ struct OwnBounds {
 
 /// [`OwnBounds`] for a receiver at least `slant[i]` from each emitter.
 fn own_bounds(site: &Site, query: &Query, slant: &[Option<f64>]) -> OwnBounds {
-    let (emitters, carriers) = (site.emitters(), site.carriers());
+    let emitters = site.emitters();
     let m = &query.model;
     let params = &query.params;
     let max_order = params.max_order.min(MAX_ORDER);
-    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
+    let max_bw = site.index.max_bw;
     // The lowest frequency a product in the channel can have: the path loss rises with it.
     let f_low = (params.target.0
         - (max_order as i64 * max_bw + params.rx_bandwidth.0 + 2 * params.tolerance.0) / 2)
@@ -636,15 +636,15 @@ fn own_bounds(site: &Site, query: &Query, slant: &[Option<f64>]) -> OwnBounds {
 /// harmonics, and 2·f_a ± f_b with any other emitter b) to `visit` until it returns false;
 /// skips a partner `b` for which `partner` is false, noting in `skipped` that it did.
 fn search_own(
-    carriers: &[Carrier],
-    sorted: &[usize],
+    site: &Site,
     a: usize,
     params: &SearchParams,
-    max_bw: i64,
     partner: &dyn Fn(usize) -> bool,
     skipped: &mut bool,
     visit: &mut dyn FnMut(Product) -> bool,
 ) -> bool {
+    let (carriers, sorted) = (site.carriers(), &site.index.by_freq[..]);
+    let max_bw = site.index.max_bw;
     let max_order = params.max_order.min(MAX_ORDER) as i64;
     let (fa, ba) = (carriers[a].freq.0, carriers[a].bandwidth.0);
     let term = |emitter: usize, coefficient: i64| Term {
@@ -1006,7 +1006,6 @@ fn own_products(
         .map(|i| ground[i].map(|g| slant_distance_m(g, height(i), m.junction_height_m)))
         .collect();
     let OwnBounds { bound, path } = own_bounds(site, query, &slant);
-    let max_bw = carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0);
     let own = |m: Mechanism| matches!(m, Mechanism::Transmitter | Mechanism::TransmitterIm);
     let mut order: Vec<usize> = (0..n).collect();
     let mut ready = 0usize;
@@ -1035,29 +1034,20 @@ fn own_products(
         };
         let mut skipped = false;
         let mut offered = false;
-        search_own(
-            carriers,
-            &site.index.by_freq,
-            a,
-            &query.params,
-            max_bw,
-            &partner,
-            &mut skipped,
-            &mut |p| {
-                if narrow(&p) {
-                    scratch.clear();
-                    ranker.evaluate_only(&p, &mut scratch, &own);
-                    for c in scratch.drain(..) {
-                        best.offer(c);
-                        offered = true;
-                    }
-                    if best.held.len() > cap {
-                        over.set(true);
-                    }
+        search_own(site, a, &query.params, &partner, &mut skipped, &mut |p| {
+            if narrow(&p) {
+                scratch.clear();
+                ranker.evaluate_only(&p, &mut scratch, &own);
+                for c in scratch.drain(..) {
+                    best.offer(c);
+                    offered = true;
                 }
-                !over.get()
-            },
-        );
+                if best.held.len() > cap {
+                    over.set(true);
+                }
+            }
+            !over.get()
+        });
         complete &= !skipped;
         if over.get() {
             return false;
