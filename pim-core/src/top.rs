@@ -326,6 +326,7 @@ fn search_with(
     x: usize,
     excluded: &[bool],
     only: Option<&[usize]>,
+    partner_max: Option<f64>,
     params: &SearchParams,
     floor: Option<&Floor>,
     skipped: &mut bool,
@@ -339,6 +340,9 @@ fn search_with(
     let px = drive_of(x).unwrap_or(f64::NEG_INFINITY);
     // the strongest drive any partner can have
     let partner_max = floor.map_or(f64::INFINITY, |f| {
+        if let Some(given) = partner_max {
+            return given;
+        }
         // the strongest drives lead every other
         match f.strongest.iter().find(|(_, i)| *i != x && !excluded[*i]) {
             Some(&(d, _)) => d,
@@ -803,17 +807,16 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         let mut strong_best = Best::new(&ranker, k);
         let (mut strong_found, mut strong_kept) = (0usize, 0usize);
         let mut strong_skipped = false;
+        let prunable =
+            !ranker.receiver_modelled() && m.drive_exponent >= 0.0 && m.drive_exponent.is_finite();
+        let mut floor = None;
+        let by_pos: Vec<f64> = sorted
+            .iter()
+            .map(|&i| drive[i].unwrap_or(f64::NEG_INFINITY))
+            .collect();
         if strong_count > 0 {
             // A first look among the strongest partners only gives a K-th level that the
             // whole search of the strong emitters' products need not look below.
-            let prunable = !ranker.receiver_modelled()
-                && m.drive_exponent >= 0.0
-                && m.drive_exponent.is_finite();
-            let mut floor = None;
-            let by_pos: Vec<f64> = sorted
-                .iter()
-                .map(|&i| drive[i].unwrap_or(f64::NEG_INFINITY))
-                .collect();
             if prunable {
                 let mut outside = vec![true; n];
                 for &(_, i) in by_drive.iter().take(FIRST_LOOK) {
@@ -834,6 +837,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                         x,
                         &excluded,
                         Some(&places),
+                        None,
                         &query.params,
                         None,
                         &mut skipped,
@@ -859,6 +863,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                     site,
                     x,
                     &excluded,
+                    None,
                     None,
                     &query.params,
                     floor.as_ref(),
@@ -891,7 +896,66 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         best = fresh(&strong_held);
         let mut size = levelled.min(FIRST_SET);
         let mut settled = false;
-        if levelled > 0 {
+        if levelled > 0 && prunable {
+            // Emitters strongest bound first, each with its products among those before it
+            // (each product once, when its last emitter comes), held against the K-th
+            // level found as the strong emitters' are.
+            let floor = Floor {
+                level: std::cell::Cell::new(f64::NEG_INFINITY),
+                drive: &drive,
+                by_pos: &by_pos,
+                strongest: &by_drive,
+                model: m,
+                path_db: 20.0 * 2f64.log10() - m.rx_antenna_gain_dbi,
+            };
+            let mut outside = vec![true; n];
+            let mut places: Vec<usize> = Vec::new();
+            let mut partner_max = f64::NEG_INFINITY;
+            let mut skipped = false;
+            (found, kept) = (0, 0);
+            for pos in 0..levelled {
+                bring_forward(&mut order, &mut ready, pos + 1, &bounds);
+                let x = order[pos];
+                if let Some(t) = kth_level(&mut best) {
+                    floor.level.set(floor.level.get().max(t));
+                    if bounds[x] < t {
+                        settled = true;
+                        complete = false;
+                        break;
+                    }
+                }
+                search_with(
+                    site,
+                    x,
+                    &outside,
+                    Some(&places),
+                    Some(partner_max),
+                    &query.params,
+                    Some(&floor),
+                    &mut skipped,
+                    &mut |p| {
+                        let go = offer(&mut best, &mut found, &mut kept, p);
+                        if let Some(l) = best.kth_level_held() {
+                            if l > floor.level.get() {
+                                floor.level.set(l);
+                            }
+                        }
+                        go
+                    },
+                );
+                if over.get() {
+                    break;
+                }
+                outside[x] = false;
+                let place = site.index.place[x];
+                let at = places.partition_point(|&p| p < place);
+                places.insert(at, place);
+                partner_max = partner_max.max(drive[x].unwrap_or(f64::NEG_INFINITY));
+            }
+            // every levelled emitter searched: settled once the K-th has a level
+            settled |= !over.get() && kth_level(&mut best).is_some();
+            complete &= !skipped && levelled + strong_count == n;
+        } else if levelled > 0 {
             loop {
                 bring_forward(&mut order, &mut ready, size + 1, &bounds);
                 best = fresh(&strong_held);
