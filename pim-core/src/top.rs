@@ -7,16 +7,17 @@
 //!
 //! **Exact bound.** Every mechanism's level is non-decreasing in each emitter's drive
 //! ([`crate::level`], "Bound for pruning"), and the channel fraction is at most 1. So
-//! for each emitter j an upper bound hⱼ on the in-channel level of any candidate whose
-//! product involves j follows from j's own drive with every other emitter at the
-//! strongest drive found: the junction law at each order with the largest form weight,
-//! the harmonic at its spurious limit, transmitter intermodulation at the least antenna
-//! isolation, the receiver's own product from the strongest inputs. The path to the
-//! receiver is taken at the lowest frequency a hit can have (free-space loss rises with
-//! frequency). Emitters are searched strongest bound first, the set doubling from 16:
-//! once the K-th levelled candidate among the emitters searched lies strictly above the
-//! bound of the first emitter left out, no product involving that emitter or any later
-//! one can enter the first K, and the search stops.
+//! for each emitter j an upper bound hⱼ on the in-channel level of any junction or
+//! receiver candidate whose product involves j follows from j's own drive with every
+//! other emitter at the strongest drive found: the junction law at each order with the
+//! largest form weight, the receiver's own product from the strongest inputs.
+//!
+//! **Drives without geodesics.** The drive never rises with the distance, so each
+//! emitter's drive is bounded from a lower bound on its distance to the junction: along
+//! any path on the ellipsoid the normal turns at most by the length over the smallest
+//! radius of curvature (b²/a), so the geodesic is at least b²/a times the angle between
+//! the end normals ([`crate::site`] keeps the normals). Every bound below uses these; the
+//! exact field is worked out only for the emitters of the candidates weighed.
 //!
 //! **Strong emitters apart.** A bound that takes every partner at the strongest drive
 //! found is loose when one emitter (a broadcaster near the junction) is far stronger than
@@ -24,9 +25,26 @@
 //! every product they take part in searched whole, apart (each partner found by its
 //! frequency window, each product once), and the bounds of the others take their partners
 //! among the others only. Their products are looked at first among the [`FIRST_LOOK`]
-//! emitters of strongest drive; the K-th level found there is a floor below which the
-//! whole search of their products skips a partner (its drive bounds the level as above),
-//! and an emitter without a level.
+//! emitters of strongest drive; the K-th level found there is a floor (raised as the
+//! search finds K better) below which the whole search of their products skips a
+//! partner (its drive bounds the level as above), and an emitter without a level. A pair
+//! of partners is taken once, the stronger first: once the stronger cannot lift the
+//! product to the floor with the other as strong, no weaker one can.
+//!
+//! **The others.** The other emitters are taken strongest hⱼ first, each with its
+//! products among those taken before it (each product once, when its last emitter
+//! comes), against the K-th level found as above; once the K-th levelled candidate lies
+//! strictly above the bound of the next emitter, no product involving it or any later
+//! one can enter the first K, and the search stops. (With the receiver's own products
+//! modelled, the set doubles from 16 and is searched whole each time.)
+//!
+//! **Transmitters' own products.** A harmonic at its spurious limit and 2·f_A ± f_B made
+//! in A's output stage are levelled from the path from A to the receiver: for each A,
+//! the strongest ERP of the site at the least antenna isolation and the path at A's least
+//! distance to the receiver, taken at the lowest frequency a hit can have (free-space
+//! loss rises with frequency), bound them. They are searched last, strongest bound first,
+//! until the bound falls below the K-th candidate held; a partner B is skipped when its
+//! own ERP at the least distance between the antennas cannot lift the product to it.
 //!
 //! **Without levels.** Emitters without ERP or location make only unlevelled candidates,
 //! which follow every levelled one by order, then offset: their products are searched
@@ -36,9 +54,8 @@
 //! With on-air evidence (which ranks before the level) nothing is skipped; the list is
 //! still bounded.
 //!
-//! **Budget.** The list holds at most 2K + 64 candidates (and the transmitters' own
-//! products 4K + 256): where K is so large that these would pass the site's memory
-//! budget, the search stops at the budget and is refused.
+//! **Budget.** The list holds at most 2K + 64 candidates: where K is so large that these
+//! would pass the site's memory budget, the search stops at the budget and is refused.
 
 use std::cmp::Ordering;
 
