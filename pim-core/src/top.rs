@@ -290,6 +290,11 @@ fn emitter_bounds(
         .collect()
 }
 
+/// How many of the other emitters are taken one by one (each searched with those before
+/// it) before the search turns to whole sets, doubling: one by one costs the square of
+/// their number, worth it only while the K-th candidate settles early.
+const ONE_BY_ONE: usize = 2048;
+
 /// How many of the strongest emitters at the junction have their products searched whole,
 /// apart from the pruned search: a strong broadcaster near the junction would otherwise
 /// lift every other emitter's bound.
@@ -414,6 +419,8 @@ fn search_with(
                 if let Some((level, c)) = c {
                     match drive_of(y) {
                         Some(py) if c + a * ky.abs() as f64 * py >= level => {}
+                        // no K-th level yet: nothing is skipped
+                        _ if level == f64::NEG_INFINITY => {}
                         _ => {
                             *skipped = true;
                             continue;
@@ -520,6 +527,9 @@ fn search_with(
                             }
                             Some((level, c))
                         }
+                        (Some((level, _)), None) if level == f64::NEG_INFINITY => {
+                            Some((level, f64::NEG_INFINITY))
+                        }
                         (Some(_), None) => {
                             *skipped = true;
                             continue;
@@ -536,6 +546,7 @@ fn search_with(
                         if let Some((level, c)) = with_y {
                             match drive_of(z) {
                                 Some(dz) if c + a * kz.abs() as f64 * dz >= level => {}
+                                _ if level == f64::NEG_INFINITY => {}
                                 _ => {
                                     *skipped = true;
                                     continue;
@@ -865,7 +876,10 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                     }
                     excluded[x] = true;
                 }
-                floor = kth_level(&mut look).map(|level| Floor {
+                // without K levelled there, the floor starts at −∞ and rises as the
+                // search finds K
+                let level = kth_level(&mut look).unwrap_or(f64::NEG_INFINITY);
+                floor = Some(Floor {
                     level: std::cell::Cell::new(level),
                     drive: &drive,
                     by_pos: &by_pos,
@@ -913,6 +927,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
         best = fresh(&strong_held);
         let mut size = levelled.min(FIRST_SET);
         let mut settled = false;
+        let mut fell_back = false;
         if levelled > 0 && prunable {
             // Emitters strongest bound first, each with its products among those before it
             // (each product once, when its last emitter comes), held against the K-th
@@ -931,6 +946,11 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             let mut skipped = false;
             (found, kept) = (0, 0);
             for pos in 0..levelled {
+                if pos == ONE_BY_ONE {
+                    // the K-th is not settled among many: search by whole sets instead
+                    fell_back = true;
+                    break;
+                }
                 bring_forward(&mut order, &mut ready, pos + 1, &bounds);
                 let x = order[pos];
                 if let Some(t) = kth_level(&mut best) {
@@ -970,9 +990,12 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
                 partner_max = partner_max.max(drive[x].unwrap_or(f64::NEG_INFINITY));
             }
             // every levelled emitter searched: settled once the K-th has a level
-            settled |= !over.get() && kth_level(&mut best).is_some();
+            settled |= !fell_back && !over.get() && kth_level(&mut best).is_some();
             complete &= !skipped && levelled + strong_count == n;
-        } else if levelled > 0 {
+            size = (2 * ONE_BY_ONE).min(levelled);
+        }
+        if levelled > 0 && !settled && !over.get() && (fell_back || !prunable) {
+            complete = true;
             loop {
                 bring_forward(&mut order, &mut ready, size + 1, &bounds);
                 best = fresh(&strong_held);
