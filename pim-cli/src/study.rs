@@ -40,7 +40,10 @@ pub enum StudyOrder {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters)?))?;
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+    // the budget holds for the whole study: shared among the listings in flight
+    let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters)?))?
+        .shared_by(pim_core::study::listings_in_flight(threads));
     let emitters = site.emitters();
     let rx_source = args.receivers.display().to_string();
     let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
@@ -77,7 +80,6 @@ pub fn run(args: Args) -> CliResult {
         writeln!(out, "  \"receivers\": [")?;
     }
     let receivers = &rx_file.receivers;
-    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     // Each receiver on its own thread, written in file order as soon as it and every
     // earlier one are done.
     let work = |i: usize| -> CliResult<StudiedReceiver> {

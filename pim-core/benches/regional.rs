@@ -5,94 +5,16 @@
 //!   at most 1 s;
 //! - study, top 10 at each receiver, receivers on 2 threads written in order: the target
 //!   is 100,000 emitters × 5,000 receivers in 60 s; benched at 20,000 emitters × 8
-//!   receivers for the rate per receiver (no spatial index yet: each receiver weighs
-//!   every emitter).
+//!   receivers and at 100,000 emitters × 32 receivers for the rate per receiver.
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use pim_core::emitter::Emitter;
 use pim_core::freq::Hz;
-use pim_core::geo::{destination, GeoPoint};
+use pim_core::geo::GeoPoint;
 use pim_core::{Query, Site};
 
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
-    fn below(&mut self, n: i64) -> i64 {
-        (self.next() % n as u64) as i64
-    }
-    fn unit(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
-
-/// The south-west corner of the square.
-const CORNER: (f64, f64) = (44.55, -122.64);
-
-/// `n` emitters on `n / 8` tower sites in a 100 km square (about 0.9° of latitude by
-/// 1.27° of longitude at 45° N): class, channel raster, width and ERP drawn per emitter.
-pub fn regional(n: usize, seed: u64) -> (Vec<Emitter>, Vec<GeoPoint>) {
-    let mut rng = Rng(seed | 1);
-    let towers: Vec<GeoPoint> = (0..(n / 8).max(1))
-        .map(|_| GeoPoint::new(CORNER.0 + 0.9 * rng.unit(), CORNER.1 + 1.27 * rng.unit()))
-        .collect();
-    let emitters = (0..n)
-        .map(|i| {
-            let tower = towers[rng.below(towers.len() as i64) as usize];
-            let class = rng.below(100);
-            // (low Hz, channels, raster Hz, width Hz, ERP W low, high, kind)
-            let (lo, channels, raster, width, erp, kind) = match class {
-                0..=39 => (
-                    150_800_000,
-                    9_000,
-                    2_500,
-                    11_250,
-                    (20.0, 300.0),
-                    "land mobile",
-                ),
-                40..=64 => (
-                    450_000_000,
-                    3_200,
-                    6_250,
-                    11_250,
-                    (20.0, 200.0),
-                    "land mobile",
-                ),
-                65..=69 => (152_000_000, 560, 12_500, 16_000, (100.0, 1_000.0), "paging"),
-                70..=94 => (
-                    851_000_000,
-                    1_440,
-                    12_500,
-                    16_000,
-                    (50.0, 500.0),
-                    "trunking",
-                ),
-                _ => (
-                    88_100_000,
-                    100,
-                    200_000,
-                    180_000,
-                    (1_000.0, 50_000.0),
-                    "FM broadcast",
-                ),
-            };
-            let f = lo + rng.below(channels) * raster;
-            let mut e = Emitter::new(format!("TX{i}"), Hz(f), Hz(width));
-            let w = erp.0 + (erp.1 - erp.0) * rng.unit();
-            e.erp_dbm = Some(pim_core::emitter::watts_to_dbm(w));
-            e.position = Some(destination(tower, 360.0 * rng.unit(), 50.0 * rng.unit()));
-            e.height_m = Some(20.0 + 60.0 * rng.unit());
-            e.kind = Some(kind.to_string());
-            e
-        })
-        .collect();
-    (emitters, towers)
-}
+#[path = "support/regional_list.rs"]
+mod regional_list;
+use regional_list::regional;
 
 fn explain_top(c: &mut Criterion) {
     let (emitters, towers) = regional(20_000, 7);
@@ -116,41 +38,50 @@ fn explain_top(c: &mut Criterion) {
     g.finish();
 }
 
-fn study(c: &mut Criterion) {
-    let (emitters, towers) = regional(20_000, 7);
-    let site = Site::new(emitters);
-    // receivers at towers, on channels of the land mobile, UHF and trunking bands
-    let receivers: Vec<(GeoPoint, Hz)> = (0..8)
+/// Receivers at towers, on channels of the land mobile, UHF and trunking bands.
+fn receivers(towers: &[GeoPoint], count: usize) -> Vec<(GeoPoint, Hz)> {
+    (0..count)
         .map(|i| {
             let f = [155_175_000, 460_012_500, 152_512_500, 853_000_000][i % 4];
             (towers[(i * 97) % towers.len()], Hz(f))
         })
-        .collect();
-    let run = || {
-        let mut kept = 0;
-        let r: Result<(), pim_core::Error> = pim_core::study::in_order(
-            receivers.len(),
-            2,
-            |i| {
-                let (at, f) = receivers[i];
-                let mut q = Query::new(f);
-                q.params.max_order = 5;
-                q.junction = Some(at);
-                q.limit = Some(10);
-                site.explain(&q)
-            },
-            |_, answer| {
-                kept += answer?.ranking.candidates.len();
-                Ok(())
-            },
-        );
-        r.map(|_| kept)
-    };
+        .collect()
+}
+
+/// Studies `receivers` on `site` on 2 threads, in order; the candidates kept.
+fn run_study(site: &Site, receivers: &[(GeoPoint, Hz)]) -> Result<usize, pim_core::Error> {
+    let mut kept = 0;
+    pim_core::study::in_order(
+        receivers.len(),
+        2,
+        |i| {
+            let (at, f) = receivers[i];
+            let mut q = Query::new(f);
+            q.params.max_order = 5;
+            q.junction = Some(at);
+            q.limit = Some(10);
+            site.explain(&q)
+        },
+        |_, answer| {
+            kept += answer?.ranking.candidates.len();
+            Ok(())
+        },
+    )
+    .map(|_| kept)
+}
+
+fn study(c: &mut Criterion) {
     let mut g = c.benchmark_group("regional study");
     g.sample_size(10);
-    g.bench_function("20000 emitters, 8 receivers, top 10, 2 threads", |b| {
-        b.iter(&run)
-    });
+    for (n, count) in [(20_000, 8), (100_000, 32)] {
+        let (emitters, towers) = regional(n, 7);
+        let site = Site::new(emitters);
+        let at = receivers(&towers, count);
+        g.bench_function(
+            format!("{n} emitters, {count} receivers, top 10, 2 threads"),
+            |b| b.iter(|| run_study(&site, &at)),
+        );
+    }
     g.finish();
 }
 

@@ -378,9 +378,16 @@ impl LevelModel {
 
     /// The field one emitter sets up at `junction`, or `None` without ERP or location.
     pub fn incidence(&self, emitter: &Emitter, junction: GeoPoint) -> Option<Incidence> {
+        emitter.erp_dbm?;
+        self.incidence_over_ground(emitter, distance_m(emitter.position?, junction))
+    }
+
+    /// [`LevelModel::incidence`] with the emitter `ground` metres from the junction along
+    /// the ground. The drive never rises with `ground`, so a lower bound on the distance
+    /// gives an upper bound on the drive.
+    pub fn incidence_over_ground(&self, emitter: &Emitter, ground: f64) -> Option<Incidence> {
         let erp_dbm = emitter.erp_dbm?;
-        let position = emitter.position?;
-        let ground = distance_m(position, junction);
+        emitter.position?;
         let slant = slant_distance_m(
             ground,
             emitter.height_m.unwrap_or(self.junction_height_m),

@@ -218,7 +218,8 @@ pub struct Ranking {
     pub receiver: Option<GeoPoint>,
     /// The level model used.
     pub model: LevelModel,
-    /// The field of each emitter at the junction, by emitter index.
+    /// The field of each emitter at the junction, by emitter index. A listing of the
+    /// first K holds it for the emitters of its candidates (and those it weighed) only.
     pub incidence: Vec<Option<Incidence>>,
     /// How many candidates lack a level (ranked after the others by order, then offset).
     pub unlevelled: usize,
@@ -467,13 +468,19 @@ fn source_level(
     emitters: &[Emitter],
     ranking: &Ranking,
     receiver: GeoPoint,
+    drive: &dyn Fn(usize) -> Option<f64>,
 ) -> Result<(f64, Option<JunctionTerms>), Missing> {
     let m = &ranking.model;
     match c.mechanism {
         Mechanism::Junction => {
-            let t = ranking
-                .junction_terms(&c.product)
-                .ok_or(Missing::ErpOrLocation)?;
+            let mut drives = Vec::with_capacity(3);
+            for t in c.product.terms() {
+                drives.push((
+                    t.coefficient.unsigned_abs(),
+                    drive(t.emitter).ok_or(Missing::ErpOrLocation)?,
+                ));
+            }
+            let t = m.junction_level(&drives);
             Ok((t.level_dbm, Some(t)))
         }
         Mechanism::Transmitter => {
@@ -634,11 +641,14 @@ pub(crate) struct Ranker<'a> {
     emitters: &'a [Emitter],
     params: &'a SearchParams,
     inputs: &'a RankInputs<'a>,
-    carriers: Vec<crate::emitter::Carrier>,
+    carriers: std::borrow::Cow<'a, [crate::emitter::Carrier]>,
     /// Ground distance from each emitter, and from the junction, to the receiver, metres:
     /// worked out once, when first needed.
-    to_receiver_m: Vec<std::cell::OnceCell<f64>>,
+    to_receiver_m: std::cell::RefCell<std::collections::HashMap<usize, f64>>,
     junction_to_receiver_m: std::cell::OnceCell<f64>,
+    /// Each emitter's field at the junction, worked out when first needed (a ranking of
+    /// the first K only), or `None` when the shell holds every emitter's.
+    lazy: Option<std::cell::RefCell<std::collections::HashMap<usize, Option<Incidence>>>>,
     receiver_modelled: bool,
     /// The ranking's frame: everything but the candidates and the counts.
     pub(crate) shell: Ranking,
@@ -650,13 +660,30 @@ impl<'a> Ranker<'a> {
         params: &'a SearchParams,
         inputs: &'a RankInputs<'a>,
     ) -> Ranker<'a> {
+        let junction = inputs.placement.junction;
+        let mut ranker = Ranker::lazy(emitters, &[], params, inputs);
+        ranker.carriers = std::borrow::Cow::Owned(carriers(emitters));
+        ranker.shell.incidence = emitters
+            .iter()
+            .map(|e| junction.and_then(|j| inputs.model.incidence(e, j)))
+            .collect();
+        ranker.lazy = None;
+        ranker
+    }
+
+    /// A ranker that works out an emitter's field at the junction only when a candidate
+    /// needs it; [`Ranker::finish`] gives the ranking the fields of the emitters of its
+    /// candidates (and of those worked out on the way).
+    pub(crate) fn lazy(
+        emitters: &'a [Emitter],
+        carriers: &'a [crate::emitter::Carrier],
+        params: &'a SearchParams,
+        inputs: &'a RankInputs<'a>,
+    ) -> Ranker<'a> {
         let model = inputs.model;
         let junction = inputs.placement.junction;
         let receiver = inputs.placement.receiver();
-        let incidence = emitters
-            .iter()
-            .map(|e| junction.and_then(|j| model.incidence(e, j)))
-            .collect();
+        let incidence = Vec::new();
         let receiver_modelled = model.rx_iip3_dbm.is_some() && receiver.is_some();
         let mut unmodelled = Vec::new();
         if model.rx_iip3_dbm.is_none() {
@@ -668,11 +695,10 @@ impl<'a> Ranker<'a> {
             emitters,
             params,
             inputs,
-            carriers: carriers(emitters),
-            to_receiver_m: (0..emitters.len())
-                .map(|_| std::cell::OnceCell::new())
-                .collect(),
+            carriers: std::borrow::Cow::Borrowed(carriers),
+            to_receiver_m: Default::default(),
             junction_to_receiver_m: std::cell::OnceCell::new(),
+            lazy: Some(Default::default()),
             receiver_modelled,
             shell: Ranking {
                 candidates: Vec::new(),
@@ -692,6 +718,24 @@ impl<'a> Ranker<'a> {
 
     pub(crate) fn receiver_modelled(&self) -> bool {
         self.receiver_modelled
+    }
+
+    /// Emitter `i`'s field at the junction (`None` without ERP, location or junction).
+    pub(crate) fn incidence(&self, i: usize) -> Option<Incidence> {
+        match &self.lazy {
+            Some(cells) => {
+                if let Some(known) = cells.borrow().get(&i) {
+                    return *known;
+                }
+                let inc = self
+                    .shell
+                    .junction
+                    .and_then(|j| self.shell.model.incidence(&self.emitters[i], j));
+                cells.borrow_mut().insert(i, inc);
+                inc
+            }
+            None => self.shell.incidence[i],
+        }
     }
 
     /// How many candidates ranking `products` makes.
@@ -731,7 +775,9 @@ impl<'a> Ranker<'a> {
                 c.away_from_fix = at.is_some_and(|p| crate::geo::distance_m(p, j) > radius);
             }
             match (junction, receiver) {
-                (Some(j), Some(rx)) => match source_level(&c, emitters, ranking, rx) {
+                (Some(j), Some(rx)) => match source_level(&c, emitters, ranking, rx, &|i| {
+                    self.incidence(i).map(|inc| inc.incident_dbm)
+                }) {
                     Ok((level, junction_terms)) => {
                         let f = product.freq.0 as f64;
                         let route = match (source_of(&c, emitters, j), c.mechanism) {
@@ -747,8 +793,14 @@ impl<'a> Ranker<'a> {
                                     .formed_in
                                     .or_else(|| c.product.terms().next().map(|t| t.emitter));
                                 let ground = match i {
-                                    Some(i) => *self.to_receiver_m[i]
-                                        .get_or_init(|| crate::geo::distance_m(from, rx)),
+                                    Some(i) => {
+                                        let known = self.to_receiver_m.borrow().get(&i).copied();
+                                        known.unwrap_or_else(|| {
+                                            let d = crate::geo::distance_m(from, rx);
+                                            self.to_receiver_m.borrow_mut().insert(i, d);
+                                            d
+                                        })
+                                    }
                                     None => crate::geo::distance_m(from, rx),
                                 };
                                 Some(model.path_over_ground(f, ground, h))
@@ -819,7 +871,20 @@ impl<'a> Ranker<'a> {
     /// The ranking of `candidates`, already in ranking order, with the counts of every
     /// candidate weighed.
     pub(crate) fn finish(self, mut candidates: Vec<Candidate>, tally: Tally) -> Ranking {
+        if self.lazy.is_some() {
+            for c in &candidates {
+                for t in c.product.terms() {
+                    self.incidence(t.emitter);
+                }
+            }
+        }
         let mut ranking = self.shell;
+        if let Some(cells) = self.lazy {
+            ranking.incidence = vec![None; self.emitters.len()];
+            for (i, inc) in cells.into_inner() {
+                ranking.incidence[i] = inc;
+            }
+        }
         let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
         let first = tally.first_levelled.as_ref().and_then(heard_key);
         for (i, c) in candidates.iter_mut().enumerate() {

@@ -52,6 +52,74 @@ pub struct Site {
     emitters: Vec<Emitter>,
     carriers: Vec<Carrier>,
     memory_budget: u64,
+    /// Worked out once for every query: where each emitter is and how strong the site's
+    /// strongest emitter is, for the bounds of the pruned search.
+    pub(crate) index: SiteIndex,
+}
+
+/// What every pruned query on a site shares (see [`crate::top`]).
+#[derive(Clone, Debug, Default)]
+pub(crate) struct SiteIndex {
+    /// The unit normal of the WGS 84 ellipsoid at each emitter's position (`None` without a
+    /// position): the angle between two normals bounds the geodesic between the points
+    /// from below ([`SiteIndex::ground_at_least_m`]).
+    pub(crate) normals: Vec<Option<[f64; 3]>>,
+    /// Emitter indices by carrier frequency, then index.
+    pub(crate) by_freq: Vec<usize>,
+    /// The frequencies in that order, Hz.
+    pub(crate) freq_sorted: Vec<i64>,
+    /// Each emitter's place in that order.
+    pub(crate) place: Vec<usize>,
+    /// The widest occupied bandwidth, Hz.
+    pub(crate) max_bw: i64,
+    /// The strongest ERP of an emitter with a position, dBm (−∞ without one).
+    pub(crate) max_erp_dbm: f64,
+}
+
+/// The smallest radius of curvature of the WGS 84 ellipsoid (the meridian's at the
+/// equator, b²/a), metres.
+const MIN_CURVATURE_RADIUS_M: f64 =
+    6_378_137.0 * (1.0 - 1.0 / 298.257_223_563) * (1.0 - 1.0 / 298.257_223_563);
+
+impl SiteIndex {
+    fn new(emitters: &[Emitter], carriers: &[Carrier]) -> SiteIndex {
+        let mut by_freq: Vec<usize> = (0..emitters.len()).collect();
+        by_freq.sort_by_key(|&i| (carriers[i].freq, i));
+        let mut place = vec![0; by_freq.len()];
+        for (pos, &i) in by_freq.iter().enumerate() {
+            place[i] = pos;
+        }
+        SiteIndex {
+            freq_sorted: by_freq.iter().map(|&i| carriers[i].freq.0).collect(),
+            place,
+            max_bw: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
+            normals: emitters.iter().map(|e| e.position.map(normal)).collect(),
+            by_freq,
+            max_erp_dbm: emitters
+                .iter()
+                .filter(|e| e.position.is_some())
+                .filter_map(|e| e.erp_dbm)
+                .fold(f64::NEG_INFINITY, f64::max),
+        }
+    }
+
+    /// A lower bound on the geodesic distance (m) between emitter `i` and the point whose
+    /// normal is `at`: along any path on the ellipsoid the normal turns at most by the
+    /// path's length over the smallest radius of curvature, so the geodesic is at least
+    /// that radius times the angle between the end normals.
+    pub(crate) fn ground_at_least_m(&self, i: usize, at: [f64; 3]) -> Option<f64> {
+        let n = self.normals[i]?;
+        let chord =
+            ((n[0] - at[0]).powi(2) + (n[1] - at[1]).powi(2) + (n[2] - at[2]).powi(2)).sqrt();
+        let angle = 2.0 * (chord / 2.0).min(1.0).asin();
+        Some((MIN_CURVATURE_RADIUS_M * angle * (1.0 - 1e-9) - 1e-6).max(0.0))
+    }
+}
+
+/// The unit normal of the WGS 84 ellipsoid at `p` (geodetic latitude and longitude).
+pub(crate) fn normal(p: GeoPoint) -> [f64; 3] {
+    let (lat, lon) = (p.lat_deg.to_radians(), p.lon_deg.to_radians());
+    [lat.cos() * lon.cos(), lat.cos() * lon.sin(), lat.sin()]
 }
 
 impl Default for Site {
@@ -66,6 +134,7 @@ impl Site {
     pub fn new(emitters: Vec<Emitter>) -> Site {
         let carriers = carriers(&emitters);
         Site {
+            index: SiteIndex::new(&emitters, &carriers),
             emitters,
             carriers,
             memory_budget: DEFAULT_MEMORY_BUDGET_BYTES,
@@ -78,6 +147,14 @@ impl Site {
     pub fn with_memory_budget(mut self, bytes: u64) -> Site {
         self.memory_budget = bytes;
         self
+    }
+
+    /// The same site with its memory budget shared among `listings` listings held at once
+    /// (a study's receivers in flight, [`crate::study::listings_in_flight`]): each may
+    /// hold the budget divided by their number, so together they stay within it.
+    pub fn shared_by(self, listings: usize) -> Site {
+        let each = self.memory_budget / listings.max(1) as u64;
+        self.with_memory_budget(each)
     }
 
     /// The memory a listing may hold, bytes.
@@ -163,8 +240,8 @@ impl Site {
             logbook: query.logbook.as_ref(),
             heard: &query.heard,
         };
-        let candidates =
-            Ranker::new(&self.emitters, &query.params, &inputs).candidate_count(&products);
+        let candidates = Ranker::lazy(&self.emitters, &self.carriers, &query.params, &inputs)
+            .candidate_count(&products);
         if !self.fits(found, candidates) {
             return Err(self.over_budget(found));
         }
@@ -282,8 +359,8 @@ impl Explanation {
     /// heard levels of their own). Refused when this ranking and the one held would
     /// together pass the site's memory budget.
     pub fn ranked_with(&self, site: &Site, inputs: &RankInputs) -> Result<Ranking> {
-        let candidates =
-            Ranker::new(site.emitters(), &self.params, inputs).candidate_count(&self.products);
+        let candidates = Ranker::lazy(site.emitters(), site.carriers(), &self.params, inputs)
+            .candidate_count(&self.products);
         let held = self.ranking.candidates.len() + candidates;
         if !site.fits(self.products.len(), held) {
             return Err(site.over_budget(self.products.len()));

@@ -2,6 +2,10 @@
 //! several threads and handed back in receiver order as soon as it and every earlier one
 //! are ready, so the first result is out long before the last is done and memory holds
 //! only the results waiting for an earlier one (at most a few per thread).
+//!
+//! A study of listings shares the site's memory budget among the listings that can be in
+//! flight at once ([`listings_in_flight`], [`crate::Site::shared_by`]), so the whole study
+//! stays within it.
 
 use std::collections::BTreeMap;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
@@ -10,6 +14,12 @@ use std::sync::{mpsc, Condvar, Mutex};
 /// How far (in items) a thread may work ahead of the first result not yet handed back,
 /// per thread.
 const AHEAD_PER_THREAD: usize = 4;
+
+/// How many results [`in_order`] can hold at once on `threads` threads: those being
+/// worked out and those waiting for an earlier one to be handed back.
+pub fn listings_in_flight(threads: usize) -> usize {
+    threads.max(1) * AHEAD_PER_THREAD
+}
 
 /// Runs `work(i)` for every `i` in `0..count` on `threads` threads and hands each result
 /// to `deliver` in order of `i`, from the calling thread. Stops at the first error
@@ -134,6 +144,42 @@ mod tests {
         );
         assert!(r.is_ok());
         assert_eq!(seen, (0..200).collect::<Vec<_>>());
+    }
+
+    #[test]
+    fn results_in_flight_stay_within_the_count() {
+        // each result is alive from its work's start until it is handed back and dropped
+        struct Held<'a>(&'a AtomicUsize);
+        impl Drop for Held<'_> {
+            fn drop(&mut self) {
+                self.0.fetch_sub(1, Ordering::SeqCst);
+            }
+        }
+        let (alive, peak) = (AtomicUsize::new(0), AtomicUsize::new(0));
+        let threads = 3;
+        let r: Result<(), ()> = in_order(
+            300,
+            threads,
+            |i| {
+                let now = alive.fetch_add(1, Ordering::SeqCst) + 1;
+                peak.fetch_max(now, Ordering::SeqCst);
+                if i % 5 == 0 {
+                    std::thread::sleep(std::time::Duration::from_millis(1));
+                }
+                Held(&alive)
+            },
+            |i, held| {
+                // the first ones are slow now and then: later ones wait
+                if i % 50 == 0 {
+                    std::thread::sleep(std::time::Duration::from_millis(5));
+                }
+                drop(held);
+                Ok(())
+            },
+        );
+        assert!(r.is_ok());
+        assert!(peak.load(Ordering::SeqCst) <= listings_in_flight(threads));
+        assert_eq!(alive.load(Ordering::SeqCst), 0);
     }
 
     #[test]

@@ -105,3 +105,66 @@ proptest! {
         }
     }
 }
+
+/// A larger site: more emitters than the strong emitters' first look takes (64), ERPs
+/// from 1 W to 50 kW and places out to 20 km, so that the drive bounds, the strong
+/// emitters' floor and the transmitters' own bound all prune.
+fn wide_spec() -> impl Strategy<Value = Spec> {
+    (
+        0i64..96,
+        prop::bool::weighted(0.1),
+        prop::sample::select(vec![11_250i64, 16_000, 180_000]),
+        prop::option::weighted(0.95, 1.0f64..50_000.0),
+        prop::option::weighted(0.95, (0.0f64..360.0, 2.0f64..20_000.0)),
+    )
+        .prop_map(|(channel, fm, width, erp_w, place)| Spec {
+            channel,
+            fm,
+            width,
+            erp_w,
+            place,
+        })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 32, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_202), failure_persistence: None, ..ProptestConfig::default() })]
+
+    /// The same on sites past the first look, the fields of the candidates' emitters
+    /// included.
+    #[test]
+    fn limit_k_equals_the_first_k_on_larger_sites(
+        specs in prop::collection::vec(wide_spec(), 70..130),
+        target_channel in 0i64..96,
+        k in 1usize..25,
+        max_order in 3u32..6,
+        max_emitters in 2u32..4,
+        alpha in 0.5f64..1.2,
+        weak_junction in prop::bool::ANY,
+    ) {
+        let junction = GeoPoint::new(45.0, -122.0);
+        let site = build(&specs, junction, true);
+        let mut query = Query::new(Hz(148_000_000 + target_channel * 12_500));
+        query.params.max_order = max_order;
+        query.params.max_emitters = max_emitters;
+        query.junction = Some(junction);
+        // with a junction that hardly converts, the transmitters' own products lead
+        let shift = if weak_junction { 150.0 } else { 0.0 };
+        let im3_dbm = LevelModel::default().im3_dbm - shift;
+        query.model = LevelModel { drive_exponent: alpha, im3_dbm, ..LevelModel::default() };
+        let full = site.explain(&query).unwrap();
+        query.limit = Some(k);
+        let top = site.explain(&query).unwrap();
+        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
+        prop_assert_eq!(top.ranking.candidates.len(), want.len());
+        for (a, b) in top.ranking.candidates.iter().zip(want) {
+            prop_assert_eq!(a, b);
+            for t in a.product.terms() {
+                prop_assert_eq!(
+                    top.ranking.incidence[t.emitter].map(|i| i.incident_dbm),
+                    full.ranking.incidence[t.emitter].map(|i| i.incident_dbm)
+                );
+            }
+        }
+        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
+    }
+}

@@ -1,0 +1,86 @@
+//! The seeded synthetic regional licence list of the `regional` benchmark and the
+//! `regional_study` example.
+
+use pim_core::emitter::Emitter;
+use pim_core::freq::Hz;
+use pim_core::geo::{destination, GeoPoint};
+
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        self.0
+    }
+    fn below(&mut self, n: i64) -> i64 {
+        (self.next() % n as u64) as i64
+    }
+    fn unit(&mut self) -> f64 {
+        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
+/// The south-west corner of the square.
+const CORNER: (f64, f64) = (44.55, -122.64);
+
+/// `n` emitters on `n / 8` tower sites in a 100 km square (about 0.9° of latitude by
+/// 1.27° of longitude at 45° N): class, channel raster, width and ERP drawn per emitter.
+pub fn regional(n: usize, seed: u64) -> (Vec<Emitter>, Vec<GeoPoint>) {
+    let mut rng = Rng(seed | 1);
+    let towers: Vec<GeoPoint> = (0..(n / 8).max(1))
+        .map(|_| GeoPoint::new(CORNER.0 + 0.9 * rng.unit(), CORNER.1 + 1.27 * rng.unit()))
+        .collect();
+    let emitters = (0..n)
+        .map(|i| {
+            let tower = towers[rng.below(towers.len() as i64) as usize];
+            let class = rng.below(100);
+            // (low Hz, channels, raster Hz, width Hz, ERP W low, high, kind)
+            let (lo, channels, raster, width, erp, kind) = match class {
+                0..=39 => (
+                    150_800_000,
+                    9_000,
+                    2_500,
+                    11_250,
+                    (20.0, 300.0),
+                    "land mobile",
+                ),
+                40..=64 => (
+                    450_000_000,
+                    3_200,
+                    6_250,
+                    11_250,
+                    (20.0, 200.0),
+                    "land mobile",
+                ),
+                65..=69 => (152_000_000, 560, 12_500, 16_000, (100.0, 1_000.0), "paging"),
+                70..=94 => (
+                    851_000_000,
+                    1_440,
+                    12_500,
+                    16_000,
+                    (50.0, 500.0),
+                    "trunking",
+                ),
+                _ => (
+                    88_100_000,
+                    100,
+                    200_000,
+                    180_000,
+                    (1_000.0, 50_000.0),
+                    "FM broadcast",
+                ),
+            };
+            let f = lo + rng.below(channels) * raster;
+            let mut e = Emitter::new(format!("TX{i}"), Hz(f), Hz(width));
+            let w = erp.0 + (erp.1 - erp.0) * rng.unit();
+            e.erp_dbm = Some(pim_core::emitter::watts_to_dbm(w));
+            e.position = Some(destination(tower, 360.0 * rng.unit(), 50.0 * rng.unit()));
+            e.height_m = Some(20.0 + 60.0 * rng.unit());
+            e.kind = Some(kind.to_string());
+            e
+        })
+        .collect();
+    (emitters, towers)
+}

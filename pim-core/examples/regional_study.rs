@@ -1,0 +1,68 @@
+//! A regional study from the command line, for timing and peak memory
+//! (`/usr/bin/time -v`): `regional_study EMITTERS RECEIVERS THREADS`, on the seeded
+//! regional licence list of the `regional` benchmark.
+
+#[path = "../benches/support/regional_list.rs"]
+mod regional_list;
+
+use pim_core::freq::Hz;
+use pim_core::{Query, Site};
+
+fn main() {
+    let arg = |i: usize, d: usize| {
+        std::env::args()
+            .nth(i)
+            .and_then(|a| a.parse().ok())
+            .unwrap_or(d)
+    };
+    let (n, count, threads) = (arg(1, 100_000), arg(2, 32), arg(3, 2));
+    // only receiver FROM on, when given
+    let from = arg(4, 0);
+    let (emitters, towers) = regional_list::regional(n, 7);
+    let site = Site::new(emitters);
+    let start = std::time::Instant::now();
+    let mut first = None;
+    let mut kept = 0;
+    let mut times = Vec::with_capacity(count);
+    let r: Result<(), pim_core::Error> = pim_core::study::in_order(
+        count,
+        threads,
+        |i| {
+            let began = std::time::Instant::now();
+            let i = i + from;
+            let f = [155_175_000, 460_012_500, 152_512_500, 853_000_000][i % 4];
+            let mut q = Query::new(Hz(f));
+            q.params.max_order = 5;
+            q.junction = Some(towers[(i * 97) % towers.len()]);
+            q.limit = Some(10);
+            (site.explain(&q), began.elapsed().as_secs_f64())
+        },
+        |i, (answer, took)| {
+            if took > 1.0 {
+                println!("receiver {} took {took:.1} s", i + from);
+            }
+            first.get_or_insert(start.elapsed());
+            times.push(took);
+            kept += answer?.ranking.candidates.len();
+            Ok(())
+        },
+    );
+    r.expect("within the memory budget");
+    let all = start.elapsed();
+    times.sort_by(f64::total_cmp);
+    let at = |q: f64| times[((times.len() - 1) as f64 * q) as usize];
+    println!(
+        "per receiver: median {:.3} s, 90 % {:.3} s, 99 % {:.3} s, slowest {:.3} s, mean {:.3} s",
+        at(0.5),
+        at(0.9),
+        at(0.99),
+        at(1.0),
+        times.iter().sum::<f64>() / times.len() as f64
+    );
+    println!(
+        "{n} emitters, {count} receivers, {threads} threads: {kept} candidates, first receiver {:.3} s, all {:.2} s, {:.3} s a receiver",
+        first.map_or(0.0, |d| d.as_secs_f64()),
+        all.as_secs_f64(),
+        all.as_secs_f64() / count as f64
+    );
+}
