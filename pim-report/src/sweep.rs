@@ -274,7 +274,8 @@ fn suspect_ids(s: &Suspect, emitters: &[Emitter]) -> Vec<String> {
     s.emitters.iter().map(|&i| emitters[i].id.clone()).collect()
 }
 
-fn suspect_explains(s: &Suspect, sweep: &Sweep, emitters: &[Emitter]) -> Vec<String> {
+/// Each peak an emitter set explains: its product and where the peak lies.
+pub(crate) fn suspect_explains(s: &Suspect, sweep: &Sweep, emitters: &[Emitter]) -> Vec<String> {
     s.explains
         .iter()
         .map(|(i, product, _)| {

@@ -956,22 +956,11 @@ fn band_blocks(band: &BandTrace, emitters: &[Emitter], svg: String) -> Vec<Block
                 .iter()
                 .map(|&i| emitters[i].id.as_str())
                 .collect();
-            let explains: Vec<String> = s
-                .explains
-                .iter()
-                .map(|(i, product, _)| {
-                    format!(
-                        "{} at {:.4} MHz",
-                        formula(product, emitters),
-                        sweep.peaks[*i].peak.freq.mhz()
-                    )
-                })
-                .collect();
             format!(
                 "{} explain {} peaks: {}.",
                 ids.join(" + "),
                 s.explains.len(),
-                explains.join("; ")
+                crate::sweep::suspect_explains(s, sweep, emitters).join("; ")
             )
         })
         .collect();

@@ -59,6 +59,19 @@ pub fn next_csv(
     Ok(())
 }
 
+/// The region now and the σ assumed of the next bearing, one line.
+fn now_line(fix: &Fix, sigma_deg: f64) -> String {
+    let e = &fix.ellipse;
+    format!(
+        "Now: {:.0}% ellipse {:.0} × {:.0} m from {} readings; next bearing assumed σ {:.1}°.\n",
+        e.confidence * 100.0,
+        e.semi_major_m,
+        e.semi_minor_m,
+        fix.n_used,
+        sigma_deg
+    )
+}
+
 /// The best spot and the alternatives as a Markdown table under the region now.
 pub fn next_markdown(
     fix: &Fix,
@@ -66,15 +79,7 @@ pub fn next_markdown(
     best: &ScoredSpot,
     alternatives: &[ScoredSpot],
 ) -> String {
-    let e = &fix.ellipse;
-    let mut out = format!(
-        "Now: {:.0}% ellipse {:.0} × {:.0} m from {} readings; next bearing assumed σ {:.1}°.\n\n",
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m,
-        fix.n_used,
-        sigma_deg
-    );
+    let mut out = format!("{}\n", now_line(fix, sigma_deg));
     out.push_str("| # | spot | lat | lon | range m | antenna points ° | ellipse after m |\n|---:|---|---:|---:|---:|---:|---|\n");
     for (i, s) in std::iter::once(best).chain(alternatives).enumerate() {
         let c = spot_cells(i + 1, s);
@@ -131,18 +136,6 @@ pub fn page_next_json(best: Option<&ScoredSpot>, from: Option<GeoPoint>) -> Valu
     })
 }
 
-/// The inputs of the walk page, by the log column each fills.
-const PAGE_INPUTS: [&str; 8] = [
-    "lat",
-    "lon",
-    "bearing_deg",
-    "north",
-    "sigma_deg",
-    "level_dbm",
-    "note",
-    "time",
-];
-
 /// A refused reading for the walk page: the message beside the input it concerns, when
 /// the error names one of the page's fields.
 pub fn form_error_json(e: &Error) -> Value {
@@ -151,7 +144,8 @@ pub fn form_error_json(e: &Error) -> Value {
         .as_ref()
         .filter(|p| p.line.is_none())
         .map(|p| p.source.as_str())
-        .filter(|s| PAGE_INPUTS.contains(s));
+        // the page's inputs are named by the log column each fills
+        .filter(|s| pim_io::fieldlog::LOG_COLUMNS.contains(s));
     json!({
         "field": field,
         "message": match field {
@@ -187,15 +181,7 @@ pub fn next_text(
     best: &ScoredSpot,
     alternatives: &[ScoredSpot],
 ) -> String {
-    let e = &fix.ellipse;
-    let mut out = format!(
-        "Now: {:.0}% ellipse {:.0} × {:.0} m from {} readings; next bearing assumed σ {:.1}°.\n",
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m,
-        fix.n_used,
-        sigma_deg
-    );
+    let mut out = now_line(fix, sigma_deg);
     out.push_str(&format!(
         "Go to {}, {:.0} m from the fix; expect the antenna to point {:.0}°.\n\n",
         match &best.spot.name {
