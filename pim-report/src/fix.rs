@@ -6,6 +6,27 @@ use pim_io::fieldlog::Correction;
 use crate::text_table::{Align, TextTable};
 
 /// The estimator's name as a reader knows it.
+/// The region a fix claims, in a few words: the ellipse with its semi-axes and
+/// orientation, or the likelihood contour and how far it reaches when the ellipse does
+/// not hold (`95% ellipse 30 × 18 m at 31°`).
+pub fn region_claimed(fix: &Fix) -> String {
+    let e = &fix.ellipse;
+    match fix.region_kind {
+        RegionKind::Ellipse => format!(
+            "{:.0}% ellipse {:.0} × {:.0} m at {:.0}°",
+            e.confidence * 100.0,
+            e.semi_major_m,
+            e.semi_minor_m,
+            e.orientation_deg
+        ),
+        RegionKind::Likelihood => format!(
+            "{:.0}% region the likelihood contour, reaching {:.0} m from the fix (the ellipse does not hold here)",
+            e.confidence * 100.0,
+            fix.reach_m()
+        ),
+    }
+}
+
 pub fn method_name(m: Method) -> &'static str {
     match m {
         Method::Ml => "maximum likelihood",

@@ -177,7 +177,6 @@ impl TicketFiles {
     /// What is said after the ticket is written into `paths`: the nothing-explains
     /// statement first when there is one, the first candidate, the fix and the files.
     pub fn summary(&self, t: &TicketInputs, paths: &[std::path::PathBuf]) -> String {
-        let e = &t.fix.ellipse;
         let mut out = String::new();
         if let Some(statement) = &self.nothing_explains {
             out.push_str(&format!(
@@ -191,12 +190,10 @@ impl TicketFiles {
             self.top_formula.as_deref().unwrap_or("none")
         ));
         out.push_str(&format!(
-            "Junction at {:.6}, {:.6}; {:.0}% ellipse {:.0} × {:.0} m.\nWrote:\n",
+            "Junction at {:.6}, {:.6}; {}.\nWrote:\n",
             t.fix.position.lat_deg,
             t.fix.position.lon_deg,
-            e.confidence * 100.0,
-            e.semi_major_m,
-            e.semi_minor_m
+            crate::fix::region_claimed(&t.fix)
         ));
         for p in paths {
             out.push_str(&format!("  {}\n", p.display()));

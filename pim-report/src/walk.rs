@@ -61,12 +61,9 @@ pub fn next_csv(
 
 /// The region now and the σ assumed of the next bearing, one line.
 fn now_line(fix: &Fix, sigma_deg: f64) -> String {
-    let e = &fix.ellipse;
     format!(
-        "Now: {:.0}% ellipse {:.0} × {:.0} m from {} readings; next bearing assumed σ {:.1}°.\n",
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m,
+        "Now: {} from {} readings; next bearing assumed σ {:.1}°.\n",
+        crate::fix::region_claimed(fix),
         fix.n_used,
         sigma_deg
     )
@@ -219,27 +216,13 @@ pub fn next_text(
 
 /// The running fix in one line, as `pim log` shows it after each change to the log.
 pub fn running_fix_line(fix: &Fix) -> String {
-    let e = &fix.ellipse;
-    let region = match fix.region_kind {
-        pim_core::fix::RegionKind::Ellipse => format!(
-            "{:.0}% ellipse {:.0} × {:.0} m at {:.0}°",
-            e.confidence * 100.0,
-            e.semi_major_m,
-            e.semi_minor_m,
-            e.orientation_deg
-        ),
-        pim_core::fix::RegionKind::Likelihood => format!(
-            "{:.0}% region the likelihood contour, reaching {:.0} m from the fix (the ellipse does not hold here)",
-            e.confidence * 100.0,
-            fix.reach_m()
-        ),
-    };
     format!(
-        "Running fix {:.6}, {:.6} from {} readings ({}); {region}.\n",
+        "Running fix {:.6}, {:.6} from {} readings ({}); {}.\n",
         fix.position.lat_deg,
         fix.position.lon_deg,
         fix.n_used,
         crate::fix::method_name(fix.method),
+        crate::fix::region_claimed(fix),
     )
 }
 
