@@ -43,7 +43,19 @@ fn main() {
             }
             first.get_or_insert(start.elapsed());
             times.push(took);
-            kept += answer?.ranking.candidates.len();
+            let answer = answer?;
+            if std::env::var_os("DIGEST").is_some() {
+                for c in &answer.ranking.candidates {
+                    println!(
+                        "R{} {:?} {:?} {:?}",
+                        i + from,
+                        c.product,
+                        c.mechanism,
+                        c.breakdown.map(|b| (b.in_channel_dbm * 1e6).round() / 1e6)
+                    );
+                }
+            }
+            kept += answer.ranking.candidates.len();
             Ok(())
         },
     );

@@ -51,6 +51,7 @@ pub mod freq;
 pub mod geo;
 pub mod intermod;
 pub mod level;
+mod nearby;
 pub mod onair;
 pub mod plan;
 pub mod rank;

@@ -28,6 +28,7 @@ use crate::intermod::{
     co_channel, retain_coefficients, search_products_while, Product, SearchParams, MAX_ORDER,
 };
 use crate::level::LevelModel;
+use crate::nearby::{angle_between, ground_for_angle, EmitterTree};
 use crate::onair::Logbook;
 use crate::rank::{
     formula, rank_candidates, Candidate, HeardLevel, Placement, RankInputs, Ranker, Ranking,
@@ -74,11 +75,19 @@ pub(crate) struct SiteIndex {
     pub(crate) max_bw: i64,
     /// The strongest ERP of an emitter with a position, dBm (−∞ without one).
     pub(crate) max_erp_dbm: f64,
+    /// The emitters with a position, in a tree of where they are.
+    pub(crate) tree: EmitterTree,
+    /// The emitters without a position, by index.
+    pub(crate) unplaced: Vec<usize>,
+    /// How many emitters lack an ERP or a position (their products cannot be levelled).
+    pub(crate) unlevelled: usize,
+    /// Whether each emitter has both (its drive at a junction can be bounded).
+    pub(crate) levelled: Vec<bool>,
 }
 
 /// The smallest radius of curvature of the WGS 84 ellipsoid (the meridian's at the
 /// equator, b²/a), metres.
-const MIN_CURVATURE_RADIUS_M: f64 =
+pub(crate) const MIN_CURVATURE_RADIUS_M: f64 =
     6_378_137.0 * (1.0 - 1.0 / 298.257_223_563) * (1.0 - 1.0 / 298.257_223_563);
 
 impl SiteIndex {
@@ -89,11 +98,27 @@ impl SiteIndex {
         for (pos, &i) in by_freq.iter().enumerate() {
             place[i] = pos;
         }
+        let normals: Vec<Option<[f64; 3]>> =
+            emitters.iter().map(|e| e.position.map(normal)).collect();
+        let erp: Vec<Option<f64>> = emitters.iter().map(|e| e.erp_dbm).collect();
+        let freq: Vec<i64> = carriers.iter().map(|c| c.freq.0).collect();
         SiteIndex {
             freq_sorted: by_freq.iter().map(|&i| carriers[i].freq.0).collect(),
             place,
             max_bw: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
-            normals: emitters.iter().map(|e| e.position.map(normal)).collect(),
+            tree: EmitterTree::new(&normals, &erp, &freq),
+            unplaced: (0..emitters.len())
+                .filter(|&i| normals[i].is_none())
+                .collect(),
+            unlevelled: emitters
+                .iter()
+                .filter(|e| e.position.is_none() || e.erp_dbm.is_none())
+                .count(),
+            levelled: emitters
+                .iter()
+                .map(|e| e.position.is_some() && e.erp_dbm.is_some())
+                .collect(),
+            normals,
             by_freq,
             max_erp_dbm: emitters
                 .iter()
@@ -109,10 +134,7 @@ impl SiteIndex {
     /// that radius times the angle between the end normals.
     pub(crate) fn ground_at_least_m(&self, i: usize, at: [f64; 3]) -> Option<f64> {
         let n = self.normals[i]?;
-        let chord =
-            ((n[0] - at[0]).powi(2) + (n[1] - at[1]).powi(2) + (n[2] - at[2]).powi(2)).sqrt();
-        let angle = 2.0 * (chord / 2.0).min(1.0).asin();
-        Some((MIN_CURVATURE_RADIUS_M * angle * (1.0 - 1e-9) - 1e-6).max(0.0))
+        Some(ground_for_angle(angle_between(&n, &at)))
     }
 }
 
