@@ -4,17 +4,17 @@
 //! - explain, 20,000 emitters, order ≤ 5, three emitters, junction at a tower, top 20:
 //!   at most 1 s;
 //! - study, top 10 at each receiver, receivers on 2 threads written in order: the target
-//!   is 100,000 emitters × 5,000 receivers in 60 s; benched at 20,000 emitters × 8
-//!   receivers and at 100,000 emitters × 32 receivers for the rate per receiver.
+//!   is 100,000 emitters × 5,000 receivers in 60 s (the `regional_full` benchmark, opt-in:
+//!   about 8 minutes); benched here at 20,000 emitters × 8 receivers and at 100,000
+//!   emitters × 32 receivers for the rate per receiver.
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use pim_core::freq::Hz;
-use pim_core::geo::GeoPoint;
 use pim_core::{Query, Site};
 
 #[path = "support/regional_list.rs"]
 mod regional_list;
-use regional_list::regional;
+use regional_list::{receivers, regional, run_study};
 
 fn explain_top(c: &mut Criterion) {
     let (emitters, towers) = regional(20_000, 7);
@@ -36,38 +36,6 @@ fn explain_top(c: &mut Criterion) {
         b.iter(|| site.explain(&query))
     });
     g.finish();
-}
-
-/// Receivers at towers, on channels of the land mobile, UHF and trunking bands.
-fn receivers(towers: &[GeoPoint], count: usize) -> Vec<(GeoPoint, Hz)> {
-    (0..count)
-        .map(|i| {
-            let f = [155_175_000, 460_012_500, 152_512_500, 853_000_000][i % 4];
-            (towers[(i * 97) % towers.len()], Hz(f))
-        })
-        .collect()
-}
-
-/// Studies `receivers` on `site` on 2 threads, in order; the candidates kept.
-fn run_study(site: &Site, receivers: &[(GeoPoint, Hz)]) -> Result<usize, pim_core::Error> {
-    let mut kept = 0;
-    pim_core::study::in_order(
-        receivers.len(),
-        2,
-        |i| {
-            let (at, f) = receivers[i];
-            let mut q = Query::new(f);
-            q.params.max_order = 5;
-            q.junction = Some(at);
-            q.limit = Some(10);
-            site.explain(&q)
-        },
-        |_, answer| {
-            kept += answer?.ranking.candidates.len();
-            Ok(())
-        },
-    )
-    .map(|_| kept)
 }
 
 fn study(c: &mut Criterion) {

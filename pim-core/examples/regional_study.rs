@@ -1,6 +1,8 @@
 //! A regional study from the command line, for timing and peak memory
-//! (`/usr/bin/time -v`): `regional_study EMITTERS RECEIVERS THREADS`, on the seeded
-//! regional licence list of the `regional` benchmark.
+//! (`/usr/bin/time -v`): `regional_study EMITTERS RECEIVERS THREADS [FROM]`, on the
+//! seeded regional licence list and receivers of the `regional` benchmark, from receiver
+//! FROM on (0 unless given). With `DIGEST` set in the environment it prints every
+//! receiver's candidates (product, mechanism, level), to compare two builds' answers.
 
 #[path = "../benches/support/regional_list.rs"]
 mod regional_list;

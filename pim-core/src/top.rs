@@ -6,43 +6,47 @@
 //! everything is counted as it passes.
 //!
 //! **Exact bound.** Every mechanism's level is non-decreasing in each emitter's drive
-//! ([`crate::level`], "Bound for pruning"), and the channel fraction is at most 1. So
-//! for each emitter j an upper bound hⱼ on the in-channel level of any junction or
-//! receiver candidate whose product involves j follows from j's own drive with every
-//! other emitter at the strongest drive found: the junction law at each order with the
-//! largest form weight, the receiver's own product from the strongest inputs.
+//! ([`crate::level`], "Bound for pruning"), and the channel fraction is at most 1. So a
+//! junction product of order n none of whose emitters drives above d lies at or below
+//! L₃ + F_max(n) + α·n·(d − P_ref) − s·(n − 3) − e·[n even] less the path from the
+//! junction to the receiver at it (the λ/2π floor), F_max(n) the largest form weight of
+//! the order; and a product with a given shape and some of its drives known is bounded
+//! the same way with the others at their bound.
 //!
-//! **Drives without geodesics.** The drive never rises with the distance, so each
-//! emitter's drive is bounded from a lower bound on its distance to the junction: along
-//! any path on the ellipsoid the normal turns at most by the length over the smallest
-//! radius of curvature (b²/a), so the geodesic is at least b²/a times the angle between
-//! the end normals ([`crate::site`] keeps the normals). Every bound below uses these; the
-//! exact field is worked out only for the emitters of the candidates weighed.
+//! **Drives without geodesics.** The drive never rises with the distance and is never
+//! above the far-field strength at the distance used, so each emitter's drive is bounded
+//! by the far field of its ERP at a lower bound on its slant distance to the junction:
+//! along any path on the ellipsoid the normal turns at most by the length over the
+//! smallest radius of curvature (b²/a), so the geodesic is at least b²/a times the angle
+//! between the end normals, and the chord between them is shorter still ([`crate::site`]
+//! keeps the normals). Every bound below uses these; the exact field is worked out only
+//! for the emitters of the candidates weighed.
 //!
-//! **Strong emitters apart.** A bound that takes every partner at the strongest drive
-//! found is loose when one emitter (a broadcaster near the junction) is far stronger than
-//! the rest. So the [`STRONG`] emitters with the strongest drive at the junction have
-//! every product they take part in searched whole, apart (each partner found by its
-//! frequency window, each product once), and the bounds of the others take their partners
-//! among the others only. Their products are looked at first among the [`FIRST_LOOK`]
-//! emitters of strongest drive; the K-th level found there is a floor (raised as the
-//! search finds K better) below which the whole search of their products skips a
-//! partner (its drive bounds the level as above), and an emitter without a level. A pair
-//! of partners is taken once, the stronger first: once the stronger cannot lift the
-//! product to the floor with the other as strong, no weaker one can.
+//! **Drive order.** The emitters are taken in falling drive bound at the junction from
+//! the site's tree of positions ([`crate::nearby`]), which works a drive out only for
+//! the emitters of the nodes that can still lead, each emitter with its products among
+//! those after it (each product once, when its strongest emitter comes). A first look
+//! at the products of the [`STRONG`] strongest among the [`FIRST_LOOK`] strongest gives a
+//! K-th level, a floor raised as the search finds K better. A partner is skipped when its
+//! drive cannot lift the product of its shape to the floor; a pair of partners is taken
+//! once, the stronger first, and once the stronger cannot lift the product to the floor
+//! with the other as strong, no weaker one can. The partners are found by their frequency
+//! among the emitters taken (the first [`POOL`], in frequency order) while those hold
+//! every partner strong enough, else among all the site's emitters. The search stops at
+//! the first emitter whose own products with weaker ones cannot reach the floor (all
+//! their emitters drive at most as much as it): no later emitter's can.
 //!
-//! **The others.** The other emitters are taken strongest hⱼ first, each with its
-//! products among those taken before it (each product once, when its last emitter
-//! comes), against the K-th level found as above; once the K-th levelled candidate lies
-//! strictly above the bound of the next emitter, no product involving it or any later
-//! one can enter the first K, and the search stops. (With the receiver's own products
-//! modelled, the set doubles from 16 and is searched whole each time.)
+//! With the receiver's own products modelled the bound takes every carrier at the
+//! receiver: the strongest emitters have every product they take part in searched
+//! whole, apart, and the others by whole sets, doubling from 16, until the bound of the
+//! next emitter falls below the K-th.
 //!
 //! **Transmitters' own products.** A harmonic at its spurious limit and 2·f_A ± f_B made
 //! in A's output stage are levelled from the path from A to the receiver: for each A,
 //! the strongest ERP of the site at the least antenna isolation and the path at A's least
 //! distance to the receiver, taken at the lowest frequency a hit can have (free-space
-//! loss rises with frequency), bound them. They are searched last, strongest bound first,
+//! loss rises with frequency), bound them. They are searched last, strongest bound first
+//! from the site's tree (each node bounded by its strongest ERP at its least distance),
 //! until the bound falls below the K-th candidate held; a partner B is skipped when its
 //! own ERP at the least distance between the antennas cannot lift the product to it.
 //!
@@ -177,8 +181,11 @@ impl<'r, 'a> Best<'r, 'a> {
 }
 
 /// An upper bound on the in-channel level (dBm) of any junction or receiver candidate
-/// whose product involves each emitter (module docs); −∞ where none can be levelled, +∞
-/// where no bound holds. A transmitter's own products are listed apart, whole.
+/// whose product involves each emitter and none of the `strong` ones, from its own drive
+/// with every partner at the strongest drive of the others (module docs, "Exact bound"),
+/// and for the receiver's own products from the strongest carrier at the receiver; −∞
+/// where none can be levelled, +∞ where no bound holds. A transmitter's own products are
+/// listed apart.
 fn emitter_bounds(
     ranker: &Ranker,
     query: &Query,
@@ -198,24 +205,11 @@ fn emitter_bounds(
         return vec![f64::INFINITY; n];
     }
     let max_order = params.max_order.min(MAX_ORDER);
-    let max_emitters = params.max_emitters.clamp(1, 3) as usize;
     let path_floor = |slant: f64, f: f64| {
         free_space_loss_db(f, slant.max(wavelength_m(f) / (2.0 * std::f64::consts::PI)))
             - m.rx_antenna_gain_dbi
     };
-    // The largest form weight of each order, over the shapes the search makes.
-    let mut form_max = vec![f64::NEG_INFINITY; max_order as usize + 1];
-    for parts in 1..=max_emitters {
-        for ks in coefficient_sets(parts, max_order) {
-            let ks: Vec<u32> = ks.iter().map(|k| k.unsigned_abs() as u32).collect();
-            let order: u32 = ks.iter().sum();
-            if order >= 2 {
-                let f = form_weight_db(&ks);
-                let slot = &mut form_max[order as usize];
-                *slot = slot.max(f);
-            }
-        }
-    }
+    let form_max = form_max(params);
     // the receiver is at the junction: a lower bound on the distance to it
     let slant: Vec<Option<f64>> = emitters
         .iter()

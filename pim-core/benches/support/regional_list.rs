@@ -4,6 +4,7 @@
 use pim_core::emitter::Emitter;
 use pim_core::freq::Hz;
 use pim_core::geo::{destination, GeoPoint};
+use pim_core::{Query, Site};
 
 struct Rng(u64);
 
@@ -83,4 +84,39 @@ pub fn regional(n: usize, seed: u64) -> (Vec<Emitter>, Vec<GeoPoint>) {
         })
         .collect();
     (emitters, towers)
+}
+
+/// `count` receivers at towers, on channels of the land mobile, UHF and trunking bands.
+#[allow(dead_code)] // not every benchmark studies
+pub fn receivers(towers: &[GeoPoint], count: usize) -> Vec<(GeoPoint, Hz)> {
+    (0..count)
+        .map(|i| {
+            let f = [155_175_000, 460_012_500, 152_512_500, 853_000_000][i % 4];
+            (towers[(i * 97) % towers.len()], Hz(f))
+        })
+        .collect()
+}
+
+/// Studies `receivers` on `site` on 2 threads, in order, order ≤ 5, top 10 each; the
+/// candidates kept.
+#[allow(dead_code)] // not every benchmark studies
+pub fn run_study(site: &Site, receivers: &[(GeoPoint, Hz)]) -> Result<usize, pim_core::Error> {
+    let mut kept = 0;
+    pim_core::study::in_order(
+        receivers.len(),
+        2,
+        |i| {
+            let (at, f) = receivers[i];
+            let mut q = Query::new(f);
+            q.params.max_order = 5;
+            q.junction = Some(at);
+            q.limit = Some(10);
+            site.explain(&q)
+        },
+        |_, answer| {
+            kept += answer?.ranking.candidates.len();
+            Ok(())
+        },
+    )
+    .map(|_| kept)
 }
