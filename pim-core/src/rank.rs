@@ -204,6 +204,29 @@ pub enum NextStep {
     TransmitterSpurious,
 }
 
+/// Emitters' fields at the junction, by emitter index, where worked out.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Fields(std::collections::BTreeMap<usize, Incidence>);
+
+impl Fields {
+    /// Emitter `i`'s field (`None` without ERP, location or junction, or where it was
+    /// not worked out).
+    pub fn get(&self, i: usize) -> Option<Incidence> {
+        self.0.get(&i).copied()
+    }
+
+    /// The fields worked out, by emitter index.
+    pub fn iter(&self) -> impl Iterator<Item = (usize, &Incidence)> {
+        self.0.iter().map(|(i, inc)| (*i, inc))
+    }
+}
+
+impl FromIterator<(usize, Incidence)> for Fields {
+    fn from_iter<T: IntoIterator<Item = (usize, Incidence)>>(iter: T) -> Self {
+        Fields(iter.into_iter().collect())
+    }
+}
+
 /// Ranked candidates and what the ranking rested on.
 #[derive(Clone, Debug)]
 pub struct Ranking {
@@ -219,8 +242,10 @@ pub struct Ranking {
     /// The level model used.
     pub model: LevelModel,
     /// The field of each emitter at the junction, by emitter index. A listing of the
-    /// first K holds it for the emitters of its candidates (and those it weighed) only.
-    pub incidence: Vec<Option<Incidence>>,
+    /// first K holds it for the emitters of its candidates (and those it weighed) only,
+    /// so that a study of many receivers over a long emitter list holds little per
+    /// receiver.
+    pub incidence: Fields,
     /// How many candidates lack a level (ranked after the others by order, then offset).
     pub unlevelled: usize,
     /// Whether on-air evidence took part (it then comes first).
@@ -250,7 +275,7 @@ impl Ranking {
         for t in product.terms() {
             drives.push((
                 t.coefficient.unsigned_abs(),
-                self.incidence[t.emitter]?.incident_dbm,
+                self.incidence.get(t.emitter)?.incident_dbm,
             ));
         }
         Some(self.model.junction_level(&drives))
@@ -665,7 +690,8 @@ impl<'a> Ranker<'a> {
         ranker.carriers = std::borrow::Cow::Owned(carriers(emitters));
         ranker.shell.incidence = emitters
             .iter()
-            .map(|e| junction.and_then(|j| inputs.model.incidence(e, j)))
+            .enumerate()
+            .filter_map(|(i, e)| Some((i, inputs.model.incidence(e, junction?)?)))
             .collect();
         ranker.lazy = None;
         ranker
@@ -683,7 +709,7 @@ impl<'a> Ranker<'a> {
         let model = inputs.model;
         let junction = inputs.placement.junction;
         let receiver = inputs.placement.receiver();
-        let incidence = Vec::new();
+        let incidence = Fields::default();
         let receiver_modelled = model.rx_iip3_dbm.is_some() && receiver.is_some();
         let mut unmodelled = Vec::new();
         if model.rx_iip3_dbm.is_none() {
@@ -734,7 +760,7 @@ impl<'a> Ranker<'a> {
                 cells.borrow_mut().insert(i, inc);
                 inc
             }
-            None => self.shell.incidence[i],
+            None => self.shell.incidence.get(i),
         }
     }
 
@@ -880,10 +906,11 @@ impl<'a> Ranker<'a> {
         }
         let mut ranking = self.shell;
         if let Some(cells) = self.lazy {
-            ranking.incidence = vec![None; self.emitters.len()];
-            for (i, inc) in cells.into_inner() {
-                ranking.incidence[i] = inc;
-            }
+            ranking.incidence = cells
+                .into_inner()
+                .into_iter()
+                .filter_map(|(i, inc)| inc.map(|inc| (i, inc)))
+                .collect();
         }
         let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
         let first = tally.first_levelled.as_ref().and_then(heard_key);

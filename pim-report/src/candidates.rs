@@ -108,7 +108,7 @@ fn candidate_json<'a>(l: &Listing<'a>, carriers: &[Carrier], c: &Candidate) -> C
                 freq_mhz: e.freq.mhz(),
                 kind: e.kind.as_deref(),
                 owner: e.owner.as_deref(),
-                incident_dbm: l.ranking.incidence[t.emitter].map(|i| r2(i.incident_dbm)),
+                incident_dbm: l.ranking.incidence.get(t.emitter).map(|i| r2(i.incident_dbm)),
             }
         })
         .collect();
@@ -608,7 +608,7 @@ fn model_legend(
         .enumerate()
         .filter(|(_, u)| **u)
         .filter_map(|(i, _)| {
-            l.ranking.incidence[i].map(|inc| {
+            l.ranking.incidence.get(i).map(|inc| {
                 let region = match inc.region {
                     FieldRegion::Far => "far field".to_string(),
                     FieldRegion::Cylindrical => "near field, cylindrical".to_string(),

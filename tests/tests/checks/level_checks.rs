@@ -137,7 +137,7 @@ fn equal_fields_give_equal_levels_in_every_band() {
             .find(|c| c.mechanism == Mechanism::Junction)
             .unwrap();
         assert_eq!(formula(&c.product, &em), "2·A − B");
-        for inc in r.incidence.iter().flatten() {
+        for (_, inc) in r.incidence.iter() {
             assert!((inc.field_dbuv_m - field).abs() < 1e-6, "{inc:?}");
         }
         levels.push(c.level_dbm.unwrap());

@@ -160,8 +160,8 @@ proptest! {
             prop_assert_eq!(a, b);
             for t in a.product.terms() {
                 prop_assert_eq!(
-                    top.ranking.incidence[t.emitter].map(|i| i.incident_dbm),
-                    full.ranking.incidence[t.emitter].map(|i| i.incident_dbm)
+                    top.ranking.incidence.get(t.emitter).map(|i| i.incident_dbm),
+                    full.ranking.incidence.get(t.emitter).map(|i| i.incident_dbm)
                 );
             }
         }
