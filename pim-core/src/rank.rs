@@ -242,9 +242,8 @@ pub struct Ranking {
     /// The level model used.
     pub model: LevelModel,
     /// The field of each emitter at the junction, by emitter index. A listing of the
-    /// first K holds it for the emitters of its candidates (and those it weighed) only,
-    /// so that a study of many receivers over a long emitter list holds little per
-    /// receiver.
+    /// first K holds it for the emitters of its candidates only, so that a study of many
+    /// receivers over a long emitter list holds little per receiver.
     pub incidence: Fields,
     /// How many candidates lack a level (ranked after the others by order, then offset).
     pub unlevelled: usize,
@@ -698,8 +697,8 @@ impl<'a> Ranker<'a> {
     }
 
     /// A ranker that works out an emitter's field at the junction only when a candidate
-    /// needs it; [`Ranker::finish`] gives the ranking the fields of the emitters of its
-    /// candidates (and of those worked out on the way).
+    /// needs it; [`Ranker::finish`] gives the ranking the fields of its candidates'
+    /// emitters.
     pub(crate) fn lazy(
         emitters: &'a [Emitter],
         carriers: &'a [crate::emitter::Carrier],
@@ -906,10 +905,12 @@ impl<'a> Ranker<'a> {
         }
         let mut ranking = self.shell;
         if let Some(cells) = self.lazy {
-            ranking.incidence = cells
-                .into_inner()
-                .into_iter()
-                .filter_map(|(i, inc)| inc.map(|inc| (i, inc)))
+            // the fields of the candidates' emitters only: a study holds many rankings
+            let cells = cells.into_inner();
+            ranking.incidence = candidates
+                .iter()
+                .flat_map(|c| c.product.terms())
+                .filter_map(|t| Some((t.emitter, cells.get(&t.emitter).copied().flatten()?)))
                 .collect();
         }
         let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
@@ -933,6 +934,8 @@ impl<'a> Ranker<'a> {
         } else {
             Outlook::Unlevelled
         };
+        // a bounded list grew to 2K + 64 before it was cut to K
+        candidates.shrink_to_fit();
         ranking.candidates = candidates;
         ranking
     }

@@ -108,7 +108,11 @@ fn candidate_json<'a>(l: &Listing<'a>, carriers: &[Carrier], c: &Candidate) -> C
                 freq_mhz: e.freq.mhz(),
                 kind: e.kind.as_deref(),
                 owner: e.owner.as_deref(),
-                incident_dbm: l.ranking.incidence.get(t.emitter).map(|i| r2(i.incident_dbm)),
+                incident_dbm: l
+                    .ranking
+                    .incidence
+                    .get(t.emitter)
+                    .map(|i| r2(i.incident_dbm)),
             }
         })
         .collect();
