@@ -2,8 +2,7 @@
 //! emitters in falling order of a key that never rises with the distance from a point and
 //! never falls with the ERP (an emitter's drive at a junction, or the bound on its own
 //! products at a receiver), the key worked out only for the members of the nodes that can
-//! still lead. A study of 100,000 emitters works out a few hundred keys a receiver
-//! instead of every one.
+//! still lead.
 //!
 //! Each node is a cap on the sphere of the ellipsoid's unit normals (a centre and an
 //! angular radius), so the tree holds anywhere on the Earth, the poles and the 180th
