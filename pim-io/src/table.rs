@@ -211,6 +211,7 @@ pub struct Table<R: Read> {
     headers: Vec<String>,
     columns: HashMap<String, usize>,
     record: csv::ByteRecord,
+    delimiter: u8,
 }
 
 impl<R: Read> Table<R> {
@@ -263,6 +264,7 @@ impl<R: Read> Table<R> {
             headers,
             columns,
             record: csv::ByteRecord::new(),
+            delimiter,
         })
     }
 
@@ -330,13 +332,28 @@ impl<R: Read> Table<R> {
             break line;
         };
         if self.record.len() != self.headers.len() {
+            // `146,52` in a comma-separated file splits a number in two
+            let digits = |f: &[u8]| {
+                let f = f.strip_prefix(b"-").unwrap_or(f);
+                !f.is_empty() && f.iter().all(u8::is_ascii_digit)
+            };
+            let split_number = self.delimiter == b','
+                && self.record.len() > self.headers.len()
+                && (1..self.record.len())
+                    .any(|i| digits(&self.record[i - 1]) && digits(&self.record[i]));
             return Err(Error::input(
                 Place::new(&self.source).at_line(line),
                 format!(
-                    "{} field{}, but the header has {} columns",
+                    "{} field{}, but the header has {} columns{}",
                     self.record.len(),
                     if self.record.len() == 1 { "" } else { "s" },
-                    self.headers.len()
+                    self.headers.len(),
+                    if split_number {
+                        " (a decimal comma? write numbers with a point, or separate the \
+                         columns with `;`)"
+                    } else {
+                        ""
+                    }
                 ),
             ));
         }
@@ -487,11 +504,20 @@ mod tests {
 
     #[test]
     fn names_ragged_rows_binary_and_utf16() {
-        let e = rows(b"a,b\n1,2,3\n").unwrap_err();
+        let e = rows(b"a,b\nx,y,z\n").unwrap_err();
         assert_eq!(
             e.to_string(),
             "t.csv, line 2: 3 fields, but the header has 2 columns"
         );
+        // a number split by a decimal comma gets the hint; other delimiters need none
+        let e = rows(b"id,freq_mhz,erp_w\nA,146,52,40\n").unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "t.csv, line 2: 4 fields, but the header has 3 columns (a decimal comma? write \
+             numbers with a point, or separate the columns with `;`)"
+        );
+        let e = rows(b"a;b\n1;2;3\n").unwrap_err();
+        assert!(!e.to_string().contains("decimal comma"), "{e}");
         let e = rows(b"a,b\n1,\x002\n").unwrap_err();
         assert!(e.to_string().contains("binary data"), "{e}");
         let e = rows(b"\xFF\xFEa\x00").unwrap_err();

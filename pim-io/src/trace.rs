@@ -165,7 +165,7 @@ mod tests {
             ("freq_hz,freq_mhz,level_dbm\n1,2,3\n", "t.csv, line 1, field `freq_mhz`: 2 frequency columns (freq_hz, freq_mhz); keep one"),
             ("freq_mhz,level_dbm\n146.3,-100\n,-90\n", "t.csv, line 3, field `freq_mhz`: missing frequency"),
             ("freq_mhz,level_dbm\n-146.3,-100\n", "t.csv, line 2, field `freq_mhz`: frequency -146.3 must be above zero"),
-            ("freq_mhz,level_dbm\n146,3,-100\n", "t.csv, line 2: 3 fields, but the header has 2 columns"),
+            ("freq_mhz,level_dbm\n146,3,-100\n", "t.csv, line 2: 3 fields, but the header has 2 columns (a decimal comma? write numbers with a point, or separate the columns with `;`)"),
         ];
         for (text, want) in cases {
             assert_eq!(read(text).unwrap_err().to_string(), want, "{text}");

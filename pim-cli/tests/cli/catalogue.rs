@@ -27,6 +27,7 @@ const CATALOGUE: &[(&[&str], i32, &str)] = &[
     (&["explain", "146.34", "--emitters", "emitters-lon-out-of-range.csv"], 3, "pim: emitters-lon-out-of-range.csv, line 2, field `lon`: longitude -190 is outside −180…180"),
     (&["explain", "146.34", "--emitters", "emitters-nan-freq.csv"], 3, "pim: emitters-nan-freq.csv, line 2, field `freq_mhz`: `NaN` is not a finite number"),
     (&["explain", "146.34", "--emitters", "emitters-negative-bw.csv"], 3, "pim: emitters-negative-bw.csv, line 2, field `bw_khz`: bandwidth -16 kHz is negative"),
+    (&["explain", "146.34", "--emitters", "emitters-comma-split-number.csv"], 3, "pim: emitters-comma-split-number.csv, line 2: 5 fields, but the header has 4 columns (a decimal comma? write numbers with a point, or separate the columns with `;`)"),
     (&["explain", "146.34", "--emitters", "emitters-negative-freq.csv"], 3, "pim: emitters-negative-freq.csv, line 2, field `freq_mhz`: frequency -146.94 MHz must be above zero"),
     (&["explain", "146.34", "--emitters", "emitters-negative-power.csv"], 3, "pim: emitters-negative-power.csv, line 2, field `erp_w`: power -50 W must be above zero"),
     (&["explain", "146.34", "--emitters", "emitters-no-freq-column.csv"], 3, "pim: emitters-no-freq-column.csv, line 1, field `freq_mhz`: missing column; the header has: id, frequency, bw_khz"),
