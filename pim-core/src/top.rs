@@ -852,6 +852,15 @@ impl<'a> Drives<'a> {
     }
 }
 
+/// An emitter taken, in the frequency order of those taken.
+struct Indexed {
+    freq: i64,
+    drive: f64,
+    /// Its place in the drive order.
+    place: u32,
+    emitter: u32,
+}
+
 /// The emitters of a site's tree in falling drive, as far as they have been taken.
 struct Taken<'s> {
     stream: Box<dyn Iterator<Item = (f64, usize)> + 's>,
@@ -860,8 +869,8 @@ struct Taken<'s> {
     /// Each emitter's place in `seq` (`u32::MAX` before it is taken).
     place: Vec<u32>,
     done: bool,
-    /// `(frequency, place in seq)` of the first `indexed` taken, by frequency.
-    by_freq: Vec<(i64, u32)>,
+    /// The first `indexed` taken, by frequency.
+    by_freq: Vec<Indexed>,
     indexed: usize,
 }
 
@@ -912,9 +921,14 @@ impl Taken<'_> {
             .seq
             .iter()
             .enumerate()
-            .map(|(pos, &(_, i))| (carriers[i].freq.0, pos as u32))
+            .map(|(pos, &(drive, i))| Indexed {
+                freq: carriers[i].freq.0,
+                drive,
+                place: pos as u32,
+                emitter: i as u32,
+            })
             .collect();
-        self.by_freq.sort_unstable();
+        self.by_freq.sort_unstable_by_key(|e| (e.freq, e.place));
         self.indexed = self.seq.len();
         true
     }
@@ -939,10 +953,9 @@ impl Taken<'_> {
             return true;
         }
         if self.reach(site, need, pool) {
-            for &(_, pos) in &self.by_freq[window_of(&self.by_freq, |e| e.0, t, w, k)] {
-                let pos = pos as usize;
-                if pos > after && self.seq[pos].0 >= need {
-                    out.push(self.seq[pos]);
+            for e in &self.by_freq[window_of(&self.by_freq, |e| e.freq, t, w, k)] {
+                if e.place as usize > after && e.drive >= need {
+                    out.push((e.drive, e.emitter as usize));
                 }
             }
         } else {
