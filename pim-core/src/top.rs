@@ -78,7 +78,8 @@ use crate::nearby::{ground_for_chord, Reach};
 use crate::rank::{Candidate, Placement, RankInputs, Ranker, Tally};
 use crate::site::{Explanation, Query, Site, BYTES_PER_CANDIDATE};
 
-/// The emitters searched first: the set doubles from here until the bound settles.
+/// With the receiver's own products modelled, the emitters searched first as a whole set:
+/// the set doubles from here until the bound settles.
 const FIRST_SET: usize = 16;
 
 /// Margin on every bound, dB: rounding in the level arithmetic never prunes a tie.
@@ -287,7 +288,8 @@ fn emitter_bounds(
 }
 
 /// How many of the strongest emitters at the junction have their products among the
-/// [`FIRST_LOOK`] looked at first, for a K-th level to start the search from.
+/// [`FIRST_LOOK`] looked at first, for a K-th level to start the search from (with the
+/// receiver's own products modelled: whose products are searched whole, apart).
 const STRONG: usize = 8;
 
 /// The emitters of the strongest drive among which the strong emitters' products are
@@ -295,9 +297,10 @@ const STRONG: usize = 8;
 const FIRST_LOOK: usize = 64;
 
 /// How many emitters a receiver's search takes in drive order (no more than half the
-/// site's, but past the first look) to find partners among by frequency; past that, partners are found
-/// among all the site's emitters, which then costs about as much. Measured on the
-/// regional study (100,000 emitters): 1,024 beat 512 and 4,096 by a fifth to a half.
+/// site's, but past the first look) to find partners among by frequency; past that,
+/// partners are found among all the site's emitters, which then costs about as much.
+/// Measured on the regional study (100,000 emitters): 1,024 beat 512 and 4,096 by a fifth
+/// to a half.
 const POOL: usize = 1024;
 
 /// What the search may skip: products whose junction level cannot reach `level` (dBm) at
