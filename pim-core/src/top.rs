@@ -351,6 +351,91 @@ fn signed(total: i64) -> Vec<i64> {
     (1..=total).flat_map(|k| [k, -k]).collect()
 }
 
+/// The channel and one emitter x, for the searches of x's products: where a partner's
+/// frequency must lie, and whether a product lands.
+struct Around<'a> {
+    carriers: &'a [Carrier],
+    params: &'a SearchParams,
+    x: usize,
+    fx: i64,
+    bx: i64,
+    /// The channel's centre, Hz.
+    f0: i64,
+    /// The channel's width and twice the tolerance, Hz.
+    base: i64,
+    /// The widest carrier of the site, Hz.
+    max_bw: i64,
+    max_order: i64,
+    max_emitters: u32,
+}
+
+impl<'a> Around<'a> {
+    fn new(site: &'a Site, params: &'a SearchParams, x: usize) -> Self {
+        let carriers = site.carriers();
+        Around {
+            carriers,
+            params,
+            x,
+            fx: carriers[x].freq.0,
+            bx: carriers[x].bandwidth.0,
+            f0: params.target.0,
+            base: params.rx_bandwidth.0 + 2 * params.tolerance.0,
+            max_bw: site.index.max_bw,
+            max_order: params.max_order.min(MAX_ORDER) as i64,
+            max_emitters: params.max_emitters.clamp(1, 3),
+        }
+    }
+
+    /// Hands x's harmonics that land to `visit`; false once it returns false.
+    fn harmonics(&self, visit: &mut dyn FnMut(Product) -> bool) -> bool {
+        for k in 2..=self.max_order {
+            let f = k * self.fx;
+            if self.params.hits(Hz(f), Hz(k * self.bx))
+                && !visit(Product::new(&[term(self.x, k)], Hz(f)))
+            {
+                return false;
+            }
+        }
+        true
+    }
+
+    /// The window (`t`, `w` of [`window_of`]) of a partner y in kx·x + ky·y, with the
+    /// partners `known` (coefficient and emitter) taken already.
+    fn window(&self, kx: i64, known: Option<(i64, usize)>, k: i64) -> (i64, i64) {
+        let (mut t, mut w) = (self.f0 - kx * self.fx, kx.abs() * self.bx);
+        if let Some((ky, y)) = known {
+            t -= ky * self.carriers[y].freq.0;
+            w += ky.abs() * self.carriers[y].bandwidth.0;
+        }
+        (2 * t, w + k.abs() * self.max_bw + self.base)
+    }
+
+    /// Hands kx·x + Σ kᵢ·yᵢ to `visit` when it lands; false once it returns false.
+    fn offer(
+        &self,
+        kx: i64,
+        partners: &[(i64, usize)],
+        visit: &mut dyn FnMut(Product) -> bool,
+    ) -> bool {
+        let mut terms = [term(self.x, kx); 3];
+        let (mut f, mut bw) = (kx * self.fx, kx.abs() * self.bx);
+        for (slot, &(k, y)) in terms[1..].iter_mut().zip(partners) {
+            *slot = term(y, k);
+            f += k * self.carriers[y].freq.0;
+            bw += k.abs() * self.carriers[y].bandwidth.0;
+        }
+        !self.params.hits(Hz(f), Hz(bw)) || visit(Product::new(&terms[..1 + partners.len()], Hz(f)))
+    }
+}
+
+/// A term of a product.
+fn term(emitter: usize, coefficient: i64) -> Term {
+    Term {
+        emitter,
+        coefficient: coefficient as i32,
+    }
+}
+
 /// Hands every product of the channel that involves emitter `x` and otherwise only
 /// emitters that `open` accepts (never `x`) to `visit`, each once, until it returns false.
 /// The partners of three-emitter products are among `ys` (`(drive, emitter)`, the open
@@ -363,48 +448,28 @@ fn search_with(
     params: &SearchParams,
     visit: &mut dyn FnMut(Product) -> bool,
 ) -> bool {
-    let carriers = site.carriers();
+    let around = Around::new(site, params, x);
+    let (carriers, max_order) = (site.carriers(), around.max_order);
     let sorted = &site.index.by_freq[..];
     let freq = &site.index.freq_sorted[..];
-    let max_order = params.max_order.min(MAX_ORDER) as i64;
-    let max_emitters = params.max_emitters.clamp(1, 3);
-    let (fx, bx) = (carriers[x].freq.0, carriers[x].bandwidth.0);
-    let f0 = params.target.0;
-    let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
-    let max_bw = site.index.max_bw;
-    let term = |emitter: usize, coefficient: i64| Term {
-        emitter,
-        coefficient: coefficient as i32,
-    };
-    for k in 2..=max_order {
-        let f = k * fx;
-        if params.hits(Hz(f), Hz(k * bx)) && !visit(Product::new(&[term(x, k)], Hz(f))) {
-            return false;
-        }
+    if !around.harmonics(visit) {
+        return false;
     }
-    if max_emitters < 2 {
+    if around.max_emitters < 2 {
         return true;
     }
     for kx in signed(max_order - 1) {
         for ky in signed(max_order - kx.abs()) {
-            let t = 2 * (f0 - kx * fx);
-            let w = kx.abs() * bx + ky.abs() * max_bw + base;
+            let (t, w) = around.window(kx, None, ky);
             for pos in window_of(freq, |&f| f, t, w, ky) {
                 let y = sorted[pos];
-                if y == x || !open(y) {
-                    continue;
-                }
-                let f = kx * fx + ky * carriers[y].freq.0;
-                let bw = kx.abs() * bx + ky.abs() * carriers[y].bandwidth.0;
-                if params.hits(Hz(f), Hz(bw))
-                    && !visit(Product::new(&[term(x, kx), term(y, ky)], Hz(f)))
-                {
+                if y != x && open(y) && !around.offer(kx, &[(ky, y)], visit) {
                     return false;
                 }
             }
         }
     }
-    if max_emitters < 3 || max_order < 3 {
+    if around.max_emitters < 3 || max_order < 3 {
         return true;
     }
     let ys: Vec<usize> = ys
@@ -420,23 +485,10 @@ fn search_with(
         for ky in signed(max_order - kx.abs() - 1) {
             for kz in signed(max_order - kx.abs() - ky.abs()) {
                 for (iy, &y) in ys.iter().enumerate() {
-                    let (fy, by) = (carriers[y].freq.0, carriers[y].bandwidth.0);
-                    let t = 2 * (f0 - kx * fx - ky * fy);
-                    let w = kx.abs() * bx + ky.abs() * by + kz.abs() * max_bw + base;
+                    let (t, w) = around.window(kx, Some((ky, y)), kz);
                     for jz in window_of(&ys_freq, |&f| f, t, w, kz) {
                         let jz = by_freq[jz];
-                        if jz <= iy {
-                            continue;
-                        }
-                        let z = ys[jz];
-                        let f = kx * fx + ky * fy + kz * carriers[z].freq.0;
-                        let bw = kx.abs() * bx + ky.abs() * by + kz.abs() * carriers[z].bandwidth.0;
-                        if params.hits(Hz(f), Hz(bw))
-                            && !visit(Product::new(
-                                &[term(x, kx), term(y, ky), term(z, kz)],
-                                Hz(f),
-                            ))
-                        {
+                        if jz > iy && !around.offer(kx, &[(ky, y), (kz, ys[jz])], visit) {
                             return false;
                         }
                     }
@@ -484,26 +536,14 @@ fn search_after(
     skipped: &mut bool,
     visit: &mut dyn FnMut(Product) -> bool,
 ) -> bool {
-    let carriers = site.carriers();
     let (dx, x) = taken.seq[p];
+    let around = Around::new(site, params, x);
+    let max_order = around.max_order;
     let a = floor.model.drive_exponent;
-    let max_order = params.max_order.min(MAX_ORDER) as i64;
-    let max_emitters = params.max_emitters.clamp(1, 3);
-    let (fx, bx) = (carriers[x].freq.0, carriers[x].bandwidth.0);
-    let f0 = params.target.0;
-    let base = params.rx_bandwidth.0 + 2 * params.tolerance.0;
-    let max_bw = site.index.max_bw;
-    let term = |emitter: usize, coefficient: i64| Term {
-        emitter,
-        coefficient: coefficient as i32,
-    };
-    for k in 2..=max_order {
-        let f = k * fx;
-        if params.hits(Hz(f), Hz(k * bx)) && !visit(Product::new(&[term(x, k)], Hz(f))) {
-            return false;
-        }
+    if !around.harmonics(visit) {
+        return false;
     }
-    if max_emitters < 2 {
+    if around.max_emitters < 2 {
         return true;
     }
     let mut found: Vec<(f64, usize)> = Vec::new();
@@ -516,21 +556,16 @@ fn search_after(
                 *skipped = true;
                 continue;
             }
-            let t = 2 * (f0 - kx * fx);
-            let w = kx.abs() * bx + ky.abs() * max_bw + base;
+            let (t, w) = around.window(kx, None, ky);
             *skipped |= taken.window(site, drives, pool, need_y, (t, w, ky), p, &mut found);
             for &(_, y) in &found {
-                let f = kx * fx + ky * carriers[y].freq.0;
-                let bw = kx.abs() * bx + ky.abs() * carriers[y].bandwidth.0;
-                if params.hits(Hz(f), Hz(bw))
-                    && !visit(Product::new(&[term(x, kx), term(y, ky)], Hz(f)))
-                {
+                if !around.offer(kx, &[(ky, y)], visit) {
                     return false;
                 }
             }
         }
     }
-    if max_emitters < 3 || max_order < 3 {
+    if around.max_emitters < 3 || max_order < 3 {
         return true;
     }
     // The second partners: taken after it, strongest first, down to the least drive that
@@ -555,9 +590,7 @@ fn search_after(
                         break;
                     }
                     let need_z = need(level, cy, a, kz);
-                    let (fy, by) = (carriers[y].freq.0, carriers[y].bandwidth.0);
-                    let t = 2 * (f0 - kx * fx - ky * fy);
-                    let w = kx.abs() * bx + ky.abs() * by + kz.abs() * max_bw + base;
+                    let (t, w) = around.window(kx, Some((ky, y)), kz);
                     *skipped |= taken.window(
                         site,
                         drives,
@@ -568,14 +601,7 @@ fn search_after(
                         &mut found,
                     );
                     for &(_, z) in &found {
-                        let f = kx * fx + ky * fy + kz * carriers[z].freq.0;
-                        let bw = kx.abs() * bx + ky.abs() * by + kz.abs() * carriers[z].bandwidth.0;
-                        if params.hits(Hz(f), Hz(bw))
-                            && !visit(Product::new(
-                                &[term(x, kx), term(y, ky), term(z, kz)],
-                                Hz(f),
-                            ))
-                        {
+                        if !around.offer(kx, &[(ky, y), (kz, z)], visit) {
                             return false;
                         }
                     }
@@ -732,15 +758,8 @@ fn search_own(
     let max_bw = site.index.max_bw;
     let max_order = params.max_order.min(MAX_ORDER) as i64;
     let (fa, ba) = (carriers[a].freq.0, carriers[a].bandwidth.0);
-    let term = |emitter: usize, coefficient: i64| Term {
-        emitter,
-        coefficient: coefficient as i32,
-    };
-    for k in 2..=max_order {
-        let f = k * fa;
-        if params.hits(Hz(f), Hz(k * ba)) && !visit(Product::new(&[term(a, k)], Hz(f))) {
-            return false;
-        }
+    if !Around::new(site, params, a).harmonics(visit) {
+        return false;
     }
     if params.max_emitters < 2 || max_order < 3 {
         return true;
