@@ -16,38 +16,9 @@ use pim_core::intermod::{find_products, SearchParams};
 use pim_core::level::JunctionModel;
 use pim_core::rank::rank;
 
-struct Rng(u64);
-
-impl Rng {
-    fn below(&mut self, n: i64) -> i64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        (self.0 % n as u64) as i64
-    }
-}
-
-/// `n` emitters on a 1 kHz raster over `lo`..`hi` Hz with widths in `bw` Hz.
-fn site(n: usize, lo: i64, hi: i64, bw: (i64, i64), seed: u64) -> Vec<Emitter> {
-    let mut rng = Rng(seed);
-    (0..n)
-        .map(|i| {
-            let f = lo + rng.below((hi - lo) / 1_000) * 1_000;
-            let w = if bw.1 > bw.0 {
-                bw.0 + rng.below(bw.1 - bw.0)
-            } else {
-                bw.0
-            };
-            let mut e = Emitter::new(format!("TX{i}"), Hz(f), Hz(w));
-            e.erp_dbm = Some(30.0 + rng.below(300) as f64 / 10.0);
-            e.position = Some(GeoPoint::new(
-                45.0 + rng.below(2_000) as f64 / 100_000.0,
-                -122.0 + rng.below(2_000) as f64 / 100_000.0,
-            ));
-            e
-        })
-        .collect()
-}
+#[path = "support/seeded.rs"]
+mod seeded;
+use seeded::raster_site as site;
 
 fn carriers(e: &[Emitter]) -> Vec<Carrier> {
     pim_core::emitter::carriers(e)

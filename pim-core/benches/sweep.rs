@@ -21,44 +21,14 @@ use pim_core::level::JunctionModel;
 use pim_core::trace::classify::ExplainRule;
 use pim_core::trace::{analyse, SweepRule, Trace};
 
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
-    fn below(&mut self, n: i64) -> i64 {
-        (self.next() % n as u64) as i64
-    }
-    fn uniform(&mut self) -> f64 {
-        ((self.next() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-    }
-    fn normal(&mut self) -> f64 {
-        let (u1, u2) = (self.uniform(), self.uniform());
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
+#[path = "support/seeded.rs"]
+mod seeded;
+use seeded::Rng;
 
 /// `n` emitters on a 1 kHz raster over 30–960 MHz with 11–25 kHz widths, as the product
 /// search's own benchmark uses.
 fn site(n: usize, seed: u64) -> Vec<Emitter> {
-    let mut rng = Rng(seed);
-    (0..n)
-        .map(|i| {
-            let f = 30_000_000 + rng.below(930_000) * 1_000;
-            let w = 11_000 + rng.below(14_000);
-            let mut e = Emitter::new(format!("TX{i}"), Hz(f), Hz(w));
-            e.erp_dbm = Some(30.0 + rng.below(300) as f64 / 10.0);
-            e.position = Some(GeoPoint::new(
-                45.0 + rng.below(2_000) as f64 / 100_000.0,
-                -122.0 + rng.below(2_000) as f64 / 100_000.0,
-            ));
-            e
-        })
-        .collect()
+    seeded::raster_site(n, 30_000_000, 960_000_000, (11_000, 25_000), seed)
 }
 
 const START_HZ: i64 = 150_000_000;

@@ -6,22 +6,9 @@ use pim_core::freq::Hz;
 use pim_core::geo::{destination, GeoPoint};
 use pim_core::{Query, Site};
 
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
-    fn below(&mut self, n: i64) -> i64 {
-        (self.next() % n as u64) as i64
-    }
-    fn unit(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+#[path = "seeded.rs"]
+mod seeded;
+use seeded::Rng;
 
 /// The south-west corner of the square.
 const CORNER: (f64, f64) = (44.55, -122.64);
