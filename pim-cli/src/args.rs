@@ -33,12 +33,10 @@ pub struct SearchArgs {
     /// Longitude of the receiver site.
     #[arg(long, value_name = "DEG", value_parser = lon_arg, allow_hyphen_values = true, requires = "rx_lat")]
     pub rx_lon: Option<f64>,
-    /// Junction: third-order level from two reference tones, dBm (−200 to +43).
-    #[arg(long, value_name = "DBM", default_value = "-35", value_parser = ranged(-200.0, 43.0, "dBm"), allow_hyphen_values = true)]
-    pub junction_im3_dbm: f64,
-    /// Junction: drive of each reference tone, dBm (−60 to +60; IEC 62037-1 uses +43).
-    #[arg(long, value_name = "DBM", default_value = "0", value_parser = ranged(-60.0, 60.0, "dBm"), allow_hyphen_values = true)]
-    pub junction_ref_dbm: f64,
+    /// Junction: its third-order product at two +43 dBm tones (IEC 62037-1), dBc
+    /// (−200 to −20; −90 a corroded joint, −150 and weaker a good connector).
+    #[arg(long, value_name = "DBC", default_value = "-90", value_parser = ranged(-200.0, -20.0, "dBc"), allow_hyphen_values = true)]
+    pub junction_dbc: f64,
     /// Junction: further loss per order above the third, dB (0 to 40).
     #[arg(long, value_name = "DB", default_value = "5", value_parser = ranged(0.0, 40.0, "dB"), allow_hyphen_values = true)]
     pub order_step_db: f64,
@@ -47,8 +45,9 @@ pub struct SearchArgs {
     pub even_order_penalty_db: f64,
     /// Junction: drive exponent α, the measured slope over the ideal one (0.1 to 1.5; 1 is
     /// the ideal law, n dB per dB at order n; `pim slope --kind power` measures it).
-    #[arg(long, value_name = "ALPHA", default_value = "1", value_parser = ranged(0.1, 1.5, ""), allow_hyphen_values = true)]
-    pub drive_exponent: f64,
+    /// Default 1, or in a ticket the exponent its power steps measured.
+    #[arg(long, value_name = "ALPHA", value_parser = ranged(0.1, 1.5, ""), allow_hyphen_values = true)]
+    pub drive_exponent: Option<f64>,
     /// Height of the junction above ground, m (0 to 600).
     #[arg(long, value_name = "M", default_value = "0", value_parser = ranged(0.0, 600.0, "m"), allow_hyphen_values = true)]
     pub junction_height_m: f64,
@@ -56,10 +55,14 @@ pub struct SearchArgs {
     /// in the receiver itself.
     #[arg(long, value_name = "DBM", value_parser = ranged(-60.0, 60.0, "dBm"), allow_hyphen_values = true)]
     pub rx_iip3_dbm: Option<f64>,
-    /// A junction needing a third-order level above this, dBc of one reference tone, is
-    /// implausible (−100 to 0).
-    #[arg(long, value_name = "DBC", default_value = "-10", value_parser = ranged(-100.0, 0.0, "dBc"), allow_hyphen_values = true)]
+    /// A junction needing a third-order product above this at two +43 dBm tones is
+    /// implausible, dBc (−140 to −20).
+    #[arg(long, value_name = "DBC", default_value = "-60", value_parser = ranged(-140.0, -20.0, "dBc"), allow_hyphen_values = true)]
     pub max_im3_dbc: f64,
+    /// A junction needing more than this at two +43 dBm tones (and no more than
+    /// --max-im3-dbc) is unlikely, dBc (−160 to −20).
+    #[arg(long, value_name = "DBC", default_value = "-80", value_parser = ranged(-160.0, -20.0, "dBc"), allow_hyphen_values = true)]
+    pub unlikely_dbc: f64,
 }
 
 /// The level heard on the channel, to calibrate the level model against (`explain`,
@@ -146,16 +149,16 @@ impl SearchArgs {
     /// The level model the options describe; the others keep their defaults.
     pub fn junction_model(&self) -> LevelModel {
         LevelModel {
-            im3_dbm: self.junction_im3_dbm,
-            reference_tone_dbm: self.junction_ref_dbm,
             order_step_db: self.order_step_db,
             even_order_penalty_db: self.even_order_penalty_db,
-            drive_exponent: self.drive_exponent,
+            drive_exponent: self.drive_exponent.unwrap_or(1.0),
             junction_height_m: self.junction_height_m,
             rx_iip3_dbm: self.rx_iip3_dbm,
             max_im3_dbc: self.max_im3_dbc,
+            unlikely_im3_dbc: self.unlikely_dbc.min(self.max_im3_dbc),
             ..LevelModel::default()
         }
+        .with_im3_dbc(self.junction_dbc)
     }
 
     pub fn rx_site(&self) -> Option<GeoPoint> {

@@ -82,6 +82,12 @@ pub fn run(args: Args) -> CliResult {
         fix_summary(&fix, "walk.csv", &prepared.corrections)
     )?;
     writeln!(out)?;
+    let power_steps = PowerStepTest::read("power-steps.csv", POWER_STEPS_CSV.as_bytes())?.0;
+    // the ticket levels with the law its own power steps measured
+    let model = LevelModel {
+        drive_exponent: power_steps.measured_exponent().unwrap_or(1.0),
+        ..LevelModel::default()
+    };
     let inputs = TicketInputs {
         prepared: prepared_at(),
         site_name: "Marrow Hill".into(),
@@ -98,7 +104,7 @@ pub fn run(args: Args) -> CliResult {
             max_order: 7,
             max_emitters: 3,
         },
-        model: LevelModel::default(),
+        model,
         rx_site: Some(RX_SITE),
         heard_dbm: None,
         limit: 10,
@@ -107,9 +113,7 @@ pub fn run(args: Args) -> CliResult {
             attenuator: Some(
                 AttenuatorTest::read("attenuator-readings.csv", ATTENUATOR_CSV.as_bytes())?.0,
             ),
-            power_steps: Some(
-                PowerStepTest::read("power-steps.csv", POWER_STEPS_CSV.as_bytes())?.0,
-            ),
+            power_steps: Some(power_steps),
             ..Default::default()
         },
         work_order: Default::default(),

@@ -228,7 +228,17 @@ pub fn run(args: Args) -> CliResult {
         corrections: prepared.corrections,
         structures,
         params: s.params(args.input.freq, rx_bw),
-        model: s.junction_model(),
+        model: pim_core::level::LevelModel {
+            // levelled with the law the power steps measured, unless told otherwise
+            drive_exponent: s.drive_exponent.unwrap_or_else(|| {
+                evidence
+                    .power_steps
+                    .as_ref()
+                    .and_then(|t| t.measured_exponent())
+                    .unwrap_or(1.0)
+            }),
+            ..s.junction_model()
+        },
         rx_site,
         heard_dbm: args.calibration.heard_dbm,
         limit: args.limit,

@@ -18,11 +18,24 @@
 //! reactive near field, λ/2π (common practice), are raised to it: nothing is predicted
 //! closer.
 //!
-//! **Junction (passive IM).** A power law referred to two tones of P_ref each:
+//! **Junction (passive IM).** Described as the trade measures it: the third-order
+//! two-tone product 2f₁ − f₂ of two +43 dBm (20 W) tones, in dBc of one tone (the
+//! IEC 62037-1 test condition; [`LevelModel::im3_dbc`]). Below that drive the product
+//! follows a power law referred to those tones,
 //!
-//! `P_p = L₃ + F + Σ α·|kᵢ|·(Pᵢ − P_ref) − s·(n − 3) − e·[n even]`
+//! `P_law = L₃ + F + Σ α·|kᵢ|·(Pᵢ − P_ref) − s·(n − 3) − e·[n even]`,
 //!
-//! - L₃: the third-order two-tone product 2f₁ − f₂ of two tones of P_ref each;
+//! bending smoothly to a passive ceiling: a positive nonlinear resistance converts at most
+//! 1/n² of its drive into the n-th harmonic (C. H. Page, "Harmonic generation with ideal
+//! rectifiers", Proc. IRE 46, 1958; from memory), so no n-th-order product stands above
+//! the weakest drive less 20·log10(n) dB, C = min Pᵢ − 20·log10(n). The level is the
+//! power sum of the two as losses, `P_p = −10·log10(10^(−P_law/10) + 10^(−C/10))`: the
+//! law where it is far below the ceiling, 3 dB under both where they meet, never above C.
+//!
+//! - L₃ = P_ref + [`LevelModel::im3_dbc`]: the third-order two-tone product of two tones
+//!   of P_ref = +43 dBm each. Default −90 dBc, a corroded joint: good connectors and
+//!   cable assemblies measure −150 to −165 dBc, loose, corroded or ferrous hardware about
+//!   −80 to −120 dBc (IEC 62037-1 test practice; common practice, from memory);
 //! - F = 20·log10(M/M₂(n)), M = n!/Π|kᵢ|! the multinomial coefficient of the product's
 //!   term in the expansion of (Σ xᵢ)ⁿ, M₂(n) that of the two-tone product of the same
 //!   order (⌈n/2⌉, ⌊n/2⌋): f₁ + f₂ − f₃ stands 6.02 dB above 2f₁ − f₂, 2f₁ + f₂ − 2f₃
@@ -37,28 +50,46 @@
 //!
 //! **Bound for pruning.** With α ≥ 0 every mechanism's level is a non-decreasing function
 //! of each emitter's drive (field strength at the junction, or the power it brings to a
-//! transmitter or receiver): the drive enters only through the terms α·|kᵢ|·Pᵢ, |kᵢ|·Pᵢ
-//! or the coupled power, all with non-negative weights. An upper bound on the drives (the
-//! strongest field any emitter can set up, at its near-field floor) therefore bounds a
-//! product's level exactly: L₃ + F_max(n) + α·n·(P_max − P_ref) − s·(n − 3) − e·[n even],
-//! with F_max(n) the largest form weight of order n.
+//! transmitter or receiver): the drive enters only through the terms α·|kᵢ|·Pᵢ, |kᵢ|·Pᵢ,
+//! min Pᵢ or the coupled power, all non-decreasing, and the power sum of non-decreasing
+//! terms is non-decreasing. The ceiling only lowers a level, so an upper bound on the
+//! drives (the strongest field any emitter can set up, at its near-field floor) bounds a
+//! product's level exactly through the law alone: L₃ + F_max(n) + α·n·(P_max − P_ref) −
+//! s·(n − 3) − e·[n even], with F_max(n) the largest form weight of order n.
 //!
 //! **Other mechanisms.** [`Mechanism::Transmitter`]: one emitter's harmonic, levelled at
-//! the ITU-R SM.329 category A spurious limit (attenuation 43 + 10·log10(P/W) dB or
-//! 70 dB, whichever is less stringent; from memory), P taken as the ERP (the transmitter
-//! power and the antenna's gain at the harmonic are unknown): an upper figure for a
-//! compliant transmitter. [`Mechanism::TransmitterIm`]: 2f_A − f_B made in A's output
-//! stage from B's signal coupled through the isolation between the antennas (free-space
-//! loss between dipoles, never below [`LevelModel::min_antenna_isolation_db`]), a
-//! conversion loss below the coupled level ([`LevelModel::tx_conversion_loss_db`]; common
-//! practice, from memory: a few to about 20 dB). [`Mechanism::Receiver`]: third-order
-//! products made in the receiver from the carriers at its antenna, P = Σ|kᵢ|·Pᵢ −
-//! 2·IIP3 + F (Pozar; Razavi, *RF Microelectronics*), only when an IIP3 is given.
+//! the ITU-R SM.329 category A spurious limit of its service ([`Service`]; from memory):
+//! land mobile and the rest 43 + 10·log10(P/W) dB or 70 dBc, whichever is less
+//! stringent; FM broadcast 46 + 10·log10(P/W) dB or 70 dBc, and no more than 1 mW;
+//! television 46 + 10·log10(P/W) dB or 60 dBc, and no more than 1 mW; MF/HF (AM)
+//! broadcast 50 dBc and no more than 50 mW. P is taken as the ERP (the transmitter power
+//! and the antenna's gain at the harmonic are unknown): an upper figure for a compliant
+//! transmitter. [`Mechanism::TransmitterIm`]: 2f_A − f_B made in A's output stage from
+//! B's signal coupled through the isolation between the antennas (free-space loss between
+//! dipoles, never below [`LevelModel::min_antenna_isolation_db`]), a conversion loss below
+//! the coupled level ([`LevelModel::tx_conversion_loss_db`]; common practice, from
+//! memory: a few to about 20 dB). An output network passes only its own band: where B's
+//! carrier or the product lies more than [`TX_BAND_FRACTION`] of A's frequency from A,
+//! each is taken [`LevelModel::tx_out_of_band_rejection_db`] down (common practice, from
+//! memory: a transmitter's harmonic filter and matching network reject other bands by
+//! tens of dB). [`Mechanism::Receiver`]: third-order products made in the receiver from
+//! the carriers at its antenna, P = Σ|kᵢ|·Pᵢ − 2·IIP3 + F (Pozar; Razavi, *RF
+//! Microelectronics*), only when an IIP3 is given, and only below compression: a
+//! third-order law's input 1 dB compression point lies about 9.6 dB below IIP3 (Razavi);
+//! a carrier above it overloads the receiver, and no level is given. No front-end
+//! selectivity is assumed: a duplexer or cavity would reject distant carriers by tens of
+//! dB, so the receiver's own products are an upper figure.
 //!
-//! **Channel.** A product's spectrum is taken as Gaussian with its span Σ|kᵢ|·Bᵢ (common
-//! practice) as the 99 % occupied bandwidth (σ = span/5.152); the fraction inside the
+//! **Channel.** Each emitter's spectrum is taken as Gaussian with its necessary bandwidth
+//! B as the 99 % width (σ = B/5.152), by the class of its emission ([`Shape`]): analogue
+//! FM voice, FSK paging, narrowband digital and FM broadcast spread so; an unmodulated
+//! carrier and an AM broadcast (whose carrier holds most of its power) count as a line.
+//! Independent modulations convolve, so a product's width is the root-sum-square of
+//! |kᵢ|·Bᵢ (J. R. Carson, 1922, for an FM signal's width; for FM the spectrum follows the
+//! instantaneous frequency, Σkᵢ·fᵢ(t), whose variance adds), and the fraction inside the
 //! receive channel counts. A product without width counts fully inside the channel and
-//! not at all outside it (a floor of −120 dB keeps the order total).
+//! not at all outside it (a floor of −120 dB keeps the order total). The landing test of
+//! the search keeps the linear span Σ|kᵢ|·Bᵢ, an outer reach.
 //!
 //! The defaults are order-of-magnitude figures: real joints differ by tens of dB. A heard
 //! level calibrates them (see [`crate::rank`]).
@@ -81,6 +112,133 @@ const FREE_SPACE_IMPEDANCE_DB: f64 = 25.763_084_3;
 
 /// The fraction of a product in the channel is never taken below this (−120 dB).
 pub const MIN_CHANNEL_FRACTION: f64 = 1e-12;
+
+/// The IEC 62037-1 test tone, dBm (two carriers of 20 W): the drive a junction's
+/// strength is stated at.
+pub const IEC_62037_TONE_DBM: f64 = 43.0;
+
+/// How far below IIP3 a third-order law's input 1 dB compression point lies, dB
+/// (20·log10 of √(0.145)…: 9.64 dB; Razavi, *RF Microelectronics*).
+pub const P1DB_BELOW_IIP3_DB: f64 = 9.64;
+
+/// A transmitter's output network passes signals within this fraction of its own
+/// frequency (±10 %: its band; common practice, from memory).
+pub const TX_BAND_FRACTION: f64 = 0.10;
+
+/// The service of an emitter, for its spurious-emission limit (ITU-R SM.329).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Service {
+    /// Land mobile, paging, fixed and every service not named below.
+    LandMobile,
+    /// FM sound broadcasting.
+    FmBroadcast,
+    /// Television broadcasting.
+    TvBroadcast,
+    /// MF/HF (AM) sound broadcasting.
+    AmBroadcast,
+}
+
+impl Service {
+    /// The service an emitter list's `kind` names (`fm`, `am`, `tv` and words with
+    /// `broadcast`); anything else is land mobile.
+    pub fn of_kind(kind: Option<&str>) -> Service {
+        let k = kind.unwrap_or("").to_ascii_lowercase();
+        let has = |w: &str| {
+            k.split(|c: char| !c.is_ascii_alphanumeric())
+                .any(|x| x == w)
+        };
+        if has("am") || k.contains("am broadcast") || k.contains("mediumwave") {
+            Service::AmBroadcast
+        } else if has("tv") || k.contains("television") {
+            Service::TvBroadcast
+        } else if has("fm") || k.contains("broadcast") {
+            Service::FmBroadcast
+        } else {
+            Service::LandMobile
+        }
+    }
+
+    /// ERP less the SM.329 category A attenuation, with the absolute cap where the
+    /// service has one (module docs; from memory), dBm.
+    pub fn spurious_limit_erp_dbm(self, erp_dbm: f64) -> f64 {
+        let log_p = erp_dbm - 30.0; // 10·log10(P/W)
+        match self {
+            Service::LandMobile => erp_dbm - (43.0 + log_p).min(70.0),
+            Service::FmBroadcast => (erp_dbm - (46.0 + log_p).min(70.0)).min(0.0),
+            Service::TvBroadcast => (erp_dbm - (46.0 + log_p).min(60.0)).min(0.0),
+            Service::AmBroadcast => (erp_dbm - 50.0).min(10.0 * 50f64.log10()),
+        }
+    }
+}
+
+/// How an emission's power spreads about its carrier, for the share in a channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Shape {
+    /// Analogue FM voice: Gaussian, the necessary bandwidth (Carson's rule) as 99 %.
+    FmVoice,
+    /// FSK data and paging: Gaussian over the necessary bandwidth.
+    FskData,
+    /// Narrowband digital voice or data: Gaussian over the necessary bandwidth.
+    NarrowDigital,
+    /// FM broadcast: Gaussian over the necessary bandwidth.
+    FmBroadcast,
+    /// AM broadcast: the carrier holds most of the power; counted as a line.
+    AmBroadcast,
+    /// An unmodulated carrier: a line.
+    Unmodulated,
+}
+
+impl Shape {
+    /// The shape an emitter list's `kind` implies when no emission class is given:
+    /// `am` a line, `fm` FM broadcast, `paging` FSK, `digital`/`dmr`/`p25` narrowband
+    /// digital, `cw`/`beacon`/`unmodulated` a line, anything else analogue FM voice.
+    pub fn of_kind(kind: Option<&str>) -> Shape {
+        let k = kind.unwrap_or("").to_ascii_lowercase();
+        let has = |w: &str| {
+            k.split(|c: char| !c.is_ascii_alphanumeric())
+                .any(|x| x == w)
+        };
+        match Service::of_kind(kind) {
+            Service::AmBroadcast => Shape::AmBroadcast,
+            Service::FmBroadcast | Service::TvBroadcast => Shape::FmBroadcast,
+            Service::LandMobile if has("paging") || has("pager") || has("fsk") => Shape::FskData,
+            Service::LandMobile
+                if has("digital") || has("dmr") || has("p25") || has("tetra") || has("nxdn") =>
+            {
+                Shape::NarrowDigital
+            }
+            Service::LandMobile
+                if has("cw") || has("beacon") || has("unmodulated") || has("carrier") =>
+            {
+                Shape::Unmodulated
+            }
+            Service::LandMobile => Shape::FmVoice,
+        }
+    }
+
+    /// The width that spreads the emission's power for the channel share: its necessary
+    /// bandwidth, or none for a line.
+    pub fn spread(self, bandwidth: Hz) -> Hz {
+        match self {
+            Shape::AmBroadcast | Shape::Unmodulated => Hz(0),
+            _ => bandwidth,
+        }
+    }
+}
+
+/// How the calibrated junction compares with real joints at the IEC 62037-1 condition.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Plausibility {
+    /// Within the range of corroded, loose or ferrous hardware, or weaker.
+    Plausible,
+    /// Stronger than corroded hardware usually measures, but not beyond a passive contact.
+    Unlikely,
+    /// Stronger than any corroded joint, or above the passive ceiling.
+    Implausible,
+}
 
 /// Free-space basic transmission loss in dB (ITU-R P.525): 20·log10(4πd/λ).
 ///
@@ -253,12 +411,11 @@ pub enum Mechanism {
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct LevelModel {
     /// L₃: third-order two-tone product (2f₁ − f₂) from two tones of
-    /// `reference_tone_dbm` each, dBm. Default −35 dBm: a badly corroded joint at site
-    /// drive (assumed, no published figure; calibrate with a heard level).
+    /// `reference_tone_dbm` each, dBm. Default −47 dBm: −90 dBc at two +43 dBm tones, a
+    /// corroded joint (module docs); [`LevelModel::with_im3_dbc`] sets it.
     pub im3_dbm: f64,
-    /// P_ref: the drive of each reference tone (coupled power), dBm. Default 0 dBm, a
-    /// typical drive near a site (about 116 dB(µV/m) with 1 m²), so that the order step
-    /// below is what separates orders; +43 dBm gives the IEC 62037-1 test condition.
+    /// P_ref: the drive of each reference tone (coupled power), dBm: +43 dBm, the
+    /// IEC 62037-1 test condition.
     pub reference_tone_dbm: f64,
     /// s: further loss per order above the third at the reference drive, dB. Default 5
     /// (common practice, from memory).
@@ -287,18 +444,24 @@ pub struct LevelModel {
     pub rx_iip3_dbm: Option<f64>,
     /// Gain of the receiving antenna, dBi. Default 0.
     pub rx_antenna_gain_dbi: f64,
-    /// A junction needing a third-order product above this, relative to one reference
-    /// tone (dBc at `reference_tone_dbm`), is implausible. Default −10 dBc: no passive
-    /// contact, even a rectifying one, mixes more strongly than a diode mixer (from
-    /// memory).
+    /// A junction needing a third-order product above this at two +43 dBm tones (dBc) is
+    /// implausible. Default −60 dBc: a junction needing much stronger is not a corroded
+    /// joint (IEC 62037-1 test practice; common practice, from memory).
     pub max_im3_dbc: f64,
+    /// A junction needing more than this (dBc at two +43 dBm tones), but not more than
+    /// `max_im3_dbc`, is unlikely. Default −80 dBc, the strong end of corroded, loose or
+    /// ferrous hardware (common practice, from memory).
+    pub unlikely_im3_dbc: f64,
+    /// Rejection of a transmitter's output network outside its band, dB
+    /// ([`TX_BAND_FRACTION`]). Default 40 (common practice, from memory).
+    pub tx_out_of_band_rejection_db: f64,
 }
 
 impl Default for LevelModel {
     fn default() -> Self {
         LevelModel {
-            im3_dbm: -35.0,
-            reference_tone_dbm: 0.0,
+            im3_dbm: IEC_62037_TONE_DBM - 90.0,
+            reference_tone_dbm: IEC_62037_TONE_DBM,
             order_step_db: 5.0,
             even_order_penalty_db: 20.0,
             drive_exponent: 1.0,
@@ -309,7 +472,9 @@ impl Default for LevelModel {
             min_antenna_isolation_db: 30.0,
             rx_iip3_dbm: None,
             rx_antenna_gain_dbi: 0.0,
-            max_im3_dbc: -10.0,
+            max_im3_dbc: -60.0,
+            unlikely_im3_dbc: -80.0,
+            tx_out_of_band_rejection_db: 40.0,
         }
     }
 }
@@ -330,8 +495,22 @@ pub struct JunctionTerms {
     pub order_db: f64,
     /// −e for even orders, else 0, dB.
     pub even_order_db: f64,
-    /// The sum: the product's level at the junction, dBm.
+    /// The power law's level, the sum of the terms above, dBm.
+    pub law_dbm: f64,
+    /// The passive ceiling: the weakest drive less 20·log10(n), dBm.
+    pub ceiling_dbm: f64,
+    /// The product's level at the junction, the law bent to the ceiling, dBm.
     pub level_dbm: f64,
+}
+
+/// −10·log10(10^(−a/10) + 10^(−b/10)): a smooth minimum, 3 dB under both where they
+/// meet.
+fn soft_min_db(a: f64, b: f64) -> f64 {
+    let m = a.min(b);
+    if m == f64::NEG_INFINITY {
+        return m;
+    }
+    m - 10.0 * (1.0 + 10f64.powf(-(a.max(b) - m) / 10.0)).log10()
 }
 
 impl LevelModel {
@@ -366,13 +545,70 @@ impl LevelModel {
         } else {
             0.0
         };
+        let law_dbm = self.im3_dbm + form_db + drive_db + order_db + even_order_db;
+        let ceiling_dbm = passive_ceiling_dbm(terms);
         JunctionTerms {
             im3_dbm: self.im3_dbm,
             form_db,
             drive_db,
             order_db,
             even_order_db,
-            level_dbm: self.im3_dbm + form_db + drive_db + order_db + even_order_db,
+            law_dbm,
+            ceiling_dbm,
+            level_dbm: soft_min_db(law_dbm, ceiling_dbm),
+        }
+    }
+
+    /// The junction's third-order product at two +43 dBm tones, dBc (module docs).
+    pub fn im3_dbc(&self) -> f64 {
+        self.im3_dbm - self.reference_tone_dbm
+    }
+
+    /// The model with a junction of `dbc` at two tones of the reference drive.
+    pub fn with_im3_dbc(self, dbc: f64) -> LevelModel {
+        LevelModel {
+            im3_dbm: self.reference_tone_dbm + dbc,
+            ..self
+        }
+    }
+
+    /// The junction strength (dBc at two reference tones) that would put the product of
+    /// `terms` at `level_dbm` at the junction, or `None` when that level is at or above
+    /// the passive ceiling, where no junction can make it.
+    pub fn required_im3_dbc(&self, terms: &[(u32, f64)], level_dbm: f64) -> Option<f64> {
+        let t = self.junction_level(terms);
+        if !level_dbm.is_finite() || level_dbm >= t.ceiling_dbm {
+            return None;
+        }
+        // P_law = −10·log10(10^(−L/10) − 10^(−C/10))
+        let law =
+            -10.0 * (10f64.powf(-level_dbm / 10.0) - 10f64.powf(-t.ceiling_dbm / 10.0)).log10();
+        Some(self.im3_dbc() + (law - t.law_dbm))
+    }
+
+    /// How a required junction strength (dBc at two +43 dBm tones) compares with real
+    /// joints; `None` (above the passive ceiling) is implausible.
+    pub fn plausibility(&self, required_dbc: Option<f64>) -> Plausibility {
+        match required_dbc {
+            Some(d) if d <= self.unlikely_im3_dbc => Plausibility::Plausible,
+            Some(d) if d <= self.max_im3_dbc => Plausibility::Unlikely,
+            _ => Plausibility::Implausible,
+        }
+    }
+
+    /// The input 1 dB compression point of the receiver, dBm, when an IIP3 is given.
+    pub fn rx_p1db_dbm(&self) -> Option<f64> {
+        self.rx_iip3_dbm.map(|iip3| iip3 - P1DB_BELOW_IIP3_DB)
+    }
+
+    /// The rejection of transmitter `a_hz`'s output network for a signal at `f_hz`, dB:
+    /// none within its band ([`TX_BAND_FRACTION`]), else
+    /// [`LevelModel::tx_out_of_band_rejection_db`].
+    pub fn tx_band_rejection_db(&self, a_hz: f64, f_hz: f64) -> f64 {
+        if (f_hz - a_hz).abs() <= TX_BAND_FRACTION * a_hz {
+            0.0
+        } else {
+            self.tx_out_of_band_rejection_db
         }
     }
 
@@ -457,11 +693,24 @@ impl LevelModel {
         }
     }
 
-    /// EIRP of a harmonic at the ITU-R SM.329 category A limit, dBm (module docs).
-    pub fn spurious_limit_eirp_dbm(&self, erp_dbm: f64) -> f64 {
-        let watts = 10f64.powf((erp_dbm - 30.0) / 10.0);
-        let attenuation = (43.0 + 10.0 * watts.log10()).min(70.0);
-        erp_dbm - attenuation + DIPOLE_GAIN_DBI
+    /// EIRP of a harmonic at the ITU-R SM.329 category A limit of `service`, dBm
+    /// (module docs).
+    pub fn spurious_limit_eirp_dbm(&self, erp_dbm: f64, service: Service) -> f64 {
+        service.spurious_limit_erp_dbm(erp_dbm) + DIPOLE_GAIN_DBI
+    }
+
+    /// The highest [`LevelModel::spurious_limit_eirp_dbm`] of any service, dBm: a bound
+    /// for a search that does not look at the service.
+    pub fn spurious_limit_eirp_bound_dbm(&self, erp_dbm: f64) -> f64 {
+        [
+            Service::LandMobile,
+            Service::FmBroadcast,
+            Service::TvBroadcast,
+            Service::AmBroadcast,
+        ]
+        .into_iter()
+        .map(|s| self.spurious_limit_eirp_dbm(erp_dbm, s))
+        .fold(f64::NEG_INFINITY, f64::max)
     }
 
     /// EIRP of 2f_A − f_B made in A's output stage, from B's ERP and the distance
@@ -478,6 +727,30 @@ impl LevelModel {
             .max(self.min_antenna_isolation_db);
         coupled_erp_dbm - isolation - self.tx_conversion_loss_db + DIPOLE_GAIN_DBI
     }
+}
+
+/// The passive ceiling of a product of `terms` (`(|k|, drive dBm)`): the weakest drive
+/// less 20·log10(n) (module docs).
+pub fn passive_ceiling_dbm(terms: &[(u32, f64)]) -> f64 {
+    let n: u32 = terms.iter().map(|t| t.0).sum();
+    let weakest = terms
+        .iter()
+        .filter(|t| t.0 > 0)
+        .map(|t| t.1)
+        .fold(f64::INFINITY, f64::min);
+    weakest - 20.0 * (n.max(1) as f64).log10()
+}
+
+/// The width that spreads a product's power, Hz: the root-sum-square of |kᵢ|·Bᵢ over
+/// its emitters' spreads ([`Shape::spread`]).
+pub fn product_spread(terms: impl Iterator<Item = (u32, Hz)>) -> Hz {
+    let sum: f64 = terms
+        .map(|(k, b)| {
+            let w = k as f64 * b.0 as f64;
+            w * w
+        })
+        .sum();
+    Hz(sum.sqrt().round() as i64)
 }
 
 /// Frequency-only helper for callers holding a bare carrier: the coupled drive (dBm,
@@ -497,12 +770,45 @@ mod tests {
     fn reference_tones_give_the_reference_level() {
         let m = LevelModel::default();
         let p = m.junction_level(&[(2, m.reference_tone_dbm), (1, m.reference_tone_dbm)]);
-        assert!((p.level_dbm - m.im3_dbm).abs() < 1e-12);
+        // −90 dBc lies 80 dB under the ceiling there: the law holds to 1e-6 dB.
+        assert!((p.level_dbm - m.im3_dbm).abs() < 1e-6);
+        assert!((m.im3_dbc() + 90.0).abs() < 1e-12);
         let p5 = m.junction_level(&[(3, m.reference_tone_dbm), (2, m.reference_tone_dbm)]);
-        assert!((p5.level_dbm - (m.im3_dbm - 10.0)).abs() < 1e-12);
+        assert!((p5.level_dbm - (m.im3_dbm - 10.0)).abs() < 1e-6);
         // The ideal law and the conversion term agree.
         let q = m.junction_level(&[(2, -7.0), (1, -3.0)]);
         assert!((q.level_dbm - (2.0 * -7.0 - 3.0 + m.conversion_db(3))).abs() < 1e-9);
+    }
+
+    #[test]
+    fn the_law_bends_to_the_passive_ceiling() {
+        // A junction of −10 dBc at +43 dBm: the law would put 2A − B at +33 dBm from two
+        // +43 dBm drives; the ceiling (43 − 9.54 dB) holds it 3 dB under where they meet.
+        let m = LevelModel::default().with_im3_dbc(-10.0);
+        let t = m.junction_level(&[(2, 43.0), (1, 43.0)]);
+        assert!((t.ceiling_dbm - (43.0 - 20.0 * 3f64.log10())).abs() < 1e-9);
+        assert!(t.level_dbm < t.ceiling_dbm && t.level_dbm < t.law_dbm);
+        // Far above the ceiling the level is the ceiling.
+        let hot = LevelModel::default().with_im3_dbc(60.0);
+        let t = hot.junction_level(&[(2, 20.0), (1, 10.0)]);
+        assert!((t.level_dbm - t.ceiling_dbm).abs() < 0.05, "{t:?}");
+    }
+
+    #[test]
+    fn the_required_junction_inverts_the_level() {
+        let m = LevelModel::default();
+        let terms = [(2, 5.0), (1, -2.0)];
+        let l = m.junction_level(&terms).level_dbm;
+        let need = m.required_im3_dbc(&terms, l + 20.0).unwrap();
+        let back = m.with_im3_dbc(need).junction_level(&terms).level_dbm;
+        assert!((back - (l + 20.0)).abs() < 1e-6, "{back} {l}");
+        // At or above the ceiling no junction makes it.
+        let c = m.junction_level(&terms).ceiling_dbm;
+        assert_eq!(m.required_im3_dbc(&terms, c), None);
+        assert_eq!(m.plausibility(None), Plausibility::Implausible);
+        assert_eq!(m.plausibility(Some(-95.0)), Plausibility::Plausible);
+        assert_eq!(m.plausibility(Some(-70.0)), Plausibility::Unlikely);
+        assert_eq!(m.plausibility(Some(-40.0)), Plausibility::Implausible);
     }
 
     #[test]
@@ -554,10 +860,37 @@ mod tests {
     fn spurious_limit_follows_sm329() {
         let m = LevelModel::default();
         // 100 W: 43 + 20 = 63 dB below 50 dBm is −13 dBm ERP.
-        assert!((m.spurious_limit_eirp_dbm(50.0) - (-13.0 + DIPOLE_GAIN_DBI)).abs() < 1e-9);
+        let lm = Service::LandMobile;
+        assert!((m.spurious_limit_eirp_dbm(50.0, lm) - (-13.0 + DIPOLE_GAIN_DBI)).abs() < 1e-9);
         // 50 kW: capped at 70 dBc.
         let erp = 10.0 * 50_000f64.log10() + 30.0;
-        assert!((m.spurious_limit_eirp_dbm(erp) - (erp - 70.0 + DIPOLE_GAIN_DBI)).abs() < 1e-9);
+        assert!((m.spurious_limit_eirp_dbm(erp, lm) - (erp - 70.0 + DIPOLE_GAIN_DBI)).abs() < 1e-9);
+        // FM broadcast of 20 kW: 70 dBc would leave +3 dBm; the 1 mW cap holds.
+        let fm = 10.0 * 20_000f64.log10() + 30.0;
+        assert!((Service::FmBroadcast.spurious_limit_erp_dbm(fm) - 0.0).abs() < 1e-9);
+        // AM broadcast of 5 kW: 50 dBc is +17 dBm, at the 50 mW cap.
+        let am = 10.0 * 5_000f64.log10() + 30.0;
+        assert!((Service::AmBroadcast.spurious_limit_erp_dbm(am) - (am - 50.0)).abs() < 1e-9);
+        for s in [
+            Service::LandMobile,
+            Service::FmBroadcast,
+            Service::AmBroadcast,
+        ] {
+            assert!(m.spurious_limit_eirp_dbm(am, s) <= m.spurious_limit_eirp_bound_dbm(am));
+        }
+        assert_eq!(Service::of_kind(Some("am")), Service::AmBroadcast);
+        assert_eq!(Service::of_kind(Some("FM broadcast")), Service::FmBroadcast);
+        assert_eq!(Service::of_kind(Some("paging")), Service::LandMobile);
+        assert_eq!(Shape::of_kind(Some("paging")), Shape::FskData);
+        assert_eq!(Shape::of_kind(Some("repeater")), Shape::FmVoice);
+        assert_eq!(Shape::of_kind(Some("am")).spread(Hz(10_000)), Hz(0));
+    }
+
+    #[test]
+    fn widths_add_in_quadrature() {
+        // 2A − B of two 16 kHz emissions: √(32² + 16²) = 35.78 kHz, not 48 kHz.
+        let w = product_spread([(2, Hz(16_000)), (1, Hz(16_000))].into_iter());
+        assert_eq!(w, Hz(35_777));
     }
 
     proptest::proptest! {
@@ -584,7 +917,12 @@ mod tests {
             let mut raised = terms.clone();
             let i = which % raised.len();
             raised[i].1 += bump;
-            proptest::prop_assert!(m.junction_level(&raised).level_dbm >= m.junction_level(&terms).level_dbm - 1e-9);
+            let (lo, hi) = (m.junction_level(&terms), m.junction_level(&raised));
+            proptest::prop_assert!(hi.level_dbm >= lo.level_dbm - 1e-9);
+            // never above the weakest drive less 20·log10(n) (the passive ceiling)
+            let n: u32 = terms.iter().map(|t| t.0).sum();
+            let weakest = terms.iter().map(|t| t.1).fold(f64::INFINITY, f64::min);
+            proptest::prop_assert!(lo.level_dbm <= weakest - 20.0 * (n as f64).log10() + 1e-9);
             let near = field_with_near_field_rule(50.0, f, d, 5.0).0;
             let far = field_with_near_field_rule(50.0, f, d * 1.5, 5.0).0;
             proptest::prop_assert!(far <= near + 1e-9);

@@ -20,12 +20,14 @@
 //!
 //! **Calibration.** Given heard levels ([`HeardLevel`], at the receiver or at points of a
 //! walk), each candidate gets the shift that makes its prediction match (the median over
-//! the points) and, for a junction, the third-order level L₃ it would need, in dBc of one
-//! reference tone; a junction needing more than [`LevelModel::max_im3_dbc`] is
-//! `implausible` and ranks after the plausible ones. The same junction at the IEC 62037-1
-//! test condition (two +43 dBm tones) follows from the drive exponent, and is given only
-//! while the extrapolated product stays below its tones (0 dBc): beyond that the power law
-//! cannot hold up to +43 dBm.
+//! the points) and, for a junction, the strength it would need: its third-order product
+//! at two +43 dBm tones (the IEC 62037-1 condition), in dBc of one tone, found by
+//! inverting the level model at the drives the junction sees. A level at or above the
+//! passive ceiling needs no strength at all: no junction makes it. The strength is then
+//! [`Plausibility::Plausible`] (within corroded hardware, at most
+//! [`LevelModel::unlikely_im3_dbc`]), [`Plausibility::Unlikely`] (up to
+//! [`LevelModel::max_im3_dbc`]) or [`Plausibility::Implausible`]; implausible candidates
+//! rank after the others.
 //!
 //! **Fix.** When the junction is a fix from bearings ([`Placement::fix_radius_m`]), candidates
 //! made elsewhere (at a transmitter's antenna, or inside the receiver) disagree with the
@@ -43,11 +45,13 @@ use serde::Serialize;
 use crate::emitter::{carriers, Emitter};
 use crate::geo::GeoPoint;
 use crate::intermod::{Product, SearchParams, Term};
-use crate::level::{channel_fraction, Incidence, JunctionTerms, LevelModel, Mechanism};
+use crate::level::{
+    channel_fraction, product_spread, Incidence, JunctionTerms, LevelModel, Mechanism,
+    Plausibility, Service, Shape,
+};
 use crate::onair::{Evidence, Logbook};
 
-/// The IEC 62037-1 test tone, dBm (two carriers of 20 W).
-pub const IEC_62037_TONE_DBM: f64 = 43.0;
+pub use crate::level::IEC_62037_TONE_DBM;
 
 /// Where the mixing is assumed to happen and where it is heard.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
@@ -96,6 +100,9 @@ pub enum Missing {
     ErpOrLocation,
     /// The receiver's IIP3 was not given.
     Iip3,
+    /// A carrier at the receiver's input lies above its 1 dB compression point (IIP3 less
+    /// 9.6 dB): the receiver is overloaded, and its third-order law no longer holds.
+    ReceiverOverload,
 }
 
 /// The terms of a candidate's level, for a practitioner to check.
@@ -113,6 +120,9 @@ pub struct LevelBreakdown {
     pub path_distance_m: Option<f64>,
     /// When that distance is under λ/2π, the loss is taken at this floor, m.
     pub path_floor_m: Option<f64>,
+    /// The width that spreads the product's power (root-sum-square of |kᵢ|·Bᵢ over the
+    /// emitters whose emission spreads), Hz.
+    pub spread_hz: i64,
     /// The fraction of the product inside the receive channel.
     pub channel_fraction: f64,
     /// 10·log10 of it, dB.
@@ -128,13 +138,12 @@ pub struct Calibration {
     pub shift_db: f64,
     /// How many heard levels it rests on.
     pub points: usize,
-    /// Junction only: the L₃ it would need, dBm, from two tones of the reference drive.
-    pub required_im3_dbm: Option<f64>,
-    /// The same relative to one reference tone, dBc.
+    /// Junction only: the third-order product the junction would need at two +43 dBm
+    /// tones (IEC 62037-1), dBc of one tone; `None` when the level heard is at or above
+    /// the passive ceiling.
     pub required_im3_dbc: Option<f64>,
-    /// The same junction at the IEC 62037-1 condition (two +43 dBm tones), dBc, while
-    /// the law keeps it below 0 dBc.
-    pub required_im3_dbc_iec: Option<f64>,
+    /// Junction only: how that strength compares with real joints.
+    pub plausibility: Option<Plausibility>,
 }
 
 /// A product, the mechanism that would make it, and its place in the ranking.
@@ -509,11 +518,10 @@ fn source_level(
         }
         Mechanism::Transmitter => {
             let e = c.product.terms().next().map(|t| &emitters[t.emitter]);
-            let erp = e
-                .filter(|e| e.position.is_some())
-                .and_then(|e| e.erp_dbm)
-                .ok_or(Missing::ErpOrLocation)?;
-            Ok((m.spurious_limit_eirp_dbm(erp), None))
+            let e = e.filter(|e| e.position.is_some());
+            let erp = e.and_then(|e| e.erp_dbm).ok_or(Missing::ErpOrLocation)?;
+            let service = Service::of_kind(e.and_then(|e| e.kind.as_deref()));
+            Ok((m.spurious_limit_eirp_dbm(erp, service), None))
         }
         Mechanism::TransmitterIm => {
             let a = c.formed_in.ok_or(Missing::ErpOrLocation)?;
@@ -532,10 +540,18 @@ fn source_level(
                 ea.height_m.unwrap_or(m.junction_height_m),
                 eb.height_m.unwrap_or(m.junction_height_m),
             );
-            Ok((m.transmitter_im_eirp_dbm(erp_b, eb.freq.0 as f64, d), None))
+            // the output network passes only its own band: B's carrier in, the product out
+            let fa = ea.freq.0 as f64;
+            let rejection = m.tx_band_rejection_db(fa, eb.freq.0 as f64)
+                + m.tx_band_rejection_db(fa, c.product.freq.0 as f64);
+            Ok((
+                m.transmitter_im_eirp_dbm(erp_b, eb.freq.0 as f64, d) - rejection,
+                None,
+            ))
         }
         Mechanism::Receiver => {
             let iip3 = m.rx_iip3_dbm.ok_or(Missing::Iip3)?;
+            let p1db = iip3 - crate::level::P1DB_BELOW_IIP3_DB;
             let mut sum = 0.0;
             let mut ks = Vec::with_capacity(3);
             for t in c.product.terms() {
@@ -545,6 +561,9 @@ fn source_level(
                 };
                 let input = erp + crate::level::DIPOLE_GAIN_DBI
                     - m.path_to_receiver_db(e.freq.0 as f64, p, e.height_m, receiver);
+                if input > p1db {
+                    return Err(Missing::ReceiverOverload);
+                }
                 let k = t.coefficient.unsigned_abs();
                 sum += k as f64 * input;
                 ks.push(k);
@@ -573,6 +592,7 @@ fn calibrate(
     ranking: &Ranking,
     junction: GeoPoint,
     heard: &[HeardLevel],
+    drives: &[(u32, f64)],
 ) -> Option<Calibration> {
     let m = &ranking.model;
     let source = source_of(c, emitters, junction);
@@ -594,21 +614,16 @@ fn calibrate(
     }
     let points = shifts.len();
     let shift_db = median(&mut shifts);
-    let (mut im3, mut dbc, mut iec) = (None, None, None);
+    let (mut dbc, mut plausibility) = (None, None);
     if c.mechanism == Mechanism::Junction {
-        let l3 = m.im3_dbm + shift_db;
-        im3 = Some(l3);
-        dbc = Some(l3 - m.reference_tone_dbm);
-        let at_iec = l3 + 3.0 * m.drive_exponent * (IEC_62037_TONE_DBM - m.reference_tone_dbm)
-            - IEC_62037_TONE_DBM;
-        iec = (at_iec < 0.0).then_some(at_iec);
+        dbc = m.required_im3_dbc(drives, b.source_level_dbm + shift_db);
+        plausibility = Some(m.plausibility(dbc));
     }
     Some(Calibration {
         shift_db,
         points,
-        required_im3_dbm: im3,
         required_im3_dbc: dbc,
-        required_im3_dbc_iec: iec,
+        plausibility,
     })
 }
 
@@ -763,6 +778,16 @@ impl<'a> Ranker<'a> {
         }
     }
 
+    /// The width that spreads `product`'s power for its channel share (module docs of
+    /// [`crate::level`]).
+    fn spread(&self, product: &Product) -> crate::freq::Hz {
+        product_spread(product.terms().map(|t| {
+            let e = &self.emitters[t.emitter];
+            let shape = Shape::of_kind(e.kind.as_deref());
+            (t.coefficient.unsigned_abs(), shape.spread(e.bandwidth))
+        }))
+    }
+
     /// How many candidates ranking `products` makes.
     pub(crate) fn candidate_count(&self, products: &[Product]) -> usize {
         products
@@ -832,9 +857,10 @@ impl<'a> Ranker<'a> {
                             }
                         };
                         let path = route.map_or(0.0, |r| r.loss_db);
+                        let spread = self.spread(product);
                         let fraction = channel_fraction(
                             product.offset(params.target),
-                            product.bandwidth(&self.carriers),
+                            spread,
                             params.rx_bandwidth,
                         );
                         let channel_db = 10.0 * fraction.log10();
@@ -844,16 +870,29 @@ impl<'a> Ranker<'a> {
                             path_to_receiver_db: path,
                             path_distance_m: route.map(|r| r.distance_m),
                             path_floor_m: route.and_then(|r| r.floor_m),
+                            spread_hz: spread.0,
                             channel_fraction: fraction,
                             channel_db,
                             in_channel_dbm: level - path + channel_db,
                         };
                         c.level_dbm = Some(level);
-                        c.calibration = calibrate(&c, &b, emitters, ranking, j, inputs.heard);
+                        let drives: Vec<(u32, f64)> = if c.mechanism == Mechanism::Junction {
+                            c.product
+                                .terms()
+                                .filter_map(|t| {
+                                    let p = self.incidence(t.emitter)?.incident_dbm;
+                                    Some((t.coefficient.unsigned_abs(), p))
+                                })
+                                .collect()
+                        } else {
+                            Vec::new()
+                        };
+                        c.calibration =
+                            calibrate(&c, &b, emitters, ranking, j, inputs.heard, &drives);
                         c.implausible = c
                             .calibration
-                            .and_then(|k| k.required_im3_dbc)
-                            .is_some_and(|dbc| dbc > model.max_im3_dbc);
+                            .and_then(|k| k.plausibility)
+                            .is_some_and(|p| p == Plausibility::Implausible);
                         c.breakdown = Some(b);
                     }
                     Err(missing) => c.missing = Some(missing),
@@ -1101,8 +1140,10 @@ mod tests {
         };
         let im3 = Product::new(&[t(0, 2), t(1, -1)], Hz(146_400_000));
         let harmonic = Product::new(&[t(2, 2)], Hz(146_400_000));
+        // IIP3 +10 dBm: the carriers at the input (about −13 dBm) stay below its
+        // compression point (+0.4 dBm).
         let model = LevelModel {
-            rx_iip3_dbm: Some(-10.0),
+            rx_iip3_dbm: Some(10.0),
             ..LevelModel::default()
         };
         let r = rank_candidates(
@@ -1134,9 +1175,31 @@ mod tests {
             em.erp_dbm.unwrap() + crate::level::DIPOLE_GAIN_DBI
                 - model.path_to_receiver_db(em.freq.0 as f64, em.position.unwrap(), None, j)
         };
-        let want = 2.0 * input(0) + input(1) + 20.0;
+        let want = 2.0 * input(0) + input(1) - 20.0;
         assert!((rx.level_dbm.unwrap() - want).abs() < 1e-9);
         assert!(r.unmodelled.is_empty());
+        // IIP3 −10 dBm: compression at −19.6 dBm, below the carriers: the receiver is
+        // overloaded, and no third-order level is given (Razavi).
+        let overloaded = rank_candidates(
+            vec![im3],
+            &e,
+            &channel(),
+            &RankInputs {
+                placement: Placement::at(Some(j)),
+                model: LevelModel {
+                    rx_iip3_dbm: Some(-10.0),
+                    ..LevelModel::default()
+                },
+                ..RankInputs::default()
+            },
+        );
+        let rx = overloaded
+            .candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Receiver)
+            .unwrap();
+        assert_eq!(rx.missing, Some(Missing::ReceiverOverload));
+        assert_eq!(rx.level_dbm, None);
         let plain = rank(vec![im3], &e, &channel(), Some(j), &LevelModel::default());
         assert_eq!(plain.unmodelled, vec![(Mechanism::Receiver, Missing::Iip3)]);
         assert!(plain
@@ -1147,7 +1210,12 @@ mod tests {
 
     #[test]
     fn outlook_says_when_nothing_credible_lands() {
-        let (e, j) = site_emitters();
+        let (mut e, j) = site_emitters();
+        // 1 kW ERP 20 m from the junction: drives of about +25 dBm.
+        for (x, az) in e.iter_mut().zip([0.0, 120.0, 240.0]) {
+            x.erp_dbm = Some(60.0);
+            x.position = Some(crate::geo::destination(j, az, 20.0));
+        }
         let none = rank(vec![], &e, &channel(), Some(j), &LevelModel::default());
         assert_eq!(none.outlook, Outlook::NothingLands);
         assert_eq!(none.next_steps().len(), 3);
@@ -1181,7 +1249,8 @@ mod tests {
             .find(|c| c.mechanism == Mechanism::Junction)
             .unwrap();
         assert!(c.implausible);
-        assert!(c.calibration.unwrap().required_im3_dbc.unwrap() > -10.0);
+        // above the passive ceiling: no junction strength makes it
+        assert_eq!(c.calibration.unwrap().required_im3_dbc, None);
         // The same product made in A's output stage stays credible: that is not a junction.
         assert_eq!(r.outlook, Outlook::Credible);
         let quiet = [HeardLevel {
@@ -1190,6 +1259,13 @@ mod tests {
         }];
         let r = rank_candidates(vec![im3], &e, &channel(), &inputs(&quiet));
         assert!(r.candidates.iter().all(|c| !c.implausible));
+        let c = r
+            .candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Junction)
+            .unwrap();
+        let k = c.calibration.unwrap();
+        assert_eq!(k.plausibility, Some(Plausibility::Plausible), "{k:?}");
         assert!(r.calibrated && r.next_steps().is_empty());
         let shift = r.candidates[0].calibration.unwrap().shift_db;
         let heard = r.candidates[0].breakdown.unwrap().in_channel_dbm + shift;

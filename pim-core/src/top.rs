@@ -725,7 +725,7 @@ impl<'a> OwnModel<'a> {
     fn bound(&self, erp_dbm: Option<f64>, slant: f64) -> f64 {
         let mut top = self.im_top;
         if let (true, Some(erp)) = (self.harmonics, erp_dbm) {
-            top = top.max(self.model.spurious_limit_eirp_dbm(erp));
+            top = top.max(self.model.spurious_limit_eirp_bound_dbm(erp));
         }
         let b = top - self.path_db(slant) + BOUND_MARGIN_DB;
         if b.is_nan() {

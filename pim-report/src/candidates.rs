@@ -6,7 +6,7 @@ use std::io::Write;
 use pim_core::emitter::{carriers, Carrier, Emitter};
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
-use pim_core::level::{FieldRegion, JunctionTerms, Mechanism};
+use pim_core::level::{FieldRegion, JunctionTerms, Mechanism, Plausibility};
 use pim_core::onair::{Evidence, Logbook};
 use pim_core::rank::{
     display_terms, formula, Calibration, Candidate, LevelBreakdown, Missing, NextStep, Outlook,
@@ -73,12 +73,15 @@ fn rounded_breakdown(b: &LevelBreakdown) -> LevelBreakdown {
             drive_db: r2(j.drive_db),
             order_db: r2(j.order_db),
             even_order_db: r2(j.even_order_db),
+            law_dbm: r2(j.law_dbm),
+            ceiling_dbm: r2(j.ceiling_dbm),
             level_dbm: r2(j.level_dbm),
         }),
         source_level_dbm: r2(b.source_level_dbm),
         path_to_receiver_db: r2(b.path_to_receiver_db),
         path_distance_m: b.path_distance_m.map(r2),
         path_floor_m: b.path_floor_m.map(|f| (f * 1000.0).round() / 1000.0),
+        spread_hz: b.spread_hz,
         channel_fraction: (b.channel_fraction * 1e6).round() / 1e6,
         channel_db: r2(b.channel_db),
         in_channel_dbm: r2(b.in_channel_dbm),
@@ -89,9 +92,8 @@ fn rounded_calibration(k: &Calibration) -> Calibration {
     Calibration {
         shift_db: r2(k.shift_db),
         points: k.points,
-        required_im3_dbm: k.required_im3_dbm.map(r2),
         required_im3_dbc: k.required_im3_dbc.map(r2),
-        required_im3_dbc_iec: k.required_im3_dbc_iec.map(r2),
+        plausibility: k.plausibility,
     }
 }
 
@@ -173,7 +175,7 @@ pub fn outlook_text(ranking: &Ranking) -> Option<String> {
             "Nothing credible: no product of the listed emitters lands in the channel.".to_string()
         }
         Outlook::OnlyImplausible => format!(
-            "Nothing credible: every product that lands would need a junction mixing more strongly than any passive contact (a third-order level above {:.0} dBc of one tone){}.",
+            "Nothing credible: every product that lands would need a junction mixing more strongly than any corroded joint (a third-order product above {:.0} dBc at two +43 dBm tones, or above the passive ceiling){}.",
             ranking.model.max_im3_dbc,
             if ranking.candidates.iter().any(|c| c.away_from_fix) {
                 " or is made away from the fix"
@@ -307,6 +309,7 @@ fn missing_name(m: Missing) -> &'static str {
         Missing::Location => "location",
         Missing::ErpOrLocation => "erp-or-location",
         Missing::Iip3 => "iip3",
+        Missing::ReceiverOverload => "receiver-overload",
     }
 }
 
@@ -457,8 +460,16 @@ pub fn path_floor_text(candidates: &[&Candidate]) -> Option<String> {
 /// A candidate's remark for the table: why it ranks low, or why it has no level.
 fn remark(c: &Candidate) -> String {
     let mut r = Vec::new();
-    if c.implausible {
-        r.push("implausible");
+    match c.calibration.and_then(|k| k.plausibility) {
+        Some(Plausibility::Implausible)
+            if c.calibration.is_some_and(|k| k.required_im3_dbc.is_none()) =>
+        {
+            r.push("implausible: above the passive ceiling")
+        }
+        Some(Plausibility::Implausible) => r.push("implausible"),
+        Some(Plausibility::Unlikely) => r.push("unlikely"),
+        _ if c.implausible => r.push("implausible"),
+        _ => {}
     }
     if c.away_from_fix {
         r.push("away from the fix");
@@ -467,6 +478,7 @@ fn remark(c: &Candidate) -> String {
         Some(Missing::Location) => r.push("no location"),
         Some(Missing::ErpOrLocation) => r.push("ERP or location missing"),
         Some(Missing::Iip3) => r.push("no IIP3"),
+        Some(Missing::ReceiverOverload) => r.push("receiver overloaded (a carrier above its P1dB)"),
         None => {}
     }
     r.join(", ")
@@ -500,7 +512,7 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
     if levelled {
         headers.push(("rel dB", Align::Right));
         if calibrated {
-            headers.push(("needs L3 dBc", Align::Right));
+            headers.push(("needs dBc", Align::Right));
         }
         headers.extend([
             ("source dBm", Align::Right),
@@ -645,34 +657,35 @@ fn model_legend(
     }
     if mechanisms.contains(&Mechanism::Junction) {
         out.push_str(&format!(
-            "junction: source = L3 + form + drive + order, L3 = {:.1} dBm from two Pref = {:.1} dBm tones; form = 20·log10 of the\n  product's multinomial coefficient over the two-tone one; drive = Σ α·|k|·(P − Pref), α = {:.2}; order = −{:.1} dB per\n  order above the third, −{:.1} dB more for even orders (--junction-im3-dbm, --junction-ref-dbm, --drive-exponent,\n  --order-step-db, --even-order-penalty-db).\n",
-            m.im3_dbm, m.reference_tone_dbm, m.drive_exponent, m.order_step_db, m.even_order_penalty_db
+            "junction: a joint of {:.0} dBc at two +43 dBm tones (IEC 62037-1; --junction-dbc); law = L3 + form + drive + order,\n  L3 = {:.1} dBm; form = 20·log10 of the product's multinomial coefficient over the two-tone one; drive =\n  Σ α·|k|·(P − 43 dBm), α = {:.2}; order = −{:.1} dB per order above the third, −{:.1} dB more for even orders;\n  the law bends to the passive ceiling, the weakest drive less 20·log10(order) (Page 1958).\n",
+            m.im3_dbc(), m.im3_dbm, m.drive_exponent, m.order_step_db, m.even_order_penalty_db
         ));
     }
     if mechanisms.contains(&Mechanism::Transmitter) {
-        out.push_str("harmonic: source = the transmitter's EIRP at the ITU-R SM.329 category A spurious limit (an upper figure).\n");
+        out.push_str("harmonic: source = the transmitter's EIRP at the ITU-R SM.329 category A spurious limit of its service (an upper figure).\n");
     }
     if mechanisms.contains(&Mechanism::TransmitterIm) {
         out.push_str(&format!(
-            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB)\n  − {:.0} dB conversion loss + 2.15 dB (EIRP).\n",
-            m.min_antenna_isolation_db, m.tx_conversion_loss_db
+            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB)\n  − {:.0} dB conversion loss + 2.15 dB (EIRP), less {:.0} dB for the carrier and again for the product outside the\n  transmitter's band (±10 %).\n",
+            m.min_antenna_isolation_db, m.tx_conversion_loss_db, m.tx_out_of_band_rejection_db
         ));
     }
     if mechanisms.contains(&Mechanism::Receiver) {
         if let Some(iip3) = m.rx_iip3_dbm {
             out.push_str(&format!(
-                "receiver: source = Σ|k|·(carrier at its input) − 2·IIP3 + form, IIP3 = {iip3:.1} dBm (--rx-iip3-dbm).\n"
+                "receiver: source = Σ|k|·(carrier at its input) − 2·IIP3 + form, IIP3 = {iip3:.1} dBm (--rx-iip3-dbm), below\n  compression only (a carrier above IIP3 − 9.6 dB overloads it); no front-end selectivity assumed.\n"
             ));
         }
     }
-    out.push_str("In the channel at the receiver: source + path (free-space loss to the receiver) + chan (10·log10 of the product's\n  share of the channel); rel dB = that level less the first candidate's.\n");
+    out.push_str("In the channel at the receiver: source + path (free-space loss to the receiver) + chan (10·log10 of the product's\n  share of the channel: Gaussian spectra by emission class, widths |k|·B added root-sum-square; AM broadcast and\n  unmodulated carriers as lines); rel dB = that level less the first candidate's.\n");
     if let Some(floor) = path_floor_text(shown) {
         out.push_str(&floor);
         out.push('\n');
     }
     if l.ranking.calibrated {
         out.push_str(&format!(
-            "Calibrated to the level heard: needs L3 = the third-order level the junction would need, dBc of one Pref tone;\n  above {:.0} dBc (--max-im3-dbc) it is implausible. The first candidate would be heard at {}.\n",
+            "Calibrated to the level heard: needs = the junction's third-order product at two +43 dBm tones, dBc (IEC 62037-1);\n  corroded hardware measures about −80 to −120 dBc: stronger than {:.0} dBc is unlikely, than {:.0} dBc implausible\n  (--unlikely-dbc, --max-im3-dbc); a level above the passive ceiling is implausible whatever the joint.\n  The first candidate would be heard at {}.\n",
+            m.unlikely_im3_dbc,
             m.max_im3_dbc,
             calibrated_first_dbm(l.ranking)
                 .map(|v| format!("{v:.1} dBm"))
@@ -864,7 +877,8 @@ mod tests {
             "form dB",
             "chan dB",
             "SKP-152 output stage",
-            "junction: source = L3 + form + drive + order",
+            "junction: a joint of -90 dBc at two +43 dBm tones",
+            "passive ceiling",
             "give --heard-dbm to calibrate",
         ] {
             assert!(t.contains(want), "{want}: {t}");

@@ -147,6 +147,21 @@ pub enum PowerStepAnswer {
     },
 }
 
+impl PowerStepTest {
+    /// The drive exponent α the steps measured, when two or more emitters' coefficients
+    /// were settled: a ticket levels its candidates with it.
+    pub fn measured_exponent(&self) -> Option<f64> {
+        match &self.answer {
+            PowerStepAnswer::Several { answer, .. }
+                if answer.verdict == pim_core::slope::PowerVerdict::Coefficients =>
+            {
+                answer.exponent.map(|e| e.estimate)
+            }
+            _ => None,
+        }
+    }
+}
+
 /// An analyser trace of the receive band, swept for peaks, for the ticket's view of the
 /// whole band.
 pub struct BandTrace {
@@ -376,8 +391,11 @@ fn build(
             .map(|term| who(&t.site.emitters()[term.emitter]))
             .collect();
         let mut note = Vec::new();
-        if c.implausible {
-            note.push("implausible junction");
+        match c.calibration.and_then(|k| k.plausibility) {
+            Some(pim_core::level::Plausibility::Implausible) => note.push("implausible junction"),
+            Some(pim_core::level::Plausibility::Unlikely) => note.push("unlikely junction"),
+            _ if c.implausible => note.push("implausible junction"),
+            _ => {}
         }
         if c.away_from_fix {
             note.push("away from the fix");
@@ -418,7 +436,7 @@ fn build(
     ];
     let mut right = vec![true, false, false, true, true, true, true];
     if calibrated {
-        headers.push("junction needs L3, dBc");
+        headers.push("junction needs, dBc at 2×43 dBm");
         right.push(true);
     }
     if by_evidence {
@@ -465,14 +483,14 @@ fn build(
     }
     let m = &t.model;
     let mut levels = format!(
-        "Levels: each emitter drives a junction by its field strength there (ITU-R P.525, EIRP = ERP + 2.15 dB), taken as the power a {:.0} m² aperture collects; a junction's product follows a power law from two {:.0} dBm tones making {:.0} dBm at third order, weighted by the product's multinomial coefficient, each further order costing {:.0} dB and even orders {:.0} dB more. A product made in a transmitter (its harmonic at the ITU-R SM.329 limit, or intermodulation in its output stage) is levelled at that transmitter. Every candidate is compared by the part of its product inside the receive channel at the receiver, in dB relative to the first; a real joint may differ from the model by tens of dB.",
-        m.coupling_aperture_m2, m.reference_tone_dbm, m.im3_dbm, m.order_step_db, m.even_order_penalty_db
+        "Levels: each emitter drives a junction by its field strength there (ITU-R P.525, EIRP = ERP + 2.15 dB), taken as the power a {:.0} m² aperture collects; a junction is a joint of {:.0} dBc at two +43 dBm tones (the IEC 62037-1 condition; corroded hardware measures about −80 to −120 dBc), its products following a power law of exponent α = {:.2} below that drive, weighted by the product's multinomial coefficient, each further order costing {:.0} dB and even orders {:.0} dB more, and bending to a passive ceiling: no product above its weakest drive less 20·log10 of its order (Page 1958). A product made in a transmitter (its harmonic at the ITU-R SM.329 limit of its service, or intermodulation in its output stage, from signals within its band) is levelled at that transmitter. Every candidate is compared by the part of its product inside the receive channel at the receiver (Gaussian spectra by emission class, widths added root-sum-square), in dB relative to the first; a real joint may differ from the model by tens of dB.",
+        m.coupling_aperture_m2, m.im3_dbc(), m.drive_exponent, m.order_step_db, m.even_order_penalty_db
     );
     if calibrated {
         let first = at_fix.candidates.iter().find(|c| c.relative_db.is_some());
         let points = first.and_then(|c| c.calibration).map_or(0, |k| k.points);
         levels.push_str(&format!(
-            " Calibrated against {}: the first candidate would be heard at {} at the receiver; \"junction needs L3\" is the third-order level each junction would need from two {:.0} dBm tones, in dBc of one, and above {:.0} dBc no passive contact mixes so strongly (implausible).",
+            " Calibrated against {}: the first candidate would be heard at {} at the receiver; \"junction needs, dBc\" is the third-order product each junction would need at two +43 dBm tones: stronger than {:.0} dBc is unlikely for corroded hardware, stronger than {:.0} dBc implausible for any (a level above the passive ceiling is implausible whatever the joint).",
             match t.heard_dbm {
                 Some(l) => format!("{l:.1} dBm heard at the receiver"),
                 None => format!("the {points} levels of the walk"),
@@ -480,17 +498,9 @@ fn build(
             calibrated_first_dbm(at_fix)
                 .map(|v| format!("{v:.1} dBm"))
                 .unwrap_or_else(|| "—".into()),
-            m.reference_tone_dbm,
+            m.unlikely_im3_dbc,
             m.max_im3_dbc
         ));
-        if let Some(iec) = first
-            .and_then(|c| c.calibration)
-            .and_then(|k| k.required_im3_dbc_iec)
-        {
-            levels.push_str(&format!(
-                " At the IEC 62037-1 test condition (two +43 dBm tones) the first would measure about {iec:.0} dBc."
-            ));
-        }
     }
     if at_fix
         .candidates

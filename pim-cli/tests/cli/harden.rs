@@ -372,16 +372,13 @@ fn hostile_text_is_harmless_everywhere() {
 #[test]
 fn junction_model_options_are_bounded() {
     for (option, value, want) in [
+        ("--junction-dbc", "500", "500 dBc is outside -200…-20 dBc"),
         (
-            "--junction-im3-dbm",
-            "500",
-            "500 dBm is outside -200…43 dBm",
-        ),
-        (
-            "--junction-ref-dbm",
+            "--junction-dbc",
             "1e300",
-            "1e300 dBm is outside -60…60 dBm",
+            "1e300 dBc is outside -200…-20 dBc",
         ),
+        ("--max-im3-dbc", "0", "0 dBc is outside -140…-20 dBc"),
         ("--order-step-db", "-5", "-5 dB is outside 0…40 dB"),
     ] {
         let o = pim(&[

@@ -138,7 +138,7 @@ fn quantities_take_their_units() {
     let plain = explain(&[
         "--rx-bw-khz",
         "12.5",
-        "--junction-im3-dbm",
+        "--junction-dbc",
         "-80",
         "--rx-lat",
         "45.103",
@@ -146,14 +146,14 @@ fn quantities_take_their_units() {
         "-122.412",
     ]);
     for (bw, im3, lat) in [
-        ("12.5kHz", "-80dBm", "45°06.18'N"),
-        ("0.0125MHz", "-80 dBm", "45 06 10.8 N"),
+        ("12.5kHz", "-80dBc", "45°06.18'N"),
+        ("0.0125MHz", "-80 dBc", "45 06 10.8 N"),
         ("12500Hz", "-80", "N45.103"),
     ] {
         let v = explain(&[
             "--rx-bw-khz",
             bw,
-            "--junction-im3-dbm",
+            "--junction-dbc",
             im3,
             "--rx-lat",
             lat,

@@ -171,9 +171,12 @@ fn on_channel_narrow_product_ranks_first() {
     ];
     let p = params(target, 7);
     let r = ranked(&em, &p);
+    // Junction products among themselves: at these drives (about −4 dBm) an honest
+    // junction stays far below a transmitter's output stage, which ranks first.
     let names: Vec<String> = r
         .candidates
         .iter()
+        .filter(|c| c.mechanism == Mechanism::Junction)
         .map(|c| format!("{} {:?}", formula(&c.product, &em), c.mechanism))
         .collect();
 
@@ -187,6 +190,7 @@ fn on_channel_narrow_product_ranks_first() {
     assert!(place("2·FMA − FMB") > 0, "{names:?}");
     assert!(place("6·MW + LINK") > 0, "{names:?}");
     let first = &r.candidates[0];
+    assert_eq!(first.mechanism, Mechanism::TransmitterIm);
     assert_eq!(first.relative_db, Some(0.0));
     assert!(r
         .candidates
@@ -233,8 +237,8 @@ fn power_steps_of_two_emitters_give_the_true_coefficients() {
 }
 
 /// The invented demo site: with the junction at the fix of the demo walk, the planted
-/// 2·SKP-152 − FIRE-DSP ranks first, and its level heard along the walk is of the order
-/// the walk logged (−89.5 to −99 dBm).
+/// 2·SKP-152 − FIRE-DSP ranks first among the junction products at the fix, and the
+/// junction it would need is judged in the trade's terms.
 #[test]
 fn demo_ranks_the_planted_pair_first_with_believable_levels() {
     use pim_io::fieldlog::{prepare, read_field_log};
@@ -303,21 +307,21 @@ fn demo_ranks_the_planted_pair_first_with_believable_levels() {
     let gap = junctions[1].relative_db.unwrap() - first.relative_db.unwrap();
     assert!(gap < -20.0, "{gap}");
     let b = first.breakdown.unwrap();
-    // At the fix, the product is of the order the walk implies (−89.5 dBm some 120 m
-    // away is about −32 dBm there in free space).
+    // At the fix the planted pair's drives are a few dBm below 0 dBm (300 W and 100 W
+    // some 130 to 290 m away): a −90 dBc joint makes about −184 dBm there, far under its
+    // weakest drive (the passive ceiling, Page 1958; from memory).
+    let j = b.junction.unwrap();
+    assert!(j.level_dbm < j.ceiling_dbm, "{j:?}");
     assert!(
-        (-60.0..=-25.0).contains(&b.source_level_dbm),
+        (-200.0..=-160.0).contains(&b.source_level_dbm),
         "{}",
         b.source_level_dbm
     );
-    // Believable: within 20 dB of what the walk logged at the receiver site's distance.
-    assert!(
-        (-120.0..=-85.0).contains(&b.in_channel_dbm),
-        "{}",
-        b.in_channel_dbm
-    );
-    // Calibrated by the walk's own levels: the planted pair stays first and needs a
-    // plausible junction.
+    // Calibrated by the walk's own levels (−99 to −89.5 dBm some 20 to 120 m away), the
+    // planted pair stays first among the junctions, and the strength it would need is
+    // stated in the trade's terms: far beyond any corroded joint (IEC 62037-1 test
+    // practice, −80 to −120 dBc; common practice, from memory). The scenario's levels
+    // are those of a junction much nearer the transmitters.
     let cal = rank_candidates(hits.products, &emitters, &p, &inputs(&heard));
     let c = cal
         .candidates
@@ -326,9 +330,222 @@ fn demo_ranks_the_planted_pair_first_with_believable_levels() {
         .unwrap();
     assert_eq!(formula(&c.product, &emitters), "2·SKP-152 − FIRE-DSP");
     let k = c.calibration.unwrap();
-    eprintln!("calibrated by the walk: {k:?}");
     assert_eq!(k.points, 8);
-    assert!(!c.implausible);
-    assert!(k.shift_db.abs() < 20.0, "{k:?}");
-    assert_eq!(cal.outlook, Outlook::Credible);
+    assert!(c.implausible);
+    assert_eq!(
+        k.plausibility,
+        Some(pim_core::level::Plausibility::Implausible)
+    );
+    assert!(k.required_im3_dbc.is_none_or(|d| d > -60.0), "{k:?}");
+}
+
+/// Sites of random emitters (1 W to 50 kW ERP, 3 m to 5 km from the junction, 30 to
+/// 470 MHz) and a random receiver IIP3: no levelled candidate of any mechanism stands
+/// above the power that drives it. A junction stays under its weakest drive less
+/// 20·log10(n) (a positive nonlinear resistance converts at most 1/n² of its drive into
+/// the n-th harmonic: C. H. Page, Proc. IRE 46, 1958; from memory); a transmitter's
+/// harmonic under its own EIRP; an output stage's product under the coupled carrier's
+/// EIRP; the receiver's own product under its weakest input (it is levelled only below
+/// compression, IIP3 − 9.6 dB: Razavi, *RF Microelectronics*).
+mod no_product_above_its_drive {
+    use super::*;
+    use pim_core::level::DIPOLE_GAIN_DBI;
+    use proptest::prelude::*;
+
+    /// Each emitter as (Hz, ERP dBm, metres from the junction, azimuth °).
+    type Listed = Vec<(i64, f64, f64, f64)>;
+
+    fn site() -> impl Strategy<Value = (Listed, f64, i64)> {
+        (
+            proptest::collection::vec(
+                (
+                    30_000_000i64..470_000_000,
+                    0.0f64..47.0,
+                    3.0f64..5_000.0,
+                    0.0f64..360.0,
+                ),
+                2..5,
+            ),
+            -30.0f64..30.0,
+            0usize..64,
+        )
+            .prop_map(|(e, iip3, pick)| {
+                // aim the channel at a product of the first two, so that some land
+                let (f1, f2) = (e[0].0, e[1].0);
+                let target = match pick % 3 {
+                    0 => 2 * f1 - f2,
+                    1 => 2 * f2 - f1,
+                    _ => 2 * f1,
+                };
+                (
+                    e.into_iter()
+                        .map(|(f, erp_dbw, d, az)| (f, erp_dbw + 30.0, d, az))
+                        .collect(),
+                    iip3,
+                    target.max(1_000_000),
+                )
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 64, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_203), failure_persistence: None, ..ProptestConfig::default() })]
+        #[test]
+        fn for_every_mechanism((list, iip3, target) in site()) {
+            let j = GeoPoint::new(45.0, -122.0);
+            let emitters: Vec<Emitter> = list
+                .iter()
+                .enumerate()
+                .map(|(i, &(f, erp, d, az))| {
+                    let mut e = Emitter::new(format!("E{i}"), Hz(f), Hz(16_000));
+                    e.erp_dbm = Some(erp);
+                    e.position = Some(destination(j, az, d));
+                    e
+                })
+                .collect();
+            let p = SearchParams {
+                target: Hz(target),
+                rx_bandwidth: Hz(12_500),
+                tolerance: Hz(0),
+                max_order: 5,
+                max_emitters: 3,
+            };
+            let model = LevelModel { rx_iip3_dbm: Some(iip3), ..LevelModel::default() };
+            let hits = find_products(&carriers(&emitters), &p);
+            let r = rank_candidates(
+                hits.products,
+                &emitters,
+                &p,
+                &RankInputs { placement: Placement::at(Some(j)), model, ..RankInputs::default() },
+            );
+            let input = |i: usize| {
+                let e = &emitters[i];
+                e.erp_dbm.unwrap() + DIPOLE_GAIN_DBI
+                    - model.path_to_receiver_db(e.freq.0 as f64, e.position.unwrap(), None, j)
+            };
+            for c in &r.candidates {
+                let Some(level) = c.level_dbm else { continue };
+                let terms: Vec<usize> = c.product.terms().map(|t| t.emitter).collect();
+                let bound = match c.mechanism {
+                    Mechanism::Junction => {
+                        let n = c.product.order() as f64;
+                        terms.iter().map(|&i| r.incidence.get(i).unwrap().incident_dbm)
+                            .fold(f64::INFINITY, f64::min) - 20.0 * n.log10()
+                    }
+                    Mechanism::Transmitter => emitters[terms[0]].erp_dbm.unwrap() + DIPOLE_GAIN_DBI,
+                    Mechanism::TransmitterIm => {
+                        let b = terms.iter().copied().find(|&i| Some(i) != c.formed_in).unwrap();
+                        emitters[b].erp_dbm.unwrap() + DIPOLE_GAIN_DBI
+                    }
+                    Mechanism::Receiver => terms.iter().map(|&i| input(i)).fold(f64::INFINITY, f64::min),
+                };
+                prop_assert!(level <= bound + 1e-9, "{:?} {} > {}", c.mechanism, level, bound);
+            }
+        }
+    }
+}
+
+/// Worked example (IEC 62037-1 test practice; common practice, from memory: corroded
+/// joints −80 to −120 dBc at two +43 dBm tones, stronger than about −60 dBc is not a
+/// corroded joint): two 100 W transmitters 200 m from a receiver, the junction at it,
+/// and −110 dBm heard. The drives are about −5 dBm; the ideal law from +43 dBm needs a
+/// joint of about −3 dBc: implausible, and said so.
+#[test]
+fn a_loud_product_from_distant_transmitters_needs_an_implausible_joint() {
+    let j = GeoPoint::new(45.0, -122.0);
+    let mk = |id: &str, hz: i64, az: f64| {
+        let mut e = Emitter::new(id, Hz(hz), Hz(0));
+        e.erp_dbm = Some(watts_to_dbm(100.0));
+        e.position = Some(destination(j, az, 200.0));
+        e
+    };
+    let emitters = vec![mk("A", 152_840_000, 0.0), mk("B", 159_340_000, 90.0)];
+    let p = params(Hz(146_340_000), 3);
+    let hits = find_products(&carriers(&emitters), &p);
+    let heard = [HeardLevel {
+        position: None,
+        level_dbm: -110.0,
+    }];
+    let r = rank_candidates(
+        hits.products,
+        &emitters,
+        &p,
+        &RankInputs {
+            placement: Placement::at(Some(j)),
+            heard: &heard,
+            ..RankInputs::default()
+        },
+    );
+    let c = r
+        .candidates
+        .iter()
+        .find(|c| c.mechanism == Mechanism::Junction)
+        .unwrap();
+    let drive = r.incidence.get(0).unwrap().incident_dbm;
+    assert!((-6.5..-4.5).contains(&drive), "{drive}");
+    let k = c.calibration.unwrap();
+    let dbc = k.required_im3_dbc.unwrap();
+    // −110 dBm heard at the λ/2π floor (6 dB) is −104 dBm at the junction; the ideal law
+    // from two −5 dBm drives to two +43 dBm tones adds 3 × 48 dB: about −3 dBc.
+    assert!((-6.0..0.0).contains(&dbc), "{dbc}");
+    assert!(c.implausible);
+    assert_eq!(
+        k.plausibility,
+        Some(pim_core::level::Plausibility::Implausible)
+    );
+    assert_eq!(
+        r.outlook,
+        Outlook::Credible,
+        "the output stage can still make it"
+    );
+}
+
+/// Worked example: the receiver's third-order law, P = 2·P_A + P_B − 2·IIP3 (Pozar,
+/// *Microwave Engineering*; Razavi, *RF Microelectronics*), holds only below the input
+/// 1 dB compression point, about 9.6 dB under IIP3 (Razavi): with IIP3 = +10 dBm two
+/// carriers at −20 dBm make −80 dBm; at 0 dBm, just under compression (+0.36 dBm), −20
+/// dBm; at +1 dBm the receiver is overloaded and no level is given.
+#[test]
+fn the_receiver_law_stops_at_compression() {
+    use pim_core::rank::Missing;
+    let j = GeoPoint::new(45.0, -122.0);
+    let model = LevelModel {
+        rx_iip3_dbm: Some(10.0),
+        ..LevelModel::default()
+    };
+    assert!((model.rx_p1db_dbm().unwrap() - 0.36).abs() < 1e-9);
+    let at_input = |input_dbm: f64| {
+        // an emitter 1 km away whose ERP puts `input_dbm` at the receiver's input
+        let mk = |id: &str, hz: i64, az: f64| {
+            let mut e = Emitter::new(id, Hz(hz), Hz(0));
+            let pos = destination(j, az, 1_000.0);
+            let loss = model.path_to_receiver_db(hz as f64, pos, None, j);
+            e.erp_dbm = Some(input_dbm + loss - pim_core::level::DIPOLE_GAIN_DBI);
+            e.position = Some(pos);
+            e
+        };
+        let emitters = vec![mk("A", 152_840_000, 0.0), mk("B", 159_340_000, 90.0)];
+        let p = params(Hz(146_340_000), 3);
+        let hits = find_products(&carriers(&emitters), &p);
+        let r = rank_candidates(
+            hits.products,
+            &emitters,
+            &p,
+            &RankInputs {
+                placement: Placement::at(Some(j)),
+                model,
+                ..RankInputs::default()
+            },
+        );
+        *r.candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Receiver)
+            .unwrap()
+    };
+    let quiet = at_input(-20.0);
+    assert!((quiet.level_dbm.unwrap() - (3.0 * -20.0 - 2.0 * 10.0)).abs() < 1e-6);
+    let near = at_input(0.0);
+    assert!((near.level_dbm.unwrap() - (0.0 - 20.0)).abs() < 1e-6);
+    let loud = at_input(1.0);
+    assert_eq!(loud.level_dbm, None);
+    assert_eq!(loud.missing, Some(Missing::ReceiverOverload));
 }
