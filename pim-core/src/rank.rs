@@ -171,6 +171,9 @@ pub struct Candidate {
     pub implausible: bool,
     /// Made farther from the fix than the bearings allow ([`Placement::fix_radius_m`]).
     pub away_from_fix: bool,
+    /// Cleared by power steps ([`Ranking::demote_cleared`]): a stepped emitter moved
+    /// the level and takes no part in it, or carries a |k| its slope does not fit.
+    pub cleared_by_steps: bool,
     /// What the on-air log says about it, when a log was given.
     pub evidence: Option<Evidence>,
 }
@@ -324,6 +327,54 @@ impl Ranking {
     }
 }
 
+/// What a power step found of one emitter: every |k| its slope fits (with a drive
+/// exponent in [`crate::slope::DRIVE_EXPONENT_RANGE`]); 0 among them when the level did
+/// not clearly follow it.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct StepFinding {
+    /// The emitter stepped (index in the site).
+    pub emitter: usize,
+    /// The |k| that fit its slope.
+    pub fits: Vec<u32>,
+}
+
+impl Ranking {
+    /// Demotes the candidates the power steps cleared, keeping the order within the two
+    /// groups: a candidate is cleared when a stepped emitter carries in it a |k| its
+    /// slope does not fit (|k| = 0 where it takes no part, so a candidate without an
+    /// emitter that moved the level is cleared). Returns how many were cleared. The
+    /// crew is never sent to hardware the tests cleared; nothing is dropped.
+    pub fn demote_cleared(&mut self, findings: &[StepFinding]) -> usize {
+        if findings.iter().all(|f| f.fits.is_empty()) {
+            return 0;
+        }
+        for c in &mut self.candidates {
+            c.cleared_by_steps = findings.iter().any(|f| {
+                !f.fits.is_empty()
+                    && !f
+                        .fits
+                        .contains(&c.product.coefficient_of(f.emitter).unsigned_abs())
+            });
+        }
+        self.candidates.sort_by_key(|c| c.cleared_by_steps);
+        let first = self
+            .candidates
+            .iter()
+            .find_map(|c| c.breakdown.map(|b| b.in_channel_dbm));
+        for (i, c) in self.candidates.iter_mut().enumerate() {
+            c.rank = i + 1;
+            c.relative_db = match (c.breakdown, first) {
+                (Some(b), Some(f)) => Some(b.in_channel_dbm - f),
+                _ => None,
+            };
+        }
+        self.candidates
+            .iter()
+            .filter(|c| c.cleared_by_steps)
+            .count()
+    }
+}
+
 /// Orders two terms for display: positive coefficients first, larger |k| first, then by
 /// frequency and id.
 fn display_order(emitters: &[Emitter]) -> impl Fn(&Term, &Term) -> Ordering + '_ {
@@ -438,6 +489,7 @@ fn candidate(product: Product, mechanism: Mechanism, formed_in: Option<usize>) -
         calibration: None,
         implausible: false,
         away_from_fix: false,
+        cleared_by_steps: false,
         evidence: None,
     }
 }

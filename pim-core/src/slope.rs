@@ -31,12 +31,16 @@
 //!   (n − 0.5, n + 0.5); otherwise `inconclusive`. A slope below 0.5 means the level does
 //!   not follow the attenuator at all (the interference enters past it, or the readings
 //!   sit on the noise floor).
-//! - power step: coefficient k (0 ≤ k ≤ 15) when the interval lies inside (k − 0.5,
-//!   k + 0.5); otherwise inconclusive. k = 0 says the emitter takes no part in the product.
-//!
-//! Measured passive intermodulation often rises less steeply than the ideal law, 2 to
-//! 3 dB/dB at third order (common practice), so a slope between two integers deserves a
-//! second series rather than a guess; the rule reports it as inconclusive.
+//! - power step: a junction's law may sit below the ideal one by a drive exponent α, so a
+//!   slope is α·|k|, not |k|. Measured passive intermodulation rises 2 to 3 dB/dB at third
+//!   order (common practice), α about 0.67 to 1; with a margin the rule takes α in
+//!   [`DRIVE_EXPONENT_RANGE`], 0.6 to 1.1. Every |k| (0 ≤ k ≤ 15) with α·|k| inside the
+//!   interval for some such α is reported (`consistent_k`); the coefficient is settled
+//!   only when exactly one is, so that no alternative is dropped: at 2 dB/dB a slope of
+//!   2.0 fits |k| = 2 (α = 1) and |k| = 3 (α = 0.67) alike, and only the ratio of two
+//!   emitters' slopes (a step of a second emitter) tells them apart. k = 0 (the interval
+//!   meets ±0.3 dB/dB, half the least |k| = 1 slope) says the emitter takes no part in
+//!   the product.
 //!
 //! When the interval straddles a boundary, [`Unsettled::Straddles`] says how many readings
 //! over the same range of steps, or what range of steps with the same number of readings,
@@ -45,10 +49,11 @@
 //! **Power steps of several emitters.** [`judge_power_steps`] fits each emitter's series
 //! alone. A junction whose law is below the ideal by a common exponent α (level ∝
 //! Π Pᵢ^(α·|kᵢ|)) gives slopes α·|kᵢ|, so one slope cannot separate |k| from α, but the
-//! ratios of two or more can. The answer is the integer vector of least order Σ|kᵢ| (at
-//! most three emitters nonzero, order at most 15) for which one α in (0, 1] — at or below
-//! the ideal law — lies inside every slope's 95 % interval divided by its |kᵢ| (|kᵢ| = 0
-//! needs an interval holding 0). Two or more vectors of that order make it ambiguous.
+//! ratios of two or more can. Every integer vector (at most three emitters nonzero, order
+//! at most 15) for which one α in [`DRIVE_EXPONENT_RANGE`] lies inside every slope's 95 %
+//! interval divided by its |kᵢ| (|kᵢ| = 0 needs an interval holding 0) fits; the answer
+//! is settled only when exactly one does, and ambiguous (every fitting vector listed)
+//! otherwise: three readings an emitter rarely settle it.
 //! The exponent is the weighted least-squares α̂ = Σ(kᵢbᵢ/seᵢ²)/Σ(kᵢ²/seᵢ²) with
 //! se = 1/√Σ(kᵢ²/seᵢ²) and the t quantile of the fewest degrees of freedom.
 
@@ -60,6 +65,11 @@ use crate::intermod::MAX_ORDER;
 
 /// The confidence of the interval on which verdicts rest.
 pub const CONFIDENCE: f64 = 0.95;
+
+/// The drive exponents α a junction's law is taken to have: 2 to 3 dB/dB at third order
+/// is what practitioners measure (common practice), the ideal law 3 dB/dB (Pozar), and a
+/// margin either side.
+pub const DRIVE_EXPONENT_RANGE: (f64, f64) = (0.6, 1.1);
 
 /// The most readings [`Unsettled::Straddles`] will suggest; beyond that, more of the same
 /// readings will not settle the question.
@@ -100,6 +110,9 @@ pub enum Unsettled {
     DoesNotFollow,
     /// Steeper than any order the product search considers.
     TooSteep,
+    /// Two or more |k| fit the slope with a drive exponent in [`DRIVE_EXPONENT_RANGE`]:
+    /// one emitter's slope cannot separate |k| from α; a second emitter's step can.
+    Alternatives,
     /// The interval straddles the boundary between two alternatives.
     Straddles {
         /// The boundary the interval crosses (nearest to the estimate).
@@ -196,8 +209,11 @@ pub struct SlopeAnswer {
     pub verdict: Option<Verdict>,
     /// Attenuator test, internal: the order, when the interval singles one out.
     pub order: Option<u32>,
-    /// Power step only: |k|, when the interval singles one out.
+    /// Power step only: |k|, when exactly one fits (module docs).
     pub coefficient: Option<u32>,
+    /// Power step only: every |k| that fits the interval with a drive exponent in
+    /// [`DRIVE_EXPONENT_RANGE`].
+    pub consistent_k: Vec<u32>,
     /// Why there is no answer, when there is none.
     pub unsettled: Option<Unsettled>,
 }
@@ -229,6 +245,7 @@ pub fn judge(kind: StepKind, points: &[(f64, f64)]) -> Result<SlopeAnswer> {
         verdict: (kind == StepKind::Attenuator).then_some(Verdict::Inconclusive),
         order: None,
         coefficient: None,
+        consistent_k: Vec::new(),
         unsettled: None,
     };
     let (Some((lo, hi)), Some(h)) = (answer.interval, half_width) else {
@@ -261,9 +278,18 @@ pub fn judge(kind: StepKind, points: &[(f64, f64)]) -> Result<SlopeAnswer> {
             answer.unsettled = Some(straddles(&fit, boundary, (estimate - boundary).abs(), h));
         }
         StepKind::Power => {
-            if let Some(k) = single_integer(lo, hi).filter(|&k| (0..=MAX_ORDER as i64).contains(&k))
+            answer.consistent_k = consistent_coefficients(lo, hi);
+            if let [k] = answer.consistent_k.as_slice() {
+                answer.coefficient = Some(*k);
+                return Ok(answer);
+            }
+            if answer.consistent_k.len() > 1
+                && answer.consistent_k.windows(2).all(|w| {
+                    // overlapping ranges: no series of this emitter alone separates them
+                    w[1] as f64 * DRIVE_EXPONENT_RANGE.0 <= w[0] as f64 * DRIVE_EXPONENT_RANGE.1
+                })
             {
-                answer.coefficient = Some(k as u32);
+                answer.unsettled = Some(Unsettled::Alternatives);
                 return Ok(answer);
             }
             if hi < -0.5 {
@@ -274,12 +300,44 @@ pub fn judge(kind: StepKind, points: &[(f64, f64)]) -> Result<SlopeAnswer> {
                 answer.unsettled = Some(Unsettled::TooSteep);
                 return Ok(answer);
             }
-            let boundary = ((estimate - 0.5).round() + 0.5).clamp(-0.5, top);
+            // the gaps between the fitting |k|'s slope ranges: 0.3 | 0.6 and 1.1 | 1.2
+            let (a_lo, a_hi) = DRIVE_EXPONENT_RANGE;
+            let top_of = |k: u32| match k {
+                0 => ZERO_SLOPE_DB_PER_DB,
+                k => k as f64 * a_hi,
+            };
+            let boundary = answer
+                .consistent_k
+                .windows(2)
+                .filter(|w| top_of(w[0]) < w[1] as f64 * a_lo)
+                .map(|w| (top_of(w[0]) + w[1] as f64 * a_lo) / 2.0)
+                .min_by(|x, y| (x - estimate).abs().total_cmp(&(y - estimate).abs()))
+                .unwrap_or(((estimate - 0.5).round() + 0.5).clamp(-0.5, top));
             answer.unsettled = Some(straddles(&fit, boundary, (estimate - boundary).abs(), h));
         }
     }
     Ok(answer)
 }
+
+/// Every |k| whose slopes α·|k|, α in [`DRIVE_EXPONENT_RANGE`], meet the interval
+/// [lo, hi] (k = 0 when it holds 0).
+pub fn consistent_coefficients(lo: f64, hi: f64) -> Vec<u32> {
+    let (a_lo, a_hi) = DRIVE_EXPONENT_RANGE;
+    (0..=MAX_ORDER)
+        .filter(|&k| {
+            if k == 0 {
+                // a level moving less than half the least |k| = 1 slope does not follow
+                return lo <= ZERO_SLOPE_DB_PER_DB && hi >= -ZERO_SLOPE_DB_PER_DB;
+            }
+            let k = k as f64;
+            lo <= k * a_hi && hi >= k * a_lo
+        })
+        .collect()
+}
+
+/// A level moving less than this per dB of an emitter's power (half the least slope of
+/// |k| = 1) does not follow it: |k| = 0 fits.
+pub const ZERO_SLOPE_DB_PER_DB: f64 = DRIVE_EXPONENT_RANGE.0 / 2.0;
 
 /// How much more measuring would move the interval's edge off `boundary`, the estimate
 /// being `margin` dB/dB from it and the interval `half_width` wide on each side.
@@ -335,11 +393,11 @@ pub struct Exponent {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum PowerVerdict {
-    /// One integer vector of least order fits every slope.
+    /// Exactly one integer vector fits every slope.
     Coefficients,
-    /// Two or more vectors of the least order fit.
+    /// Two or more vectors fit.
     Ambiguous,
-    /// No vector up to order 15 fits with an exponent at or below the ideal law.
+    /// No vector up to order 15 fits with an exponent in [`DRIVE_EXPONENT_RANGE`].
     NoneConsistent,
     /// One emitter's slope cannot separate |k| from the exponent; its answer assumes the
     /// ideal law.
@@ -359,6 +417,9 @@ pub struct PowerSteps {
     pub verdict: PowerVerdict,
     /// With one emitter, the single-series answer of [`judge`].
     pub single: Option<SlopeAnswer>,
+    /// Every coefficient vector (by emitter, in the series' order) that fits every slope
+    /// with one drive exponent in [`DRIVE_EXPONENT_RANGE`], lowest order first.
+    pub alternatives: Vec<Vec<u32>>,
 }
 
 /// The most emitters one power-step file may hold.
@@ -394,7 +455,7 @@ fn exponent_range(k: &[u32], intervals: &[(f64, f64)]) -> Option<(f64, f64)> {
     let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
     for (&k, &(a, b)) in k.iter().zip(intervals) {
         if k == 0 {
-            if a > 0.0 || b < 0.0 {
+            if a > ZERO_SLOPE_DB_PER_DB || b < -ZERO_SLOPE_DB_PER_DB {
                 return None;
             }
         } else {
@@ -402,7 +463,8 @@ fn exponent_range(k: &[u32], intervals: &[(f64, f64)]) -> Option<(f64, f64)> {
             hi = hi.min(b / k as f64);
         }
     }
-    (lo <= hi && hi > 0.0 && lo <= 1.0).then_some((lo.max(0.0), hi.min(1.0)))
+    let (a_lo, a_hi) = DRIVE_EXPONENT_RANGE;
+    (lo <= hi && hi >= a_lo && lo <= a_hi).then_some((lo.max(a_lo), hi.min(a_hi)))
 }
 
 /// Reads the power steps of one or more emitters: `(emitter, readings)` with readings
@@ -449,6 +511,7 @@ pub fn judge_power_steps(series: &[(String, Vec<(f64, f64)>)]) -> Result<PowerSt
             exponent: None,
             verdict: PowerVerdict::SingleEmitter,
             single: Some(single),
+            alternatives: Vec::new(),
         });
     }
     let mut intervals = Vec::with_capacity(fits.len());
@@ -460,21 +523,17 @@ pub fn judge_power_steps(series: &[(String, Vec<(f64, f64)>)]) -> Result<PowerSt
                 exponent: None,
                 verdict: PowerVerdict::TooFewReadings,
                 single: None,
+                alternatives: Vec::new(),
             });
         };
         t_max = t_max.max(t);
         intervals.push((f.slope - t * se, f.slope + t * se));
     }
-    let mut found: Vec<Vec<u32>> = Vec::new();
-    for k in coefficient_vectors(series.len()) {
-        let order: u32 = k.iter().sum();
-        if found.first().is_some_and(|f| f.iter().sum::<u32>() < order) {
-            break;
-        }
-        if exponent_range(&k, &intervals).is_some() {
-            found.push(k);
-        }
-    }
+    // every vector of any order that fits: settled only when one does
+    let found: Vec<Vec<u32>> = coefficient_vectors(series.len())
+        .into_iter()
+        .filter(|k| exponent_range(k, &intervals).is_some())
+        .collect();
     let verdict = match found.len() {
         0 => PowerVerdict::NoneConsistent,
         1 => PowerVerdict::Coefficients,
@@ -494,7 +553,9 @@ pub fn judge_power_steps(series: &[(String, Vec<(f64, f64)>)]) -> Result<PowerSt
             den += (k as f64).powi(2) * w;
         }
         if den > 0.0 && den.is_finite() {
-            let estimate = num / den;
+            // within the range every slope allows
+            let (lo, hi) = exponent_range(k, &intervals).unwrap_or(DRIVE_EXPONENT_RANGE);
+            let estimate = (num / den).clamp(lo, hi);
             let h = t_max / den.sqrt();
             exponent = Some(Exponent {
                 estimate,
@@ -507,6 +568,7 @@ pub fn judge_power_steps(series: &[(String, Vec<(f64, f64)>)]) -> Result<PowerSt
         exponent,
         verdict,
         single: None,
+        alternatives: found,
     })
 }
 
@@ -559,11 +621,29 @@ mod tests {
     fn power_step_coefficients() {
         let steps = [0.0, -1.0, -2.0, -3.0, -4.0, -5.0];
         let wob = [0.1, -0.1, 0.05, 0.0, -0.05, 0.1];
-        for k in 0..=3 {
+        for k in 0..=1 {
             let a = judge(StepKind::Power, &line(k as f64, &steps, &wob)).unwrap();
             assert_eq!(a.coefficient, Some(k), "k = {k}");
+            assert_eq!(a.consistent_k, vec![k]);
             assert_eq!(a.verdict, None);
         }
+        // A junction rising 2.0 dB/dB at third order (α = 2/3, inside the 2 to 3 dB/dB
+        // practitioners measure; common practice): the emitter carrying |k| = 2 moves the
+        // level 1.33 dB/dB, which only |k| = 2 fits; the one carrying |k| = 1 moves it
+        // 0.67 dB/dB, which only |k| = 1 fits.
+        let a = judge(StepKind::Power, &line(4.0 / 3.0, &steps, &wob)).unwrap();
+        assert_eq!((a.coefficient, a.consistent_k.clone()), (Some(2), vec![2]));
+        let a = judge(StepKind::Power, &line(2.0 / 3.0, &steps, &wob)).unwrap();
+        assert_eq!((a.coefficient, a.consistent_k.clone()), (Some(1), vec![1]));
+        // At the ideal 3.0 dB/dB (α = 1; Pozar) the |k| = 2 emitter's 2.0 dB/dB fits
+        // |k| = 2 and |k| = 3 (α = 2/3) alike: both are said, neither is settled, and no
+        // candidate is dropped; a second emitter's step separates them.
+        let a = judge(StepKind::Power, &line(2.0, &steps, &wob)).unwrap();
+        assert_eq!(a.coefficient, None);
+        assert_eq!(a.consistent_k, vec![2, 3]);
+        assert_eq!(a.unsettled, Some(Unsettled::Alternatives));
+        let a = judge(StepKind::Power, &line(1.0, &steps, &wob)).unwrap();
+        assert_eq!(a.coefficient, Some(1));
         let a = judge(StepKind::Power, &line(-2.0, &steps, &wob)).unwrap();
         assert_eq!(a.unsettled, Some(Unsettled::DoesNotFollow));
     }
@@ -580,7 +660,8 @@ mod tests {
                 readings_needed: Some(m),
                 step_range_needed_db: Some(r),
             }) => {
-                assert_eq!(boundary, 1.5);
+                // between |k| = 1 (up to 1.1 dB/dB) and |k| = 2 (from 1.2)
+                assert!((boundary - 1.15).abs() < 1e-9, "{boundary}");
                 assert!(m > 4, "{m}");
                 assert!(r > 6.0, "{r}");
             }
@@ -606,6 +687,18 @@ mod tests {
         }
         let one = judge_power_steps(&[("A".to_string(), line(2.0, &steps, &wob))]).unwrap();
         assert_eq!(one.verdict, PowerVerdict::SingleEmitter);
-        assert_eq!(one.coefficients[0].k, Some(2));
+        assert_eq!(one.coefficients[0].k, None);
+        assert_eq!(one.single.unwrap().consistent_k, vec![2, 3]);
+        // Three readings an emitter (0, −3, −6 dB) with a metre's scatter: (2, 1) and
+        // (1, 1) both fit, so nothing is settled and both are listed.
+        let short = [0.0, -3.0, -6.0];
+        let r = judge_power_steps(&[
+            ("A".to_string(), line(1.8, &short, &[0.4, -0.8, 0.4])),
+            ("B".to_string(), line(0.9, &short, &[-0.4, 0.8, -0.4])),
+        ])
+        .unwrap();
+        assert_eq!(r.verdict, PowerVerdict::Ambiguous, "{r:?}");
+        assert!(r.alternatives.contains(&vec![2, 1]), "{:?}", r.alternatives);
+        assert!(r.exponent.is_none());
     }
 }

@@ -295,6 +295,7 @@ mod tests {
             calibration: None,
             implausible: false,
             away_from_fix: false,
+            cleared_by_steps: false,
             evidence: None,
         };
         let seventh = mk(Product::new(&[t(0, 4), t(1, -3)], Hz(146_775_000)));

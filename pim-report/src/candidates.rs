@@ -60,6 +60,7 @@ struct CandidateJson<'a> {
     calibration: Option<Calibration>,
     implausible: bool,
     away_from_fix: bool,
+    cleared_by_steps: bool,
     missing: Option<Missing>,
     #[serde(skip_serializing_if = "Option::is_none")]
     on_air: Option<Evidence>,
@@ -135,6 +136,7 @@ fn candidate_json<'a>(l: &Listing<'a>, carriers: &[Carrier], c: &Candidate) -> C
         calibration: c.calibration.as_ref().map(rounded_calibration),
         implausible: c.implausible,
         away_from_fix: c.away_from_fix,
+        cleared_by_steps: c.cleared_by_steps,
         missing: c.missing,
         on_air: c.evidence,
     }
@@ -473,6 +475,9 @@ fn remark(c: &Candidate) -> String {
     }
     if c.away_from_fix {
         r.push("away from the fix");
+    }
+    if c.cleared_by_steps {
+        r.push("cleared by the power steps");
     }
     match c.missing {
         Some(Missing::Location) => r.push("no location"),

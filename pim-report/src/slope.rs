@@ -15,7 +15,7 @@ use crate::text_table::{Align, TextTable};
 const MAX_SUGGESTED_RANGE_DB: f64 = 40.0;
 
 /// What one emitter's slope cannot tell, said beside every single-emitter power step.
-pub const SINGLE_EMITTER_CAVEAT: &str = "one emitter's slope cannot separate its |k| from the junction's drive exponent (a junction rising less steeply than the ideal law gives a smaller slope); it is read as the ideal law. Steps of every emitter of the first candidate in one file (emitter,step_db,level_dbm) separate them.";
+pub const SINGLE_EMITTER_CAVEAT: &str = "one emitter's slope is α·|k|, and a junction's drive exponent α may lie anywhere from 0.6 to 1.1 (2 to 3 dB/dB at third order is what is measured; common practice): every |k| that fits is listed, and one is settled only when no other fits. Steps of two or more emitters of the first candidate in one file (emitter,step_db,level_dbm) separate |k| from α.";
 
 fn r4(x: f64) -> f64 {
     (x * 10_000.0).round() / 10_000.0
@@ -35,6 +35,8 @@ fn alternatives(kind: StepKind, boundary: f64) -> String {
             "no response (0) and over the air (1)".to_string()
         }
         StepKind::Attenuator => "over the air (1) and made in the receiver (2 or more)".to_string(),
+        StepKind::Power if boundary < 0.6 => "|k| = 0 and |k| = 1".to_string(),
+        StepKind::Power if boundary < 1.2 => "|k| = 1 and |k| = 2".to_string(),
         StepKind::Power => format!(
             "|k| = {} and |k| = {}",
             (boundary - 0.5).max(0.0),
@@ -48,10 +50,8 @@ fn boundaries_crossed(kind: StepKind, lo: f64, hi: f64) -> usize {
     let inside = |b: f64| lo <= b && b <= hi;
     match kind {
         StepKind::Attenuator => [0.5, 1.5].into_iter().filter(|&b| inside(b)).count(),
-        StepKind::Power => (0..=pim_core::intermod::MAX_ORDER)
-            .map(|k| k as f64 - 0.5)
-            .filter(|&b| inside(b))
-            .count(),
+        // the gaps between |k| ranges at α 0.6 to 1.1: 0.3 | 0.6 and 1.1 | 1.2
+        StepKind::Power => [0.45, 1.15].into_iter().filter(|&b| inside(b)).count(),
     }
 }
 
@@ -70,6 +70,10 @@ pub fn advice(a: &SlopeAnswer, emitter: Option<&str>) -> String {
                 StepKind::Attenuator => "the level hardly follows the attenuator (under 0.5 dB per dB): check that the attenuator sits in the antenna feed ahead of the receiver, that the readings stay above the receiver's noise floor, and whether the interference enters past the attenuator (the receiver's case, power or audio leads).".to_string(),
                 StepKind::Power => "the level rose as the emitter's power was lowered: check the sign of step_db (negative for a reduction) and that every reading is of the same product.".to_string(),
             },
+            Unsettled::Alternatives => format!(
+                "|k| = {} all fit this slope with a drive exponent of 0.6 to 1.1, and more readings of this emitter alone cannot tell them apart: keep every candidate in which {id} carries one of them, and step a second emitter of the first candidate in the same file (every power change arranged with its licensee).",
+                a.consistent_k.iter().map(|k| k.to_string()).collect::<Vec<_>>().join(" or ")
+            ),
             Unsettled::TooSteep => "the level changes by more than 15.5 dB per dB of this emitter, steeper than any product the search considers: check the readings and that step_db is in dB.".to_string(),
             Unsettled::Straddles { boundary, readings_needed, step_range_needed_db } => {
                 let crossed = a.interval.map_or(0, |(lo, hi)| boundaries_crossed(kind, lo, hi));
@@ -125,7 +129,7 @@ pub fn advice(a: &SlopeAnswer, emitter: Option<&str>) -> String {
         ),
         (StepKind::Power, _, _, Some(0)) => format!("the level does not follow this emitter: it takes no part in the product (`pim explain --coefficient {id}=0` keeps only the candidates without it)."),
         (StepKind::Power, _, _, Some(k)) => format!(
-            "the emitter carries |k| = {k} in the product: `pim explain --coefficient {id}={k}` keeps only the candidates in which it does."
+            "the emitter carries |k| = {k} in the product, the only coefficient that fits with a drive exponent of 0.6 to 1.1: `pim explain --coefficient {id}={k}` keeps only the candidates in which it does."
         ),
         _ => String::new(),
     }
@@ -154,6 +158,8 @@ struct SlopeJson<'a> {
     #[serde(skip_serializing_if = "Option::is_none")]
     coefficient: Option<Option<u32>>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    consistent_k: Option<&'a [u32]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     emitter: Option<Option<&'a str>>,
     interval_95: Option<[f64; 2]>,
     kind: StepKind,
@@ -181,6 +187,7 @@ pub fn single_json(
         verdict: attenuator.then(|| answer.verdict.unwrap_or(Verdict::Inconclusive)),
         order: attenuator.then_some(answer.order),
         coefficient: (!attenuator).then_some(answer.coefficient),
+        consistent_k: (!attenuator).then_some(answer.consistent_k.as_slice()),
         emitter: (!attenuator).then_some(emitter),
         interval_95: answer.interval.map(|(lo, hi)| [r4(lo), r4(hi)]),
         kind: answer.kind,
@@ -262,12 +269,14 @@ pub fn single_text(
             verdict_word(answer.verdict.unwrap_or(Verdict::Inconclusive))
         )),
         StepKind::Power => {
+            let fits: Vec<String> = answer.consistent_k.iter().map(|k| k.to_string()).collect();
             out.push_str(&format!(
                 "Coefficient: {}.\n",
-                answer
-                    .coefficient
-                    .map(|k| format!("|k| = {k}"))
-                    .unwrap_or_else(|| "inconclusive".to_string())
+                match (answer.coefficient, fits.len()) {
+                    (Some(k), _) => format!("|k| = {k} (settled: no other fits)"),
+                    (None, 0) => "inconclusive".to_string(),
+                    (None, _) => format!("|k| = {} fit, not settled", fits.join(" or ")),
+                }
             ));
             out.push_str(&format!("Note: {SINGLE_EMITTER_CAVEAT}\n"));
         }
@@ -280,6 +289,25 @@ pub fn single_text(
 fn interval(slope: f64, stderr: Option<f64>, n: usize) -> Option<(f64, f64)> {
     let h = stderr? * t_quantile(n as f64 - 2.0)?;
     Some((slope - h, slope + h))
+}
+
+/// The coefficient sets that fit, as `(2, 1) or (1, 1)` in the series' order (at most
+/// six named).
+pub fn alternatives_text(p: &PowerSteps) -> String {
+    let ids: Vec<&str> = p.coefficients.iter().map(|c| c.emitter.as_str()).collect();
+    let mut sets: Vec<String> = p
+        .alternatives
+        .iter()
+        .take(6)
+        .map(|k| {
+            let parts: Vec<String> = k.iter().map(|k| k.to_string()).collect();
+            format!("({})", parts.join(", "))
+        })
+        .collect();
+    if p.alternatives.len() > 6 {
+        sets.push(format!("{} more", p.alternatives.len() - 6));
+    }
+    format!("|k| of ({}) = {}", ids.join(", "), sets.join(" or "))
 }
 
 /// What the power steps of several emitters mean and what to do next.
@@ -299,8 +327,11 @@ pub fn power_steps_advice(p: &PowerSteps) -> String {
                 flags.join(" ")
             )
         }
-        PowerVerdict::Ambiguous => "two or more sets of coefficients of the same order fit every slope: step each emitter over a wider range, or take more readings, so that the slopes' intervals narrow (coordinate every power change with the licensee).".to_string(),
-        PowerVerdict::NoneConsistent => "no set of coefficients up to order 15 with one drive exponent at or below the ideal law fits every slope: check that every series is of the same product, that step_db is each emitter's own power change in dB, and that the readings stay above the noise floor.".to_string(),
+        PowerVerdict::Ambiguous => format!(
+            "{} fit every slope with one drive exponent of 0.6 to 1.1: keep the candidates of every one of them; step each emitter over a wider range, or take more readings, so that the slopes' intervals narrow (every power change arranged with its licensee).",
+            alternatives_text(p)
+        ),
+        PowerVerdict::NoneConsistent => "no set of coefficients up to order 15 with one drive exponent of 0.6 to 1.1 fits every slope: check that every series is of the same product, that step_db is each emitter's own power change in dB, and that the readings stay above the noise floor.".to_string(),
         PowerVerdict::TooFewReadings => "a series has only two readings, which fix a line but not its uncertainty: take three or more, better five, steps of each emitter.".to_string(),
         PowerVerdict::SingleEmitter => SINGLE_EMITTER_CAVEAT.to_string(),
     }
@@ -329,6 +360,9 @@ struct PowerStepsJson<'a> {
     order: Option<u32>,
     exponent: Option<ExponentJson>,
     verdict: PowerVerdict,
+    /// Every coefficient set that fits, in the order of `coefficients`.
+    alternatives: &'a [Vec<u32>],
+    drive_exponent_range: [f64; 2],
     convention: &'static str,
     readings_file: &'a str,
     advice: String,
@@ -365,6 +399,11 @@ pub fn power_steps_json(
             interval_95: [r4(e.interval.0), r4(e.interval.1)],
         }),
         verdict: p.verdict,
+        alternatives: &p.alternatives,
+        drive_exponent_range: [
+            pim_core::slope::DRIVE_EXPONENT_RANGE.0,
+            pim_core::slope::DRIVE_EXPONENT_RANGE.1,
+        ],
         convention: convention(StepKind::Power),
         readings_file: source,
         advice: power_steps_advice(p),
@@ -416,7 +455,7 @@ pub fn power_steps_text(p: &PowerSteps, counts: &[usize], source: &str) -> Strin
                 .collect();
             let order: u32 = p.coefficients.iter().filter_map(|c| c.k).sum();
             out.push_str(&format!(
-                "Coefficients: {} (order {order}), the least order whose one drive exponent fits every slope's 95 % interval.\n",
+                "Coefficients: {} (order {order}), the only set whose one drive exponent, 0.6 to 1.1, fits every slope's 95 % interval.\n",
                 ks.join(", ")
             ));
             if let Some(e) = p.exponent {
@@ -429,7 +468,10 @@ pub fn power_steps_text(p: &PowerSteps, counts: &[usize], source: &str) -> Strin
                 ));
             }
         }
-        PowerVerdict::Ambiguous => out.push_str("Coefficients: ambiguous.\n"),
+        PowerVerdict::Ambiguous => out.push_str(&format!(
+            "Coefficients: not settled; {} fit.\n",
+            alternatives_text(p)
+        )),
         PowerVerdict::NoneConsistent => out.push_str("Coefficients: none consistent.\n"),
         PowerVerdict::TooFewReadings => out.push_str("Coefficients: inconclusive.\n"),
         PowerVerdict::SingleEmitter => {}

@@ -148,6 +148,34 @@ pub enum PowerStepAnswer {
 }
 
 impl PowerStepTest {
+    /// What the steps found of each emitter, as indices of `site`: every |k| its slope
+    /// fits (emitters not on the list are passed over).
+    pub fn findings(&self, site: &pim_core::Site) -> Vec<pim_core::rank::StepFinding> {
+        let mut out = Vec::new();
+        match &self.answer {
+            PowerStepAnswer::One { answer, emitter } => {
+                if let Some(i) = emitter.as_deref().and_then(|id| site.index_of(id)) {
+                    out.push(pim_core::rank::StepFinding {
+                        emitter: i,
+                        fits: answer.consistent_k.clone(),
+                    });
+                }
+            }
+            PowerStepAnswer::Several { answer, .. } => {
+                for (j, c) in answer.coefficients.iter().enumerate() {
+                    let Some(i) = site.index_of(&c.emitter) else {
+                        continue;
+                    };
+                    let mut fits: Vec<u32> = answer.alternatives.iter().map(|k| k[j]).collect();
+                    fits.sort_unstable();
+                    fits.dedup();
+                    out.push(pim_core::rank::StepFinding { emitter: i, fits });
+                }
+            }
+        }
+        out
+    }
+
     /// The drive exponent α the steps measured, when two or more emitters' coefficients
     /// were settled: a ticket levels its candidates with it.
     pub fn measured_exponent(&self) -> Option<f64> {
@@ -399,6 +427,9 @@ fn build(
         }
         if c.away_from_fix {
             note.push("away from the fix");
+        }
+        if c.cleared_by_steps {
+            note.push("cleared by the power steps");
         }
         let mut row = vec![
             c.rank.to_string(),
@@ -1185,7 +1216,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
     })?;
     let at_rx = t.rx_site.map(|_| answer.ranking.clone());
     let heard = heard_levels(t);
-    let at_fix = answer.ranked_with(
+    let mut at_fix = answer.ranked_with(
         &t.site,
         &RankInputs {
             placement: Placement {
@@ -1198,6 +1229,9 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             heard: &heard,
         },
     )?;
+    if let Some(steps) = &t.evidence.power_steps {
+        at_fix.demote_cleared(&steps.findings(&t.site));
+    }
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
     let (doc, map, spectrum, band_svg) = build(
         t,

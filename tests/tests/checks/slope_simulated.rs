@@ -79,15 +79,25 @@ fn attenuator_in_the_receiver_reads_internal_with_its_order() {
 fn power_steps_give_the_coefficient() {
     // The emitter lowered by 0 … 6 dB in 1 dB steps (negative steps are reductions).
     let steps: Vec<f64> = (0..=6).map(|i| -(i as f64)).collect();
+    // At the ideal law (α = 1): |k| = 0 and 1 are settled; from |k| = 2 on, the slope
+    // also fits |k| + 1 at α = k/(k + 1) ≥ 0.6, so the answer lists both and settles none
+    // (a second emitter's step separates them). Never a wrong |k| settled, and the true
+    // one among those listed in at least 95 % of series (the interval's confidence).
     for k in 0..=4u32 {
+        let mut listed = 0;
         for seed in 0..100 {
             let a = judge(
                 StepKind::Power,
                 &simulate(seed + 10_000 * k as u64, k as f64, 0.3, &steps),
             )
             .unwrap();
-            assert_eq!(a.coefficient, Some(k), "k = {k}, seed {seed}: {a:?}");
+            assert!(a.coefficient.is_none_or(|c| c == k), "k = {k}, seed {seed}: {a:?}");
+            listed += usize::from(a.consistent_k.contains(&k));
+            if k <= 1 && a.consistent_k == vec![k] {
+                assert_eq!(a.coefficient, Some(k));
+            }
         }
+        assert!(listed >= 95, "k = {k}: listed in {listed} of 100");
     }
 }
 
