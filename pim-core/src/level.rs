@@ -80,10 +80,12 @@
 //! selectivity is assumed: a duplexer or cavity would reject distant carriers by tens of
 //! dB, so the receiver's own products are an upper figure.
 //!
-//! **Channel.** Each emitter's spectrum is taken as Gaussian with its necessary bandwidth
-//! B as the 99 % width (σ = B/5.152), by the class of its emission ([`Shape`]): analogue
-//! FM voice, FSK paging, narrowband digital and FM broadcast spread so; an unmodulated
-//! carrier and an AM broadcast (whose carrier holds most of its power) count as a line.
+//! **Channel.** Each emitter's spectrum is taken as Gaussian, by the class of its
+//! emission ([`Shape`]): analogue FM (voice, broadcast) with the deviation's part of
+//! Carson's bandwidth, B − 2M, as its 99 % width (σ = (B − 2M)/5.152: for FM the spectrum
+//! follows the instantaneous frequency, Woodward's theorem); FSK paging and narrowband
+//! digital with their necessary bandwidth B; an unmodulated carrier and an AM broadcast
+//! (whose carrier holds most of its power) count as a line.
 //! Independent modulations convolve, so a product's width is the root-sum-square of
 //! |kᵢ|·Bᵢ (J. R. Carson, 1922, for an FM signal's width; for FM the spectrum follows the
 //! instantaneous frequency, Σkᵢ·fᵢ(t), whose variance adds), and the fraction inside the
@@ -172,6 +174,12 @@ impl Service {
     }
 }
 
+/// The highest modulating frequency of analogue FM voice, Hz (Carson's M).
+pub const FM_VOICE_TOP_HZ: i64 = 3_000;
+
+/// The highest modulating frequency of FM broadcast sound, Hz.
+pub const FM_BROADCAST_TOP_HZ: i64 = 15_000;
+
 /// How an emission's power spreads about its carrier, for the share in a channel.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
@@ -218,12 +226,18 @@ impl Shape {
         }
     }
 
-    /// The width that spreads the emission's power for the channel share: its necessary
-    /// bandwidth, or none for a line.
+    /// The width that spreads the emission's power for the channel share (the 99 % width
+    /// of its Gaussian): for analogue FM the spectrum follows the deviation (Woodward's
+    /// theorem, P. M. Woodward, 1952; from memory), so of Carson's B = 2(D + M) only the
+    /// deviation's part B − 2M spreads it (M = 3 kHz voice, 15 kHz broadcast sound; at
+    /// least B/3); FSK and digital emissions their necessary bandwidth; none for a line.
     pub fn spread(self, bandwidth: Hz) -> Hz {
+        let b = bandwidth.0;
         match self {
             Shape::AmBroadcast | Shape::Unmodulated => Hz(0),
-            _ => bandwidth,
+            Shape::FmVoice => Hz((b - 2 * FM_VOICE_TOP_HZ).max(b / 3)),
+            Shape::FmBroadcast => Hz((b - 2 * FM_BROADCAST_TOP_HZ).max(b / 3)),
+            Shape::FskData | Shape::NarrowDigital => bandwidth,
         }
     }
 }
@@ -891,6 +905,10 @@ mod tests {
         // 2A − B of two 16 kHz emissions: √(32² + 16²) = 35.78 kHz, not 48 kHz.
         let w = product_spread([(2, Hz(16_000)), (1, Hz(16_000))].into_iter());
         assert_eq!(w, Hz(35_777));
+        // 16K0F3E: D = 5 kHz, M = 3 kHz; the deviation spreads 10 kHz
+        assert_eq!(Shape::FmVoice.spread(Hz(16_000)), Hz(10_000));
+        assert_eq!(Shape::FskData.spread(Hz(16_000)), Hz(16_000));
+        assert_eq!(Shape::FmBroadcast.spread(Hz(180_000)), Hz(150_000));
     }
 
     proptest::proptest! {

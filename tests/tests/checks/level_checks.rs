@@ -549,3 +549,145 @@ fn the_receiver_law_stops_at_compression() {
     assert_eq!(loud.level_dbm, None);
     assert_eq!(loud.missing, Some(Missing::ReceiverOverload));
 }
+
+/// An in-place radix-2 FFT of (re, im) pairs (the length a power of two), for the
+/// simulated spectra below.
+fn fft(x: &mut [(f64, f64)]) {
+    let n = x.len();
+    let mut j = 0;
+    for i in 1..n {
+        let mut bit = n >> 1;
+        while j & bit != 0 {
+            j ^= bit;
+            bit >>= 1;
+        }
+        j |= bit;
+        if i < j {
+            x.swap(i, j);
+        }
+    }
+    let mut len = 2;
+    while len <= n {
+        let ang = -2.0 * std::f64::consts::PI / len as f64;
+        for start in (0..n).step_by(len) {
+            for k in 0..len / 2 {
+                let (s, c) = (ang * k as f64).sin_cos();
+                let (a, b) = (x[start + k], x[start + k + len / 2]);
+                let t = (b.0 * c - b.1 * s, b.0 * s + b.1 * c);
+                x[start + k] = (a.0 + t.0, a.1 + t.1);
+                x[start + k + len / 2] = (a.0 - t.0, a.1 - t.1);
+            }
+        }
+        len <<= 1;
+    }
+}
+
+/// The phase of an FM voice signal: a voice-band modulation (48 tones of random phase
+/// and frequency in 300 to 3,000 Hz, near Gaussian by their number) scaled to an rms
+/// deviation, integrated at `fs`.
+fn fm_voice_phase(rng: &mut pim_tests::Rng, rms_dev_hz: f64, fs: f64, n: usize) -> Vec<f64> {
+    let tones: Vec<(f64, f64)> = (0..48)
+        .map(|_| {
+            (
+                300.0 + 2_700.0 * rng.uniform(),
+                2.0 * std::f64::consts::PI * rng.uniform(),
+            )
+        })
+        .collect();
+    // each tone of amplitude a has rms a/√2: 48 of them have rms a·√24
+    let a = rms_dev_hz / 24f64.sqrt();
+    let mut phase = 0.0;
+    (0..n)
+        .map(|i| {
+            let t = i as f64 / fs;
+            let dev: f64 = tones
+                .iter()
+                .map(|(f, p)| a * (2.0 * std::f64::consts::PI * f * t + p).cos())
+                .sum();
+            phase += 2.0 * std::f64::consts::PI * dev / fs;
+            phase
+        })
+        .collect()
+}
+
+/// The share of a third-order product of two analogue FM voice emissions (16K0F3E:
+/// necessary bandwidth 2(D + M) = 16 kHz for a peak deviation D = 5 kHz and voice to
+/// M = 3 kHz, ITU Radio Regulations Appendix 1 with Carson's rule) inside a 12.5 kHz
+/// channel centred 20 kHz away, against a Monte Carlo of the signals themselves: the
+/// product's phase is 2φ₁ − φ₂, its spectrum the averaged periodogram of
+/// exp(j(2φ₁ − φ₂)) (seeded; peak deviation taken as 2.58 × the rms, the 99 % point of a
+/// Gaussian modulation). The model (Gaussian spectra of the deviation's width, B − 2M,
+/// added root-sum-square) agrees within 1 dB centred, 2 dB one channel off and 3 dB
+/// 20 kHz off, 30 dB down; the linear sum of the whole bandwidths it replaced gave about
+/// 17 dB too much there.
+#[test]
+fn fm_voice_share_matches_a_simulated_product() {
+    use pim_core::level::{channel_fraction, product_spread};
+    let fs = 262_144.0;
+    let seg = 4_096;
+    let segments = 48;
+    let n = seg * segments;
+    let rms = 5_000.0 / 2.58;
+    let mut rng = pim_tests::Rng::new(20_261_204);
+    let p1 = fm_voice_phase(&mut rng, rms, fs, n);
+    let p2 = fm_voice_phase(&mut rng, rms, fs, n);
+    let mut psd = vec![0.0; seg];
+    for s in 0..segments {
+        let mut x: Vec<(f64, f64)> = (0..seg)
+            .map(|i| {
+                let w = 0.5 - 0.5 * (2.0 * std::f64::consts::PI * i as f64 / seg as f64).cos();
+                let ph = 2.0 * p1[s * seg + i] - p2[s * seg + i];
+                (w * ph.cos(), w * ph.sin())
+            })
+            .collect();
+        fft(&mut x);
+        for (p, v) in psd.iter_mut().zip(&x) {
+            *p += v.0 * v.0 + v.1 * v.1;
+        }
+    }
+    let bin_hz = fs / seg as f64;
+    let freq = |k: usize| {
+        if k < seg / 2 {
+            k as f64 * bin_hz
+        } else {
+            (k as f64 - seg as f64) * bin_hz
+        }
+    };
+    let total: f64 = psd.iter().sum();
+    let share = |lo: f64, hi: f64| {
+        psd.iter()
+            .enumerate()
+            .filter(|(k, _)| (lo..hi).contains(&freq(*k)))
+            .map(|(_, p)| p)
+            .sum::<f64>()
+            / total
+    };
+    let simulated_db = 10.0 * share(20_000.0 - 6_250.0, 20_000.0 + 6_250.0).log10();
+    let centred_db = 10.0 * share(-6_250.0, 6_250.0).log10();
+    let voice = pim_core::level::Shape::FmVoice.spread(Hz(16_000));
+    let spread = product_spread([(2, voice), (1, voice)].into_iter());
+    let model_db = 10.0 * channel_fraction(Hz(20_000), spread, Hz(12_500)).log10();
+    let model_centred_db = 10.0 * channel_fraction(Hz(0), spread, Hz(12_500)).log10();
+    let linear_db = 10.0 * channel_fraction(Hz(20_000), Hz(48_000), Hz(12_500)).log10();
+    eprintln!("20 kHz off: simulated {simulated_db:.1} dB, model {model_db:.1} dB, linear sum {linear_db:.1} dB; centred: simulated {centred_db:.1} dB, model {model_centred_db:.1} dB");
+    let adjacent_db = 10.0 * share(12_500.0 - 6_250.0, 12_500.0 + 6_250.0).log10();
+    let model_adjacent_db = 10.0 * channel_fraction(Hz(12_500), spread, Hz(12_500)).log10();
+    eprintln!("12.5 kHz off: simulated {adjacent_db:.1} dB, model {model_adjacent_db:.1} dB");
+    // 3σ out the modulation's own sidebands (index about 1) thicken the tail a little
+    assert!(
+        (simulated_db - model_db).abs() < 3.0,
+        "{simulated_db} vs {model_db}"
+    );
+    assert!(
+        (adjacent_db - model_adjacent_db).abs() < 2.0,
+        "{adjacent_db} vs {model_adjacent_db}"
+    );
+    assert!(
+        (centred_db - model_centred_db).abs() < 1.0,
+        "{centred_db} vs {model_centred_db}"
+    );
+    assert!(
+        linear_db > simulated_db + 3.0,
+        "{linear_db} vs {simulated_db}"
+    );
+}

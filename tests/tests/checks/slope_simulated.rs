@@ -91,7 +91,10 @@ fn power_steps_give_the_coefficient() {
                 &simulate(seed + 10_000 * k as u64, k as f64, 0.3, &steps),
             )
             .unwrap();
-            assert!(a.coefficient.is_none_or(|c| c == k), "k = {k}, seed {seed}: {a:?}");
+            assert!(
+                a.coefficient.is_none_or(|c| c == k),
+                "k = {k}, seed {seed}: {a:?}"
+            );
             listed += usize::from(a.consistent_k.contains(&k));
             if k <= 1 && a.consistent_k == vec![k] {
                 assert_eq!(a.coefficient, Some(k));
