@@ -124,7 +124,7 @@ pub fn run(args: Args) -> CliResult {
     if let Some(trace) = hold.finish() {
         let rule = crate::sweep::sweep_rule(
             &inputs.params,
-            Some(RX_SITE),
+            inputs.placement(),
             inputs.model,
             10.0,
             None,

@@ -6,7 +6,6 @@
 use std::path::PathBuf;
 
 use pim_core::freq::Hz;
-use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
 use pim_core::level::LevelModel;
 use pim_core::trace::classify::ExplainRule;
@@ -66,7 +65,7 @@ pub fn threshold_arg(text: &str) -> Result<f64, String> {
 /// The sweep's rule from the search options shared with `explain`.
 pub fn sweep_rule(
     params: &SearchParams,
-    junction: Option<GeoPoint>,
+    placement: pim_core::rank::Placement,
     model: LevelModel,
     threshold_db: f64,
     floor_window: Option<u64>,
@@ -80,7 +79,7 @@ pub fn sweep_rule(
             tolerance: params.tolerance,
             max_order: params.max_order,
             max_emitters: params.max_emitters,
-            junction,
+            placement,
             model,
             keep_candidates: keep,
         },
@@ -106,7 +105,7 @@ pub fn run(args: Args) -> CliResult {
     let s = &args.search;
     let rule = sweep_rule(
         &s.params(Hz::ZERO, s.rx_bw),
-        s.rx_site(),
+        pim_core::rank::Placement::at(s.rx_site()),
         s.junction_model(),
         args.threshold_db,
         args.floor_window,

@@ -254,7 +254,7 @@ pub fn run(args: Args) -> CliResult {
         let trace = crate::sweep::load_traces(&args.traces)?;
         let rule = crate::sweep::sweep_rule(
             &inputs.params,
-            inputs.rx_site,
+            inputs.placement(),
             inputs.model,
             args.threshold_db,
             None,

@@ -99,7 +99,7 @@ fn sweep_bench(c: &mut Criterion) {
             tolerance: Hz(0),
             max_order,
             max_emitters,
-            junction: Some(GeoPoint::new(45.01, -121.99)),
+            placement: pim_core::rank::Placement::at(Some(GeoPoint::new(45.01, -121.99))),
             model: JunctionModel::default(),
             keep_candidates: None,
         },

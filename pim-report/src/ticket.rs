@@ -1198,8 +1198,20 @@ const FIX_RADIUS_FLOOR_M: f64 = 30.0;
 /// How far from the fix a source may lie and still agree with the bearings, m: the
 /// reach of the region claimed (the ellipse's semi-major axis, or the likelihood
 /// contour's farthest point), at least [`FIX_RADIUS_FLOOR_M`].
-fn fix_radius_m(fix: &Fix) -> f64 {
+pub fn fix_radius_m(fix: &Fix) -> f64 {
     fix.reach_m().max(FIX_RADIUS_FLOOR_M)
+}
+
+impl TicketInputs {
+    /// The junction at the fix, heard at the receiver: where the ticket ranks, and so
+    /// where its band trace's peaks are explained.
+    pub fn placement(&self) -> Placement {
+        Placement {
+            junction: Some(self.fix.position),
+            receiver: self.rx_site,
+            fix_radius_m: Some(fix_radius_m(&self.fix)),
+        }
+    }
 }
 
 /// Searches, ranks at the receiver and at the fix, and makes the seven files of the
@@ -1219,11 +1231,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
     let mut at_fix = answer.ranked_with(
         &t.site,
         &RankInputs {
-            placement: Placement {
-                junction: Some(t.fix.position),
-                receiver: t.rx_site,
-                fix_radius_m: Some(fix_radius_m(&t.fix)),
-            },
+            placement: t.placement(),
             model: t.model,
             logbook: t.evidence.logbook.as_ref(),
             heard: &heard,

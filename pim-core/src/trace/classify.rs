@@ -5,8 +5,20 @@
 //! tolerance widened by half a trace step (the peak's frequency is known to within about
 //! that). A peak within a listed emitter's own channel (k = 1, the search's co-channel
 //! rule) is that emitter's carrier: `Emitter`. Otherwise a peak on which products land is
-//! a `Product`, its candidates ranked by [`crate::rank::rank`] exactly as for a single
-//! heard frequency; a peak nothing explains is `Unexplained`.
+//! a `Product`, its candidates ranked by [`crate::rank::rank_candidates`] exactly as for a
+//! single heard frequency, at the placement of [`ExplainRule::placement`] (a ticket's fix
+//! and receiver, so that the picture and the ticket rank alike); a peak nothing explains
+//! is `Unexplained`.
+//!
+//! **One decision.** A peak is put down to a product only when the product's centre lies
+//! within the peak's resolution, half the receive channel plus one trace step
+//! ([`resolution`]): a product centred farther off reaches the peak only by its skirt.
+//! Where the candidates are levelled, the peaks explained must also agree in level: each
+//! peak's first candidate, shifted by the median over the explained peaks of (measured −
+//! predicted), must come within [`LEVEL_TOLERANCE_DB`] of the peak; a product predicted
+//! weaker than that is no explanation. A peak that fails either test is `Unexplained`,
+//! with its nearest candidates listed and why ([`Miss`]). The sweep's table, its JSON,
+//! the suspects, the trace picture's labels and the ticket all read this one decision.
 //!
 //! **Suspects.** A junction fed by a set of emitters makes every product of them, so one
 //! corroded joint shows as several peaks: 2A − B and 2B − A together are stronger
@@ -21,10 +33,9 @@ use std::collections::{HashMap, HashSet};
 
 use crate::emitter::{carriers, Carrier, Emitter};
 use crate::freq::Hz;
-use crate::geo::GeoPoint;
 use crate::intermod::{find_products, Product, SearchParams};
 use crate::level::JunctionModel;
-use crate::rank::{rank, Ranking};
+use crate::rank::{rank_candidates, Candidate, Placement, RankInputs, Ranking};
 
 use super::peaks::Peak;
 
@@ -61,8 +72,8 @@ pub struct ExplainRule {
     pub max_order: u32,
     /// Most distinct emitters in one product.
     pub max_emitters: u32,
-    /// Where the junction is assumed, for levels.
-    pub junction: Option<GeoPoint>,
+    /// Where the junction is assumed and the peaks are heard, for levels.
+    pub placement: Placement,
     /// The level model that ranks a peak's candidates.
     pub model: JunctionModel,
     /// Candidates kept per peak, best first (`None`: all). Suspects are judged on the
@@ -83,6 +94,27 @@ impl ExplainRule {
     }
 }
 
+/// How far a level may fall short of the others' and still explain its peak, dB: the
+/// level model's products of one junction differ from measurement by about ten dB each
+/// way (common practice, from memory), so twenty dB apart is no longer the same junction.
+pub const LEVEL_TOLERANCE_DB: f64 = 20.0;
+
+/// How far from a peak a product's centre may lie and still explain it: half the receive
+/// channel plus one trace step.
+pub fn resolution(rx_bandwidth: Hz, step_hz: f64) -> Hz {
+    Hz(rx_bandwidth.0 / 2 + step_hz.ceil().max(0.0) as i64)
+}
+
+/// Why a candidate lands on a peak but does not explain it.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Miss {
+    /// Its centre lies outside the peak's resolution.
+    OffCentre,
+    /// Its predicted level falls short of the peak by more than
+    /// [`LEVEL_TOLERANCE_DB`] relative to the other peaks explained.
+    TooWeak,
+}
+
 /// A peak with what explains it.
 #[derive(Clone, Debug)]
 pub struct ExplainedPeak {
@@ -99,6 +131,9 @@ pub struct ExplainedPeak {
     pub ranking: Ranking,
     /// How many products the search found before any were left out.
     pub found: usize,
+    /// For a peak left unexplained although products land on it: the nearest
+    /// candidates (at most three) and why none explains it.
+    pub misses: Vec<(Candidate, Miss)>,
 }
 
 /// Explains one peak.
@@ -119,7 +154,30 @@ pub fn explain_peak(
         (PeakKind::Unexplained, Vec::new())
     };
     let found = products.len();
-    let mut ranking = rank(products, emitters, &params, rule.junction, &rule.model);
+    let mut ranking = rank_candidates(
+        products,
+        emitters,
+        &params,
+        &RankInputs {
+            placement: rule.placement,
+            model: rule.model,
+            ..RankInputs::default()
+        },
+    );
+    // only products centred within the peak's resolution explain it
+    let reach = resolution(rule.rx_bandwidth, step_hz).0;
+    let (centred, off): (Vec<Candidate>, Vec<Candidate>) = ranking
+        .candidates
+        .iter()
+        .partition(|c| c.product.offset(params.target).0.abs() <= reach);
+    let mut misses = Vec::new();
+    let kind = if kind == PeakKind::Product && centred.is_empty() {
+        misses = off.iter().take(3).map(|c| (*c, Miss::OffCentre)).collect();
+        PeakKind::Unexplained
+    } else {
+        kind
+    };
+    renumber(&mut ranking, centred);
     if let Some(keep) = rule.keep_candidates {
         ranking.candidates.truncate(keep);
         ranking.candidates.shrink_to_fit();
@@ -136,6 +194,63 @@ pub fn explain_peak(
         params,
         ranking,
         found,
+        misses,
+    }
+}
+
+/// `ranking` holding only `kept` (in their order), ranked anew from 1, levels relative to
+/// the new first.
+fn renumber(ranking: &mut Ranking, kept: Vec<Candidate>) {
+    ranking.candidates = kept;
+    let first = ranking
+        .candidates
+        .iter()
+        .find_map(|c| c.breakdown.map(|b| b.in_channel_dbm));
+    for (i, c) in ranking.candidates.iter_mut().enumerate() {
+        c.rank = i + 1;
+        c.relative_db = match (c.breakdown, first) {
+            (Some(b), Some(f)) => Some(b.in_channel_dbm - f),
+            _ => None,
+        };
+    }
+}
+
+/// The level test of the module docs: a product peak whose first candidate, shifted by
+/// the median of (measured − predicted) over the levelled product peaks, falls more than
+/// [`LEVEL_TOLERANCE_DB`] short of its peak becomes `Unexplained` (needs two or more
+/// levelled product peaks).
+pub fn judge_levels(peaks: &mut [ExplainedPeak]) {
+    let gap = |p: &ExplainedPeak| {
+        let first = p.ranking.candidates.first()?;
+        Some(p.peak.level_dbm - first.breakdown?.in_channel_dbm)
+    };
+    let mut gaps: Vec<f64> = peaks
+        .iter()
+        .filter(|p| p.kind == PeakKind::Product)
+        .filter_map(gap)
+        .collect();
+    if gaps.len() < 2 {
+        return;
+    }
+    gaps.sort_by(f64::total_cmp);
+    let n = gaps.len();
+    let shift = if n % 2 == 1 {
+        gaps[n / 2]
+    } else {
+        (gaps[n / 2 - 1] + gaps[n / 2]) / 2.0
+    };
+    for p in peaks.iter_mut().filter(|p| p.kind == PeakKind::Product) {
+        if gap(p).is_some_and(|g| g - shift > LEVEL_TOLERANCE_DB) {
+            p.kind = PeakKind::Unexplained;
+            p.misses = p
+                .ranking
+                .candidates
+                .iter()
+                .take(3)
+                .map(|c| (*c, Miss::TooWeak))
+                .collect();
+            p.ranking.candidates.clear();
+        }
     }
 }
 
@@ -322,7 +437,7 @@ mod tests {
             tolerance: Hz(0),
             max_order: 3,
             max_emitters: 3,
-            junction: None,
+            placement: Placement::default(),
             model: JunctionModel::default(),
             keep_candidates: None,
         }

@@ -333,8 +333,9 @@ pub fn analyse(trace: &Trace, emitters: &[crate::emitter::Emitter], rule: &Sweep
             min_distance_points: min_distance,
         },
     );
-    let explained =
+    let mut explained =
         classify::explain_peaks(&found, emitters, &rule.explain, trace.step_hz, rule.threads);
+    classify::judge_levels(&mut explained);
     let suspects = classify::suspects(&explained, emitters);
     Sweep {
         floor,

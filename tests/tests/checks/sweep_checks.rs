@@ -47,7 +47,7 @@ fn rule(rx_bw: i64) -> SweepRule {
             tolerance: Hz(0),
             max_order: 7,
             max_emitters: 3,
-            junction: Some(GeoPoint::new(45.103, -122.412)),
+            placement: pim_core::rank::Placement::at(Some(GeoPoint::new(45.103, -122.412))),
             model: JunctionModel::default(),
             keep_candidates: None,
         },
