@@ -779,6 +779,9 @@ pub fn resolve(
         };
         let Some(columns) = found else { continue };
         layout.matched_pairs.push(pi);
+        if layout.get(pair.field).is_some_and(|m| m.columns == columns) {
+            continue; // the same pair given again (a file and the command line)
+        }
         if layout.get(pair.field).is_some() && pair.field != Field::Erp {
             return Err(Error::input(
                 place(),

@@ -218,10 +218,12 @@ impl<'a> Collector<'a> {
                 ));
             }
         }
-        let mut rules: Vec<&'static str> = self.defaults.iter().map(|d| d.0).collect();
-        rules.dedup();
-        rules.sort();
-        rules.dedup();
+        let mut rules: Vec<&'static str> = Vec::new();
+        for (rule, _) in &self.defaults {
+            if !rules.contains(rule) {
+                rules.push(rule);
+            }
+        }
         for rule in rules {
             let lines: Vec<u64> = self
                 .defaults
@@ -484,6 +486,7 @@ impl Record<'_> {
 /// the column's (`exp`: 6 for MHz, 3 for kHz); returns the value and the text to name
 /// it by in messages (`146.94 MHz`).
 fn hz_cell(place: &Place, text: &str, exp: i32) -> Result<(Hz, String)> {
+    not_a_number(place, text)?;
     let f = parse_frequency_in(text, exp).map_err(|m| Error::input(place.clone(), m))?;
     let (number, unit) = split_unit(text);
     let shown = if unit.is_empty() {
@@ -504,8 +507,23 @@ fn column_exp(m: &Mapped, default: i32) -> i32 {
     m.unit.and_then(Unit::hz_exponent).unwrap_or(default)
 }
 
+/// Refuses a cell whose text before a unit is no number at all (`one-fifty`), as a
+/// number rather than as an unknown unit.
+fn not_a_number(place: &Place, text: &str) -> Result<()> {
+    let (number, unit) = split_unit(text);
+    let t = number.trim();
+    if !unit.is_empty() && t.parse::<f64>().is_err() && decimal_comma_hint(t).is_empty() {
+        return Err(Error::input(
+            place.clone(),
+            format!("`{}` is not a number", text.trim()),
+        ));
+    }
+    Ok(())
+}
+
 /// A power cell as ERP in dBm: in the cell's unit, else the column's; EIRP less 2.15 dB.
 fn power_cell(m: &Mapped, place: &Place, text: &str) -> Result<f64> {
+    not_a_number(place, text)?;
     let (number, given) = split_unit(text);
     let unit = if given.is_empty() {
         m.unit
@@ -596,6 +614,7 @@ fn watts_in_range(place: &Place, shown: &str, w: f64, eirp: bool) -> Result<f64>
 
 /// A height cell in metres: in the cell's unit (m, km, ft), else the column's.
 fn height_cell(m: &Mapped, place: &Place, text: &str) -> Result<f64> {
+    not_a_number(place, text)?;
     let (number, given) = split_unit(text);
     let unit = if given.is_empty() {
         m.unit.unwrap_or(Unit::M)
@@ -830,7 +849,12 @@ fn shown_power(m: &Mapped, text: &str) -> String {
 /// Adds the record's values to the first three of each field, as converted.
 fn sample(samples: &mut Vec<(Field, Vec<String>)>, r: &Record<'_>, e: &Emitter) {
     for m in &r.layout.fields {
-        if r.text_of(m).is_none() {
+        // the first power column speaks for the others, which must agree with it
+        let later_power = m.field == Field::Erp
+            && r.layout
+                .get(Field::Erp)
+                .is_some_and(|first| first.columns != m.columns);
+        if later_power || r.text_of(m).is_none() {
             continue;
         }
         let value = match m.field {
@@ -1247,8 +1271,8 @@ mod tests {
             vec![
                 "column `Frequency` names no unit: numbers without one are read as MHz",
                 "column `EIRP (dBm)` holds EIRP: read as ERP = EIRP − 2.15 dB",
-                "no bandwidth given on line 3: FM broadcast 180 kHz assumed from the kind (give a bandwidth or an emission designator to set it)",
                 "no bandwidth given on line 2: land mobile 16 kHz assumed from the kind (give a bandwidth or an emission designator to set it)",
+                "no bandwidth given on line 3: FM broadcast 180 kHz assumed from the kind (give a bandwidth or an emission designator to set it)",
             ]
         );
     }
