@@ -528,7 +528,7 @@ fn read_header(header: &str, kind: Option<TableKind>) -> std::result::Result<Rea
         field,
         rank,
         unit: None,
-        eirp: w.name.starts_with("eirp") || w.name.starts_with("equivalent"),
+        eirp: w.name.contains("eirp") || w.name.starts_with("equivalent"),
         haat: w.name == "haat" || w.qualifiers.iter().any(|q| q == "aat"),
         part: None,
     };
