@@ -288,7 +288,7 @@ impl Columns {
         let Some(map) = &self.map else { return Ok(()) };
         let matched = self.matched.borrow();
         let read = self.read.borrow();
-        for (pair, _) in map.pairs.iter().zip(matched.iter()).filter(|(_, m)| !**m) {
+        if let Some((pair, _)) = map.pairs.iter().zip(matched.iter()).find(|(_, m)| !**m) {
             let files: Vec<String> = read
                 .iter()
                 .map(|(source, headers)| {

@@ -238,6 +238,8 @@ pub const SYNONYMS: &[(Field, &[&str], &[&str])] = &[
             "callsign",
             "call",
             "callsigns",
+            "callsignid",
+            "callid",
             "transmitter",
             "transmitterid",
             "emitter",
@@ -326,7 +328,12 @@ pub const SYNONYMS: &[(Field, &[&str], &[&str])] = &[
         &[
             "erp",
             "effectiveradiatedpower",
+            "erppower",
+            "powererp",
+            "radiatedpower",
             "eirp",
+            "eirppower",
+            "powereirp",
             "equivalentisotropicallyradiatedpower",
             "effectiveisotropicradiatedpower",
         ],
@@ -340,6 +347,8 @@ pub const SYNONYMS: &[(Field, &[&str], &[&str])] = &[
             "height",
             "antennaheight",
             "antheight",
+            "antht",
+            "antennaht",
             "heightaboveground",
             "radiationcentreheight",
             "radiationcenterheight",
@@ -365,6 +374,7 @@ pub const SYNONYMS: &[(Field, &[&str], &[&str])] = &[
         Field::Owner,
         &[
             "owner",
+            "ownername",
             "licensee",
             "licenseename",
             "licenceholder",
@@ -399,7 +409,8 @@ pub const SYNONYMS: &[(Field, &[&str], &[&str])] = &[
 
 /// Header words read as qualifiers and set aside.
 const QUALIFIERS: &[&str] = &[
-    "agl", "aat", "amsl", "asl", "msl", "dd", "dec", "decimal", "wgs84", "nad83", "etrs89", "dms",
+    "n", "e", "agl", "aat", "amsl", "asl", "msl", "dd", "dec", "decimal", "wgs84", "nad83",
+    "etrs89", "dms",
 ];
 
 /// The part of a position split over columns.
@@ -413,10 +424,10 @@ pub enum Part {
 
 fn part_of(word: &str) -> Option<Part> {
     Some(match word {
-        "deg" | "degs" | "degree" | "degrees" => Part::Degrees,
+        "d" | "deg" | "degs" | "degree" | "degrees" => Part::Degrees,
         "min" | "mins" | "minute" | "minutes" => Part::Minutes,
-        "sec" | "secs" | "second" | "seconds" => Part::Seconds,
-        "hem" | "hemi" | "hemisphere" | "dir" | "direction" | "ns" | "ew" | "nsew" => {
+        "s" | "sec" | "secs" | "second" | "seconds" => Part::Seconds,
+        "h" | "hem" | "hemi" | "hemisphere" | "dir" | "direction" | "ns" | "ew" | "nsew" => {
             Part::Hemisphere
         }
         _ => return None,
@@ -616,7 +627,7 @@ impl ColumnMap {
             text: t.to_string(),
             field,
             unit,
-            eirp: w.name.starts_with("eirp"),
+            eirp: w.name.contains("eirp"),
             columns,
         })
     }
@@ -1049,6 +1060,8 @@ mod tests {
             TableKind::Emitters,
         )
         .unwrap();
+        let short = layout("id,freq,LAT_D,LAT_M,LAT_S,LAT_H", TableKind::Emitters).unwrap();
+        assert_eq!(short.get(Field::Lat).unwrap().columns, vec![2, 3, 4, 5]);
         let lat = l.get(Field::Lat).unwrap();
         assert_eq!(lat.columns, vec![2, 3, 4, 5]);
         assert_eq!(lat.label, "LAT_DEG+LAT_MIN+LAT_SEC+LAT_HEM");
