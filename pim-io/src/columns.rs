@@ -409,8 +409,8 @@ pub const SYNONYMS: &[(Field, &[&str], &[&str])] = &[
 
 /// Header words read as qualifiers and set aside.
 const QUALIFIERS: &[&str] = &[
-    "n", "e", "agl", "aat", "amsl", "asl", "msl", "dd", "dec", "decimal", "wgs84", "nad83",
-    "etrs89", "dms",
+    "n", "e", "west", "east", "north", "agl", "aat", "amsl", "asl", "msl", "dd", "dec", "decimal",
+    "wgs84", "nad83", "etrs89", "dms",
 ];
 
 /// The part of a position split over columns.
@@ -465,6 +465,10 @@ fn words_of(header: &str) -> Words {
             w.name.push_str(&lower);
         }
     }
+    // `AGL (m)`: the qualifier is the name
+    if w.name.is_empty() && w.qualifiers.iter().any(|q| q == "agl") {
+        w.name = "agl".into();
+    }
     w
 }
 
@@ -476,6 +480,7 @@ struct Reading {
     unit: Option<Unit>,
     eirp: bool,
     haat: bool,
+    west: bool,
     part: Option<Part>,
 }
 
@@ -541,6 +546,8 @@ fn read_header(header: &str, kind: Option<TableKind>) -> std::result::Result<Rea
         unit: None,
         eirp: w.name.contains("eirp") || w.name.starts_with("equivalent"),
         haat: w.name == "haat" || w.qualifiers.iter().any(|q| q == "aat"),
+        west: field == Field::Lon
+            && (w.unit == Some(Unit::W) || w.qualifiers.iter().any(|q| q == "west")),
         part: None,
     };
     match field {
@@ -699,6 +706,8 @@ pub struct Mapped {
     pub eirp: bool,
     /// The height column holds the height above average terrain.
     pub haat: bool,
+    /// The longitude column counts west positive (`Longitude (W)`): a bare number is west.
+    pub west: bool,
     /// Taken from `--columns`.
     pub by_mapping: bool,
 }
@@ -828,6 +837,7 @@ pub fn resolve(
             unit_source: unit_source(pair.field, unit),
             eirp: pair.eirp || header_reading.as_ref().is_some_and(|r| r.eirp),
             haat: header_reading.as_ref().is_some_and(|r| r.haat),
+            west: header_reading.as_ref().is_some_and(|r| r.west),
             by_mapping: true,
         });
     }
@@ -925,6 +935,7 @@ pub fn resolve(
                 unit_source: UnitSource::Named,
                 eirp: false,
                 haat: false,
+                west: false,
                 by_mapping: false,
             });
             continue;
@@ -941,6 +952,7 @@ pub fn resolve(
                 unit_source: unit_source(field, r.unit),
                 eirp: r.eirp,
                 haat: r.haat,
+                west: r.west,
                 by_mapping: false,
             });
         }

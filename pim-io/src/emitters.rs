@@ -461,10 +461,21 @@ impl Record<'_> {
             .filter(|t| !t.is_empty())
             .collect();
         if parts.is_empty() {
-            None
-        } else {
-            Some(parts.join(" "))
+            return None;
         }
+        let mut text = parts.join(" ");
+        if matches!(m.field, Field::Lat | Field::Lon) && m.columns.len() == 1 {
+            let hemisphere = |c: char| "NSEWnsew".contains(c);
+            // `122-24-50.5W`: degrees, minutes and seconds joined by hyphens
+            if !text.starts_with('-') && text.contains('-') && text.contains(hemisphere) {
+                text = text.replace('-', " ");
+            }
+            // a column counted west positive (`Longitude (W)`)
+            if m.west && !text.starts_with('-') && !text.contains(hemisphere) {
+                text.push_str(" W");
+            }
+        }
+        Some(text)
     }
 
     fn text(&self, field: Field) -> Option<String> {
@@ -1316,6 +1327,14 @@ mod tests {
         )
         .unwrap();
         assert!((st[0].position.lat_deg - 45.10448).abs() < 1e-6);
+        let f = csv(
+            "Call sign,Frequency (MHz),Bandwidth (kHz),Latitude,Longitude (W),AGL (ft)\n\
+                     A,146.94,16,45-06-16.5N,122.414028,100\n",
+        )
+        .unwrap();
+        let p = f.emitters[0].position.unwrap();
+        assert!((p.lat_deg - 45.104583).abs() < 1e-6 && (p.lon_deg + 122.414028).abs() < 1e-9);
+        assert!((f.emitters[0].height_m.unwrap() - 30.48).abs() < 1e-9);
         assert!((st[0].position.lon_deg + 122.414231).abs() < 1e-6);
     }
 }
