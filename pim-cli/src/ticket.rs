@@ -271,6 +271,15 @@ pub fn run(args: Args) -> CliResult {
     input_paths.extend(g.attenuator_readings.as_deref());
     input_paths.extend(g.power_steps.as_deref());
     input_paths.extend(g.receivers.as_deref());
+    // a --columns file is an input too
+    input_paths.extend(
+        args.input
+            .columns
+            .columns
+            .iter()
+            .filter(|v| !v.contains('='))
+            .map(Path::new),
+    );
     let existing = if args.force {
         Existing::Replace
     } else {
