@@ -940,6 +940,26 @@ pub fn resolve(
             });
             continue;
         }
+        if chosen.len() > 1 && field == Field::Note {
+            // several note columns (`Notes`, `Remarks`) are read together
+            let columns: Vec<usize> = chosen.iter().map(|c| c.0).collect();
+            layout.fields.push(Mapped {
+                field,
+                label: columns
+                    .iter()
+                    .map(|&c| label(c))
+                    .collect::<Vec<_>>()
+                    .join("+"),
+                columns,
+                unit: None,
+                unit_source: UnitSource::Named,
+                eirp: false,
+                haat: false,
+                west: false,
+                by_mapping: false,
+            });
+            continue;
+        }
         if chosen.len() > 1 && field != Field::Erp {
             return Err(ambiguous(chosen[0].0, chosen[1].0));
         }
@@ -1105,6 +1125,8 @@ mod tests {
         let l = layout("Licence number,Call sign,Frequency", TableKind::Emitters).unwrap();
         assert_eq!(l.get(Field::Id).unwrap().label, "Call sign");
         assert_eq!(l.unused[0].0, "Licence number");
+        let l = layout("id,freq,Notes,Remarks", TableKind::Emitters).unwrap();
+        assert_eq!(l.get(Field::Note).unwrap().label, "Notes+Remarks");
         let l = layout("id,freq,Height AMSL (m)", TableKind::Emitters).unwrap();
         assert!(l.get(Field::Height).is_none());
         assert!(l.unused[0].1.contains("above sea level"));

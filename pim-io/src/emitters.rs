@@ -463,7 +463,7 @@ impl Record<'_> {
         if parts.is_empty() {
             return None;
         }
-        let mut text = parts.join(" ");
+        let mut text = parts.join(if m.field == Field::Note { "; " } else { " " });
         if matches!(m.field, Field::Lat | Field::Lon) && m.columns.len() == 1 {
             let hemisphere = |c: char| "NSEWnsew".contains(c);
             // `122-24-50.5W`: degrees, minutes and seconds joined by hyphens
