@@ -196,6 +196,19 @@ pub struct HeardArgs {
     /// Emitter file: CSV with a header, or a JSON array.
     #[arg(long, value_name = "FILE")]
     pub emitters: PathBuf,
+    #[command(flatten)]
+    pub columns: ColumnsArgs,
+}
+
+/// Which column of an emitter, receiver or structure file holds which field, where the
+/// names do not say (every command that reads those files).
+#[derive(clap::Args, Clone, Debug, Default)]
+pub struct ColumnsArgs {
+    /// Which column holds which field: `FIELD=COLUMN,…` (`freq_khz=Tx Freq`; `+` joins
+    /// columns: `lat=LAT_DEG+LAT_MIN+LAT_SEC+LAT_HEM`), or a file of such pairs, one a
+    /// line. Repeatable.
+    #[arg(long = "columns", value_name = "FIELD=COLUMN,…|FILE")]
+    pub columns: Vec<String>,
 }
 
 /// clap parser for `EMITTER=K`: an emitter id and the |k| it carries.

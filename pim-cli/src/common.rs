@@ -1,6 +1,7 @@
 //! What the commands share: reading files with errors that name them, parsing unit
 //! arguments, and writing to standard output.
 
+use std::cell::RefCell;
 use std::fs::File;
 use std::io::{self, BufWriter, Write};
 use std::path::Path;
@@ -9,8 +10,12 @@ use pim_core::emitter::Emitter;
 use pim_core::freq::Hz;
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::{Error, Site};
+use pim_io::columns::Layout;
+use pim_io::emitters::{read_emitters_with, ReadOptions};
 use pim_io::text::{parse_coordinate, parse_frequency_in, parse_quantity, Axis, TerminalSafe};
-use pim_io::{read_emitters, read_heard, read_on_air, Clock};
+use pim_io::{read_heard, read_on_air, Clock, ColumnMap, ReceiverFile};
+
+use crate::args::ColumnsArgs;
 
 /// An error on its way to the user, or a closed pipe (not an error: the reader left).
 #[derive(Debug)]
@@ -225,12 +230,131 @@ pub fn load_logbook(
     ))
 }
 
-/// Reads an emitter file and reports unused columns on standard error.
-pub fn load_emitters(path: &std::path::Path) -> CliResult<Vec<Emitter>> {
+/// The `--columns` mapping of a command, and which of its pairs the files read matched:
+/// a pair that names a column of none of them is refused ([`Columns::check`]).
+#[derive(Debug, Default)]
+pub struct Columns {
+    map: Option<ColumnMap>,
+    matched: RefCell<Vec<bool>>,
+    read: RefCell<Vec<(String, Vec<String>)>>,
+}
+
+impl Columns {
+    /// Reads the `--columns` values: pairs, or the path of a file of pairs.
+    pub fn new(args: &ColumnsArgs) -> Result<Columns, Error> {
+        let mut map: Option<ColumnMap> = None;
+        for value in &args.columns {
+            let more = if value.contains('=') {
+                ColumnMap::parse_list(value).map_err(|m| Error::argument("--columns", m))?
+            } else {
+                let path = Path::new(value);
+                let text = std::fs::read_to_string(path)
+                    .map_err(|e| Error::io(path.display().to_string(), &e))?;
+                ColumnMap::parse_file(&path.display().to_string(), &text)?
+            };
+            match &mut map {
+                Some(m) => m.extend(more),
+                None => map = Some(more),
+            }
+        }
+        let pairs = map.as_ref().map_or(0, |m| m.pairs.len());
+        Ok(Columns {
+            map,
+            matched: RefCell::new(vec![false; pairs]),
+            read: RefCell::new(Vec::new()),
+        })
+    }
+
+    /// The mapping, when one was given.
+    pub fn map(&self) -> Option<&ColumnMap> {
+        self.map.as_ref()
+    }
+
+    /// Notes which pairs a file's columns matched.
+    pub fn saw(&self, source: &str, layout: &Layout) {
+        let mut matched = self.matched.borrow_mut();
+        for &i in &layout.matched_pairs {
+            if let Some(m) = matched.get_mut(i) {
+                *m = true;
+            }
+        }
+        self.read
+            .borrow_mut()
+            .push((source.to_string(), layout.headers.clone()));
+    }
+
+    /// Refuses a pair that named a column of none of the files read.
+    pub fn check(&self) -> Result<(), Error> {
+        let Some(map) = &self.map else { return Ok(()) };
+        let matched = self.matched.borrow();
+        let read = self.read.borrow();
+        if let Some((pair, _)) = map.pairs.iter().zip(matched.iter()).find(|(_, m)| !**m) {
+            let files: Vec<String> = read
+                .iter()
+                .map(|(source, headers)| {
+                    let names: Vec<&str> = headers
+                        .iter()
+                        .map(|h| h.trim())
+                        .filter(|h| !h.is_empty())
+                        .collect();
+                    format!("{source} has {}", names.join(", "))
+                })
+                .collect();
+            return Err(Error::argument(
+                "--columns",
+                format!(
+                    "`{}` names a column no file read has ({})",
+                    pair.text,
+                    if files.is_empty() {
+                        "no table was read".to_string()
+                    } else {
+                        files.join("; ")
+                    }
+                ),
+            ));
+        }
+        Ok(())
+    }
+}
+
+/// Reads an emitter file through the mapping and says on standard error what it assumed
+/// and which columns it did not use.
+pub fn load_emitters(path: &std::path::Path, columns: &Columns) -> CliResult<Vec<Emitter>> {
     let source = path.display().to_string();
-    let file = read_emitters(&source, open(path)?)?;
+    let options = ReadOptions {
+        columns: columns.map(),
+        keep_going: false,
+    };
+    let file = read_emitters_with(&source, open(path)?, options)?;
+    columns.saw(&source, &file.layout);
     note_unused(&source, &file.ignored_columns);
+    for note in &file.notes {
+        eprintln_safe!("pim: note: {source}: {note}");
+    }
     Ok(file.emitters)
+}
+
+/// Reads a receiver file through the mapping.
+pub fn load_receivers(path: &std::path::Path, columns: &Columns) -> CliResult<ReceiverFile> {
+    let source = path.display().to_string();
+    let file = pim_io::emitters::read_receivers_with(&source, open(path)?, columns.map())?;
+    columns.saw(&source, &file.layout);
+    note_unused(&source, &file.ignored_columns);
+    for note in &file.notes {
+        eprintln_safe!("pim: note: {source}: {note}");
+    }
+    Ok(file)
+}
+
+/// Reads a structures file through the mapping.
+pub fn load_structures(
+    path: &std::path::Path,
+    columns: &Columns,
+) -> CliResult<Vec<pim_core::ticket::Structure>> {
+    let source = path.display().to_string();
+    let file = pim_io::emitters::read_structures_with(&source, open(path)?, columns.map())?;
+    columns.saw(&source, &file.layout);
+    Ok(file.structures)
 }
 
 /// Says on standard error which columns of a file were not read, once per file.

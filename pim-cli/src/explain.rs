@@ -29,7 +29,9 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let site = budgeted(Site::new(load_emitters(&args.input.emitters)?))?;
+    let columns = crate::common::Columns::new(&args.input.columns)?;
+    let site = budgeted(Site::new(load_emitters(&args.input.emitters, &columns)?))?;
+    columns.check()?;
     let emitters = site.emitters();
     let source = args.input.emitters.display().to_string();
     let coefficients = args.evidence.coefficient_indices(&site, &source)?;

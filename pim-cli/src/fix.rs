@@ -152,6 +152,8 @@ pub struct Args {
     /// Emitters (CSV or JSON) to put beside the fix in GeoJSON and KML.
     #[arg(long, value_name = "FILE")]
     pub emitters: Option<PathBuf>,
+    #[command(flatten)]
+    pub columns: crate::args::ColumnsArgs,
 }
 
 /// Reads a field log (and a track), applies declination, and fixes.
@@ -206,14 +208,16 @@ pub fn run(args: Args) -> CliResult {
         )
         .into());
     }
+    let columns = crate::common::Columns::new(&args.columns)?;
     let structures = match &args.structures {
-        Some(p) => pim_io::emitters::read_structures(&p.display().to_string(), open(p)?)?,
+        Some(p) => crate::common::load_structures(p, &columns)?,
         None => Vec::new(),
     };
     let emitters = match &args.emitters {
-        Some(p) => crate::common::load_emitters(p)?,
+        Some(p) => crate::common::load_emitters(p, &columns)?,
         None => Vec::new(),
     };
+    columns.check()?;
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
     let items = SiteItems {
         structures: &structures,

@@ -23,6 +23,7 @@ macro_rules! eprintln_safe {
 mod args;
 mod common;
 mod demo;
+mod emitters;
 mod explain;
 mod fix;
 mod log;
@@ -70,6 +71,9 @@ enum Command {
     Walk(walk::Args),
     /// Run the job on the built-in invented demo site.
     Demo(demo::Args),
+    /// How an emitter file is read: each column's field, unit and first values, the
+    /// columns not used and the rows refused.
+    Emitters(emitters::Args),
 }
 
 /// Exit codes: 0 success, 2 bad arguments, 3 bad input file, 4 file not readable or
@@ -134,6 +138,7 @@ fn main() -> ExitCode {
         Command::Ticket(args) => ticket::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Walk(args) => walk::run(args),
+        Command::Emitters(args) => emitters::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

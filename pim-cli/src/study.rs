@@ -5,12 +5,11 @@
 use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 
-use pim_io::read_receivers;
 use serde_json::json;
 
 use crate::args::{ListingArgs, SearchArgs};
 use crate::common::load_emitters;
-use crate::common::{finish, open, stdout, CliResult, ListFormat};
+use crate::common::{finish, stdout, CliResult, ListFormat};
 use pim_core::{Query, Site};
 use pim_report::study::StudiedReceiver;
 
@@ -30,6 +29,8 @@ pub struct Args {
     /// when the last is done), or `file` order, each written as soon as it is ready.
     #[arg(long, value_enum, default_value_t = StudyOrder::Worst)]
     pub order: StudyOrder,
+    #[command(flatten)]
+    pub columns: crate::args::ColumnsArgs,
 }
 
 /// The order receivers are written in.
@@ -42,12 +43,13 @@ pub enum StudyOrder {
 pub fn run(args: Args) -> CliResult {
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     // the budget holds for the whole study: shared among the listings in flight
-    let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters)?))?
+    let columns = crate::common::Columns::new(&args.columns)?;
+    let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters, &columns)?))?
         .shared_by(pim_core::study::listings_in_flight(threads));
     let emitters = site.emitters();
     let rx_source = args.receivers.display().to_string();
-    let rx_file = read_receivers(&rx_source, open(&args.receivers)?)?;
-    crate::common::note_unused(&rx_source, &rx_file.ignored_columns);
+    let rx_file = crate::common::load_receivers(&args.receivers, &columns)?;
+    columns.check()?;
     let s = &args.search;
     let model = s.junction_model();
     let progress = if std::io::stderr().is_terminal() && rx_file.receivers.len() > 1 {

@@ -49,6 +49,8 @@ pub struct Args {
     pub search: SearchArgs,
     #[command(flatten)]
     pub listing: ListingArgs,
+    #[command(flatten)]
+    pub columns: crate::args::ColumnsArgs,
 }
 
 /// clap parser for the threshold: a finite number of dB above zero.
@@ -100,7 +102,9 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let emitters = load_emitters(&args.emitters)?;
+    let columns = crate::common::Columns::new(&args.columns)?;
+    let emitters = load_emitters(&args.emitters, &columns)?;
+    columns.check()?;
     let trace = load_traces(&args.traces)?;
     let s = &args.search;
     let rule = sweep_rule(

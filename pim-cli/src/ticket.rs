@@ -8,9 +8,7 @@ use std::path::{Path, PathBuf};
 
 use pim_core::trace::analyse;
 use pim_core::{Error, Site};
-use pim_io::emitters::read_structures;
 use pim_io::output::{write_files_atomically, Existing};
-use pim_io::read_receivers;
 use pim_report::ticket::{
     ticket_files, AttenuatorTest, BandTrace, FieldEvidence, PowerStepTest, TicketInputs, WorkOrder,
 };
@@ -151,10 +149,10 @@ fn affected_receiver(
     id: &str,
     heard: &HeardArgs,
     s: &SearchArgs,
+    columns: &crate::common::Columns,
 ) -> CliResult<(pim_core::emitter::Receiver, String)> {
     let source = path.display().to_string();
-    let file = read_receivers(&source, open(path)?)?;
-    crate::common::note_unused(&source, &file.ignored_columns);
+    let file = crate::common::load_receivers(path, columns)?;
     let rx = file
         .receivers
         .into_iter()
@@ -177,9 +175,10 @@ fn affected_receiver(
 }
 
 pub fn run(args: Args) -> CliResult {
-    let emitters = load_emitters(&args.input.emitters)?;
+    let columns = crate::common::Columns::new(&args.input.columns)?;
+    let emitters = load_emitters(&args.input.emitters, &columns)?;
     let structures = match &args.structures {
-        Some(p) => read_structures(&p.display().to_string(), open(p)?)?,
+        Some(p) => crate::common::load_structures(p, &columns)?,
         None => Vec::new(),
     };
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
@@ -193,9 +192,10 @@ pub fn run(args: Args) -> CliResult {
     let site = Site::new(emitters);
     let source = args.input.emitters.display().to_string();
     let receiver = match (&g.receivers, &g.receiver) {
-        (Some(path), Some(id)) => Some(affected_receiver(path, id, &args.input, s)?),
+        (Some(path), Some(id)) => Some(affected_receiver(path, id, &args.input, s, &columns)?),
         _ => None,
     };
+    columns.check()?;
     let rx_bw = receiver
         .as_ref()
         .and_then(|(rx, _)| rx.bandwidth)
@@ -281,6 +281,15 @@ pub fn run(args: Args) -> CliResult {
     input_paths.extend(g.attenuator_readings.as_deref());
     input_paths.extend(g.power_steps.as_deref());
     input_paths.extend(g.receivers.as_deref());
+    // a --columns file is an input too
+    input_paths.extend(
+        args.input
+            .columns
+            .columns
+            .iter()
+            .filter(|v| !v.contains('='))
+            .map(Path::new),
+    );
     let existing = if args.force {
         Existing::Replace
     } else {

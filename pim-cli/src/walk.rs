@@ -22,7 +22,6 @@ use pim_core::geo::GeoPoint;
 use pim_core::ticket::{nearby, Structure};
 use pim_core::walk::{rank_spots, walk_ring, Spot, MIN_SPOT_RANGE_M};
 use pim_io::append::{read_locked, remove_last_row};
-use pim_io::emitters::read_structures;
 use pim_io::fieldlog::read_spots;
 use pim_io::text::{decimal_degrees, Axis};
 use serde_json::{json, Value};
@@ -64,6 +63,8 @@ pub struct Args {
     /// The running fix's estimator, as in `pim fix`.
     #[command(flatten)]
     pub fix: FixArgs,
+    #[command(flatten)]
+    pub columns: crate::args::ColumnsArgs,
 }
 
 /// What every request handler reads.
@@ -78,14 +79,16 @@ struct Walk {
 }
 
 pub fn run(args: Args) -> CliResult {
+    let columns = crate::common::Columns::new(&args.columns)?;
     let structures = match &args.structures {
-        Some(p) => read_structures(&p.display().to_string(), open(p)?)?,
+        Some(p) => crate::common::load_structures(p, &columns)?,
         None => Vec::new(),
     };
     let emitters = match &args.emitters {
-        Some(p) => crate::common::load_emitters(p)?,
+        Some(p) => crate::common::load_emitters(p, &columns)?,
         None => Vec::new(),
     };
+    columns.check()?;
     let candidates = match &args.candidates {
         Some(p) => Some(read_spots(&p.display().to_string(), open(p)?)?),
         None => None,

@@ -2,6 +2,7 @@
 
 use serde::Serialize;
 
+use crate::emission::ModulationClass;
 use crate::freq::Hz;
 use crate::geo::GeoPoint;
 
@@ -36,6 +37,10 @@ pub struct Emitter {
     pub keyed: Option<Keying>,
     /// Who holds the licence, where the file says.
     pub owner: Option<String>,
+    /// The class of its spectrum, from an emission designator or a `modulation` column
+    /// (see [`crate::emission`]); `None` when the file does not say.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub modulation: Option<ModulationClass>,
     /// Free text from the file.
     pub note: Option<String>,
     /// The line of the emitter file it came from (header = line 1).
@@ -55,6 +60,7 @@ impl Emitter {
             kind: None,
             keyed: None,
             owner: None,
+            modulation: None,
             note: None,
             line: 0,
         }

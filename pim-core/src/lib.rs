@@ -44,6 +44,7 @@
 #![deny(clippy::unwrap_used, clippy::expect_used)]
 
 pub mod declination;
+pub mod emission;
 pub mod emitter;
 pub mod error;
 pub mod fix;
@@ -63,6 +64,7 @@ mod top;
 pub mod trace;
 pub mod walk;
 
+pub use emission::ModulationClass;
 pub use emitter::{Carrier, Emitter};
 pub use error::{Error, ErrorClass, Place, Result};
 pub use fix::{locate, Fix, FixOptions, Method, Reading};

@@ -6,6 +6,7 @@
 
 pub mod append;
 pub mod channels;
+pub mod columns;
 pub mod emitters;
 pub mod export;
 pub mod fieldlog;
@@ -18,6 +19,7 @@ pub mod trace;
 pub mod track;
 
 pub use channels::{read_channels, ChannelFile, ListedChannel};
+pub use columns::ColumnMap;
 pub use emitters::{read_emitters, read_receivers, EmitterFile, ReceiverFile};
 pub use onair::{read_heard, read_on_air, Clock};
 pub use readings::{read_readings, ReadingsFile};

@@ -209,9 +209,15 @@ pub struct Table<R: Read> {
     source: String,
     reader: csv::Reader<Guarded<Head<R>>>,
     headers: Vec<String>,
+    /// The header's names as the file writes them (trimmed, case kept).
+    raw_headers: Vec<String>,
+    header_line: u64,
     columns: HashMap<String, usize>,
     record: csv::ByteRecord,
     delimiter: u8,
+    /// Whether the last error of [`Table::next_row`] concerned one row only (a ragged
+    /// row, a field that is not UTF-8), so that reading may go on after it.
+    row_error: bool,
 }
 
 impl<R: Read> Table<R> {
@@ -239,6 +245,7 @@ impl<R: Read> Table<R> {
         let header_start = header.position().map_or(0, |p| p.byte());
         let header_line = reader.get_mut().line_of(header_start);
         let mut headers = Vec::with_capacity(header.len());
+        let mut raw_headers = Vec::with_capacity(header.len());
         let mut columns = HashMap::new();
         for (i, raw) in header.iter().enumerate() {
             let name = std::str::from_utf8(raw)
@@ -248,8 +255,9 @@ impl<R: Read> Table<R> {
                         format!("column {} of the header is not UTF-8 text", i + 1),
                     )
                 })?
-                .trim()
-                .to_ascii_lowercase();
+                .trim();
+            raw_headers.push(name.to_string());
+            let name = name.to_ascii_lowercase();
             if !name.is_empty() && columns.insert(name.clone(), i).is_some() {
                 return Err(Error::input(
                     Place::new(source).at_line(header_line).at_field(&name),
@@ -262,9 +270,12 @@ impl<R: Read> Table<R> {
             source: source.to_string(),
             reader,
             headers,
+            raw_headers,
+            header_line,
             columns,
             record: csv::ByteRecord::new(),
             delimiter,
+            row_error: false,
         })
     }
 
@@ -308,6 +319,27 @@ impl<R: Read> Table<R> {
         &self.headers
     }
 
+    /// The header's names as the file writes them (trimmed, case kept).
+    pub fn raw_headers(&self) -> &[String] {
+        &self.raw_headers
+    }
+
+    /// The line the header is on.
+    pub fn header_line(&self) -> u64 {
+        self.header_line
+    }
+
+    /// The delimiter the table uses.
+    pub fn delimiter(&self) -> u8 {
+        self.delimiter
+    }
+
+    /// Whether the last error of [`Table::next_row`] concerned that row only (a ragged
+    /// row, a field that is not UTF-8): the next call reads on after it.
+    pub fn last_error_was_row(&self) -> bool {
+        self.row_error
+    }
+
     /// After the last row: whether the file ended without a line end, which a writer
     /// that appends whole lines never leaves (a torn tail).
     pub fn ended_mid_line(&self) -> bool {
@@ -316,6 +348,7 @@ impl<R: Read> Table<R> {
 
     /// The next data row; blank rows (every field empty) are skipped.
     pub fn next_row(&mut self) -> Result<Option<Row<'_>>> {
+        self.row_error = false;
         let line = loop {
             let got = self
                 .reader
@@ -341,6 +374,9 @@ impl<R: Read> Table<R> {
                 && self.record.len() > self.headers.len()
                 && (1..self.record.len())
                     .any(|i| digits(&self.record[i - 1]) && digits(&self.record[i]));
+            let split_text =
+                !split_number && self.delimiter == b',' && self.record.len() > self.headers.len();
+            self.row_error = true;
             return Err(Error::input(
                 Place::new(&self.source).at_line(line),
                 format!(
@@ -351,6 +387,9 @@ impl<R: Read> Table<R> {
                     if split_number {
                         " (a decimal comma? write numbers with a point, or separate the \
                          columns with `;`)"
+                    } else if split_text {
+                        " (a comma inside a text such as a note? put that text in double \
+                         quotes: \"a, b\")"
                     } else {
                         ""
                     }
@@ -360,6 +399,7 @@ impl<R: Read> Table<R> {
         let mut fields = Vec::with_capacity(self.record.len());
         for (i, raw) in self.record.iter().enumerate() {
             let text = std::str::from_utf8(raw).map_err(|_| {
+                self.row_error = true;
                 Error::input(
                     Place::new(&self.source)
                         .at_line(line)
@@ -403,6 +443,11 @@ pub struct Row<'a> {
 }
 
 impl<'a> Row<'a> {
+    /// Every field of the row, in column order.
+    pub fn cells(&self) -> &[&'a str] {
+        &self.fields
+    }
+
     /// The text of a column, or `None` when the column is absent or the field is empty.
     pub fn text(&self, column: Option<usize>) -> Option<&'a str> {
         column
@@ -504,10 +549,17 @@ mod tests {
 
     #[test]
     fn names_ragged_rows_binary_and_utf16() {
-        let e = rows(b"a,b\nx,y,z\n").unwrap_err();
+        let e = rows(b"a,b\nx\n").unwrap_err();
         assert_eq!(
             e.to_string(),
-            "t.csv, line 2: 3 fields, but the header has 2 columns"
+            "t.csv, line 2: 1 field, but the header has 2 columns"
+        );
+        // a comma in a text gets the hint to quote it
+        let e = rows(b"id,note\nA,dispatch, north side\n").unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "t.csv, line 2: 3 fields, but the header has 2 columns (a comma inside a text \
+             such as a note? put that text in double quotes: \"a, b\")"
         );
         // a number split by a decimal comma gets the hint; other delimiters need none
         let e = rows(b"id,freq_mhz,erp_w\nA,146,52,40\n").unwrap_err();

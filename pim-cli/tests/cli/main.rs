@@ -9,6 +9,7 @@ mod fieldlog;
 mod fix;
 mod harden;
 mod invariants;
+mod licence;
 mod memory;
 mod plan;
 mod ranking;

@@ -103,3 +103,43 @@ fn third_order_rises_three_db_per_db() {
     let iip3 = (3.0 * m.reference_tone_dbm - m.im3_dbm) / 2.0;
     assert!((level(-7.0) - (3.0 * -7.0 - 2.0 * iip3)).abs() < 1e-9);
 }
+
+/// Emission designators: the necessary bandwidth of the first four characters and the
+/// class of the next three, checked against the examples of the ITU Radio Regulations,
+/// Appendix 1 (`16K0` = 16 kHz, `11K2` = 11.2 kHz, `180K`, `6K25`, `1M25`; `F3E` analogue
+/// FM telephony, `F1D` FSK data, `F8E` FM broadcast), and an emitter list with a
+/// designator column reading to the same emitters as one with the widths.
+#[test]
+fn emission_designators_follow_appendix_1() {
+    use pim_core::emission::{parse_designator, ModulationClass};
+    // ITU RR Appendix 1 examples, as reference-facts.md lists them
+    for (code, hz) in [
+        ("16K0", 16_000),
+        ("11K2", 11_200),
+        ("180K", 180_000),
+        ("6K25", 6_250),
+        ("1M25", 1_250_000),
+    ] {
+        assert_eq!(parse_designator(code).unwrap().bandwidth, Hz(hz), "{code}");
+    }
+    // the classification symbols (ITU RR Appendix 1, as reference-facts.md lists them)
+    for (code, class) in [
+        ("16K0F3E", ModulationClass::FmVoice),
+        ("16K0F1D", ModulationClass::FskData),
+        ("180KF8E", ModulationClass::FmBroadcast),
+    ] {
+        assert_eq!(parse_designator(code).unwrap().class, Some(class), "{code}");
+    }
+    let widths = "id,freq_mhz,bw_khz\nA,152.8125,16\nB,98.7,180\nC,453.25,11.2\nD,851.0125,6.25\n";
+    let designators =
+        "id,freq_mhz,emission\nA,152.8125,16K0F3E\nB,98.7,180KF8E\nC,453.25,11K2F1D\nD,851.0125,6K25F1E\n";
+    let read = |t: &str| {
+        pim_io::read_emitters("t.csv", t.as_bytes())
+            .unwrap()
+            .emitters
+    };
+    let (w, d) = (read(widths), read(designators));
+    for (a, b) in w.iter().zip(&d) {
+        assert_eq!((&a.id, a.freq, a.bandwidth), (&b.id, b.freq, b.bandwidth));
+    }
+}
