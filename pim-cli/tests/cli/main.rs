@@ -17,6 +17,7 @@ mod sweep;
 mod ticket;
 mod vocabulary;
 mod walk_page;
+mod walk_server;
 
 /// Running the binary under test, and the shared helpers of the `pim-tests` crate.
 mod support {
