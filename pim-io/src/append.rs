@@ -197,6 +197,20 @@ pub fn append_row(
             )
         }
     };
+    // What the reader would refuse is never written.
+    if let Some(long) = text
+        .split(['\n', '\r'])
+        .find(|l| l.len() > crate::table::MAX_LINE_BYTES)
+    {
+        return Err(Error::input(
+            Place::new(source),
+            format!(
+                "the row would be {} bytes long, over the reader's limit of {} bytes a line; shorten its text",
+                long.len(),
+                crate::table::MAX_LINE_BYTES
+            ),
+        ));
+    }
     let before = file.metadata().map_err(|e| io_err(path, &e))?.len();
     if let Err(e) = file
         .write_all(text.as_bytes())

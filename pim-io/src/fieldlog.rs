@@ -157,7 +157,15 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
         time,
         sigma_deg,
         level_dbm,
-        note: record.field("note").map(str::to_string),
+        note: match record.field("note") {
+            Some(note) => {
+                if let Some(why) = crate::text::free_text_problem(note, crate::text::MAX_NOTE_BYTES) {
+                    return Err(Error::input(place("note"), format!("the note {why}")));
+                }
+                Some(note.to_string())
+            }
+            None => None,
+        },
     })
 }
 
@@ -311,14 +319,6 @@ pub fn save_reading(
         .time
         .clone()
         .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
-    if let Some(note) = &reading.note {
-        if note.contains(['\n', '\r']) {
-            return Err(Error::argument(
-                &origin("note"),
-                "a note must fit on one line",
-            ));
-        }
-    }
     let text = |v: &Option<String>| v.clone().unwrap_or_default();
     const COLUMNS: [&str; 8] = [
         "time",

@@ -404,6 +404,56 @@ pub fn terminal_escape(s: &str, keep_line_feeds: bool) -> std::borrow::Cow<'_, s
     std::borrow::Cow::Owned(out)
 }
 
+/// The longest note a field log takes, in bytes of UTF-8: far under the reader's line
+/// limit ([`crate::table::MAX_LINE_BYTES`]) even with every character a quote doubled
+/// by CSV quoting and the other cells of the row beside it.
+pub const MAX_NOTE_BYTES: usize = 4096;
+
+/// Why `text` cannot be a free-text cell of a field log (a note), if it cannot: a
+/// control character other than tab (NUL, a line end, an escape, C1 controls), or more
+/// than `max_bytes` bytes. The one check of `pim log`, the walk page and the log reader,
+/// so that what is written is what the reader accepts; the message names the character
+/// by its code, never quoting the text.
+///
+/// ```
+/// use pim_io::text::free_text_problem;
+/// assert!(free_text_problem("gate post, east\tside", 4096).is_none());
+/// assert!(free_text_problem("a\u{0}b", 4096).unwrap().contains("U+0000"));
+/// assert!(free_text_problem(&"x".repeat(5000), 4096).unwrap().contains("4096 bytes"));
+/// ```
+pub fn free_text_problem(text: &str, max_bytes: usize) -> Option<String> {
+    if let Some((i, c)) = text.char_indices().find(|(_, c)| c.is_control() && *c != '\t') {
+        let what = match c {
+            '\n' | '\r' => "a line end: a note must fit on one line",
+            '\0' => "a NUL character",
+            _ => "a control character",
+        };
+        return Some(format!(
+            "holds {what} (U+{:04X}, at character {}); type it again with plain characters",
+            c as u32,
+            text[..i].chars().count() + 1
+        ));
+    }
+    if text.len() > max_bytes {
+        return Some(format!(
+            "is {} bytes long; a note takes at most {max_bytes} bytes",
+            text.len()
+        ));
+    }
+    None
+}
+
+/// [`free_text_problem`] for bytes that may not be UTF-8 (a form's field as sent).
+pub fn free_text_bytes_problem(bytes: &[u8], max_bytes: usize) -> Option<String> {
+    match std::str::from_utf8(bytes) {
+        Ok(text) => free_text_problem(text, max_bytes),
+        Err(e) => Some(format!(
+            "is not UTF-8 text (a bad byte at byte {}); type it again",
+            e.valid_up_to() + 1
+        )),
+    }
+}
+
 /// Why `id` cannot be an id, if it cannot: a control character, an invisible character
 /// ([`is_hidden_or_control`]) or whitespace at either end would make two ids that look
 /// the same different (`SKP-152` and `SKP-152` with a zero-width space after it).
