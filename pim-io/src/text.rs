@@ -66,8 +66,9 @@ pub enum Axis {
 /// Parses a coordinate in decimal degrees (`45.104575`, `-122.41405`), degrees and
 /// decimal minutes (`45 06.275 N`, `N45°06.275'`) or degrees, minutes and seconds
 /// (`122 24 50.5 W`, `122°24'50.5"W`). A hemisphere letter (N/S for latitude, E/W for
-/// longitude) may stand first or last; S and W are negative. Minutes and seconds must be
-/// below 60, and the result within the axis's range.
+/// longitude) may stand first or last; S and W are negative. A sign together with a
+/// letter is refused (`-45 06.152 S` says south twice or contradicts itself). Minutes and
+/// seconds must be below 60, and the result within the axis's range.
 ///
 /// ```
 /// use pim_io::text::{parse_coordinate, Axis};
@@ -75,6 +76,8 @@ pub enum Axis {
 /// let lon = parse_coordinate("122 24 50.5 W", Axis::Longitude).unwrap();
 /// assert!((lon + 122.414_027_777_8).abs() < 1e-9);
 /// assert!(parse_coordinate("45 75 N", Axis::Latitude).is_err());
+/// assert!(parse_coordinate("-45 06.152 S", Axis::Latitude).is_err());
+/// assert!(parse_coordinate("-45 06.152", Axis::Latitude).unwrap() < 0.0);
 /// ```
 pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
     let (positive, negative, limit, name) = match axis {
@@ -93,11 +96,21 @@ pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
     let upper = t.to_uppercase();
     let mut sign = 1.0;
     let mut rest = upper.as_str();
+    let mut letter = None;
     for (c, s) in [(positive, 1.0), (negative, -1.0)] {
         if let Some(r) = rest.strip_prefix(c).or_else(|| rest.strip_suffix(c)) {
             sign = s;
             rest = r;
+            letter = Some(c);
             break;
+        }
+    }
+    // `-45 06.152 S`: which of the two is meant cannot be told.
+    if let Some(c) = letter {
+        if rest.contains(['-', '+', '−']) {
+            return Err(format!(
+                "`{t}` has both a sign and a hemisphere letter ({c}), which contradict or repeat each other; give one: the letter without the sign, or a signed number without the letter"
+            ));
         }
     }
     let parts: Vec<&str> = rest

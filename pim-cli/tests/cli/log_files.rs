@@ -242,3 +242,68 @@ fn the_page_refuses_bad_notes_and_a_swapped_in_link() {
         .file_type()
         .is_symlink());
 }
+
+/// A sign together with a hemisphere letter is refused as contradictory on the command
+/// line, in a field log and in an emitter file (common practice: a hemisphere letter
+/// carries the sign, so `-45 06.152 S` says it twice or contradicts itself).
+#[test]
+fn a_sign_and_a_hemisphere_letter_are_refused() {
+    let tmp = crate::support::scratch();
+    let file = tmp.path().join("walk.csv");
+    for (lat, lon) in [("-45 06.152 S", "-122.4132"), ("45.1025", "+122 24 47.5 W")] {
+        let o = pim(&[
+            "log",
+            file.to_str().unwrap(),
+            "--lat",
+            lat,
+            "--lon",
+            lon,
+            "--bearing-deg",
+            "10",
+        ]);
+        assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+        assert!(
+            stderr_of(&o).contains("both a sign and a hemisphere letter"),
+            "{}",
+            stderr_of(&o)
+        );
+        assert!(!file.exists());
+    }
+    let o = pim(&[
+        "log",
+        file.to_str().unwrap(),
+        "--lat",
+        "45 06.152 S",
+        "--lon",
+        "-122.4132",
+        "--bearing-deg",
+        "10",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    assert!(std::fs::read_to_string(&file).unwrap().contains(",-45.1025333,"));
+
+    let text = std::fs::read_to_string(field_log("walk.csv"))
+        .unwrap()
+        .replacen("45.102534", "\"-45 06.152 N\"", 1);
+    std::fs::write(&file, text).unwrap();
+    let o = pim(&["fix", "--log", file.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(3), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("line 2") && stderr_of(&o).contains("hemisphere letter"),
+        "{}",
+        stderr_of(&o)
+    );
+
+    let emitters = tmp.path().join("emitters.csv");
+    let text = std::fs::read_to_string(field_log("emitters.csv"))
+        .unwrap()
+        .replacen("-122.412000", "\"-122 24 43.2 W\"", 1);
+    std::fs::write(&emitters, text).unwrap();
+    let o = pim(&["explain", "146.34", "--emitters", emitters.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(3), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("hemisphere letter"),
+        "{}",
+        stderr_of(&o)
+    );
+}
