@@ -12,6 +12,7 @@ use pim_core::level::LevelModel;
 use pim_core::trace::classify::ExplainRule;
 use pim_core::trace::{analyse, MaxHold, SweepRule, Trace};
 use pim_core::{Error, Place};
+use pim_io::output::{check_output, write_file_atomically, Existing};
 use pim_io::trace::read_trace_into;
 use serde_json::json;
 
@@ -40,9 +41,13 @@ pub struct Args {
     /// widths, at least 101 points).
     #[arg(long = "floor-window", value_name = "POINTS", value_parser = whole::<u64>(3, 1_000_000))]
     pub floor_window: Option<u64>,
-    /// Also draw the trace, its floor and its peaks into this SVG file.
+    /// Also draw the trace, its floor and its peaks into this SVG file (never one of the
+    /// inputs; an existing file only with --force).
     #[arg(long, value_name = "FILE")]
     pub svg: Option<PathBuf>,
+    /// Replace the file given by --svg when it exists.
+    #[arg(long)]
+    pub force: bool,
     /// Suspects listed at most (tables and Markdown; JSON and CSV list all).
     #[arg(long, value_name = "N", default_value_t = 10, value_parser = whole::<usize>(0, 1_000_000))]
     pub suspects: usize,
@@ -101,6 +106,16 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
 }
 
 pub fn run(args: Args) -> CliResult {
+    let mut inputs: Vec<&std::path::Path> = args.traces.iter().map(PathBuf::as_path).collect();
+    inputs.push(&args.emitters);
+    let existing = if args.force {
+        Existing::Replace
+    } else {
+        Existing::Refuse
+    };
+    if let Some(path) = &args.svg {
+        check_output(path, &inputs, existing)?;
+    }
     let emitters = load_emitters(&args.emitters)?;
     let trace = load_traces(&args.traces)?;
     let s = &args.search;
@@ -122,8 +137,7 @@ pub fn run(args: Args) -> CliResult {
 
     if let Some(path) = &args.svg {
         let picture = picture_input(&trace, &sweep, &emitters, args.threshold_db, &sources);
-        std::fs::write(path, trace_svg(&picture))
-            .map_err(|e| Error::io(path.display().to_string(), &e))?;
+        write_file_atomically(path, trace_svg(&picture).into_bytes(), &inputs, existing)?;
     }
     let report = SweepReport {
         trace: &trace,
