@@ -100,6 +100,11 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
         let source = path.display().to_string();
         let file = read_trace_into(&source, open(path)?, &mut hold)?;
         crate::common::note_unused(&source, &file.ignored_columns);
+        if let Some(line) = file.torn_line {
+            eprintln_safe!(
+                "pim: note: {source}, line {line}: the last row has no line end: the trace may still be being written, or torn by an interrupted write, so it is left out"
+            );
+        }
     }
     hold.finish()
         .ok_or_else(|| Error::input(Place::new("trace"), "no trace read").into())
