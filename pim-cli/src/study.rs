@@ -202,7 +202,7 @@ impl Spill {
     /// commas.
     fn write_sorted(mut self, out: &mut dyn Write, json: bool) -> std::io::Result<()> {
         use std::io::{Read, Seek, SeekFrom};
-        self.entries.sort_by(|a, b| a.0.cmp(&b.0));
+        self.entries.sort_by_key(|e| e.0);
         let mut buf = Vec::new();
         for (pos, (_, at, len)) in self.entries.iter().enumerate() {
             if json && pos > 0 {

@@ -113,7 +113,7 @@ impl WorstKey {
             first: ranking.candidates.first().map(|c| {
                 (
                     c.breakdown.map(|b| b.in_channel_dbm),
-                    u32::from(c.product.order()),
+                    c.product.order(),
                     c.product.offset(target).0.abs(),
                 )
             }),

@@ -159,7 +159,8 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
         level_dbm,
         note: match record.field("note") {
             Some(note) => {
-                if let Some(why) = crate::text::free_text_problem(note, crate::text::MAX_NOTE_BYTES) {
+                if let Some(why) = crate::text::free_text_problem(note, crate::text::MAX_NOTE_BYTES)
+                {
                     return Err(Error::input(place("note"), format!("the note {why}")));
                 }
                 Some(note.to_string())
@@ -683,7 +684,10 @@ mod note_round_trip {
             long.as_str(),
         ];
         for note in notes {
-            assert!(free_text_problem(note, MAX_NOTE_BYTES).is_none(), "{note:?}");
+            assert!(
+                free_text_problem(note, MAX_NOTE_BYTES).is_none(),
+                "{note:?}"
+            );
             for (delimiter, crlf) in [(b',', false), (b';', true), (b'\t', false)] {
                 let header: Vec<&str> = LOG_HEADER.split(',').collect();
                 let mut log = csv_record(&header, delimiter, crlf);

@@ -250,13 +250,11 @@ pub fn write_files_atomically(
     let mut staged = Vec::new();
     for (name, bytes) in files {
         let prefix = format!(".{name}.");
-        let made = staging_builder(&prefix)
-            .tempfile_in(dir)
-            .and_then(|mut f| {
-                f.write_all(bytes)?;
-                f.as_file().sync_all()?;
-                Ok(f.into_temp_path())
-            });
+        let made = staging_builder(&prefix).tempfile_in(dir).and_then(|mut f| {
+            f.write_all(bytes)?;
+            f.as_file().sync_all()?;
+            Ok(f.into_temp_path())
+        });
         match made {
             Ok(tmp) => staged.push((tmp, dir.join(name))),
             // dropping `staged` removes the files staged so far

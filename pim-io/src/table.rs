@@ -80,7 +80,8 @@ impl<R: Read> Read for Guarded<R> {
                 // Blank and comment lines are counted (`lines_done`), never stored: a file
                 // of fifty million blank lines holds no more memory than an empty one.
                 if self.since_newline == 0 && b != b'\n' && b != b'#' {
-                    self.line_starts.push_back((self.lines_done + 1, self.out_pos + w as u64));
+                    self.line_starts
+                        .push_back((self.lines_done + 1, self.out_pos + w as u64));
                 }
                 if b == b'\n' {
                     self.since_newline = 0;

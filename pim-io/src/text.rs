@@ -435,7 +435,10 @@ pub const MAX_NOTE_BYTES: usize = 4096;
 /// assert!(free_text_problem(&"x".repeat(5000), 4096).unwrap().contains("4096 bytes"));
 /// ```
 pub fn free_text_problem(text: &str, max_bytes: usize) -> Option<String> {
-    if let Some((i, c)) = text.char_indices().find(|(_, c)| c.is_control() && *c != '\t') {
+    if let Some((i, c)) = text
+        .char_indices()
+        .find(|(_, c)| c.is_control() && *c != '\t')
+    {
         let what = match c {
             '\n' | '\r' => "a line end: a note must fit on one line",
             '\0' => "a NUL character",

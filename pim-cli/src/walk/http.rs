@@ -168,15 +168,17 @@ pub async fn read_body(body: Body) -> Result<Bytes, Response> {
 pub fn guarded(routes: Router, guard: Arc<Guard>) -> Router {
     routes
         .layer(RequestBodyLimitLayer::new(MAX_READ_BYTES))
-        .layer(axum::middleware::from_fn(move |request: Request, next: Next| {
-            let guard = guard.clone();
-            async move {
-                match guard.refusal(&request) {
-                    Some(why) => plain(StatusCode::FORBIDDEN, why),
-                    None => next.run(request).await,
+        .layer(axum::middleware::from_fn(
+            move |request: Request, next: Next| {
+                let guard = guard.clone();
+                async move {
+                    match guard.refusal(&request) {
+                        Some(why) => plain(StatusCode::FORBIDDEN, why),
+                        None => next.run(request).await,
+                    }
                 }
-            }
-        }))
+            },
+        ))
         .layer(TimeoutLayer::with_status_code(
             StatusCode::SERVICE_UNAVAILABLE,
             REQUEST_TIMEOUT,
@@ -276,8 +278,7 @@ pub async fn serve(listener: TcpListener, app: Router, stop: impl Future<Output 
 pub fn ctrl_c() -> std::io::Result<impl Future<Output = ()>> {
     #[cfg(unix)]
     {
-        let mut signal =
-            tokio::signal::unix::signal(tokio::signal::unix::SignalKind::interrupt())?;
+        let mut signal = tokio::signal::unix::signal(tokio::signal::unix::SignalKind::interrupt())?;
         Ok(async move {
             signal.recv().await;
         })
@@ -307,7 +308,10 @@ mod tests {
 
     #[test]
     fn query_values_are_decoded() {
-        assert_eq!(query_value("token=ab%20c&x=1", "token").as_deref(), Some("ab c"));
+        assert_eq!(
+            query_value("token=ab%20c&x=1", "token").as_deref(),
+            Some("ab c")
+        );
         assert_eq!(query_value("x=1", "token"), None);
     }
 }

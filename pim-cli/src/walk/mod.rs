@@ -148,11 +148,7 @@ fn routes(walk: Arc<Walk>) -> Router {
 }
 
 async fn page() -> Response {
-    (
-        [(header::CONTENT_TYPE, "text/html; charset=utf-8")],
-        PAGE,
-    )
-        .into_response()
+    ([(header::CONTENT_TYPE, "text/html; charset=utf-8")], PAGE).into_response()
 }
 
 fn json_response(status: u16, value: &Value) -> Response {

@@ -218,9 +218,9 @@ pub fn form_value(body: &str, name: &str) -> Result<Option<String>, Value> {
         let plus = v.replace('+', " ");
         let value = percent_encoding::percent_decode(plus.as_bytes())
             .decode_utf8()
-            .map_err(|_| {
-                json!({"error": {"field": name, "message": "not UTF-8 text; type it again"}})
-            })?;
+            .map_err(
+                |_| json!({"error": {"field": name, "message": "not UTF-8 text; type it again"}}),
+            )?;
         let value = value.trim();
         return Ok((!value.is_empty()).then(|| value.to_string()));
     }
@@ -330,7 +330,10 @@ mod tests {
 
     #[test]
     fn comment_and_blank_lines_are_not_readings() {
-        assert_eq!(rows(b"# walk\nlat,lon,bearing_deg\n\n1,2,3\n# x\n4,5,6\n"), 2);
+        assert_eq!(
+            rows(b"# walk\nlat,lon,bearing_deg\n\n1,2,3\n# x\n4,5,6\n"),
+            2
+        );
         assert_eq!(rows(b""), 0);
     }
 }

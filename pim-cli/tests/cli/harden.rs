@@ -495,7 +495,10 @@ fn svg_never_eats_an_input() {
         }
         pim(&a)
     };
-    let (t0, e0) = (std::fs::read(&trace).unwrap(), std::fs::read(&emitters).unwrap());
+    let (t0, e0) = (
+        std::fs::read(&trace).unwrap(),
+        std::fs::read(&emitters).unwrap(),
+    );
     for input in [&trace, &emitters] {
         for force in [false, true] {
             let o = sweep(input, force);
@@ -570,10 +573,17 @@ fn racing_tickets_never_mix() {
             stderr_of(&a),
             stderr_of(&b)
         );
-        let winner = if a.status.success() { "Site-A" } else { "Site-B" };
+        let winner = if a.status.success() {
+            "Site-A"
+        } else {
+            "Site-B"
+        };
         for f in ["ticket.md", "ticket.html"] {
             let text = std::fs::read_to_string(out.join(f)).unwrap();
-            assert!(text.contains(winner), "round {round}: {f} is not {winner}'s");
+            assert!(
+                text.contains(winner),
+                "round {round}: {f} is not {winner}'s"
+            );
         }
         assert!(
             names(&out).iter().all(|n| !n.starts_with('.')),

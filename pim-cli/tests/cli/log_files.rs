@@ -83,11 +83,7 @@ fn the_reader_names_a_bad_note() {
 
 #[cfg(unix)]
 fn mkfifo(path: &Path) {
-    assert!(Command::new("mkfifo")
-        .arg(path)
-        .status()
-        .unwrap()
-        .success());
+    assert!(Command::new("mkfifo").arg(path).status().unwrap().success());
 }
 
 /// A log that is a symbolic link, a FIFO or a directory is refused (exit 4) without
@@ -111,7 +107,11 @@ fn links_and_special_files_are_refused_as_logs() {
     let start = Instant::now();
     let o = log_with_note(&fifo, "into a FIFO");
     assert_eq!(o.status.code(), Some(4), "{}", stderr_of(&o));
-    assert!(stderr_of(&o).contains("not a regular file"), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("not a regular file"),
+        "{}",
+        stderr_of(&o)
+    );
     assert!(start.elapsed() < Duration::from_secs(10));
 
     let o = log_with_note(tmp.path(), "into a directory");
@@ -139,10 +139,7 @@ fn request(port: u16, head_and_body: &str) -> (u16, String) {
     s.write_all(head_and_body.as_bytes()).unwrap();
     let mut answer = String::new();
     let _ = s.read_to_string(&mut answer);
-    let status = answer
-        .get(9..12)
-        .and_then(|c| c.parse().ok())
-        .unwrap_or(0);
+    let status = answer.get(9..12).and_then(|c| c.parse().ok()).unwrap_or(0);
     let body = answer
         .split_once("\r\n\r\n")
         .map(|(_, b)| b.to_string())
@@ -280,7 +277,9 @@ fn a_sign_and_a_hemisphere_letter_are_refused() {
         "10",
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
-    assert!(std::fs::read_to_string(&file).unwrap().contains(",-45.1025333,"));
+    assert!(std::fs::read_to_string(&file)
+        .unwrap()
+        .contains(",-45.1025333,"));
 
     let text = std::fs::read_to_string(field_log("walk.csv"))
         .unwrap()
@@ -299,7 +298,12 @@ fn a_sign_and_a_hemisphere_letter_are_refused() {
         .unwrap()
         .replacen("-122.412000", "\"-122 24 43.2 W\"", 1);
     std::fs::write(&emitters, text).unwrap();
-    let o = pim(&["explain", "146.34", "--emitters", emitters.to_str().unwrap()]);
+    let o = pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        emitters.to_str().unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(3), "{}", stderr_of(&o));
     assert!(
         stderr_of(&o).contains("hemisphere letter"),

@@ -139,7 +139,10 @@ fn a_worst_first_study_of_20000_receivers_holds_its_budget() {
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let receivers = v["receivers"].as_array().unwrap();
     assert_eq!(receivers.len(), 20_000);
-    let mut ids: Vec<&str> = receivers.iter().map(|r| r["id"].as_str().unwrap()).collect();
+    let mut ids: Vec<&str> = receivers
+        .iter()
+        .map(|r| r["id"].as_str().unwrap())
+        .collect();
     ids.sort();
     ids.dedup();
     assert_eq!(ids.len(), 20_000, "every receiver once");

@@ -111,7 +111,11 @@ fn a_log_spaced_trace_is_refused() {
     let mut text = String::from("freq_hz,level_dbm\n");
     for i in 0..n {
         let f = a * (b / a).powf(i as f64 / (n - 1) as f64);
-        let level = if (f - 151.789e6).abs() < 5e3 { -80.0 } else { -110.0 };
+        let level = if (f - 151.789e6).abs() < 5e3 {
+            -80.0
+        } else {
+            -110.0
+        };
         text.push_str(&format!("{},{level}\n", f.round()));
     }
     std::fs::write(&trace, text).unwrap();
@@ -147,9 +151,7 @@ fn an_unterminated_last_row_is_noted_and_left_out() {
         ]);
         assert!(o.status.success(), "{}", stderr_of(&o));
         assert!(
-            stderr_of(&o).contains(&format!(
-                "line {lines}: the last row has no line end"
-            )),
+            stderr_of(&o).contains(&format!("line {lines}: the last row has no line end")),
             "{}",
             stderr_of(&o)
         );

@@ -181,8 +181,10 @@ fn stalled_bodies_and_idle_connections_block_nothing() {
     // the refused ones were answered 403 without waiting for their bodies
     let mut s = server.connect();
     s.write_all(
-        format!("POST /undo?token=WRONG HTTP/1.1\r\nHost: {host}\r\nContent-Length: 100000\r\n\r\n")
-            .as_bytes(),
+        format!(
+            "POST /undo?token=WRONG HTTP/1.1\r\nHost: {host}\r\nContent-Length: 100000\r\n\r\n"
+        )
+        .as_bytes(),
     )
     .unwrap();
     assert_eq!(status_line(&mut s), Some(403));
