@@ -96,8 +96,21 @@ pub fn sweep_rule(
 /// Reads the traces into one by maximum hold.
 pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
     let mut hold = MaxHold::new();
+    let mut seen: Vec<(PathBuf, &PathBuf)> = Vec::new();
     for path in paths {
         let source = path.display().to_string();
+        // The same file given again is the same sweep held again: it adds nothing, and
+        // the count of sweeps says so only with this note.
+        if let Ok(real) = std::fs::canonicalize(path) {
+            if let Some((_, first)) = seen.iter().find(|(r, _)| *r == real) {
+                eprintln_safe!(
+                    "pim: note: {source} is the same file as {}: the same sweep held again adds nothing to the maximum hold",
+                    first.display()
+                );
+            } else {
+                seen.push((real, path));
+            }
+        }
         let file = read_trace_into(&source, open(path)?, &mut hold)?;
         crate::common::note_unused(&source, &file.ignored_columns);
         if let Some(line) = file.torn_line {

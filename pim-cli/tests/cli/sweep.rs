@@ -197,3 +197,18 @@ fn fifty_million_blank_lines_in_bounded_memory() {
         .unwrap();
     assert!(o.status.success(), "{}", stderr_of(&o));
 }
+
+/// The same trace given several times is noted: held again, it adds nothing.
+#[test]
+fn the_same_trace_twice_is_noted() {
+    let t = field_log("trace.csv");
+    let t = t.to_str().unwrap();
+    let e = field_log("emitters.csv");
+    let o = pim(&["sweep", t, t, "--emitters", e.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("is the same file as") && stderr_of(&o).contains("adds nothing"),
+        "{}",
+        stderr_of(&o)
+    );
+}
