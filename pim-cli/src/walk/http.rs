@@ -61,7 +61,7 @@ pub const REQUEST_TIMEOUT: Duration = Duration::from_secs(60);
 /// Connections served at once (the phones of a walk team and a laptop, with room).
 pub const MAX_CONNECTIONS: usize = 64;
 /// How long Ctrl-C lets the requests in hand finish.
-pub const SHUTDOWN_GRACE: Duration = Duration::from_millis(1500);
+pub const SHUTDOWN_GRACE: Duration = Duration::from_millis(1000);
 
 /// Who may use the server: the token of its address, and the Host and Origin of a
 /// browser that opened that address.

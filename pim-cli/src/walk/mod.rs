@@ -130,7 +130,7 @@ pub fn run(args: Args) -> CliResult {
         http::serve(listener, app, stop).await;
         CliResult::Ok(())
     })?;
-    runtime.shutdown_timeout(std::time::Duration::from_millis(500));
+    runtime.shutdown_timeout(std::time::Duration::from_millis(300));
     eprintln_safe!("pim: walk stopped; {} is whole.", args.log.display());
     Ok(())
 }

@@ -201,6 +201,24 @@ fn stalled_bodies_and_idle_connections_block_nothing() {
     .unwrap();
     assert_eq!(status_line(&mut s), Some(408));
     server.assert_serves("a body that timed out");
+    // an idle connection is closed once the header timeout (10 s) has passed
+    let mut idle = held.pop().unwrap();
+    idle.set_read_timeout(Some(Duration::from_secs(15)))
+        .unwrap();
+    let start = Instant::now();
+    let mut rest = Vec::new();
+    let closed = match idle.read_to_end(&mut rest) {
+        Ok(_) => true,
+        Err(e) => !matches!(
+            e.kind(),
+            std::io::ErrorKind::WouldBlock | std::io::ErrorKind::TimedOut
+        ),
+    };
+    assert!(
+        closed && start.elapsed() < Duration::from_secs(12),
+        "an idle connection stayed open {:?}",
+        start.elapsed()
+    );
     drop(held);
     assert_eq!(std::fs::read(&log).unwrap(), before);
 }
