@@ -35,9 +35,10 @@ use state::Walk;
 
 /// The page: one HTML document with its style, script and pictures inline.
 const PAGE: &str = include_str!("page.html");
-/// Threads working out fixes and writing the log (a fix of a long walk takes a while;
-/// the network is served meanwhile).
-const WORKERS: usize = 4;
+/// Threads writing the log and working out fixes (a fix of a long walk takes a while;
+/// the network is served meanwhile, and requests for the same version of the log wait
+/// for the one fix, so a save finds a thread free).
+const WORKERS: usize = 8;
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
