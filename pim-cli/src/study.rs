@@ -105,26 +105,26 @@ pub fn run(args: Args) -> CliResult {
         })
     };
     let emitters_source = args.emitters.display().to_string();
-    let mut write_one = |pos: usize, r: StudiedReceiver| -> CliResult {
+    // One receiver rendered as it is written; `first` writes the CSV header (and no
+    // comma before a JSON object).
+    let render = |out: &mut dyn Write, first: bool, r: &StudiedReceiver| -> std::io::Result<()> {
         match format {
             ListFormat::Table => write!(
                 out,
                 "{}",
                 r.table(emitters, &emitters_source, shown.unwrap_or(usize::MAX))
-            )?,
+            ),
             ListFormat::Markdown => {
-                write!(out, "{}", r.markdown(emitters, shown.unwrap_or(usize::MAX)))?
+                write!(out, "{}", r.markdown(emitters, shown.unwrap_or(usize::MAX)))
             }
-            ListFormat::Csv => r.write_csv(&mut out, emitters, shown, pos == 0)?,
+            ListFormat::Csv => r.write_csv(out, emitters, shown, first),
             ListFormat::Json => {
-                if pos > 0 {
+                if !first {
                     writeln!(out, ",")?;
                 }
-                r.write_json(&mut out, emitters, shown)?;
+                r.write_json(out, emitters, shown)
             }
         }
-        out.flush()?;
-        Ok(())
     };
     let tick = || {
         if let Some(bar) = &progress {
@@ -134,24 +134,37 @@ pub fn run(args: Args) -> CliResult {
     match args.order {
         StudyOrder::File => pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
             tick();
-            write_one(i, r?)
+            render(&mut out, i == 0, &r?)?;
+            out.flush()?;
+            Ok::<(), crate::common::CliError>(())
         })?,
         StudyOrder::Worst => {
-            let mut done = Vec::with_capacity(receivers.len());
-            pim_core::study::in_order(receivers.len(), threads, work, |_, r| {
+            // Each receiver is rendered as soon as it is done and spilled to a temporary
+            // file; memory keeps only its place there and its sort key, so the study
+            // holds its budget in this order too.
+            let mut spill = Spill::new()?;
+            let mut header = Vec::new();
+            pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
                 tick();
-                done.push(r?);
+                let r = r?;
+                let mut bytes = Vec::new();
+                // rendered as the first: no comma before a JSON object, and the CSV
+                // header, cut off below
+                render(&mut bytes, true, &r)?;
+                if format == ListFormat::Csv {
+                    // the header line, kept once
+                    let cut = bytes.iter().position(|&b| b == b'\n').map_or(0, |p| p + 1);
+                    if i == 0 {
+                        header = bytes[..cut].to_vec();
+                    }
+                    bytes.drain(..cut);
+                }
+                let key = pim_core::study::WorstKey::of(&r.answer.ranking, r.params.target);
+                spill.put(key, &bytes)?;
                 Ok::<(), crate::common::CliError>(())
             })?;
-            done.sort_by(|a, b| {
-                pim_core::study::worst_first(
-                    (&a.answer.ranking, a.params.target),
-                    (&b.answer.ranking, b.params.target),
-                )
-            });
-            for (pos, r) in done.into_iter().enumerate() {
-                write_one(pos, r)?;
-            }
+            out.write_all(&header)?;
+            spill.write_sorted(&mut out, format == ListFormat::Json)?;
         }
     }
     if let Some(bar) = &progress {
@@ -161,4 +174,48 @@ pub fn run(args: Args) -> CliResult {
         writeln!(out, "\n  ]\n}}")?;
     }
     finish(out)
+}
+
+/// Receivers rendered and set aside in an unnamed temporary file (removed by the system
+/// when closed), with their sort keys in memory.
+struct Spill {
+    file: std::fs::File,
+    end: u64,
+    entries: Vec<(pim_core::study::WorstKey, u64, u64)>,
+}
+
+impl Spill {
+    fn new() -> std::io::Result<Self> {
+        Ok(Spill {
+            file: tempfile::tempfile()?,
+            end: 0,
+            entries: Vec::new(),
+        })
+    }
+
+    fn put(&mut self, key: pim_core::study::WorstKey, bytes: &[u8]) -> std::io::Result<()> {
+        self.file.write_all(bytes)?;
+        self.entries.push((key, self.end, bytes.len() as u64));
+        self.end += bytes.len() as u64;
+        Ok(())
+    }
+
+    /// Writes the receivers worst first (ties in file order); JSON objects separated by
+    /// commas.
+    fn write_sorted(mut self, out: &mut dyn Write, json: bool) -> std::io::Result<()> {
+        use std::io::{Read, Seek, SeekFrom};
+        self.entries.sort_by_key(|e| e.0);
+        let mut buf = Vec::new();
+        for (pos, (_, at, len)) in self.entries.iter().enumerate() {
+            if json && pos > 0 {
+                writeln!(out, ",")?;
+            }
+            self.file.seek(SeekFrom::Start(*at))?;
+            buf.clear();
+            (&mut self.file).take(*len).read_to_end(&mut buf)?;
+            out.write_all(&buf)?;
+            out.flush()?;
+        }
+        Ok(())
+    }
 }

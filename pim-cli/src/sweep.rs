@@ -11,6 +11,7 @@ use pim_core::level::LevelModel;
 use pim_core::trace::classify::ExplainRule;
 use pim_core::trace::{analyse, MaxHold, SweepRule, Trace};
 use pim_core::{Error, Place};
+use pim_io::output::{check_output, write_file_atomically, Existing};
 use pim_io::trace::read_trace_into;
 use serde_json::json;
 
@@ -39,9 +40,13 @@ pub struct Args {
     /// widths, at least 101 points).
     #[arg(long = "floor-window", value_name = "POINTS", value_parser = whole::<u64>(3, 1_000_000))]
     pub floor_window: Option<u64>,
-    /// Also draw the trace, its floor and its peaks into this SVG file.
+    /// Also draw the trace, its floor and its peaks into this SVG file (never one of the
+    /// inputs; an existing file only with --force).
     #[arg(long, value_name = "FILE")]
     pub svg: Option<PathBuf>,
+    /// Replace the file given by --svg when it exists.
+    #[arg(long)]
+    pub force: bool,
     /// Suspects listed at most (tables and Markdown; JSON and CSV list all).
     #[arg(long, value_name = "N", default_value_t = 10, value_parser = whole::<usize>(0, 1_000_000))]
     pub suspects: usize,
@@ -92,16 +97,44 @@ pub fn sweep_rule(
 /// Reads the traces into one by maximum hold.
 pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
     let mut hold = MaxHold::new();
+    let mut seen: Vec<(PathBuf, &PathBuf)> = Vec::new();
     for path in paths {
         let source = path.display().to_string();
+        // The same file given again is the same sweep held again: it adds nothing, and
+        // the count of sweeps says so only with this note.
+        if let Ok(real) = std::fs::canonicalize(path) {
+            if let Some((_, first)) = seen.iter().find(|(r, _)| *r == real) {
+                eprintln_safe!(
+                    "pim: note: {source} is the same file as {}: the same sweep held again adds nothing to the maximum hold",
+                    first.display()
+                );
+            } else {
+                seen.push((real, path));
+            }
+        }
         let file = read_trace_into(&source, open(path)?, &mut hold)?;
         crate::common::note_unused(&source, &file.ignored_columns);
+        if let Some(line) = file.torn_line {
+            eprintln_safe!(
+                "pim: note: {source}, line {line}: the last row has no line end: the trace may still be being written, or torn by an interrupted write, so it is left out"
+            );
+        }
     }
     hold.finish()
         .ok_or_else(|| Error::input(Place::new("trace"), "no trace read").into())
 }
 
 pub fn run(args: Args) -> CliResult {
+    let mut inputs: Vec<&std::path::Path> = args.traces.iter().map(PathBuf::as_path).collect();
+    inputs.push(&args.emitters);
+    let existing = if args.force {
+        Existing::Replace
+    } else {
+        Existing::Refuse
+    };
+    if let Some(path) = &args.svg {
+        check_output(path, &inputs, existing)?;
+    }
     let columns = crate::common::Columns::new(&args.columns)?;
     let emitters = load_emitters(&args.emitters, &columns)?;
     columns.check()?;
@@ -125,8 +158,7 @@ pub fn run(args: Args) -> CliResult {
 
     if let Some(path) = &args.svg {
         let picture = picture_input(&trace, &sweep, &emitters, args.threshold_db, &sources);
-        std::fs::write(path, trace_svg(&picture))
-            .map_err(|e| Error::io(path.display().to_string(), &e))?;
+        write_file_atomically(path, trace_svg(&picture).into_bytes(), &inputs, existing)?;
     }
     let report = SweepReport {
         trace: &trace,

@@ -226,6 +226,24 @@ impl Shape {
         }
     }
 
+    /// The shape of an emitter's emission: its modulation class (from an emission
+    /// designator or a `modulation` column) where the list gives one, else its `kind`'s
+    /// ([`Shape::of_kind`]).
+    pub fn of_emitter(e: &Emitter) -> Shape {
+        use crate::emission::ModulationClass as M;
+        match e.modulation {
+            Some(M::FmVoice) => Shape::FmVoice,
+            Some(M::FskData) => Shape::FskData,
+            Some(M::NarrowDigital | M::WideDigital | M::Other) => Shape::NarrowDigital,
+            Some(M::AmBroadcast) => Shape::AmBroadcast,
+            // AM and SSB telephony carry little carrier: their power spreads over B
+            Some(M::AmVoice | M::SsbVoice) => Shape::NarrowDigital,
+            Some(M::FmBroadcast) => Shape::FmBroadcast,
+            Some(M::Unmodulated) => Shape::Unmodulated,
+            None => Shape::of_kind(e.kind.as_deref()),
+        }
+    }
+
     /// The width that spreads the emission's power for the channel share (the 99 % width
     /// of its Gaussian): for analogue FM the spectrum follows the deviation (Woodward's
     /// theorem, P. M. Woodward, 1952; from memory), so of Carson's B = 2(D + M) only the

@@ -835,7 +835,7 @@ impl<'a> Ranker<'a> {
     fn spread(&self, product: &Product) -> crate::freq::Hz {
         product_spread(product.terms().map(|t| {
             let e = &self.emitters[t.emitter];
-            let shape = Shape::of_kind(e.kind.as_deref());
+            let shape = Shape::of_emitter(e);
             (t.coefficient.unsigned_abs(), shape.spread(e.bandwidth))
         }))
     }

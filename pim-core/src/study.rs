@@ -93,30 +93,59 @@ pub fn worst_first(
     a: (&crate::rank::Ranking, crate::freq::Hz),
     b: (&crate::rank::Ranking, crate::freq::Hz),
 ) -> std::cmp::Ordering {
-    use std::cmp::Ordering as O;
-    let (ra, rb) = (a.0.candidates.first(), b.0.candidates.first());
-    let (ca, cb) = match (ra, rb) {
-        (Some(x), Some(y)) => (x, y),
-        (Some(_), None) => return O::Less,
-        (None, Some(_)) => return O::Greater,
-        (None, None) => return O::Equal,
-    };
-    let level = |c: &crate::rank::Candidate| c.breakdown.map(|b| b.in_channel_dbm);
-    let by_level = match (level(ca), level(cb)) {
-        (Some(x), Some(y)) => y.total_cmp(&x),
-        (Some(_), None) => O::Less,
-        (None, Some(_)) => O::Greater,
-        (None, None) => O::Equal,
-    };
-    by_level
-        .then(ca.product.order().cmp(&cb.product.order()))
-        .then(
-            ca.product
-                .offset(a.1)
-                .0
-                .abs()
-                .cmp(&cb.product.offset(b.1).0.abs()),
-        )
+    WorstKey::of(a.0, a.1).cmp(&WorstKey::of(b.0, b.1))
+}
+
+/// What [`worst_first`] compares of a receiver, kept alone (a few bytes), so that a
+/// study can order receivers worst first without holding their listings: sorting keys
+/// orders receivers as [`worst_first`] does.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct WorstKey {
+    /// The first candidate: its level in the channel (dBm) when it has one, its order
+    /// and its offset from the channel's centre (Hz, absolute); `None` without one.
+    first: Option<(Option<f64>, u32, i64)>,
+}
+
+impl WorstKey {
+    /// The key of a receiver's ranking, on the channel centred at `target`.
+    pub fn of(ranking: &crate::rank::Ranking, target: crate::freq::Hz) -> Self {
+        WorstKey {
+            first: ranking.candidates.first().map(|c| {
+                (
+                    c.breakdown.map(|b| b.in_channel_dbm),
+                    c.product.order(),
+                    c.product.offset(target).0.abs(),
+                )
+            }),
+        }
+    }
+}
+
+impl Eq for WorstKey {}
+
+impl PartialOrd for WorstKey {
+    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+        Some(self.cmp(other))
+    }
+}
+
+impl Ord for WorstKey {
+    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+        use std::cmp::Ordering as O;
+        let ((la, oa, fa), (lb, ob, fb)) = match (self.first, other.first) {
+            (Some(x), Some(y)) => (x, y),
+            (Some(_), None) => return O::Less,
+            (None, Some(_)) => return O::Greater,
+            (None, None) => return O::Equal,
+        };
+        let by_level = match (la, lb) {
+            (Some(x), Some(y)) => y.total_cmp(&x),
+            (Some(_), None) => O::Less,
+            (None, Some(_)) => O::Greater,
+            (None, None) => O::Equal,
+        };
+        by_level.then(oa.cmp(&ob)).then(fa.cmp(&fb))
+    }
 }
 
 #[cfg(test)]

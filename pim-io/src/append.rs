@@ -12,6 +12,13 @@
 //! the file in one atomic rename of a synced copy in the same directory, so a crash leaves
 //! either the old log or the new one. A writer that was waiting for the lock on the
 //! replaced file notices that the path now names another file and starts again on it.
+//!
+//! A log must be a regular file named directly: a symbolic link is refused (appends
+//! would go through it while an undo replaced the link itself, splitting the walk
+//! between two files), and so are FIFOs, devices and directories (a FIFO would block
+//! the reader for ever). The log is opened without following a link and without
+//! blocking, and checked once open, so a link or a FIFO put in its place later is
+//! refused too. Refusals name the path and never quote what another file holds.
 
 use std::fs::{File, OpenOptions};
 use std::io::{Read, Seek, SeekFrom, Write};
@@ -30,6 +37,67 @@ pub struct Appended {
 
 fn io_err(path: &Path, e: &std::io::Error) -> Error {
     Error::io(path.display().to_string(), e)
+}
+
+/// A log path refused for what it names (exit code 4, as a file that cannot be written).
+fn not_a_log(path: &Path, what: &str) -> Error {
+    Error {
+        class: pim_core::ErrorClass::Io,
+        place: Some(Place::new(path.display().to_string())),
+        message: format!("{what}; a field log must be a regular file named directly"),
+    }
+}
+
+/// Refuses a log path that is a symbolic link, or names a FIFO, a device, a directory
+/// or anything else than a regular file. A path that names nothing yet is fine (the
+/// first append creates the log).
+pub fn check_log_path(path: &Path) -> Result<()> {
+    match std::fs::symlink_metadata(path) {
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(e) => Err(io_err(path, &e)),
+        Ok(m) => check_kind(path, &m),
+    }
+}
+
+fn check_kind(path: &Path, m: &std::fs::Metadata) -> Result<()> {
+    let t = m.file_type();
+    if t.is_symlink() {
+        return Err(not_a_log(
+            path,
+            "is a symbolic link: give the file it points to instead",
+        ));
+    }
+    if t.is_dir() {
+        return Err(not_a_log(path, "is a directory"));
+    }
+    if !t.is_file() {
+        return Err(not_a_log(
+            path,
+            "is not a regular file (a FIFO, a socket or a device)",
+        ));
+    }
+    Ok(())
+}
+
+/// Opens a log without following a symbolic link and without blocking on a FIFO, then
+/// checks that what was opened is a regular file.
+fn open_log(path: &Path, options: &mut OpenOptions) -> Result<File> {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::OpenOptionsExt;
+        options.custom_flags(libc::O_NOFOLLOW | libc::O_NONBLOCK);
+    }
+    let file = match options.open(path) {
+        Ok(f) => f,
+        Err(e) => {
+            // O_NOFOLLOW on a link: ELOOP; say what it is.
+            check_log_path(path)?;
+            return Err(io_err(path, &e));
+        }
+    };
+    let m = file.metadata().map_err(|e| io_err(path, &e))?;
+    check_kind(path, &m)?;
+    Ok(file)
 }
 
 /// What an existing log looks like: its header line (the first line that is neither
@@ -129,6 +197,20 @@ pub fn append_row(
             )
         }
     };
+    // What the reader would refuse is never written.
+    if let Some(long) = text
+        .split(['\n', '\r'])
+        .find(|l| l.len() > crate::table::MAX_LINE_BYTES)
+    {
+        return Err(Error::input(
+            Place::new(source),
+            format!(
+                "the row would be {} bytes long, over the reader's limit of {} bytes a line; shorten its text",
+                long.len(),
+                crate::table::MAX_LINE_BYTES
+            ),
+        ));
+    }
     let before = file.metadata().map_err(|e| io_err(path, &e))?.len();
     if let Err(e) = file
         .write_all(text.as_bytes())
@@ -160,13 +242,14 @@ pub fn append_row(
 /// path names now: a row taken back meanwhile replaced the file by a new one.
 fn open_locked(path: &Path, append: bool) -> Result<File> {
     loop {
-        let file = OpenOptions::new()
-            .read(true)
-            .write(!append)
-            .append(append)
-            .create(append)
-            .open(path)
-            .map_err(|e| io_err(path, &e))?;
+        let file = open_log(
+            path,
+            OpenOptions::new()
+                .read(true)
+                .write(!append)
+                .append(append)
+                .create(append),
+        )?;
         file.lock().map_err(|e| io_err(path, &e))?;
         if same_file(&file, path)? {
             return Ok(file);
@@ -178,7 +261,7 @@ fn open_locked(path: &Path, append: bool) -> Result<File> {
 fn same_file(file: &File, path: &Path) -> Result<bool> {
     use std::os::unix::fs::MetadataExt;
     let held = file.metadata().map_err(|e| io_err(path, &e))?;
-    match std::fs::metadata(path) {
+    match std::fs::symlink_metadata(path) {
         Ok(now) => Ok(held.dev() == now.dev() && held.ino() == now.ino()),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(false),
         Err(e) => Err(io_err(path, &e)),
@@ -275,7 +358,7 @@ pub fn remove_last_row(path: &Path) -> Result<Removed> {
 
 /// Reads a whole file under a shared lock, so that no half-written row is seen.
 pub fn read_locked(path: &Path) -> Result<Vec<u8>> {
-    let mut file = File::open(path).map_err(|e| io_err(path, &e))?;
+    let mut file = open_log(path, OpenOptions::new().read(true))?;
     file.lock_shared().map_err(|e| io_err(path, &e))?;
     let mut bytes = Vec::new();
     file.read_to_end(&mut bytes).map_err(|e| io_err(path, &e))?;

@@ -157,7 +157,16 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
         time,
         sigma_deg,
         level_dbm,
-        note: record.field("note").map(str::to_string),
+        note: match record.field("note") {
+            Some(note) => {
+                if let Some(why) = crate::text::free_text_problem(note, crate::text::MAX_NOTE_BYTES)
+                {
+                    return Err(Error::input(place("note"), format!("the note {why}")));
+                }
+                Some(note.to_string())
+            }
+            None => None,
+        },
     })
 }
 
@@ -311,14 +320,6 @@ pub fn save_reading(
         .time
         .clone()
         .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
-    if let Some(note) = &reading.note {
-        if note.contains(['\n', '\r']) {
-            return Err(Error::argument(
-                &origin("note"),
-                "a note must fit on one line",
-            ));
-        }
-    }
     let text = |v: &Option<String>| v.clone().unwrap_or_default();
     const COLUMNS: [&str; 8] = [
         "time",
@@ -661,5 +662,50 @@ mod tests {
         let b = parse_time("2026-11-30T14:05:00Z").unwrap();
         assert_eq!(a, b);
         assert_eq!(parse_time("2026-11-30T15:05:00+01:00").unwrap(), b);
+    }
+}
+
+#[cfg(test)]
+mod note_round_trip {
+    use super::*;
+    use crate::text::{csv_record, free_text_problem, MAX_NOTE_BYTES};
+
+    /// A note that passes the shared check is written in every dialect and read back
+    /// as it was (less surrounding blanks); one that fails is refused by the reader too.
+    #[test]
+    fn what_is_written_is_what_is_read() {
+        let long = "\"".repeat(MAX_NOTE_BYTES);
+        let notes = [
+            "gate post, east",
+            "\"quoted\"; and\ttabbed",
+            "# not a comment",
+            "  padded  ",
+            "ünïcödé \u{202e} bidi",
+            long.as_str(),
+        ];
+        for note in notes {
+            assert!(
+                free_text_problem(note, MAX_NOTE_BYTES).is_none(),
+                "{note:?}"
+            );
+            for (delimiter, crlf) in [(b',', false), (b';', true), (b'\t', false)] {
+                let header: Vec<&str> = LOG_HEADER.split(',').collect();
+                let mut log = csv_record(&header, delimiter, crlf);
+                log.push_str(&csv_record(
+                    ["", "45.1", "-122.4", "10", "true", "", "", note],
+                    delimiter,
+                    crlf,
+                ));
+                let read = read_field_log("t.csv", log.as_bytes(), false).unwrap();
+                assert_eq!(
+                    read.rows[0].note.as_deref(),
+                    Some(note.trim_matches(|c| c == ' ' || c == '\t')),
+                    "{note:?} {delimiter}"
+                );
+            }
+        }
+        let log = format!("{LOG_HEADER}\n,45.1,-122.4,10,true,,,bell\u{7}\n");
+        let e = read_field_log("t.csv", log.as_bytes(), false).unwrap_err();
+        assert_eq!(e.place.unwrap().field.as_deref(), Some("note"));
     }
 }

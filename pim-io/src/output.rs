@@ -12,11 +12,83 @@
 //! - All or nothing: the files being replaced are first moved aside; if any file cannot
 //!   be written or renamed, the new files are removed, the old ones moved back, and no
 //!   staging file is left behind.
+//! - One writer per directory at a time: a lock file ([`LOCK_NAME`], created new, so
+//!   only one process can make it) is held from the check of what exists to the last
+//!   rename; a second writer is refused (exit code 4) rather than mixing its files with
+//!   the first's. A lock left by a process that no longer runs is taken over.
+//! - Files get the mode the user's umask gives a new file (0644 under umask 022), as
+//!   any program's would: the staging file is created with 0666 less the umask.
+//!
+//! [`write_file_atomically`] gives one output file (a picture given by `--svg`) the
+//! same protection.
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use pim_core::{Error, ErrorClass, Place};
+
+/// The lock file a writer holds in the directory it writes into.
+pub const LOCK_NAME: &str = ".pim-writing.lock";
+
+/// The lock of a directory being written into: removed when dropped.
+struct DirLock(PathBuf);
+
+impl Drop for DirLock {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_file(&self.0);
+    }
+}
+
+/// Whether the process that wrote a lock (its id, the lock's content) still runs.
+fn holder_runs(content: &str) -> bool {
+    let Ok(pid) = content.trim().parse::<i32>() else {
+        // a lock being written this instant, or not ours: taken as held
+        return true;
+    };
+    #[cfg(unix)]
+    {
+        // SAFETY: kill with signal 0 only asks whether the process exists.
+        let r = unsafe { libc::kill(pid, 0) };
+        r == 0 || std::io::Error::last_os_error().raw_os_error() != Some(libc::ESRCH)
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = pid;
+        true
+    }
+}
+
+/// Takes the directory's lock (create-new), or refuses naming the directory.
+fn lock_dir(dir: &Path) -> Result<DirLock, Error> {
+    let path = dir.join(LOCK_NAME);
+    for _ in 0..2 {
+        match std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&path)
+        {
+            Ok(mut f) => {
+                let _ = write!(f, "{}", std::process::id());
+                return Ok(DirLock(path));
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {
+                let content = std::fs::read_to_string(&path).unwrap_or_default();
+                if holder_runs(&content) {
+                    break;
+                }
+                // left by a process that ended: taken over
+                let _ = std::fs::remove_file(&path);
+            }
+            Err(e) => return Err(Error::io(path.display().to_string(), &e)),
+        }
+    }
+    Err(write_refused(
+        dir.display().to_string(),
+        format!(
+            "another pim is writing into this directory (it holds {LOCK_NAME}); nothing was written: try again when it has finished"
+        ),
+    ))
+}
 
 /// Whether files that already exist may be replaced.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -88,6 +160,67 @@ pub fn check_targets(
     Ok(())
 }
 
+/// A staging file's name pattern, and the mode a new file gets (0666 less the umask).
+fn staging_builder(prefix: &str) -> tempfile::Builder<'_, 'static> {
+    let mut b = tempfile::Builder::new();
+    b.prefix(prefix).suffix(".part");
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        b.permissions(std::fs::Permissions::from_mode(0o666));
+    }
+    b
+}
+
+/// Writes one output file (a picture given by `--svg`) with the protection of a set:
+/// never one of `inputs` (even with `--force`), never through a link, staged and
+/// renamed, an existing file replaced only under [`Existing::Replace`].
+pub fn write_file_atomically(
+    path: &Path,
+    bytes: Vec<u8>,
+    inputs: &[&Path],
+    existing: Existing,
+) -> Result<PathBuf, Error> {
+    let (dir, name) = check_output(path, inputs, existing)?;
+    let mut written = write_files_atomically(dir, &[(name, bytes)], inputs, Existing::Replace)?;
+    Ok(written.pop().unwrap_or_else(|| path.to_path_buf()))
+}
+
+/// The checks of [`write_file_atomically`], to make before the work whose result it
+/// writes: the path names a file, is none of `inputs`, and does not exist under
+/// [`Existing::Refuse`]. Gives the directory and the file name.
+pub fn check_output<'p>(
+    path: &'p Path,
+    inputs: &[&Path],
+    existing: Existing,
+) -> Result<(&'p Path, &'p str), Error> {
+    let shown = path.display().to_string();
+    let name = path
+        .file_name()
+        .and_then(|n| n.to_str())
+        .ok_or_else(|| Error::refused(format!("{shown} names no file")))?;
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d,
+        _ => Path::new("."),
+    };
+    if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
+        return Err(write_refused(
+            shown,
+            format!(
+                "is the input {}; choose another name, an input is never overwritten",
+                input.display()
+            ),
+        ));
+    }
+    if existing == Existing::Refuse && std::fs::symlink_metadata(path).is_ok() {
+        return Err(write_refused(
+            shown,
+            "already exists; nothing was written: give --force to replace it, or another name",
+        ));
+    }
+    Ok((dir, name))
+}
+
 /// A file staged under a random name, or a replaced file moved aside.
 struct Moved {
     target: PathBuf,
@@ -110,18 +243,18 @@ pub fn write_files_atomically(
     let names: Vec<&str> = files.iter().map(|(n, _)| *n).collect();
     check_targets(dir, &names, inputs, existing)?;
     std::fs::create_dir_all(dir).map_err(|e| Error::io(dir.display().to_string(), &e))?;
+    // held to the last rename; checked again under it
+    let _lock = lock_dir(dir)?;
+    check_targets(dir, &names, inputs, existing)?;
     // 1. stage every file under a random, never-existing name
     let mut staged = Vec::new();
     for (name, bytes) in files {
-        let made = tempfile::Builder::new()
-            .prefix(&format!(".{name}."))
-            .suffix(".part")
-            .tempfile_in(dir)
-            .and_then(|mut f| {
-                f.write_all(bytes)?;
-                f.as_file().sync_all()?;
-                Ok(f.into_temp_path())
-            });
+        let prefix = format!(".{name}.");
+        let made = staging_builder(&prefix).tempfile_in(dir).and_then(|mut f| {
+            f.write_all(bytes)?;
+            f.as_file().sync_all()?;
+            Ok(f.into_temp_path())
+        });
         match made {
             Ok(tmp) => staged.push((tmp, dir.join(name))),
             // dropping `staged` removes the files staged so far

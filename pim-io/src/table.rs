@@ -27,9 +27,9 @@ struct Guarded<R> {
     after_cr: bool,
     /// Bytes handed out so far.
     out_pos: u64,
-    /// (line number, byte offset of its start, whether it is blank or a comment) of the
-    /// lines handed out and not yet claimed by a record.
-    line_starts: VecDeque<(u64, u64, bool)>,
+    /// (line number, byte offset of its start) of the lines handed out and not yet
+    /// claimed by a record, blank and comment lines left out.
+    line_starts: VecDeque<(u64, u64)>,
 }
 
 impl<R> Guarded<R> {
@@ -47,8 +47,8 @@ impl<R> Guarded<R> {
     /// The line on which the record that the parser began at byte `start` really
     /// starts: the first line at or after `start` that is neither blank nor a comment.
     fn line_of(&mut self, start: u64) -> u64 {
-        while let Some(&(line, offset, skippable)) = self.line_starts.front() {
-            if offset < start || skippable {
+        while let Some(&(line, offset)) = self.line_starts.front() {
+            if offset < start {
                 self.line_starts.pop_front();
                 continue;
             }
@@ -77,12 +77,11 @@ impl<R: Read> Read for Guarded<R> {
                 if b == b'\r' {
                     b = b'\n';
                 }
-                if self.since_newline == 0 {
-                    self.line_starts.push_back((
-                        self.lines_done + 1,
-                        self.out_pos + w as u64,
-                        b == b'\n' || b == b'#',
-                    ));
+                // Blank and comment lines are counted (`lines_done`), never stored: a file
+                // of fifty million blank lines holds no more memory than an empty one.
+                if self.since_newline == 0 && b != b'\n' && b != b'#' {
+                    self.line_starts
+                        .push_back((self.lines_done + 1, self.out_pos + w as u64));
                 }
                 if b == b'\n' {
                     self.since_newline = 0;
@@ -346,6 +345,13 @@ impl<R: Read> Table<R> {
         self.reader.get_ref().since_newline > 0
     }
 
+    /// After the last row: the line the file ended on without a line end, if it did
+    /// (a row there may be torn by an interrupted write).
+    pub fn torn_line(&self) -> Option<u64> {
+        let g = self.reader.get_ref();
+        (g.since_newline > 0).then_some(g.lines_done + 1)
+    }
+
     /// The next data row; blank rows (every field empty) are skipped.
     pub fn next_row(&mut self) -> Result<Option<Row<'_>>> {
         self.row_error = false;
@@ -409,9 +415,13 @@ impl<R: Read> Table<R> {
             })?;
             fields.push(text);
         }
+        // A record is handed out only once its line end is read, except the last one of
+        // a file that ends without a line end: that one is on the line still open.
+        let unterminated = self.torn_line() == Some(line);
         Ok(Some(Row {
             source: &self.source,
             line,
+            unterminated,
             headers: &self.headers,
             fields,
         }))
@@ -438,6 +448,8 @@ fn csv_error(source: &str, err: csv::Error) -> Error {
 pub struct Row<'a> {
     source: &'a str,
     pub line: u64,
+    /// The row is the last of a file that ends without a line end (perhaps torn).
+    pub unterminated: bool,
     headers: &'a [String],
     fields: Vec<&'a str>,
 }

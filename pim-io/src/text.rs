@@ -66,8 +66,9 @@ pub enum Axis {
 /// Parses a coordinate in decimal degrees (`45.104575`, `-122.41405`), degrees and
 /// decimal minutes (`45 06.275 N`, `N45°06.275'`) or degrees, minutes and seconds
 /// (`122 24 50.5 W`, `122°24'50.5"W`). A hemisphere letter (N/S for latitude, E/W for
-/// longitude) may stand first or last; S and W are negative. Minutes and seconds must be
-/// below 60, and the result within the axis's range.
+/// longitude) may stand first or last; S and W are negative. A sign together with a
+/// letter is refused (`-45 06.152 S` says south twice or contradicts itself). Minutes and
+/// seconds must be below 60, and the result within the axis's range.
 ///
 /// ```
 /// use pim_io::text::{parse_coordinate, Axis};
@@ -75,6 +76,8 @@ pub enum Axis {
 /// let lon = parse_coordinate("122 24 50.5 W", Axis::Longitude).unwrap();
 /// assert!((lon + 122.414_027_777_8).abs() < 1e-9);
 /// assert!(parse_coordinate("45 75 N", Axis::Latitude).is_err());
+/// assert!(parse_coordinate("-45 06.152 S", Axis::Latitude).is_err());
+/// assert!(parse_coordinate("-45 06.152", Axis::Latitude).unwrap() < 0.0);
 /// ```
 pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
     let (positive, negative, limit, name) = match axis {
@@ -93,11 +96,21 @@ pub fn parse_coordinate(text: &str, axis: Axis) -> Result<f64, String> {
     let upper = t.to_uppercase();
     let mut sign = 1.0;
     let mut rest = upper.as_str();
+    let mut letter = None;
     for (c, s) in [(positive, 1.0), (negative, -1.0)] {
         if let Some(r) = rest.strip_prefix(c).or_else(|| rest.strip_suffix(c)) {
             sign = s;
             rest = r;
+            letter = Some(c);
             break;
+        }
+    }
+    // `-45 06.152 S`: which of the two is meant cannot be told.
+    if let Some(c) = letter {
+        if rest.contains(['-', '+', '−']) {
+            return Err(format!(
+                "`{t}` has both a sign and a hemisphere letter ({c}), which contradict or repeat each other; give one: the letter without the sign, or a signed number without the letter"
+            ));
         }
     }
     let parts: Vec<&str> = rest
@@ -402,6 +415,59 @@ pub fn terminal_escape(s: &str, keep_line_feeds: bool) -> std::borrow::Cow<'_, s
         }
     }
     std::borrow::Cow::Owned(out)
+}
+
+/// The longest note a field log takes, in bytes of UTF-8: far under the reader's line
+/// limit ([`crate::table::MAX_LINE_BYTES`]) even with every character a quote doubled
+/// by CSV quoting and the other cells of the row beside it.
+pub const MAX_NOTE_BYTES: usize = 4096;
+
+/// Why `text` cannot be a free-text cell of a field log (a note), if it cannot: a
+/// control character other than tab (NUL, a line end, an escape, C1 controls), or more
+/// than `max_bytes` bytes. The one check of `pim log`, the walk page and the log reader,
+/// so that what is written is what the reader accepts; the message names the character
+/// by its code, never quoting the text.
+///
+/// ```
+/// use pim_io::text::free_text_problem;
+/// assert!(free_text_problem("gate post, east\tside", 4096).is_none());
+/// assert!(free_text_problem("a\u{0}b", 4096).unwrap().contains("U+0000"));
+/// assert!(free_text_problem(&"x".repeat(5000), 4096).unwrap().contains("4096 bytes"));
+/// ```
+pub fn free_text_problem(text: &str, max_bytes: usize) -> Option<String> {
+    if let Some((i, c)) = text
+        .char_indices()
+        .find(|(_, c)| c.is_control() && *c != '\t')
+    {
+        let what = match c {
+            '\n' | '\r' => "a line end: a note must fit on one line",
+            '\0' => "a NUL character",
+            _ => "a control character",
+        };
+        return Some(format!(
+            "holds {what} (U+{:04X}, at character {}); type it again with plain characters",
+            c as u32,
+            text[..i].chars().count() + 1
+        ));
+    }
+    if text.len() > max_bytes {
+        return Some(format!(
+            "is {} bytes long; a note takes at most {max_bytes} bytes",
+            text.len()
+        ));
+    }
+    None
+}
+
+/// [`free_text_problem`] for bytes that may not be UTF-8 (a form's field as sent).
+pub fn free_text_bytes_problem(bytes: &[u8], max_bytes: usize) -> Option<String> {
+    match std::str::from_utf8(bytes) {
+        Ok(text) => free_text_problem(text, max_bytes),
+        Err(e) => Some(format!(
+            "is not UTF-8 text (a bad byte at byte {}); type it again",
+            e.valid_up_to() + 1
+        )),
+    }
 }
 
 /// Why `id` cannot be an id, if it cannot: a control character, an invisible character

@@ -27,6 +27,9 @@ pub struct TraceFile {
     pub points: usize,
     /// Columns present in the file that the tool does not use.
     pub ignored_columns: Vec<String>,
+    /// The line of a last row left out because it had no line end (a trace still being
+    /// written, or torn by an interrupted write).
+    pub torn_line: Option<u64>,
 }
 
 /// A trace frequency in whole hertz: exact decimal text, sub-hertz digits rounded.
@@ -65,7 +68,8 @@ fn trace_frequency(place: impl Fn() -> Place, text: &str, scale: i32) -> Result<
 }
 
 /// Reads one trace (one sweep) from `reader` into `hold`; `source` names the file in
-/// messages.
+/// messages. A last row without a line end is left out and its line kept in
+/// [`TraceFile::torn_line`], as a field log's is.
 pub fn read_trace_into<R: Read>(source: &str, reader: R, hold: &mut MaxHold) -> Result<TraceFile> {
     let mut table = Table::open(source, reader)?;
     let present: Vec<(&str, i32)> = FREQUENCY_COLUMNS
@@ -110,8 +114,14 @@ pub fn read_trace_into<R: Read>(source: &str, reader: R, hold: &mut MaxHold) -> 
     let mut file = TraceFile {
         points: 0,
         ignored_columns: table.unknown_columns(TRACE_COLUMNS),
+        torn_line: None,
     };
     while let Some(row) = table.next_row()? {
+        if row.unterminated {
+            // a trace still being written, or torn: left out with a note, whatever it holds
+            file.torn_line = Some(row.line);
+            break;
+        }
         let place = |f: &str| row.place(f);
         let freq_text = row
             .text(Some(freq_col))

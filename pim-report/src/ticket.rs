@@ -239,7 +239,11 @@ impl TicketFiles {
             crate::fix::region_claimed(&t.fix)
         ));
         for p in paths {
-            out.push_str(&format!("  {}\n", p.display()));
+            // a path is terminal text like any other: a line end or an escape in it is shown escaped
+            out.push_str(&format!(
+                "  {}\n",
+                pim_io::text::terminal_escape(&p.display().to_string(), false)
+            ));
         }
         out
     }

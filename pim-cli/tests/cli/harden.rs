@@ -467,3 +467,157 @@ fn repeated_readings_are_not_new_evidence() {
     };
     assert!((ellipse(&once) - ellipse(&thrice)).abs() < 1e-6);
 }
+
+/// `--svg` gets the ticket's protection: never an input (even with --force), never an
+/// existing file without --force, never through a planted link.
+#[test]
+fn svg_never_eats_an_input() {
+    let tmp = crate::support::scratch();
+    let dir = tmp.path();
+    let trace = dir.join("trace.csv");
+    let emitters = dir.join("emitters.csv");
+    std::fs::copy(field_log("trace.csv"), &trace).unwrap();
+    std::fs::copy(field_log("emitters.csv"), &emitters).unwrap();
+    let sweep = |svg: &Path, force: bool| {
+        let mut a = vec![
+            "sweep",
+            trace.to_str().unwrap(),
+            "--emitters",
+            emitters.to_str().unwrap(),
+            "--svg",
+            svg.to_str().unwrap(),
+        ];
+        if force {
+            a.push("--force");
+        }
+        pim(&a)
+    };
+    let (t0, e0) = (
+        std::fs::read(&trace).unwrap(),
+        std::fs::read(&emitters).unwrap(),
+    );
+    for input in [&trace, &emitters] {
+        for force in [false, true] {
+            let o = sweep(input, force);
+            assert_eq!(o.status.code(), Some(4), "{}", stderr_of(&o));
+            assert!(stderr_of(&o).contains("is the input"), "{}", stderr_of(&o));
+        }
+    }
+    assert_eq!(std::fs::read(&trace).unwrap(), t0);
+    assert_eq!(std::fs::read(&emitters).unwrap(), e0);
+
+    let svg = dir.join("trace.svg");
+    std::fs::write(&svg, "mine").unwrap();
+    let o = sweep(&svg, false);
+    assert_eq!(o.status.code(), Some(4), "{}", stderr_of(&o));
+    assert!(stderr_of(&o).contains("--force"), "{}", stderr_of(&o));
+    assert_eq!(std::fs::read_to_string(&svg).unwrap(), "mine");
+    let o = sweep(&svg, true);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("<svg"));
+
+    #[cfg(unix)]
+    {
+        let victim = dir.join("victim.txt");
+        std::fs::write(&victim, "keep me").unwrap();
+        let link = dir.join("planted.svg");
+        std::os::unix::fs::symlink(&victim, &link).unwrap();
+        let o = sweep(&link, false);
+        assert_eq!(o.status.code(), Some(4), "{}", stderr_of(&o));
+        let o = sweep(&link, true);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        assert_eq!(std::fs::read_to_string(&victim).unwrap(), "keep me");
+        assert!(!std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
+        // and a link to an input is the input
+        let to_trace = dir.join("to-trace.svg");
+        std::os::unix::fs::symlink(&trace, &to_trace).unwrap();
+        let o = sweep(&to_trace, true);
+        assert_eq!(o.status.code(), Some(4), "{}", stderr_of(&o));
+        assert_eq!(std::fs::read(&trace).unwrap(), t0);
+    }
+    let left: Vec<String> = names(dir)
+        .into_iter()
+        .filter(|n| n.starts_with('.'))
+        .collect();
+    assert!(left.is_empty(), "{left:?}");
+}
+
+/// Two tickets started at once into one new folder: never both succeed, and the folder
+/// holds one run's set, never a mix (40 pairs; the loser exits 4).
+#[test]
+fn racing_tickets_never_mix() {
+    let tmp = crate::support::scratch();
+    let log = field_log("walk.csv");
+    for round in 0..40 {
+        let out = tmp.path().join(format!("t{round}"));
+        let spawn = |site: &str| {
+            std::process::Command::new(crate::support::pim_bin())
+                .args(ticket_args(&out, &log, &["--site", site]))
+                .stdout(std::process::Stdio::null())
+                .stderr(std::process::Stdio::piped())
+                .spawn()
+                .unwrap()
+        };
+        let (a, b) = (spawn("Site-A"), spawn("Site-B"));
+        let (a, b) = (a.wait_with_output().unwrap(), b.wait_with_output().unwrap());
+        let codes = (a.status.code(), b.status.code());
+        assert!(
+            matches!(codes, (Some(0), Some(4)) | (Some(4), Some(0))),
+            "round {round}: {codes:?} {} {}",
+            stderr_of(&a),
+            stderr_of(&b)
+        );
+        let winner = if a.status.success() {
+            "Site-A"
+        } else {
+            "Site-B"
+        };
+        for f in ["ticket.md", "ticket.html"] {
+            let text = std::fs::read_to_string(out.join(f)).unwrap();
+            assert!(
+                text.contains(winner),
+                "round {round}: {f} is not {winner}'s"
+            );
+        }
+        assert!(
+            names(&out).iter().all(|n| !n.starts_with('.')),
+            "{:?}",
+            names(&out)
+        );
+    }
+}
+
+/// A ticket's files get the mode the umask gives (0644 under 022, 0600 under 077), and
+/// a path with a line end is shown escaped in the list of files written.
+#[cfg(unix)]
+#[test]
+fn ticket_files_follow_the_umask_and_paths_are_escaped() {
+    use std::os::unix::fs::PermissionsExt;
+    let tmp = crate::support::scratch();
+    let log = field_log("walk.csv");
+    for (umask, mode) in [("022", 0o644), ("077", 0o600)] {
+        let out = tmp.path().join(format!("u{umask}"));
+        let args: Vec<String> = ticket_args(&out, &log, &[]);
+        let o = std::process::Command::new("sh")
+            .arg("-c")
+            .arg(format!("umask {umask}; exec \"$0\" \"$@\""))
+            .arg(crate::support::pim_bin())
+            .args(&args)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        for f in TICKET {
+            let m = std::fs::metadata(out.join(f)).unwrap().permissions().mode() & 0o777;
+            assert_eq!(m, mode, "{f} under umask {umask}");
+        }
+    }
+    let out = tmp.path().join("two\nlines");
+    let o = run(&ticket_args(&out, &log, &[]));
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let said = stdout_of(&o);
+    assert!(said.contains("two\\x0alines"), "{said}");
+    assert!(!said.contains("two\nlines"), "{said}");
+}

@@ -10,6 +10,7 @@ mod fix;
 mod harden;
 mod invariants;
 mod licence;
+mod log_files;
 mod memory;
 mod plan;
 mod ranking;
@@ -18,6 +19,7 @@ mod sweep;
 mod ticket;
 mod vocabulary;
 mod walk_page;
+mod walk_server;
 
 /// Running the binary under test, and the shared helpers of the `pim-tests` crate.
 mod support {

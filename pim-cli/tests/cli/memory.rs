@@ -91,3 +91,70 @@ fn a_budget_that_is_not_a_number_is_an_argument_error() {
     assert_eq!(out.status.code(), Some(2), "{}", stderr_of(&out));
     assert!(stderr_of(&out).contains("PIM_MEMORY_BUDGET_MB"));
 }
+
+/// A 20,000-receiver study worst first holds its budget: each receiver's rendered
+/// result is set aside in a temporary file as soon as it is done and only its sort key
+/// is kept (run under PIM_MEMORY_BUDGET_MB=500 and a 1 GB address-space limit); the
+/// receivers come out worst first, every one once.
+#[cfg(unix)]
+#[test]
+fn a_worst_first_study_of_20000_receivers_holds_its_budget() {
+    let dir = scratch();
+    let tx = dir.path().join("tx.csv");
+    std::fs::write(
+        &tx,
+        "id,freq_mhz,bw_khz,erp_w,lat,lon,height_m,kind\n\
+         TXA,150.0000,11.25,100,45.100,-122.400,30,land mobile\n\
+         TXB,150.5000,11.25,80,45.101,-122.401,30,land mobile\n\
+         TXC,151.2500,11.25,60,45.102,-122.399,30,land mobile\n\
+         TXD,152.0000,11.25,40,45.099,-122.402,30,land mobile\n",
+    )
+    .unwrap();
+    let rx = dir.path().join("rx.csv");
+    let mut text = String::from("id,freq_mhz,bw_khz,lat,lon\n");
+    for i in 0..20_000u64 {
+        let hz = 148_000_000 + (i * 7919 % 960) * 12_500;
+        text.push_str(&format!(
+            "RX{i:05},{}.{:06},11.25,{:.6},{:.6}\n",
+            hz / 1_000_000,
+            hz % 1_000_000,
+            45.05 + (i % 101) as f64 * 0.001,
+            -122.45 + (i % 97) as f64 * 0.001
+        ));
+    }
+    std::fs::write(&rx, text).unwrap();
+    let out = Command::new("sh")
+        .arg("-c")
+        .arg("ulimit -v 1000000; exec \"$0\" \"$@\"")
+        .arg(pim_bin())
+        .args(["study", "--emitters"])
+        .arg(&tx)
+        .arg("--receivers")
+        .arg(&rx)
+        .args(["--format", "json", "--max-order", "3"])
+        .env("PIM_MEMORY_BUDGET_MB", "500")
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", stderr_of(&out));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let receivers = v["receivers"].as_array().unwrap();
+    assert_eq!(receivers.len(), 20_000);
+    let mut ids: Vec<&str> = receivers
+        .iter()
+        .map(|r| r["id"].as_str().unwrap())
+        .collect();
+    ids.sort();
+    ids.dedup();
+    assert_eq!(ids.len(), 20_000, "every receiver once");
+    // worst first: levels of the first candidates never rise; receivers without one last
+    let firsts: Vec<Option<f64>> = receivers
+        .iter()
+        .map(|r| r["candidates"][0]["in_channel_dbm"].as_f64())
+        .collect();
+    let with: Vec<f64> = firsts.iter().map_while(|l| *l).collect();
+    assert!(!with.is_empty());
+    assert!(with.windows(2).all(|w| w[0] >= w[1]), "not worst first");
+    assert!(receivers[with.len()..]
+        .iter()
+        .all(|r| r["candidates"][0]["in_channel_dbm"].is_null()));
+}

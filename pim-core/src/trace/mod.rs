@@ -14,13 +14,18 @@
 //!
 //! **Grids.** A trace is a uniform grid of frequencies, as a swept or FFT analyser writes
 //! it: the first point, a fixed step and a point count. The first sweep defines the grid
-//! (its points may be rounded to the hertz, so each must lie within a quarter step of the
-//! line through the first point and the one before it); every further sweep must have the
-//! same number of points, each within a quarter step of the same grid point. A sweep with
+//! (its points may be rounded to the hertz): its step is the span over the point count
+//! less one, and every point `i` must lie within a quarter step of `start + i·step`,
+//! checked point by point once the sweep has ended (while it is read, each point is also
+//! checked against the line through the first point and the one before it, to refuse a
+//! wrong file early). A log-spaced or otherwise uneven grid is refused, never taken as
+//! uniform. Every further sweep must have the same number of points, each within a
+//! quarter step of the same grid point. A sweep with
 //! another start, stop or point count is refused, not resampled: resampling would move
 //! peaks by a fraction of a bin and smear the maximum hold.
 //!
-//! Memory: one level per grid point while reading (the maximum-hold array), the floor at
+//! Memory: one level per grid point while reading (the maximum-hold array; the first
+//! sweep's frequencies too, until its grid is checked), the floor at
 //! a fraction of the points, and the peaks with their candidates.
 
 pub mod classify;
@@ -96,6 +101,18 @@ pub enum SweepRefusal {
         /// The points read.
         points: usize,
     },
+    /// A point of the first sweep is not within a quarter step of its place on the
+    /// uniform grid through the first and last points.
+    Uneven {
+        /// The point's index (0 for the first).
+        index: usize,
+        /// Its frequency.
+        freq: Hz,
+        /// Where the uniform grid puts it, Hz.
+        expected_hz: f64,
+        /// The grid step, Hz.
+        step_hz: f64,
+    },
     /// A later sweep ended with fewer points than the first.
     Short {
         /// The points read.
@@ -112,6 +129,18 @@ impl SweepRefusal {
             SweepRefusal::TooFew { points } => format!(
                 "{points} point{} in the trace; a trace needs at least {MIN_POINTS}",
                 if *points == 1 { "" } else { "s" }
+            ),
+            SweepRefusal::Uneven {
+                index,
+                freq,
+                expected_hz,
+                step_hz,
+            } => format!(
+                "point {} ({} MHz) is off the uniform grid through the first and last points (expected {:.6} MHz, step {:.3} kHz, a quarter step allowed): the trace is not on a uniform grid (log-spaced?); export it with a linear frequency axis",
+                index + 1,
+                freq.mhz_text(),
+                expected_hz / 1e6,
+                step_hz / 1e3
             ),
             SweepRefusal::Short {
                 points,
@@ -139,6 +168,8 @@ pub struct MaxHold {
     previous: Option<Hz>,
     /// The current sweep's first point (the grid's start in the first sweep).
     sweep_start: Option<Hz>,
+    /// The first sweep's frequencies, until its end checks them against its grid.
+    first_freqs: Vec<i64>,
 }
 
 impl MaxHold {
@@ -189,6 +220,7 @@ impl MaxHold {
                     }
                 }
                 self.levels.push(level_dbm);
+                self.first_freqs.push(freq.0);
             }
         }
         if i == 0 {
@@ -210,8 +242,21 @@ impl MaxHold {
                 let (Some(first), Some(last)) = (self.sweep_start, self.previous) else {
                     return Err(SweepRefusal::TooFew { points });
                 };
+                let step = (last.0 - first.0) as f64 / (points - 1) as f64;
+                let freqs = std::mem::take(&mut self.first_freqs);
+                for (index, &f) in freqs.iter().enumerate() {
+                    let expected_hz = first.0 as f64 + index as f64 * step;
+                    if (f as f64 - expected_hz).abs() > 0.25 * step {
+                        return Err(SweepRefusal::Uneven {
+                            index,
+                            freq: Hz(f),
+                            expected_hz,
+                            step_hz: step,
+                        });
+                    }
+                }
                 self.start = Some(first);
-                self.step_hz = Some((last.0 - first.0) as f64 / (points - 1) as f64);
+                self.step_hz = Some(step);
             }
             Some(_) => {
                 if points != self.levels.len() {

@@ -1,0 +1,225 @@
+//! `pim walk --log FILE`: the bearing walk on a phone. A small HTTP server serves one
+//! self-contained page and saves each reading through the same check and locked append
+//! as `pim log`, so the log stays the one `pim fix` and `pim ticket` read and several
+//! phones may log to one walk at once.
+//!
+//! Every request needs the random token printed with the page's address (compared in
+//! constant time); every request's Host must name this server by address, and a write's
+//! Origin, when sent, must be the page's own. Nothing but the log is written and nothing
+//! but the page is served. The HTTP layer and its limits are in [`http`]; what the page
+//! asks for in [`state`]. Ctrl-C lets the requests in hand finish (for at most
+//! [`http::SHUTDOWN_GRACE`]), so the log is always whole.
+
+mod http;
+mod state;
+
+use std::io::Write;
+use std::net::SocketAddr;
+use std::path::PathBuf;
+use std::sync::Arc;
+
+use axum::body::Body;
+use axum::extract::State;
+use axum::http::{header, StatusCode};
+use axum::response::{IntoResponse, Response};
+use axum::routing::{get, post};
+use axum::Router;
+use pim_core::error::Error;
+use pim_io::fieldlog::read_spots;
+use serde_json::Value;
+
+use crate::common::{open, CliError, CliResult};
+use crate::fix::FixArgs;
+use state::Walk;
+
+/// The page: one HTML document with its style, script and pictures inline.
+const PAGE: &str = include_str!("page.html");
+/// Threads writing the log and working out fixes (a fix of a long walk takes a while;
+/// the network is served meanwhile, and requests for the same version of the log wait
+/// for the one fix, so a save finds a thread free).
+const WORKERS: usize = 8;
+
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// The field log to add readings to (created with its header when missing).
+    #[arg(long, value_name = "FILE")]
+    pub log: PathBuf,
+    /// Address and port to listen on; 0.0.0.0:PORT serves phones on the same network.
+    #[arg(long, value_name = "ADDR:PORT", default_value = "127.0.0.1:0")]
+    pub listen: SocketAddr,
+    /// Site structures (CSV) to show on the map.
+    #[arg(long, value_name = "FILE")]
+    pub structures: Option<PathBuf>,
+    /// Emitters (CSV) to show on the map.
+    #[arg(long, value_name = "FILE")]
+    pub emitters: Option<PathBuf>,
+    /// Spots one can reach (CSV with lat, lon and an `id` or `name`) to suggest the next one from; by
+    /// default a ring around the fix at the walk's typical range.
+    #[arg(long, value_name = "FILE")]
+    pub candidates: Option<PathBuf>,
+    /// The running fix's estimator, as in `pim fix`.
+    #[command(flatten)]
+    pub fix: FixArgs,
+    #[command(flatten)]
+    pub columns: crate::args::ColumnsArgs,
+}
+
+pub fn run(args: Args) -> CliResult {
+    let columns = crate::common::Columns::new(&args.columns)?;
+    let structures = match &args.structures {
+        Some(p) => crate::common::load_structures(p, &columns)?,
+        None => Vec::new(),
+    };
+    let emitters = match &args.emitters {
+        Some(p) => crate::common::load_emitters(p, &columns)?,
+        None => Vec::new(),
+    };
+    columns.check()?;
+    let candidates = match &args.candidates {
+        Some(p) => Some(read_spots(&p.display().to_string(), open(p)?)?),
+        None => None,
+    };
+    pim_io::append::check_log_path(&args.log)?;
+    let walk = Arc::new(Walk::new(
+        args.log.clone(),
+        args.fix.clone(),
+        structures,
+        emitters,
+        candidates,
+    ));
+    let token = new_token()?;
+    let runtime = tokio::runtime::Builder::new_multi_thread()
+        .worker_threads(2)
+        .max_blocking_threads(WORKERS)
+        .enable_all()
+        .build()
+        .map_err(|e| CliError::Core(Error::refused(format!("cannot start the server: {e}"))))?;
+    runtime.block_on(async {
+        let listener = tokio::net::TcpListener::bind(args.listen)
+            .await
+            .map_err(|e| {
+                Error::argument("--listen", format!("cannot listen on {}: {e}", args.listen))
+            })?;
+        let port = listener
+            .local_addr()
+            .map(|a| a.port())
+            .unwrap_or(args.listen.port());
+        let stop = http::ctrl_c().map_err(|e| {
+            CliError::Core(Error::refused(format!("cannot catch Ctrl-C: {e}")))
+        })?;
+        let shown = if args.listen.ip().is_unspecified() {
+            "127.0.0.1".to_string()
+        } else {
+            match args.listen {
+                SocketAddr::V4(a) => a.ip().to_string(),
+                SocketAddr::V6(a) => format!("[{}]", a.ip()),
+            }
+        };
+        // The address alone on standard output (for scripts); the rest is for the walker.
+        {
+            let mut out = std::io::stdout().lock();
+            writeln!(out, "http://{shown}:{port}/?token={token}")?;
+            out.flush()?;
+        }
+        eprintln_safe!(
+            "pim: saving readings to {}. Open the address above on the phone; Ctrl-C stops.",
+            args.log.display()
+        );
+        if args.listen.ip().is_unspecified() {
+            eprintln_safe!(
+                "pim: from other devices, use this machine's address on the network instead of 127.0.0.1."
+            );
+        }
+        let app = http::guarded(routes(walk), Arc::new(http::Guard { token, port }));
+        http::serve(listener, app, stop).await;
+        CliResult::Ok(())
+    })?;
+    runtime.shutdown_timeout(std::time::Duration::from_millis(300));
+    eprintln_safe!("pim: walk stopped; {} is whole.", args.log.display());
+    Ok(())
+}
+
+/// The page's routes: the page, its state, its map, a save and an undo.
+fn routes(walk: Arc<Walk>) -> Router {
+    Router::new()
+        .route("/", get(page))
+        .route("/state", get(get_state))
+        .route("/map", get(get_map))
+        .route("/reading", post(post_reading))
+        .route("/undo", post(post_undo))
+        .fallback(|| async { http::plain(StatusCode::NOT_FOUND, "not here") })
+        .with_state(walk)
+}
+
+async fn page() -> Response {
+    ([(header::CONTENT_TYPE, "text/html; charset=utf-8")], PAGE).into_response()
+}
+
+fn json_response(status: u16, value: &Value) -> Response {
+    (
+        StatusCode::from_u16(status).unwrap_or(StatusCode::INTERNAL_SERVER_ERROR),
+        [(header::CONTENT_TYPE, "application/json; charset=utf-8")],
+        value.to_string(),
+    )
+        .into_response()
+}
+
+/// Runs `work` on a worker thread (fixes and file locks block).
+async fn blocking<T: Send + 'static>(
+    work: impl FnOnce() -> T + Send + 'static,
+) -> Result<T, Response> {
+    tokio::task::spawn_blocking(work).await.map_err(|_| {
+        http::plain(
+            StatusCode::INTERNAL_SERVER_ERROR,
+            "the request failed on the server",
+        )
+    })
+}
+
+async fn get_state(State(walk): State<Arc<Walk>>) -> Response {
+    match blocking(move || state::state(&walk)).await {
+        Ok(v) => json_response(200, &v),
+        Err(r) => r,
+    }
+}
+
+async fn get_map(State(walk): State<Arc<Walk>>) -> Response {
+    match blocking(move || state::map(&walk)).await {
+        Ok(Some(svg)) => (
+            [(header::CONTENT_TYPE, "image/svg+xml; charset=utf-8")],
+            svg,
+        )
+            .into_response(),
+        Ok(None) => http::plain(StatusCode::NOT_FOUND, "no fix yet"),
+        Err(r) => r,
+    }
+}
+
+async fn post_reading(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    let bytes = match http::read_body(body).await {
+        Ok(b) => b,
+        Err(r) => return r,
+    };
+    match blocking(move || state::save(&walk, &bytes)).await {
+        Ok((status, v)) => json_response(status, &v),
+        Err(r) => r,
+    }
+}
+
+async fn post_undo(State(walk): State<Arc<Walk>>) -> Response {
+    match blocking(move || state::undo(&walk)).await {
+        Ok((status, v)) => json_response(status, &v),
+        Err(r) => r,
+    }
+}
+
+/// A fresh 128-bit token from the system's random source, as hex.
+fn new_token() -> CliResult<String> {
+    let mut bytes = [0u8; 16];
+    getrandom::fill(&mut bytes).map_err(|e| {
+        CliError::Core(Error::refused(format!(
+            "no random source for the access token: {e}"
+        )))
+    })?;
+    Ok(bytes.iter().map(|b| format!("{b:02x}")).collect())
+}
