@@ -115,6 +115,12 @@ const FREE_SPACE_IMPEDANCE_DB: f64 = 25.763_084_3;
 /// The fraction of a product in the channel is never taken below this (−120 dB).
 pub const MIN_CHANNEL_FRACTION: f64 = 1e-12;
 
+/// The lowest level a prediction is shown at, dBm: thermal noise at 290 K is −174 dBm in
+/// 1 Hz, and a level 26 dB under that in 1 Hz is beyond any receiver. The power law,
+/// extrapolated far below its drive, predicts levels under it; outputs show them at this
+/// floor, marked (the ranking keeps the model's values, so that it stays exact).
+pub const LEVEL_FLOOR_DBM: f64 = -200.0;
+
 /// The IEC 62037-1 test tone, dBm (two carriers of 20 W): the drive a junction's
 /// strength is stated at.
 pub const IEC_62037_TONE_DBM: f64 = 43.0;

@@ -127,8 +127,12 @@ pub struct LevelBreakdown {
     pub channel_fraction: f64,
     /// 10·log10 of it, dB.
     pub channel_db: f64,
-    /// What the receiver would hear in its channel, dBm.
+    /// What the receiver would hear in its channel, dBm (the ranking's key; outputs show
+    /// it no lower than [`crate::level::LEVEL_FLOOR_DBM`]).
     pub in_channel_dbm: f64,
+    /// The prediction lies below [`crate::level::LEVEL_FLOOR_DBM`]: outputs show it at the
+    /// floor, marked.
+    pub below_floor: bool,
 }
 
 /// What a heard level says of a candidate.
@@ -625,6 +629,31 @@ fn source_level(
     }
 }
 
+/// Raises a candidate's levels that lie below [`crate::level::LEVEL_FLOOR_DBM`] to it,
+/// marking the breakdown, and moves its calibration shift alike (so that level + shift is
+/// still the level heard).
+fn show_at_floor(c: &mut Candidate) {
+    let floor = crate::level::LEVEL_FLOOR_DBM;
+    let Some(b) = c.breakdown.as_mut() else {
+        return;
+    };
+    if b.in_channel_dbm < floor {
+        if let Some(k) = c.calibration.as_mut() {
+            k.shift_db -= floor - b.in_channel_dbm;
+        }
+        b.in_channel_dbm = floor;
+        b.below_floor = true;
+    }
+    if b.source_level_dbm < floor {
+        b.source_level_dbm = floor;
+        c.level_dbm = Some(floor);
+        if let Some(j) = b.junction.as_mut() {
+            j.level_dbm = j.level_dbm.max(floor);
+            j.law_dbm = j.law_dbm.max(floor);
+        }
+    }
+}
+
 /// The median of a non-empty list.
 fn median(values: &mut [f64]) -> f64 {
     values.sort_by(f64::total_cmp);
@@ -926,6 +955,7 @@ impl<'a> Ranker<'a> {
                             channel_fraction: fraction,
                             channel_db,
                             in_channel_dbm: level - path + channel_db,
+                            below_floor: false,
                         };
                         c.level_dbm = Some(level);
                         let drives: Vec<(u32, f64)> = if c.mechanism == Mechanism::Junction {
@@ -941,6 +971,10 @@ impl<'a> Ranker<'a> {
                         };
                         c.calibration =
                             calibrate(&c, &b, emitters, ranking, j, inputs.heard, &drives);
+                        let b = LevelBreakdown {
+                            below_floor: b.in_channel_dbm < crate::level::LEVEL_FLOOR_DBM,
+                            ..b
+                        };
                         c.implausible = c
                             .calibration
                             .and_then(|k| k.plausibility)
@@ -1005,9 +1039,16 @@ impl<'a> Ranker<'a> {
                 .collect();
         }
         let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
-        let first = tally.first_levelled.as_ref().and_then(heard_key);
+        let floor = crate::level::LEVEL_FLOOR_DBM;
+        let first = tally
+            .first_levelled
+            .as_ref()
+            .and_then(heard_key)
+            .map(|f| f.max(floor));
         for (i, c) in candidates.iter_mut().enumerate() {
             c.rank = i + 1;
+            // ranked on the model's values; shown no lower than the floor
+            show_at_floor(c);
             c.relative_db = match (heard_key(c), first) {
                 (Some(x), Some(f)) => Some(x - f),
                 _ => None,

@@ -86,6 +86,7 @@ fn rounded_breakdown(b: &LevelBreakdown) -> LevelBreakdown {
         channel_fraction: (b.channel_fraction * 1e6).round() / 1e6,
         channel_db: r2(b.channel_db),
         in_channel_dbm: r2(b.in_channel_dbm),
+        below_floor: b.below_floor,
     }
 }
 
@@ -419,6 +420,17 @@ fn signed_text(x: Option<f64>) -> String {
     x.map(|v| signed(v, 1)).unwrap_or_else(|| "—".to_string())
 }
 
+/// A candidate's level relative to the first, `≤` before it where the prediction lies
+/// below the level floor (shown there).
+pub fn relative_text(c: &Candidate) -> String {
+    let text = signed_text(c.relative_db);
+    if c.breakdown.is_some_and(|b| b.below_floor) {
+        format!("≤{text}")
+    } else {
+        text
+    }
+}
+
 /// The path column: the loss as a negative term, marked `*` where the distance was
 /// raised to its floor (the legend says which floor).
 fn path_text(b: Option<&LevelBreakdown>) -> String {
@@ -566,7 +578,7 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         if levelled {
             let b = c.breakdown;
             let j = b.and_then(|b| b.junction);
-            row.push(signed_text(c.relative_db));
+            row.push(relative_text(c));
             if calibrated {
                 row.push(signed_text(c.calibration.and_then(|k| k.required_im3_dbc)));
             }
@@ -746,7 +758,7 @@ pub fn markdown_text(l: &Listing, limit: usize) -> String {
             c.product.freq.mhz(),
             signed(c.product.offset(l.params.target).khz(), 1),
             c.product.bandwidth(&carriers).khz(),
-            signed_text(c.relative_db),
+            relative_text(c),
             md_inline(&who.join("; ")),
         ));
     }

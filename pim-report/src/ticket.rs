@@ -442,9 +442,7 @@ fn build(
             c.product.order().to_string(),
             format!("{:.4}", c.product.freq.mhz()),
             format!("{:+.1}", c.product.offset(heard).khz()),
-            c.relative_db
-                .map(|v| format!("{v:+.1}"))
-                .unwrap_or_else(|| "—".into()),
+            crate::candidates::relative_text(c),
         ];
         if calibrated {
             row.push(level(c.calibration.and_then(|k| k.required_im3_dbc)));
