@@ -6,7 +6,7 @@ use std::io::{self, Write};
 use pim_core::emitter::Emitter;
 use pim_core::freq::Hz;
 use pim_core::rank::formula;
-use pim_core::trace::classify::{ExplainedPeak, PeakKind, Suspect};
+use pim_core::trace::classify::{ExplainedPeak, Miss, PeakKind, Suspect};
 use pim_core::trace::{Sweep, Trace};
 use serde_json::json;
 
@@ -179,6 +179,12 @@ pub fn write_json(
             "ranking_basis": p.ranking.basis(),
             "found": p.found,
             "total": p.ranking.candidates.len(),
+            "nearest": p.misses.iter().map(|(c, why)| json!({
+                "formula": formula(&c.product, r.emitters),
+                "mechanism": c.mechanism,
+                "offset_khz": c.product.offset(p.params.target).khz(),
+                "why": miss_name(*why),
+            })).collect::<Vec<_>>(),
         });
         let head = serde_json::to_string(&head).map_err(std::io::Error::from)?;
         // The head's closing brace is replaced by the candidates.
@@ -266,7 +272,32 @@ fn peak_summary(p: &ExplainedPeak, emitters: &[Emitter]) -> String {
             .first()
             .map(|c| formula(&c.product, emitters))
             .unwrap_or_default(),
-        PeakKind::Unexplained => String::new(),
+        PeakKind::Unexplained => match p.misses.first() {
+            Some((c, why)) => format!(
+                "(nearest: {}, {})",
+                formula(&c.product, emitters),
+                miss_text(p, c, *why)
+            ),
+            None => String::new(),
+        },
+    }
+}
+
+/// Why a near candidate does not explain its peak, in a few words.
+fn miss_text(p: &ExplainedPeak, c: &pim_core::rank::Candidate, why: Miss) -> String {
+    match why {
+        Miss::OffCentre => format!(
+            "centred {:.1} kHz off",
+            c.product.offset(p.params.target).khz().abs()
+        ),
+        Miss::TooWeak => "too weak beside the other peaks".to_string(),
+    }
+}
+
+fn miss_name(why: Miss) -> &'static str {
+    match why {
+        Miss::OffCentre => "off-centre",
+        Miss::TooWeak => "too-weak",
     }
 }
 
@@ -340,7 +371,7 @@ fn peaks_table(sweep: &Sweep, emitters: &[Emitter]) -> String {
             p.kind.name().to_string(),
             peak_summary(p, emitters),
             if p.kind == PeakKind::Product {
-                p.found.to_string()
+                p.ranking.candidates.len().to_string()
             } else {
                 String::new()
             },

@@ -419,6 +419,7 @@ pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::geo::GeoPoint;
     use crate::trace::peaks::Peak;
 
     fn peak(freq: i64) -> Peak {
@@ -478,5 +479,60 @@ mod tests {
                 vec![0, 2]
             );
         }
+    }
+
+    /// The one decision: a product centred 33 kHz from a peak (one 12.5 kHz channel and a
+    /// 1 kHz step give a resolution of 7.25 kHz) reaches it only by its skirt and does not
+    /// explain it; the peak stays unexplained, naming the product as off-centre.
+    #[test]
+    fn an_off_centre_product_does_not_explain_a_peak() {
+        let e = vec![
+            Emitter::new("A", Hz(150_000_000), Hz(25_000)),
+            Emitter::new("B", Hz(153_600_000), Hz(25_000)),
+        ];
+        let x = explain_peaks(
+            &[peak(146_433_000), peak(146_400_000)],
+            &e,
+            &rule(),
+            1_000.0,
+            1,
+        );
+        assert_eq!(x[0].kind, PeakKind::Unexplained);
+        assert!(x[0].ranking.candidates.is_empty());
+        assert_eq!(x[0].misses[0].1, Miss::OffCentre);
+        assert_eq!(x[1].kind, PeakKind::Product);
+        assert_eq!(resolution(Hz(12_500), 1_000.0), Hz(7_250));
+    }
+
+    /// The level test: of three product peaks at −80 dBm whose first candidates are
+    /// predicted at −100, −102 and −130 dBm, the last falls 28 dB short of the others'
+    /// agreement (more than 20 dB) and is left unexplained as too weak.
+    #[test]
+    fn a_product_too_weak_beside_the_others_does_not_explain_its_peak() {
+        let a = 150_000_000;
+        let b = 153_600_000;
+        let c = 170_000_000;
+        let e = vec![
+            Emitter::new("A", Hz(a), Hz(0)).radiating(50.0, GeoPoint::new(45.0, -122.0)),
+            Emitter::new("B", Hz(b), Hz(0)).radiating(50.0, GeoPoint::new(45.001, -122.0)),
+            Emitter::new("C", Hz(c), Hz(0)).radiating(50.0, GeoPoint::new(45.0, -122.001)),
+        ];
+        let mut r = rule();
+        r.placement = Placement::at(Some(GeoPoint::new(45.0005, -122.0005)));
+        let freqs = [2 * a - b, 2 * b - a, 2 * c - b];
+        let peaks: Vec<Peak> = freqs.iter().map(|&f| peak(f)).collect();
+        let mut x = explain_peaks(&peaks, &e, &r, 1_000.0, 1);
+        for (p, level) in x.iter_mut().zip([-100.0, -102.0, -130.0]) {
+            assert_eq!(p.kind, PeakKind::Product);
+            let first = &mut p.ranking.candidates[0];
+            first.breakdown.as_mut().unwrap().in_channel_dbm = level;
+        }
+        judge_levels(&mut x);
+        let kinds: Vec<PeakKind> = x.iter().map(|p| p.kind).collect();
+        assert_eq!(
+            kinds,
+            vec![PeakKind::Product, PeakKind::Product, PeakKind::Unexplained]
+        );
+        assert_eq!(x[2].misses[0].1, Miss::TooWeak);
     }
 }

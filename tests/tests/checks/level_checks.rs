@@ -307,7 +307,9 @@ fn demo_ranks_the_planted_pair_first_with_believable_levels() {
     // floor and is shown there, marked; the ranking still follows the model's values, so
     // the planted pair stays first (the list is not sorted by order alone).
     assert!(junctions.iter().all(|c| c.breakdown.unwrap().below_floor));
-    assert!(junctions.iter().all(|c| c.breakdown.unwrap().in_channel_dbm == -200.0));
+    assert!(junctions
+        .iter()
+        .all(|c| c.breakdown.unwrap().in_channel_dbm == -200.0));
     let b = first.breakdown.unwrap();
     // At the fix the planted pair's drives are a few dBm below 0 dBm (300 W and 100 W
     // some 130 to 290 m away): a −90 dBc joint makes about −184 dBm there, far under its
