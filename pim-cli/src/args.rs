@@ -73,9 +73,21 @@ pub struct CalibrationArgs {
     /// the junction it would need, and those needing an implausible one are flagged.
     #[arg(long, value_name = "DBM", value_parser = ranged(-200.0, 30.0, "dBm"), allow_hyphen_values = true)]
     pub heard_dbm: Option<f64>,
+    /// Width of what was heard, kHz: about 1 for a narrow steady carrier, tens for a wide
+    /// noise-like hump; candidates are weighed by how well their spread matches it.
+    #[arg(long = "heard-width-khz", value_name = "KHZ", value_parser = khz_arg)]
+    pub heard_width: Option<Hz>,
 }
 
 impl CalibrationArgs {
+    /// `model` with the heard width, when given.
+    pub fn weigh(&self, model: LevelModel) -> LevelModel {
+        LevelModel {
+            heard_width: self.heard_width.or(model.heard_width),
+            ..model
+        }
+    }
+
     /// The heard level, at the receiver.
     pub fn heard(&self) -> Vec<HeardLevel> {
         self.heard_dbm

@@ -237,7 +237,7 @@ pub fn run(args: Args) -> CliResult {
                     .and_then(|t| t.measured_exponent())
                     .unwrap_or(1.0)
             }),
-            ..s.junction_model()
+            ..args.calibration.weigh(s.junction_model())
         },
         rx_site,
         heard_dbm: args.calibration.heard_dbm,

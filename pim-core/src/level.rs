@@ -493,6 +493,20 @@ pub struct LevelModel {
     /// Rejection of a transmitter's output network outside its band, dB
     /// ([`TX_BAND_FRACTION`]). Default 40 (common practice, from memory).
     pub tx_out_of_band_rejection_db: f64,
+    /// The width of what was heard, when said: a narrow steady carrier (a few kHz or
+    /// less) or a wide noise-like hump. Candidates are then weighed by how well their
+    /// spread matches it ([`width_mismatch_db`]).
+    pub heard_width: Option<Hz>,
+}
+
+/// How far a product's spread is from the width heard, as a ranking penalty in dB: 10 dB
+/// per decade of ratio between the two, each taken as at least 1 kHz (a steady carrier's
+/// width on an analyser). Our rule: a product ten times wider or narrower than what was
+/// heard ranks as if 10 dB weaker.
+pub fn width_mismatch_db(spread: Hz, heard: Hz) -> f64 {
+    let a = spread.0.max(1_000) as f64;
+    let b = heard.0.max(1_000) as f64;
+    10.0 * (a / b).log10().abs()
 }
 
 impl Default for LevelModel {
@@ -513,6 +527,7 @@ impl Default for LevelModel {
             max_im3_dbc: -60.0,
             unlikely_im3_dbc: -80.0,
             tx_out_of_band_rejection_db: 40.0,
+            heard_width: None,
         }
     }
 }

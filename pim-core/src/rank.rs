@@ -18,6 +18,10 @@
 //! receiving antenna's gain, plus 10·log10 of the channel fraction. With no separate
 //! receiver location the receiver is taken at the junction.
 //!
+//! **What was heard.** With the heard width given ([`LevelModel::heard_width`]: a narrow
+//! steady carrier, or a wide noise-like hump), each candidate ranks by its level less the
+//! mismatch between its spread and that width ([`crate::level::width_mismatch_db`]).
+//!
 //! **Calibration.** Given heard levels ([`HeardLevel`], at the receiver or at points of a
 //! walk), each candidate gets the shift that makes its prediction match (the median over
 //! the points) and, for a junction, the strength it would need: its third-order product
@@ -133,6 +137,9 @@ pub struct LevelBreakdown {
     /// The prediction lies below [`crate::level::LEVEL_FLOOR_DBM`]: outputs show it at the
     /// floor, marked.
     pub below_floor: bool,
+    /// With the heard width given: how far the product's spread is from it, dB
+    /// ([`crate::level::width_mismatch_db`]), taken off its level for the ranking.
+    pub width_mismatch_db: f64,
 }
 
 /// What a heard level says of a candidate.
@@ -180,6 +187,15 @@ pub struct Candidate {
     pub cleared_by_steps: bool,
     /// What the on-air log says about it, when a log was given.
     pub evidence: Option<Evidence>,
+}
+
+impl Candidate {
+    /// The level it ranks by: what the receiver would hear in its channel, less the
+    /// width mismatch when the heard width was given (`None` without a level).
+    pub fn ranking_level_dbm(&self) -> Option<f64> {
+        self.breakdown
+            .map(|b| b.in_channel_dbm - b.width_mismatch_db)
+    }
 }
 
 /// The breakdown of a junction product's level in the earlier three-term form.
@@ -956,6 +972,9 @@ impl<'a> Ranker<'a> {
                             channel_db,
                             in_channel_dbm: level - path + channel_db,
                             below_floor: false,
+                            width_mismatch_db: model
+                                .heard_width
+                                .map_or(0.0, |w| crate::level::width_mismatch_db(spread, w)),
                         };
                         c.level_dbm = Some(level);
                         let drives: Vec<(u32, f64)> = if c.mechanism == Mechanism::Junction {
@@ -991,7 +1010,7 @@ impl<'a> Ranker<'a> {
 
     /// The ranking order (module docs): `Less` when `a` ranks before `b`.
     pub(crate) fn cmp(&self, a: &Candidate, b: &Candidate) -> Ordering {
-        let heard_key = |c: &Candidate| c.breakdown.map(|b| b.in_channel_dbm);
+        let heard_key = Candidate::ranking_level_dbm;
         let by_evidence = match (&a.evidence, &b.evidence) {
             (Some(x), Some(y)) => x.ranking_cmp(y),
             _ => Ordering::Equal,

@@ -171,7 +171,7 @@ impl<'r, 'a> Best<'r, 'a> {
     fn kth_level_held(&self) -> Option<f64> {
         self.kth
             .filter(|c| !c.implausible && !c.away_from_fix)
-            .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
+            .and_then(|c| c.ranking_level_dbm())
     }
 
     /// The K-th candidate, once K are held.
@@ -801,7 +801,7 @@ fn search_own(
 fn kth_level(best: &mut Best) -> Option<f64> {
     best.kth()
         .filter(|c| !c.implausible && !c.away_from_fix)
-        .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
+        .and_then(|c| c.ranking_level_dbm())
 }
 
 /// Each emitter's drive bound at the junction (dBm): the far-field strength of its ERP at

@@ -87,6 +87,7 @@ fn rounded_breakdown(b: &LevelBreakdown) -> LevelBreakdown {
         channel_db: r2(b.channel_db),
         in_channel_dbm: r2(b.in_channel_dbm),
         below_floor: b.below_floor,
+        width_mismatch_db: r2(b.width_mismatch_db),
     }
 }
 

@@ -469,3 +469,83 @@ fn the_path_floor_is_shown_where_the_path_is() {
     let md = run(&["--format", "markdown"]);
     assert!(md.contains("path at its floor"), "{md}");
 }
+
+/// The demo's outputs name the same first suspect: the ticket's table and candidates.csv,
+/// the label of the 146.34 MHz peak in trace.svg, the suspects paragraph, `pim explain`
+/// at the fix and `pim sweep` of the same trace at the fix all put 2·SKP-152 − FIRE-DSP
+/// first.
+#[test]
+fn the_demo_outputs_agree_on_the_first_suspect() {
+    let dir = scratch();
+    let o = pim_in(Some(dir.path()), &["demo", "--out", "t"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let t = dir.path().join("t");
+    let pair = "2·SKP-152 − FIRE-DSP";
+    let md = std::fs::read_to_string(t.join("ticket.md")).unwrap();
+    assert!(md.contains(&format!("| 1 | {pair} |")), "{md}");
+    assert!(
+        md.contains(&format!(
+            "SKP-152 + SKP-157 + FIRE-DSP explain 3 peaks: {pair} at 146.3400 MHz"
+        )),
+        "{md}"
+    );
+    let csv = std::fs::read_to_string(t.join("candidates.csv")).unwrap();
+    let first = csv.lines().nth(1).unwrap();
+    assert!(first.starts_with(&format!("1,{pair},")), "{first}");
+    let svg = std::fs::read_to_string(t.join("trace.svg")).unwrap();
+    assert!(
+        svg.contains(&xml_text(pair)),
+        "trace.svg labels the peak with the pair"
+    );
+    // The fix the demo prints, as the junction of explain and sweep.
+    let out = stdout_of(&o);
+    let fix_line = out
+        .lines()
+        .skip_while(|l| !l.starts_with("Fix by"))
+        .nth(1)
+        .unwrap();
+    let (lat, lon) = fix_line.trim().split_once(", ").unwrap();
+    let emitters = t.join("emitters.csv").display().to_string();
+    let e = pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        &emitters,
+        "--rx-lat",
+        lat,
+        "--rx-lon",
+        lon,
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&e)).unwrap();
+    assert_eq!(v["candidates"][0]["formula"], pair, "{v}");
+    let trace = t.join("trace.csv").display().to_string();
+    let s = pim(&[
+        "sweep",
+        &trace,
+        "--emitters",
+        &emitters,
+        "--rx-lat",
+        lat,
+        "--rx-lon",
+        lon,
+        "--format",
+        "json",
+    ]);
+    assert!(s.status.success(), "{}", stderr_of(&s));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&s)).unwrap();
+    let peak = v["peaks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| (p["freq_mhz"].as_f64().unwrap() - 146.34).abs() < 0.001)
+        .unwrap();
+    assert_eq!(peak["kind"], "product");
+    assert_eq!(peak["candidates"][0]["formula"], pair, "{peak}");
+}
+
+/// Text as SVG writes it (the minus sign and the middle dot pass as they are).
+fn xml_text(s: &str) -> String {
+    s.replace('&', "&amp;").replace('<', "&lt;")
+}

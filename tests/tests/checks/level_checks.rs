@@ -695,3 +695,62 @@ fn fm_voice_share_matches_a_simulated_product() {
         "{linear_db} vs {simulated_db}"
     );
 }
+
+/// What was heard weighs the candidates: a narrow steady carrier matches a product of
+/// unmodulated carriers (a line) rather than one of FM voice (about 22 kHz wide: 10.7 dB
+/// of mismatch at 10 dB per decade, our rule), so with `heard_width` 1 kHz the line ranks
+/// first although predicted 5 dB weaker; without it, the louder FM product leads.
+#[test]
+fn the_heard_width_weighs_the_candidates() {
+    let j = GeoPoint::new(45.0, -122.0);
+    let mk = |id: &str, hz: i64, kind: &str, erp_dbm: f64, az: f64| {
+        let mut e = Emitter::new(id, Hz(hz), Hz(16_000));
+        e.kind = Some(kind.to_string());
+        e.erp_dbm = Some(erp_dbm);
+        e.position = Some(destination(j, az, 100.0));
+        e
+    };
+    // 2A − B = 146.34 MHz (FM voice); 2C − D = 146.34 MHz (unmodulated), 5/3 dB weaker
+    // drives give 5 dB less at third order
+    let em = vec![
+        mk("A", 152_840_000, "repeater", 50.0, 0.0),
+        mk("B", 159_340_000, "repeater", 50.0, 90.0),
+        mk("C", 150_000_000, "cw", 50.0 - 5.0 / 3.0, 180.0),
+        mk("D", 153_660_000, "beacon", 50.0 - 5.0 / 3.0, 270.0),
+    ];
+    let p = SearchParams {
+        max_emitters: 2,
+        ..params(Hz(146_340_000), 3)
+    };
+    let first = |heard_width: Option<Hz>| {
+        let hits = find_products(&carriers(&em), &p);
+        let r = rank_candidates(
+            hits.products,
+            &em,
+            &p,
+            &RankInputs {
+                placement: Placement::at(Some(j)),
+                model: LevelModel {
+                    heard_width,
+                    ..LevelModel::default()
+                },
+                ..RankInputs::default()
+            },
+        );
+        let c = r
+            .candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Junction)
+            .unwrap();
+        (
+            formula(&c.product, &em),
+            c.breakdown.unwrap().width_mismatch_db,
+        )
+    };
+    assert_eq!(first(None), ("2·A − B".to_string(), 0.0));
+    let (f, mismatch) = first(Some(Hz(1_000)));
+    assert_eq!(f, "2·C − D");
+    assert!(mismatch.abs() < 1e-9);
+    // a wide hump of 25 kHz matches the FM product again
+    assert_eq!(first(Some(Hz(25_000))).0, "2·A − B");
+}
