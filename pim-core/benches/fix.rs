@@ -25,6 +25,7 @@ fn readings(n: usize) -> Vec<Reading> {
                 observer,
                 bearing_deg: normalize_bearing_deg(brg + err),
                 sigma_deg: None,
+                position_accuracy_m: None,
             }
         })
         .collect()

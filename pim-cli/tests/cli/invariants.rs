@@ -45,6 +45,7 @@ fn readings(spots: &[(f64, f64, f64)], turn_deg: f64) -> Vec<Reading> {
                 observer,
                 bearing_deg: normalize_bearing_deg(brg + err),
                 sigma_deg: Some(2.0),
+                position_accuracy_m: None,
             }
         })
         .collect()

@@ -65,6 +65,7 @@ fn agrees_with_scipy_and_geographiclib() {
                 observer: GeoPoint::new(o["lat"].as_f64().unwrap(), o["lon"].as_f64().unwrap()),
                 bearing_deg: o["bearing_deg"].as_f64().unwrap(),
                 sigma_deg: sigma,
+                position_accuracy_m: None,
             })
             .collect();
         // SciPy's reference is the maximum-likelihood fix
@@ -296,6 +297,7 @@ fn unobservable_geometry_is_refused() {
             observer: destination(a, 90.0, 100.0 * i as f64),
             bearing_deg: 0.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         })
         .collect();
     let e = class(&parallel);
@@ -309,12 +311,14 @@ fn unobservable_geometry_is_refused() {
             observer: a,
             bearing_deg: 300.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
         Reading {
             line: 3,
             observer: b,
             bearing_deg: 60.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
     ];
     let e = class(&diverging);
@@ -330,12 +334,14 @@ fn unobservable_geometry_is_refused() {
             observer: a,
             bearing_deg: 10.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
         Reading {
             line: 3,
             observer: a,
             bearing_deg: 80.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
     ];
     assert!(class(&same).message.contains("same spot"));
@@ -358,6 +364,7 @@ fn fix_on_the_walked_line_is_refused_or_warned() {
                     observer,
                     bearing_deg: brg,
                     sigma_deg: Some(1.0),
+                    position_accuracy_m: None,
                 }
             })
             .collect()
