@@ -33,9 +33,12 @@ fn json_follows_the_contract() {
     assert!((0.0..180.0).contains(&o_deg));
     assert_eq!(v["residuals"].as_array().unwrap().len(), 8);
     assert_eq!(v["residuals"][0]["line"], 2);
-    // the reading beside the metal shed, line 6 of the log, is the reflection
-    assert_eq!(v["outliers"][0]["line"], 6);
-    assert!(v["outliers"][0]["residual_deg"].as_f64().unwrap() > 30.0);
+    // the reading beside the metal shed, line 6 of the log, is the reflection (set aside
+    // by the leave-one-out rule; with it aside, line 3 stands out from six that agree
+    // within a degree)
+    let outliers = v["outliers"].as_array().unwrap();
+    let shed = outliers.iter().find(|o| o["line"] == 6).unwrap();
+    assert!(shed["residual_deg"].as_f64().unwrap() > 30.0);
     assert!(v["warnings"].is_array());
     // two magnetic readings turned by the WMM declination (about +14° on this site)
     let d = v["declination"].as_array().unwrap();

@@ -1646,8 +1646,7 @@ fn solve(readings: &[Reading], options: &FixOptions, plan: &Plan) -> Result<Stag
     })
 }
 
-/// The robust fit from each of `starts`, keeping the one of lowest objective Σρ(eᵢ/s) at a
-/// common scale s (the median of the fits' scales). With Andrews' loss and σ estimated,
+/// The robust fit from each of `starts`, keeping the one of lowest objective. With Andrews' loss and σ estimated,
 /// each start is first settled by Huber's loss, whose Proposal 2 scale Andrews' fit then
 /// keeps (a redescending loss has several scales that solve Proposal 2, and one started at
 /// a poor scale can give every reading weight 0).
@@ -1677,16 +1676,23 @@ fn fit_robust_best(
         };
         fits.push(f);
     }
-    let mut scales: Vec<f64> = fits.iter().map(|f| f.scale).collect();
-    scales.sort_by(f64::total_cmp);
-    let common = scales[scales.len() / 2].max(MIN_SCALE);
+    // Proposal 2 minimises Huber's joint objective s·Σρ(eᵢ/s) + (n − 2)·β·s/2 in the
+    // position and the scale together (Huber 1981, §7.7): fits from different starts are
+    // compared on it, each at its own scale (with σ known, s = 1 and it is Σρ(eᵢ)).
+    let beta = rho.expected_psi_squared();
     let objective = |f: &Fitted| -> f64 {
-        standardised(model, sigma_rad, f.at)
+        let s = if known { 1.0 } else { f.scale.max(MIN_SCALE) };
+        let sum: f64 = standardised(model, sigma_rad, f.at)
             .iter()
             .zip(set_aside)
             .filter(|(_, a)| !**a)
-            .map(|(e, _)| rho.rho(e / common))
-            .sum()
+            .map(|(e, _)| rho.rho(e / s))
+            .sum();
+        if known {
+            sum
+        } else {
+            s * sum + f.dof.max(0.0) * beta * s / 2.0
+        }
     };
     let mut best: Option<(f64, Fitted)> = None;
     for f in fits {

@@ -1,7 +1,7 @@
 //! Cross-checks of the bearing fix against independent computations and published values.
 //! Each check names its source.
 
-use pim_core::fix::{locate, FixOptions, Loss, Method, Reading, SigmaSource};
+use pim_core::fix::{locate, FixOptions, Loss, Method, OffsetChoice, Reading, SigmaSource};
 use pim_core::geo::{
     destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint, LocalFrame,
 };
@@ -68,9 +68,11 @@ fn agrees_with_scipy_and_geographiclib() {
                 position_accuracy_m: None,
             })
             .collect();
-        // SciPy's reference is the maximum-likelihood fix
+        // SciPy's reference is the maximum-likelihood fix, exact positions, no offset
         let ml = FixOptions {
             method: Method::Ml,
+            position_accuracy_m: Some(0.0),
+            offset: OffsetChoice::None,
             ..Default::default()
         };
         let fix = locate(&readings, &ml).unwrap();
@@ -162,8 +164,10 @@ fn ellipse_coverage_is_honest_and_ml_reaches_the_bound() {
         let errors: Vec<f64> = spots.iter().map(|_| sigma * rng.normal()).collect();
         for given in [true, false] {
             let readings = walk(TRUTH, &spots, &errors, given.then_some(sigma));
+            // the simulated observers stand exactly where logged
             let ml = FixOptions {
                 method: Method::Ml,
+                position_accuracy_m: Some(0.0),
                 ..Default::default()
             };
             let fix = locate(&readings, &ml).unwrap();
