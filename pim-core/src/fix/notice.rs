@@ -122,10 +122,9 @@ impl fmt::Display for FixWarning {
                 f,
                 "σ is given on some readings only: ignored, the scatter is estimated from the residuals"
             ),
-            FixWarning::SigmaContradicted { stated_deg, observed_deg, level } => write!(
+            FixWarning::SigmaContradicted { stated_deg, observed_deg, .. } => write!(
                 f,
-                "the stated bearing σ of {stated_deg:.1}° is contradicted by the residuals, which scatter by {observed_deg:.1}° (χ² test, {:.0} % level): the region is widened to the observed scatter",
-                level * 100.0
+                "the stated bearing σ of {stated_deg:.1}° is contradicted by the residuals, which scatter by {observed_deg:.1}°: the region is widened to the observed scatter"
             ),
             FixWarning::BehindObservers { lines: l } => write!(
                 f,

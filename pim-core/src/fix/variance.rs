@@ -204,7 +204,7 @@ pub fn serial_correlation(u: &[f64]) -> (f64, bool) {
 
 /// Largest number of readings (or spots) for which the AR(1) widening works on the fit's
 /// full residual maker; longer walks use the bias-corrected ρ̂ and the sandwich alone.
-pub const SERIAL_MATRIX_MAX: usize = 400;
+pub const SERIAL_MATRIX_MAX: usize = 120;
 
 /// The AR(1) autocorrelation and the factor the position covariance is widened by, for
 /// standardised residuals `u` in walk order of a fit whose columns are `x` (one row per
