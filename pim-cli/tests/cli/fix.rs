@@ -1,7 +1,7 @@
 //! End-to-end runs of `pim fix`: the demo walk in every format, the JSON contract, the
 //! exports parsed back with independent readers, and each kind of bad walk.
 
-use crate::support::{field_log, pim, stderr_of, stdout_of};
+use crate::support::{field_log, pim, scratch, stderr_of, stdout_of};
 
 fn p(path: std::path::PathBuf) -> String {
     path.display().to_string()
@@ -202,6 +202,66 @@ fn bad_fix_arguments_are_refused() {
         assert_eq!(o.status.code(), Some(2));
         assert!(stderr_of(&o).contains(want), "{}", stderr_of(&o));
     }
+}
+
+/// The observers' position accuracy comes from the log's `accuracy_m`, else
+/// `--position-accuracy-m`, else the stated default, and the fix says which; `--offset`
+/// chooses whether a common offset is estimated.
+#[test]
+fn position_accuracy_and_offset_are_applied() {
+    let log = p(field_log("walk.csv"));
+    let table = stdout_of(&pim(&["fix", "--log", &log]));
+    assert!(
+        table.contains("positions taken as within 10 m (a handheld GPS"),
+        "{table}"
+    );
+    assert!(!table.contains("degrees of freedom"), "{table}");
+    let stated = pim(&[
+        "fix",
+        "--log",
+        &log,
+        "--position-accuracy-m",
+        "3",
+        "--offset",
+        "none",
+        "--format",
+        "json",
+    ]);
+    assert!(stated.status.success(), "{}", stderr_of(&stated));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&stated)).unwrap();
+    assert_eq!(v["position_accuracy"]["source"], "stated");
+    assert_eq!(v["position_accuracy"]["typical_m"], 3.0);
+    assert!(v["offset"].is_null());
+    // a log whose rows carry their own accuracy: the column wins over the option
+    let dir = scratch();
+    let text = std::fs::read_to_string(field_log("walk.csv")).unwrap();
+    let mut lines = text.lines();
+    let mut logged = format!("{},accuracy_m\n", lines.next().unwrap());
+    for l in lines {
+        logged.push_str(&format!("{l},6\n"));
+    }
+    let file = dir.path().join("walk-accuracy.csv");
+    std::fs::write(&file, logged).unwrap();
+    let o = pim(&[
+        "fix",
+        "--log",
+        file.to_str().unwrap(),
+        "--position-accuracy-m",
+        "3",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["position_accuracy"]["source"], "logged");
+    assert_eq!(v["position_accuracy"]["typical_m"], 6.0);
+    let bad = pim(&["fix", "--log", &log, "--position-accuracy-m", "-2"]);
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(
+        stderr_of(&bad).contains("must lie within 0–1000 m"),
+        "{}",
+        stderr_of(&bad)
+    );
 }
 
 /// `pim fix` exports the site beside the fix when given its structures and emitters, as
