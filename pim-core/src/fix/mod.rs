@@ -929,6 +929,12 @@ pub const LEAVE_ONE_OUT_MAX: usize = 8;
 /// the crossings of two lines with the smallest median residual (least median of squares).
 const MEDIAN_STARTS: usize = 4;
 
+/// A crossing is a restart only when its median residual is below this share of the
+/// maximum-likelihood point's: on clean walks a crossing of two lines can beat that point
+/// on the median by chance, never by much; a point the wild readings pulled away loses by
+/// far more.
+const MEDIAN_RESTART_SHARE: f64 = 0.75;
+
 /// How one pass of the solver takes each reading's σ (radians).
 #[derive(Clone, Debug)]
 enum SigmaPlan {
@@ -1051,7 +1057,8 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         bearing_sigma_deg: stated_deg.as_deref().map(rms).unwrap_or(1.0),
         offset_deg: 0.0,
     };
-    let pilot = solve(readings, options, &pilot_plan)?;
+    let pilot = solve(readings, options, &pilot_plan, None)?;
+    let hint = Some((pilot.ml_at, pilot.fitted.at));
     let pilot_at = pilot.model.point(pilot.fitted.at.0, pilot.fitted.at.1);
     let sights = pilot.model.sights(pilot_at);
     let p2: Vec<f64> = accuracy_m
@@ -1142,12 +1149,17 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
             }
         }
     };
-    let mut staged = solve(readings, options, &plan)?;
+    let mut staged = solve(readings, options, &plan, hint)?;
     let mut offset_found = None;
     if estimate_offset {
         if let Some(step) = offset::estimate(&staged) {
             plan.offset_deg += step.step_rad.to_degrees();
-            staged = solve(readings, options, &plan)?;
+            staged = solve(
+                readings,
+                options,
+                &plan,
+                Some((staged.ml_at, staged.fitted.at)),
+            )?;
         }
         offset_found = offset::estimate(&staged).map(|o| (plan.offset_deg, o));
     }
@@ -1328,13 +1340,16 @@ fn serial_check(
 }
 
 /// The crossings of two lines (in front of both observers) whose median standardised
-/// residual, on the plane, is smallest: least median of squares over the crossings, on at
-/// most 24 readings' lines and judged on at most 240 readings (evenly spread over the walk).
+/// residual, on the plane, is smallest and well below that of the point `against`: least
+/// median of squares over the crossings, on at most 24 readings' lines and judged on at
+/// most 240 readings (evenly spread over the walk). A point the wild readings did not
+/// pull has the lowest median already, and no restart is spent on it.
 fn median_starts(
     points: &[(f64, f64)],
     bearings_deg: &[f64],
     sigma_rad: &[f64],
     count: usize,
+    against: (f64, f64),
 ) -> Vec<(f64, f64)> {
     let n = points.len();
     let pick = |k: usize| -> Vec<usize> {
@@ -1348,19 +1363,22 @@ fn median_starts(
     let judges = pick(240);
     let sub_points: Vec<(f64, f64)> = lines.iter().map(|&i| points[i]).collect();
     let sub_bearings: Vec<f64> = lines.iter().map(|&i| bearings_deg[i]).collect();
+    let score = |c: (f64, f64)| -> f64 {
+        let e: Vec<f64> = judges
+            .iter()
+            .map(|&i| {
+                let to = (c.0 - points[i].0).atan2(c.1 - points[i].1).to_degrees();
+                bearing_difference_deg(bearings_deg[i], to).to_radians() / sigma_rad[i]
+            })
+            .collect();
+        median_abs(&e)
+    };
+    let bar = score(against);
     let mut scored: Vec<(f64, (f64, f64))> =
         geometry::forward_crossings(&sub_points, &sub_bearings)
             .into_iter()
-            .map(|c| {
-                let e: Vec<f64> = judges
-                    .iter()
-                    .map(|&i| {
-                        let to = (c.0 - points[i].0).atan2(c.1 - points[i].1).to_degrees();
-                        bearing_difference_deg(bearings_deg[i], to).to_radians() / sigma_rad[i]
-                    })
-                    .collect();
-                (median_abs(&e), c)
-            })
+            .map(|c| (score(c), c))
+            .filter(|(m, _)| *m < MEDIAN_RESTART_SHARE * bar)
             .collect();
     scored.sort_by(|a, b| a.0.total_cmp(&b.0));
     scored.into_iter().take(count).map(|(_, c)| c).collect()
@@ -1437,7 +1455,14 @@ fn leave_one_out(
 
 /// One pass of the solver under `plan`: the maximum-likelihood point from several starts,
 /// the method's fit, and the test of a stated σ.
-fn solve(readings: &[Reading], options: &FixOptions, plan: &Plan) -> Result<Staged> {
+/// `hint`: the maximum-likelihood and the method's points of an earlier pass, where this
+/// one starts.
+fn solve(
+    readings: &[Reading],
+    options: &FixOptions,
+    plan: &Plan,
+    hint: Option<((f64, f64), (f64, f64))>,
+) -> Result<Staged> {
     let n = readings.len();
     let mut warnings = Vec::new();
     let sigma_rad: Vec<f64> = plan.sigma.sigma_rad().to_vec();
@@ -1500,13 +1525,13 @@ fn solve(readings: &[Reading], options: &FixOptions, plan: &Plan) -> Result<Stag
     // at a point a few wild readings hold: it restarts from every crossing of two lines
     // with up to six readings, from the crossings of least median residual with more,
     // and keeps the lowest cost.
-    let mut ml_at = gauss_newton(&model, &base_scale, start)?;
+    let mut ml_at = gauss_newton(&model, &base_scale, hint.map_or(start, |h| h.0))?;
     let starts = if options.ambiguous {
         Vec::new()
     } else if n <= 6 {
         geometry::forward_crossings(&points, &bearings)
     } else {
-        median_starts(&points, &bearings, &sigma_rad, MEDIAN_STARTS)
+        median_starts(&points, &bearings, &sigma_rad, MEDIAN_STARTS, ml_at)
     };
     {
         let mut best = cost(&model, &base_scale, ml_at.0, ml_at.1);
@@ -1539,7 +1564,7 @@ fn solve(readings: &[Reading], options: &FixOptions, plan: &Plan) -> Result<Stag
     } else {
         vec![false; n]
     };
-    let robust_starts: Vec<(f64, f64)> = std::iter::once(ml_at)
+    let robust_starts: Vec<(f64, f64)> = std::iter::once(hint.map_or(ml_at, |h| h.1))
         .chain(
             starts
                 .iter()

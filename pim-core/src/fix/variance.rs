@@ -55,19 +55,37 @@ pub fn spot_groups(points: &[(f64, f64)], radius_m: f64) -> (Vec<usize>, usize) 
         }
         i
     }
-    // sorted along east so the pairs looked at stay few on long walks
-    let mut order: Vec<usize> = (0..n).collect();
-    order.sort_by(|&a, &b| points[a].0.total_cmp(&points[b].0));
-    for (k, &i) in order.iter().enumerate() {
-        for &j in &order[k + 1..] {
-            if points[j].0 - points[i].0 > radius_m {
-                break;
-            }
-            let d = (points[j].0 - points[i].0).hypot(points[j].1 - points[i].1);
-            if d <= radius_m {
-                let (a, b) = (root(&mut parent, i), root(&mut parent, j));
-                if a != b {
-                    parent[a.max(b)] = a.min(b);
+    // a grid of cells the size of the radius: only neighbouring cells are looked at, so
+    // the pairs stay few on long walks
+    let cell = |p: (f64, f64)| {
+        (
+            (p.0 / radius_m).floor() as i64,
+            (p.1 / radius_m).floor() as i64,
+        )
+    };
+    let mut grid: std::collections::HashMap<(i64, i64), Vec<usize>> =
+        std::collections::HashMap::new();
+    for (i, p) in points.iter().enumerate() {
+        grid.entry(cell(*p)).or_default().push(i);
+    }
+    for (i, p) in points.iter().enumerate() {
+        let (cx, cy) = cell(*p);
+        for dx in -1..=1 {
+            for dy in -1..=1 {
+                let Some(near) = grid.get(&(cx + dx, cy + dy)) else {
+                    continue;
+                };
+                for &j in near {
+                    if j <= i {
+                        continue;
+                    }
+                    let d = (points[j].0 - p.0).hypot(points[j].1 - p.1);
+                    if d <= radius_m {
+                        let (a, b) = (root(&mut parent, i), root(&mut parent, j));
+                        if a != b {
+                            parent[a.max(b)] = a.min(b);
+                        }
+                    }
                 }
             }
         }
