@@ -69,7 +69,7 @@ pub struct FixArgs {
     #[arg(long)]
     pub ambiguous: bool,
     /// 95 % radius of the observers' positions in metres, for readings whose log has no
-    /// accuracy_m (0: surveyed spots; default 10 m, a handheld GPS).
+    /// accuracy_m (0: surveyed spots; default 12 m, a handheld GPS).
     #[arg(long, value_name = "M", value_parser = accuracy_arg, allow_hyphen_values = true)]
     pub position_accuracy_m: Option<f64>,
     /// Estimate a common offset on every bearing (antenna mounting, compass).

@@ -407,10 +407,10 @@ fn log_takes_back_and_lists_readings() {
     let o = pim(&["log", "--log", file.to_str().unwrap(), "--list"]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let shown = stdout_of(&o);
-    // the demo walk: 6 of 8 readings carry the robust fix, the shed's reflection set aside
-    // by the leave-one-out rule and line 3 down-weighted against six that agree closely
+    // the demo walk: 7 of 8 readings carry the robust fix, the shed's reflection set aside
+    // by the leave-one-out rule (line 3 down-weighted against six that agree closely)
     assert!(
-        shown.starts_with("Running fix 45.104660, -122.413942 from 6 readings (robust"),
+        shown.starts_with("Running fix 45.104660, -122.413943 from 7 readings (robust"),
         "{shown}"
     );
     assert!(shown.contains("residual °"), "{shown}");

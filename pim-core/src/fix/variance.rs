@@ -33,9 +33,9 @@ pub const SPOT_RADIUS_M: f64 = 3.0;
 
 /// The position accuracy taken when neither the log nor the options state one, metres
 /// (95 % radius): a phone or handheld receiver under open sky is usually within about
-/// 5 m (GPS.gov, from memory), two to three times that under trees or beside buildings
-/// (common practice); 10 m covers a walk along a site's fence.
-pub const DEFAULT_POSITION_ACCURACY_M: f64 = 10.0;
+/// 5 m (GPS.gov, from memory), two to three times that under trees or beside buildings,
+/// where walks round a site often go (common practice); 12 m is 5 m rms on each axis.
+pub const DEFAULT_POSITION_ACCURACY_M: f64 = 12.0;
 
 /// √χ²₂(0.95): the 95 % radius of a circular normal error over its σ per axis.
 pub const RADIUS_95_OVER_SIGMA: f64 = 2.447_746_830_680_816;

@@ -83,15 +83,26 @@ fn run_walks(
     seed: u64,
     options: &FixOptions,
     truth: GeoPoint,
-    mut make: impl FnMut(&mut Rng) -> Vec<Reading>,
+    make: impl FnMut(&mut Rng) -> Vec<Reading>,
     check: impl Fn(&Fix),
 ) -> Tally {
-    let mut rng = Rng::new(seed);
     let mut options = *options;
     if options.position_accuracy_m.is_none() {
         options.position_accuracy_m = Some(0.0);
     }
-    let options = &options;
+    run_walks_as_given(walks, seed, &options, truth, make, check)
+}
+
+/// [`run_walks`] with the options as given: no position accuracy means the default.
+fn run_walks_as_given(
+    walks: usize,
+    seed: u64,
+    options: &FixOptions,
+    truth: GeoPoint,
+    mut make: impl FnMut(&mut Rng) -> Vec<Reading>,
+    check: impl Fn(&Fix),
+) -> Tally {
+    let mut rng = Rng::new(seed);
     let mut t = Tally {
         walks,
         covered: 0,
@@ -371,8 +382,24 @@ fn run_broken(
     says: impl Fn(&Fix) -> bool,
     check: impl Fn(&Fix),
 ) -> Verdict {
+    let mut options = *options;
+    if options.position_accuracy_m.is_none() {
+        options.position_accuracy_m = Some(0.0);
+    }
+    run_broken_as_given(name, seed, &options, make, says, check)
+}
+
+/// [`run_broken`] with the options as given: no position accuracy means the default.
+fn run_broken_as_given(
+    name: &str,
+    seed: u64,
+    options: &FixOptions,
+    make: impl FnMut(&mut Rng) -> Vec<Reading>,
+    says: impl Fn(&Fix) -> bool,
+    check: impl Fn(&Fix),
+) -> Verdict {
     let said = std::cell::Cell::new(0usize);
-    let tally = run_walks(BROKEN_WALKS, seed, options, TRUTH, make, |fix| {
+    let tally = run_walks_as_given(BROKEN_WALKS, seed, options, TRUTH, make, |fix| {
         if says(fix) {
             said.set(said.get() + 1);
         }
@@ -657,6 +684,56 @@ fn position_case(name: &str, seed: u64, ranges: (f64, f64)) {
     );
     covers_or_says(name, &v);
     assert!(v.tally.coverage() <= 0.985, "{}", v.tally.coverage());
+}
+
+/// A phone's position error of 5 m rms per axis that the log does not state (bearing σ
+/// 3° stated): the default accuracy (10 m, 95 %) and the test of the stated σ keep the
+/// region honest or say the scatter contradicts it.
+fn unstated_position_case(name: &str, seed: u64, ranges: (f64, f64)) {
+    let spots: Vec<(f64, f64)> = (0..8)
+        .map(|i| {
+            (
+                i as f64 * 45.0 + 11.0,
+                ranges.0 + (ranges.1 - ranges.0) * ((i * 3) % 8) as f64 / 7.0,
+            )
+        })
+        .collect();
+    let v = run_broken_as_given(
+        name,
+        seed,
+        &FixOptions::default(),
+        |rng| {
+            spots
+                .iter()
+                .enumerate()
+                .map(|(i, &s)| {
+                    let err = 3.0 * rng.normal();
+                    reading_at(rng, i as u64 + 2, s, err, 5.0, None, Some(3.0))
+                })
+                .collect()
+        },
+        |fix| fix.sigma_source == SigmaSource::Contradicted,
+        |_| {},
+    );
+    covers_or_says(name, &v);
+}
+
+#[test]
+fn unstated_position_error_at_10_to_30_m() {
+    unstated_position_case(
+        "position 5 m rms unstated, ranges 10–30 m",
+        1313,
+        (10.0, 30.0),
+    );
+}
+
+#[test]
+fn unstated_position_error_at_40_to_150_m() {
+    unstated_position_case(
+        "position 5 m rms unstated, ranges 40–150 m",
+        1314,
+        (40.0, 150.0),
+    );
 }
 
 #[test]
