@@ -113,8 +113,9 @@ pub struct FixJson<'a> {
     n_used: usize,
     /// How far the region reaches along the ellipse's major axis and across it, m.
     reach_along_axes_m: [f64; 2],
-    /// The laws behind the region: the degrees of freedom of the bearing σ (absent when
-    /// it is taken as known) and the spots.
+    /// The laws behind the region: the degrees of freedom of the bearing σ (null when it
+    /// is taken as known: χ² with 2) and the spots.
+    sigma_dof: Option<f64>,
     spots: usize,
     position_accuracy: pim_core::fix::PositionAccuracy,
     offset: Option<pim_core::fix::Offset>,
@@ -149,6 +150,7 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
             let (a, b) = fix.reach_along_axes_m();
             [a, b]
         },
+        sigma_dof: fix.sigma_dof,
         spots: fix.spots,
         position_accuracy: fix.position_accuracy,
         offset: fix.offset,

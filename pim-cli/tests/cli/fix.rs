@@ -232,6 +232,9 @@ fn position_accuracy_and_offset_are_applied() {
     assert_eq!(v["position_accuracy"]["source"], "stated");
     assert_eq!(v["position_accuracy"]["typical_m"], 3.0);
     assert!(v["offset"].is_null());
+    // σ estimated: the region's law is on record, never on screen
+    assert!(v["sigma_dof"].as_f64().unwrap() >= 1.0);
+    assert!(v["reach_along_axes_m"][0].as_f64().unwrap() > 0.0);
     // a log whose rows carry their own accuracy: the column wins over the option
     let dir = scratch();
     let text = std::fs::read_to_string(field_log("walk.csv")).unwrap();

@@ -293,6 +293,9 @@ pub struct Fix {
     pub spots: usize,
     /// The observers' position accuracy taken.
     pub position_accuracy: PositionAccuracy,
+    /// The degrees of freedom of the bearing scatter the region rests on: the region is
+    /// scaled by 2·F(2, ν) with `Some(ν)`, by χ²₂ with `None` (σ known).
+    pub sigma_dof: Option<f64>,
 }
 
 impl Fix {
@@ -1920,6 +1923,7 @@ fn finish(parts: FixParts) -> Result<Fix> {
         readings: fits,
         warnings,
         offset: None,
+        sigma_dof: dof,
         spots: n,
         position_accuracy: PositionAccuracy {
             source: AccuracySource::Default,
