@@ -1317,26 +1317,34 @@ fn serial_check(
     let keep: Vec<usize> = (0..spots).filter(|g| var[*g] > 0.0).collect();
     // a spot's weighted mean residual over its standard error, and its rows likewise
     let u: Vec<f64> = keep.iter().map(|&g| sum_r[g] / var[g].sqrt()).collect();
-    let (rho_seen, flagged) = variance::serial_correlation(&u);
-    if !flagged {
-        return None;
-    }
     let cols = if with_offset { 3 } else { 2 };
-    let w = if u.len() <= variance::SERIAL_MATRIX_MAX {
-        let x = DMatrix::from_fn(u.len(), cols, |k, c| {
+    let design = (u.len() <= variance::SERIAL_MATRIX_MAX).then(|| {
+        DMatrix::from_fn(u.len(), cols, |k, c| {
             let g = keep[k];
             match c {
                 0 | 1 => sum_j[g][c] / var[g].sqrt(),
                 _ => -var[g].sqrt(),
             }
-        });
-        variance::serial_widening(&x, &u, !f.known).1
-    } else {
-        let a: Vec<[f64; 2]> = keep
-            .iter()
-            .map(|&g| [sum_j[g][0] / var[g].sqrt(), sum_j[g][1] / var[g].sqrt()])
-            .collect();
-        variance::ar1_widening(&a, variance::corrected_rho(rho_seen, u.len()))
+        })
+    });
+    let w = match &design {
+        Some(x) => {
+            if !variance::serial_test_exact(x, &u) {
+                return None;
+            }
+            variance::serial_widening(x, &u, !f.known).1
+        }
+        None => {
+            let (rho_seen, flagged) = variance::serial_correlation(&u);
+            if !flagged {
+                return None;
+            }
+            let a: Vec<[f64; 2]> = keep
+                .iter()
+                .map(|&g| [sum_j[g][0] / var[g].sqrt(), sum_j[g][1] / var[g].sqrt()])
+                .collect();
+            variance::ar1_widening(&a, variance::corrected_rho(rho_seen, u.len()))
+        }
     };
     let (lo, hi) = variance::longest_run(&u);
     Some((first[keep[lo]], last[keep[hi]], w))

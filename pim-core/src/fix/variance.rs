@@ -14,10 +14,11 @@
 //!   σ_W² + m·σ_B², so that the m together carry the information of one spot mean,
 //!   (σ_W²/m + σ_B²)⁻¹: three readings at one spot count as about one.
 //! - **Readings that lean the same way along the walk.** The lag-one autocorrelation of
-//!   the standardised residuals in walk order, tested one-sided with the Ljung–Box
-//!   statistic at one lag (G. M. Ljung and G. E. P. Box, "On a measure of lack of fit in
-//!   time series models", Biometrika 65 (1978) 297–303), Q = n(n + 2)ρ̂²/(n − 1) against
-//!   χ²₁; when it rejects, the region is widened for an AR(1) error: its autocorrelation
+//!   the standardised residuals in walk order, tested one-sided against its exact moments
+//!   for the fit ([`serial_test_exact`], Durbin & Watson 1950), or on walks of more than
+//!   [`SERIAL_MATRIX_MAX`] with the Ljung–Box statistic at one lag (G. M. Ljung and
+//!   G. E. P. Box, "On a measure of lack of fit in time series models", Biometrika 65
+//!   (1978) 297–303), Q = n(n + 2)ρ̂²/(n − 1) against χ²₁; when it rejects, the region is widened for an AR(1) error: its autocorrelation
 //!   found by the method of moments on the fit's own residuals (the ρ whose expected
 //!   lag-one ratio tr(S·MRM)/tr(MRM), M the fit's residual maker, equals the one seen),
 //!   the covariance by the sandwich (XᵀX)⁻¹XᵀRX(XᵀX)⁻¹, and an estimated σ by
@@ -287,6 +288,42 @@ pub fn serial_widening(x: &DMatrix<f64>, u: &[f64], sigma_estimated: bool) -> (f
         }
     }
     (rho, widen.max(1.0))
+}
+
+/// The one-sided test for positive lag-one autocorrelation of the residuals `u` of a fit
+/// with columns `x`, at [`SERIAL_TEST_LEVEL`]: the ratio r = uᵀSu/uᵀu against its exact
+/// mean and variance under independent normal errors for this very fit (J. Durbin and
+/// G. S. Watson, "Testing for serial correlation in least squares regression I",
+/// Biometrika 37 (1950) 409–428: with M the residual maker of rank ν and A = MS,
+/// E r = tr A/ν and var r = 2(ν·tr A² − (tr A)²)/(ν²(ν + 2))), taken as normal. A fit
+/// takes up part of a slow error and leaves its residuals leaning the other way, so the
+/// plain autocorrelation's zero is the wrong mark.
+pub fn serial_test_exact(x: &DMatrix<f64>, u: &[f64]) -> bool {
+    let n = u.len();
+    let p = x.ncols();
+    if n < p + 3 {
+        return false;
+    }
+    let Some(xtx_inv) = (x.transpose() * x).try_inverse() else {
+        return false;
+    };
+    let m = DMatrix::<f64>::identity(n, n) - x * &xtx_inv * x.transpose();
+    let s = DMatrix::from_fn(n, n, |i, j| if i.abs_diff(j) == 1 { 0.5 } else { 0.0 });
+    let a = &m * &s;
+    let nu = (n - p) as f64;
+    let tr = a.trace();
+    let tr2 = (&a * &a).trace();
+    let mean = tr / nu;
+    let var = 2.0 * (nu * tr2 - tr * tr) / (nu * nu * (nu + 2.0));
+    let den: f64 = u.iter().map(|v| v * v).sum();
+    if !(var > 0.0 && den > 0.0) {
+        return false;
+    }
+    let r = u.windows(2).map(|w| w[0] * w[1]).sum::<f64>() / den;
+    let z = statrs::distribution::Normal::new(0.0, 1.0)
+        .map(|d| d.inverse_cdf(1.0 - SERIAL_TEST_LEVEL))
+        .unwrap_or(f64::INFINITY);
+    (r - mean) / var.sqrt() > z
 }
 
 /// The autocorrelation to widen by: ρ̂ corrected for its small-sample bias (1 + 3ρ)/n,
