@@ -5,7 +5,10 @@
 //! binomial standard error at 95 % is 1.1 %, so 92.5–97.5 % tells 95 % from 90 %.
 //! Sources: Huber, *Robust Statistics* (1981) for the robust covariance and scale;
 //! Beale (1960) for the likelihood region; χ² goodness of fit with n − 2 degrees of
-//! freedom for a stated σ; the outlier rule's Bonferroni bound.
+//! freedom for a stated σ; the outlier rule's Bonferroni bound; for walks that break the
+//! independent model, Patterson & Thompson (1971) for spots, Durbin & Watson (1950) for
+//! serial correlation, Gavish & Weiss (1992) for the Cramér–Rao bound, the W3C
+//! Geolocation API for a position's accuracy (95 % radius).
 
 use pim_core::fix::{
     locate, Fix, FixOptions, FixWarning, Loss, Method, Reading, RegionKind, SigmaSource,
