@@ -3,7 +3,7 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use pim_core::fix::{locate, Fix, FixOptions, FixRefusal, Loss, Method};
+use pim_core::fix::{locate, Fix, FixOptions, FixRefusal, Loss, Method, OffsetChoice};
 use pim_io::export::{site_geojson, site_kml, SiteItems};
 use pim_io::fieldlog::{prepare, read_field_log, Prepared};
 use pim_io::track::read_track;
@@ -26,6 +26,16 @@ pub enum MethodArg {
     Ls,
     /// M-estimate that down-weights readings that disagree
     Robust,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum OffsetArg {
+    /// when the walk surrounds the junction and the offset is significant (5 % test)
+    Auto,
+    /// whenever the walk surrounds the junction
+    Estimate,
+    /// never
+    None,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -58,6 +68,25 @@ pub struct FixArgs {
     /// Readings may point either way (antenna with a front/back ambiguity).
     #[arg(long)]
     pub ambiguous: bool,
+    /// 95 % radius of the observers' positions in metres, for readings whose log has no
+    /// accuracy_m (0: surveyed spots; default 12 m, a handheld GPS).
+    #[arg(long, value_name = "M", value_parser = accuracy_arg, allow_hyphen_values = true)]
+    pub position_accuracy_m: Option<f64>,
+    /// Estimate a common offset on every bearing (antenna mounting, compass).
+    #[arg(long, value_enum, default_value_t = OffsetArg::Auto)]
+    pub offset: OffsetArg,
+}
+
+fn accuracy_arg(text: &str) -> Result<f64, String> {
+    let v = pim_io::text::parse_quantity(text, "m")?;
+    if (0.0..=pim_io::fieldlog::MAX_ACCURACY_M).contains(&v) {
+        Ok(v)
+    } else {
+        Err(format!(
+            "position accuracy {text} m must lie within 0–{} m",
+            pim_io::fieldlog::MAX_ACCURACY_M
+        ))
+    }
 }
 
 /// The confidence levels a region is drawn for: below one half a region says less than
@@ -113,6 +142,8 @@ impl Default for FixArgs {
             track: None,
             declination_deg: None,
             ambiguous: false,
+            position_accuracy_m: None,
+            offset: OffsetArg::Auto,
         }
     }
 }
@@ -132,13 +163,19 @@ impl FixArgs {
                 LossArg::Huber => Loss::Huber,
                 LossArg::Andrews => Loss::Andrews,
             },
+            position_accuracy_m: self.position_accuracy_m,
+            offset: match self.offset {
+                OffsetArg::Auto => OffsetChoice::Auto,
+                OffsetArg::Estimate => OffsetChoice::Estimate,
+                OffsetArg::None => OffsetChoice::None,
+            },
         }
     }
 }
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
-    /// Field log: CSV with lat, lon, bearing_deg (and time, north, sigma_deg, level_dbm, note).
+    /// Field log: CSV with lat, lon, bearing_deg (and time, north, sigma_deg, accuracy_m, level_dbm, note).
     #[arg(long, value_name = "FILE")]
     pub log: PathBuf,
     #[command(flatten)]

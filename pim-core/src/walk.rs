@@ -111,7 +111,9 @@ pub fn rank_spots(
     };
     let dof = match fix.sigma_source {
         SigmaSource::Given => None,
-        SigmaSource::Estimated | SigmaSource::Contradicted => Some(fix.n_used as f64 - 1.0),
+        SigmaSource::Estimated | SigmaSource::Contradicted | SigmaSource::Spots => {
+            Some(fix.n_used as f64 - 1.0)
+        }
     };
     let k2 = scale_squared(fix.ellipse.confidence, dof)?;
     let mut scored: Vec<(usize, ScoredSpot)> = Vec::new();

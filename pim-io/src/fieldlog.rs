@@ -1,8 +1,9 @@
 //! The field log of a bearing walk: CSV with a header. Required columns `lat`, `lon`
 //! (WGS84 degrees) and `bearing_deg` (clockwise from north, 0–360 inclusive); optional
 //! `time` (ISO 8601; without an offset it is taken as UTC), `north` (`true` or
-//! `magnetic`, default true), `sigma_deg`, `level_dbm`, `note`. A row may leave `lat` and
-//! `lon` empty when a GPS track is given to place it by its time.
+//! `magnetic`, default true), `sigma_deg`, `accuracy_m` (the position's 95 % radius in
+//! metres, as the W3C Geolocation API reports it), `level_dbm`, `note`. A row may leave
+//! `lat` and `lon` empty when a GPS track is given to place it by its time.
 
 use std::io::Read;
 use std::path::Path;
@@ -28,9 +29,14 @@ pub const LOG_COLUMNS: &[&str] = &[
     "time",
     "north",
     "sigma_deg",
+    "accuracy_m",
     "level_dbm",
     "note",
 ];
+
+/// The coarsest position accuracy accepted, metres (95 % radius): a position worse than
+/// this places no bearing (a phone without satellites reports its cell's size).
+pub const MAX_ACCURACY_M: f64 = 1000.0;
 
 /// The finest bearing σ accepted (degrees): a hand-held directional antenna does not
 /// resolve a bearing to better than about a degree (common practice); 0.1° leaves room
@@ -58,6 +64,8 @@ pub struct LogRow {
     pub north: North,
     pub time: Option<OffsetDateTime>,
     pub sigma_deg: Option<f64>,
+    /// The position's 95 % radius, metres.
+    pub accuracy_m: Option<f64>,
     pub level_dbm: Option<f64>,
     pub note: Option<String>,
 }
@@ -136,6 +144,25 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
         }
         None => None,
     };
+    let accuracy_m = match record.field("accuracy_m") {
+        Some(t) => {
+            let a = parse_finite(|| place("accuracy_m"), t)?;
+            if a < 0.0 {
+                return Err(Error::input(
+                    place("accuracy_m"),
+                    format!("accuracy {t} m must not be negative"),
+                ));
+            }
+            if a > MAX_ACCURACY_M {
+                return Err(Error::input(
+                    place("accuracy_m"),
+                    format!("accuracy {t} m is coarser than {MAX_ACCURACY_M} m: the position places no bearing; wait for a satellite fix"),
+                ));
+            }
+            Some(a)
+        }
+        None => None,
+    };
     let level_dbm = match record.field("level_dbm") {
         Some(t) => {
             let l = parse_finite(|| place("level_dbm"), t)?;
@@ -156,6 +183,7 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
         north,
         time,
         sigma_deg,
+        accuracy_m,
         level_dbm,
         note: match record.field("note") {
             Some(note) => {
@@ -494,6 +522,7 @@ pub fn prepare(
             observer: position,
             bearing_deg: normalize_bearing_deg(bearing),
             sigma_deg: row.sigma_deg,
+            position_accuracy_m: row.accuracy_m,
         });
     }
     if !repeats.is_empty() {
@@ -575,6 +604,10 @@ mod tests {
             (
                 "lat,lon,bearing_deg,sigma_deg\n45,-122,10,-2\n",
                 "walk.csv, line 2, field `sigma_deg`: σ -2° must be above zero",
+            ),
+            (
+                "lat,lon,bearing_deg,accuracy_m\n45,-122,10,-3\n",
+                "walk.csv, line 2, field `accuracy_m`: accuracy -3 m must not be negative",
             ),
             (
                 "lon,bearing_deg\n-122,10\n",

@@ -1,6 +1,6 @@
 //! The words and shapes of a bearing fix's output.
 
-use pim_core::fix::{Fix, Method, RegionKind, SigmaSource};
+use pim_core::fix::{AccuracySource, Fix, Method, RegionKind, SigmaSource};
 use pim_io::fieldlog::Correction;
 
 use crate::text_table::{Align, TextTable};
@@ -19,10 +19,54 @@ pub fn region_claimed(fix: &Fix) -> String {
             e.semi_minor_m,
             e.orientation_deg
         ),
-        RegionKind::Likelihood => format!(
-            "{:.0}% region the likelihood contour, reaching {:.0} m from the fix (the ellipse does not hold here)",
-            e.confidence * 100.0,
-            fix.reach_m()
+        RegionKind::Likelihood => {
+            let (along, across) = fix.reach_along_axes_m();
+            format!(
+                "{:.0}% region reaching {:.0} m along {:.0}° and {:.0} m across (the likelihood contour; the ellipse does not hold here)",
+                e.confidence * 100.0,
+                along,
+                e.orientation_deg,
+                across
+            )
+        }
+    }
+}
+
+/// The bearing σ the region rests on and where it came from, in words (no statistics:
+/// the laws behind the region are in the JSON and the README).
+pub fn sigma_words(fix: &Fix) -> String {
+    match fix.sigma_source {
+        SigmaSource::Given => format!("bearing σ {:.1}° as given", fix.sigma_deg_used),
+        SigmaSource::Estimated => format!(
+            "bearing σ {:.1}° estimated from the residuals (the region widened for the estimate)",
+            fix.sigma_deg_used
+        ),
+        SigmaSource::Contradicted => format!(
+            "bearing σ {:.1}° from the residuals, which contradict the σ given (the region widened)",
+            fix.sigma_deg_used
+        ),
+        SigmaSource::Spots => format!(
+            "bearing σ {:.1}° from the residuals, readings at one spot counted as sharing its error ({} spots)",
+            fix.sigma_deg_used, fix.spots
+        ),
+    }
+}
+
+/// Where the observers' position accuracy came from, in words.
+pub fn accuracy_words(fix: &Fix) -> String {
+    let a = fix.position_accuracy.typical_m;
+    match fix.position_accuracy.source {
+        AccuracySource::Logged => format!("positions as logged (typically within {a:.0} m)"),
+        AccuracySource::Stated => format!("positions within {a:.0} m as stated"),
+        AccuracySource::LoggedAndStated => {
+            format!("positions as logged, else as stated (typically within {a:.0} m)")
+        }
+        AccuracySource::Default => {
+            format!("positions taken as within {a:.0} m (a handheld GPS; none logged or stated)")
+        }
+        AccuracySource::LoggedAndDefault => format!(
+            "positions as logged, else taken as within {:.0} m (a handheld GPS)",
+            pim_core::fix::variance::DEFAULT_POSITION_ACCURACY_M
         ),
     }
 }
@@ -67,6 +111,14 @@ pub struct FixJson<'a> {
     /// How far the region reaches from the fix, m ([`Fix::reach_m`]).
     reach_m: f64,
     n_used: usize,
+    /// How far the region reaches along the ellipse's major axis and across it, m.
+    reach_along_axes_m: [f64; 2],
+    /// The laws behind the region: the degrees of freedom of the bearing σ (null when it
+    /// is taken as known: χ² with 2) and the spots.
+    sigma_dof: Option<f64>,
+    spots: usize,
+    position_accuracy: pim_core::fix::PositionAccuracy,
+    offset: Option<pim_core::fix::Offset>,
     residuals: &'a [pim_core::fix::ReadingFit],
     outliers: Vec<OutlierJson>,
     declination: &'a [Correction],
@@ -94,6 +146,14 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
         region_kind: fix.region_kind,
         reach_m: fix.reach_m(),
         n_used: fix.n_used,
+        reach_along_axes_m: {
+            let (a, b) = fix.reach_along_axes_m();
+            [a, b]
+        },
+        sigma_dof: fix.sigma_dof,
+        spots: fix.spots,
+        position_accuracy: fix.position_accuracy,
+        offset: fix.offset,
         residuals: &fix.readings,
         outliers: fix
             .readings
@@ -120,32 +180,38 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
         fix.position.lat_deg,
         fix.position.lon_deg
     );
-    s.push_str(&format!(
-        "  {:.0}% ellipse {:.1} m × {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m,
-        e.orientation_deg,
-        e.area_m2(),
-        fix.cep_m
-    ));
-    s.push_str(&match fix.sigma_source {
-        SigmaSource::Given => format!("  bearing σ {:.1}° as given (ellipse from χ² with 2 degrees of freedom)\n", fix.sigma_deg_used),
-        SigmaSource::Estimated => format!(
-            "  bearing σ {:.1}° estimated from the residuals (ellipse from F with 2 and {} degrees of freedom)\n",
-            fix.sigma_deg_used,
-            fix.readings.len().saturating_sub(2)
-        ),
-        SigmaSource::Contradicted => format!(
-            "  bearing σ {:.1}° from the residuals, which contradict the σ given (region widened; F with 2 and {} degrees of freedom)\n",
-            fix.sigma_deg_used,
-            fix.readings.len().saturating_sub(2)
-        ),
-    });
-    if fix.region_kind == RegionKind::Likelihood {
-        s.push_str(
-            "  region: the likelihood contour (the ellipse does not hold in this geometry)\n",
-        );
+    match fix.region_kind {
+        RegionKind::Ellipse => s.push_str(&format!(
+            "  {:.0}% ellipse {:.1} m × {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
+            e.confidence * 100.0,
+            e.semi_major_m,
+            e.semi_minor_m,
+            e.orientation_deg,
+            e.area_m2(),
+            fix.cep_m
+        )),
+        RegionKind::Likelihood => {
+            let (along, across) = fix.reach_along_axes_m();
+            s.push_str(&format!(
+                "  {:.0}% region reaches {:.1} m along {:.0}° true and {:.1} m across it (the likelihood contour: the ellipse does not hold in this geometry); CEP {:.1} m\n",
+                e.confidence * 100.0,
+                along,
+                e.orientation_deg,
+                across,
+                fix.cep_m
+            ));
+        }
+    }
+    s.push_str(&format!("  {}\n", sigma_words(fix)));
+    s.push_str(&format!("  {}\n", accuracy_words(fix)));
+    if let Some(o) = &fix.offset {
+        s.push_str(&format!(
+            "  common bearing offset {:+.1}° ({:.0} %: {:+.1}° to {:+.1}°), allowed for in the fix\n",
+            o.offset_deg,
+            o.confidence * 100.0,
+            o.low_deg,
+            o.high_deg
+        ));
     }
     if !corrections.is_empty() {
         let mut sources: Vec<&str> = corrections.iter().map(|c| c.source.as_str()).collect();

@@ -4,7 +4,7 @@
 //! inspect near the fix, how to confirm the cause, and the cautions of tower and RF work.
 
 use pim_core::emitter::{carriers, Carrier, Emitter, Receiver};
-use pim_core::fix::{Fix, RegionKind, SigmaSource};
+use pim_core::fix::{Fix, RegionKind};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
 use pim_core::level::{LevelModel, Mechanism};
@@ -587,8 +587,8 @@ fn build(
     let mut where_points = vec![
         format!("Fix: {:.6}, {:.6} (WGS84), by {} from {} of {} readings.", fix.position.lat_deg, fix.position.lon_deg, method_name(fix.method), fix.n_used, fix.readings.len()),
         format!(
-            "{:.0}% ellipse: {:.1} m by {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; circular error probable {:.1} m.",
-            e.confidence * 100.0, e.semi_major_m, e.semi_minor_m, e.orientation_deg, e.area_m2(), fix.cep_m
+            "{}; circular error probable {:.1} m.",
+            crate::fix::region_claimed(fix), fix.cep_m
         ),
         match fix.region_kind {
             RegionKind::Ellipse => "The ellipse is the region claimed (the bearings are close to linear over it).".to_string(),
@@ -597,11 +597,7 @@ fn build(
                 fix.reach_m()
             ),
         },
-        match fix.sigma_source {
-            SigmaSource::Given => format!("Bearing σ {:.1}° as given.", fix.sigma_deg_used),
-            SigmaSource::Estimated => format!("Bearing σ {:.1}° estimated from the residuals (the ellipse widened for it).", fix.sigma_deg_used),
-            SigmaSource::Contradicted => format!("Bearing σ {:.1}° from the residuals, which contradict the σ given (the region widened for it).", fix.sigma_deg_used),
-        },
+        format!("{}; {}.", upper_first(&crate::fix::sigma_words(fix)), crate::fix::accuracy_words(fix)),
     ];
     if !t.corrections.is_empty() {
         where_points.push(format!(
@@ -1290,4 +1286,13 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         total: distinct_products(&at_fix),
         nothing_explains: crate::candidates::nothing_explains_text(&at_fix, &t.params),
     })
+}
+
+/// The text with its first letter upper case.
+fn upper_first(text: &str) -> String {
+    let mut c = text.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().chain(c).collect(),
+        None => String::new(),
+    }
 }

@@ -69,6 +69,7 @@ const CATALOGUE: &[(&[&str], i32, &str)] = &[
     (&["fix", "--log", "walk-missing-lat.csv"], 3, "pim: walk-missing-lat.csv, line 3, field `lat`: `lon` is given but `lat` is empty"),
     (&["fix", "--log", "walk-nan-lat.csv"], 3, "pim: walk-nan-lat.csv, line 3, field `lat`: `NaN` is not a finite number"),
     (&["fix", "--log", "walk-negative-sigma.csv"], 3, "pim: walk-negative-sigma.csv, line 2, field `sigma_deg`: σ -3° must be above zero"),
+    (&["fix", "--log", "walk-negative-accuracy.csv"], 3, "pim: walk-negative-accuracy.csv, line 2, field `accuracy_m`: accuracy -4 m must not be negative"),
     (&["fix", "--log", "walk-no-rows.csv"], 3, "pim: walk-no-rows.csv: no readings after the header"),
     (&["fix", "--log", "walk-one-reading.csv"], 5, "pim: 1 usable reading: a fix needs at least two bearings from different spots"),
     (&["fix", "--log", "walk-outside-track.csv", "--track", "{F}/walk.gpx"], 3, "pim: walk-outside-track.csv, line 3, field `time`: 2026-11-28T12:00:00Z is outside the track (2026-11-28T09:07:40Z to 2026-11-28T10:22:30Z)"),

@@ -407,9 +407,10 @@ fn log_takes_back_and_lists_readings() {
     let o = pim(&["log", "--log", file.to_str().unwrap(), "--list"]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let shown = stdout_of(&o);
-    // the demo walk: 7 of 8 readings carry the robust fix, the shed's reflection is set aside
+    // the demo walk: 7 of 8 readings carry the robust fix, the shed's reflection set aside
+    // by the leave-one-out rule (line 3 down-weighted against six that agree closely)
     assert!(
-        shown.starts_with("Running fix 45.104574, -122.414040 from 7 readings (robust"),
+        shown.starts_with("Running fix 45.104660, -122.413943 from 7 readings (robust"),
         "{shown}"
     );
     assert!(shown.contains("residual °"), "{shown}");
@@ -670,10 +671,7 @@ fn the_running_fix_names_the_region_it_claims() {
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let out = stdout_of(&o);
-    assert!(
-        out.contains("95% region the likelihood contour, reaching"),
-        "{out}"
-    );
+    assert!(out.contains("95% region reaching"), "{out}");
     assert!(!out.contains("95% ellipse"), "{out}");
     assert!(
         out.contains("warning: the ellipse misses the likelihood contour"),

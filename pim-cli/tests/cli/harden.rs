@@ -420,6 +420,7 @@ fn a_walk_across_the_antimeridian_fixes_like_any_other() {
                 observer,
                 bearing_deg: (back + err).rem_euclid(360.0),
                 sigma_deg: Some(3.0),
+                position_accuracy_m: None,
             }
         })
         .collect()

@@ -45,6 +45,7 @@ fn readings(spots: &[(f64, f64, f64)], turn_deg: f64) -> Vec<Reading> {
                 observer,
                 bearing_deg: normalize_bearing_deg(brg + err),
                 sigma_deg: Some(2.0),
+                position_accuracy_m: None,
             }
         })
         .collect()
@@ -70,8 +71,13 @@ proptest! {
         // The robust scale and weights are iterated to a tolerance: the order of the
         // readings may move the fix by a fraction of a millimetre, never more.
         prop_assert!(moved_m < 1e-3, "{moved_m} m");
-        prop_assert!((a.ellipse.semi_major_m - b.ellipse.semi_major_m).abs() < 1e-6 * a.ellipse.semi_major_m.max(1.0));
-        prop_assert!((a.ellipse.semi_minor_m - b.ellipse.semi_minor_m).abs() < 1e-6 * a.ellipse.semi_minor_m.max(1.0));
+        // The region is the same unless the walk order is evidence: readings that lean
+        // the same way along the walk widen it, and shuffling changes the walk.
+        let leans = |f: &pim_core::fix::Fix| f.warnings.iter().any(|w| matches!(w, pim_core::fix::FixWarning::LeanTheSameWay { .. }));
+        if !leans(&a) && !leans(&b) {
+            prop_assert!((a.ellipse.semi_major_m - b.ellipse.semi_major_m).abs() < 1e-6 * a.ellipse.semi_major_m.max(1.0));
+            prop_assert!((a.ellipse.semi_minor_m - b.ellipse.semi_minor_m).abs() < 1e-6 * a.ellipse.semi_minor_m.max(1.0));
+        }
         let mut la: Vec<(u64, bool)> = a.readings.iter().map(|r| (r.line, r.outlier)).collect();
         let mut lb: Vec<(u64, bool)> = b.readings.iter().map(|r| (r.line, r.outlier)).collect();
         la.sort_unstable();

@@ -33,7 +33,9 @@ pub mod geometry;
 pub mod loss;
 pub mod model;
 pub mod notice;
+mod offset;
 pub mod region;
+pub mod variance;
 
 use argmin::core::{Executor, Jacobian, Operator};
 use argmin::solver::gaussnewton::GaussNewton;
@@ -61,6 +63,9 @@ pub struct Reading {
     pub bearing_deg: f64,
     /// This reading's standard deviation in degrees, when known.
     pub sigma_deg: Option<f64>,
+    /// How well the observer's position is known: the 95 % radius in metres (the W3C
+    /// Geolocation API's `accuracy`), when logged.
+    pub position_accuracy_m: Option<f64>,
 }
 
 impl Reading {
@@ -72,7 +77,14 @@ impl Reading {
             observer,
             bearing_deg,
             sigma_deg,
+            position_accuracy_m: None,
         }
+    }
+
+    /// The same reading with its position's 95 % radius in metres.
+    pub fn with_position_accuracy_m(mut self, accuracy_m: Option<f64>) -> Self {
+        self.position_accuracy_m = accuracy_m;
+        self
     }
 }
 
@@ -122,6 +134,25 @@ pub struct FixOptions {
     pub ambiguous: bool,
     /// The robust estimator's loss.
     pub loss: Loss,
+    /// The 95 % radius of every observer's position in metres, for readings whose log
+    /// gives none; `None` takes [`variance::DEFAULT_POSITION_ACCURACY_M`]; 0 means the
+    /// spots are surveyed.
+    pub position_accuracy_m: Option<f64>,
+    /// Whether to estimate a common bearing offset.
+    pub offset: OffsetChoice,
+}
+
+/// Whether a fix estimates a common offset on every bearing.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum OffsetChoice {
+    /// When the walk surrounds the junction and the offset is significant (Wald test at 5 %).
+    #[default]
+    Auto,
+    /// Whenever the walk surrounds the junction.
+    Estimate,
+    /// Never.
+    None,
 }
 
 impl Default for FixOptions {
@@ -132,6 +163,8 @@ impl Default for FixOptions {
             sigma_deg: None,
             ambiguous: false,
             loss: Loss::Huber,
+            position_accuracy_m: None,
+            offset: OffsetChoice::Auto,
         }
     }
 }
@@ -148,6 +181,47 @@ pub enum SigmaSource {
     /// A σ was stated but the residuals contradict it (χ² test): the region is widened to
     /// the scatter estimated from the residuals, scaled by 2·F(2, n − 2).
     Contradicted,
+    /// Readings share their spot's error: σ within and between spots estimated from the
+    /// residuals (method of moments), the region on the spots' degrees of freedom.
+    Spots,
+}
+
+/// Where the observers' position accuracy came from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AccuracySource {
+    /// Every reading's log row.
+    Logged,
+    /// The options, for every reading.
+    Stated,
+    /// The log where it has one, the options elsewhere.
+    LoggedAndStated,
+    /// Not stated: [`variance::DEFAULT_POSITION_ACCURACY_M`].
+    Default,
+    /// The log where it has one, the default elsewhere.
+    LoggedAndDefault,
+}
+
+/// The position accuracy a fix took for its observers.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct PositionAccuracy {
+    /// Where it came from.
+    pub source: AccuracySource,
+    /// The median over the readings, metres (95 % radius).
+    pub typical_m: f64,
+}
+
+/// A common bearing offset found with the fix.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Offset {
+    /// Every bearing read this much clockwise of the junction, degrees.
+    pub offset_deg: f64,
+    /// The interval's lower end, degrees.
+    pub low_deg: f64,
+    /// The interval's upper end, degrees.
+    pub high_deg: f64,
+    /// The interval's confidence.
+    pub confidence: f64,
 }
 
 /// Which region a fix claims.
@@ -212,6 +286,16 @@ pub struct Fix {
     pub readings: Vec<ReadingFit>,
     /// What the reader of the fix should know.
     pub warnings: Vec<FixWarning>,
+    /// The common bearing offset, when estimated.
+    pub offset: Option<Offset>,
+    /// The spots the readings were taken from (readings within
+    /// [`variance::SPOT_RADIUS_M`] of each other are one).
+    pub spots: usize,
+    /// The observers' position accuracy taken.
+    pub position_accuracy: PositionAccuracy,
+    /// The degrees of freedom of the bearing scatter the region rests on: the region is
+    /// scaled by 2·F(2, ν) with `Some(ν)`, by χ²₂ with `None` (σ known).
+    pub sigma_dof: Option<f64>,
 }
 
 impl Fix {
@@ -234,6 +318,25 @@ impl Fix {
             RegionKind::Ellipse => self.ellipse.semi_major_m,
             RegionKind::Likelihood => ring,
         }
+    }
+
+    /// How far the region claimed reaches from the fix along the ellipse's major axis and
+    /// across it, m (the farther side of each): the semi-axes for the ellipse, the
+    /// contour's own reach otherwise.
+    pub fn reach_along_axes_m(&self) -> (f64, f64) {
+        if self.region_kind == RegionKind::Ellipse {
+            return (self.ellipse.semi_major_m, self.ellipse.semi_minor_m);
+        }
+        let frame = LocalFrame::new(self.position);
+        let t = self.ellipse.orientation_deg.to_radians();
+        self.region
+            .iter()
+            .map(|q| frame.to_local(*q))
+            .fold((0.0, 0.0), |(a, b), (e, n)| {
+                let along = (e * t.sin() + n * t.cos()).abs();
+                let across = (e * t.cos() - n * t.sin()).abs();
+                (f64::max(a, along), f64::max(b, across))
+            })
     }
 }
 
@@ -484,36 +587,56 @@ fn ls_scale(
 /// Most steps of Proposal 2's scale iteration at one set of residuals.
 const SCALE_STEPS: usize = 200;
 
-/// The M-estimate from the maximum-likelihood point `start`: IRLS with weights ψ(u)/u,
-/// u = rᵢ/(σᵢ·s); when the scale is not known it is Huber's Proposal 2, the s solving
-/// Σψ(rᵢ/(σᵢs))² = (n − 2)·E[ψ(Z)²], iterated jointly with the position (Huber 1981,
-/// §7.7).
+/// The M-estimate from `start`: IRLS with weights ψ(u)/u, u = rᵢ/(σᵢ·s); when the scale
+/// is not known it is Huber's Proposal 2, the s solving Σψ(rᵢ/(σᵢs))² = (n − 2)·E[ψ(Z)²],
+/// iterated jointly with the position (Huber 1981, §7.7), started at `initial_scale` (and
+/// held there when its flag says so) or at the normalised median absolute residual.
+/// Readings `set_aside` carry no weight and do not count.
 fn fit_robust(
     model: &BearingModel,
     sigma_rad: &[f64],
     rho: Rho,
     start: (f64, f64),
     known: bool,
+    initial_scale: Option<(f64, bool)>,
+    set_aside: &[bool],
 ) -> Result<Fitted> {
+    let hold = initial_scale.is_some_and(|(_, h)| h);
     let n = sigma_rad.len();
+    let kept = set_aside.iter().filter(|a| !**a).count();
     let beta = rho.expected_psi_squared();
-    let dof = n as f64 - 2.0;
+    let dof = kept as f64 - 2.0;
     let mut at = start;
     let mut s = if known {
         1.0
+    } else if let Some((s0, _)) = initial_scale {
+        s0.max(MIN_SCALE)
     } else {
-        let e = standardised(model, sigma_rad, at);
-        (1.4826 * median_abs(&e) * (n as f64 / dof.max(1.0)).sqrt()).max(MIN_SCALE)
+        let e: Vec<f64> = standardised(model, sigma_rad, at)
+            .into_iter()
+            .zip(set_aside)
+            .filter(|(_, a)| !**a)
+            .map(|(e, _)| e)
+            .collect();
+        (1.4826 * median_abs(&e) * (kept as f64 / dof.max(1.0)).sqrt()).max(MIN_SCALE)
     };
-    let mut weights = vec![1.0; n];
+    let mut weights: Vec<f64> = set_aside
+        .iter()
+        .map(|a| if *a { 0.0 } else { 1.0 })
+        .collect();
     for _ in 0..100 {
         let e = standardised(model, sigma_rad, at);
         let s_before = s;
-        if !known && dof >= 1.0 {
+        if !known && !hold && dof >= 1.0 {
             // the scale solved at these residuals (no geodesic needed), so the outer
             // loop waits only on the point
             for _ in 0..SCALE_STEPS {
-                let sum: f64 = e.iter().map(|x| rho.psi(x / s).powi(2)).sum();
+                let sum: f64 = e
+                    .iter()
+                    .zip(set_aside)
+                    .filter(|(_, a)| !**a)
+                    .map(|(x, _)| rho.psi(x / s).powi(2))
+                    .sum();
                 let next = (s * (sum / (dof * beta)).sqrt()).max(MIN_SCALE);
                 let steady = (next - s).abs() <= 1e-9 * s;
                 s = next;
@@ -522,7 +645,11 @@ fn fit_robust(
                 }
             }
         }
-        let new_weights: Vec<f64> = e.iter().map(|x| rho.weight(x / s)).collect();
+        let new_weights: Vec<f64> = e
+            .iter()
+            .zip(set_aside)
+            .map(|(x, a)| if *a { 0.0 } else { rho.weight(x / s) })
+            .collect();
         if new_weights.iter().filter(|w| **w > 0.0).count() < 2 {
             break;
         }
@@ -545,6 +672,7 @@ fn fit_robust(
             break;
         }
     }
+    let _ = n;
     Ok(Fitted {
         at,
         scale: s,
@@ -741,7 +869,10 @@ fn m_covariance(
         }
         return Some(v);
     }
-    let m2 = u.iter().map(|x| rho.psi(*x).powi(2)).sum::<f64>() / (n - 2.0).max(1.0);
+    // at Proposal 2's scale (and at the squared scale) this is E[ψ²] by construction; it
+    // falls below only where the scale was raised to the floor on σ, which must widen
+    let m2 = (u.iter().map(|x| rho.psi(*x).powi(2)).sum::<f64>() / (n - 2.0).max(1.0))
+        .max(rho.expected_psi_squared());
     match inverse(outer_sum(&a, &dpsi)) {
         Some(w_inv) => Some(scaled(w_inv, k * m2 / m1)),
         None => {
@@ -787,8 +918,112 @@ fn ls_covariance(
     Some(v)
 }
 
+/// The finest bearing σ an estimate may claim, degrees: a hand-held directional antenna
+/// does not resolve a bearing to better than about half a degree (common practice), so a
+/// walk whose few readings happen to agree closely claims no region finer than that.
+pub const SIGMA_FLOOR_DEG: f64 = 0.5;
+
+/// Walks of at most this many readings are searched for one reading that disagrees with
+/// the rest by leaving each out in turn (the robust fit's weights cannot tell a reflection
+/// among so few).
+pub const LEAVE_ONE_OUT_MAX: usize = 8;
+
+/// Starts tried besides the maximum-likelihood point on walks of more than six readings:
+/// the crossings of two lines with the smallest median residual (least median of squares).
+const MEDIAN_STARTS: usize = 4;
+
+/// A crossing is a restart only when its median residual is below this share of the
+/// maximum-likelihood point's: on clean walks a crossing of two lines can beat that point
+/// on the median by chance, never by much; a point the wild readings pulled away loses by
+/// far more.
+const MEDIAN_RESTART_SHARE: f64 = 0.75;
+
+/// How one pass of the solver takes each reading's σ (radians).
+#[derive(Clone, Debug)]
+enum SigmaPlan {
+    /// Stated per reading (with any position error added), tested against the residuals.
+    Stated(Vec<f64>),
+    /// Known up to a common factor the fit estimates.
+    Estimated(Vec<f64>),
+    /// From the spot components: taken as known, the region's law on `dof` degrees of
+    /// freedom (`None`: χ²).
+    Components {
+        sigma_rad: Vec<f64>,
+        dof: Option<f64>,
+    },
+}
+
+impl SigmaPlan {
+    fn sigma_rad(&self) -> &[f64] {
+        match self {
+            SigmaPlan::Stated(s) | SigmaPlan::Estimated(s) => s,
+            SigmaPlan::Components { sigma_rad, .. } => sigma_rad,
+        }
+    }
+}
+
+/// What one pass of the solver is given.
+#[derive(Clone, Debug)]
+struct Plan {
+    sigma: SigmaPlan,
+    /// The bearing σ, degrees, the plan rests on (for `Estimated`, before the fit's factor).
+    bearing_sigma_deg: f64,
+    /// The common offset taken off every bearing, degrees.
+    offset_deg: f64,
+}
+
+/// One pass of the solver, ready to be finished.
+struct Staged {
+    model: BearingModel,
+    sigma_rad: Vec<f64>,
+    fitted: Fitted,
+    sigma_source: SigmaSource,
+    ml_at: (f64, f64),
+    flipped: Vec<bool>,
+    set_aside: Vec<bool>,
+    warnings: Vec<FixWarning>,
+    /// The region's law when the plan sets it (spot components).
+    law_dof: Option<Option<f64>>,
+}
+
+/// Each reading's position accuracy (95 % radius, metres) and where the figures came from.
+fn position_accuracies(readings: &[Reading], options: &FixOptions) -> (Vec<f64>, AccuracySource) {
+    let logged = readings
+        .iter()
+        .filter(|r| r.position_accuracy_m.is_some())
+        .count();
+    let fill = options
+        .position_accuracy_m
+        .unwrap_or(variance::DEFAULT_POSITION_ACCURACY_M);
+    let source = if logged == readings.len() {
+        AccuracySource::Logged
+    } else if options.position_accuracy_m.is_some() {
+        if logged == 0 {
+            AccuracySource::Stated
+        } else {
+            AccuracySource::LoggedAndStated
+        }
+    } else if logged == 0 {
+        AccuracySource::Default
+    } else {
+        AccuracySource::LoggedAndDefault
+    };
+    (
+        readings
+            .iter()
+            .map(|r| r.position_accuracy_m.unwrap_or(fill).max(0.0))
+            .collect(),
+        source,
+    )
+}
+
 /// Fixes the junction from `readings`. Refuses when the bearings cannot fix a point, or
 /// when the region they support does not close.
+///
+/// Three passes at most: the antenna's σ alone (the pilot); then each reading's σ with
+/// its position error at the pilot's ranges, the spots' shared error and, when chosen,
+/// a common offset; then, with an offset, once more at the offset found there. Readings
+/// that lean the same way along the walk widen the region of the last pass.
 pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
     let n = readings.len();
     if n < 2 {
@@ -799,25 +1034,449 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
             confidence: options.confidence,
         });
     }
-    let mut warnings = Vec::new();
-
+    let mut notes = Vec::new();
     // σ per reading: the option, else the log's where every reading has one.
-    let given: Option<Vec<f64>> = match options.sigma_deg {
+    let stated_deg: Option<Vec<f64>> = match options.sigma_deg {
         Some(s) => Some(vec![s; n]),
         None => readings.iter().map(|r| r.sigma_deg).collect(),
     };
-    if given.is_none() && readings.iter().any(|r| r.sigma_deg.is_some()) {
-        warnings.push(FixWarning::SigmaOnSomeReadings);
+    if stated_deg.is_none() && readings.iter().any(|r| r.sigma_deg.is_some()) {
+        notes.push(FixWarning::SigmaOnSomeReadings);
     }
-    let sigma_rad: Vec<f64> = match &given {
-        Some(s) => s.iter().map(|d| d.to_radians()).collect(),
-        None => vec![1.0; n],
-    };
-    if given.is_none() && n < 3 {
+    if stated_deg.is_none() && n < 3 {
         return Err(FixRefusal::TwoBearingsWithoutSigma);
     }
-
     geometry::check_spread_of_bearings(readings)?;
+
+    let rms = |s: &[f64]| (s.iter().map(|x| x * x).sum::<f64>() / s.len() as f64).sqrt();
+    let (accuracy_m, accuracy_source) = position_accuracies(readings, options);
+    let floor = SIGMA_FLOOR_DEG.to_radians();
+
+    let pilot_plan = Plan {
+        sigma: match &stated_deg {
+            Some(s) => SigmaPlan::Stated(s.iter().map(|d| d.to_radians()).collect()),
+            None => SigmaPlan::Estimated(vec![1.0; n]),
+        },
+        bearing_sigma_deg: stated_deg.as_deref().map(rms).unwrap_or(1.0),
+        offset_deg: 0.0,
+    };
+    let pilot = solve(readings, options, &pilot_plan, None)?;
+    let hint = Some((pilot.ml_at, pilot.fitted.at));
+    let pilot_at = pilot.model.point(pilot.fitted.at.0, pilot.fitted.at.1);
+    let sights = pilot.model.sights(pilot_at);
+    let p2: Vec<f64> = accuracy_m
+        .iter()
+        .zip(&sights)
+        .map(|(a, s)| (a / variance::RADIUS_95_OVER_SIGMA / s.distance_m.max(1.0)).powi(2))
+        .collect();
+    let points: Vec<(f64, f64)> = pilot
+        .model
+        .lines
+        .iter()
+        .map(|l| l.observer_local_m)
+        .collect();
+    let (group, spots) = variance::spot_groups(&points, variance::SPOT_RADIUS_M);
+
+    // A common offset: estimated when the walk surrounds the junction and the offset the
+    // pilot shows is significant (or when asked), never when it cannot be told from the
+    // position.
+    let surrounds = offset::surrounds(&sights);
+    let pilot_offset = offset::estimate(&pilot);
+    let estimate_offset = match options.offset {
+        OffsetChoice::None => false,
+        OffsetChoice::Estimate | OffsetChoice::Auto if !surrounds => {
+            if options.offset == OffsetChoice::Estimate {
+                notes.push(FixWarning::OffsetNotObservable);
+            }
+            false
+        }
+        OffsetChoice::Estimate => pilot_offset.is_some(),
+        OffsetChoice::Auto => pilot_offset
+            .as_ref()
+            .is_some_and(|o| (o.step_rad / o.se_rad).abs() > offset::AUTO_TEST_Z),
+    };
+    let offset_deg = match (&pilot_offset, estimate_offset) {
+        (Some(o), true) => o.step_rad.to_degrees(),
+        _ => 0.0,
+    };
+
+    // Each reading's σ: its position error at the pilot's range, and the spots' shared
+    // error when a spot holds more than one reading.
+    let (r, _) = pilot.model.residuals_and_jacobian(pilot_at);
+    let r_adj: Vec<f64> = r.iter().map(|x| x - offset_deg.to_radians()).collect();
+    // the pilot's outliers would pass for spot errors: clipped at three robust σ
+    let clip = 3.0 * 1.4826 * median_abs(&r_adj).max(1e-12);
+    let r_clip: Vec<f64> = r_adj.iter().map(|x| x.clamp(-clip, clip)).collect();
+    let stated_rad2 = stated_deg.as_deref().map(|s| rms(s).to_radians().powi(2));
+    let comps = variance::components(
+        &r_clip,
+        &group,
+        spots,
+        &p2,
+        stated_rad2,
+        estimate_offset as usize,
+    );
+    let mut plan = match (&comps, &stated_deg) {
+        (Some(c), _) => {
+            let v = variance::reading_variances(c, &group, spots, &p2);
+            Plan {
+                sigma: SigmaPlan::Components {
+                    sigma_rad: v.iter().map(|x| x.sqrt().max(floor)).collect(),
+                    dof: c.dof,
+                },
+                bearing_sigma_deg: (c.within + c.between)
+                    .sqrt()
+                    .to_degrees()
+                    .max(SIGMA_FLOOR_DEG),
+                offset_deg,
+            }
+        }
+        (None, Some(s)) => Plan {
+            sigma: SigmaPlan::Stated(
+                s.iter()
+                    .zip(&p2)
+                    .map(|(d, p)| (d.to_radians().powi(2) + p).sqrt())
+                    .collect(),
+            ),
+            bearing_sigma_deg: rms(s),
+            offset_deg,
+        },
+        (None, None) => {
+            let s1 = pilot.fitted.scale;
+            let mean_p2 = p2.iter().sum::<f64>() / n as f64;
+            let b0 = (s1 * s1 - mean_p2).max(floor * floor).sqrt();
+            Plan {
+                sigma: SigmaPlan::Estimated(p2.iter().map(|p| (b0 * b0 + p).sqrt()).collect()),
+                bearing_sigma_deg: b0.to_degrees(),
+                offset_deg,
+            }
+        }
+    };
+    let mut staged = solve(readings, options, &plan, hint)?;
+    let mut offset_found = None;
+    if estimate_offset {
+        if let Some(step) = offset::estimate(&staged) {
+            plan.offset_deg += step.step_rad.to_degrees();
+            staged = solve(
+                readings,
+                options,
+                &plan,
+                Some((staged.ml_at, staged.fitted.at)),
+            )?;
+        }
+        offset_found = offset::estimate(&staged).map(|o| (plan.offset_deg, o));
+    }
+    let mut widen = 1.0;
+    let dof_spent = if offset_found.is_some() { 1.0 } else { 0.0 };
+    let offset = match offset_found {
+        Some((deg, o)) => {
+            widen *= o.widen;
+            let dof = match staged.law_dof {
+                Some(d) => d,
+                None if staged.fitted.known => None,
+                None => Some(staged.fitted.dof - 1.0),
+            };
+            let q = quantile_two_sided(options.confidence, dof);
+            let half = q * o.se_rad.to_degrees();
+            let found = Offset {
+                offset_deg: deg + o.step_rad.to_degrees(),
+                low_deg: deg + o.step_rad.to_degrees() - half,
+                high_deg: deg + o.step_rad.to_degrees() + half,
+                confidence: options.confidence,
+            };
+            notes.push(FixWarning::CommonOffset {
+                offset_deg: found.offset_deg,
+                low_deg: found.low_deg,
+                high_deg: found.high_deg,
+            });
+            Some(found)
+        }
+        None => None,
+    };
+    if let Some(c) = &comps {
+        if c.between > 0.0 {
+            notes.push(FixWarning::SpotsShareError {
+                spots,
+                readings: n,
+                between_deg: c.between.sqrt().to_degrees(),
+                within_deg: c.within.sqrt().to_degrees(),
+            });
+        }
+        // one or no degree of freedom between spots: a spot error can hide in them
+        if (spots as f64) < 4.0 + dof_spent {
+            notes.push(FixWarning::TooFewSpots { spots });
+        }
+    }
+
+    // Readings that lean the same way along the walk.
+    let serial = serial_check(&staged, &group, spots, dof_spent > 0.0);
+    if let Some((first, last, w)) = serial {
+        widen *= w;
+        notes.push(FixWarning::LeanTheSameWay {
+            first_line: readings[first].line,
+            last_line: readings[last].line,
+            widened_by: w.sqrt(),
+        });
+    }
+
+    let Staged {
+        model,
+        sigma_rad,
+        mut fitted,
+        sigma_source,
+        ml_at,
+        flipped,
+        set_aside,
+        warnings,
+        law_dof,
+    } = staged;
+    // the floor on an estimated σ
+    if !fitted.known && fitted.scale * plan.bearing_sigma_deg < SIGMA_FLOOR_DEG {
+        fitted.scale = SIGMA_FLOOR_DEG / plan.bearing_sigma_deg;
+    }
+    let mut all_warnings = notes;
+    all_warnings.extend(warnings);
+    let mut fix = finish(FixParts {
+        model: &model,
+        readings,
+        method: options.method,
+        rho: match options.method {
+            Method::Robust => Rho::from(options.loss),
+            Method::Ml | Method::Ls => Rho::Squared,
+        },
+        confidence: options.confidence,
+        sigma_rad: &sigma_rad,
+        bearing_sigma_deg: plan.bearing_sigma_deg,
+        fitted,
+        sigma_source,
+        ml_at,
+        flipped: &flipped,
+        set_aside: &set_aside,
+        warnings: all_warnings,
+        widen,
+        law_dof,
+        dof_spent,
+    })?;
+    fix.offset = offset;
+    fix.spots = spots;
+    fix.position_accuracy = PositionAccuracy {
+        source: accuracy_source,
+        typical_m: {
+            let mut a = accuracy_m.clone();
+            a.sort_by(f64::total_cmp);
+            a[a.len() / 2]
+        },
+    };
+    Ok(fix)
+}
+
+/// The two-sided quantile of the normal (`dof` `None`) or Student's t.
+fn quantile_two_sided(confidence: f64, dof: Option<f64>) -> f64 {
+    let p = 0.5 + 0.5 * confidence;
+    match dof {
+        Some(d) if d >= 1.0 => StudentsT::new(0.0, 1.0, d)
+            .map(|t| t.inverse_cdf(p))
+            .unwrap_or(f64::NAN),
+        _ => Normal::new(0.0, 1.0)
+            .map(|z| z.inverse_cdf(p))
+            .unwrap_or(f64::NAN),
+    }
+}
+
+/// The serial test on a pass's standardised residuals in walk order (spot means where
+/// spots hold several readings): `None`, or the run of readings that lean the same way
+/// and the factor the covariance is widened by.
+fn serial_check(
+    staged: &Staged,
+    group: &[usize],
+    spots: usize,
+    with_offset: bool,
+) -> Option<(usize, usize, f64)> {
+    let f = &staged.fitted;
+    let at = staged.model.point(f.at.0, f.at.1);
+    let (r, j) = staged.model.residuals_and_jacobian(at);
+    let s = if f.known { 1.0 } else { f.scale };
+    // per spot, in walk order: the mean residual and Jacobian over their spread
+    let mut sum_r = vec![0.0; spots];
+    let mut sum_j = vec![[0.0; 2]; spots];
+    let mut var = vec![0.0; spots];
+    let mut first = vec![usize::MAX; spots];
+    let mut last = vec![0; spots];
+    for i in 0..r.len() {
+        if staged.set_aside[i] || f.weights[i] < 0.5 {
+            continue;
+        }
+        let g = group[i];
+        let w = 1.0 / (staged.sigma_rad[i] * s).powi(2);
+        sum_r[g] += r[i] * w;
+        sum_j[g] = [sum_j[g][0] + j[i][0] * w, sum_j[g][1] + j[i][1] * w];
+        var[g] += w;
+        first[g] = first[g].min(i);
+        last[g] = i;
+    }
+    let keep: Vec<usize> = (0..spots).filter(|g| var[*g] > 0.0).collect();
+    // a spot's weighted mean residual over its standard error, and its rows likewise
+    let u: Vec<f64> = keep.iter().map(|&g| sum_r[g] / var[g].sqrt()).collect();
+    let cols = if with_offset { 3 } else { 2 };
+    let design = (u.len() <= variance::SERIAL_MATRIX_MAX).then(|| {
+        DMatrix::from_fn(u.len(), cols, |k, c| {
+            let g = keep[k];
+            match c {
+                0 | 1 => sum_j[g][c] / var[g].sqrt(),
+                _ => -var[g].sqrt(),
+            }
+        })
+    });
+    let w = match &design {
+        Some(x) => {
+            if !variance::serial_test_exact(x, &u) {
+                return None;
+            }
+            variance::serial_widening(x, &u, !f.known).1
+        }
+        None => {
+            let (rho_seen, flagged) = variance::serial_correlation(&u);
+            if !flagged {
+                return None;
+            }
+            let a: Vec<[f64; 2]> = keep
+                .iter()
+                .map(|&g| [sum_j[g][0] / var[g].sqrt(), sum_j[g][1] / var[g].sqrt()])
+                .collect();
+            variance::ar1_widening(&a, variance::corrected_rho(rho_seen, u.len()))
+        }
+    };
+    let (lo, hi) = variance::longest_run(&u);
+    Some((first[keep[lo]], last[keep[hi]], w))
+}
+
+/// The crossings of two lines (in front of both observers) whose median standardised
+/// residual, on the plane, is smallest and well below that of the point `against`: least
+/// median of squares over the crossings, on at most 24 readings' lines and judged on at
+/// most 240 readings (evenly spread over the walk). A point the wild readings did not
+/// pull has the lowest median already, and no restart is spent on it.
+fn median_starts(
+    points: &[(f64, f64)],
+    bearings_deg: &[f64],
+    sigma_rad: &[f64],
+    count: usize,
+    against: (f64, f64),
+) -> Vec<(f64, f64)> {
+    let n = points.len();
+    let pick = |k: usize| -> Vec<usize> {
+        if n <= k {
+            (0..n).collect()
+        } else {
+            (0..k).map(|i| i * n / k).collect()
+        }
+    };
+    let lines = pick(24);
+    let judges = pick(240);
+    let sub_points: Vec<(f64, f64)> = lines.iter().map(|&i| points[i]).collect();
+    let sub_bearings: Vec<f64> = lines.iter().map(|&i| bearings_deg[i]).collect();
+    let score = |c: (f64, f64)| -> f64 {
+        let e: Vec<f64> = judges
+            .iter()
+            .map(|&i| {
+                let to = (c.0 - points[i].0).atan2(c.1 - points[i].1).to_degrees();
+                bearing_difference_deg(bearings_deg[i], to).to_radians() / sigma_rad[i]
+            })
+            .collect();
+        median_abs(&e)
+    };
+    let bar = score(against);
+    let mut scored: Vec<(f64, (f64, f64))> =
+        geometry::forward_crossings(&sub_points, &sub_bearings)
+            .into_iter()
+            .map(|c| (score(c), c))
+            .filter(|(m, _)| *m < MEDIAN_RESTART_SHARE * bar)
+            .collect();
+    scored.sort_by(|a, b| a.0.total_cmp(&b.0));
+    scored.into_iter().take(count).map(|(_, c)| c).collect()
+}
+
+/// The leave-one-out rule for walks of few readings: each reading is left out in turn, the
+/// others fixed by maximum likelihood, and the reading's miss from that fix judged against
+/// its prediction spread σ̂₍ᵢ₎·√(1 + hᵢ) (σ̂ from the others on n − 3 degrees of freedom, or
+/// σ known): the reading that misses most is set aside when it passes the Bonferroni
+/// bound for a false alarm in [`OUTLIER_FALSE_ALARM`] of clean walks (Student's t or
+/// normal). For a linear model this is the externally studentised residual, exact.
+fn leave_one_out(
+    model: &BearingModel,
+    sigma_rad: &[f64],
+    at: (f64, f64),
+    known: bool,
+) -> Result<Vec<bool>> {
+    let n = sigma_rad.len();
+    let mut out = vec![false; n];
+    let dof = n as f64 - 3.0;
+    if n < 4 || (!known && dof < 1.0) {
+        return Ok(out);
+    }
+    let level = 1.0 - OUTLIER_FALSE_ALARM / (2.0 * n as f64);
+    let bound = if known {
+        Normal::new(0.0, 1.0).ok().map(|d| d.inverse_cdf(level))
+    } else {
+        StudentsT::new(0.0, 1.0, dof)
+            .ok()
+            .map(|d| d.inverse_cdf(level))
+    }
+    .unwrap_or(f64::INFINITY);
+    let mut worst = (0.0, 0);
+    for i in 0..n {
+        let scale: Vec<f64> = sigma_rad
+            .iter()
+            .enumerate()
+            .map(|(k, s)| if k == i { 0.0 } else { 1.0 / s })
+            .collect();
+        let p = gauss_newton(model, &scale, at)?;
+        let (r, j) = model.residuals_and_jacobian(model.point(p.0, p.1));
+        let e: Vec<f64> = r.iter().zip(sigma_rad).map(|(r, s)| r / s).collect();
+        let a: Vec<[f64; 2]> = j
+            .iter()
+            .zip(sigma_rad)
+            .map(|(j, s)| [j[0] / s, j[1] / s])
+            .collect();
+        let w: Vec<f64> = (0..n).map(|k| if k == i { 0.0 } else { 1.0 }).collect();
+        let Some(inv) = inverse(outer_sum(&a, &w)) else {
+            continue;
+        };
+        let x = a[i];
+        let h = x[0] * (inv[0][0] * x[0] + inv[0][1] * x[1])
+            + x[1] * (inv[1][0] * x[0] + inv[1][1] * x[1]);
+        let sd = if known {
+            1.0
+        } else {
+            let ss: f64 = (0..n).filter(|k| *k != i).map(|k| e[k] * e[k]).sum();
+            (ss / dof).sqrt()
+        };
+        if sd <= 0.0 {
+            continue;
+        }
+        let t = (e[i] / (sd * (1.0 + h.max(0.0)).sqrt())).abs();
+        if t > worst.0 {
+            worst = (t, i);
+        }
+    }
+    if worst.0 > bound {
+        out[worst.1] = true;
+    }
+    Ok(out)
+}
+
+/// One pass of the solver under `plan`: the maximum-likelihood point from several starts,
+/// the method's fit, and the test of a stated σ.
+/// `hint`: the maximum-likelihood and the method's points of an earlier pass, where this
+/// one starts.
+fn solve(
+    readings: &[Reading],
+    options: &FixOptions,
+    plan: &Plan,
+    hint: Option<((f64, f64), (f64, f64))>,
+) -> Result<Staged> {
+    let n = readings.len();
+    let mut warnings = Vec::new();
+    let sigma_rad: Vec<f64> = plan.sigma.sigma_rad().to_vec();
 
     // Local frame around the observers (their centre on the sphere: a walk across
     // longitude ±180° is centred among its spots, not half a world away).
@@ -829,7 +1488,7 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         .collect();
     let mut bearings: Vec<f64> = readings
         .iter()
-        .map(|r| normalize_bearing_deg(r.bearing_deg))
+        .map(|r| normalize_bearing_deg(r.bearing_deg - plan.offset_deg))
         .collect();
     let inv_var: Vec<f64> = sigma_rad.iter().map(|s| 1.0 / (s * s)).collect();
 
@@ -873,15 +1532,22 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
     let base_scale: Vec<f64> = sigma_rad.iter().map(|s| 1.0 / s).collect();
 
     // The maximum-likelihood point: the robust fit starts there, and it centres the
-    // likelihood region of every method.
-    let mut ml_at = gauss_newton(&model, &base_scale, start)?;
-    // Few bearings in a weak geometry leave a long, flat valley in which Gauss–Newton can
-    // stop short: with up to six readings, restart from every crossing of two lines in
-    // front of both observers and keep the lowest cost.
-    if n <= 6 && !options.ambiguous {
+    // likelihood region of every method. Gauss–Newton can stop in a long, flat valley or
+    // at a point a few wild readings hold: it restarts from every crossing of two lines
+    // with up to six readings, from the crossings of least median residual with more,
+    // and keeps the lowest cost.
+    let mut ml_at = gauss_newton(&model, &base_scale, hint.map_or(start, |h| h.0))?;
+    let starts = if options.ambiguous {
+        Vec::new()
+    } else if n <= 6 {
+        geometry::forward_crossings(&points, &bearings)
+    } else {
+        median_starts(&points, &bearings, &sigma_rad, MEDIAN_STARTS, ml_at)
+    };
+    {
         let mut best = cost(&model, &base_scale, ml_at.0, ml_at.1);
-        for p in geometry::forward_crossings(&points, &bearings) {
-            let at = gauss_newton(&model, &base_scale, p)?;
+        for p in &starts {
+            let at = gauss_newton(&model, &base_scale, *p)?;
             let c = cost(&model, &base_scale, at.0, at.1);
             if c < best {
                 best = c;
@@ -903,6 +1569,20 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
         Method::Robust => Rho::from(options.loss),
         Method::Ml | Method::Ls => Rho::Squared,
     };
+    let plan_known = !matches!(plan.sigma, SigmaPlan::Estimated(_));
+    let set_aside = if options.method == Method::Robust && n <= LEAVE_ONE_OUT_MAX {
+        leave_one_out(&model, &sigma_rad, ml_at, plan_known)?
+    } else {
+        vec![false; n]
+    };
+    let robust_starts: Vec<(f64, f64)> = std::iter::once(hint.map_or(ml_at, |h| h.1))
+        .chain(
+            starts
+                .iter()
+                .copied()
+                .take(if n <= 6 { 16 } else { MEDIAN_STARTS }),
+        )
+        .collect();
     let fit = |known: bool| -> Result<Fitted> {
         match options.method {
             // σ is a property of the bearings, not of the estimator: estimated from the
@@ -932,15 +1612,22 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
                 dof: n as f64 - 2.0,
                 weights: vec![1.0; n],
             }),
-            Method::Robust => fit_robust(&model, &sigma_rad, rho, ml_at, known),
+            Method::Robust => {
+                fit_robust_best(&model, &sigma_rad, rho, &robust_starts, known, &set_aside)
+            }
         }
     };
 
-    // A stated σ is tested on a fit that does not lean on it: Σ(rᵢ/σᵢ)² over the readings
-    // the outlier rule keeps, against χ² with (kept − 2) degrees of freedom.
-    let (fitted, sigma_source) = match &given {
-        None => (fit(false)?, SigmaSource::Estimated),
-        Some(stated) if n >= 3 => {
+    let mut law_dof = None;
+    let (fitted, sigma_source) = match &plan.sigma {
+        SigmaPlan::Estimated(_) => (fit(false)?, SigmaSource::Estimated),
+        SigmaPlan::Components { dof, .. } => {
+            law_dof = Some(*dof);
+            (fit(true)?, SigmaSource::Spots)
+        }
+        // A stated σ is tested on a fit that does not lean on it: Σ(rᵢ/σᵢ)² over the
+        // readings the outlier rule keeps, against χ² with (kept − 2) degrees of freedom.
+        SigmaPlan::Stated(_) if n >= 3 => {
             let free = fit(false)?;
             let judged_at = if options.method == Method::Ls {
                 ml_at
@@ -959,8 +1646,9 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
             let kept: Vec<f64> = e
                 .iter()
                 .zip(&out)
-                .filter(|(_, o)| !**o)
-                .map(|(x, _)| *x)
+                .zip(&set_aside)
+                .filter(|((_, o), a)| !**o && !**a)
+                .map(|((x, _), _)| *x)
                 .collect();
             let q: f64 = kept.iter().map(|x| x * x).sum();
             let dof = kept.len() as f64 - 2.0;
@@ -968,8 +1656,7 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
                 .map(|c| c.inverse_cdf(1.0 - SIGMA_TEST_LEVEL))
                 .unwrap_or(f64::INFINITY);
             if dof >= 1.0 && q > bound {
-                let stated_deg =
-                    (stated.iter().map(|x| x * x).sum::<f64>() / stated.len() as f64).sqrt();
+                let stated_deg = plan.bearing_sigma_deg;
                 warnings.push(FixWarning::SigmaContradicted {
                     stated_deg,
                     observed_deg: stated_deg * free.scale,
@@ -980,23 +1667,77 @@ pub fn locate(readings: &[Reading], options: &FixOptions) -> Result<Fix> {
                 (fit(true)?, SigmaSource::Given)
             }
         }
-        Some(_) => (fit(true)?, SigmaSource::Given),
+        SigmaPlan::Stated(_) => (fit(true)?, SigmaSource::Given),
     };
-
-    finish(FixParts {
-        model: &model,
-        readings,
-        method: options.method,
-        rho,
-        confidence: options.confidence,
-        sigma_rad: &sigma_rad,
-        given_sigma_deg: given.as_deref(),
+    Ok(Staged {
+        model,
+        sigma_rad,
         fitted,
         sigma_source,
         ml_at,
-        flipped: &flipped,
+        flipped,
+        set_aside,
         warnings,
+        law_dof,
     })
+}
+
+/// The robust fit from each of `starts`, keeping the one of lowest objective. With Andrews' loss and σ estimated,
+/// each start is first settled by Huber's loss, whose Proposal 2 scale Andrews' fit then
+/// keeps (a redescending loss has several scales that solve Proposal 2, and one started at
+/// a poor scale can give every reading weight 0).
+fn fit_robust_best(
+    model: &BearingModel,
+    sigma_rad: &[f64],
+    rho: Rho,
+    starts: &[(f64, f64)],
+    known: bool,
+    set_aside: &[bool],
+) -> Result<Fitted> {
+    let mut fits = Vec::with_capacity(starts.len());
+    for &s in starts {
+        let f = if rho == Rho::Andrews && !known {
+            let h = fit_robust(model, sigma_rad, Rho::Huber, s, known, None, set_aside)?;
+            fit_robust(
+                model,
+                sigma_rad,
+                rho,
+                h.at,
+                known,
+                Some((h.scale, true)),
+                set_aside,
+            )?
+        } else {
+            fit_robust(model, sigma_rad, rho, s, known, None, set_aside)?
+        };
+        fits.push(f);
+    }
+    // Proposal 2 minimises Huber's joint objective s·Σρ(eᵢ/s) + (n − 2)·β·s/2 in the
+    // position and the scale together (Huber 1981, §7.7): fits from different starts are
+    // compared on it, each at its own scale (with σ known, s = 1 and it is Σρ(eᵢ)).
+    let beta = rho.expected_psi_squared();
+    let objective = |f: &Fitted| -> f64 {
+        let s = if known { 1.0 } else { f.scale.max(MIN_SCALE) };
+        let sum: f64 = standardised(model, sigma_rad, f.at)
+            .iter()
+            .zip(set_aside)
+            .filter(|(_, a)| !**a)
+            .map(|(e, _)| rho.rho(e / s))
+            .sum();
+        if known {
+            sum
+        } else {
+            s * sum + f.dof.max(0.0) * beta * s / 2.0
+        }
+    };
+    let mut best: Option<(f64, Fitted)> = None;
+    for f in fits {
+        let o = objective(&f);
+        if o.is_finite() && best.as_ref().is_none_or(|(b, _)| o < *b - 1e-9) {
+            best = Some((o, f));
+        }
+    }
+    best.map(|(_, f)| f).ok_or(FixRefusal::TooFewAgreeing)
 }
 
 struct FixParts<'a> {
@@ -1006,12 +1747,21 @@ struct FixParts<'a> {
     rho: Rho,
     confidence: f64,
     sigma_rad: &'a [f64],
-    given_sigma_deg: Option<&'a [f64]>,
+    /// The bearing σ the plan rests on, degrees (for σ estimated, before the fit's factor).
+    bearing_sigma_deg: f64,
     fitted: Fitted,
     sigma_source: SigmaSource,
     ml_at: (f64, f64),
     flipped: &'a [bool],
+    set_aside: &'a [bool],
     warnings: Vec<FixWarning>,
+    /// Multiplies the covariance (and so the region): a common offset estimated, readings
+    /// that lean the same way.
+    widen: f64,
+    /// The region's law when the plan sets it.
+    law_dof: Option<Option<f64>>,
+    /// Degrees of freedom spent besides the position (a common offset).
+    dof_spent: f64,
 }
 
 /// Covariance, ellipse, region, residual report and geometry checks at the solution.
@@ -1023,12 +1773,16 @@ fn finish(parts: FixParts) -> Result<Fix> {
         rho,
         confidence,
         sigma_rad,
-        given_sigma_deg,
+        bearing_sigma_deg,
         fitted,
         sigma_source,
         ml_at,
         flipped,
+        set_aside,
         mut warnings,
+        widen,
+        law_dof,
+        dof_spent,
     } = parts;
     let n = readings.len();
     let position = model.point(fitted.at.0, fitted.at.1);
@@ -1039,7 +1793,7 @@ fn finish(parts: FixParts) -> Result<Fix> {
 
     let e: Vec<f64> = r.iter().zip(sigma_rad).map(|(r, s)| r / s).collect();
     // ls judges its readings on the likelihood's residuals, as it estimates σ from them
-    let outlier = if method == Method::Ls {
+    let outlier: Vec<bool> = if method == Method::Ls {
         let e_ml = standardised(model, sigma_rad, ml_at);
         let (_, j_ml) = model.residuals_and_jacobian(model.point(ml_at.0, ml_at.1));
         let lev = leverages(&j_ml, sigma_rad);
@@ -1053,19 +1807,25 @@ fn finish(parts: FixParts) -> Result<Fix> {
             fitted.scale,
             fitted.known,
         )
-    };
+    }
+    .into_iter()
+    .zip(set_aside)
+    .map(|(o, a)| o || *a)
+    .collect();
     let n_used = outlier.iter().filter(|o| !**o).count();
     // ml and ls use every reading whatever the rule names; the robust fit must rest on two
     if n_used < 2 && method == Method::Robust {
         return Err(FixRefusal::TooFewAgreeing);
     }
-    let dof = if fitted.known {
-        None
-    } else {
-        if fitted.dof < 1.0 {
-            return Err(FixRefusal::TooFewForScatter { n_used });
+    let dof = match law_dof {
+        Some(d) => d,
+        None if fitted.known => None,
+        None => {
+            if fitted.dof - dof_spent < 1.0 {
+                return Err(FixRefusal::TooFewForScatter { n_used });
+            }
+            Some(fitted.dof - dof_spent)
         }
-        Some(fitted.dof)
     };
     let cov = match method {
         Method::Ls => {
@@ -1075,20 +1835,16 @@ fn finish(parts: FixParts) -> Result<Fix> {
         Method::Ml | Method::Robust => m_covariance(rho, &j, &e, sigma_rad, &fitted, &outlier),
     }
     .filter(|c| inverse(*c).is_some())
+    .map(|c| scaled(c, widen))
     .ok_or(FixRefusal::Degenerate)?;
     let k2 = ellipse::scale_squared(confidence, dof)
         .map_err(|e| FixRefusal::Solver { detail: e.message })?;
     let ell = ellipse::ellipse_from_covariance(cov, k2, confidence);
     let cep_m = ellipse::circular_error_probable_with(cov, dof);
 
-    let sigma_deg_used = match (sigma_source, given_sigma_deg) {
-        (SigmaSource::Given, Some(s)) => {
-            (s.iter().map(|x| x * x).sum::<f64>() / s.len() as f64).sqrt()
-        }
-        (_, Some(s)) => {
-            fitted.scale * (s.iter().map(|x| x * x).sum::<f64>() / s.len() as f64).sqrt()
-        }
-        (_, None) => fitted.scale.to_degrees(),
+    let sigma_deg_used = match sigma_source {
+        SigmaSource::Given | SigmaSource::Spots => bearing_sigma_deg,
+        SigmaSource::Estimated | SigmaSource::Contradicted => fitted.scale * bearing_sigma_deg,
     };
 
     let mut fits = Vec::with_capacity(n);
@@ -1112,7 +1868,9 @@ fn finish(parts: FixParts) -> Result<Fix> {
         });
     }
 
-    let (region_local, region_kind) = claimed_region(RegionParts {
+    let k2_half =
+        ellipse::scale_squared(0.5, dof).map_err(|e| FixRefusal::Solver { detail: e.message })?;
+    let (mut region_local, mut region_kind, contour_cep) = claimed_region(RegionParts {
         model,
         method,
         rho,
@@ -1121,11 +1879,36 @@ fn finish(parts: FixParts) -> Result<Fix> {
         ml_at,
         cov,
         k2,
+        k2_half,
+        widen,
         ellipse: &ell,
         confidence,
         farthest_m: sights.iter().map(|s| s.distance_m).fold(0.0, f64::max),
         warnings: &mut warnings,
     })?;
+    // The least-squares point is never outside its own region: where the likelihood
+    // contour (centred on the maximum-likelihood point) leaves it out, its own ellipse is
+    // the region.
+    if region_kind == RegionKind::Likelihood && !region::ring_contains(&region_local, fitted.at) {
+        region_local = ell
+            .outline(REGION_ELLIPSE_VERTICES)
+            .into_iter()
+            .map(|(e, n)| (fitted.at.0 + e, fitted.at.1 + n))
+            .collect();
+        region_kind = RegionKind::Ellipse;
+        warnings.retain(|w| {
+            !matches!(
+                w,
+                FixWarning::LinearisationFails { .. } | FixWarning::RegionCentredElsewhere { .. }
+            )
+        });
+    }
+    // the CEP under the region's own law: about the likelihood contour's centre, the
+    // radius of the circle of the 50 % contour's area
+    let cep_m = match (region_kind, contour_cep) {
+        (RegionKind::Likelihood, Some(c)) => c,
+        _ => cep_m,
+    };
     let mut region: Vec<GeoPoint> = region_local
         .iter()
         .map(|&(e, n)| model.point(e, n))
@@ -1147,6 +1930,13 @@ fn finish(parts: FixParts) -> Result<Fix> {
         n_used,
         readings: fits,
         warnings,
+        offset: None,
+        sigma_dof: dof,
+        spots: n,
+        position_accuracy: PositionAccuracy {
+            source: AccuracySource::Default,
+            typical_m: variance::DEFAULT_POSITION_ACCURACY_M,
+        },
     })
 }
 
@@ -1165,6 +1955,8 @@ struct RegionParts<'a> {
     ml_at: (f64, f64),
     cov: [[f64; 2]; 2],
     k2: f64,
+    k2_half: f64,
+    widen: f64,
     ellipse: &'a Ellipse,
     confidence: f64,
     farthest_m: f64,
@@ -1181,7 +1973,11 @@ struct RegionParts<'a> {
 ///
 /// Linearity is judged on the model alone: the weighted squared residuals S_w (the fit's
 /// final IRLS weights) along the outline of their own quadratic approximation.
-fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
+/// A region claimed: its ring (local metres, not closed), its kind, and the CEP under the
+/// likelihood's law when the region is the contour.
+type Claimed = (Vec<(f64, f64)>, RegionKind, Option<f64>);
+
+fn claimed_region(parts: RegionParts) -> Result<Claimed> {
     let RegionParts {
         model,
         method,
@@ -1191,6 +1987,8 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
         ml_at,
         cov,
         k2,
+        k2_half,
+        widen,
         ellipse,
         confidence,
         farthest_m,
@@ -1214,7 +2012,7 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
             let dev_scale: Vec<f64> = sigma_rad.iter().map(|si| 1.0 / (si * s)).collect();
             let a = a_at(ml_at, &dev_scale);
             let v = inverse(outer_sum(&a, &vec![1.0; a.len()])).ok_or(FixRefusal::Degenerate)?;
-            (ml_at, Rho::Squared, dev_scale, v)
+            (ml_at, Rho::Squared, dev_scale, scaled(v, widen))
         }
         Method::Ml | Method::Robust => {
             let dev_scale: Vec<f64> = sigma_rad
@@ -1265,7 +2063,7 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
             .into_iter()
             .map(|(e, n)| (fitted.at.0 + e, fitted.at.1 + n))
             .collect();
-        return Ok((ring, RegionKind::Ellipse));
+        return Ok((ring, RegionKind::Ellipse, None));
     }
 
     // The likelihood-ratio contour: threshold k²·c with c = √(det V · det Σψ′aaᵀ).
@@ -1293,6 +2091,16 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
     let rise = |e: f64, n: f64| deviance(e, n) - base;
     let reach_m = (20.0 * farthest_m).max(50_000.0);
     let dirs = region::directions(v, region::CONTOUR_RAYS);
+    let half = region::trace_contour(
+        rise,
+        centre,
+        threshold * k2_half / k2,
+        &dirs,
+        |d| quad_radius(&v_inv, k2_half, d),
+        reach_m,
+    )
+    .ok()
+    .map(|ring| (region::ring_area(&ring) / std::f64::consts::PI).sqrt());
     let ring = region::trace_contour(
         rise,
         centre,
@@ -1313,7 +2121,7 @@ fn claimed_region(parts: RegionParts) -> Result<(Vec<(f64, f64)>, RegionKind)> {
         let offset_m = (ml_at.0 - fitted.at.0).hypot(ml_at.1 - fitted.at.1);
         warnings.push(FixWarning::RegionCentredElsewhere { offset_m });
     }
-    Ok((ring, RegionKind::Likelihood))
+    Ok((ring, RegionKind::Likelihood, half))
 }
 
 #[cfg(test)]
@@ -1335,6 +2143,7 @@ mod tests {
                         brg + noise_deg.get(i).copied().unwrap_or(0.0),
                     ),
                     sigma_deg: Some(3.0),
+                    position_accuracy_m: None,
                 }
             })
             .collect()

@@ -65,6 +65,44 @@ pub enum FixWarning {
         /// Distance between the two points, metres.
         offset_m: f64,
     },
+    /// A common offset was asked for but the walk does not surround the junction, so it
+    /// cannot be told from the position: none was estimated.
+    OffsetNotObservable,
+    /// Every bearing reads this much clockwise of the junction (estimated with the fix).
+    CommonOffset {
+        /// The offset, degrees.
+        offset_deg: f64,
+        /// Its interval's lower end, degrees.
+        low_deg: f64,
+        /// Its interval's upper end, degrees.
+        high_deg: f64,
+    },
+    /// Readings at one spot share that spot's error: they count as about one.
+    SpotsShareError {
+        /// The spots.
+        spots: usize,
+        /// The readings.
+        readings: usize,
+        /// The spot error's σ, degrees.
+        between_deg: f64,
+        /// The scatter within a spot, degrees.
+        within_deg: f64,
+    },
+    /// Readings repeat at too few spots to tell a spot's own error.
+    TooFewSpots {
+        /// The spots.
+        spots: usize,
+    },
+    /// Readings along the walk lean the same way (serial correlation): the region is
+    /// widened, and may still be too small.
+    LeanTheSameWay {
+        /// The first log line of the longest run of one sign.
+        first_line: u64,
+        /// Its last log line.
+        last_line: u64,
+        /// How much the region's axes were widened by.
+        widened_by: f64,
+    },
 }
 
 impl fmt::Display for FixWarning {
@@ -84,10 +122,9 @@ impl fmt::Display for FixWarning {
                 f,
                 "σ is given on some readings only: ignored, the scatter is estimated from the residuals"
             ),
-            FixWarning::SigmaContradicted { stated_deg, observed_deg, level } => write!(
+            FixWarning::SigmaContradicted { stated_deg, observed_deg, .. } => write!(
                 f,
-                "the stated bearing σ of {stated_deg:.1}° is contradicted by the residuals, which scatter by {observed_deg:.1}° (χ² test, {:.0} % level): the region is widened to the observed scatter",
-                level * 100.0
+                "the stated bearing σ of {stated_deg:.1}° is contradicted by the residuals, which scatter by {observed_deg:.1}°: the region is widened to the observed scatter"
             ),
             FixWarning::BehindObservers { lines: l } => write!(
                 f,
@@ -113,10 +150,40 @@ impl fmt::Display for FixWarning {
             FixWarning::TakenReversed { lines: l } => {
                 write!(f, "taken as pointing the other way (front/back): {}", lines(l))
             }
-            FixWarning::LinearisationFails { radius_mismatch } => write!(
+            FixWarning::LinearisationFails { radius_mismatch } => {
+                let by = if radius_mismatch.is_finite() && *radius_mismatch < 1.0 {
+                    format!("by up to {:.0} % of its radius", radius_mismatch * 100.0)
+                } else {
+                    "by more than its own size".to_string()
+                };
+                write!(
+                    f,
+                    "the ellipse misses the likelihood contour {by}: the region given is the likelihood contour, not the ellipse"
+                )
+            }
+            FixWarning::OffsetNotObservable => write!(
                 f,
-                "the ellipse misses the likelihood contour by up to {:.0} % of its radius: the region given is the likelihood contour, not the ellipse",
-                radius_mismatch * 100.0
+                "no common offset estimated: the walk does not surround the junction, so an offset of every bearing cannot be told from the position"
+            ),
+            FixWarning::CommonOffset { offset_deg, low_deg, high_deg } => write!(
+                f,
+                "every bearing reads {:.1}° {} of the fix ({:+.1}° to {:+.1}°): check the antenna's mounting and the compass; the fix allows for it",
+                offset_deg.abs(),
+                if *offset_deg >= 0.0 { "clockwise" } else { "anticlockwise" },
+                low_deg,
+                high_deg
+            ),
+            FixWarning::SpotsShareError { spots, readings, between_deg, within_deg } => write!(
+                f,
+                "readings at one spot share that spot's error ({between_deg:.1}° from spot to spot, {within_deg:.1}° within a spot): the {readings} readings count as about {spots} spots; bearings from more spots would help more than repeats"
+            ),
+            FixWarning::TooFewSpots { spots } => write!(
+                f,
+                "readings repeat at only {spots} spots: a spot's own error (multipath) cannot be told, so the region may be too small; take bearings from more spots"
+            ),
+            FixWarning::LeanTheSameWay { first_line, last_line, widened_by } => write!(
+                f,
+                "readings on lines {first_line}–{last_line} lean the same way: their errors are not independent, so the region is widened {widened_by:.1} times and may still be too small"
             ),
             FixWarning::RegionCentredElsewhere { offset_m } => write!(
                 f,

@@ -181,6 +181,17 @@ pub fn trace_contour(
     Ok(ring)
 }
 
+/// The area of the polygon `ring` (east, north; closed or not), m², by the shoelace rule.
+pub fn ring_area(ring: &[(f64, f64)]) -> f64 {
+    let n = ring.len();
+    let mut twice = 0.0;
+    for i in 0..n {
+        let (a, b) = (ring[i], ring[(i + 1) % n]);
+        twice += a.0 * b.1 - b.0 * a.1;
+    }
+    0.5 * twice.abs()
+}
+
 /// Whether `p` lies inside the polygon `ring` (east, north; closed or not), by ray
 /// casting.
 pub fn ring_contains(ring: &[(f64, f64)], p: (f64, f64)) -> bool {

@@ -1,7 +1,7 @@
 //! Cross-checks of the bearing fix against independent computations and published values.
 //! Each check names its source.
 
-use pim_core::fix::{locate, FixOptions, Loss, Method, Reading, SigmaSource};
+use pim_core::fix::{locate, FixOptions, Loss, Method, OffsetChoice, Reading, SigmaSource};
 use pim_core::geo::{
     destination, distance_and_azimuth, normalize_bearing_deg, GeoPoint, LocalFrame,
 };
@@ -65,11 +65,14 @@ fn agrees_with_scipy_and_geographiclib() {
                 observer: GeoPoint::new(o["lat"].as_f64().unwrap(), o["lon"].as_f64().unwrap()),
                 bearing_deg: o["bearing_deg"].as_f64().unwrap(),
                 sigma_deg: sigma,
+                position_accuracy_m: None,
             })
             .collect();
-        // SciPy's reference is the maximum-likelihood fix
+        // SciPy's reference is the maximum-likelihood fix, exact positions, no offset
         let ml = FixOptions {
             method: Method::Ml,
+            position_accuracy_m: Some(0.0),
+            offset: OffsetChoice::None,
             ..Default::default()
         };
         let fix = locate(&readings, &ml).unwrap();
@@ -161,8 +164,10 @@ fn ellipse_coverage_is_honest_and_ml_reaches_the_bound() {
         let errors: Vec<f64> = spots.iter().map(|_| sigma * rng.normal()).collect();
         for given in [true, false] {
             let readings = walk(TRUTH, &spots, &errors, given.then_some(sigma));
+            // the simulated observers stand exactly where logged
             let ml = FixOptions {
                 method: Method::Ml,
+                position_accuracy_m: Some(0.0),
                 ..Default::default()
             };
             let fix = locate(&readings, &ml).unwrap();
@@ -296,6 +301,7 @@ fn unobservable_geometry_is_refused() {
             observer: destination(a, 90.0, 100.0 * i as f64),
             bearing_deg: 0.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         })
         .collect();
     let e = class(&parallel);
@@ -309,12 +315,14 @@ fn unobservable_geometry_is_refused() {
             observer: a,
             bearing_deg: 300.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
         Reading {
             line: 3,
             observer: b,
             bearing_deg: 60.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
     ];
     let e = class(&diverging);
@@ -330,12 +338,14 @@ fn unobservable_geometry_is_refused() {
             observer: a,
             bearing_deg: 10.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
         Reading {
             line: 3,
             observer: a,
             bearing_deg: 80.0,
             sigma_deg: None,
+            position_accuracy_m: None,
         },
     ];
     assert!(class(&same).message.contains("same spot"));
@@ -358,13 +368,21 @@ fn fix_on_the_walked_line_is_refused_or_warned() {
                     observer,
                     bearing_deg: brg,
                     sigma_deg: Some(1.0),
+                    position_accuracy_m: None,
                 }
             })
             .collect()
     };
-    let e = pim_core::Error::from(locate(&along_road(15.0), &FixOptions::default()).unwrap_err());
+    // the observers stand exactly where logged (with a handheld GPS's 12 m the 60 m case
+    // has no bounded region either, and is refused)
+    let exact = FixOptions {
+        position_accuracy_m: Some(0.0),
+        ..Default::default()
+    };
+    let e = pim_core::Error::from(locate(&along_road(15.0), &exact).unwrap_err());
     assert_eq!(e.class, pim_core::ErrorClass::Refused);
-    let fix = locate(&along_road(60.0), &FixOptions::default()).unwrap();
+    assert!(locate(&along_road(60.0), &FixOptions::default()).is_err());
+    let fix = locate(&along_road(60.0), &exact).unwrap();
     assert!(
         fix.warnings
             .iter()
