@@ -712,6 +712,28 @@ pub struct Mapped {
     pub by_mapping: bool,
 }
 
+impl Mapped {
+    /// A field read from several columns joined in order, named by their labels, with
+    /// no unit of its own.
+    fn joined(field: Field, columns: Vec<usize>, label: &dyn Fn(usize) -> String) -> Mapped {
+        Mapped {
+            field,
+            label: columns
+                .iter()
+                .map(|&c| label(c))
+                .collect::<Vec<_>>()
+                .join("+"),
+            columns,
+            unit: None,
+            unit_source: UnitSource::Named,
+            eirp: false,
+            haat: false,
+            west: false,
+            by_mapping: false,
+        }
+    }
+}
+
 /// How a table's columns are read: the fields found, the columns not used and why, and
 /// the mapping pairs that named no column of this file.
 #[derive(Clone, Debug, Default, PartialEq)]
@@ -923,41 +945,13 @@ pub fn resolve(
                 ));
             }
             let columns: Vec<usize> = parts.iter().map(|p| p.1).collect();
-            layout.fields.push(Mapped {
-                field,
-                label: columns
-                    .iter()
-                    .map(|&c| label(c))
-                    .collect::<Vec<_>>()
-                    .join("+"),
-                columns,
-                unit: None,
-                unit_source: UnitSource::Named,
-                eirp: false,
-                haat: false,
-                west: false,
-                by_mapping: false,
-            });
+            layout.fields.push(Mapped::joined(field, columns, &label));
             continue;
         }
         if chosen.len() > 1 && field == Field::Note {
             // several note columns (`Notes`, `Remarks`) are read together
             let columns: Vec<usize> = chosen.iter().map(|c| c.0).collect();
-            layout.fields.push(Mapped {
-                field,
-                label: columns
-                    .iter()
-                    .map(|&c| label(c))
-                    .collect::<Vec<_>>()
-                    .join("+"),
-                columns,
-                unit: None,
-                unit_source: UnitSource::Named,
-                eirp: false,
-                haat: false,
-                west: false,
-                by_mapping: false,
-            });
+            layout.fields.push(Mapped::joined(field, columns, &label));
             continue;
         }
         if chosen.len() > 1 && field != Field::Erp {
