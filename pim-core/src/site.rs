@@ -251,6 +251,9 @@ impl Site {
         }
         let found = products.len();
         retain_coefficients(&mut products, &query.coefficients);
+        if let Some(reach) = query.centred_within {
+            products.retain(|p| p.offset(query.params.target).0.abs() <= reach.0);
+        }
         let kept = products.len();
         let inputs = RankInputs {
             placement: Placement {
@@ -304,6 +307,11 @@ pub struct Query {
     /// Keep only the first K candidates (equal to the first K of the full ranking), in
     /// memory bounded by K and the emitters; `None` keeps every candidate.
     pub limit: Option<usize>,
+    /// Keep only products whose centre lies within this of the channel centre (a trace
+    /// peak's resolution): the ranking is the full one's with the others left out, so
+    /// with a limit the first K are the first K so centred. `None` keeps every product
+    /// that hits the channel.
+    pub centred_within: Option<Hz>,
 }
 
 impl Query {
@@ -322,6 +330,7 @@ impl Query {
             coefficients: Vec::new(),
             logbook: None,
             limit: None,
+            centred_within: None,
         }
     }
 }

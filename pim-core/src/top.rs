@@ -1183,6 +1183,9 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
             .coefficients
             .iter()
             .all(|&(e, kk)| p.coefficient_of(e).unsigned_abs() == kk)
+            && query
+                .centred_within
+                .is_none_or(|r| p.offset(query.params.target).0.abs() <= r.0)
     };
     // The candidates the lists may hold within the memory budget.
     let cap = usize::try_from(site.memory_budget() / BYTES_PER_CANDIDATE).unwrap_or(usize::MAX);
