@@ -164,7 +164,7 @@ pub fn run(args: Args) -> CliResult {
         .join(", ");
 
     if let Some(path) = &args.svg {
-        let picture = picture_input(&trace, &sweep, &emitters, args.threshold_db, &sources);
+        let picture = picture_input(&trace, &sweep, emitters, args.threshold_db, &sources);
         write_file_atomically(path, trace_svg(&picture).into_bytes(), &inputs, existing)?;
     }
     let report = SweepReport {

@@ -25,9 +25,7 @@ use pim_core::Site;
 
 #[path = "support/regional_list.rs"]
 mod regional_list;
-#[path = "support/seeded.rs"]
-mod seeded;
-use seeded::Rng;
+use regional_list::seeded::Rng;
 
 const START_HZ: i64 = 136_000_000;
 const STOP_HZ: i64 = 176_000_000;
@@ -126,7 +124,10 @@ fn sweep_bench(c: &mut Criterion) {
     let site = Site::new(emitters);
     let mut g = c.benchmark_group("sweep, 100,000 points x 2,000 regional emitters");
     g.sample_size(10);
-    for (name, junction) in [("junction at the receiver", Some(rx)), ("no location", None)] {
+    for (name, junction) in [
+        ("junction at the receiver", Some(rx)),
+        ("no location", None),
+    ] {
         let r = rule(junction);
         let started = std::time::Instant::now();
         let s = analyse(&t, &site, &r).expect("within the memory budget");

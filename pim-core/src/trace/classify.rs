@@ -21,7 +21,7 @@
 //!
 //! **Bounded work.** With a limit of K candidates per peak
 //! ([`ExplainRule::keep_candidates`]) and the junction at the receiver, each peak is
-//! explained by the pruned search of [`crate::top`] ([`Site::explain`] with a limit),
+//! explained by the pruned search of `explain` ([`Site::explain`] with a limit),
 //! narrowed to the products centred within the peak's resolution: its first K are the
 //! first K centred candidates of the full listing, found in memory bounded by K and the
 //! emitters, with or without a junction location. With a receiver elsewhere or a fix
@@ -189,7 +189,12 @@ pub fn explain_peak(
         };
         let centred = site.explain(&query(k, Some(reach)))?;
         if !centred.ranking.candidates.is_empty() || k == 0 && centred.kept > 0 {
-            (PeakKind::Product, centred.found, centred.ranking, Vec::new())
+            (
+                PeakKind::Product,
+                centred.found,
+                centred.ranking,
+                Vec::new(),
+            )
         } else {
             // nothing centred: the nearest candidates that land off centre, and why
             let off = site.explain(&query(3, None))?;
@@ -224,6 +229,9 @@ pub fn explain_peak(
     })
 }
 
+/// A peak's kind, the products its search found, its ranking and its misses.
+type Decided = (PeakKind, usize, Ranking, Vec<(Candidate, Miss)>);
+
 /// A peak explained from the whole listing, held within the site's memory budget: its
 /// kind, the products found, the centred candidates ranked anew, and the misses.
 fn whole_listing(
@@ -231,7 +239,7 @@ fn whole_listing(
     rule: &ExplainRule,
     params: &SearchParams,
     reach: Hz,
-) -> Result<(PeakKind, usize, Ranking, Vec<(Candidate, Miss)>)> {
+) -> Result<Decided> {
     // Every product makes at least one candidate: the search stops once the products
     // and one candidate each would pass the budget.
     let mut products = Vec::new();
@@ -255,8 +263,8 @@ fn whole_listing(
         let ranking = rank_candidates(products, site.emitters(), params, &inputs);
         return Ok((PeakKind::Unexplained, 0, ranking, Vec::new()));
     }
-    let candidates = Ranker::lazy(site.emitters(), site.carriers(), params, &inputs)
-        .candidate_count(&products);
+    let candidates =
+        Ranker::lazy(site.emitters(), site.carriers(), params, &inputs).candidate_count(&products);
     if !site.fits(found, candidates) {
         return Err(site.over_budget(found));
     }
