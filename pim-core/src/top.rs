@@ -1200,7 +1200,7 @@ pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explan
     // Upper bounds on each emitter's drive at the junction, from lower bounds on its
     // distance: the exact field is worked out only for the emitters of the candidates
     // weighed.
-    let at = query.junction.map(crate::site::normal);
+    let at = query.junction.map(crate::nearby::normal);
     let drives = Drives::new(site, m, at);
     let mut best = Best::new(&ranker, k);
     let mut scratch = Vec::with_capacity(4);
