@@ -512,3 +512,45 @@ fn a_sweep_of_the_first_ten_decides_as_the_full_listing() {
         assert!(!b.suspects.is_empty());
     }
 }
+
+/// Past the site's memory budget a sweep is refused (class `Refused`, the budget named)
+/// before the listing is made, whether its peaks are ranked in full at a fix and a
+/// receiver (as a ticket's trace is) or from the pruned search's first candidates.
+#[test]
+fn a_sweep_past_the_memory_budget_is_refused_naming_it() {
+    let junction = GeoPoint::new(45.0, -122.0);
+    let mut rng = Rng::new(3);
+    let site = small_site(&mut rng, 60, junction, true).with_memory_budget(20_000);
+    let mut rng = Rng::new(4);
+    // below the site's channels (148–149.2 MHz), where only its products land
+    let mut t = noise_trace(&mut rng, 146_000_000, 1_000.0, 1_201, (-112.0, -112.0), 4);
+    for hz in [146_300_000i64, 146_600_000, 146_900_000] {
+        plant(&mut t, hz as f64, -80.0);
+    }
+    let at_fix = pim_core::rank::Placement {
+        junction: Some(destination(junction, 45.0, 300.0)),
+        receiver: Some(junction),
+        fix_radius_m: Some(50.0),
+    };
+    for (placement, keep) in [
+        (at_fix, Some(5)),
+        (pim_core::rank::Placement::at(Some(junction)), None),
+        (pim_core::rank::Placement::at(Some(junction)), Some(1_000)),
+    ] {
+        let mut r = rule(12_500);
+        r.explain.placement = placement;
+        r.explain.keep_candidates = keep;
+        let e = match analyse(&t, &site, &r) {
+            Ok(s) => panic!("{keep:?}: {} peaks, not refused", s.peaks.len()),
+            Err(e) => e,
+        };
+        assert_eq!(e.class, pim_core::ErrorClass::Refused, "{keep:?}: {e:?}");
+        assert!(e.message.contains("memory budget of 0 MB"), "{}", e.message);
+    }
+    // the first few stay within it
+    let mut r = rule(12_500);
+    r.explain.keep_candidates = Some(5);
+    r.explain.placement = pim_core::rank::Placement::at(Some(junction));
+    let s = analyse(&t, &site.clone().with_memory_budget(200_000), &r).map_err(|e| e.message);
+    assert!(s.is_ok_and(|s| s.peaks.iter().any(|p| p.kind == PeakKind::Product)));
+}
