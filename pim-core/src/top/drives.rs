@@ -7,7 +7,7 @@ use super::*;
 /// the least slant distance the normals' chord allows (or λ/2π where that is farther), which the
 /// near-field rule only lowers ([`crate::level`]); worked out when first asked for.
 pub(super) struct Drives<'a> {
-    pub(super) site: &'a Site,
+    pub(super) site: &'a SiteView<'a>,
     pub(super) model: &'a LevelModel,
     pub(super) at: Option<[f64; 3]>,
     /// The drive of 0 dBm ERP at 1 m, dBm.
@@ -17,7 +17,7 @@ pub(super) struct Drives<'a> {
 }
 
 impl<'a> Drives<'a> {
-    pub(super) fn new(site: &'a Site, model: &'a LevelModel, at: Option<[f64; 3]>) -> Self {
+    pub(super) fn new(site: &'a SiteView<'a>, model: &'a LevelModel, at: Option<[f64; 3]>) -> Self {
         let n = if at.is_some() {
             site.emitters().len()
         } else {
@@ -122,7 +122,7 @@ impl Taken<'_> {
 
     /// Takes every emitter of drive `need` or more and puts those taken in frequency
     /// order, unless that would take more than `pool`: false then.
-    pub(super) fn reach(&mut self, site: &Site, need: f64, pool: usize) -> bool {
+    pub(super) fn reach(&mut self, site: &SiteView<'_>, need: f64, pool: usize) -> bool {
         if self.covers(need) {
             return true;
         }
@@ -161,7 +161,7 @@ impl Taken<'_> {
     #[allow(clippy::too_many_arguments)]
     pub(super) fn window(
         &mut self,
-        site: &Site,
+        site: &SiteView<'_>,
         drives: &Drives,
         pool: usize,
         need: f64,
@@ -211,7 +211,7 @@ pub(super) struct Pass {
 /// strongest emitter (module docs, "Drive order"), offered to `best` through `offer`.
 #[allow(clippy::too_many_arguments)]
 pub(super) fn by_drive<'r, 'a>(
-    site: &Site,
+    site: &SiteView<'_>,
     query: &Query,
     at: [f64; 3],
     drives: &Drives,

@@ -80,8 +80,8 @@ use crate::level::{
 };
 use crate::level::{LevelModel, Mechanism};
 use crate::nearby::{ground_for_chord, Reach};
+use crate::query::{Explanation, Query, SiteView, BYTES_PER_CANDIDATE};
 use crate::rank::{Candidate, Placement, RankInputs, Ranker, Tally};
-use crate::site::{Explanation, Query, Site, BYTES_PER_CANDIDATE};
 
 mod best;
 mod bounds;
@@ -144,8 +144,8 @@ fn kth_level(best: &mut Best) -> Option<f64> {
         .and_then(|c| c.breakdown.map(|b| b.in_channel_dbm))
 }
 
-/// The first `k` candidates of [`Site::explain`] (module docs).
-pub(crate) fn explain_top(site: &Site, query: &Query, k: usize) -> Result<Explanation> {
+/// The first `k` candidates of [`crate::site::Site::explain`] (module docs).
+pub(crate) fn explain_top(site: &SiteView<'_>, query: &Query, k: usize) -> Result<Explanation> {
     let emitters = site.emitters();
     let carriers = site.carriers();
     let n = emitters.len();

@@ -17,7 +17,7 @@ pub(super) struct OwnModel<'a> {
 }
 
 impl<'a> OwnModel<'a> {
-    pub(super) fn new(site: &Site, query: &'a Query) -> Self {
+    pub(super) fn new(site: &SiteView<'_>, query: &'a Query) -> Self {
         let m = &query.model;
         let params = &query.params;
         let max_order = params.max_order.min(MAX_ORDER);
@@ -73,7 +73,7 @@ impl<'a> OwnModel<'a> {
 /// harmonics, and 2·f_a ± f_b with any other emitter b) to `visit` until it returns false;
 /// skips a partner `b` for which `partner` is false, noting in `skipped` that it did.
 pub(super) fn search_own(
-    site: &Site,
+    site: &SiteView<'_>,
     a: usize,
     params: &SearchParams,
     partner: &dyn Fn(usize) -> bool,
@@ -130,7 +130,7 @@ pub(super) fn search_own(
 /// lift the product to the K-th. Returns whether nothing was skipped.
 #[allow(clippy::too_many_arguments)]
 pub(super) fn own_products(
-    site: &Site,
+    site: &SiteView<'_>,
     query: &Query,
     ranker: &Ranker,
     narrow: &dyn Fn(&Product) -> bool,

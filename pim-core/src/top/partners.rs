@@ -70,7 +70,7 @@ pub(super) struct Around<'a> {
 }
 
 impl<'a> Around<'a> {
-    pub(super) fn new(site: &'a Site, params: &'a SearchParams, x: usize) -> Self {
+    pub(super) fn new(site: &'a SiteView<'a>, params: &'a SearchParams, x: usize) -> Self {
         let carriers = site.carriers();
         Around {
             carriers,
@@ -141,7 +141,7 @@ pub(super) fn term(emitter: usize, coefficient: i64) -> Term {
 /// The partners of three-emitter products are among `ys` (`(drive, emitter)`, the open
 /// ones that may take part).
 pub(super) fn search_with(
-    site: &Site,
+    site: &SiteView<'_>,
     x: usize,
     open: &dyn Fn(usize) -> bool,
     ys: &[(f64, usize)],
@@ -206,7 +206,7 @@ pub(super) fn search_with(
 /// all.
 #[allow(clippy::too_many_arguments)]
 pub(super) fn search_after(
-    site: &Site,
+    site: &SiteView<'_>,
     taken: &mut Taken,
     p: usize,
     pool: usize,
