@@ -148,11 +148,12 @@ impl ListingArgs {
         }
     }
 
-    /// The count `--limit` gave, if any (`all` and no option: `None`).
-    pub fn count(&self) -> Option<usize> {
+    /// The count `--limit` gave, `None` for `all`, `default` without the option.
+    pub fn count_or(&self, default: usize) -> Option<usize> {
         match self.limit {
             Some(Limit::Count(n)) => Some(n),
-            _ => None,
+            Some(Limit::All) => None,
+            None => Some(default),
         }
     }
 }

@@ -130,7 +130,7 @@ pub fn run(args: Args) -> CliResult {
             None,
             Some(5),
         );
-        let sweep = analyse(&trace, inputs.site.emitters(), &rule);
+        let sweep = analyse(&trace, &inputs.site, &rule).map_err(crate::common::listing_hint)?;
         inputs.band = Some(BandTrace {
             trace,
             sweep,

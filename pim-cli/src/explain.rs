@@ -49,6 +49,7 @@ pub fn run(args: Args) -> CliResult {
         coefficients: coefficients.clone(),
         logbook,
         limit: shown,
+        centred_within: None,
     };
     let answer = site.explain(&query).map_err(listing_hint)?;
     let (ranking, found, logbook) = (&answer.ranking, answer.found, query.logbook.as_ref());

@@ -58,6 +58,11 @@ pub struct Args {
     pub columns: crate::args::ColumnsArgs,
 }
 
+/// Candidates found per peak unless `--limit` says otherwise (`--limit all`: every
+/// one): each peak is explained by the pruned search of its first N, so the work and the
+/// memory stay bounded against a long emitter list.
+pub const SWEEP_CANDIDATES: usize = 20;
+
 /// clap parser for the threshold: a finite number of dB above zero.
 pub fn threshold_arg(text: &str) -> Result<f64, String> {
     let v = pim_io::text::parse_quantity(text, "dB")?;
@@ -146,9 +151,11 @@ pub fn run(args: Args) -> CliResult {
         s.junction_model(),
         args.threshold_db,
         args.floor_window,
-        args.listing.count(),
+        args.listing.count_or(SWEEP_CANDIDATES),
     );
-    let sweep = analyse(&trace, &emitters, &rule);
+    let site = crate::common::budgeted(pim_core::Site::new(emitters))?;
+    let sweep = analyse(&trace, &site, &rule).map_err(crate::common::listing_hint)?;
+    let emitters = site.emitters();
     let sources = args
         .traces
         .iter()
@@ -157,13 +164,13 @@ pub fn run(args: Args) -> CliResult {
         .join(", ");
 
     if let Some(path) = &args.svg {
-        let picture = picture_input(&trace, &sweep, &emitters, args.threshold_db, &sources);
+        let picture = picture_input(&trace, &sweep, emitters, args.threshold_db, &sources);
         write_file_atomically(path, trace_svg(&picture).into_bytes(), &inputs, existing)?;
     }
     let report = SweepReport {
         trace: &trace,
         sweep: &sweep,
-        emitters: &emitters,
+        emitters,
         sources,
         emitters_source: args.emitters.display().to_string(),
         threshold_db: args.threshold_db,

@@ -189,7 +189,7 @@ pub fn run(args: Args) -> CliResult {
     )?;
     let s = &args.search;
     let g = &args.gathered;
-    let site = Site::new(emitters);
+    let site = crate::common::budgeted(Site::new(emitters))?;
     let source = args.input.emitters.display().to_string();
     let receiver = match (&g.receivers, &g.receiver) {
         (Some(path), Some(id)) => Some(affected_receiver(path, id, &args.input, s, &columns)?),
@@ -260,7 +260,7 @@ pub fn run(args: Args) -> CliResult {
             None,
             Some(5),
         );
-        let sweep = analyse(&trace, inputs.site.emitters(), &rule);
+        let sweep = analyse(&trace, &inputs.site, &rule).map_err(crate::common::listing_hint)?;
         let sources: Vec<String> = args
             .traces
             .iter()

@@ -55,6 +55,7 @@ pub mod level;
 mod nearby;
 pub mod onair;
 pub mod plan;
+mod query;
 pub mod rank;
 pub mod site;
 pub mod slope;

@@ -1,4 +1,6 @@
-//! A tree over the emitters' positions for the pruned search ([`crate::top`]): the
+//! Where the emitters are, for the pruned search ([`crate::top`]): [`SiteIndex`], what
+//! every pruned query on a site shares (it lives below both the site and the search),
+//! and a tree over the emitters' positions: the
 //! emitters in falling order of a key that never rises with the distance from a point and
 //! never falls with the ERP (an emitter's drive at a junction, or the bound on its own
 //! products at a receiver), the key worked out only for the members of the nodes that can
@@ -18,7 +20,95 @@
 use std::cmp::Ordering;
 use std::collections::BinaryHeap;
 
-use crate::site::MIN_CURVATURE_RADIUS_M;
+use crate::emitter::{Carrier, Emitter};
+use crate::geo::GeoPoint;
+
+/// What every pruned query on a site shares (see [`crate::top`]): it lives here, below
+/// both [`crate::site`] and [`crate::top`], so that neither needs the other for it.
+#[derive(Clone, Debug, Default)]
+pub(crate) struct SiteIndex {
+    /// The unit normal of the WGS 84 ellipsoid at each emitter's position (`None` without a
+    /// position): the angle between two normals bounds the geodesic between the points
+    /// from below ([`SiteIndex::ground_at_least_m`]).
+    pub(crate) normals: Vec<Option<[f64; 3]>>,
+    /// Emitter indices by carrier frequency, then index.
+    pub(crate) by_freq: Vec<usize>,
+    /// The frequencies in that order, Hz.
+    pub(crate) freq_sorted: Vec<i64>,
+    /// Each emitter's place in that order.
+    pub(crate) place: Vec<usize>,
+    /// The widest occupied bandwidth, Hz.
+    pub(crate) max_bw: i64,
+    /// The strongest ERP of an emitter with a position, dBm (−∞ without one).
+    pub(crate) max_erp_dbm: f64,
+    /// The emitters with a position, in a tree of where they are.
+    pub(crate) tree: EmitterTree,
+    /// The emitters without a position, by index.
+    pub(crate) unplaced: Vec<usize>,
+    /// How many emitters lack an ERP or a position (their products cannot be levelled).
+    pub(crate) unlevelled: usize,
+    /// Whether each emitter has both (its drive at a junction can be bounded).
+    pub(crate) levelled: Vec<bool>,
+}
+
+/// The smallest radius of curvature of the WGS 84 ellipsoid (the meridian's at the
+/// equator, b²/a), metres.
+pub(crate) const MIN_CURVATURE_RADIUS_M: f64 =
+    6_378_137.0 * (1.0 - 1.0 / 298.257_223_563) * (1.0 - 1.0 / 298.257_223_563);
+
+impl SiteIndex {
+    pub(crate) fn new(emitters: &[Emitter], carriers: &[Carrier]) -> SiteIndex {
+        let mut by_freq: Vec<usize> = (0..emitters.len()).collect();
+        by_freq.sort_by_key(|&i| (carriers[i].freq, i));
+        let mut place = vec![0; by_freq.len()];
+        for (pos, &i) in by_freq.iter().enumerate() {
+            place[i] = pos;
+        }
+        let normals: Vec<Option<[f64; 3]>> =
+            emitters.iter().map(|e| e.position.map(normal)).collect();
+        let erp: Vec<Option<f64>> = emitters.iter().map(|e| e.erp_dbm).collect();
+        let freq: Vec<i64> = carriers.iter().map(|c| c.freq.0).collect();
+        SiteIndex {
+            freq_sorted: by_freq.iter().map(|&i| carriers[i].freq.0).collect(),
+            place,
+            max_bw: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
+            tree: EmitterTree::new(&normals, &erp, &freq),
+            unplaced: (0..emitters.len())
+                .filter(|&i| normals[i].is_none())
+                .collect(),
+            unlevelled: emitters
+                .iter()
+                .filter(|e| e.position.is_none() || e.erp_dbm.is_none())
+                .count(),
+            levelled: emitters
+                .iter()
+                .map(|e| e.position.is_some() && e.erp_dbm.is_some())
+                .collect(),
+            normals,
+            by_freq,
+            max_erp_dbm: emitters
+                .iter()
+                .filter(|e| e.position.is_some())
+                .filter_map(|e| e.erp_dbm)
+                .fold(f64::NEG_INFINITY, f64::max),
+        }
+    }
+
+    /// A lower bound on the geodesic distance (m) between emitter `i` and the point whose
+    /// normal is `at`: along any path on the ellipsoid the normal turns at most by the
+    /// path's length over the smallest radius of curvature, so the geodesic is at least
+    /// that radius times the angle between the end normals.
+    pub(crate) fn ground_at_least_m(&self, i: usize, at: [f64; 3]) -> Option<f64> {
+        let n = self.normals[i]?;
+        Some(ground_for_angle(angle_between(&n, &at)))
+    }
+}
+
+/// The unit normal of the WGS 84 ellipsoid at `p` (geodetic latitude and longitude).
+pub(crate) fn normal(p: GeoPoint) -> [f64; 3] {
+    let (lat, lon) = (p.lat_deg.to_radians(), p.lon_deg.to_radians());
+    [lat.cos() * lon.cos(), lat.cos() * lon.sin(), lat.sin()]
+}
 
 /// The most emitters a leaf holds: opening a leaf works out every member's key, so small
 /// leaves waste few (on the regional study 4 came out ahead of 8, 16 and 32, within the
@@ -307,7 +397,6 @@ where
 mod tests {
     use super::*;
     use crate::geo::{destination, GeoPoint};
-    use crate::site::normal;
 
     /// Normals, ERPs (dBm) and frequencies (Hz) of a scatter of emitters.
     type Scatter = (Vec<Option<[f64; 3]>>, Vec<Option<f64>>, Vec<i64>);

@@ -22,29 +22,13 @@
 
 use crate::emitter::{carriers, Carrier, Emitter};
 use crate::error::{Error, Result};
-use crate::freq::Hz;
-use crate::geo::GeoPoint;
-use crate::intermod::{
-    co_channel, retain_coefficients, search_products_while, Product, SearchParams, MAX_ORDER,
+use crate::intermod::{co_channel, retain_coefficients, search_products_while, Product, MAX_ORDER};
+use crate::nearby::SiteIndex;
+use crate::query::{over_budget, SiteView};
+pub use crate::query::{
+    Explanation, Query, BYTES_PER_CANDIDATE, BYTES_PER_PRODUCT, DEFAULT_MEMORY_BUDGET_BYTES,
 };
-use crate::level::LevelModel;
-use crate::nearby::{angle_between, ground_for_angle, EmitterTree};
-use crate::onair::Logbook;
-use crate::rank::{
-    formula, rank_candidates, Candidate, HeardLevel, Placement, RankInputs, Ranker, Ranking,
-};
-
-/// The memory a listing may hold unless [`Site::with_memory_budget`] says otherwise:
-/// 4 GiB (about nine million products of one candidate each in a full listing).
-pub const DEFAULT_MEMORY_BUDGET_BYTES: u64 = 4 << 30;
-
-/// What a listing holds per product: the product in the listing with its room to grow,
-/// and in the ranking's copy.
-pub const BYTES_PER_PRODUCT: u64 = 3 * std::mem::size_of::<Product>() as u64;
-
-/// What a listing holds per candidate: the candidate and its share of the sort's scratch
-/// space (half a candidate).
-pub const BYTES_PER_CANDIDATE: u64 = 3 * std::mem::size_of::<Candidate>() as u64 / 2;
+use crate::rank::{formula, rank_candidates, HeardLevel, Placement, RankInputs, Ranker, Ranking};
 
 /// The emitters of a site and their carriers, indexed alike, and the memory a listing of
 /// its products may hold.
@@ -56,92 +40,6 @@ pub struct Site {
     /// Worked out once for every query: where each emitter is and how strong the site's
     /// strongest emitter is, for the bounds of the pruned search.
     pub(crate) index: SiteIndex,
-}
-
-/// What every pruned query on a site shares (see [`crate::top`]).
-#[derive(Clone, Debug, Default)]
-pub(crate) struct SiteIndex {
-    /// The unit normal of the WGS 84 ellipsoid at each emitter's position (`None` without a
-    /// position): the angle between two normals bounds the geodesic between the points
-    /// from below ([`SiteIndex::ground_at_least_m`]).
-    pub(crate) normals: Vec<Option<[f64; 3]>>,
-    /// Emitter indices by carrier frequency, then index.
-    pub(crate) by_freq: Vec<usize>,
-    /// The frequencies in that order, Hz.
-    pub(crate) freq_sorted: Vec<i64>,
-    /// Each emitter's place in that order.
-    pub(crate) place: Vec<usize>,
-    /// The widest occupied bandwidth, Hz.
-    pub(crate) max_bw: i64,
-    /// The strongest ERP of an emitter with a position, dBm (−∞ without one).
-    pub(crate) max_erp_dbm: f64,
-    /// The emitters with a position, in a tree of where they are.
-    pub(crate) tree: EmitterTree,
-    /// The emitters without a position, by index.
-    pub(crate) unplaced: Vec<usize>,
-    /// How many emitters lack an ERP or a position (their products cannot be levelled).
-    pub(crate) unlevelled: usize,
-    /// Whether each emitter has both (its drive at a junction can be bounded).
-    pub(crate) levelled: Vec<bool>,
-}
-
-/// The smallest radius of curvature of the WGS 84 ellipsoid (the meridian's at the
-/// equator, b²/a), metres.
-pub(crate) const MIN_CURVATURE_RADIUS_M: f64 =
-    6_378_137.0 * (1.0 - 1.0 / 298.257_223_563) * (1.0 - 1.0 / 298.257_223_563);
-
-impl SiteIndex {
-    fn new(emitters: &[Emitter], carriers: &[Carrier]) -> SiteIndex {
-        let mut by_freq: Vec<usize> = (0..emitters.len()).collect();
-        by_freq.sort_by_key(|&i| (carriers[i].freq, i));
-        let mut place = vec![0; by_freq.len()];
-        for (pos, &i) in by_freq.iter().enumerate() {
-            place[i] = pos;
-        }
-        let normals: Vec<Option<[f64; 3]>> =
-            emitters.iter().map(|e| e.position.map(normal)).collect();
-        let erp: Vec<Option<f64>> = emitters.iter().map(|e| e.erp_dbm).collect();
-        let freq: Vec<i64> = carriers.iter().map(|c| c.freq.0).collect();
-        SiteIndex {
-            freq_sorted: by_freq.iter().map(|&i| carriers[i].freq.0).collect(),
-            place,
-            max_bw: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),
-            tree: EmitterTree::new(&normals, &erp, &freq),
-            unplaced: (0..emitters.len())
-                .filter(|&i| normals[i].is_none())
-                .collect(),
-            unlevelled: emitters
-                .iter()
-                .filter(|e| e.position.is_none() || e.erp_dbm.is_none())
-                .count(),
-            levelled: emitters
-                .iter()
-                .map(|e| e.position.is_some() && e.erp_dbm.is_some())
-                .collect(),
-            normals,
-            by_freq,
-            max_erp_dbm: emitters
-                .iter()
-                .filter(|e| e.position.is_some())
-                .filter_map(|e| e.erp_dbm)
-                .fold(f64::NEG_INFINITY, f64::max),
-        }
-    }
-
-    /// A lower bound on the geodesic distance (m) between emitter `i` and the point whose
-    /// normal is `at`: along any path on the ellipsoid the normal turns at most by the
-    /// path's length over the smallest radius of curvature, so the geodesic is at least
-    /// that radius times the angle between the end normals.
-    pub(crate) fn ground_at_least_m(&self, i: usize, at: [f64; 3]) -> Option<f64> {
-        let n = self.normals[i]?;
-        Some(ground_for_angle(angle_between(&n, &at)))
-    }
-}
-
-/// The unit normal of the WGS 84 ellipsoid at `p` (geodetic latitude and longitude).
-pub(crate) fn normal(p: GeoPoint) -> [f64; 3] {
-    let (lat, lon) = (p.lat_deg.to_radians(), p.lon_deg.to_radians());
-    [lat.cos() * lon.cos(), lat.cos() * lon.sin(), lat.sin()]
 }
 
 impl Default for Site {
@@ -187,13 +85,7 @@ impl Site {
     /// The refusal of a listing that has reached `products` products and would pass the
     /// memory budget.
     pub(crate) fn over_budget(&self, products: usize) -> Error {
-        Error::refused(format!(
-            "the search reached {products} products landing in the channel, more than a \
-             listing can hold within its memory budget of {} MB; a shorter listing (only the \
-             first candidates, kept in bounded memory) or a narrower search (a lower order, \
-             fewer emitters per product, a narrower channel) is needed",
-            self.memory_budget / 1_000_000
-        ))
+        over_budget(self.memory_budget, products)
     }
 
     /// Whether `products` products with `candidates` candidates fit the memory budget.
@@ -234,7 +126,13 @@ impl Site {
         // The pruned search ranks with the junction at the receiver and no calibration;
         // with a receiver elsewhere or heard levels the whole listing is ranked.
         if let (Some(k), true, None) = (query.limit, query.heard.is_empty(), query.receiver) {
-            return crate::top::explain_top(self, query, k);
+            let view = SiteView {
+                emitters: &self.emitters,
+                carriers: &self.carriers,
+                index: &self.index,
+                memory_budget: self.memory_budget,
+            };
+            return crate::top::explain_top(&view, query, k);
         }
         // Every product makes at least one candidate: the search stops once the products
         // and one candidate each would pass the budget.
@@ -251,6 +149,9 @@ impl Site {
         }
         let found = products.len();
         retain_coefficients(&mut products, &query.coefficients);
+        if let Some(reach) = query.centred_within {
+            products.retain(|p| p.offset(query.params.target).0.abs() <= reach.0);
+        }
         let kept = products.len();
         let inputs = RankInputs {
             placement: Placement {
@@ -281,78 +182,6 @@ impl Site {
             ranking,
         })
     }
-}
-
-/// What to explain: the channel and the search bounds, where the junction is assumed,
-/// the level model, and the evidence that narrows or orders the list.
-#[derive(Clone, Debug)]
-pub struct Query {
-    /// The channel heard and the search bounds.
-    pub params: SearchParams,
-    /// Where the junction is assumed (the receiver site, or a fix); without it, no levels.
-    pub junction: Option<GeoPoint>,
-    /// Where the receiver is, when not at the junction.
-    pub receiver: Option<GeoPoint>,
-    /// Levels heard, to calibrate the model against (empty: levels relative to the first).
-    pub heard: Vec<HeardLevel>,
-    /// The level model.
-    pub model: LevelModel,
-    /// Keep only products in which emitter `i` carries |k| = K (a power step's answer).
-    pub coefficients: Vec<(usize, u32)>,
-    /// On-air and listening logs, ranked before the level when given.
-    pub logbook: Option<Logbook>,
-    /// Keep only the first K candidates (equal to the first K of the full ranking), in
-    /// memory bounded by K and the emitters; `None` keeps every candidate.
-    pub limit: Option<usize>,
-}
-
-impl Query {
-    /// A query for a carrier heard at `target` with the default bounds: a 12.5 kHz
-    /// channel, orders up to 7, products of up to three emitters, no junction location.
-    pub fn new(target: Hz) -> Query {
-        Query {
-            params: SearchParams {
-                target,
-                ..SearchParams::default()
-            },
-            junction: None,
-            receiver: None,
-            heard: Vec::new(),
-            model: LevelModel::default(),
-            coefficients: Vec::new(),
-            logbook: None,
-            limit: None,
-        }
-    }
-}
-
-/// The answer to a [`Query`].
-#[derive(Clone, Debug)]
-pub struct Explanation {
-    /// The search bounds used.
-    pub params: SearchParams,
-    /// The level model used.
-    pub model: LevelModel,
-    /// The heard levels the ranking was calibrated against.
-    pub heard: Vec<HeardLevel>,
-    /// The products kept after narrowing, in search order; with a limit, only those of
-    /// the candidates kept, in ranking order.
-    pub products: Vec<Product>,
-    /// Emitters whose own carrier lies in the channel (co-channel, not a product).
-    pub co_channel: Vec<usize>,
-    /// Products the search found before the coefficients narrowed them (with a limit,
-    /// those it examined: see `complete`).
-    pub found: usize,
-    /// Of those, the products the coefficients kept.
-    pub kept: usize,
-    /// The limit the candidates were cut to.
-    pub limit: Option<usize>,
-    /// Whether every product landing in the channel was counted in `found`, `kept` and
-    /// [`Ranking::total`]. With a limit, products of emitters (or of orders) that provably
-    /// rank below the K-th candidate are not searched, and are not counted.
-    pub complete: bool,
-    /// The products ranked.
-    pub ranking: Ranking,
 }
 
 impl Explanation {

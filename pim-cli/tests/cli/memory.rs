@@ -83,6 +83,69 @@ fn a_first_k_larger_than_the_budget_holds_is_refused() {
     assert!(stderr_of(&out).contains("memory budget of 1 MB"));
 }
 
+/// A trace of 145.5–146.5 MHz in 1 kHz steps with one peak at 146 MHz, below the
+/// crowded site's channels, where hundreds of thousands of its products land.
+fn trace_below_the_site(dir: &Path) -> String {
+    let mut text = String::from("freq_hz,level_dbm\n");
+    for i in 0..1_001i64 {
+        let f = 145_500_000 + i * 1_000;
+        let d = (f - 146_000_000) as f64 / 1_000.0;
+        let level = (-110.0f64).max(-70.0 - 6.0 * d * d);
+        text.push_str(&format!("{f},{level:.1}\n"));
+    }
+    let path = dir.join("trace.csv");
+    std::fs::write(&path, text).unwrap();
+    path.to_str().unwrap().to_string()
+}
+
+fn sweep_within(budget_mb: &str, emitters: &str, trace: &str, extra: &[&str]) -> Output {
+    let mut args = vec![
+        "sweep",
+        trace,
+        "--emitters",
+        emitters,
+        "--rx-lat",
+        "45.105",
+        "--rx-lon",
+        "-122.405",
+        "--format",
+        "json",
+    ];
+    args.extend_from_slice(extra);
+    Command::new(pim_bin())
+        .args(&args)
+        .env("PIM_MEMORY_BUDGET_MB", budget_mb)
+        .output()
+        .unwrap()
+}
+
+#[test]
+fn a_sweep_past_the_budget_is_refused_with_exit_code_5_naming_it() {
+    let dir = scratch();
+    let tx = crowded_site(dir.path());
+    let trace = trace_below_the_site(dir.path());
+    for extra in [&["--limit", "all"][..], &["--limit", "100000000"][..]] {
+        let out = sweep_within("1", &tx, &trace, extra);
+        let err = stderr_of(&out);
+        assert_eq!(out.status.code(), Some(5), "{extra:?}: {err}");
+        assert!(stdout_of(&out).is_empty(), "nothing is written");
+        assert!(err.contains("memory budget of 1 MB"), "{err}");
+        assert!(err.contains("--limit N"), "{err}");
+        assert!(!err.contains("panicked"), "{err}");
+    }
+}
+
+#[test]
+fn a_sweep_of_the_first_candidates_stays_within_the_same_budget() {
+    let dir = scratch();
+    let tx = crowded_site(dir.path());
+    let trace = trace_below_the_site(dir.path());
+    let out = sweep_within("1", &tx, &trace, &[]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr_of(&out));
+    let json = stdout_of(&out);
+    assert!(json.contains("\"kind\":\"product\""), "{json}");
+}
+
 #[test]
 fn a_budget_that_is_not_a_number_is_an_argument_error() {
     let dir = scratch();

@@ -7,7 +7,7 @@ use pim_core::geo::{destination, GeoPoint};
 use pim_core::{Query, Site};
 
 #[path = "seeded.rs"]
-mod seeded;
+pub mod seeded;
 use seeded::Rng;
 
 /// The south-west corner of the square.

@@ -1,12 +1,11 @@
 //! What each peak of a trace is, and which emitter sets explain several peaks at once.
 //!
-//! **Each peak.** The product search ([`crate::intermod::find_products`]) runs with the
+//! **Each peak.** The product search ([`crate::intermod`]) runs with the
 //! peak's refined frequency as the channel centre, the receive channel width, and the
 //! tolerance widened by half a trace step (the peak's frequency is known to within about
 //! that). A peak within a listed emitter's own channel (k = 1, the search's co-channel
 //! rule) is that emitter's carrier: `Emitter`. Otherwise a peak on which products land is
-//! a `Product`, its candidates ranked by [`crate::rank::rank_candidates`] exactly as for a
-//! single heard frequency, at the placement of [`ExplainRule::placement`] (a ticket's fix
+//! a `Product`, its candidates ranked as [`crate::rank`] ranks a single heard frequency, at the placement of [`ExplainRule::placement`] (a ticket's fix
 //! and receiver, so that the picture and the ticket rank alike); a peak nothing explains
 //! is `Unexplained`.
 //!
@@ -20,10 +19,21 @@
 //! with its nearest candidates listed and why ([`Miss`]). The sweep's table, its JSON,
 //! the suspects, the trace picture's labels and the ticket all read this one decision.
 //!
+//! **Bounded work.** With a limit of K candidates per peak
+//! ([`ExplainRule::keep_candidates`]) and the junction at the receiver, each peak is
+//! explained by the pruned search of `explain` ([`Site::explain`] with a limit),
+//! narrowed to the products centred within the peak's resolution: its first K are the
+//! first K centred candidates of the full listing, found in memory bounded by K and the
+//! emitters, with or without a junction location. With a receiver elsewhere or a fix
+//! radius (a ticket's trace) the whole listing is ranked. Either way every listing is
+//! held within the site's memory budget ([`Site::with_memory_budget`], shared among the
+//! threads) and refused (`Refused`) before it would pass it, never by an abort.
+//!
 //! **Suspects.** A junction fed by a set of emitters makes every product of them, so one
 //! corroded joint shows as several peaks: 2A − B and 2B − A together are stronger
-//! evidence for a junction fed by A and B than either alone. For every emitter set that
-//! makes a candidate of some product peak, the peaks it explains are those with a
+//! evidence for a junction fed by A and B than either alone. Only each product peak's
+//! first [`SUSPECT_CANDIDATES`] (ten) candidates are weighed. For every emitter set that
+//! makes one of those of some product peak, the peaks it explains are those with a
 //! candidate made of that set or of part of it. Sets explaining at least two peaks are
 //! the suspects, ranked by the number of peaks explained (more first), then by the number
 //! of emitters (fewer first: the simpler explanation), then by the sum of the best rank
@@ -31,11 +41,13 @@
 
 use std::collections::{HashMap, HashSet};
 
-use crate::emitter::{carriers, Carrier, Emitter};
+use crate::emitter::Emitter;
+use crate::error::Result;
 use crate::freq::Hz;
-use crate::intermod::{find_products, Product, SearchParams};
+use crate::intermod::{co_channel, search_products_while, Product, SearchParams, MAX_ORDER};
 use crate::level::JunctionModel;
-use crate::rank::{rank_candidates, Candidate, Placement, RankInputs, Ranking};
+use crate::rank::{rank_candidates, Candidate, Placement, RankInputs, Ranker, Ranking};
+use crate::site::{Query, Site};
 
 use super::peaks::Peak;
 
@@ -136,48 +148,67 @@ pub struct ExplainedPeak {
     pub misses: Vec<(Candidate, Miss)>,
 }
 
-/// Explains one peak.
+/// Explains one peak (module docs, "Each peak" and "One decision").
+///
+/// With [`ExplainRule::keep_candidates`] and the junction at the receiver (no receiver
+/// elsewhere, no fix radius) the candidates come from the pruned search of
+/// [`Site::explain`] with a limit, narrowed to the products centred within the peak's
+/// resolution ([`Query::centred_within`]): the first K so centred, equal to the first K
+/// of the full listing's centred candidates, in memory bounded by K. Otherwise the
+/// whole listing is ranked, within the site's memory budget. Refused (class `Refused`)
+/// when the listing would pass that budget.
 pub fn explain_peak(
     peak: &Peak,
-    emitters: &[Emitter],
-    carriers: &[Carrier],
+    site: &Site,
     rule: &ExplainRule,
     step_hz: f64,
-) -> ExplainedPeak {
+) -> Result<ExplainedPeak> {
     let params = rule.params(peak.freq, step_hz);
-    let hits = find_products(carriers, &params);
-    let (kind, products) = if !hits.co_channel.is_empty() {
-        (PeakKind::Emitter, Vec::new())
-    } else if !hits.products.is_empty() {
-        (PeakKind::Product, hits.products)
-    } else {
-        (PeakKind::Unexplained, Vec::new())
-    };
-    let found = products.len();
-    let mut ranking = rank_candidates(
-        products,
-        emitters,
-        &params,
-        &RankInputs {
-            placement: rule.placement,
+    let reach = resolution(rule.rx_bandwidth, step_hz);
+    let co = co_channel(site.carriers(), &params);
+    let placement = rule.placement;
+    let pruned = placement.receiver.is_none() && placement.fix_radius_m.is_none();
+    let empty = || {
+        let inputs = RankInputs {
+            placement,
             model: rule.model,
             ..RankInputs::default()
-        },
-    );
-    // only products centred within the peak's resolution explain it
-    let reach = resolution(rule.rx_bandwidth, step_hz).0;
-    let (centred, off): (Vec<Candidate>, Vec<Candidate>) = ranking
-        .candidates
-        .iter()
-        .partition(|c| c.product.offset(params.target).0.abs() <= reach);
-    let mut misses = Vec::new();
-    let kind = if kind == PeakKind::Product && centred.is_empty() {
-        misses = off.iter().take(3).map(|c| (*c, Miss::OffCentre)).collect();
-        PeakKind::Unexplained
-    } else {
-        kind
+        };
+        rank_candidates(Vec::new(), site.emitters(), &params, &inputs)
     };
-    renumber(&mut ranking, centred);
+    let (kind, found, mut ranking, misses) = if !co.is_empty() {
+        (PeakKind::Emitter, 0, empty(), Vec::new())
+    } else if let (Some(k), true) = (rule.keep_candidates, pruned) {
+        let query = |limit: usize, centred: Option<Hz>| Query {
+            params,
+            junction: placement.junction,
+            model: rule.model,
+            limit: Some(limit),
+            centred_within: centred,
+            ..Query::new(params.target)
+        };
+        let centred = site.explain(&query(k, Some(reach)))?;
+        if !centred.ranking.candidates.is_empty() || k == 0 && centred.kept > 0 {
+            (
+                PeakKind::Product,
+                centred.found,
+                centred.ranking,
+                Vec::new(),
+            )
+        } else {
+            // nothing centred: the nearest candidates that land off centre, and why
+            let off = site.explain(&query(3, None))?;
+            let misses = off
+                .ranking
+                .candidates
+                .iter()
+                .map(|c| (*c, Miss::OffCentre))
+                .collect();
+            (PeakKind::Unexplained, off.found, empty(), misses)
+        }
+    } else {
+        whole_listing(site, rule, &params, reach)?
+    };
     if let Some(keep) = rule.keep_candidates {
         ranking.candidates.truncate(keep);
         ranking.candidates.shrink_to_fit();
@@ -187,15 +218,71 @@ pub fn explain_peak(
             .filter(|c| c.level_dbm.is_none())
             .count();
     }
-    ExplainedPeak {
+    Ok(ExplainedPeak {
         peak: *peak,
         kind,
-        co_channel: hits.co_channel,
+        co_channel: co,
         params,
         ranking,
         found,
         misses,
+    })
+}
+
+/// A peak's kind, the products its search found, its ranking and its misses.
+type Decided = (PeakKind, usize, Ranking, Vec<(Candidate, Miss)>);
+
+/// A peak explained from the whole listing, held within the site's memory budget: its
+/// kind, the products found, the centred candidates ranked anew, and the misses.
+fn whole_listing(
+    site: &Site,
+    rule: &ExplainRule,
+    params: &SearchParams,
+    reach: Hz,
+) -> Result<Decided> {
+    // Every product makes at least one candidate: the search stops once the products
+    // and one candidate each would pass the budget.
+    let mut products = Vec::new();
+    let whole = search_products_while(site.carriers(), params, 2..=MAX_ORDER, &mut |p| {
+        if !site.fits(products.len() + 1, products.len() + 1) {
+            return false;
+        }
+        products.push(p);
+        true
+    });
+    if !whole {
+        return Err(site.over_budget(products.len()));
     }
+    let found = products.len();
+    let inputs = RankInputs {
+        placement: rule.placement,
+        model: rule.model,
+        ..RankInputs::default()
+    };
+    if found == 0 {
+        let ranking = rank_candidates(products, site.emitters(), params, &inputs);
+        return Ok((PeakKind::Unexplained, 0, ranking, Vec::new()));
+    }
+    let candidates =
+        Ranker::lazy(site.emitters(), site.carriers(), params, &inputs).candidate_count(&products);
+    if !site.fits(found, candidates) {
+        return Err(site.over_budget(found));
+    }
+    let mut ranking = rank_candidates(products, site.emitters(), params, &inputs);
+    // only products centred within the peak's resolution explain it
+    let (centred, off): (Vec<Candidate>, Vec<Candidate>) = ranking
+        .candidates
+        .iter()
+        .partition(|c| c.product.offset(params.target).0.abs() <= reach.0);
+    let mut misses = Vec::new();
+    let kind = if centred.is_empty() {
+        misses = off.iter().take(3).map(|c| (*c, Miss::OffCentre)).collect();
+        PeakKind::Unexplained
+    } else {
+        PeakKind::Product
+    };
+    renumber(&mut ranking, centred);
+    Ok((kind, found, ranking, misses))
 }
 
 /// `ranking` holding only `kept` (in their order), ranked anew from 1, levels relative to
@@ -255,36 +342,41 @@ pub fn judge_levels(peaks: &mut [ExplainedPeak]) {
 }
 
 /// Explains every peak, in the order given, spreading the peaks over `threads` threads
-/// (1 runs them in this thread).
+/// (1 runs them in this thread). Each thread's listings share the site's memory budget
+/// ([`Site::shared_by`]). Refused with the first peak's refusal, in peak order.
 pub fn explain_peaks(
     peaks: &[Peak],
-    emitters: &[Emitter],
+    site: &Site,
     rule: &ExplainRule,
     step_hz: f64,
     threads: usize,
-) -> Vec<ExplainedPeak> {
-    let carriers = carriers(emitters);
+) -> Result<Vec<ExplainedPeak>> {
     let threads = threads.clamp(1, peaks.len().max(1));
     if threads == 1 {
         return peaks
             .iter()
-            .map(|p| explain_peak(p, emitters, &carriers, rule, step_hz))
+            .map(|p| explain_peak(p, site, rule, step_hz))
             .collect();
     }
+    let shared = site.clone().shared_by(threads);
+    let site = &shared;
     // Peaks dealt round-robin so that each thread gets a share of the busy ones.
-    let carriers = &carriers;
-    let mut slots: Vec<Option<ExplainedPeak>> = vec![None; peaks.len()];
-    let done: Vec<Vec<(usize, ExplainedPeak)>> = std::thread::scope(|s| {
+    let mut slots: Vec<Option<Result<ExplainedPeak>>> = Vec::new();
+    slots.resize_with(peaks.len(), || None);
+    let done: Vec<Vec<(usize, Result<ExplainedPeak>)>> = std::thread::scope(|s| {
         let handles: Vec<_> = (0..threads)
             .map(|t| {
                 s.spawn(move || {
-                    peaks
-                        .iter()
-                        .enumerate()
-                        .skip(t)
-                        .step_by(threads)
-                        .map(|(i, p)| (i, explain_peak(p, emitters, carriers, rule, step_hz)))
-                        .collect::<Vec<_>>()
+                    let mut out = Vec::new();
+                    for (i, p) in peaks.iter().enumerate().skip(t).step_by(threads) {
+                        let e = explain_peak(p, site, rule, step_hz);
+                        let refused = e.is_err();
+                        out.push((i, e));
+                        if refused {
+                            break;
+                        }
+                    }
+                    out
                 })
             })
             .collect();
@@ -296,11 +388,18 @@ pub fn explain_peaks(
     for (i, e) in done.into_iter().flatten() {
         slots[i] = Some(e);
     }
-    // A thread that failed leaves its peaks unfilled: explain them here.
+    // A refusal stops its thread: the first in peak order is the answer. A thread that
+    // failed otherwise leaves its peaks unfilled: explain them here.
+    if let Some(e) = slots.iter_mut().find_map(|s| match s {
+        Some(Err(_)) => s.take(),
+        _ => None,
+    }) {
+        return e.map(|_| Vec::new());
+    }
     slots
         .into_iter()
         .zip(peaks)
-        .map(|(slot, p)| slot.unwrap_or_else(|| explain_peak(p, emitters, carriers, rule, step_hz)))
+        .map(|(slot, p)| slot.unwrap_or_else(|| explain_peak(p, site, rule, step_hz)))
         .collect()
 }
 
@@ -338,6 +437,11 @@ fn subsets(key: &SetKey) -> impl Iterator<Item = SetKey> + '_ {
     })
 }
 
+/// The candidates of each product peak the suspects are judged on: its first ten. A set
+/// that makes none of a peak's first ten is no likely source of it, and judging on every
+/// candidate of every peak grows with the listing (millions against a regional list).
+pub const SUSPECT_CANDIDATES: usize = 10;
+
 /// One emitter set explaining several peaks.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Suspect {
@@ -351,7 +455,7 @@ pub struct Suspect {
 }
 
 /// The emitter sets explaining at least two product peaks, best first (see the module
-/// docs for the order).
+/// docs for the order), judged on each peak's first [`SUSPECT_CANDIDATES`] candidates.
 pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
     // For each peak: set → (best rank, that candidate's product).
     let per_peak: Vec<HashMap<SetKey, (usize, Product)>> = peaks
@@ -359,7 +463,7 @@ pub fn suspects(peaks: &[ExplainedPeak], emitters: &[Emitter]) -> Vec<Suspect> {
         .map(|p| {
             let mut m: HashMap<SetKey, (usize, Product)> = HashMap::new();
             if p.kind == PeakKind::Product {
-                for c in &p.ranking.candidates {
+                for c in p.ranking.candidates.iter().take(SUSPECT_CANDIDATES) {
                     m.entry(key_of(&c.product))
                         .and_modify(|e| {
                             if c.rank < e.0 {
@@ -458,8 +562,13 @@ mod tests {
             peak(157_200_000),
             peak(162_000_000),
         ];
-        for threads in [1, 2] {
-            let x = explain_peaks(&peaks, &e, &rule(), 1_000.0, threads);
+        let site = Site::new(e.clone());
+        for (threads, keep) in [(1, None), (2, None), (1, Some(20)), (2, Some(20))] {
+            let r = ExplainRule {
+                keep_candidates: keep,
+                ..rule()
+            };
+            let x = explain_peaks(&peaks, &site, &r, 1_000.0, threads).unwrap();
             let kinds: Vec<PeakKind> = x.iter().map(|p| p.kind).collect();
             assert_eq!(
                 kinds,

@@ -8,8 +8,8 @@
 //!   receive channel apart, and refines each within its bin (parabolic interpolation of
 //!   the top three bins: common practice);
 //! - [`classify`] calls each peak a listed emitter's own carrier, an intermodulation
-//!   product (the candidates of [`crate::intermod::find_products`] ranked by
-//!   [`crate::rank::rank`]) or unexplained, and ranks the emitter sets that explain
+//!   product (the first candidates of the pruned search, [`crate::site::Site::explain`]
+//!   with a limit, or the whole listing ranked by [`crate::rank::rank`]) or unexplained, and ranks the emitter sets that explain
 //!   several peaks at once.
 //!
 //! **Grids.** A trace is a uniform grid of frequencies, as a swept or FFT analyser writes
@@ -361,9 +361,14 @@ pub struct Sweep {
     pub suspects: Vec<classify::Suspect>,
 }
 
-/// Finds the floor and the peaks of `trace`, explains each peak from `emitters` and ranks
-/// the suspects.
-pub fn analyse(trace: &Trace, emitters: &[crate::emitter::Emitter], rule: &SweepRule) -> Sweep {
+/// Finds the floor and the peaks of `trace`, explains each peak from the site's emitters
+/// and ranks the suspects. Refused (class `Refused`) when a peak's listing would pass the
+/// site's memory budget ([`classify::explain_peak`]).
+pub fn analyse(
+    trace: &Trace,
+    site: &crate::site::Site,
+    rule: &SweepRule,
+) -> crate::error::Result<Sweep> {
     let rx = rule.explain.rx_bandwidth;
     let window = rule
         .floor_window_points
@@ -379,15 +384,15 @@ pub fn analyse(trace: &Trace, emitters: &[crate::emitter::Emitter], rule: &Sweep
         },
     );
     let mut explained =
-        classify::explain_peaks(&found, emitters, &rule.explain, trace.step_hz, rule.threads);
+        classify::explain_peaks(&found, site, &rule.explain, trace.step_hz, rule.threads)?;
     classify::judge_levels(&mut explained);
-    let suspects = classify::suspects(&explained, emitters);
-    Sweep {
+    let suspects = classify::suspects(&explained, site.emitters());
+    Ok(Sweep {
         floor,
         min_distance_points: min_distance,
         peaks: explained,
         suspects,
-    }
+    })
 }
 
 #[cfg(test)]

@@ -7,16 +7,18 @@
 //! mean (common practice); several sweeps combined by maximum hold show the largest of
 //! those powers at each point.
 
-use pim_core::emitter::Emitter;
+use pim_core::emitter::{watts_to_dbm, Emitter};
 use pim_core::freq::Hz;
-use pim_core::geo::GeoPoint;
+use pim_core::geo::{destination, GeoPoint};
 use pim_core::intermod::{find_products, SearchParams};
 use pim_core::level::JunctionModel;
 use pim_core::rank::formula;
-use pim_core::trace::classify::{ExplainRule, PeakKind};
+use pim_core::trace::classify::{explain_peak, ExplainRule, PeakKind};
 use pim_core::trace::floor::Floor;
 use pim_core::trace::peaks::select_maxima;
+use pim_core::trace::peaks::Peak;
 use pim_core::trace::{analyse, SweepRule, Trace};
+use pim_core::Site;
 use pim_io::read_emitters;
 use pim_tests::{field_log, Rng};
 
@@ -164,7 +166,7 @@ fn planted_carriers_products_and_spurs_are_found_within_a_bin_and_classed() {
             let floor = -112.0 + 8.0 * (p.0 - start) as f64 / (16e6);
             plant(&mut t, p.0 as f64 + j * step, floor + p.1);
         }
-        let s = analyse(&t, &emitters, &rule(12_500));
+        let s = analyse(&t, &Site::new(emitters.clone()), &rule(12_500)).unwrap();
         for (p, j) in planted.iter().zip(&jitter) {
             let truth = p.0 as f64 + j * step;
             let found = s
@@ -254,7 +256,7 @@ fn false_peak_rate_on_pure_noise_is_as_stated() {
             );
             let mut r = rule(12_500);
             r.explain.max_order = 1; // the explanation plays no part here
-            let s = analyse(&t, &[], &r);
+            let s = analyse(&t, &Site::default(), &r).unwrap();
             peaks += s.peaks.len();
             points += t.levels_dbm.len();
         }
@@ -366,7 +368,7 @@ fn reference_trace_planted_carriers_are_found() {
         levels_dbm: numbers(&r["levels_dbm"]),
         sweeps: 1,
     };
-    let s = analyse(&t, &[], &rule(12_500));
+    let s = analyse(&t, &Site::default(), &rule(12_500)).unwrap();
     for p in r["planted"].as_array().unwrap() {
         let f = p["freq_hz"].as_f64().unwrap();
         let l = p["level_dbm"].as_f64().unwrap();
@@ -382,4 +384,173 @@ fn reference_trace_planted_carriers_are_found() {
         );
         assert_eq!(found.kind, PeakKind::Unexplained);
     }
+}
+
+/// A seeded small site near 148–149.2 MHz (a tenth FM broadcasters), most emitters with
+/// an ERP and a place within 5 km of `junction` when `located`.
+fn small_site(rng: &mut Rng, n: usize, junction: GeoPoint, located: bool) -> Site {
+    let pick = |rng: &mut Rng, n: usize| ((rng.uniform() * n as f64) as usize).min(n - 1);
+    Site::new(
+        (0..n)
+            .map(|i| {
+                let f = if rng.uniform() < 0.1 {
+                    88_100_000 + pick(rng, 100) as i64 * 200_000
+                } else {
+                    148_000_000 + pick(rng, 96) as i64 * 12_500
+                };
+                let w = [0i64, 11_250, 16_000, 180_000][pick(rng, 4)];
+                let mut e = Emitter::new(format!("TX{i:02}"), Hz(f), Hz(w));
+                if located && rng.uniform() < 0.9 {
+                    e.erp_dbm = Some(watts_to_dbm(1.0 + 500.0 * rng.uniform()));
+                    e.position = Some(destination(
+                        junction,
+                        360.0 * rng.uniform(),
+                        5.0 + 5_000.0 * rng.uniform(),
+                    ));
+                }
+                e
+            })
+            .collect(),
+    )
+}
+
+/// Each peak explained through the pruned search (a limit of K per peak) gets the first K
+/// centred candidates of the full listing, ranks and levels included, the same kind and
+/// the same misses; with and without a junction location, with and without the
+/// receiver's own products modelled, on several trace steps. The reference is the full
+/// listing itself.
+#[test]
+fn each_peaks_first_k_equal_the_first_k_of_the_full_listing() {
+    let junction = GeoPoint::new(45.0, -122.0);
+    let mut compared = 0;
+    for seed in 1..=60u64 {
+        let mut rng = Rng::new(seed);
+        let n = 6 + (rng.uniform() * 50.0) as usize;
+        let site = small_site(&mut rng, n, junction, seed % 5 != 0);
+        let step = [100.0, 1_000.0, 3_125.0][seed as usize % 3];
+        let full_rule = ExplainRule {
+            rx_bandwidth: Hz(12_500),
+            tolerance: Hz(0),
+            max_order: 3 + (seed % 5) as u32,
+            max_emitters: 1 + (seed % 3) as u32,
+            placement: pim_core::rank::Placement::at((seed % 3 != 0).then_some(junction)),
+            model: JunctionModel {
+                rx_iip3_dbm: (seed % 4 == 1).then_some(0.0),
+                ..JunctionModel::default()
+            },
+            keep_candidates: None,
+        };
+        for _ in 0..12 {
+            let channel = (rng.uniform() * 96.0) as i64;
+            let freq = 148_000_000 + channel * 12_500 + ((rng.uniform() - 0.5) * 16_000.0) as i64;
+            let peak = Peak {
+                index: 0,
+                freq: Hz(freq),
+                level_dbm: -90.0,
+                floor_dbm: -110.0,
+                above_floor_db: 20.0,
+            };
+            let full = explain_peak(&peak, &site, &full_rule, step).unwrap();
+            let k = 1 + (rng.uniform() * 25.0) as usize;
+            let top_rule = ExplainRule {
+                keep_candidates: Some(k),
+                ..full_rule
+            };
+            let top = explain_peak(&peak, &site, &top_rule, step).unwrap();
+            let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
+            assert_eq!(top.kind, full.kind, "seed {seed}, {freq} Hz");
+            assert_eq!(top.co_channel, full.co_channel, "seed {seed}, {freq} Hz");
+            assert_eq!(
+                top.ranking.candidates.len(),
+                want.len(),
+                "seed {seed}, {freq} Hz, K = {k}"
+            );
+            for (a, b) in top.ranking.candidates.iter().zip(want) {
+                assert_eq!(a, b, "seed {seed}, {freq} Hz, K = {k}");
+            }
+            assert_eq!(top.misses, full.misses, "seed {seed}, {freq} Hz");
+            compared += want.len();
+        }
+    }
+    assert!(compared > 500, "{compared} candidates compared");
+}
+
+/// A whole sweep with ten candidates a peak classes every peak as the full listing does
+/// (the level test included) and ranks the same suspects (both judged on each peak's first
+/// ten).
+#[test]
+fn a_sweep_of_the_first_ten_decides_as_the_full_listing() {
+    let emitters = site_without_broadcasters();
+    let site = Site::new(emitters.clone());
+    let f = |name: &str| emitters.iter().find(|e| e.id == name).unwrap().freq.0;
+    let (start, step) = (144_000_000i64, 3_200.0);
+    let mut rng = Rng::new(7);
+    let mut t = noise_trace(&mut rng, start, step, 5_001, (-112.0, -104.0), 4);
+    for (hz, above) in [
+        (2 * f("SKP-152") - f("FIRE-DSP"), 22.0),
+        (2 * f("SKP-152") - f("HWY-BASE"), 18.0),
+        (2 * f("HWY-BASE") - f("SKP-152"), 16.0),
+        (f("SKP-157"), 40.0),
+        (147_200_000, 20.0),
+    ] {
+        let floor = -112.0 + 8.0 * (hz - start) as f64 / 16e6;
+        plant(&mut t, hz as f64, floor + above + 4.0);
+    }
+    for junction in [Some(GeoPoint::new(45.103, -122.412)), None] {
+        let mut full = rule(12_500);
+        full.explain.placement = pim_core::rank::Placement::at(junction);
+        let mut top = full;
+        top.explain.keep_candidates = Some(10);
+        let a = analyse(&t, &site, &full).unwrap();
+        let b = analyse(&t, &site, &top).unwrap();
+        assert_eq!(a.peaks.len(), b.peaks.len());
+        for (x, y) in a.peaks.iter().zip(&b.peaks) {
+            assert_eq!(x.kind, y.kind, "{} Hz", x.peak.freq.0);
+            assert_eq!(x.ranking.candidates.first(), y.ranking.candidates.first());
+        }
+        assert_eq!(a.suspects, b.suspects);
+        assert!(!b.suspects.is_empty());
+    }
+}
+
+/// Past the site's memory budget a sweep is refused (class `Refused`, the budget named)
+/// before the listing is made, whether its peaks are ranked in full at a fix and a
+/// receiver (as a ticket's trace is) or from the pruned search's first candidates.
+#[test]
+fn a_sweep_past_the_memory_budget_is_refused_naming_it() {
+    let junction = GeoPoint::new(45.0, -122.0);
+    let mut rng = Rng::new(3);
+    let site = small_site(&mut rng, 60, junction, true).with_memory_budget(20_000);
+    let mut rng = Rng::new(4);
+    // below the site's channels (148–149.2 MHz), where only its products land
+    let mut t = noise_trace(&mut rng, 146_000_000, 1_000.0, 1_201, (-112.0, -112.0), 4);
+    for hz in [146_300_000i64, 146_600_000, 146_900_000] {
+        plant(&mut t, hz as f64, -80.0);
+    }
+    let at_fix = pim_core::rank::Placement {
+        junction: Some(destination(junction, 45.0, 300.0)),
+        receiver: Some(junction),
+        fix_radius_m: Some(50.0),
+    };
+    for (placement, keep) in [
+        (at_fix, Some(5)),
+        (pim_core::rank::Placement::at(Some(junction)), None),
+        (pim_core::rank::Placement::at(Some(junction)), Some(1_000)),
+    ] {
+        let mut r = rule(12_500);
+        r.explain.placement = placement;
+        r.explain.keep_candidates = keep;
+        let e = match analyse(&t, &site, &r) {
+            Ok(s) => panic!("{keep:?}: {} peaks, not refused", s.peaks.len()),
+            Err(e) => e,
+        };
+        assert_eq!(e.class, pim_core::ErrorClass::Refused, "{keep:?}: {e:?}");
+        assert!(e.message.contains("memory budget of 0 MB"), "{}", e.message);
+    }
+    // the first few stay within it
+    let mut r = rule(12_500);
+    r.explain.keep_candidates = Some(5);
+    r.explain.placement = pim_core::rank::Placement::at(Some(junction));
+    let s = analyse(&t, &site.clone().with_memory_budget(200_000), &r).map_err(|e| e.message);
+    assert!(s.is_ok_and(|s| s.peaks.iter().any(|p| p.kind == PeakKind::Product)));
 }
