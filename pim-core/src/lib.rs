@@ -56,6 +56,7 @@ mod nearby;
 pub mod onair;
 pub mod plan;
 pub mod rank;
+pub mod recording;
 pub mod site;
 pub mod slope;
 pub mod study;
