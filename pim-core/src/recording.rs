@@ -14,7 +14,8 @@
 //! it stands `threshold_db − hysteresis_db` above (a level hysteresis, common practice for
 //! squelch and carrier detectors); then gaps of at most [`PresenceRule::bridge_sweeps`]
 //! sweeps between two present runs are filled, so that one noisy sweep does not split an
-//! interval. Each run of present sweeps is an [`Interval`] from its first sweep's time to
+//! interval, and runs shorter than [`PresenceRule::min_run_sweeps`] are cleared, so that
+//! one noisy sweep does not make one. Each run of present sweeps is an [`Interval`] from its first sweep's time to
 //! its last's.
 //!
 //! **Evidence.** Each sweep is one observation: the product peak present or not. Emitters
@@ -54,6 +55,11 @@ use crate::trace::Trace;
 /// The least level hysteresis, dB, by default: 3 dB (common practice for carrier detect).
 pub const DEFAULT_HYSTERESIS_DB: f64 = 3.0;
 
+/// The presence threshold by default, dB above the sweep's floor: one sweep's noise
+/// (exponential power, a sample detector) passes its median by 13 dB in one point of about
+/// a million (2^-20), where 10 dB is passed in one of a thousand.
+pub const DEFAULT_PRESENCE_DB: f64 = 13.0;
+
 /// Gaps bridged by default, in sweeps.
 pub const DEFAULT_BRIDGE_SWEEPS: usize = 1;
 
@@ -66,6 +72,9 @@ pub struct PresenceRule {
     pub hysteresis_db: f64,
     /// The longest gap, in sweeps, filled between two present runs.
     pub bridge_sweeps: usize,
+    /// The shortest run, in sweeps, kept as present once gaps are bridged: a lone sweep
+    /// in which noise crossed the threshold is no interval.
+    pub min_run_sweeps: usize,
     /// The floor window, points.
     pub floor_window_points: usize,
     /// Points either side of a watched point searched for its level.
@@ -188,6 +197,7 @@ impl PresenceTracker {
             .zip(self.excess_db)
             .map(|((&bin, mut present), excess_db)| {
                 bridge_gaps(&mut present, bridge);
+                drop_short_runs(&mut present, self.rule.min_run_sweeps);
                 let intervals = intervals(&present, &self.times);
                 WatchPresence {
                     bin,
@@ -221,6 +231,25 @@ pub fn bridge_gaps(present: &mut [bool], bridge: usize) {
         }
     }
 }
+
+/// Clears runs of present sweeps shorter than `min_run`.
+pub fn drop_short_runs(present: &mut [bool], min_run: usize) {
+    let mut i = 0;
+    while i < present.len() {
+        if present[i] {
+            let j = i + present[i..].iter().take_while(|&&p| p).count();
+            if j - i < min_run {
+                present[i..j].iter_mut().for_each(|p| *p = false);
+            }
+            i = j;
+        } else {
+            i += 1;
+        }
+    }
+}
+
+/// The least run kept by default, in sweeps.
+pub const DEFAULT_MIN_RUN_SWEEPS: usize = 2;
 
 /// The runs of present sweeps as intervals from the first sweep's time to the last's.
 pub fn intervals(present: &[bool], times: &[OffsetDateTime]) -> Vec<Interval> {
@@ -577,6 +606,8 @@ mod tests {
         assert_eq!(iv.len(), 2);
         assert_eq!((iv[0].start, iv[0].end), (t[1], t[5]));
         assert_eq!((iv[1].start, iv[1].end), (t[8], t[8]));
+        drop_short_runs(&mut p, 2);
+        assert_eq!(intervals(&p, &t).len(), 1);
     }
 
     #[test]
@@ -585,6 +616,7 @@ mod tests {
             threshold_db: 10.0,
             hysteresis_db: 3.0,
             bridge_sweeps: 0,
+            min_run_sweeps: 1,
             floor_window_points: 11,
             half_width_points: 0,
         };
