@@ -131,7 +131,8 @@ fn explain(p: &Planted) -> (Vec<String>, Vec<bool>, Vec<pim_core::onair::Interva
         bridge_sweeps: 1,
         min_run_sweeps: 2,
         floor_window_points: floor_window_points(trace.step_hz, r.explain.rx_bandwidth),
-        half_width_points: 0,
+        // half the receive channel either side, as `pim sweep --recording` searches
+        half_width_points: 1,
     };
     let mut tracker = PresenceTracker::new(presence, POINTS, watch.bins.clone());
     for (t, levels) in p.times.iter().zip(&p.sweeps) {
