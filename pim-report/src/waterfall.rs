@@ -146,12 +146,24 @@ pub fn waterfall_svg(w: &WaterfallInput) -> String {
     let plot_w = width - x0 - 6.0 - tracks as f64 * (bar_w + 2.0) - 4.0;
     let plot_h = 260.0;
     let (cw, ch) = (plot_w / g.columns as f64, plot_h / g.rows as f64);
-    let key_lines = w.tracks.len().min(12);
+    // The key, a long line split after its colon so that it fits 390 units.
+    let key: Vec<String> = w
+        .tracks
+        .iter()
+        .take(12)
+        .flat_map(|t| match t.key.split_once(": ") {
+            Some((a, b)) if t.key.chars().count() > 62 => {
+                vec![format!("{a}:"), format!("    {b}")]
+            }
+            _ => vec![t.key.clone()],
+        })
+        .collect();
+    let key_lines = key.len();
     let height = y0 + plot_h + 62.0 + key_lines as f64 * 13.0;
     let mut s = String::new();
     let _ = write!(
         s,
-        r#"<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height:.0}" width="100%" style="max-width:{width}px;height:auto" font-family="sans-serif" font-size="10">"#
+        r#"<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height:.0}" width="100%" style="max-width:{width}px;height:auto" font-family="sans-serif" font-size="10" shape-rendering="crispEdges">"#
     );
     let _ = write!(
         s,
@@ -271,12 +283,12 @@ pub fn waterfall_svg(w: &WaterfallInput) -> String {
         ys + 7.0
     );
     // The key.
-    for (k, t) in w.tracks.iter().take(key_lines).enumerate() {
+    for (k, line) in key.iter().enumerate() {
         let _ = write!(
             s,
-            r#"<text x="{x0}" y="{:.1}">{}</text>"#,
+            r#"<text x="{x0}" y="{:.1}" xml:space="preserve">{}</text>"#,
             ys + 34.0 + k as f64 * 13.0,
-            xml_escape(&t.key)
+            xml_escape(line)
         );
     }
     s.push_str("</svg>\n");
