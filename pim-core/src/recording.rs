@@ -561,7 +561,7 @@ fn judge_candidate(c: &Candidate, book: &Logbook, w: &WatchPresence) -> Recorded
     }
     let mean = |s: f64, n: u32| (n > 0).then(|| s / n as f64);
     RecordedCandidate {
-        candidate: c.clone(),
+        candidate: *c,
         evidence,
         agreement: Agreement::of_table(
             evidence.support,
