@@ -217,3 +217,28 @@ fn bad_recordings_are_named_by_file_line_and_field() {
         assert!(e.contains(want), "{e}\nwanted: {want}");
     }
 }
+
+#[test]
+fn the_ticket_takes_a_recording() {
+    let dir = scratch();
+    let demo = demo(dir.path());
+    let out = dir.path().join("ticket");
+    let f = |name: &str| demo.join(name).to_str().unwrap_or_default().to_string();
+    let o = pim(&[
+        "ticket",
+        "146.34",
+        "--emitters",
+        &f("emitters.csv"),
+        "--log",
+        &f("walk.csv"),
+        "--recording",
+        &f("recording.csv"),
+        "--out",
+        out.to_str().unwrap_or_default(),
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    assert!(stdout_of(&o).contains("waterfall.svg (the recording)"));
+    let table = std::fs::read_to_string(out.join("recording.txt")).unwrap_or_default();
+    assert!(table.contains("2·SKP-152 − FIRE-DSP"), "{table}");
+    assert!(out.join("waterfall.svg").is_file());
+}
