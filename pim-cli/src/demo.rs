@@ -209,7 +209,7 @@ fn commands(dir: &Path) -> Vec<String> {
     vec![
         format!("pim fix --log {}", file("walk.csv")),
         format!(
-            "pim sweep --recording {} --emitters {} --rx-bw 12.5 --svg {}",
+            "pim sweep --recording {} --emitters {} --svg {}",
             file("recording.csv"),
             file("emitters.csv"),
             shell_word(&format!("{}-waterfall.svg", dir.display()))

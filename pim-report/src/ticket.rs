@@ -1201,7 +1201,7 @@ const FIX_RADIUS_FLOOR_M: f64 = 30.0;
 
 /// How far from the fix a source may lie and still agree with the bearings, m: the
 /// reach of the region claimed (the ellipse's semi-major axis, or the likelihood
-/// contour's farthest point), at least [`FIX_RADIUS_FLOOR_M`].
+/// contour's farthest point), at least `FIX_RADIUS_FLOOR_M`.
 pub fn fix_radius_m(fix: &Fix) -> f64 {
     fix.reach_m().max(FIX_RADIUS_FLOOR_M)
 }
