@@ -162,8 +162,8 @@ impl PresenceTracker {
         let floor = Floor::estimate(levels_dbm, self.rule.floor_window_points);
         let h = self.rule.half_width_points;
         for (w, &bin) in self.watches.iter().enumerate() {
-            let lo = bin.saturating_sub(h);
-            let hi = (bin + h + 1).min(levels_dbm.len());
+            let hi = (bin.saturating_add(h).saturating_add(1)).min(levels_dbm.len());
+            let lo = bin.saturating_sub(h).min(hi);
             let level = levels_dbm[lo..hi]
                 .iter()
                 .copied()
