@@ -313,7 +313,17 @@ pub fn run(args: Args) -> CliResult {
             None,
         );
         let emitters = inputs.site.emitters();
-        let r = crate::recording::explain(path, emitters, &rule, &[])?;
+        // emitters outside the recording's span follow the on-air log, as in `explain`
+        let on_air = match &g.evidence.on_air {
+            Some(log) => pim_io::onair::read_on_air(
+                &log.display().to_string(),
+                crate::common::open(log)?,
+                emitters,
+                &mut pim_io::onair::Clock::default(),
+            )?,
+            None => Vec::new(),
+        };
+        let r = crate::recording::explain(path, emitters, &rule, &on_air)?;
         let source = path.display().to_string();
         extra.push((
             "waterfall.svg",
