@@ -138,6 +138,29 @@ pub fn run(args: Args) -> CliResult {
             sources: "trace.csv".into(),
         });
     }
+    // The recording: the pair's product coming and going with their keying.
+    let recording = crate::demo_recording::recording_csv();
+    let rec_rule = crate::sweep::sweep_rule(
+        &inputs.params,
+        inputs.placement(),
+        inputs.model,
+        10.0,
+        None,
+        None,
+    );
+    let read =
+        |visit: &mut dyn FnMut(&pim_io::recording::RecordedSweep) -> pim_core::Result<()>| {
+            crate::demo_recording::read(&recording, visit)
+        };
+    let explained = crate::recording::explain_with(
+        &read,
+        "recording.csv",
+        inputs.site.emitters(),
+        &rec_rule,
+        &[],
+    )?;
+    let waterfall =
+        crate::recording::waterfall(&explained, inputs.site.emitters(), "recording.csv");
     let existing = if args.force || written_by_the_demo(&args.out) {
         Existing::Replace
     } else {
@@ -155,9 +178,18 @@ pub fn run(args: Args) -> CliResult {
     ]
     .iter()
     .map(|(name, text)| (*name, text.as_bytes().to_vec()))
+    .chain([
+        ("recording.csv", recording.clone().into_bytes()),
+        ("waterfall.svg", waterfall.into_bytes()),
+    ])
     .collect();
     let summary = write_ticket(&inputs, &args.out, &[], existing, &extra)?;
     write!(out, "{summary}")?;
+    write!(
+        out,
+        "{}",
+        crate::recording::table(&explained, inputs.site.emitters(), Some(3))
+    )?;
     writeln!(
         out,
         "\nIts inputs are in {} too. The commands it ran, to run on your own files:",
@@ -176,6 +208,12 @@ fn commands(dir: &Path) -> Vec<String> {
     let again = shell_word(&format!("{}-again", dir.display()));
     vec![
         format!("pim fix --log {}", file("walk.csv")),
+        format!(
+            "pim sweep --recording {} --emitters {} --svg {}",
+            file("recording.csv"),
+            file("emitters.csv"),
+            shell_word(&format!("{}-waterfall.svg", dir.display()))
+        ),
         format!(
             "pim ticket {} --emitters {} --log {} --structures {} --trace {} --attenuator-readings {} --power-steps {} --rx-lat {} --rx-lon {} --site 'Marrow Hill' --out {again}",
             HEARD.mhz_text(),

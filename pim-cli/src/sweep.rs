@@ -28,8 +28,19 @@ use pim_report::trace::trace_svg;
 pub struct Args {
     /// Trace files: CSV with freq_hz, freq_khz or freq_mhz and level_dbm; several sweeps
     /// of the same grid are combined by maximum hold.
-    #[arg(value_name = "TRACE", required = true)]
+    #[arg(
+        value_name = "TRACE",
+        required_unless_present = "recording",
+        conflicts_with = "recording"
+    )]
     pub traces: Vec<PathBuf>,
+    /// A recording instead of traces: a folder of trace files named by (or holding in a
+    /// `time` column) their ISO 8601 times, or one CSV with a `time` column; each peak
+    /// and each listed emitter in the span is followed sweep by sweep, and the product
+    /// peaks' candidates are ordered by how their presence agrees with their emitters'.
+    /// With --svg, the waterfall is drawn.
+    #[arg(long, value_name = "DIR|FILE")]
+    pub recording: Option<PathBuf>,
     /// Emitter file: CSV with a header, or a JSON array.
     #[arg(long, value_name = "FILE")]
     pub emitters: PathBuf,
@@ -131,6 +142,7 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
 
 pub fn run(args: Args) -> CliResult {
     let mut inputs: Vec<&std::path::Path> = args.traces.iter().map(PathBuf::as_path).collect();
+    inputs.extend(args.recording.as_deref());
     inputs.push(&args.emitters);
     let existing = if args.force {
         Existing::Replace
@@ -143,8 +155,11 @@ pub fn run(args: Args) -> CliResult {
     let columns = crate::common::Columns::new(&args.columns)?;
     let emitters = load_emitters(&args.emitters, &columns)?;
     columns.check()?;
-    let trace = load_traces(&args.traces)?;
     let s = &args.search;
+    if let Some(recording) = &args.recording {
+        return run_recording(&args, recording, &emitters, &inputs, existing);
+    }
+    let trace = load_traces(&args.traces)?;
     let rule = sweep_rule(
         &s.params(Hz::ZERO, s.rx_bw),
         pim_core::rank::Placement::at(s.rx_site()),
@@ -195,6 +210,75 @@ pub fn run(args: Args) -> CliResult {
             inputs["emitters_file"] = json!(report.emitters_source);
             inputs["emitter_count"] = json!(emitters.len());
             write_json(&mut out, &report, &inputs)?;
+        }
+    }
+    finish(out)
+}
+
+/// `pim sweep --recording`: the maximum hold's sweep with the recording's presence and
+/// evidence.
+fn run_recording(
+    args: &Args,
+    path: &std::path::Path,
+    emitters: &[pim_core::Emitter],
+    inputs: &[&std::path::Path],
+    existing: Existing,
+) -> CliResult {
+    let s = &args.search;
+    let rule = sweep_rule(
+        &s.params(Hz::ZERO, s.rx_bw),
+        pim_core::rank::Placement::at(s.rx_site()),
+        s.junction_model(),
+        args.threshold_db,
+        args.floor_window,
+        None,
+    );
+    let r = crate::recording::explain(path, emitters, &rule, &[])?;
+    let sources = path.display().to_string();
+    if let Some(svg) = &args.svg {
+        let picture = crate::recording::waterfall(&r, emitters, &sources);
+        write_file_atomically(svg, picture.into_bytes(), inputs, existing)?;
+    }
+    let report = SweepReport {
+        trace: &r.trace,
+        sweep: &r.sweep,
+        emitters,
+        sources: sources.clone(),
+        emitters_source: args.emitters.display().to_string(),
+        threshold_db: args.threshold_db,
+        rx_bw: s.rx_bw,
+        shown: args.listing.shown(3),
+        suspects: args.suspects,
+    };
+    let mut out = stdout();
+    match args.listing.format {
+        ListFormat::Json => {
+            let mut inputs = s.inputs_json();
+            inputs["rx_bw_khz"] = json!(s.rx_bw.khz());
+            inputs["threshold_db"] = json!(args.threshold_db);
+            inputs["recording"] = json!(sources);
+            inputs["emitters_file"] = json!(report.emitters_source);
+            inputs["emitter_count"] = json!(emitters.len());
+            let mut buffer = Vec::new();
+            let all = SweepReport {
+                shown: None,
+                ..report
+            };
+            write_json(&mut buffer, &all, &inputs)?;
+            let mut doc: serde_json::Value = serde_json::from_slice(&buffer)
+                .map_err(|e| Error::input(Place::new("sweep JSON"), e.to_string()))?;
+            crate::recording::augment_json(&mut doc, &r, emitters, args.listing.shown(3));
+            let text = serde_json::to_string_pretty(&doc)
+                .map_err(|e| Error::input(Place::new("sweep JSON"), e.to_string()))?;
+            std::io::Write::write_all(&mut out, text.as_bytes())?;
+            std::io::Write::write_all(&mut out, b"\n")?;
+        }
+        ListFormat::Markdown => write_markdown(&mut out, &report)?,
+        ListFormat::Csv => write_csv(&mut out, &report)?,
+        ListFormat::Table => {
+            write_table(&mut out, &report)?;
+            let text = crate::recording::table(&r, emitters, args.listing.shown(3));
+            std::io::Write::write_all(&mut out, text.as_bytes())?;
         }
     }
     finish(out)

@@ -42,6 +42,12 @@ pub struct Args {
     /// ticket shows it (trace.svg) with the emitter sets that explain several peaks.
     #[arg(long = "trace", value_name = "FILE")]
     pub traces: Vec<PathBuf>,
+    /// A recording of the receive band (a folder of trace files named by their times, or
+    /// one CSV with a `time` column): the waterfall (waterfall.svg) and each product
+    /// peak's candidates ordered by how their presence agrees with their emitters'
+    /// (recording.txt) are written beside the ticket.
+    #[arg(long, value_name = "DIR|FILE")]
+    pub recording: Option<PathBuf>,
     /// Least height of a trace peak above the noise floor, in dB.
     #[arg(long = "threshold-db", value_name = "DB", default_value = "10", value_parser = crate::sweep::threshold_arg)]
     pub threshold_db: f64,
@@ -277,6 +283,7 @@ pub fn run(args: Args) -> CliResult {
     input_paths.extend(args.structures.as_deref());
     input_paths.extend(args.fix.track.as_deref());
     input_paths.extend(args.traces.iter().map(PathBuf::as_path));
+    input_paths.extend(args.recording.as_deref());
     input_paths.extend(g.evidence.paths());
     input_paths.extend(g.attenuator_readings.as_deref());
     input_paths.extend(g.power_steps.as_deref());
@@ -295,8 +302,47 @@ pub fn run(args: Args) -> CliResult {
     } else {
         Existing::Refuse
     };
-    let summary = write_ticket(&inputs, &args.out, &input_paths, existing, &[])?;
+    let mut extra: Vec<(&str, Vec<u8>)> = Vec::new();
+    if let Some(path) = &args.recording {
+        let rule = crate::sweep::sweep_rule(
+            &inputs.params,
+            inputs.placement(),
+            inputs.model,
+            args.threshold_db,
+            None,
+            None,
+        );
+        let emitters = inputs.site.emitters();
+        // emitters outside the recording's span follow the on-air log, as in `explain`
+        let on_air = match &g.evidence.on_air {
+            Some(log) => pim_io::onair::read_on_air(
+                &log.display().to_string(),
+                crate::common::open(log)?,
+                emitters,
+                &mut pim_io::onair::Clock::default(),
+            )?,
+            None => Vec::new(),
+        };
+        let r = crate::recording::explain(path, emitters, &rule, &on_air)?;
+        let source = path.display().to_string();
+        extra.push((
+            "waterfall.svg",
+            crate::recording::waterfall(&r, emitters, &source).into_bytes(),
+        ));
+        extra.push((
+            "recording.txt",
+            crate::recording::table(&r, emitters, Some(args.limit)).into_bytes(),
+        ));
+    }
+    let summary = write_ticket(&inputs, &args.out, &input_paths, existing, &extra)?;
     let mut out = stdout();
     write!(out, "{summary}")?;
+    for (name, _) in &extra {
+        writeln!(
+            out,
+            "  {} (the recording)",
+            pim_io::text::shell_word(&args.out.join(name).display().to_string())
+        )?;
+    }
     finish(out)
 }

@@ -57,6 +57,7 @@ pub mod onair;
 pub mod plan;
 mod query;
 pub mod rank;
+pub mod recording;
 pub mod site;
 pub mod slope;
 pub mod study;

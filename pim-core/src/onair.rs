@@ -115,6 +115,15 @@ impl Schedule {
         }
     }
 
+    /// Marks emitter `emitter` as logged: off the air at every time outside the
+    /// intervals it has (none, if it was never on). A recording that watched an emitter's
+    /// channel and never saw it knows it was off throughout.
+    pub fn mark_logged(&mut self, emitter: usize) {
+        if let Some(slot) = self.logged.get_mut(emitter) {
+            slot.get_or_insert_with(Vec::new);
+        }
+    }
+
     /// Whether the emitter has intervals in the log.
     pub fn is_logged(&self, emitter: usize) -> bool {
         matches!(self.logged.get(emitter), Some(Some(_)))

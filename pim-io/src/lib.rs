@@ -13,6 +13,7 @@ pub mod fieldlog;
 pub mod onair;
 pub mod output;
 pub mod readings;
+pub mod recording;
 pub mod table;
 pub mod text;
 pub mod trace;

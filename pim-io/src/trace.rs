@@ -33,7 +33,7 @@ pub struct TraceFile {
 }
 
 /// A trace frequency in whole hertz: exact decimal text, sub-hertz digits rounded.
-fn trace_frequency(place: impl Fn() -> Place, text: &str, scale: i32) -> Result<Hz> {
+pub(crate) fn trace_frequency(place: impl Fn() -> Place, text: &str, scale: i32) -> Result<Hz> {
     let hz = match parse_scaled_decimal(text, scale) {
         Ok(v) => v,
         Err(DecimalError::TooFine(_)) => {
@@ -67,48 +67,52 @@ fn trace_frequency(place: impl Fn() -> Place, text: &str, scale: i32) -> Result<
     Ok(Hz(hz))
 }
 
-/// Reads one trace (one sweep) from `reader` into `hold`; `source` names the file in
-/// messages. A last row without a line end is left out and its line kept in
-/// [`TraceFile::torn_line`], as a field log's is.
-pub fn read_trace_into<R: Read>(source: &str, reader: R, hold: &mut MaxHold) -> Result<TraceFile> {
-    let mut table = Table::open(source, reader)?;
+/// The one frequency column of `table` and its power of ten.
+pub(crate) fn frequency_column<R: Read>(
+    table: &Table<R>,
+    source: &str,
+) -> Result<(&'static str, i32)> {
     let present: Vec<(&str, i32)> = FREQUENCY_COLUMNS
         .iter()
         .copied()
         .filter(|(name, _)| table.column(name).is_some())
         .collect();
-    let (freq_name, scale) = match present.as_slice() {
-        [one] => *one,
-        [] => {
-            return Err(Error::input(
-                Place::new(source).at_line(1).at_field("freq_mhz"),
-                format!(
-                    "missing frequency column (freq_hz, freq_khz or freq_mhz); the header has: {}",
-                    table
-                        .headers()
-                        .iter()
-                        .filter(|h| !h.is_empty())
-                        .cloned()
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ),
-            ))
-        }
-        several => {
-            return Err(Error::input(
-                Place::new(source).at_line(1).at_field(several[1].0),
-                format!(
-                    "{} frequency columns ({}); keep one",
-                    several.len(),
-                    several
-                        .iter()
-                        .map(|(n, _)| *n)
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ),
-            ))
-        }
-    };
+    match present.as_slice() {
+        [one] => Ok(*one),
+        [] => Err(Error::input(
+            Place::new(source).at_line(1).at_field("freq_mhz"),
+            format!(
+                "missing frequency column (freq_hz, freq_khz or freq_mhz); the header has: {}",
+                table
+                    .headers()
+                    .iter()
+                    .filter(|h| !h.is_empty())
+                    .cloned()
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        )),
+        several => Err(Error::input(
+            Place::new(source).at_line(1).at_field(several[1].0),
+            format!(
+                "{} frequency columns ({}); keep one",
+                several.len(),
+                several
+                    .iter()
+                    .map(|(n, _)| *n)
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        )),
+    }
+}
+
+/// Reads one trace (one sweep) from `reader` into `hold`; `source` names the file in
+/// messages. A last row without a line end is left out and its line kept in
+/// [`TraceFile::torn_line`], as a field log's is.
+pub fn read_trace_into<R: Read>(source: &str, reader: R, hold: &mut MaxHold) -> Result<TraceFile> {
+    let mut table = Table::open(source, reader)?;
+    let (freq_name, scale) = frequency_column(&table, source)?;
     let freq_col = table.require(freq_name)?;
     let level_col = table.require("level_dbm")?;
     let mut file = TraceFile {

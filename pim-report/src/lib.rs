@@ -21,3 +21,4 @@ pub mod text_table;
 pub mod ticket;
 pub mod trace;
 pub mod walk;
+pub mod waterfall;

@@ -82,6 +82,9 @@ const CATALOGUE: &[(&[&str], i32, &str)] = &[
     (&["explain", "146.34", "--emitters", "emitters-control-id.json"], 3, "pim: emitters-control-id.json, line 3, field `id`: `A\\x1b]0;owned\\x07` holds a control character (U+001B); type the id again with plain characters"),
     (&["explain", "146.34", "--emitters", "emitters-spaced-id.json"], 3, "pim: emitters-spaced-id.json, line 2, field `id`: `A ` starts or ends with a space (U+0020); remove it"),
     (&["explain", "146.34", "--emitters", "{F}/emitters.csv", "--on-air", "on-air-offset-beyond-14h.csv", "--heard", "{F}/heard.csv"], 3, "pim: on-air-offset-beyond-14h.csv, line 2, field `start`: `2025-06-14T08:00+15:00` has a UTC offset beyond ±14:00, which no time zone uses"),
+    (&["sweep", "--recording", "recording-time-backwards.csv", "--emitters", "{F}/emitters.csv"], 3, "pim: recording-time-backwards.csv, line 5, field `time`: 2026-12-01T09:59:00Z is not after the previous sweep's 2026-12-01T10:00:00Z; a recording's sweeps must follow each other in time"),
+    (&["sweep", "--recording", "recording-short-sweep.csv", "--emitters", "{F}/emitters.csv"], 3, "pim: recording-short-sweep.csv, line 5: 2 points, but the first trace has 3; traces combined by maximum hold must share start, stop and point count"),
+    (&["sweep", "--recording", "recording-no-time.csv", "--emitters", "{F}/emitters.csv"], 3, "pim: recording-no-time.csv, line 1, field `time`: missing time column: a recording gives each sweep's time (ISO 8601) in a `time` column, or names each file of a folder by its time"),
 ];
 
 #[test]

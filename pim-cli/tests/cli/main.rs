@@ -14,6 +14,7 @@ mod log_files;
 mod memory;
 mod plan;
 mod ranking;
+mod recording;
 mod slope;
 mod sweep;
 mod ticket;

@@ -149,8 +149,8 @@ fn demo_runs_from_an_empty_directory() {
         .collect();
     // the seven files of every ticket, the band's trace.svg, the demo's marker and its
     // six inputs (emitters, structures, walk, trace, attenuator readings, power steps),
-    // for the commands it prints
-    assert_eq!(names.len(), 15, "{names:?}");
+    // for the commands it prints, and its recording with the recording's waterfall
+    assert_eq!(names.len(), 17, "{names:?}");
     assert!(names.contains(&".pim-demo".to_string()), "{names:?}");
 }
 

@@ -599,13 +599,15 @@ mod tests {
             Emitter::new("A", Hz(150_000_000), Hz(25_000)),
             Emitter::new("B", Hz(153_600_000), Hz(25_000)),
         ];
+        let site = Site::new(e);
         let x = explain_peaks(
             &[peak(146_433_000), peak(146_400_000)],
-            &e,
+            &site,
             &rule(),
             1_000.0,
             1,
-        );
+        )
+        .unwrap();
         assert_eq!(x[0].kind, PeakKind::Unexplained);
         assert!(x[0].ranking.candidates.is_empty());
         assert_eq!(x[0].misses[0].1, Miss::OffCentre);
@@ -630,7 +632,7 @@ mod tests {
         r.placement = Placement::at(Some(GeoPoint::new(45.0005, -122.0005)));
         let freqs = [2 * a - b, 2 * b - a, 2 * c - b];
         let peaks: Vec<Peak> = freqs.iter().map(|&f| peak(f)).collect();
-        let mut x = explain_peaks(&peaks, &e, &r, 1_000.0, 1);
+        let mut x = explain_peaks(&peaks, &Site::new(e), &r, 1_000.0, 1).unwrap();
         for (p, level) in x.iter_mut().zip([-100.0, -102.0, -130.0]) {
             assert_eq!(p.kind, PeakKind::Product);
             let first = &mut p.ranking.candidates[0];

@@ -8,6 +8,7 @@ mod large_inputs;
 mod level_checks;
 mod plan_golomb;
 mod published_checks;
+mod recording_checks;
 mod region_coverage;
 mod slope_simulated;
 mod sweep_checks;
