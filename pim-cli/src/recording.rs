@@ -93,7 +93,9 @@ pub fn explain_with(
     let trace = hold
         .finish()
         .ok_or_else(|| Error::input(Place::new(path), "no sweep in the recording"))?;
-    let sweep = pim_core::trace::analyse(&trace, emitters, rule);
+    let site = crate::common::budgeted(pim_core::Site::new(emitters.to_vec()))?;
+    let sweep =
+        pim_core::trace::analyse(&trace, &site, rule).map_err(crate::common::listing_hint)?;
     let watch = watch_list(&trace, &sweep.peaks, emitters);
     let presence = PresenceRule {
         threshold_db: DEFAULT_PRESENCE_DB.max(rule.threshold_db),

@@ -120,7 +120,8 @@ fn explain(p: &Planted) -> (Vec<String>, Vec<bool>, Vec<pim_core::onair::Interva
         return (Vec::new(), Vec::new(), Vec::new());
     };
     let r = rule();
-    let sweep = analyse(&trace, &emitters, &r);
+    let sweep = analyse(&trace, &pim_core::Site::new(emitters.clone()), &r)
+        .expect("within the memory budget");
     let watch = watch_list(&trace, &sweep.peaks, &emitters);
     // One sweep's noise (exponential power) passes its median by 10 dB in one point of
     // 2^10 and by 13 dB in one of 2^20: a sweep-by-sweep threshold sits higher than the
