@@ -400,7 +400,14 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     assert_eq!(fix_walk, fix_copy);
     let lat = fix_copy["lat"].as_f64().unwrap();
     let lon = fix_copy["lon"].as_f64().unwrap();
-    assert_eq!(page_fix, format!("{lat:.6}, {lon:.6}"));
+    // the page prints the fix to 6 decimals from the state's rounded JSON; a value on a
+    // rounding edge may print one unit of the last place apart (0.1 m)
+    let (page_lat, page_lon) = page_fix.split_once(", ").unwrap();
+    let near = |shown: &str, v: f64| (shown.trim().parse::<f64>().unwrap() - v).abs() < 1.5e-6;
+    assert!(
+        near(page_lat, lat) && near(page_lon, lon),
+        "{page_fix} vs {lat}, {lon}"
+    );
     let e = &fix_copy["ellipse"];
     // the page names the region pim fix claims: the ellipse, or the contour and its reach
     let claimed = if fix_copy["region_kind"] == "likelihood" {
@@ -468,10 +475,13 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         ),
         403
     );
-    assert_eq!(
-        status(agent.post(&with_token).send_string(&"x".repeat(20_000))),
-        413
-    );
+    // refused with 413; under load the server may close before the client has sent it
+    // all, which refuses it just the same
+    match agent.post(&with_token).send_string(&"x".repeat(20_000)) {
+        Err(ureq::Error::Status(413, _)) | Err(ureq::Error::Transport(_)) => {}
+        Ok(r) => panic!("an oversized body was answered {}", r.status()),
+        Err(e) => panic!("{e}"),
+    }
     assert_eq!(std::fs::read(&log).unwrap(), before, "the log is unchanged");
 
     // Ctrl-C stops the server and leaves the log whole.
