@@ -627,7 +627,8 @@ impl LevelModel {
 
     /// The junction strength (dBc at two reference tones) that would put the product of
     /// `terms` at `level_dbm` at the junction, or `None` when that level is at or above
-    /// the passive ceiling, where no junction can make it.
+    /// the passive ceiling, or would need a product above its own tones (over 0 dBc): no
+    /// junction can make it.
     pub fn required_im3_dbc(&self, terms: &[(u32, f64)], level_dbm: f64) -> Option<f64> {
         let t = self.junction_level(terms);
         if !level_dbm.is_finite() || level_dbm >= t.ceiling_dbm {
@@ -636,7 +637,7 @@ impl LevelModel {
         // P_law = −10·log10(10^(−L/10) − 10^(−C/10))
         let law =
             -10.0 * (10f64.powf(-level_dbm / 10.0) - 10f64.powf(-t.ceiling_dbm / 10.0)).log10();
-        Some(self.im3_dbc() + (law - t.law_dbm))
+        Some(self.im3_dbc() + (law - t.law_dbm)).filter(|&dbc| dbc <= 0.0)
     }
 
     /// How a required junction strength (dBc at two +43 dBm tones) compares with real
