@@ -347,6 +347,26 @@ pub fn load_receivers(path: &std::path::Path, columns: &Columns) -> CliResult<Re
 }
 
 /// Reads a structures file through the mapping.
+/// The optional structure and emitter files of a map (`fix`, `walk`), read through the
+/// `--columns` mapping, which must then have named a column of one of them.
+pub fn load_site_items(
+    structures: Option<&std::path::Path>,
+    emitters: Option<&std::path::Path>,
+    columns: &crate::args::ColumnsArgs,
+) -> CliResult<(Vec<pim_core::ticket::Structure>, Vec<Emitter>)> {
+    let columns = Columns::new(columns)?;
+    let structures = match structures {
+        Some(p) => load_structures(p, &columns)?,
+        None => Vec::new(),
+    };
+    let emitters = match emitters {
+        Some(p) => load_emitters(p, &columns)?,
+        None => Vec::new(),
+    };
+    columns.check()?;
+    Ok((structures, emitters))
+}
+
 pub fn load_structures(
     path: &std::path::Path,
     columns: &Columns,

@@ -245,16 +245,11 @@ pub fn run(args: Args) -> CliResult {
         )
         .into());
     }
-    let columns = crate::common::Columns::new(&args.columns)?;
-    let structures = match &args.structures {
-        Some(p) => crate::common::load_structures(p, &columns)?,
-        None => Vec::new(),
-    };
-    let emitters = match &args.emitters {
-        Some(p) => crate::common::load_emitters(p, &columns)?,
-        None => Vec::new(),
-    };
-    columns.check()?;
+    let (structures, emitters) = crate::common::load_site_items(
+        args.structures.as_deref(),
+        args.emitters.as_deref(),
+        &args.columns,
+    )?;
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
     let items = SiteItems {
         structures: &structures,

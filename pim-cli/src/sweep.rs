@@ -140,6 +140,27 @@ pub fn load_traces(paths: &[PathBuf]) -> CliResult<Trace> {
         .ok_or_else(|| Error::input(Place::new("trace"), "no trace read").into())
 }
 
+/// What a sweep's outputs are written from.
+fn report<'a>(
+    args: &Args,
+    trace: &'a Trace,
+    sweep: &'a pim_core::trace::Sweep,
+    emitters: &'a [pim_core::Emitter],
+    sources: String,
+) -> SweepReport<'a> {
+    SweepReport {
+        trace,
+        sweep,
+        emitters,
+        sources,
+        emitters_source: args.emitters.display().to_string(),
+        threshold_db: args.threshold_db,
+        rx_bw: args.search.rx_bw,
+        shown: args.listing.shown(3),
+        suspects: args.suspects,
+    }
+}
+
 pub fn run(args: Args) -> CliResult {
     let mut inputs: Vec<&std::path::Path> = args.traces.iter().map(PathBuf::as_path).collect();
     inputs.extend(args.recording.as_deref());
@@ -182,17 +203,7 @@ pub fn run(args: Args) -> CliResult {
         let picture = picture_input(&trace, &sweep, emitters, args.threshold_db, &sources);
         write_file_atomically(path, trace_svg(&picture).into_bytes(), &inputs, existing)?;
     }
-    let report = SweepReport {
-        trace: &trace,
-        sweep: &sweep,
-        emitters,
-        sources,
-        emitters_source: args.emitters.display().to_string(),
-        threshold_db: args.threshold_db,
-        rx_bw: s.rx_bw,
-        shown: args.listing.shown(3),
-        suspects: args.suspects,
-    };
+    let report = report(&args, &trace, &sweep, emitters, sources);
     let mut out = stdout();
     match args.listing.format {
         ListFormat::Table => write_table(&mut out, &report)?,
@@ -239,17 +250,7 @@ fn run_recording(
         let picture = crate::recording::waterfall(&r, emitters, &sources);
         write_file_atomically(svg, picture.into_bytes(), inputs, existing)?;
     }
-    let report = SweepReport {
-        trace: &r.trace,
-        sweep: &r.sweep,
-        emitters,
-        sources: sources.clone(),
-        emitters_source: args.emitters.display().to_string(),
-        threshold_db: args.threshold_db,
-        rx_bw: s.rx_bw,
-        shown: args.listing.shown(3),
-        suspects: args.suspects,
-    };
+    let report = report(args, &r.trace, &r.sweep, emitters, sources.clone());
     let mut out = stdout();
     match args.listing.format {
         ListFormat::Json => {

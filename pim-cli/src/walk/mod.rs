@@ -65,16 +65,11 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let columns = crate::common::Columns::new(&args.columns)?;
-    let structures = match &args.structures {
-        Some(p) => crate::common::load_structures(p, &columns)?,
-        None => Vec::new(),
-    };
-    let emitters = match &args.emitters {
-        Some(p) => crate::common::load_emitters(p, &columns)?,
-        None => Vec::new(),
-    };
-    columns.check()?;
+    let (structures, emitters) = crate::common::load_site_items(
+        args.structures.as_deref(),
+        args.emitters.as_deref(),
+        &args.columns,
+    )?;
     let candidates = match &args.candidates {
         Some(p) => Some(read_spots(&p.display().to_string(), open(p)?)?),
         None => None,
