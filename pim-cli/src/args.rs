@@ -55,6 +55,11 @@ pub struct SearchArgs {
     /// in the receiver itself.
     #[arg(long, value_name = "DBM", value_parser = ranged(-60.0, 60.0, "dBm"), allow_hyphen_values = true)]
     pub rx_iip3_dbm: Option<f64>,
+    /// The receiver's front-end filter: CSV `offset_mhz,rejection_db` (a duplexer's or
+    /// cavity's rejection by a carrier's offset from the channel); it lowers the carriers
+    /// at the input before the receiver's own products are levelled. None by default.
+    #[arg(long, value_name = "FILE", requires = "rx_iip3_dbm")]
+    pub rx_filter: Option<PathBuf>,
     /// A junction needing a third-order product above this at two +43 dBm tones is
     /// implausible, dBc (−140 to −20).
     #[arg(long, value_name = "DBC", default_value = "-60", value_parser = ranged(-140.0, -20.0, "dBc"), allow_hyphen_values = true)]
@@ -174,6 +179,20 @@ impl SearchArgs {
         .with_im3_dbc(self.junction_dbc)
     }
 
+    /// [`SearchArgs::junction_model`] with the receiver's front-end filter read from its
+    /// file, when given.
+    pub fn model(&self) -> crate::common::CliResult<LevelModel> {
+        let mut model = self.junction_model();
+        if let Some(path) = &self.rx_filter {
+            let source = path.display().to_string();
+            let (filter, unused) =
+                pim_io::rx_filter::read_rx_filter(&source, crate::common::open(path)?)?;
+            crate::common::note_unused(&source, &unused);
+            model.rx_filter = Some(filter);
+        }
+        Ok(model)
+    }
+
     pub fn rx_site(&self) -> Option<GeoPoint> {
         Some(GeoPoint::new(self.rx_lat?, self.rx_lon?))
     }
@@ -196,6 +215,7 @@ impl SearchArgs {
             "rx_lat": self.rx_lat,
             "rx_lon": self.rx_lon,
             "junction_model": self.junction_model(),
+            "rx_filter": self.rx_filter.as_ref().map(|p| p.display().to_string()),
         })
     }
 }

@@ -45,7 +45,7 @@ pub fn run(args: Args) -> CliResult {
         junction,
         receiver: None,
         heard: args.calibration.heard(),
-        model: args.calibration.weigh(s.junction_model()),
+        model: args.calibration.weigh(s.model()?),
         coefficients: coefficients.clone(),
         logbook,
         limit: shown,

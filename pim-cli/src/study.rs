@@ -51,7 +51,7 @@ pub fn run(args: Args) -> CliResult {
     let rx_file = crate::common::load_receivers(&args.receivers, &columns)?;
     columns.check()?;
     let s = &args.search;
-    let model = s.junction_model();
+    let model = s.model()?;
     let progress = if std::io::stderr().is_terminal() && rx_file.receivers.len() > 1 {
         let bar = indicatif::ProgressBar::new(rx_file.receivers.len() as u64);
         bar.set_style(

@@ -184,7 +184,7 @@ pub fn run(args: Args) -> CliResult {
     let rule = sweep_rule(
         &s.params(Hz::ZERO, s.rx_bw),
         pim_core::rank::Placement::at(s.rx_site()),
-        s.junction_model(),
+        s.model()?,
         args.threshold_db,
         args.floor_window,
         args.listing.count_or(SWEEP_CANDIDATES),
@@ -239,7 +239,7 @@ fn run_recording(
     let rule = sweep_rule(
         &s.params(Hz::ZERO, s.rx_bw),
         pim_core::rank::Placement::at(s.rx_site()),
-        s.junction_model(),
+        s.model()?,
         args.threshold_db,
         args.floor_window,
         None,

@@ -243,7 +243,7 @@ pub fn run(args: Args) -> CliResult {
                     .and_then(|t| t.measured_exponent())
                     .unwrap_or(1.0)
             }),
-            ..args.calibration.weigh(s.junction_model())
+            ..args.calibration.weigh(s.model()?)
         },
         rx_site,
         heard_dbm: args.calibration.heard_dbm,
@@ -288,6 +288,7 @@ pub fn run(args: Args) -> CliResult {
     input_paths.extend(g.attenuator_readings.as_deref());
     input_paths.extend(g.power_steps.as_deref());
     input_paths.extend(g.receivers.as_deref());
+    input_paths.extend(args.search.rx_filter.as_deref());
     // a --columns file is an input too
     input_paths.extend(
         args.input

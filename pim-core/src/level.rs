@@ -76,9 +76,10 @@
 //! the carriers at its antenna, P = Σ|kᵢ|·Pᵢ − 2·IIP3 + F (Pozar; Razavi, *RF
 //! Microelectronics*), only when an IIP3 is given, and only below compression: a
 //! third-order law's input 1 dB compression point lies about 9.6 dB below IIP3 (Razavi);
-//! a carrier above it overloads the receiver, and no level is given. No front-end
-//! selectivity is assumed: a duplexer or cavity would reject distant carriers by tens of
-//! dB, so the receiver's own products are an upper figure.
+//! a carrier above it overloads the receiver, and no level is given. A front-end filter
+//! ([`RxFilter`], a duplexer's or cavity's rejection by offset) lowers each carrier at
+//! the input first; without one none is assumed, and the receiver's own products are an
+//! upper figure.
 //!
 //! **Channel.** Each emitter's spectrum is taken as Gaussian, by the class of its
 //! emission ([`Shape`]): analogue FM (voice, broadcast) with the deviation's part of
@@ -493,10 +494,72 @@ pub struct LevelModel {
     /// Rejection of a transmitter's output network outside its band, dB
     /// ([`TX_BAND_FRACTION`]). Default 40 (common practice, from memory).
     pub tx_out_of_band_rejection_db: f64,
+    /// The receiver's front-end selectivity (a duplexer's or cavity's rejection by a
+    /// carrier's offset from the channel); none assumed when `None`.
+    pub rx_filter: Option<RxFilter>,
     /// The width of what was heard, when said: a narrow steady carrier (a few kHz or
     /// less) or a wide noise-like hump. Candidates are then weighed by how well their
     /// spread matches it ([`width_mismatch_db`]).
     pub heard_width: Option<Hz>,
+}
+
+/// The most points an [`RxFilter`] holds.
+pub const RX_FILTER_POINTS: usize = 32;
+
+/// A receiver's front-end selectivity: the rejection (dB) of a carrier by its offset from
+/// the receive channel (MHz), linear between the points given, the nearest point's
+/// beyond them. It lowers the carriers at the receiver's input before its own products
+/// are levelled and its compression judged.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct RxFilter {
+    points: [(f64, f64); RX_FILTER_POINTS],
+    len: usize,
+}
+
+impl RxFilter {
+    /// A filter of `(offset MHz, rejection dB)` points: 1 to [`RX_FILTER_POINTS`] of
+    /// them, offsets at least 0 and increasing, rejections at least 0 and finite.
+    pub fn new(points: &[(f64, f64)]) -> std::result::Result<RxFilter, String> {
+        if points.is_empty() || points.len() > RX_FILTER_POINTS {
+            return Err(format!(
+                "a filter needs 1 to {RX_FILTER_POINTS} points, not {}",
+                points.len()
+            ));
+        }
+        let mut out = [(0.0, 0.0); RX_FILTER_POINTS];
+        for (i, &(off, rej)) in points.iter().enumerate() {
+            if !(off.is_finite() && off >= 0.0 && rej.is_finite() && rej >= 0.0) {
+                return Err(format!(
+                    "point {}: offset and rejection must be finite and at least 0",
+                    i + 1
+                ));
+            }
+            if i > 0 && off <= points[i - 1].0 {
+                return Err(format!("point {}: offsets must increase", i + 1));
+            }
+            out[i] = (off, rej);
+        }
+        Ok(RxFilter {
+            points: out,
+            len: points.len(),
+        })
+    }
+
+    /// The rejection of a carrier `offset_mhz` from the channel (either side), dB.
+    pub fn rejection_db(&self, offset_mhz: f64) -> f64 {
+        let x = offset_mhz.abs();
+        let p = &self.points[..self.len];
+        if x <= p[0].0 {
+            return p[0].1;
+        }
+        for w in p.windows(2) {
+            let ((x0, y0), (x1, y1)) = (w[0], w[1]);
+            if x <= x1 {
+                return y0 + (y1 - y0) * (x - x0) / (x1 - x0);
+            }
+        }
+        p[self.len - 1].1
+    }
 }
 
 /// How far a product's spread is from the width heard, as a ranking penalty in dB: 10 dB
@@ -528,6 +591,7 @@ impl Default for LevelModel {
             unlikely_im3_dbc: -80.0,
             tx_out_of_band_rejection_db: 40.0,
             heard_width: None,
+            rx_filter: None,
         }
     }
 }

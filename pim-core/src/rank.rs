@@ -631,8 +631,12 @@ fn source_level(
                 let (Some(p), Some(erp)) = (e.position, e.erp_dbm) else {
                     return Err(Missing::ErpOrLocation);
                 };
+                let rejection = m.rx_filter.map_or(0.0, |f| {
+                    f.rejection_db((e.freq - c.product.freq).0 as f64 / 1e6)
+                });
                 let input = erp + crate::level::DIPOLE_GAIN_DBI
-                    - m.path_to_receiver_db(e.freq.0 as f64, p, e.height_m, receiver);
+                    - m.path_to_receiver_db(e.freq.0 as f64, p, e.height_m, receiver)
+                    - rejection;
                 if input > p1db {
                     return Err(Missing::ReceiverOverload);
                 }

@@ -14,6 +14,7 @@ pub mod onair;
 pub mod output;
 pub mod readings;
 pub mod recording;
+pub mod rx_filter;
 pub mod table;
 pub mod text;
 pub mod trace;

@@ -178,3 +178,46 @@ fn bad_arguments_are_refused_clearly() {
     assert_eq!(o.status.code(), Some(4));
     assert!(stderr_of(&o).contains("no-such-file.csv"));
 }
+
+/// `--rx-filter` reads a front-end filter (needs `--rx-iip3-dbm`); a bad point is refused
+/// naming the file, the line and the field, with exit 3.
+#[test]
+fn a_receiver_filter_is_read_or_refused_by_line_and_field() {
+    let dir = crate::support::scratch();
+    let good = dir.path().join("cavity.csv");
+    std::fs::write(&good, "offset_mhz,rejection_db\n0,0\n0.6,25\n6,60\n").unwrap();
+    let bad = dir.path().join("bad.csv");
+    std::fs::write(&bad, "offset_mhz,rejection_db\n0,0\n0.6,lots\n").unwrap();
+    let emitters = crate::support::field_log("emitters.csv");
+    let run = |filter: &std::path::Path| {
+        crate::support::pim(&[
+            "explain",
+            "146.34",
+            "--emitters",
+            emitters.to_str().unwrap(),
+            "--rx-lat",
+            "45.103",
+            "--rx-lon",
+            "-122.412",
+            "--rx-iip3-dbm",
+            "0",
+            "--rx-filter",
+            filter.to_str().unwrap(),
+            "--format",
+            "json",
+        ])
+    };
+    let o = run(&good);
+    assert!(
+        matches!(o.status.code(), Some(0) | Some(5)),
+        "{}",
+        crate::support::stderr_of(&o)
+    );
+    let o = run(&bad);
+    assert_eq!(o.status.code(), Some(3));
+    let err = crate::support::stderr_of(&o);
+    assert!(
+        err.contains("bad.csv, line 3") && err.contains("rejection_db"),
+        "{err}"
+    );
+}

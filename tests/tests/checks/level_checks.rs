@@ -754,3 +754,59 @@ fn the_heard_width_weighs_the_candidates() {
     // a wide hump of 25 kHz matches the FM product again
     assert_eq!(first(Some(Hz(25_000))).0, "2·A − B");
 }
+
+/// A front-end filter takes its rejection off each carrier before the receiver's law and
+/// its compression are applied (Razavi, *RF Microelectronics*, for the law and P1dB): two
+/// carriers at +1 dBm overload a receiver of IIP3 +10 dBm; behind a cavity rejecting them
+/// by 20 dB (6.5 and 13 MHz off) they arrive at −19 dBm and make 3 × (−19) − 20 = −77 dBm.
+#[test]
+fn a_front_end_filter_lowers_the_carriers_first() {
+    use pim_core::level::RxFilter;
+    let j = GeoPoint::new(45.0, -122.0);
+    let base = LevelModel {
+        rx_iip3_dbm: Some(10.0),
+        ..LevelModel::default()
+    };
+    let mk = |id: &str, hz: i64, az: f64| {
+        let mut e = Emitter::new(id, Hz(hz), Hz(0));
+        let pos = destination(j, az, 1_000.0);
+        let loss = base.path_to_receiver_db(hz as f64, pos, None, j);
+        e.erp_dbm = Some(1.0 + loss - pim_core::level::DIPOLE_GAIN_DBI);
+        e.position = Some(pos);
+        e
+    };
+    let emitters = vec![mk("A", 152_840_000, 0.0), mk("B", 159_340_000, 90.0)];
+    let p = params(Hz(146_340_000), 3);
+    let receiver = |model: LevelModel| {
+        let hits = find_products(&carriers(&emitters), &p);
+        let r = rank_candidates(
+            hits.products,
+            &emitters,
+            &p,
+            &RankInputs {
+                placement: Placement::at(Some(j)),
+                model,
+                ..RankInputs::default()
+            },
+        );
+        *r.candidates
+            .iter()
+            .find(|c| c.mechanism == Mechanism::Receiver)
+            .unwrap()
+    };
+    assert_eq!(
+        receiver(base).level_dbm,
+        None,
+        "overloaded without a filter"
+    );
+    let cavity = RxFilter::new(&[(0.0, 0.0), (5.0, 20.0), (20.0, 20.0)]).unwrap();
+    let filtered = receiver(LevelModel {
+        rx_filter: Some(cavity),
+        ..base
+    });
+    assert!(
+        (filtered.level_dbm.unwrap() - (-77.0)).abs() < 1e-6,
+        "{:?}",
+        filtered.level_dbm
+    );
+}
