@@ -359,6 +359,22 @@ pub struct StepFinding {
 }
 
 impl Ranking {
+    /// Ranks the candidates anew from 1 in their present order, their levels relative to
+    /// the first levelled one (after candidates were taken out or moved).
+    pub fn renumber(&mut self) {
+        let first = self
+            .candidates
+            .iter()
+            .find_map(|c| c.breakdown.map(|b| b.in_channel_dbm));
+        for (i, c) in self.candidates.iter_mut().enumerate() {
+            c.rank = i + 1;
+            c.relative_db = match (c.breakdown, first) {
+                (Some(b), Some(f)) => Some(b.in_channel_dbm - f),
+                _ => None,
+            };
+        }
+    }
+
     /// Demotes the candidates the power steps cleared, keeping the order within the two
     /// groups: a candidate is cleared when a stepped emitter carries in it a |k| its
     /// slope does not fit (|k| = 0 where it takes no part, so a candidate without an
@@ -377,17 +393,7 @@ impl Ranking {
             });
         }
         self.candidates.sort_by_key(|c| c.cleared_by_steps);
-        let first = self
-            .candidates
-            .iter()
-            .find_map(|c| c.breakdown.map(|b| b.in_channel_dbm));
-        for (i, c) in self.candidates.iter_mut().enumerate() {
-            c.rank = i + 1;
-            c.relative_db = match (c.breakdown, first) {
-                (Some(b), Some(f)) => Some(b.in_channel_dbm - f),
-                _ => None,
-            };
-        }
+        self.renumber();
         self.candidates
             .iter()
             .filter(|c| c.cleared_by_steps)

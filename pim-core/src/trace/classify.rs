@@ -281,25 +281,9 @@ fn whole_listing(
     } else {
         PeakKind::Product
     };
-    renumber(&mut ranking, centred);
+    ranking.candidates = centred;
+    ranking.renumber();
     Ok((kind, found, ranking, misses))
-}
-
-/// `ranking` holding only `kept` (in their order), ranked anew from 1, levels relative to
-/// the new first.
-fn renumber(ranking: &mut Ranking, kept: Vec<Candidate>) {
-    ranking.candidates = kept;
-    let first = ranking
-        .candidates
-        .iter()
-        .find_map(|c| c.breakdown.map(|b| b.in_channel_dbm));
-    for (i, c) in ranking.candidates.iter_mut().enumerate() {
-        c.rank = i + 1;
-        c.relative_db = match (c.breakdown, first) {
-            (Some(b), Some(f)) => Some(b.in_channel_dbm - f),
-            _ => None,
-        };
-    }
 }
 
 /// The level test of the module docs: a product peak whose first candidate, shifted by

@@ -511,47 +511,50 @@ fn a_loud_product_from_distant_transmitters_needs_an_implausible_joint() {
 #[test]
 fn the_receiver_law_stops_at_compression() {
     use pim_core::rank::Missing;
-    let j = GeoPoint::new(45.0, -122.0);
     let model = LevelModel {
         rx_iip3_dbm: Some(10.0),
         ..LevelModel::default()
     };
     assert!((model.rx_p1db_dbm().unwrap() - 0.36).abs() < 1e-9);
-    let at_input = |input_dbm: f64| {
-        // an emitter 1 km away whose ERP puts `input_dbm` at the receiver's input
-        let mk = |id: &str, hz: i64, az: f64| {
-            let mut e = Emitter::new(id, Hz(hz), Hz(0));
-            let pos = destination(j, az, 1_000.0);
-            let loss = model.path_to_receiver_db(hz as f64, pos, None, j);
-            e.erp_dbm = Some(input_dbm + loss - pim_core::level::DIPOLE_GAIN_DBI);
-            e.position = Some(pos);
-            e
-        };
-        let emitters = vec![mk("A", 152_840_000, 0.0), mk("B", 159_340_000, 90.0)];
-        let p = params(Hz(146_340_000), 3);
-        let hits = find_products(&carriers(&emitters), &p);
-        let r = rank_candidates(
-            hits.products,
-            &emitters,
-            &p,
-            &RankInputs {
-                placement: Placement::at(Some(j)),
-                model,
-                ..RankInputs::default()
-            },
-        );
-        *r.candidates
-            .iter()
-            .find(|c| c.mechanism == Mechanism::Receiver)
-            .unwrap()
-    };
-    let quiet = at_input(-20.0);
+    let quiet = receiver_candidate(-20.0, model);
     assert!((quiet.level_dbm.unwrap() - (3.0 * -20.0 - 2.0 * 10.0)).abs() < 1e-6);
-    let near = at_input(0.0);
+    let near = receiver_candidate(0.0, model);
     assert!((near.level_dbm.unwrap() - (0.0 - 20.0)).abs() < 1e-6);
-    let loud = at_input(1.0);
+    let loud = receiver_candidate(1.0, model);
     assert_eq!(loud.level_dbm, None);
     assert_eq!(loud.missing, Some(Missing::ReceiverOverload));
+}
+
+/// The receiver's own candidate for 2A − B = 146.34 MHz, ranked with `model`, of two
+/// emitters 1 km away whose ERP puts `input_dbm` at the receiver's antenna input (before
+/// any front-end filter of the model).
+fn receiver_candidate(input_dbm: f64, model: LevelModel) -> pim_core::rank::Candidate {
+    let j = GeoPoint::new(45.0, -122.0);
+    let mk = |id: &str, hz: i64, az: f64| {
+        let mut e = Emitter::new(id, Hz(hz), Hz(0));
+        let pos = destination(j, az, 1_000.0);
+        let loss = model.path_to_receiver_db(hz as f64, pos, None, j);
+        e.erp_dbm = Some(input_dbm + loss - pim_core::level::DIPOLE_GAIN_DBI);
+        e.position = Some(pos);
+        e
+    };
+    let emitters = vec![mk("A", 152_840_000, 0.0), mk("B", 159_340_000, 90.0)];
+    let p = params(Hz(146_340_000), 3);
+    let hits = find_products(&carriers(&emitters), &p);
+    let r = rank_candidates(
+        hits.products,
+        &emitters,
+        &p,
+        &RankInputs {
+            placement: Placement::at(Some(j)),
+            model,
+            ..RankInputs::default()
+        },
+    );
+    *r.candidates
+        .iter()
+        .find(|c| c.mechanism == Mechanism::Receiver)
+        .unwrap()
 }
 
 /// An in-place radix-2 FFT of (re, im) pairs (the length a power of two), for the
@@ -762,48 +765,23 @@ fn the_heard_width_weighs_the_candidates() {
 #[test]
 fn a_front_end_filter_lowers_the_carriers_first() {
     use pim_core::level::RxFilter;
-    let j = GeoPoint::new(45.0, -122.0);
     let base = LevelModel {
         rx_iip3_dbm: Some(10.0),
         ..LevelModel::default()
     };
-    let mk = |id: &str, hz: i64, az: f64| {
-        let mut e = Emitter::new(id, Hz(hz), Hz(0));
-        let pos = destination(j, az, 1_000.0);
-        let loss = base.path_to_receiver_db(hz as f64, pos, None, j);
-        e.erp_dbm = Some(1.0 + loss - pim_core::level::DIPOLE_GAIN_DBI);
-        e.position = Some(pos);
-        e
-    };
-    let emitters = vec![mk("A", 152_840_000, 0.0), mk("B", 159_340_000, 90.0)];
-    let p = params(Hz(146_340_000), 3);
-    let receiver = |model: LevelModel| {
-        let hits = find_products(&carriers(&emitters), &p);
-        let r = rank_candidates(
-            hits.products,
-            &emitters,
-            &p,
-            &RankInputs {
-                placement: Placement::at(Some(j)),
-                model,
-                ..RankInputs::default()
-            },
-        );
-        *r.candidates
-            .iter()
-            .find(|c| c.mechanism == Mechanism::Receiver)
-            .unwrap()
-    };
     assert_eq!(
-        receiver(base).level_dbm,
+        receiver_candidate(1.0, base).level_dbm,
         None,
         "overloaded without a filter"
     );
     let cavity = RxFilter::new(&[(0.0, 0.0), (5.0, 20.0), (20.0, 20.0)]).unwrap();
-    let filtered = receiver(LevelModel {
-        rx_filter: Some(cavity),
-        ..base
-    });
+    let filtered = receiver_candidate(
+        1.0,
+        LevelModel {
+            rx_filter: Some(cavity),
+            ..base
+        },
+    );
     assert!(
         (filtered.level_dbm.unwrap() - (-77.0)).abs() < 1e-6,
         "{:?}",
