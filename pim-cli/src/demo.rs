@@ -34,11 +34,14 @@ pub const TRACE_CSV: &str = include_str!("../../field-logs/trace.csv");
 
 /// The repeater input on which the mystery carrier is heard.
 pub const HEARD: Hz = Hz(146_340_000);
-/// The repeater site.
+/// The repeater's receive antenna: on the old tower, which also carries the paging
+/// collinear and the county's bases.
 pub const RX_SITE: GeoPoint = GeoPoint {
-    lat_deg: 45.103,
-    lon_deg: -122.412,
+    lat_deg: 45.10462,
+    lon_deg: -122.414033,
 };
+/// Where on the tower the crew expects the junction: among the antennas, m above ground.
+pub const JUNCTION_HEIGHT_M: f64 = 36.0;
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
@@ -86,6 +89,7 @@ pub fn run(args: Args) -> CliResult {
     // the ticket levels with the law its own power steps measured
     let model = LevelModel {
         drive_exponent: power_steps.measured_exponent().unwrap_or(1.0),
+        junction_height_m: JUNCTION_HEIGHT_M,
         ..LevelModel::default()
     };
     let inputs = TicketInputs {
@@ -215,7 +219,7 @@ fn commands(dir: &Path) -> Vec<String> {
             shell_word(&format!("{}-waterfall.svg", dir.display()))
         ),
         format!(
-            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --attenuator-readings {} --power-steps {} --rx-lat {} --rx-lon {} --site 'Marrow Hill' --out {again}",
+            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --attenuator-readings {} --power-steps {} --rx-lat {} --rx-lon {} --junction-height-m {JUNCTION_HEIGHT_M} --site 'Marrow Hill' --out {again}",
             HEARD.mhz_text(),
             file("emitters.csv"),
             file("walk.csv"),

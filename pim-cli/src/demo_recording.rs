@@ -57,14 +57,14 @@ pub fn recording_csv() -> String {
     let mut levels = vec![0.0f64; POINTS];
     for k in 0..SWEEPS {
         for l in levels.iter_mut() {
-            *l = -118.0 + 10.0 * (-rng.uniform().ln() / std::f64::consts::LN_2).log10();
+            *l = -138.0 + 10.0 * (-rng.uniform().ln() / std::f64::consts::LN_2).log10();
         }
         for (on, hz, dbm) in [
-            (skp[k], 152_840_000, -48.0),
-            (fire[k], 159_340_000, -55.0),
-            (hwy[k], 155_610_000, -52.0),
-            (skp[k] && fire[k], 146_340_000, -96.0),
-            (spur[k], 149_010_000, -93.0),
+            (skp[k], 152_840_000, -68.0),
+            (fire[k], 159_340_000, -75.0),
+            (hwy[k], 155_610_000, -72.0),
+            (skp[k] && fire[k], 146_340_000, -116.0),
+            (spur[k], 149_010_000, -113.0),
         ] {
             if on {
                 levels[bin(hz)] = dbm;

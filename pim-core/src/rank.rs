@@ -190,6 +190,23 @@ pub struct Candidate {
 }
 
 impl Candidate {
+    /// The |k| a power step of `emitter` should find in this candidate: the law its
+    /// mechanism's level follows in that emitter's power. A junction or the receiver
+    /// follows each emitter by its |k| (with the drive exponent); a product made in
+    /// transmitter A's output stage is levelled from the other emitter's coupled power
+    /// alone, one for one, and not from A's own (a saturated stage; the model's
+    /// [`crate::level::LevelModel::transmitter_im_eirp_dbm`]), so A's step should not
+    /// move it (0) and the other's moves it 1 dB/dB; a transmitter's own harmonic, held
+    /// at its spurious limit relative to its power, moves 1 dB/dB.
+    pub fn step_k(&self, emitter: usize) -> u32 {
+        let k = self.product.coefficient_of(emitter).unsigned_abs();
+        match self.mechanism {
+            Mechanism::Junction | Mechanism::Receiver => k,
+            Mechanism::TransmitterIm if self.formed_in == Some(emitter) => 0,
+            Mechanism::TransmitterIm | Mechanism::Transmitter => k.min(1),
+        }
+    }
+
     /// The level it ranks by: what the receiver would hear in its channel, less the
     /// width mismatch when the heard width was given (`None` without a level).
     pub fn ranking_level_dbm(&self) -> Option<f64> {
@@ -378,19 +395,18 @@ impl Ranking {
     /// Demotes the candidates the power steps cleared, keeping the order within the two
     /// groups: a candidate is cleared when a stepped emitter carries in it a |k| its
     /// slope does not fit (|k| = 0 where it takes no part, so a candidate without an
-    /// emitter that moved the level is cleared). Returns how many were cleared. The
+    /// emitter that moved the level is cleared; the |k| by mechanism of
+    /// [`Candidate::step_k`], so a product made in a transmitter whose own step moved
+    /// the level is cleared too). Returns how many were cleared. The
     /// crew is never sent to hardware the tests cleared; nothing is dropped.
     pub fn demote_cleared(&mut self, findings: &[StepFinding]) -> usize {
         if findings.iter().all(|f| f.fits.is_empty()) {
             return 0;
         }
         for c in &mut self.candidates {
-            c.cleared_by_steps = findings.iter().any(|f| {
-                !f.fits.is_empty()
-                    && !f
-                        .fits
-                        .contains(&c.product.coefficient_of(f.emitter).unsigned_abs())
-            });
+            c.cleared_by_steps = findings
+                .iter()
+                .any(|f| !f.fits.is_empty() && !f.fits.contains(&c.step_k(f.emitter)));
         }
         self.candidates.sort_by_key(|c| c.cleared_by_steps);
         self.renumber();
@@ -1129,6 +1145,40 @@ mod tests {
                 );
             }
         }
+    }
+
+    /// A power step of transmitter A leaves a product made in A's output stage where it
+    /// was (the model levels it from B's coupled power alone), so a step of A that moved
+    /// the level clears it, while the junction making the same product stays.
+    #[test]
+    fn a_step_of_the_transmitter_that_makes_a_product_clears_it() {
+        let t = |emitter, coefficient| Term {
+            emitter,
+            coefficient,
+        };
+        let p = Product::new(&[t(0, 2), t(1, -1)], Hz(146_340_000));
+        let mut junction = candidate(p, Mechanism::Junction, None);
+        let mut in_a = candidate(p, Mechanism::TransmitterIm, Some(0));
+        assert_eq!((junction.step_k(0), junction.step_k(1)), (2, 1));
+        assert_eq!((in_a.step_k(0), in_a.step_k(1)), (0, 1));
+        in_a.rank = 1;
+        junction.rank = 2;
+        let mut r = rank_candidates(Vec::new(), &[], &channel(), &RankInputs::default());
+        r.candidates = vec![in_a, junction];
+        // A rose 1.8 dB/dB (|k| = 2 fits), B 0.9 dB/dB (|k| = 1 fits)
+        let found = [
+            StepFinding {
+                emitter: 0,
+                fits: vec![2],
+            },
+            StepFinding {
+                emitter: 1,
+                fits: vec![1],
+            },
+        ];
+        assert_eq!(r.demote_cleared(&found), 1);
+        assert_eq!(r.candidates[0].mechanism, Mechanism::Junction);
+        assert!(r.candidates[1].cleared_by_steps);
     }
 
     #[test]

@@ -1224,7 +1224,7 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         logbook: t.evidence.logbook.clone(),
         ..Query::new(t.params.target)
     })?;
-    let at_rx = t.rx_site.map(|_| answer.ranking.clone());
+    let mut at_rx = t.rx_site.map(|_| answer.ranking.clone());
     let heard = heard_levels(t);
     let mut at_fix = answer.ranked_with(
         &t.site,
@@ -1235,8 +1235,13 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
             heard: &heard,
         },
     )?;
+    // What the steps cleared is cleared wherever the junction is placed.
     if let Some(steps) = &t.evidence.power_steps {
-        at_fix.demote_cleared(&steps.findings(&t.site));
+        let findings = steps.findings(&t.site);
+        at_fix.demote_cleared(&findings);
+        if let Some(rx) = &mut at_rx {
+            rx.demote_cleared(&findings);
+        }
     }
     let near = nearby(&t.fix, &t.structures, t.site.emitters(), 30.0);
     let (doc, map, spectrum, band_svg) = build(

@@ -11,15 +11,15 @@ use crate::support::{pim, pim_in, scratch, stderr_of, stdout_of};
 /// feet.
 const EXPORT: &str = "\
 Call sign;Licensee;Frequency (kHz);Emission designator;BW [Hz];ERP_kW;LAT_DEG;LAT_MIN;LAT_HEM;Longitude;Antenna height (ft AGL);Service;Keying;Remarks
-QK7MHR-R;Marrow Hill Radio Club;146940;16K0F3E;;0.06;45;6.18;N;-122.412000;104.986877;repeater;intermittent;2 m repeater output, input 146.340 MHz
-SKP-152;Skerry Paging Co.;152840;16K0F1D;;0.3;45;6.2043;N;-122.410791;131.233596;paging;intermittent;POCSAG paging, busy in daytime
-SKP-157;Skerry Paging Co.;157740;16K0F1D;;0.25;45;6.2043;N;-122.410791;131.233596;paging;intermittent;second paging channel
-FIRE-DSP;Tillery County Fire;159340;;11250;0.1;45;6.3204;N;-122.412764;82.020997;land mobile;intermittent;dispatch base
-HWY-BASE;Tillery County Roads;155610;;11250;0.08;45;6.3204;N;-122.412764;82.020997;land mobile;intermittent;road crew base
+QK7MHR-R;Marrow Hill Radio Club;146940;16K0F3E;;0.06;45;6.2772;N;-122.414033;150.918635;repeater;intermittent;2 m repeater output, input 146.340 MHz
+SKP-152;Skerry Paging Co.;152840;16K0F1D;;3.5;45;6.2772;N;-122.414033;131.233596;paging;intermittent;POCSAG paging, busy in daytime
+SKP-157;Skerry Paging Co.;157740;16K0F1D;;3.5;45;6.2772;N;-122.414033;131.233596;paging;intermittent;second paging channel
+FIRE-DSP;Tillery County Fire;159340;;11250;0.5;45;6.2772;N;-122.414033;104.986877;land mobile;intermittent;dispatch base
+HWY-BASE;Tillery County Roads;155610;;11250;0.25;45;6.2772;N;-122.414033;104.986877;land mobile;intermittent;road crew base
 UTIL-UHF;Verrow Water District;453250;;11250;0.04;45;6.2043;N;-122.410791;98.425197;land mobile;intermittent;telemetry and voice
 QFMR;Cedar Valley Broadcasting;98700;;200000;20;45;6.61194;N;-122.400546;393.700787;fm;continuous;FM broadcaster on the north spur
 QAMV;Cedar Valley Broadcasting;830;10K0A3E;;5;45;4.5603;N;-122.443817;196.850394;am;continuous;AM broadcaster in the valley
-QK7MHR-L;Marrow Hill Radio Club;444100;16K0F3E;;0.025;45;6.18;N;-122.412000;91.863517;repeater;intermittent;70 cm link
+QK7MHR-L;Marrow Hill Radio Club;444100;16K0F3E;;0.025;45;6.2772;N;-122.414033;144.356955;repeater;intermittent;70 cm link
 ";
 
 fn candidates(file: &str, dir: Option<&std::path::Path>) -> Vec<serde_json::Value> {

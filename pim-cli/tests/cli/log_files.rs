@@ -296,7 +296,7 @@ fn a_sign_and_a_hemisphere_letter_are_refused() {
     let emitters = tmp.path().join("emitters.csv");
     let text = std::fs::read_to_string(field_log("emitters.csv"))
         .unwrap()
-        .replacen("-122.412000", "\"-122 24 43.2 W\"", 1);
+        .replacen("-122.414033", "\"-122 24 50.5 W\"", 1);
     std::fs::write(&emitters, text).unwrap();
     let o = pim(&[
         "explain",

@@ -313,15 +313,17 @@ fn ticket_takes_the_evidence() {
         "Assigned to: R. Ostrander.",
         "Site visit: 2026-11-28, 09:12–10:22 UTC",
         "Affected receiver: QK7MHR-IN (146.34 MHz, line 2 of",
-        "its 12.5 kHz channel and its position 45.103000, -122.412000 are used",
+        "its 12.5 kHz channel and its position 45.104620, -122.414033 are used",
         "Kept 3 of 5 products: those with SKP-152 \\|k\\| = 2 (the coefficients a power step found",
         "On-air evidence: 12 listening times, heard at 5, silent at 7.",
         "| support | contradictions | heard off air |",
         "Done: attenuator test",
         "Done: power steps",
         "Done: on-air check",
-        // the output-stage candidate is away from the fix, and the radius is stated
-        "\"Away from the fix\": made more than",
+        // the output-stage candidate stands on the old tower, at the fix, and SKP-152's
+        // own step clears it
+        "| SKP-152 output stage | 3 |",
+        "cleared by the power steps",
     ] {
         assert!(md.contains(want), "{want}\n{md}");
     }

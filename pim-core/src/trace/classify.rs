@@ -13,9 +13,11 @@
 //! within the peak's resolution, half the receive channel plus one trace step
 //! ([`resolution`]): a product centred farther off reaches the peak only by its skirt.
 //! Where the candidates are levelled, the peaks explained must also agree in level: each
-//! peak's first candidate, shifted by the median over the explained peaks of (measured −
-//! predicted), must come within [`LEVEL_TOLERANCE_DB`] of the peak; a product predicted
-//! weaker than that is no explanation. A peak that fails either test is `Unexplained`,
+//! peak's first candidate of a mechanism, shifted by the median over the explained peaks
+//! of (measured − predicted) for that mechanism, must come within [`LEVEL_TOLERANCE_DB`]
+//! of the peak; a product predicted weaker than that by every mechanism judged is no
+//! explanation. Levels compare only within one mechanism: what scales them is unknown and
+//! differs between mechanisms (a joint's strength, a transmitter's isolation). A peak that fails either test is `Unexplained`,
 //! with its nearest candidates listed and why ([`Miss`]). The sweep's table, its JSON,
 //! the suspects, the trace picture's labels and the ticket all read this one decision.
 //!
@@ -45,7 +47,7 @@ use crate::emitter::Emitter;
 use crate::error::Result;
 use crate::freq::Hz;
 use crate::intermod::{co_channel, search_products_while, Product, SearchParams, MAX_ORDER};
-use crate::level::JunctionModel;
+use crate::level::{JunctionModel, Mechanism};
 use crate::rank::{rank_candidates, Candidate, Placement, RankInputs, Ranker, Ranking};
 use crate::site::{Query, Site};
 
@@ -286,32 +288,52 @@ fn whole_listing(
     Ok((kind, found, ranking, misses))
 }
 
-/// The level test of the module docs: a product peak whose first candidate, shifted by
-/// the median of (measured − predicted) over the levelled product peaks, falls more than
-/// [`LEVEL_TOLERANCE_DB`] short of its peak becomes `Unexplained` (needs two or more
-/// levelled product peaks).
+/// The level test of the module docs: a product peak whose first candidate of each
+/// mechanism, shifted by the median of (measured − predicted) over the product peaks
+/// levelled by that mechanism, falls more than [`LEVEL_TOLERANCE_DB`] short of its peak
+/// for every mechanism judged becomes `Unexplained` (a mechanism is judged where two or
+/// more product peaks have a levelled candidate of it).
 pub fn judge_levels(peaks: &mut [ExplainedPeak]) {
-    let gap = |p: &ExplainedPeak| {
-        let first = p.ranking.candidates.first()?;
-        Some(p.peak.level_dbm - first.breakdown?.in_channel_dbm)
+    let gap = |p: &ExplainedPeak, m: Mechanism| {
+        let c = p
+            .ranking
+            .candidates
+            .iter()
+            .find(|c| c.mechanism == m && c.breakdown.is_some())?;
+        Some(p.peak.level_dbm - c.breakdown?.in_channel_dbm)
     };
-    let mut gaps: Vec<f64> = peaks
-        .iter()
-        .filter(|p| p.kind == PeakKind::Product)
-        .filter_map(gap)
-        .collect();
-    if gaps.len() < 2 {
-        return;
-    }
-    gaps.sort_by(f64::total_cmp);
-    let n = gaps.len();
-    let shift = if n % 2 == 1 {
-        gaps[n / 2]
-    } else {
-        (gaps[n / 2 - 1] + gaps[n / 2]) / 2.0
-    };
+    let shifts: Vec<(Mechanism, f64)> = [
+        Mechanism::Junction,
+        Mechanism::Transmitter,
+        Mechanism::TransmitterIm,
+        Mechanism::Receiver,
+    ]
+    .into_iter()
+    .filter_map(|m| {
+        let mut gaps: Vec<f64> = peaks
+            .iter()
+            .filter(|p| p.kind == PeakKind::Product)
+            .filter_map(|p| gap(p, m))
+            .collect();
+        if gaps.len() < 2 {
+            return None;
+        }
+        gaps.sort_by(f64::total_cmp);
+        let n = gaps.len();
+        let median = if n % 2 == 1 {
+            gaps[n / 2]
+        } else {
+            (gaps[n / 2 - 1] + gaps[n / 2]) / 2.0
+        };
+        Some((m, median))
+    })
+    .collect();
     for p in peaks.iter_mut().filter(|p| p.kind == PeakKind::Product) {
-        if gap(p).is_some_and(|g| g - shift > LEVEL_TOLERANCE_DB) {
+        let judged: Vec<bool> = shifts
+            .iter()
+            .filter_map(|&(m, shift)| gap(p, m).map(|g| g - shift > LEVEL_TOLERANCE_DB))
+            .collect();
+        if !judged.is_empty() && judged.iter().all(|&too_weak| too_weak) {
             p.kind = PeakKind::Unexplained;
             p.misses = p
                 .ranking
@@ -599,8 +621,8 @@ mod tests {
         assert_eq!(resolution(Hz(12_500), 1_000.0), Hz(7_250));
     }
 
-    /// The level test: of three product peaks at −80 dBm whose first candidates are
-    /// predicted at −100, −102 and −130 dBm, the last falls 28 dB short of the others'
+    /// The level test: of three product peaks at −80 dBm whose candidates are predicted
+    /// at −100, −102 and −130 dBm, the last falls 28 dB short of the others'
     /// agreement (more than 20 dB) and is left unexplained as too weak.
     #[test]
     fn a_product_too_weak_beside_the_others_does_not_explain_its_peak() {
@@ -619,8 +641,12 @@ mod tests {
         let mut x = explain_peaks(&peaks, &Site::new(e), &r, 1_000.0, 1).unwrap();
         for (p, level) in x.iter_mut().zip([-100.0, -102.0, -130.0]) {
             assert_eq!(p.kind, PeakKind::Product);
-            let first = &mut p.ranking.candidates[0];
-            first.breakdown.as_mut().unwrap().in_channel_dbm = level;
+            // every mechanism's candidate at the same level: levels compare within one
+            for c in &mut p.ranking.candidates {
+                if let Some(b) = c.breakdown.as_mut() {
+                    b.in_channel_dbm = level;
+                }
+            }
         }
         judge_levels(&mut x);
         let kinds: Vec<PeakKind> = x.iter().map(|p| p.kind).collect();
