@@ -26,6 +26,12 @@ pub struct Args {
     pub calibration: CalibrationArgs,
     #[command(flatten)]
     pub listing: ListingArgs,
+    /// Power steps done: CSV `step_db,level_dbm`, or `emitter,step_db,level_dbm` for
+    /// several emitters (as `pim slope --kind power` reads it). Candidates they cleared
+    /// rank after the others, marked; the drive exponent they measured levels the
+    /// candidates unless --drive-exponent is given.
+    #[arg(long, value_name = "FILE")]
+    pub power_steps: Option<std::path::PathBuf>,
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -40,18 +46,37 @@ pub fn run(args: Args) -> CliResult {
     let params = s.params(args.input.freq, s.rx_bw);
     let junction = s.rx_site();
     let shown = args.listing.shown(20);
+    let steps = args
+        .power_steps
+        .as_deref()
+        .map(crate::ticket::power_step_test)
+        .transpose()?;
+    let mut model = args.calibration.weigh(s.model()?);
+    if s.drive_exponent.is_none() {
+        if let Some(alpha) = steps.as_ref().and_then(|t| t.measured_exponent()) {
+            model.drive_exponent = alpha;
+        }
+    }
     let query = Query {
         params,
         junction,
         receiver: None,
         heard: args.calibration.heard(),
-        model: args.calibration.weigh(s.model()?),
+        model,
         coefficients: coefficients.clone(),
         logbook,
-        limit: shown,
+        // what the steps clear ranks last, so the first N are taken after it is known
+        limit: if steps.is_some() { None } else { shown },
         centred_within: None,
     };
-    let answer = site.explain(&query).map_err(listing_hint)?;
+    let mut answer = site.explain(&query).map_err(listing_hint)?;
+    let cleared = steps.as_ref().map(|t| {
+        let n = answer.ranking.demote_cleared(&t.findings(&site));
+        if let Some(keep) = shown {
+            answer.ranking.candidates.truncate(keep);
+        }
+        n
+    });
     let (ranking, found, logbook) = (&answer.ranking, answer.found, query.logbook.as_ref());
     let listing = Listing {
         emitters,
@@ -95,6 +120,14 @@ pub fn run(args: Args) -> CliResult {
                 }
             )?;
             }
+            if let (Some(n), Some(path)) = (cleared, &args.power_steps) {
+                writeln!(
+                    out,
+                    "Power steps ({}): {n} candidate{} cleared (a stepped emitter moved the level and takes no part, or with a |k| its slope does not fit), ranked after the others.\n",
+                    path.display(),
+                    if n == 1 { "" } else { "s" }
+                )?;
+            }
             if args.calibration.heard_dbm.is_some() && !ranking.calibrated {
                 writeln!(
                     out,
@@ -134,6 +167,9 @@ pub fn run(args: Args) -> CliResult {
             inputs["on_air_file"] = json!(shown_path(&args.evidence.on_air));
             inputs["heard_file"] = json!(shown_path(&args.evidence.heard));
             inputs["heard_dbm"] = json!(args.calibration.heard_dbm);
+            inputs["power_steps_file"] = json!(shown_path(&args.power_steps));
+            inputs["cleared_by_steps"] = json!(cleared);
+            inputs["drive_exponent"] = json!(query.model.drive_exponent);
             if let Some(book) = logbook {
                 inputs["heard_times"] = json!(book.heard_count());
                 inputs["silent_times"] = json!(book.observations.len() - book.heard_count());

@@ -142,7 +142,7 @@ fn attenuator_test(path: &Path) -> CliResult<AttenuatorTest> {
 }
 
 /// The power steps of a file, read as `pim slope --kind power` reads it.
-fn power_step_test(path: &Path) -> CliResult<PowerStepTest> {
+pub(crate) fn power_step_test(path: &Path) -> CliResult<PowerStepTest> {
     let source = path.display().to_string();
     let (test, unused) = PowerStepTest::read(&source, open(path)?)?;
     crate::common::note_unused(&source, &unused);

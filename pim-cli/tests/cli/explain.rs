@@ -221,3 +221,46 @@ fn a_receiver_filter_is_read_or_refused_by_line_and_field() {
         "{err}"
     );
 }
+
+/// `explain --power-steps`: what the demo's steps establish re-ranks `explain` as it does
+/// the ticket. At the old tower the same pair made in SKP-152's output stage is predicted
+/// far louder than the joint, but SKP-152's own step (1.8 dB/dB) moved the level, which
+/// that mechanism does not follow: it is cleared, marked and ranked after the joint, and
+/// the steps' drive exponent levels the listing.
+#[test]
+fn power_steps_re_rank_explain() {
+    let tx = path(field_log("emitters.csv"));
+    let steps = path(field_log("power-steps.csv"));
+    let run = |extra: &[&str]| {
+        let mut args = vec![
+            "explain",
+            "146.34",
+            "--emitters",
+            &tx,
+            "--rx-lat",
+            "45.10466",
+            "--rx-lon",
+            "-122.413943",
+            "--junction-height-m",
+            "36",
+            "--format",
+            "json",
+        ];
+        args.extend_from_slice(extra);
+        let o = pim(&args);
+        assert!(o.status.success(), "{}", stderr_of(&o));
+        serde_json::from_str::<serde_json::Value>(&stdout_of(&o)).unwrap()
+    };
+    let plain = run(&[]);
+    assert_eq!(plain["candidates"][0]["mechanism"], "transmitter-im");
+    let stepped = run(&["--power-steps", &steps]);
+    let first = &stepped["candidates"][0];
+    assert_eq!(first["formula"], "2·SKP-152 − FIRE-DSP");
+    assert_eq!(first["mechanism"], "junction");
+    let second = &stepped["candidates"][1];
+    assert_eq!(second["mechanism"], "transmitter-im");
+    assert_eq!(second["cleared_by_steps"], true);
+    let alpha = stepped["inputs"]["drive_exponent"].as_f64().unwrap();
+    assert!((0.85..0.95).contains(&alpha), "{alpha}");
+    assert!(stepped["inputs"]["cleared_by_steps"].as_u64().unwrap() >= 1);
+}
