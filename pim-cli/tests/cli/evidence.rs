@@ -2,7 +2,7 @@
 //! power step, and the on-air and listening logs (`--on-air`, `--heard`) that move the
 //! ranking. The scenario is the invented Marrow Hill site of `field-logs/`.
 
-use crate::support::{field_log, pim, stderr_of, stdout_of, workspace_root};
+use crate::support::{field_log, pim, pim_json, stderr_of, stdout_of, workspace_root};
 
 fn path(p: std::path::PathBuf) -> String {
     p.display().to_string()
@@ -23,9 +23,7 @@ fn explain_json(extra: &[&str]) -> serde_json::Value {
         "json",
     ];
     args.extend_from_slice(extra);
-    let o = pim(&args);
-    assert!(o.status.success(), "{args:?}: {}", stderr_of(&o));
-    serde_json::from_str(&stdout_of(&o)).unwrap()
+    pim_json(&args)
 }
 
 fn formulas(v: &serde_json::Value) -> Vec<String> {

@@ -1,7 +1,7 @@
 //! End-to-end runs of `pim explain`, `pim study` and `pim demo`: the demo files, the
 //! output formats, and each kind of bad input with the message and exit code it must give.
 
-use crate::support::{field_log, pim, stderr_of, stdout_of};
+use crate::support::{field_log, pim, pim_json, stderr_of, stdout_of};
 
 fn path(p: std::path::PathBuf) -> String {
     p.display().to_string()
@@ -247,9 +247,7 @@ fn power_steps_re_rank_explain() {
             "json",
         ];
         args.extend_from_slice(extra);
-        let o = pim(&args);
-        assert!(o.status.success(), "{}", stderr_of(&o));
-        serde_json::from_str::<serde_json::Value>(&stdout_of(&o)).unwrap()
+        pim_json(&args)
     };
     let plain = run(&[]);
     assert_eq!(plain["candidates"][0]["mechanism"], "transmitter-im");

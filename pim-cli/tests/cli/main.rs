@@ -59,6 +59,15 @@ mod support {
         String::from_utf8_lossy(&o.stderr).into_owned()
     }
 
+    /// Runs `pim` with `args` from the workspace root, which must succeed, and reads its
+    /// standard output as JSON.
+    pub fn pim_json(args: &[&str]) -> serde_json::Value {
+        let o = pim(args);
+        assert!(o.status.success(), "{args:?}: {}", stderr_of(&o));
+        serde_json::from_str(&stdout_of(&o))
+            .unwrap_or_else(|e| panic!("{args:?}: not JSON ({e}): {}", stdout_of(&o)))
+    }
+
     /// A fresh scratch directory, removed when the value is dropped.
     pub fn scratch() -> tempfile::TempDir {
         tempfile::Builder::new()
