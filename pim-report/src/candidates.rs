@@ -684,7 +684,7 @@ fn model_legend(
     }
     if mechanisms.contains(&Mechanism::TransmitterIm) {
         out.push_str(&format!(
-            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB)\n  − {:.0} dB conversion loss + 2.15 dB (EIRP), less {:.0} dB for the carrier and again for the product outside the\n  transmitter's band (±10 %).\n",
+            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB)\n  − {:.0} dB conversion loss + 2.15 dB (EIRP), less {:.0} dB for the carrier and again for the product outside the\n  transmitter's band (±10 %). An upper figure: no isolator or filter is assumed at either end.\n",
             m.min_antenna_isolation_db, m.tx_conversion_loss_db, m.tx_out_of_band_rejection_db
         ));
     }
