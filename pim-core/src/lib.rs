@@ -46,6 +46,7 @@
 pub mod declination;
 pub mod emission;
 pub mod emitter;
+pub mod exposure;
 pub mod error;
 pub mod fix;
 pub mod freq;
