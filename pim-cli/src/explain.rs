@@ -31,13 +31,15 @@ pub struct Args {
 pub fn run(args: Args) -> CliResult {
     let columns = crate::common::Columns::new(&args.input.columns)?;
     let site = budgeted(Site::new(load_emitters(&args.input.emitters, &columns)?))?;
+    args.input
+        .note_far_reading(site.emitters().iter().map(|e| e.freq));
     columns.check()?;
     let emitters = site.emitters();
     let source = args.input.emitters.display().to_string();
     let coefficients = args.evidence.coefficient_indices(&site, &source)?;
     let logbook = args.evidence.logbook(emitters)?;
     let s = &args.search;
-    let params = s.params(args.input.freq, s.rx_bw);
+    let params = s.params(args.input.freq(), s.rx_bw);
     let junction = s.rx_site();
     let shown = args.listing.shown(20);
     let query = Query {
@@ -121,7 +123,7 @@ pub fn run(args: Args) -> CliResult {
         }
         ListFormat::Json => {
             let mut inputs = s.inputs_json();
-            inputs["target_mhz"] = json!(args.input.freq.mhz());
+            inputs["target_mhz"] = json!(args.input.freq().mhz());
             inputs["rx_bw_khz"] = json!(s.rx_bw.khz());
             inputs["emitters_file"] = json!(args.input.emitters.display().to_string());
             inputs["emitter_count"] = json!(emitters.len());

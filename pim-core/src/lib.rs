@@ -46,8 +46,8 @@
 pub mod declination;
 pub mod emission;
 pub mod emitter;
-pub mod exposure;
 pub mod error;
+pub mod exposure;
 pub mod fix;
 pub mod freq;
 pub mod geo;
