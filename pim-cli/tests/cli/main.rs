@@ -16,6 +16,7 @@ mod plan;
 mod ranking;
 mod recording;
 mod slope;
+mod suggested;
 mod sweep;
 mod ticket;
 mod vocabulary;
