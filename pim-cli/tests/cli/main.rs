@@ -9,6 +9,7 @@ mod fieldlog;
 mod fix;
 mod harden;
 mod invariants;
+mod labels;
 mod licence;
 mod log_files;
 mod memory;
