@@ -93,24 +93,61 @@ pub struct Gathered {
     /// Who the ticket is assigned to.
     #[arg(long, value_name = "NAME")]
     pub assignee: Option<String>,
+    /// The site's own offset from UTC (`+01:00`, `-07:00`; ±14:00 at most): the ticket's
+    /// times are given in it with UTC beside. Default: UTC, said so in the ticket.
+    #[arg(long, value_name = "±HH:MM", value_parser = utc_offset_arg, allow_hyphen_values = true)]
+    pub utc_offset: Option<time::UtcOffset>,
+}
+
+/// clap parser for `--utc-offset`: `±HH:MM` or `±HH`, at most 14 hours.
+pub fn utc_offset_arg(text: &str) -> Result<time::UtcOffset, String> {
+    let bad = || format!("`{text}` is not an offset from UTC: write it as +01:00 or -07:00");
+    let t = text.trim();
+    let (sign, rest) = match t.chars().next() {
+        Some('+') => (1i8, &t[1..]),
+        Some('-') | Some('\u{2212}') => (-1i8, &t[t.chars().next().unwrap().len_utf8()..]),
+        _ => return Err(bad()),
+    };
+    let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
+    let h: i8 = h.parse().map_err(|_| bad())?;
+    let m: i8 = m.parse().map_err(|_| bad())?;
+    if !(0..60).contains(&m) || !(0..=14).contains(&h) || (h == 14 && m > 0) {
+        return Err(format!("`{text}` lies outside ±14:00"));
+    }
+    time::UtcOffset::from_hms(sign * h, sign * m, 0).map_err(|_| bad())
 }
 
 /// The date and time the ticket is dated: SOURCE_DATE_EPOCH when set (for reproducible
 /// output), else now; UTC.
 pub fn prepared_at() -> String {
+    prepared_in(None)
+}
+
+/// [`prepared_at`] in the site's own offset with UTC beside, when it is given.
+fn prepared_in(site: Option<time::UtcOffset>) -> String {
     let t = std::env::var("SOURCE_DATE_EPOCH")
         .ok()
         .and_then(|s| s.trim().parse::<i64>().ok())
         .and_then(|s| time::OffsetDateTime::from_unix_timestamp(s).ok())
         .unwrap_or_else(time::OffsetDateTime::now_utc);
-    format!(
-        "{:04}-{:02}-{:02} {:02}:{:02} UTC",
-        t.year(),
-        t.month() as u8,
-        t.day(),
-        t.hour(),
-        t.minute()
-    )
+    let when = |t: time::OffsetDateTime, zone: &str| {
+        format!(
+            "{:04}-{:02}-{:02} {:02}:{:02} {zone}",
+            t.year(),
+            t.month() as u8,
+            t.day(),
+            t.hour(),
+            t.minute()
+        )
+    };
+    let utc = when(t.to_offset(time::UtcOffset::UTC), "UTC");
+    match site {
+        Some(o) if !o.is_utc() => format!(
+            "{} ({utc})",
+            when(t.to_offset(o), &pim_report::ticket::offset_text(o))
+        ),
+        _ => utc,
+    }
 }
 
 /// Makes the ticket's files and writes them into `dir`, all or nothing (pim_io::output):
@@ -295,7 +332,7 @@ pub fn run(args: Args) -> CliResult {
     };
     let inputs = TicketInputs {
         site_name: args.site.clone(),
-        prepared: prepared_at(),
+        prepared: prepared_in(g.utc_offset),
         site,
         emitters_source: named(&args.input.emitters),
         log,
@@ -322,6 +359,7 @@ pub fn run(args: Args) -> CliResult {
         work_order: WorkOrder {
             ticket_id: g.ticket_id.clone(),
             assignee: g.assignee.clone(),
+            utc_offset: g.utc_offset,
         },
     };
     let mut inputs = inputs;

@@ -77,11 +77,14 @@ pub struct FieldEvidence {
     pub receiver: Option<(Receiver, String)>,
 }
 
-/// The ticket's number and assignee.
+/// The ticket's number and assignee, and the site's own offset from UTC for its times.
 #[derive(Clone, Debug, Default)]
 pub struct WorkOrder {
     pub ticket_id: Option<String>,
     pub assignee: Option<String>,
+    /// The site's offset from UTC, as stated (`--utc-offset`); without it times are UTC
+    /// and the ticket says so.
+    pub utc_offset: Option<pim_core::time::UtcOffset>,
 }
 
 /// An attenuator test read from its file (as `pim slope --kind attenuator` reads it).
@@ -305,7 +308,7 @@ fn build(
     if let Some(who) = &t.work_order.assignee {
         header.push(format!("Assigned to: {who}."));
     }
-    if let Some(visit) = visit_text(&t.log) {
+    if let Some(visit) = visit_text(&t.log, t.work_order.utc_offset) {
         header.push(format!(
             "Site visit: {visit} (the field log's first and last readings)."
         ));
@@ -935,29 +938,50 @@ fn exposure_blocks(x: &Exposure, emitters: &[Emitter], limit: usize) -> Vec<Bloc
     blocks
 }
 
-/// The span of the field log's reading times, in UTC: `2026-11-28, 09:12–09:41 UTC`, or
-/// both dates when the walk ran over midnight; `None` when no reading has a time.
-pub fn visit_text(log: &FieldLog) -> Option<String> {
+/// An offset from UTC as written in the ticket: `+01:00`.
+pub fn offset_text(o: pim_core::time::UtcOffset) -> String {
+    let (h, m, _) = o.as_hms();
+    format!(
+        "{}{:02}:{:02}",
+        if o.is_negative() { '-' } else { '+' },
+        h.abs(),
+        m.abs()
+    )
+}
+
+/// The span of the field log's reading times: in the site's own offset with UTC beside
+/// when it is given (`2026-11-28, 10:12–10:41 +01:00 (09:12–09:41 UTC)`), else in UTC
+/// saying so; both dates when the walk ran over midnight; `None` when no reading has a
+/// time.
+pub fn visit_text(log: &FieldLog, site: Option<pim_core::time::UtcOffset>) -> Option<String> {
     let utc = pim_core::time::UtcOffset::UTC;
-    let times: Vec<_> = log
-        .rows
-        .iter()
-        .filter_map(|r| r.time)
-        .map(|x| x.to_offset(utc))
-        .collect();
-    let first = times.iter().min()?;
-    let last = times.iter().max()?;
-    let hm = |x: &pim_core::time::OffsetDateTime| format!("{:02}:{:02}", x.hour(), x.minute());
-    Some(if first.date() == last.date() {
-        format!("{}, {}–{} UTC", first.date(), hm(first), hm(last))
-    } else {
-        format!(
-            "{} {} UTC to {} {} UTC",
-            first.date(),
-            hm(first),
-            last.date(),
-            hm(last)
-        )
+    let span = |offset: pim_core::time::UtcOffset, zone: &str| -> Option<String> {
+        let times: Vec<_> = log
+            .rows
+            .iter()
+            .filter_map(|r| r.time)
+            .map(|x| x.to_offset(offset))
+            .collect();
+        let first = times.iter().min()?;
+        let last = times.iter().max()?;
+        let hm = |x: &pim_core::time::OffsetDateTime| format!("{:02}:{:02}", x.hour(), x.minute());
+        Some(if first.date() == last.date() {
+            format!("{}, {}–{} {zone}", first.date(), hm(first), hm(last))
+        } else {
+            format!(
+                "{} {} {zone} to {} {} {zone}",
+                first.date(),
+                hm(first),
+                last.date(),
+                hm(last)
+            )
+        })
+    };
+    let in_utc = span(utc, "UTC")?;
+    Some(match site {
+        Some(o) if o != utc => format!("{} ({in_utc})", span(o, &offset_text(o))?),
+        Some(_) => format!("{in_utc} (the site's own time)"),
+        None => format!("{in_utc}, the site's own offset not given"),
     })
 }
 

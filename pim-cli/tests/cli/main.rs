@@ -61,6 +61,14 @@ mod support {
         String::from_utf8_lossy(&o.stderr).into_owned()
     }
 
+    /// Says that a test is skipped and why where the test runner shows it: written to
+    /// the process's standard error directly, which the runner does not capture (it
+    /// captures only `eprintln!`, and shows that only for a failing test).
+    pub fn say_skipped(why: &str) {
+        use std::io::Write;
+        let _ = writeln!(std::io::stderr(), "skipped: {why}");
+    }
+
     /// A fresh scratch directory, removed when the value is dropped.
     pub fn scratch() -> tempfile::TempDir {
         tempfile::Builder::new()
