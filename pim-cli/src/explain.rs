@@ -22,6 +22,14 @@ pub struct Args {
     pub evidence: EvidenceArgs,
     #[command(flatten)]
     pub search: SearchArgs,
+    /// Latitude of the junction when it lies apart from the receiver (a fix): the
+    /// candidates are levelled there and heard at the receiver (--rx-lat/--rx-lon),
+    /// without a whole ticket.
+    #[arg(long, value_name = "DEG", value_parser = crate::common::lat_arg, allow_hyphen_values = true, requires = "junction_lon")]
+    pub junction_lat: Option<f64>,
+    /// Longitude of the junction apart from the receiver.
+    #[arg(long, value_name = "DEG", value_parser = crate::common::lon_arg, allow_hyphen_values = true, requires = "junction_lat")]
+    pub junction_lon: Option<f64>,
     #[command(flatten)]
     pub calibration: CalibrationArgs,
     #[command(flatten)]
@@ -40,12 +48,17 @@ pub fn run(args: Args) -> CliResult {
     let logbook = args.evidence.logbook(emitters)?;
     let s = &args.search;
     let params = s.params(args.input.freq(), s.rx_bw);
-    let junction = s.rx_site();
+    // the junction apart from the receiver when given, else at the receiver
+    let apart = args
+        .junction_lat
+        .zip(args.junction_lon)
+        .map(|(lat, lon)| pim_core::geo::GeoPoint::new(lat, lon));
+    let junction = apart.or(s.rx_site());
     let shown = args.listing.shown(20);
     let query = Query {
         params,
         junction,
-        receiver: None,
+        receiver: apart.and(s.rx_site()),
         heard: args.calibration.heard(),
         model: args.calibration.weigh(s.model()?),
         coefficients: coefficients.clone(),

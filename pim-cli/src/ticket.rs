@@ -103,11 +103,13 @@ pub struct Gathered {
 pub fn utc_offset_arg(text: &str) -> Result<time::UtcOffset, String> {
     let bad = || format!("`{text}` is not an offset from UTC: write it as +01:00 or -07:00");
     let t = text.trim();
-    let (sign, rest) = match t.chars().next() {
-        Some('+') => (1i8, &t[1..]),
-        Some('-') | Some('\u{2212}') => (-1i8, &t[t.chars().next().unwrap().len_utf8()..]),
+    let mut chars = t.chars();
+    let sign = match chars.next() {
+        Some('+') => 1i8,
+        Some('-') | Some('\u{2212}') => -1i8,
         _ => return Err(bad()),
     };
+    let rest = chars.as_str();
     let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
     let h: i8 = h.parse().map_err(|_| bad())?;
     let m: i8 = m.parse().map_err(|_| bad())?;

@@ -167,6 +167,15 @@ mod tests {
         }
     }
 
+    /// 100 W ERP at 146.94 MHz on a 10 m mast at 45° N, 122° W.
+    fn mast(id: &str) -> Emitter {
+        let mut e = Emitter::new(id, Hz(146_940_000), Hz(16_000));
+        e.erp_dbm = Some(50.0);
+        e.position = Some(at(45.0, -122.0));
+        e.height_m = Some(10.0);
+        e
+    }
+
     /// The reference levels at the bands' edges meet (ICNIRP 2020 Table 5, from memory:
     /// 300/30^0.7 = 27.7 and 1.375·√400 = 27.5 V/m; 1.375·√2000 = 61.5 against
     /// √(10·377) = 61.4 V/m).
@@ -185,11 +194,7 @@ mod tests {
     /// √(30·164)/d).
     #[test]
     fn one_emitter_s_share_and_distance() {
-        let mut e = Emitter::new("RPT", Hz(146_940_000), Hz(16_000));
-        e.erp_dbm = Some(50.0);
-        e.position = Some(at(45.0, -122.0));
-        e.height_m = Some(10.0);
-        let x = exposure_at(&[e], at(45.0, -122.0), 0.0);
+        let x = exposure_at(&[mast("RPT")], at(45.0, -122.0), 0.0);
         let t = x.terms[0];
         assert!((t.distance_m - 10.0).abs() < 1e-9);
         assert!((t.field_v_per_m - 7.016).abs() < 0.001);
@@ -201,10 +206,7 @@ mod tests {
     /// Shares add; an emitter without ERP is named as left out and the verdict withheld.
     #[test]
     fn shares_add_and_unknown_emitters_withhold_the_verdict() {
-        let mut a = Emitter::new("A", Hz(146_940_000), Hz(16_000));
-        a.erp_dbm = Some(50.0);
-        a.position = Some(at(45.0, -122.0));
-        a.height_m = Some(10.0);
+        let a = mast("A");
         let b = a.clone();
         let x = exposure_at(&[a.clone(), b], at(45.0, -122.0), 0.0);
         assert!((x.total_fraction - 2.0 * x.terms[0].fraction).abs() < 1e-12);

@@ -643,6 +643,9 @@ fn build(
         ),
         svg: map.clone(),
     });
+    if let Some(off) = off_map_text(t, at_fix) {
+        doc.push(Block::Para(off));
+    }
     if near.is_empty() {
         doc.push(Block::Para(
             "No listed structure or emitter lies in or near the ellipse.".into(),
@@ -1183,6 +1186,49 @@ fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
     )
 }
 
+/// How far from the fix the map shows structures and emitters, m: the walk's farthest
+/// reading's distance and 30 % more, at least 100 m.
+fn map_reach_m(fix: &Fix) -> f64 {
+    (fix.readings
+        .iter()
+        .map(|r| r.distance_m)
+        .fold(0.0, f64::max)
+        * 1.3)
+        .max(100.0)
+}
+
+/// The emitters of the listed candidates that lie beyond the map, each with its distance
+/// and bearing from the fix, so that none is left off without notice.
+fn off_map_text(t: &TicketInputs, at_fix: &Ranking) -> Option<String> {
+    let reach = map_reach_m(&t.fix);
+    let mut seen: Vec<usize> = Vec::new();
+    let mut off = Vec::new();
+    for c in at_fix.candidates.iter().take(t.limit) {
+        for term in c.product.terms() {
+            if seen.contains(&term.emitter) {
+                continue;
+            }
+            seen.push(term.emitter);
+            let e = &t.site.emitters()[term.emitter];
+            match e.position {
+                Some(p) => {
+                    let (d, az) = pim_core::geo::distance_and_azimuth(t.fix.position, p);
+                    if d > reach {
+                        off.push(format!("{} ({:.0} m at {:.0}°)", e.id, d, az));
+                    }
+                }
+                None => off.push(format!("{} (no position listed)", e.id)),
+            }
+        }
+    }
+    (!off.is_empty()).then(|| {
+        format!(
+            "Emitters of the listed candidates beyond the map's {reach:.0} m, with their distance and true bearing from the fix: {}.",
+            off.join("; ")
+        )
+    })
+}
+
 /// The ticket's map of a fix: spots, lines of bearing, the ellipse, and the structures
 /// and emitters within reach of the walk (shared with the walk page).
 pub fn fix_map_input(
@@ -1193,12 +1239,7 @@ pub fn fix_map_input(
     title: String,
 ) -> MapInput {
     let frame = LocalFrame::new(fix.position);
-    let reach = fix
-        .readings
-        .iter()
-        .map(|r| r.distance_m)
-        .fold(0.0, f64::max)
-        * 1.3;
+    let reach = map_reach_m(fix);
     let observers = fix
         .readings
         .iter()
@@ -1217,7 +1258,7 @@ pub fn fix_map_input(
     let mut markers: Vec<Marker> = Vec::new();
     let mut add = |id: &str, p: GeoPoint, kind: MarkerKind| {
         let (east_m, north_m) = frame.to_local(p);
-        if east_m.hypot(north_m) <= reach.max(100.0) && !markers.iter().any(|m| m.label == id) {
+        if east_m.hypot(north_m) <= reach && !markers.iter().any(|m| m.label == id) {
             markers.push(Marker {
                 east_m,
                 north_m,

@@ -221,3 +221,47 @@ fn a_receiver_filter_is_read_or_refused_by_line_and_field() {
         "{err}"
     );
 }
+
+/// `--junction-lat/--junction-lon` rank at a junction apart from the receiver (the
+/// demo's fix, 200 m from the repeater): the levels differ from those with the junction
+/// at the receiver, and the table says where the junction was assumed.
+#[test]
+fn a_junction_apart_from_the_receiver_is_ranked_there() {
+    let tx = crate::support::field_log("emitters.csv");
+    let tx = tx.to_str().unwrap();
+    let at_rx = [
+        "explain",
+        "146.34",
+        "--emitters",
+        tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+    ];
+    let mut apart = at_rx.to_vec();
+    apart.extend([
+        "--junction-lat",
+        "45.10466",
+        "--junction-lon",
+        "-122.413943",
+    ]);
+    let a = crate::support::pim(&at_rx);
+    let b = crate::support::pim(&apart);
+    assert!(a.status.success() && b.status.success());
+    let (a, b) = (crate::support::stdout_of(&a), crate::support::stdout_of(&b));
+    assert!(
+        b.contains("junction assumed at 45.104660, -122.413943"),
+        "{b}"
+    );
+    assert_ne!(a, b);
+    let o = crate::support::pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        tx,
+        "--junction-lat",
+        "45.1",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+}
