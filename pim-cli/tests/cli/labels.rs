@@ -4,7 +4,8 @@
 //! size and the number of characters (0.6 em a character, 0.76 em above the baseline and
 //! 0.24 em below: a wide sans-serif face's usual measures, common practice), placed by
 //! `x`, `y`, `dy` and `text-anchor`; rotated texts (axis titles) are left out. Boxes may
-//! touch by up to 1 px, the slack of the estimate.
+//! touch by up to 1 px, the slack of the estimate. Also: the ticket names the emitters
+//! of its listed candidates that lie beyond its map.
 
 use std::path::Path;
 
@@ -133,6 +134,14 @@ fn no_two_labels_of_the_demo_s_pictures_overlap() {
     for want in ["map.svg", "spectrum.svg", "trace.svg", "waterfall.svg"] {
         assert!(names.iter().any(|n| n == want), "{want} in {names:?}");
     }
+    // the map is sized to the walk: the listed candidates' emitters beyond it are named
+    // with their distance and bearing from the fix
+    let md = std::fs::read_to_string(tmp.path().join("demo/ticket.md")).unwrap();
+    assert!(
+        md.contains("Emitters of the listed candidates beyond the map's")
+            && md.contains("QFMR (1221 m at 60°)"),
+        "{md}"
+    );
     for f in files {
         let svg = std::fs::read_to_string(&f).unwrap();
         assert!(text_boxes(&svg).len() > 3, "{}", f.display());
