@@ -224,13 +224,50 @@ impl SearchArgs {
 #[derive(clap::Args, Debug)]
 pub struct HeardArgs {
     /// The frequency heard: a bare number is MHz; units: 146.52MHz, 600kHz, 1.2GHz.
-    #[arg(value_name = "FREQ", value_parser = frequency_arg)]
-    pub freq: Hz,
+    #[arg(id = "freq", value_name = "FREQ", value_parser = heard_arg)]
+    pub heard: Heard,
     /// Emitter file: CSV with a header, or a JSON array.
     #[arg(long, value_name = "FILE")]
     pub emitters: PathBuf,
     #[command(flatten)]
     pub columns: ColumnsArgs,
+}
+
+/// The frequency heard, and whether it was typed as a bare number (read as MHz).
+#[derive(Clone, Copy, Debug)]
+pub struct Heard {
+    pub freq: Hz,
+    pub bare: bool,
+}
+
+/// clap parser for the heard frequency: [`frequency_arg`], remembering a bare number.
+pub fn heard_arg(text: &str) -> Result<Heard, String> {
+    Ok(Heard {
+        freq: frequency_arg(text)?,
+        bare: text.trim().parse::<f64>().is_ok(),
+    })
+}
+
+impl HeardArgs {
+    /// The frequency heard.
+    pub fn freq(&self) -> Hz {
+        self.heard.freq
+    }
+
+    /// A note when a bare number was read far from every listed frequency, offering the
+    /// reading that lands among them ("read as 14.634 GHz; did you mean 146.34 MHz?").
+    pub fn note_far_reading(&self, listed: impl Iterator<Item = Hz>) {
+        if !self.heard.bare {
+            return;
+        }
+        if let Some(likely) = pim_core::freq::likely_reading(self.heard.freq, listed) {
+            eprintln_safe!(
+                "pim: note: the frequency was read as {}, far from every listed emitter; did you mean {}?",
+                self.heard.freq.unit_text(),
+                likely.unit_text()
+            );
+        }
+    }
 }
 
 /// Which column of an emitter, receiver or structure file holds which field, where the

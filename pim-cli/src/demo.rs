@@ -205,30 +205,48 @@ pub fn run(args: Args) -> CliResult {
     finish(out)
 }
 
-/// The `pim` command lines that do what the demo did, on the inputs it wrote into `dir`.
+/// The `pim` command lines that do what the demo did, on the inputs it wrote into `dir`,
+/// each quoted for a POSIX shell by the one quoting of every suggested command.
 fn commands(dir: &Path) -> Vec<String> {
-    use pim_io::text::shell_word;
-    let file = |name: &str| shell_word(&dir.join(name).display().to_string());
-    let again = shell_word(&format!("{}-again", dir.display()));
+    use pim_io::text::pim_command;
+    let file = |name: &str| dir.join(name).display().to_string();
+    let beside = |suffix: &str| format!("{}{suffix}", dir.display());
     vec![
-        format!("pim fix --log {}", file("walk.csv")),
-        format!(
-            "pim sweep --recording {} --emitters {} --svg {}",
-            file("recording.csv"),
-            file("emitters.csv"),
-            shell_word(&format!("{}-waterfall.svg", dir.display()))
-        ),
-        format!(
-            "pim ticket {} --emitters {} --log {} --structures {} --trace {} --attenuator-readings {} --power-steps {} --rx-lat {} --rx-lon {} --junction-height-m {JUNCTION_HEIGHT_M} --site 'Marrow Hill' --out {again}",
-            HEARD.mhz_text(),
-            file("emitters.csv"),
-            file("walk.csv"),
-            file("structures.csv"),
-            file("trace.csv"),
-            file("attenuator-readings.csv"),
-            file("power-steps.csv"),
-            RX_SITE.lat_deg,
-            RX_SITE.lon_deg,
-        ),
+        pim_command(["fix", "--log", &file("walk.csv")]),
+        pim_command([
+            "sweep",
+            "--recording",
+            &file("recording.csv"),
+            "--emitters",
+            &file("emitters.csv"),
+            "--svg",
+            &beside("-waterfall.svg"),
+        ]),
+        pim_command([
+            "ticket",
+            &HEARD.mhz_text(),
+            "--emitters",
+            &file("emitters.csv"),
+            "--log",
+            &file("walk.csv"),
+            "--structures",
+            &file("structures.csv"),
+            "--trace",
+            &file("trace.csv"),
+            "--attenuator-readings",
+            &file("attenuator-readings.csv"),
+            "--power-steps",
+            &file("power-steps.csv"),
+            "--rx-lat",
+            &RX_SITE.lat_deg.to_string(),
+            "--rx-lon",
+            &RX_SITE.lon_deg.to_string(),
+            "--junction-height-m",
+            &JUNCTION_HEIGHT_M.to_string(),
+            "--site",
+            "Marrow Hill",
+            "--out",
+            &beside("-again"),
+        ]),
     ]
 }

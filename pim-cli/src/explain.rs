@@ -22,6 +22,14 @@ pub struct Args {
     pub evidence: EvidenceArgs,
     #[command(flatten)]
     pub search: SearchArgs,
+    /// Latitude of the junction when it lies apart from the receiver (a fix): the
+    /// candidates are levelled there and heard at the receiver (--rx-lat/--rx-lon),
+    /// without a whole ticket.
+    #[arg(long, value_name = "DEG", value_parser = crate::common::lat_arg, allow_hyphen_values = true, requires = "junction_lon")]
+    pub junction_lat: Option<f64>,
+    /// Longitude of the junction apart from the receiver.
+    #[arg(long, value_name = "DEG", value_parser = crate::common::lon_arg, allow_hyphen_values = true, requires = "junction_lat")]
+    pub junction_lon: Option<f64>,
     #[command(flatten)]
     pub calibration: CalibrationArgs,
     #[command(flatten)]
@@ -37,14 +45,21 @@ pub struct Args {
 pub fn run(args: Args) -> CliResult {
     let columns = crate::common::Columns::new(&args.input.columns)?;
     let site = budgeted(Site::new(load_emitters(&args.input.emitters, &columns)?))?;
+    args.input
+        .note_far_reading(site.emitters().iter().map(|e| e.freq));
     columns.check()?;
     let emitters = site.emitters();
     let source = args.input.emitters.display().to_string();
     let coefficients = args.evidence.coefficient_indices(&site, &source)?;
     let logbook = args.evidence.logbook(emitters)?;
     let s = &args.search;
-    let params = s.params(args.input.freq, s.rx_bw);
-    let junction = s.rx_site();
+    let params = s.params(args.input.freq(), s.rx_bw);
+    // the junction apart from the receiver when given, else at the receiver
+    let apart = args
+        .junction_lat
+        .zip(args.junction_lon)
+        .map(|(lat, lon)| pim_core::geo::GeoPoint::new(lat, lon));
+    let junction = apart.or(s.rx_site());
     let shown = args.listing.shown(20);
     let steps = args
         .power_steps
@@ -60,7 +75,7 @@ pub fn run(args: Args) -> CliResult {
     let query = Query {
         params,
         junction,
-        receiver: None,
+        receiver: apart.and(s.rx_site()),
         heard: args.calibration.heard(),
         model,
         coefficients: coefficients.clone(),
@@ -154,7 +169,7 @@ pub fn run(args: Args) -> CliResult {
         }
         ListFormat::Json => {
             let mut inputs = s.inputs_json();
-            inputs["target_mhz"] = json!(args.input.freq.mhz());
+            inputs["target_mhz"] = json!(args.input.freq().mhz());
             inputs["rx_bw_khz"] = json!(s.rx_bw.khz());
             inputs["emitters_file"] = json!(args.input.emitters.display().to_string());
             inputs["emitter_count"] = json!(emitters.len());

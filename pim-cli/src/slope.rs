@@ -7,10 +7,11 @@
 use std::io::Write;
 use std::path::PathBuf;
 
+use pim_core::freq::Hz;
 use pim_core::slope::{judge, judge_power_steps, StepKind};
 use pim_core::Error;
 use pim_io::read_readings;
-use pim_report::slope::{power_steps_json, power_steps_text, single_json, single_text};
+use pim_report::slope::{power_steps_json, power_steps_text, single_json, single_text, Carrier};
 
 use crate::common::{finish, open, stdout, AnswerFormat, CliResult};
 
@@ -36,6 +37,14 @@ pub struct Args {
     /// with an `emitter` column, only that emitter's steps are read.
     #[arg(long, value_name = "ID")]
     pub emitter: Option<String>,
+    /// The carrier the steps were taken on (a bare number is MHz): with --emitters, the
+    /// advice's `pim explain` command is whole, ready to run.
+    #[arg(long, value_name = "FREQ", value_parser = crate::common::frequency_arg, requires = "emitters")]
+    pub freq: Option<Hz>,
+    /// The emitter file the carrier's candidates come from, named in the advice's `pim
+    /// explain` command as given here (not read by `slope`).
+    #[arg(long, value_name = "FILE", requires = "freq")]
+    pub emitters: Option<PathBuf>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = AnswerFormat::Table)]
     pub format: AnswerFormat,
@@ -59,6 +68,14 @@ pub fn run(args: Args) -> CliResult {
         }
     }
     let series = file.series(args.emitter.as_deref().unwrap_or("the emitter"));
+    let carrier = args
+        .freq
+        .zip(args.emitters.as_ref())
+        .map(|(freq, e)| Carrier {
+            freq,
+            emitters: e.display().to_string(),
+        });
+    let carrier = carrier.as_ref();
     let mut out = stdout();
     if kind == StepKind::Power && series.len() > 1 {
         let answer = judge_power_steps(&series)?;
@@ -67,9 +84,14 @@ pub fn run(args: Args) -> CliResult {
             AnswerFormat::Json => writeln!(
                 out,
                 "{}",
-                power_steps_json(&answer, &counts, &source).map_err(std::io::Error::from)?
+                power_steps_json(&answer, &counts, &source, carrier)
+                    .map_err(std::io::Error::from)?
             )?,
-            AnswerFormat::Table => write!(out, "{}", power_steps_text(&answer, &counts, &source))?,
+            AnswerFormat::Table => write!(
+                out,
+                "{}",
+                power_steps_text(&answer, &counts, &source, carrier)
+            )?,
         }
         return finish(out);
     }
@@ -86,12 +108,19 @@ pub fn run(args: Args) -> CliResult {
         AnswerFormat::Json => writeln!(
             out,
             "{}",
-            single_json(&answer, emitter.as_deref(), &source).map_err(std::io::Error::from)?
+            single_json(&answer, emitter.as_deref(), &source, carrier)
+                .map_err(std::io::Error::from)?
         )?,
         AnswerFormat::Table => write!(
             out,
             "{}",
-            single_text(&answer, &file.readings, emitter.as_deref(), &source)
+            single_text(
+                &answer,
+                &file.readings,
+                emitter.as_deref(),
+                &source,
+                carrier
+            )
         )?,
     }
     finish(out)

@@ -93,24 +93,63 @@ pub struct Gathered {
     /// Who the ticket is assigned to.
     #[arg(long, value_name = "NAME")]
     pub assignee: Option<String>,
+    /// The site's own offset from UTC (`+01:00`, `-07:00`; ±14:00 at most): the ticket's
+    /// times are given in it with UTC beside. Default: UTC, said so in the ticket.
+    #[arg(long, value_name = "±HH:MM", value_parser = utc_offset_arg, allow_hyphen_values = true)]
+    pub utc_offset: Option<time::UtcOffset>,
+}
+
+/// clap parser for `--utc-offset`: `±HH:MM` or `±HH`, at most 14 hours.
+pub fn utc_offset_arg(text: &str) -> Result<time::UtcOffset, String> {
+    let bad = || format!("`{text}` is not an offset from UTC: write it as +01:00 or -07:00");
+    let t = text.trim();
+    let mut chars = t.chars();
+    let sign = match chars.next() {
+        Some('+') => 1i8,
+        Some('-') | Some('\u{2212}') => -1i8,
+        _ => return Err(bad()),
+    };
+    let rest = chars.as_str();
+    let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
+    let h: i8 = h.parse().map_err(|_| bad())?;
+    let m: i8 = m.parse().map_err(|_| bad())?;
+    if !(0..60).contains(&m) || !(0..=14).contains(&h) || (h == 14 && m > 0) {
+        return Err(format!("`{text}` lies outside ±14:00"));
+    }
+    time::UtcOffset::from_hms(sign * h, sign * m, 0).map_err(|_| bad())
 }
 
 /// The date and time the ticket is dated: SOURCE_DATE_EPOCH when set (for reproducible
 /// output), else now; UTC.
 pub fn prepared_at() -> String {
+    prepared_in(None)
+}
+
+/// [`prepared_at`] in the site's own offset with UTC beside, when it is given.
+fn prepared_in(site: Option<time::UtcOffset>) -> String {
     let t = std::env::var("SOURCE_DATE_EPOCH")
         .ok()
         .and_then(|s| s.trim().parse::<i64>().ok())
         .and_then(|s| time::OffsetDateTime::from_unix_timestamp(s).ok())
         .unwrap_or_else(time::OffsetDateTime::now_utc);
-    format!(
-        "{:04}-{:02}-{:02} {:02}:{:02} UTC",
-        t.year(),
-        t.month() as u8,
-        t.day(),
-        t.hour(),
-        t.minute()
-    )
+    let when = |t: time::OffsetDateTime, zone: &str| {
+        format!(
+            "{:04}-{:02}-{:02} {:02}:{:02} {zone}",
+            t.year(),
+            t.month() as u8,
+            t.day(),
+            t.hour(),
+            t.minute()
+        )
+    };
+    let utc = when(t.to_offset(time::UtcOffset::UTC), "UTC");
+    match site {
+        Some(o) if !o.is_utc() => format!(
+            "{} ({utc})",
+            when(t.to_offset(o), &pim_report::ticket::offset_text(o))
+        ),
+        _ => utc,
+    }
 }
 
 /// Makes the ticket's files and writes them into `dir`, all or nothing (pim_io::output):
@@ -131,6 +170,53 @@ pub fn write_ticket(
     // the summary lists the ticket's own files, not a marker beside them
     paths.truncate(ticket_count);
     Ok(made.summary(t, &paths))
+}
+
+/// An input as the ticket names it: relative to the ticket's folder, so that the ticket
+/// travels without the home folder's or the machine's paths and its commands run from
+/// its folder (`walk.csv`, `../logs/walk.csv`); by its file name alone when the two
+/// share no folder below the root, or only through more than three levels up.
+pub fn name_for_ticket(input: &Path, out: &Path) -> String {
+    let whole = |p: &Path| -> PathBuf {
+        let p = std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf());
+        // the nearest existing ancestor resolved (links and `..`), the rest kept as given
+        let mut rest = Vec::new();
+        let mut base = p.as_path();
+        loop {
+            if let Ok(real) = base.canonicalize() {
+                return rest.iter().rev().fold(real, |acc: PathBuf, c| acc.join(c));
+            }
+            match (base.parent(), base.file_name()) {
+                (Some(parent), Some(name)) => {
+                    rest.push(name.to_os_string());
+                    base = parent;
+                }
+                _ => return p,
+            }
+        }
+    };
+    let file_name = || {
+        input
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| input.display().to_string())
+    };
+    let (input_abs, out_abs) = (whole(input), whole(out));
+    let a: Vec<_> = input_abs.components().collect();
+    let b: Vec<_> = out_abs.components().collect();
+    let common = a.iter().zip(&b).take_while(|(x, y)| x == y).count();
+    let ups = b.len() - common;
+    if common <= 1 || ups > 3 {
+        return file_name();
+    }
+    let mut rel = PathBuf::new();
+    for _ in 0..ups {
+        rel.push("..");
+    }
+    for c in &a[common..] {
+        rel.push(c.as_os_str());
+    }
+    rel.display().to_string()
 }
 
 /// The attenuator test of a file, read as `pim slope --kind attenuator` reads it.
@@ -165,12 +251,12 @@ fn affected_receiver(
         .find(|r| r.id == id)
         .ok_or_else(|| Error::argument("--receiver", format!("no receiver `{id}` in {source}")))?;
     let width = rx.bandwidth.unwrap_or(s.rx_bw);
-    if (heard.freq - rx.freq).0.abs() > width.0 / 2 + s.tol.0 {
+    if (heard.freq() - rx.freq).0.abs() > width.0 / 2 + s.tol.0 {
         return Err(Error::argument(
             "--receiver",
             format!(
                 "{} MHz lies outside the channel of `{id}` ({} MHz, {} kHz wide)",
-                heard.freq.mhz_text(),
+                heard.freq().mhz_text(),
                 rx.freq.mhz_text(),
                 width.khz_text()
             ),
@@ -183,22 +269,30 @@ fn affected_receiver(
 pub fn run(args: Args) -> CliResult {
     let columns = crate::common::Columns::new(&args.input.columns)?;
     let emitters = load_emitters(&args.input.emitters, &columns)?;
+    args.input.note_far_reading(emitters.iter().map(|e| e.freq));
     let structures = match &args.structures {
         Some(p) => crate::common::load_structures(p, &columns)?,
         None => Vec::new(),
     };
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
-    let log = pim_io::fieldlog::read_field_log(
+    // inputs are read under the names given (errors name them so) and named in the
+    // ticket relative to its folder
+    let named = |p: &Path| name_for_ticket(p, &args.out);
+    let mut log = pim_io::fieldlog::read_field_log(
         &args.log.display().to_string(),
         open(&args.log)?,
         args.fix.track.is_some(),
     )?;
+    log.source = named(&args.log);
     let s = &args.search;
     let g = &args.gathered;
     let site = crate::common::budgeted(Site::new(emitters))?;
     let source = args.input.emitters.display().to_string();
     let receiver = match (&g.receivers, &g.receiver) {
-        (Some(path), Some(id)) => Some(affected_receiver(path, id, &args.input, s, &columns)?),
+        (Some(path), Some(id)) => {
+            let (rx, _) = affected_receiver(path, id, &args.input, s, &columns)?;
+            Some((rx, named(path)))
+        }
         _ => None,
     };
     columns.check()?;
@@ -211,7 +305,7 @@ pub fn run(args: Args) -> CliResult {
         .as_ref()
         .and_then(|(rx, _)| rx.position)
         .or(s.rx_site());
-    let shown = |p: &Option<PathBuf>| p.as_ref().map(|p| p.display().to_string());
+    let shown = |p: &Option<PathBuf>| p.as_deref().map(named);
     let evidence = FieldEvidence {
         coefficients: g.evidence.coefficient_indices(&site, &source)?,
         logbook: g.evidence.logbook(site.emitters())?,
@@ -219,21 +313,35 @@ pub fn run(args: Args) -> CliResult {
         attenuator: g
             .attenuator_readings
             .as_deref()
-            .map(attenuator_test)
+            .map(|p| {
+                attenuator_test(p).map(|t| AttenuatorTest {
+                    source: named(p),
+                    ..t
+                })
+            })
             .transpose()?,
-        power_steps: g.power_steps.as_deref().map(power_step_test).transpose()?,
+        power_steps: g
+            .power_steps
+            .as_deref()
+            .map(|p| {
+                power_step_test(p).map(|t| PowerStepTest {
+                    source: named(p),
+                    ..t
+                })
+            })
+            .transpose()?,
         receiver,
     };
     let inputs = TicketInputs {
         site_name: args.site.clone(),
-        prepared: prepared_at(),
+        prepared: prepared_in(g.utc_offset),
         site,
-        emitters_source: source,
+        emitters_source: named(&args.input.emitters),
         log,
         fix,
         corrections: prepared.corrections,
         structures,
-        params: s.params(args.input.freq, rx_bw),
+        params: s.params(args.input.freq(), rx_bw),
         model: pim_core::level::LevelModel {
             // levelled with the law the power steps measured, unless told otherwise
             drive_exponent: s.drive_exponent.unwrap_or_else(|| {
@@ -253,6 +361,7 @@ pub fn run(args: Args) -> CliResult {
         work_order: WorkOrder {
             ticket_id: g.ticket_id.clone(),
             assignee: g.assignee.clone(),
+            utc_offset: g.utc_offset,
         },
     };
     let mut inputs = inputs;
@@ -267,11 +376,7 @@ pub fn run(args: Args) -> CliResult {
             Some(5),
         );
         let sweep = analyse(&trace, &inputs.site, &rule).map_err(crate::common::listing_hint)?;
-        let sources: Vec<String> = args
-            .traces
-            .iter()
-            .map(|p| p.display().to_string())
-            .collect();
+        let sources: Vec<String> = args.traces.iter().map(|p| named(p)).collect();
         inputs.band = Some(BandTrace {
             trace,
             sweep,
@@ -325,7 +430,7 @@ pub fn run(args: Args) -> CliResult {
             None => Vec::new(),
         };
         let r = crate::recording::explain(path, emitters, &rule, &on_air)?;
-        let source = path.display().to_string();
+        let source = named(path);
         extra.push((
             "waterfall.svg",
             crate::recording::waterfall(&r, emitters, &source).into_bytes(),

@@ -60,6 +60,59 @@ impl Hz {
     pub fn khz_text(self) -> String {
         scaled_text(self.0, 3)
     }
+
+    /// Exact text with the unit that suits its size: `14.634 GHz`, `146.34 MHz`,
+    /// `600.0 kHz`, `50 Hz`.
+    ///
+    /// ```
+    /// use pim_core::freq::Hz;
+    /// assert_eq!(Hz(14_634_000_000).unit_text(), "14.634 GHz");
+    /// assert_eq!(Hz(146_340_000).unit_text(), "146.34 MHz");
+    /// ```
+    pub fn unit_text(self) -> String {
+        match self.0.abs() {
+            m if m >= 1_000_000_000 => format!("{} GHz", scaled_text(self.0, 9)),
+            m if m >= 1_000_000 => format!("{} MHz", scaled_text(self.0, 6)),
+            m if m >= 1_000 => format!("{} kHz", scaled_text(self.0, 3)),
+            _ => format!("{} Hz", self.0),
+        }
+    }
+}
+
+/// The likely reading of a frequency typed without its unit (or its decimal point) when
+/// it lies far from every listed frequency: more than ten times the highest, or under a
+/// tenth of the lowest (where no product of the list plausibly lands). The reading
+/// offered is the typed value scaled by a power of ten (10⁻⁶ to 10⁶) that comes nearest
+/// a listed frequency, within a factor of 1.5 of it; `None` when the value is near the
+/// list or no such scaling lands among it. Our rule, for a hint only.
+///
+/// ```
+/// use pim_core::freq::{likely_reading, Hz};
+/// let listed = [Hz(146_520_000), Hz(155_610_000), Hz(462_550_000)];
+/// // `pim explain 14634`: read as 14.634 GHz, meant 146.34 MHz
+/// assert_eq!(likely_reading(Hz(14_634_000_000), listed.into_iter()), Some(Hz(146_340_000)));
+/// assert_eq!(likely_reading(Hz(146_340_000), listed.into_iter()), None);
+/// ```
+pub fn likely_reading(heard: Hz, listed: impl Iterator<Item = Hz>) -> Option<Hz> {
+    let listed: Vec<f64> = listed.filter(|f| f.0 > 0).map(|f| f.0 as f64).collect();
+    let lo = listed.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = listed.iter().copied().fold(0.0, f64::max);
+    let h = heard.0 as f64;
+    if listed.is_empty() || h <= 0.0 || (h <= 10.0 * hi && h >= lo / 10.0) {
+        return None;
+    }
+    let nearest = |x: f64| {
+        listed
+            .iter()
+            .map(|f| (x / f).log10().abs())
+            .fold(f64::INFINITY, f64::min)
+    };
+    (-6i32..=6)
+        .filter(|&k| k != 0)
+        .map(|k| h * 10f64.powi(k))
+        .filter(|&x| nearest(x) <= 1.5f64.log10())
+        .min_by(|a, b| nearest(*a).total_cmp(&nearest(*b)))
+        .map(|x| Hz(x.round() as i64))
 }
 
 fn scaled_text(value: i64, decimals: u32) -> String {

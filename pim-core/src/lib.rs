@@ -47,6 +47,7 @@ pub mod declination;
 pub mod emission;
 pub mod emitter;
 pub mod error;
+pub mod exposure;
 pub mod fix;
 pub mod freq;
 pub mod geo;

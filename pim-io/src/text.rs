@@ -319,20 +319,41 @@ pub fn decimal_degrees(text: &str, axis: Axis) -> String {
 }
 
 /// Text as one word of a POSIX shell command line (a path in a command printed for the
-/// user to run): as it is when it holds only letters, digits and `-_./+,:@%`, else in
-/// single quotes.
+/// user to run, never its first word): as it is when it holds only letters, digits and
+/// `-_./+,:@%=`, else in single quotes.
 ///
 /// ```
 /// assert_eq!(pim_io::text::shell_word("pim-demo/walk.csv"), "pim-demo/walk.csv");
 /// assert_eq!(pim_io::text::shell_word("Marrow Hill's"), "'Marrow Hill'\\''s'");
 /// ```
 pub fn shell_word(text: &str) -> String {
-    let plain = |c: char| c.is_ascii_alphanumeric() || "-_./+,:@%".contains(c);
+    let plain = |c: char| c.is_ascii_alphanumeric() || "-_./+,:@%=".contains(c);
     if !text.is_empty() && text.chars().all(plain) {
         text.to_string()
     } else {
         format!("'{}'", text.replace('\'', "'\\''"))
     }
+}
+
+/// A `pim` command line as printed for the user to paste into a POSIX shell: `pim` and
+/// each word after it quoted by [`shell_word`]. Every command the tool suggests (advice,
+/// the demo's list, a ticket's steps) is written through it, so all are quoted one way.
+///
+/// ```
+/// let line = pim_io::text::pim_command(["explain", "146.34", "--emitters", "my sites.csv"]);
+/// assert_eq!(line, "pim explain 146.34 --emitters 'my sites.csv'");
+/// ```
+pub fn pim_command<I, S>(words: I) -> String
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<str>,
+{
+    let mut line = String::from("pim");
+    for w in words {
+        line.push(' ');
+        line.push_str(&shell_word(w.as_ref()));
+    }
+    line
 }
 
 /// Text made safe inside XML (SVG, KML, HTML) content and attribute values: the five

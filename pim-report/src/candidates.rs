@@ -165,7 +165,7 @@ pub fn made_in(c: &Candidate, emitters: &[Emitter]) -> String {
 pub fn next_step_text(step: NextStep) -> &'static str {
     match step {
         NextStep::UnlistedEmitters => "look for emitters missing from the list: new or unlicensed transmitters, mobiles and portables, a neighbouring site, a broadcaster far off; a product of one of them may land where none of these does",
-        NextStep::ReceiverOverload => "check for receiver overload with the attenuator test (`pim slope --kind attenuator`): a product made in the receiver drops several dB per dB of attenuation, one arriving over the air one",
+        NextStep::ReceiverOverload => "check for receiver overload with the attenuator test (the level at 0 to 10 dB of attenuation logged as `step_db,level_dbm` in attenuator-readings.csv, then `pim slope --kind attenuator --readings attenuator-readings.csv`): a product made in the receiver drops several dB per dB of attenuation, one arriving over the air one",
         NextStep::TransmitterSpurious => "check each nearby transmitter's own spurious output (a harmonic, or intermodulation in its output stage) at its output with a spectrum analyser, by arrangement with the licensee",
     }
 }

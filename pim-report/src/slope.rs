@@ -2,10 +2,12 @@
 //! emitter's power step, and the power steps of several emitters, whose slopes' ratios
 //! give the coefficients and the junction's drive exponent ([`pim_core::slope`]).
 
+use pim_core::freq::Hz;
 use pim_core::slope::{
     t_quantile, PowerSteps, PowerVerdict, SlopeAnswer, StepKind, Unsettled, Verdict,
 };
 use pim_io::readings::LevelStep;
+use pim_io::text::{pim_command, shell_word};
 use serde::Serialize;
 
 use crate::text_table::{Align, TextTable};
@@ -16,6 +18,52 @@ const MAX_SUGGESTED_RANGE_DB: f64 = 40.0;
 
 /// What one emitter's slope cannot tell, said beside every single-emitter power step.
 pub const SINGLE_EMITTER_CAVEAT: &str = "one emitter's slope is α·|k|, and a junction's drive exponent α may lie anywhere from 0.6 to 1.1 (2 to 3 dB/dB at third order is what is measured; common practice): every |k| that fits is listed, and one is settled only when no other fits. Steps of two or more emitters of the first candidate in one file (emitter,step_db,level_dbm) separate |k| from α.";
+
+/// Who makes a power step, said wherever one is asked for or read (common practice; the
+/// licence holder alone may change a licensed transmitter's power).
+pub const POWER_STEP_ARRANGEMENT: &str = "every power step is arranged with the emitter's licensee, who makes the change and puts it back; a shutdown likewise, with the transmitter locked out and tagged out while anyone works near its antenna";
+
+/// The carrier the steps were taken on and the emitter file naming its emitters, as a
+/// command run where the advice is read would name it: with it, the advice's `pim
+/// explain` is a whole command, frequency and file included.
+#[derive(Clone, Debug)]
+pub struct Carrier {
+    /// The frequency heard.
+    pub freq: Hz,
+    /// The emitter file, as the command names it.
+    pub emitters: String,
+}
+
+/// `pim explain` of the carrier with `flags` added, as a code span; without the carrier,
+/// the flags to add to its explain command (no partial command is printed, for none
+/// would run as pasted).
+fn explain_text(flags: &[String], carrier: Option<&Carrier>) -> String {
+    match carrier {
+        Some(c) => {
+            let mut words = vec![
+                "explain".to_string(),
+                c.freq.mhz_text(),
+                "--emitters".to_string(),
+                c.emitters.clone(),
+            ];
+            words.extend(flags.iter().cloned());
+            format!("`{}`", pim_command(&words))
+        }
+        None => format!(
+            "the carrier's explain command with `{}` added (give the carrier with --freq and --emitters to have it whole)",
+            flags
+                .iter()
+                .map(|w| shell_word(w))
+                .collect::<Vec<_>>()
+                .join(" ")
+        ),
+    }
+}
+
+/// `--coefficient ID=K` as two words, or `None` without the emitter's id.
+fn coefficient_flag(emitter: Option<&str>, k: u32) -> Option<Vec<String>> {
+    emitter.map(|id| vec!["--coefficient".to_string(), format!("{id}={k}")])
+}
 
 fn r4(x: f64) -> f64 {
     (x * 10_000.0).round() / 10_000.0
@@ -56,9 +104,10 @@ fn boundaries_crossed(kind: StepKind, lo: f64, hi: f64) -> usize {
 }
 
 /// What a single series' answer means and what to do or measure next; `emitter` is the
-/// id of the emitter stepped, when given.
-pub fn advice(a: &SlopeAnswer, emitter: Option<&str>) -> String {
-    let id = emitter.unwrap_or("ID");
+/// id of the emitter stepped, when given, and `carrier` what completes the suggested
+/// `pim explain`.
+pub fn advice(a: &SlopeAnswer, emitter: Option<&str>, carrier: Option<&Carrier>) -> String {
+    let id = emitter.unwrap_or("the emitter");
     let kind = a.kind;
     if let Some(u) = a.unsettled {
         return match u {
@@ -127,10 +176,17 @@ pub fn advice(a: &SlopeAnswer, emitter: Option<&str>) -> String {
             "the product is made in the receiver{}: its front end overloads. Filter the receiver input (a band-pass cavity, or a notch on the strongest emitter); there is no junction to find.",
             order.map(|n| format!(" by a process of order {n}")).unwrap_or_default()
         ),
-        (StepKind::Power, _, _, Some(0)) => format!("the level does not follow this emitter: it takes no part in the product (`pim explain --coefficient {id}=0` keeps only the candidates without it)."),
-        (StepKind::Power, _, _, Some(k)) => format!(
-            "the emitter carries |k| = {k} in the product, the only coefficient that fits with a drive exponent of 0.6 to 1.1: `pim explain --coefficient {id}={k}` keeps only the candidates in which it does."
-        ),
+        (StepKind::Power, _, _, Some(k)) => {
+            let keep = match coefficient_flag(emitter, k) {
+                Some(flags) => explain_text(&flags, carrier),
+                None => "--coefficient with the stepped emitter's id (give it with --emitter)".to_string(),
+            };
+            if k == 0 {
+                format!("the level does not follow this emitter: it takes no part in the product ({keep} keeps only the candidates without it).")
+            } else {
+                format!("the emitter carries |k| = {k} in the product, the only coefficient that fits with a drive exponent of 0.6 to 1.1: {keep} keeps only the candidates in which it does.")
+            }
+        }
         _ => String::new(),
     }
 }
@@ -170,6 +226,8 @@ struct SlopeJson<'a> {
     advice: &'a str,
     #[serde(skip_serializing_if = "Option::is_none")]
     caveat: Option<&'static str>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    arrangement: Option<&'static str>,
 }
 
 /// One series' answer as JSON.
@@ -177,9 +235,10 @@ pub fn single_json(
     answer: &SlopeAnswer,
     emitter: Option<&str>,
     source: &str,
+    carrier: Option<&Carrier>,
 ) -> serde_json::Result<String> {
     let attenuator = answer.kind == StepKind::Attenuator;
-    let advice = advice(answer, emitter);
+    let advice = advice(answer, emitter, carrier);
     let v = SlopeJson {
         slope_db_per_db: r4(answer.slope_db_per_db),
         slope_stderr: answer.fit.slope_stderr.map(r4),
@@ -197,6 +256,7 @@ pub fn single_json(
         readings_file: source,
         advice: &advice,
         caveat: (!attenuator).then_some(SINGLE_EMITTER_CAVEAT),
+        arrangement: (!attenuator).then_some(POWER_STEP_ARRANGEMENT),
     };
     serde_json::to_string_pretty(&v)
 }
@@ -208,6 +268,7 @@ pub fn single_text(
     readings: &[LevelStep],
     emitter: Option<&str>,
     source: &str,
+    carrier: Option<&Carrier>,
 ) -> String {
     let kind = answer.kind;
     let title = match kind {
@@ -279,9 +340,10 @@ pub fn single_text(
                 }
             ));
             out.push_str(&format!("Note: {SINGLE_EMITTER_CAVEAT}\n"));
+            out.push_str(&format!("Caution: {POWER_STEP_ARRANGEMENT}.\n"));
         }
     }
-    out.push_str(&format!("Next: {}\n", advice(answer, emitter)));
+    out.push_str(&format!("Next: {}\n", advice(answer, emitter, carrier)));
     out
 }
 
@@ -310,21 +372,24 @@ pub fn alternatives_text(p: &PowerSteps) -> String {
     format!("|k| of ({}) = {}", ids.join(", "), sets.join(" or "))
 }
 
-/// What the power steps of several emitters mean and what to do next.
-pub fn power_steps_advice(p: &PowerSteps) -> String {
+/// What the power steps of several emitters mean and what to do next; `carrier`
+/// completes the suggested `pim explain`.
+pub fn power_steps_advice(p: &PowerSteps, carrier: Option<&Carrier>) -> String {
     match p.verdict {
         PowerVerdict::Coefficients => {
             let mut flags: Vec<String> = p
                 .coefficients
                 .iter()
-                .filter_map(|c| c.k.map(|k| format!("--coefficient {}={k}", c.emitter)))
+                .filter_map(|c| coefficient_flag(Some(&c.emitter), c.k?))
+                .flatten()
                 .collect();
             if let Some(e) = p.exponent {
-                flags.push(format!("--drive-exponent {:.2}", e.estimate.clamp(0.1, 1.5)));
+                flags.push("--drive-exponent".to_string());
+                flags.push(format!("{:.2}", e.estimate.clamp(0.1, 1.5)));
             }
             format!(
-                "`pim explain {}` keeps only the candidates with these coefficients and levels them with the measured law.",
-                flags.join(" ")
+                "{} keeps only the candidates with these coefficients and levels them with the measured law.",
+                explain_text(&flags, carrier)
             )
         }
         PowerVerdict::Ambiguous => format!(
@@ -332,7 +397,7 @@ pub fn power_steps_advice(p: &PowerSteps) -> String {
             alternatives_text(p)
         ),
         PowerVerdict::NoneConsistent => "no set of coefficients up to order 15 with one drive exponent of 0.6 to 1.1 fits every slope: check that every series is of the same product, that step_db is each emitter's own power change in dB, and that the readings stay above the noise floor.".to_string(),
-        PowerVerdict::TooFewReadings => "a series has only two readings, which fix a line but not its uncertainty: take three or more, better five, steps of each emitter.".to_string(),
+        PowerVerdict::TooFewReadings => "a series has only two readings, which fix a line but not its uncertainty: take three or more, better five, steps of each emitter (every power change arranged with its licensee).".to_string(),
         PowerVerdict::SingleEmitter => SINGLE_EMITTER_CAVEAT.to_string(),
     }
 }
@@ -366,6 +431,7 @@ struct PowerStepsJson<'a> {
     convention: &'static str,
     readings_file: &'a str,
     advice: String,
+    arrangement: &'static str,
 }
 
 /// The power steps of several emitters as JSON; `counts` gives each series' number of
@@ -374,6 +440,7 @@ pub fn power_steps_json(
     p: &PowerSteps,
     counts: &[usize],
     source: &str,
+    carrier: Option<&Carrier>,
 ) -> serde_json::Result<String> {
     let coefficients = p
         .coefficients
@@ -406,13 +473,19 @@ pub fn power_steps_json(
         ],
         convention: convention(StepKind::Power),
         readings_file: source,
-        advice: power_steps_advice(p),
+        advice: power_steps_advice(p, carrier),
+        arrangement: POWER_STEP_ARRANGEMENT,
     };
     serde_json::to_string_pretty(&v)
 }
 
 /// The power steps of several emitters as text.
-pub fn power_steps_text(p: &PowerSteps, counts: &[usize], source: &str) -> String {
+pub fn power_steps_text(
+    p: &PowerSteps,
+    counts: &[usize],
+    source: &str,
+    carrier: Option<&Carrier>,
+) -> String {
     let total: usize = counts.iter().sum();
     let mut out = format!(
         "Power-step test: {total} readings of {} emitters from {source}.\n\n",
@@ -476,6 +549,7 @@ pub fn power_steps_text(p: &PowerSteps, counts: &[usize], source: &str) -> Strin
         PowerVerdict::TooFewReadings => out.push_str("Coefficients: inconclusive.\n"),
         PowerVerdict::SingleEmitter => {}
     }
-    out.push_str(&format!("Next: {}\n", power_steps_advice(p)));
+    out.push_str(&format!("Caution: {POWER_STEP_ARRANGEMENT}.\n"));
+    out.push_str(&format!("Next: {}\n", power_steps_advice(p, carrier)));
     out
 }

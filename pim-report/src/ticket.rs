@@ -4,6 +4,7 @@
 //! inspect near the fix, how to confirm the cause, and the cautions of tower and RF work.
 
 use pim_core::emitter::{carriers, Carrier, Emitter, Receiver};
+use pim_core::exposure::{exposure_at, Exposure};
 use pim_core::fix::{Fix, RegionKind};
 use pim_core::geo::{GeoPoint, LocalFrame};
 use pim_core::intermod::SearchParams;
@@ -76,11 +77,14 @@ pub struct FieldEvidence {
     pub receiver: Option<(Receiver, String)>,
 }
 
-/// The ticket's number and assignee.
+/// The ticket's number and assignee, and the site's own offset from UTC for its times.
 #[derive(Clone, Debug, Default)]
 pub struct WorkOrder {
     pub ticket_id: Option<String>,
     pub assignee: Option<String>,
+    /// The site's offset from UTC, as stated (`--utc-offset`); without it times are UTC
+    /// and the ticket says so.
+    pub utc_offset: Option<pim_core::time::UtcOffset>,
 }
 
 /// An attenuator test read from its file (as `pim slope --kind attenuator` reads it).
@@ -304,7 +308,7 @@ fn build(
     if let Some(who) = &t.work_order.assignee {
         header.push(format!("Assigned to: {who}."));
     }
-    if let Some(visit) = visit_text(&t.log) {
+    if let Some(visit) = visit_text(&t.log, t.work_order.utc_offset) {
         header.push(format!(
             "Site visit: {visit} (the field log's first and last readings)."
         ));
@@ -639,6 +643,9 @@ fn build(
         ),
         svg: map.clone(),
     });
+    if let Some(off) = off_map_text(t, at_fix) {
+        doc.push(Block::Para(off));
+    }
     if near.is_empty() {
         doc.push(Block::Para(
             "No listed structure or emitter lies in or near the ellipse.".into(),
@@ -724,10 +731,10 @@ fn build(
     let mut steps = Vec::new();
     match &t.evidence.attenuator {
         Some(test) => steps.push(attenuator_done(test)),
-        None => steps.push("Attenuator test at the receiver: insert a step attenuator ahead of the receiver, note the carrier's level at 0, 2, 4, 6, 8 and 10 dB, and run `pim slope --kind attenuator` (or give the file to the ticket with --attenuator-readings). About 1 dB less per dB inserted means it arrives over the air (a junction outside); n dB per dB means the receiver makes it itself (overload), which the receiver's filtering must cure first.".to_string()),
+        None => steps.push(format!("Attenuator test at the receiver: insert a step attenuator ahead of the receiver, note the carrier's level at 0, 2, 4, 6, 8 and 10 dB in {ATTENUATOR_FILE} (`step_db,level_dbm`), and run `{}` (or give the file to the ticket with --attenuator-readings). About 1 dB less per dB inserted means it arrives over the air (a junction outside); n dB per dB means the receiver makes it itself (overload), which the receiver's filtering must cure first.", pim_io::text::pim_command(["slope", "--kind", "attenuator", "--readings", ATTENUATOR_FILE]))),
     }
     if let Some(test) = &t.evidence.power_steps {
-        steps.push(power_steps_done(test));
+        steps.push(power_steps_done(test, &t.carrier()));
     }
     let proposed = power_step_candidate(at_fix, &t.params, t.limit);
     if !credible {
@@ -766,12 +773,23 @@ fn build(
         }
         if terms.len() > 1 {
             steps.push(format!(
-                "Log the steps of every emitter of {which} ({}) in one file, `emitter,step_db,level_dbm`, and run `pim slope --kind power --readings FILE` (or give the file to the ticket with --power-steps): the ratio of their slopes gives the coefficients even when the junction rises less steeply than the ideal law, and the exponent with them.",
+                "Log the steps of every emitter of {which} ({}) in one file, {POWER_STEPS_FILE} (`emitter,step_db,level_dbm`), and run `{}` (or give the file to the ticket with --power-steps): the ratio of their slopes gives the coefficients even when the junction rises less steeply than the ideal law, and the exponent with them.",
                 terms
                     .iter()
                     .map(|x| t.site.emitters()[x.emitter].id.clone())
                     .collect::<Vec<_>>()
-                    .join(", ")
+                    .join(", "),
+                pim_io::text::pim_command([
+                    "slope",
+                    "--kind",
+                    "power",
+                    "--readings",
+                    POWER_STEPS_FILE,
+                    "--freq",
+                    &t.params.target.mhz_text(),
+                    "--emitters",
+                    &t.emitters_source,
+                ])
             ));
         }
         if top.mechanism != Mechanism::Junction {
@@ -788,13 +806,22 @@ fn build(
             book.observations.len(),
             book.heard_count()
         )),
-        _ => steps.push("On-air check: compare the times the carrier is heard with the keying of each candidate's emitters (`pim explain --on-air FILE --heard FILE`, or the same options of the ticket); an emitter off the air while the carrier is heard rules its candidates out.".into()),
+        _ => steps.push(format!("On-air check: log the keying of each candidate's emitters in {ON_AIR_FILE} and the times the carrier is heard or not in {HEARD_FILE}, and run `{}` (or give the same options to the ticket); an emitter off the air while the carrier is heard rules its candidates out.", pim_io::text::pim_command([
+            "explain",
+            &t.params.target.mhz_text(),
+            "--emitters",
+            &t.emitters_source,
+            "--on-air",
+            ON_AIR_FILE,
+            "--heard",
+            HEARD_FILE,
+        ]))),
     }
-    if credible {
-        steps.push("At the suspect joint, with someone watching the receiver: flex or tap each joint with an insulated tool; the carrier jumps or drops when the bad joint moves. Clean, bond or replace it, then check the channel with all emitters on the air.".into());
-    } else {
-        steps.push("Near the fix, with someone watching the receiver: flex or tap the joints of the structures listed above with an insulated tool; a junction the emitter list cannot explain still jumps or drops when it moves.".into());
-    }
+    let exposure = exposure_at(t.site.emitters(), t.fix.position, t.model.junction_height_m);
+    steps.push(tap_test_text(&exposure, credible));
+    doc.push(Block::Para(format!(
+        "The commands name their files relative to this ticket's folder: run them there. {ATTENUATOR_FILE}, {POWER_STEPS_FILE}, {ON_AIR_FILE} and {HEARD_FILE} are the files the crew records."
+    )));
     doc.push(Block::Steps(steps));
 
     // 6. Cautions
@@ -807,11 +834,12 @@ fn build(
         .collect();
     owners.sort();
     owners.dedup();
+    doc.extend(exposure_blocks(&exposure, t.site.emitters(), t.limit));
     doc.push(Block::Cautions(vec![
-        "RF exposure: transmitting antennas on and around the site can exceed exposure limits close in. Keep to the site's RF safety plan and the limits of the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States); have antennas powered down before anyone works near them.".into(),
+        "RF exposure: transmitting antennas on and around the site exceed exposure limits close in. Keep farther from each antenna than its reference distance above unless that transmitter is switched off, locked out and tagged out; keep to the site's RF safety plan and the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States).".into(),
         "Tower and guy work only by trained, authorised climbers under the site owner's rules, with fall protection. Do not climb a disused or damaged structure until its condition has been checked; do not loosen clamps on a tensioned guy without a rigger.".into(),
         format!(
-            "Power changes and shutdowns only by arrangement with the licensees{}.",
+            "Power changes and shutdowns (power steps, an antenna switched off for work) only by arrangement with the licensees{}, who make them; a transmitter switched off for work is locked out and tagged out (lock-out/tag-out) until the work is done and everyone is clear.",
             if owners.is_empty() { String::new() } else { format!(": {}", owners.join(", ")) }
         ),
         "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
@@ -819,29 +847,144 @@ fn build(
     (doc, map, spectrum, band_svg)
 }
 
-/// The span of the field log's reading times, in UTC: `2026-11-28, 09:12–09:41 UTC`, or
-/// both dates when the walk ran over midnight; `None` when no reading has a time.
-pub fn visit_text(log: &FieldLog) -> Option<String> {
-    let utc = pim_core::time::UtcOffset::UTC;
-    let times: Vec<_> = log
-        .rows
-        .iter()
-        .filter_map(|r| r.time)
-        .map(|x| x.to_offset(utc))
-        .collect();
-    let first = times.iter().min()?;
-    let last = times.iter().max()?;
-    let hm = |x: &pim_core::time::OffsetDateTime| format!("{:02}:{:02}", x.hour(), x.minute());
-    Some(if first.date() == last.date() {
-        format!("{}, {}–{} UTC", first.date(), hm(first), hm(last))
+/// The files the crew records for the steps of "How to confirm", named in its commands.
+const ATTENUATOR_FILE: &str = "attenuator-readings.csv";
+const POWER_STEPS_FILE: &str = "power-steps.csv";
+const ON_AIR_FILE: &str = "on-air.csv";
+const HEARD_FILE: &str = "heard.csv";
+
+/// The tap test, with or without the transmitters on as the exposure at the fix allows.
+fn tap_test_text(x: &Exposure, credible: bool) -> String {
+    let test = if credible {
+        "flex or tap each joint with an insulated tool, someone watching the receiver; the carrier jumps or drops when the bad joint moves. Clean, bond or replace it, then check the channel with the emitters on the air again"
+    } else {
+        "flex or tap the joints of the structures listed above with an insulated tool, someone watching the receiver; a junction the emitter list cannot explain still jumps or drops when it moves"
+    };
+    let share = format!("{:.1} %", x.total_fraction * 100.0);
+    if x.within_reference_levels() {
+        format!(
+            "Tap test with the transmitters on the air (the carrier is there only while they are): the estimated exposure at the fix is {share} of the general-public reference level (see Cautions), so it can be done with them on, keeping farther from each antenna than its reference distance: {test}."
+        )
     } else {
         format!(
-            "{} {} UTC to {} {} UTC",
-            first.date(),
-            hm(first),
-            last.date(),
-            hm(last)
+            "Tap test: the carrier is there only while the transmitters are on, but the estimated exposure at the fix is {} (see Cautions). Do it with them on only as the site's RF safety plan allows (trained workers, a survey meter, the occupational limits); otherwise have the licensees lower the strongest contributors' power first, by arrangement, and lock out and tag out any transmitter switched off. Then {test}.",
+            if x.unplaced.is_empty() {
+                format!("{share} of the general-public reference level")
+            } else {
+                format!("at least {share} of the general-public reference level, with emitters whose field is unknown")
+            }
         )
+    }
+}
+
+/// The exposure at the fix: what it sums to and each emitter's share and reference
+/// distance, the largest first.
+fn exposure_blocks(x: &Exposure, emitters: &[Emitter], limit: usize) -> Vec<Block> {
+    let mut said = format!(
+        "RF exposure at the fix, estimated in the far field (E = √(30·EIRP)/d, EIRP = 1.64 × ERP, every antenna's main beam towards the fix, no reflections): {:.1} % of the ICNIRP 2020 general-public reference level (Table 5, whole body; the levels used are recalled from memory: check them against the table), summed over the emitters as Σ(E/E_ref)². ",
+        x.total_fraction * 100.0
+    );
+    said.push_str(if x.within_reference_levels() {
+        "Within the reference levels at the fix; closer to an antenna the field rises as 1/d."
+    } else {
+        "Not within the reference levels at the fix, or not known everywhere: see the tap test's step."
+    });
+    if !x.unplaced.is_empty() {
+        let ids: Vec<&str> = x
+            .unplaced
+            .iter()
+            .map(|&i| emitters[i].id.as_str())
+            .collect();
+        said.push_str(&format!(
+            " Left out for want of an ERP or a position: {}.",
+            ids.join(", ")
+        ));
+    }
+    if x.terms.iter().any(|t| t.near_field) {
+        said.push_str(" The fix lies within a wavelength of an antenna, where the far-field estimate does not hold: measure (FCC OET Bulletin 65's near-field methods).");
+    }
+    let mut blocks = vec![Block::Para(said)];
+    if !x.terms.is_empty() {
+        blocks.push(Block::Table {
+            headers: [
+                "emitter",
+                "MHz",
+                "from the fix, m",
+                "E at the fix, V/m",
+                "reference, V/m",
+                "share",
+                "reference reached within, m",
+            ]
+            .iter()
+            .map(|s| s.to_string())
+            .collect(),
+            right: vec![false, true, true, true, true, true, true],
+            rows: x
+                .terms
+                .iter()
+                .take(limit.max(1))
+                .map(|t| {
+                    let e = &emitters[t.emitter];
+                    vec![
+                        e.id.clone(),
+                        e.freq.mhz_text(),
+                        format!("{:.0}", t.distance_m),
+                        format!("{:.2}", t.field_v_per_m),
+                        format!("{:.1}", t.reference_v_per_m),
+                        format!("{:.2} %", t.fraction * 100.0),
+                        format!("{:.1}", t.reference_distance_m),
+                    ]
+                })
+                .collect(),
+        });
+    }
+    blocks
+}
+
+/// An offset from UTC as written in the ticket: `+01:00`.
+pub fn offset_text(o: pim_core::time::UtcOffset) -> String {
+    let (h, m, _) = o.as_hms();
+    format!(
+        "{}{:02}:{:02}",
+        if o.is_negative() { '-' } else { '+' },
+        h.abs(),
+        m.abs()
+    )
+}
+
+/// The span of the field log's reading times: in the site's own offset with UTC beside
+/// when it is given (`2026-11-28, 10:12–10:41 +01:00 (09:12–09:41 UTC)`), else in UTC
+/// saying so; both dates when the walk ran over midnight; `None` when no reading has a
+/// time.
+pub fn visit_text(log: &FieldLog, site: Option<pim_core::time::UtcOffset>) -> Option<String> {
+    let utc = pim_core::time::UtcOffset::UTC;
+    let span = |offset: pim_core::time::UtcOffset, zone: &str| -> Option<String> {
+        let times: Vec<_> = log
+            .rows
+            .iter()
+            .filter_map(|r| r.time)
+            .map(|x| x.to_offset(offset))
+            .collect();
+        let first = times.iter().min()?;
+        let last = times.iter().max()?;
+        let hm = |x: &pim_core::time::OffsetDateTime| format!("{:02}:{:02}", x.hour(), x.minute());
+        Some(if first.date() == last.date() {
+            format!("{}, {}–{} {zone}", first.date(), hm(first), hm(last))
+        } else {
+            format!(
+                "{} {} {zone} to {} {} {zone}",
+                first.date(),
+                hm(first),
+                last.date(),
+                hm(last)
+            )
+        })
+    };
+    let in_utc = span(utc, "UTC")?;
+    Some(match site {
+        Some(o) if o != utc => format!("{} ({in_utc})", span(o, &offset_text(o))?),
+        Some(_) => format!("{in_utc} (the site's own time)"),
+        None => format!("{in_utc}, the site's own offset not given"),
     })
 }
 
@@ -891,12 +1034,12 @@ fn attenuator_done(test: &AttenuatorTest) -> String {
         a.fit.n,
         a.slope_db_per_db,
         interval_text(a.interval),
-        crate::slope::advice(a, None)
+        crate::slope::advice(a, None, None)
     )
 }
 
 /// The power steps, marked as done with each emitter's slope and coefficient.
-fn power_steps_done(test: &PowerStepTest) -> String {
+fn power_steps_done(test: &PowerStepTest, carrier: &crate::slope::Carrier) -> String {
     match &test.answer {
         PowerStepAnswer::One { answer, emitter } => format!(
             "Done: power step of {} ({}, {} readings): the level changes {:.2} dB per dB of its power{}; {}{}",
@@ -905,7 +1048,7 @@ fn power_steps_done(test: &PowerStepTest) -> String {
             answer.fit.n,
             answer.slope_db_per_db,
             interval_text(answer.interval),
-            crate::slope::advice(answer, emitter.as_deref()),
+            crate::slope::advice(answer, emitter.as_deref(), Some(carrier)),
             if answer.unsettled.is_none() {
                 format!(" Note: {}", crate::slope::SINGLE_EMITTER_CAVEAT)
             } else {
@@ -949,7 +1092,7 @@ fn power_steps_done(test: &PowerStepTest) -> String {
                 "Done: power steps ({}): {}; {verdict}. {}",
                 test.source,
                 each.join("; "),
-                crate::slope::power_steps_advice(answer)
+                crate::slope::power_steps_advice(answer, Some(carrier))
             )
         }
     }
@@ -1043,6 +1186,49 @@ fn map_input(t: &TicketInputs, near: &[NearbyItem]) -> MapInput {
     )
 }
 
+/// How far from the fix the map shows structures and emitters, m: the walk's farthest
+/// reading's distance and 30 % more, at least 100 m.
+fn map_reach_m(fix: &Fix) -> f64 {
+    (fix.readings
+        .iter()
+        .map(|r| r.distance_m)
+        .fold(0.0, f64::max)
+        * 1.3)
+        .max(100.0)
+}
+
+/// The emitters of the listed candidates that lie beyond the map, each with its distance
+/// and bearing from the fix, so that none is left off without notice.
+fn off_map_text(t: &TicketInputs, at_fix: &Ranking) -> Option<String> {
+    let reach = map_reach_m(&t.fix);
+    let mut seen: Vec<usize> = Vec::new();
+    let mut off = Vec::new();
+    for c in at_fix.candidates.iter().take(t.limit) {
+        for term in c.product.terms() {
+            if seen.contains(&term.emitter) {
+                continue;
+            }
+            seen.push(term.emitter);
+            let e = &t.site.emitters()[term.emitter];
+            match e.position {
+                Some(p) => {
+                    let (d, az) = pim_core::geo::distance_and_azimuth(t.fix.position, p);
+                    if d > reach {
+                        off.push(format!("{} ({:.0} m at {:.0}°)", e.id, d, az));
+                    }
+                }
+                None => off.push(format!("{} (no position listed)", e.id)),
+            }
+        }
+    }
+    (!off.is_empty()).then(|| {
+        format!(
+            "Emitters of the listed candidates beyond the map's {reach:.0} m, with their distance and true bearing from the fix: {}.",
+            off.join("; ")
+        )
+    })
+}
+
 /// The ticket's map of a fix: spots, lines of bearing, the ellipse, and the structures
 /// and emitters within reach of the walk (shared with the walk page).
 pub fn fix_map_input(
@@ -1053,12 +1239,7 @@ pub fn fix_map_input(
     title: String,
 ) -> MapInput {
     let frame = LocalFrame::new(fix.position);
-    let reach = fix
-        .readings
-        .iter()
-        .map(|r| r.distance_m)
-        .fold(0.0, f64::max)
-        * 1.3;
+    let reach = map_reach_m(fix);
     let observers = fix
         .readings
         .iter()
@@ -1077,7 +1258,7 @@ pub fn fix_map_input(
     let mut markers: Vec<Marker> = Vec::new();
     let mut add = |id: &str, p: GeoPoint, kind: MarkerKind| {
         let (east_m, north_m) = frame.to_local(p);
-        if east_m.hypot(north_m) <= reach.max(100.0) && !markers.iter().any(|m| m.label == id) {
+        if east_m.hypot(north_m) <= reach && !markers.iter().any(|m| m.label == id) {
             markers.push(Marker {
                 east_m,
                 north_m,
@@ -1201,6 +1382,14 @@ pub fn fix_radius_m(fix: &Fix) -> f64 {
 }
 
 impl TicketInputs {
+    /// The carrier and emitter file, as the ticket's commands name them.
+    pub fn carrier(&self) -> crate::slope::Carrier {
+        crate::slope::Carrier {
+            freq: self.params.target,
+            emitters: self.emitters_source.clone(),
+        }
+    }
+
     /// The junction at the fix, heard at the receiver: where the ticket ranks, and so
     /// where its band trace's peaks are explained.
     pub fn placement(&self) -> Placement {

@@ -262,3 +262,47 @@ fn power_steps_re_rank_explain() {
     assert!((0.85..0.95).contains(&alpha), "{alpha}");
     assert!(stepped["inputs"]["cleared_by_steps"].as_u64().unwrap() >= 1);
 }
+
+/// `--junction-lat/--junction-lon` rank at a junction apart from the receiver (the
+/// demo's fix, 250 m from a receiver down the hill): the levels differ from those with the junction
+/// at the receiver, and the table says where the junction was assumed.
+#[test]
+fn a_junction_apart_from_the_receiver_is_ranked_there() {
+    let tx = crate::support::field_log("emitters.csv");
+    let tx = tx.to_str().unwrap();
+    let at_rx = [
+        "explain",
+        "146.34",
+        "--emitters",
+        tx,
+        "--rx-lat",
+        "45.103",
+        "--rx-lon",
+        "-122.412",
+    ];
+    let mut apart = at_rx.to_vec();
+    apart.extend([
+        "--junction-lat",
+        "45.10466",
+        "--junction-lon",
+        "-122.413943",
+    ]);
+    let a = crate::support::pim(&at_rx);
+    let b = crate::support::pim(&apart);
+    assert!(a.status.success() && b.status.success());
+    let (a, b) = (crate::support::stdout_of(&a), crate::support::stdout_of(&b));
+    assert!(
+        b.contains("junction assumed at 45.104660, -122.413943"),
+        "{b}"
+    );
+    assert_ne!(a, b);
+    let o = crate::support::pim(&[
+        "explain",
+        "146.34",
+        "--emitters",
+        tx,
+        "--junction-lat",
+        "45.1",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+}

@@ -9,6 +9,7 @@ mod fieldlog;
 mod fix;
 mod harden;
 mod invariants;
+mod labels;
 mod licence;
 mod log_files;
 mod memory;
@@ -16,6 +17,7 @@ mod plan;
 mod ranking;
 mod recording;
 mod slope;
+mod suggested;
 mod sweep;
 mod ticket;
 mod vocabulary;
@@ -66,6 +68,14 @@ mod support {
         assert!(o.status.success(), "{args:?}: {}", stderr_of(&o));
         serde_json::from_str(&stdout_of(&o))
             .unwrap_or_else(|e| panic!("{args:?}: not JSON ({e}): {}", stdout_of(&o)))
+    }
+
+    /// Says that a test is skipped and why where the test runner shows it: written to
+    /// the process's standard error directly, which the runner does not capture (it
+    /// captures only `eprintln!`, and shows that only for a failing test).
+    pub fn say_skipped(why: &str) {
+        use std::io::Write;
+        let _ = writeln!(std::io::stderr(), "skipped: {why}");
     }
 
     /// A fresh scratch directory, removed when the value is dropped.

@@ -105,8 +105,8 @@ fn waterfall_fits_a_phone(svg: &Path) {
                 .is_ok_and(|o| o.status.success())
         })
     else {
-        eprintln!(
-            "skipped: no Chromium for the waterfall's layout check (bash .ci/install-browser)"
+        crate::support::say_skipped(
+            "no Chromium for the waterfall's layout check (bash .ci/install-browser)",
         );
         return;
     };
@@ -128,7 +128,7 @@ fn waterfall_fits_a_phone(svg: &Path) {
         .arg(format!("file://{}", page.display()))
         .output();
     let Ok(o) = o else {
-        eprintln!("skipped: Chromium did not start");
+        crate::support::say_skipped("Chromium did not start");
         return;
     };
     let dom = String::from_utf8_lossy(&o.stdout);

@@ -304,14 +304,17 @@ fn ticket_takes_the_evidence() {
         "R. Ostrander",
         "--limit",
         "5",
+        "--utc-offset",
+        "-08:00",
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let md = std::fs::read_to_string(dir.join("ticket.md")).unwrap();
-    // walk.csv: first reading 09:12:40Z, last 10:22 on 2026-11-28
+    // walk.csv: first reading 09:12:40Z, last 10:22 on 2026-11-28; the site's own time
+    // first, UTC beside
     for want in [
         "Ticket: T-0042.",
         "Assigned to: R. Ostrander.",
-        "Site visit: 2026-11-28, 09:12–10:22 UTC",
+        "Site visit: 2026-11-28, 01:12–02:22 -08:00 (2026-11-28, 09:12–10:22 UTC)",
         "Affected receiver: QK7MHR-IN (146.34 MHz, line 2 of",
         "its 12.5 kHz channel and its position 45.104620, -122.414033 are used",
         "Kept 3 of 5 products: those with SKP-152 \\|k\\| = 2 (the coefficients a power step found",

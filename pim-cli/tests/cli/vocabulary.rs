@@ -305,7 +305,7 @@ fn every_error_in_one_style() {
 }
 
 /// `pim demo` prints the commands it ran on the inputs it wrote beside the ticket; run
-/// as printed, they write the same ticket (up to the files' paths), and the demo runs
+/// as printed, they write the same ticket (up to the inputs' folder), and the demo runs
 /// again over its own folder.
 #[test]
 fn the_demo_prints_commands_that_redo_its_ticket() {
@@ -353,6 +353,8 @@ fn the_demo_prints_commands_that_redo_its_ticket() {
     let mine = std::fs::read_to_string(dir.join("pim-demo/ticket.md")).unwrap();
     let again = std::fs::read_to_string(dir.join("pim-demo-again/ticket.md"))
         .unwrap()
-        .replace("pim-demo/", "");
+        .replace("../pim-demo/", "");
+    // the ticket names its inputs relative to its own folder: the demo's lie beside it,
+    // the second ticket's in the demo's folder next to its own
     assert_eq!(mine, again);
 }

@@ -184,7 +184,9 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         on_path(&["chromium", "chromium-browser", "google-chrome"]),
         on_path(&["chromedriver"]),
     ) else {
-        eprintln!("skipped: Chromium and chromedriver are not installed (run .ci/install-browser)");
+        crate::support::say_skipped(
+            "Chromium and chromedriver are not installed (run .ci/install-browser)",
+        );
         return;
     };
     let dir = tempfile::tempdir().unwrap();
