@@ -139,6 +139,10 @@ pub struct ListingArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = ListFormat::Table)]
     pub format: ListFormat,
+    /// Every column of the table, however wide (by default a table keeps to 100
+    /// characters, leaving out the level terms, which JSON, CSV and Markdown always have).
+    #[arg(long)]
+    pub wide: bool,
 }
 
 impl ListingArgs {

@@ -270,12 +270,12 @@ pub fn run(args: Args) -> CliResult {
             }
         }
         FixFormat::Json => {
-            serde_json::to_writer_pretty(&mut out, &fix_json(&fix, &prepared.corrections))
+            pim_io::precision::write_json(&mut out, &fix_json(&fix, &prepared.corrections), true)
                 .map_err(std::io::Error::from)?;
             writeln!(out)?;
         }
         FixFormat::Geojson => {
-            serde_json::to_writer_pretty(&mut out, &site_geojson(&fix, &items))
+            pim_io::precision::write_json(&mut out, &site_geojson(&fix, &items), true)
                 .map_err(std::io::Error::from)?;
             writeln!(out)?;
         }

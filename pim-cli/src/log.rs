@@ -189,7 +189,14 @@ pub fn run(args: Args) -> CliResult {
                 ListFormat::Table => write!(out, "{}", w::log_listing(&fix, &rows))?,
                 ListFormat::Markdown => write!(out, "{}", w::log_listing_markdown(&fix, &rows))?,
                 ListFormat::Csv => w::log_listing_csv(&mut out, &fix, &rows)?,
-                ListFormat::Json => writeln!(out, "{:#}", w::log_listing_json(&fix, &rows))?,
+                ListFormat::Json => {
+                    pim_io::precision::write_json(
+                        &mut out,
+                        &w::log_listing_json(&fix, &rows),
+                        true,
+                    )?;
+                    writeln!(out)?;
+                }
             }
         }
         Ok((fix, _)) => {

@@ -198,7 +198,7 @@ pub fn single_json(
         advice: &advice,
         caveat: (!attenuator).then_some(SINGLE_EMITTER_CAVEAT),
     };
-    serde_json::to_string_pretty(&v)
+    pim_io::precision::json_text(&v, true)
 }
 
 /// One series' answer as text: the readings against the fitted line, the slope and its
@@ -408,7 +408,7 @@ pub fn power_steps_json(
         readings_file: source,
         advice: power_steps_advice(p),
     };
-    serde_json::to_string_pretty(&v)
+    pim_io::precision::json_text(&v, true)
 }
 
 /// The power steps of several emitters as text.

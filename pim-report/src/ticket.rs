@@ -227,8 +227,9 @@ impl TicketFiles {
             ));
         }
         out.push_str(&format!(
-            "{} products land on {} MHz; first: {}.\n",
-            self.total,
+            "{} land{} on {} MHz; first: {}.\n",
+            crate::candidates::count(self.total, "product", "products"),
+            if self.total == 1 { "s" } else { "" },
             t.params.target.mhz_text(),
             self.top_formula.as_deref().unwrap_or("none")
         ));
@@ -1264,7 +1265,8 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         structures: &t.structures,
         emitters: t.site.emitters(),
     };
-    let geojson = serde_json::to_string_pretty(&site_geojson(&t.fix, &items)).unwrap_or_default();
+    let geojson =
+        pim_io::precision::json_text(&site_geojson(&t.fix, &items), true).unwrap_or_default();
     let mut files: Vec<(&'static str, Vec<u8>)> = vec![
         ("ticket.md", markdown(&doc).into_bytes()),
         ("ticket.html", html(&title, &doc).into_bytes()),

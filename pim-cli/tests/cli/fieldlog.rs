@@ -681,7 +681,10 @@ fn the_running_fix_names_the_region_it_claims() {
     let o = pim(&["fix", "--log", &log, "--format", "json"]);
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
     assert_eq!(v["region_kind"], "likelihood", "{v}");
-    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
     let reach = v["region"]
         .as_array()
         .unwrap()

@@ -67,7 +67,7 @@ fn explain_json_carries_the_terms_and_they_add_up() {
         }
         let source = f(&t["source_level_dbm"]);
         assert!((f(&c["predicted_level_dbm"]) - source).abs() < 0.011, "{c}");
-        let heard = source - f(&t["path_to_receiver_db"]) + f(&t["channel_db"]);
+        let heard = source + f(&t["path_db"]) + f(&t["channel_db"]);
         assert!((heard - f(&c["in_channel_dbm"])).abs() < 0.03, "{c}");
         assert!(
             (f(&c["relative_db"]) - (heard - first_in_channel)).abs() < 0.05,

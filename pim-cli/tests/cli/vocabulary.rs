@@ -27,8 +27,8 @@ fn the_log_is_named_alike_and_fixed_alike() {
         assert!(o.status.success(), "{}", stderr_of(&o));
         let want = format!(
             "Running fix {:.6}, {:.6} ",
-            fix["lat"].as_f64().unwrap(),
-            fix["lon"].as_f64().unwrap()
+            fix["lat_deg"].as_f64().unwrap(),
+            fix["lon_deg"].as_f64().unwrap()
         );
         assert!(
             stdout_of(&o).starts_with(&want),
