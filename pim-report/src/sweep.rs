@@ -63,6 +63,16 @@ fn candidates_cell(p: &ExplainedPeak) -> String {
 
 /// The text table: the trace line, the peaks, the suspects, each product peak's candidates.
 pub fn write_table(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
+    let mut body = Vec::new();
+    table_body(&mut body, r)?;
+    let text = String::from_utf8_lossy(&body);
+    // prose wrapped to the terminal's width; the tables already keep to it
+    out.write_all(
+        crate::text_table::wrap_lines(&text, crate::text_table::TERMINAL_WIDTH).as_bytes(),
+    )
+}
+
+fn table_body(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
     write!(out, "{}", trace_line(r.trace, &r.sources, r.sweep))?;
     let (e, p, u) = counts(r.sweep);
     writeln!(

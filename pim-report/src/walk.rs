@@ -222,7 +222,7 @@ pub fn next_text(
         ]);
     }
     out.push_str(&t.render_within(crate::text_table::TERMINAL_WIDTH));
-    out
+    crate::text_table::wrap_lines(&out, crate::text_table::TERMINAL_WIDTH)
 }
 
 /// The running fix in one line, as `pim log` shows it after each change to the log.
@@ -283,7 +283,7 @@ fn true_bearing_deg(row: &LogRow, fit: Option<&pim_core::fix::ReadingFit>) -> f6
 fn logged_text(row: &LogRow) -> String {
     match row.north {
         pim_io::fieldlog::North::True => String::new(),
-        pim_io::fieldlog::North::Magnetic => format!("{:.1} magnetic", row.bearing_deg),
+        pim_io::fieldlog::North::Magnetic => format!("{:.1} mag", row.bearing_deg),
     }
 }
 
@@ -327,17 +327,42 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 10]> {
 }
 
 /// The log's readings with their residuals at the running fix, as a text table under the
-/// running fix's line, its text columns wrapped to the terminal's width.
-pub fn log_listing(fix: &Fix, rows: &[LogRow]) -> String {
-    let mut t = TextTable::new(&LISTING_HEADERS);
+/// running fix's line, its text columns wrapped to the terminal's width; the time is left
+/// out unless `wide`.
+pub fn log_listing(fix: &Fix, rows: &[LogRow], wide: bool) -> String {
+    let keep = |i: usize| wide || i != 1;
+    let headers: Vec<(&str, Align)> = (0..LISTING_HEADERS.len())
+        .filter(|&i| keep(i))
+        .map(|i| LISTING_HEADERS[i])
+        .collect();
+    let mut t = TextTable::new(&headers);
     for cells in listing_cells(fix, rows) {
-        t.push(cells.to_vec());
+        t.push(
+            cells
+                .into_iter()
+                .enumerate()
+                .filter(|(i, _)| keep(*i))
+                .map(|(_, c)| c)
+                .collect(),
+        );
     }
-    format!(
-        "{}{}",
-        running_fix_line(fix),
-        t.render_within(crate::text_table::TERMINAL_WIDTH)
-    )
+    let width = crate::text_table::TERMINAL_WIDTH;
+    let mut out = crate::text_table::wrap_lines(&running_fix_line(fix), width);
+    out.push_str(&if wide {
+        t.render()
+    } else {
+        t.render_within(width)
+    });
+    if rows
+        .iter()
+        .any(|r| r.north == pim_io::fieldlog::North::Magnetic)
+    {
+        out.push_str("true °: the bearing from true north the fix uses; as logged: a bearing logged from magnetic\n  north (mag), turned to true by the declination (WMM2025).\n");
+    }
+    if !wide {
+        out.push_str("Not shown: the time; --wide shows it.\n");
+    }
+    out
 }
 
 /// The listing as Markdown: the running fix's line, then a table.

@@ -12,6 +12,7 @@ mod invariants;
 mod licence;
 mod log_files;
 mod memory;
+mod one_truth;
 mod plan;
 mod ranking;
 mod recording;
