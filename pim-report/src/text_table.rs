@@ -258,7 +258,7 @@ mod tests {
         let text = t.render_within(24);
         assert!(text.lines().all(|l| l.chars().count() <= 24), "{text}");
         assert_eq!(text.lines().count(), 2 + 3, "{text}");
-        assert!(text.contains("away from"), "{text}");
+        assert!(text.contains("from the fix"), "{text}");
         assert_eq!(t.render().lines().count(), 3);
     }
 }

@@ -240,20 +240,28 @@ pub fn running_fix_line(fix: &Fix) -> String {
 /// A robust weight below this marks a reading as down-weighted in the listing.
 const DOWN_WEIGHTED: f64 = 0.999;
 
-/// The columns of the readings listing, as CSV names them (the table and Markdown name
-/// them for people, in the same order).
-const LISTING_COLUMNS: [&str; 10] = [
+/// The columns of the readings listing as CSV names them (as the JSON does): the table's
+/// and the Markdown's in the same order, the logged bearing and its north apart.
+const LISTING_COLUMNS: [&str; 11] = [
     "line",
     "time",
     "lat_deg",
     "lon_deg",
     "bearing_deg",
-    "logged_bearing",
+    "logged_bearing_deg",
+    "north",
     "residual_deg",
     "weight",
     "status",
     "note",
 ];
+
+fn north_name(north: pim_io::fieldlog::North) -> &'static str {
+    match north {
+        pim_io::fieldlog::North::True => "true",
+        pim_io::fieldlog::North::Magnetic => "magnetic",
+    }
+}
 
 /// The same columns for people: the table's and the Markdown's headers.
 const LISTING_HEADERS: [(&str, Align); 10] = [
@@ -392,8 +400,11 @@ pub fn log_listing_csv(
     rows: &[LogRow],
 ) -> std::io::Result<()> {
     crate::csv_out::write_row(out, LISTING_COLUMNS)?;
-    for c in listing_cells(fix, rows) {
-        crate::csv_out::write_row(out, c)?;
+    for (c, row) in listing_cells(fix, rows).into_iter().zip(rows) {
+        let mut cells = c.to_vec();
+        cells[5] = fixed(row.bearing_deg, 1);
+        cells.insert(6, north_name(row.north).to_string());
+        crate::csv_out::write_row(out, cells)?;
     }
     Ok(())
 }
@@ -413,10 +424,7 @@ pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
                 "lon_deg": fit.map(|f| f.observer.lon_deg).or(row.position.map(|p| p.lon_deg)),
                 "bearing_deg": true_bearing_deg(row, fit),
                 "logged_bearing_deg": row.bearing_deg,
-                "north": match row.north {
-                    pim_io::fieldlog::North::True => "true",
-                    pim_io::fieldlog::North::Magnetic => "magnetic",
-                },
+                "north": north_name(row.north),
                 "residual_deg": fit.map(|f| f.residual_deg),
                 "weight": fit.map(|f| f.weight),
                 "status": c[8],

@@ -83,7 +83,7 @@ fn formats_agree_and_limit_is_kept() {
         "--format",
         "markdown",
     ]);
-    assert!(stdout_of(&md).starts_with("| # | product |"));
+    assert!(stdout_of(&md).contains("\n| # | product |"));
     let table = pim(&["explain", "146340kHz", "--emitters", &tx]);
     let t = stdout_of(&table);
     assert!(t.contains("2·SKP-152 − FIRE-DSP"), "{t}");

@@ -20,7 +20,7 @@ fn json_follows_the_contract() {
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
-    for key in ["lat", "lon", "cep_m", "sigma_deg_used", "n_used"] {
+    for key in ["lat_deg", "lon_deg", "cep_m", "sigma_deg_used", "n_used"] {
         assert!(v[key].is_number(), "{key}");
     }
     assert_eq!(v["method"], "robust");
