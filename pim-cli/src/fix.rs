@@ -270,13 +270,12 @@ pub fn run(args: Args) -> CliResult {
             }
         }
         FixFormat::Json => {
-            pim_io::precision::write_json(&mut out, &fix_json(&fix, &prepared.corrections), true)
-                .map_err(std::io::Error::from)?;
+            let json = fix_json(&fix, &prepared.corrections);
+            pim_io::precision::write_json(&mut out, &json, true)?;
             writeln!(out)?;
         }
         FixFormat::Geojson => {
-            pim_io::precision::write_json(&mut out, &site_geojson(&fix, &items), true)
-                .map_err(std::io::Error::from)?;
+            pim_io::precision::write_json(&mut out, &site_geojson(&fix, &items), true)?;
             writeln!(out)?;
         }
         FixFormat::Kml => {

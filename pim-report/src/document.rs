@@ -68,12 +68,18 @@ pub fn md_text(text: &str) -> String {
 /// assert_eq!(md_inline("146.3400"), "146.3400");
 /// assert_eq!(md_inline("run `pim slope --kind attenuator`"), "run `pim slope --kind attenuator`");
 /// assert_eq!(md_inline("a ` b"), "a \\` b");
+/// assert_eq!(md_inline("so the\n  loss"), "so the loss");
 /// ```
 pub fn md_inline(text: &str) -> String {
-    let flat: String = text
-        .chars()
-        .map(|c| if matches!(c, '\n' | '\r') { ' ' } else { c })
-        .collect();
+    // a line break and the indent around it become one space: no run of spaces in a
+    // sentence that was wrapped for the terminal
+    let flat = text
+        .split(['\n', '\r'])
+        .enumerate()
+        .filter(|(i, l)| *i == 0 || !l.trim().is_empty())
+        .map(|(i, l)| if i == 0 { l.trim_end() } else { l.trim() })
+        .collect::<Vec<_>>()
+        .join(" ");
     let shown = pim_io::text::terminal_escape(&flat, false);
     let chars: Vec<char> = shown.chars().collect();
     let mut out = String::with_capacity(shown.len() + 8);
