@@ -216,8 +216,8 @@ impl SearchArgs {
             "tol_khz": self.tol.khz(),
             "max_order": self.max_order,
             "max_emitters": self.max_emitters,
-            "rx_lat": self.rx_lat,
-            "rx_lon": self.rx_lon,
+            "rx_lat_deg": self.rx_lat,
+            "rx_lon_deg": self.rx_lon,
             "junction_model": self.junction_model(),
             "rx_filter": self.rx_filter.as_ref().map(|p| p.display().to_string()),
         })

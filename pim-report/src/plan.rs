@@ -142,13 +142,7 @@ pub fn write_json(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {
 
 /// The plan as a text table with a few lines of explanation.
 pub fn write_table(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {
-    let mut body = Vec::new();
-    table_body(&mut body, r)?;
-    let text = String::from_utf8_lossy(&body);
-    // prose wrapped to the terminal's width; the tables already keep to it
-    out.write_all(
-        crate::text_table::wrap_lines(&text, crate::text_table::TERMINAL_WIDTH).as_bytes(),
-    )
+    crate::text_table::write_wrapped(out, |body| table_body(body, r))
 }
 
 fn table_body(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {

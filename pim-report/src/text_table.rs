@@ -208,6 +208,19 @@ pub fn wrap_lines(text: &str, width: usize) -> String {
     out
 }
 
+/// Writes what `body` writes with its prose wrapped to [`TERMINAL_WIDTH`]
+/// ([`wrap_lines`]); tables made with [`TextTable::render_within`] already keep to it and
+/// pass unchanged.
+pub fn write_wrapped(
+    out: &mut dyn std::io::Write,
+    body: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+) -> std::io::Result<()> {
+    let mut buffer = Vec::new();
+    body(&mut buffer)?;
+    let text = String::from_utf8_lossy(&buffer);
+    out.write_all(wrap_lines(&text, TERMINAL_WIDTH).as_bytes())
+}
+
 /// `text` in lines of at most `width` characters, broken at spaces (a longer word keeps
 /// its own line).
 fn wrap(text: &str, width: usize) -> Vec<String> {
