@@ -206,11 +206,11 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
     s.push_str(&format!("  {}\n", accuracy_words(fix)));
     if let Some(o) = &fix.offset {
         s.push_str(&format!(
-            "  common bearing offset {:+.1}° ({:.0} %: {:+.1}° to {:+.1}°), allowed for in the fix\n",
-            o.offset_deg,
+            "  common bearing offset {}° ({:.0} %: {}° to {}°), allowed for in the fix\n",
+            pim_io::precision::signed(o.offset_deg, 1),
             o.confidence * 100.0,
-            o.low_deg,
-            o.high_deg
+            pim_io::precision::signed(o.low_deg, 1),
+            pim_io::precision::signed(o.high_deg, 1)
         ));
     }
     if !corrections.is_empty() {

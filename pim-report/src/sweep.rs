@@ -10,7 +10,9 @@ use pim_core::trace::classify::{ExplainedPeak, Miss, PeakKind, Suspect};
 use pim_core::trace::{Sweep, Trace};
 use serde_json::json;
 
-use crate::candidates::{count, model_text, table_text, write_json_array, Counts, Layout, Listing};
+use crate::candidates::{
+    count, markdown_text, model_text, table_text, write_json_array, Counts, Layout, Listing,
+};
 use crate::csv_out::write_row;
 use crate::document::md_inline;
 use crate::trace::{MarkKind, PeakMark, TraceInput};
@@ -122,7 +124,48 @@ fn table_body(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
 
 /// The peaks and the suspects as Markdown tables.
 pub fn write_markdown(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
-    out.write_all(markdown(r.sweep, r.emitters, r.suspects).as_bytes())
+    out.write_all(markdown(r.sweep, r.emitters, r.suspects).as_bytes())?;
+    // each product peak's candidates, as the table gives them
+    let mut model = None;
+    for (i, p) in r.sweep.peaks.iter().enumerate() {
+        if p.kind != PeakKind::Product {
+            continue;
+        }
+        let listing = Listing {
+            emitters: r.emitters,
+            params: &p.params,
+            ranking: &p.ranking,
+            co_channel: &p.co_channel,
+        };
+        let head = format!(
+            "Peak {} at {:.4} MHz: {}; {}.",
+            i + 1,
+            p.peak.freq.mhz(),
+            peak_counts(p, r.shown).text(),
+            p.ranking.basis()
+        );
+        let layout = Layout {
+            wide: true,
+            legend: false,
+        };
+        write!(
+            out,
+            "\n{}\n\n{}",
+            crate::document::md_text(&head),
+            markdown_text(&listing, r.shown.unwrap_or(usize::MAX), layout)
+        )?;
+        if p.ranking.junction.is_some() {
+            model = Some(p.ranking.model);
+        }
+    }
+    if let Some(m) = model {
+        write!(
+            out,
+            "\n{}",
+            crate::candidates::preformatted(&model_text(&m, None, false))
+        )?;
+    }
+    Ok(())
 }
 
 /// One CSV row per peak, spreadsheet-safe.

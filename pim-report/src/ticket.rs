@@ -442,7 +442,7 @@ fn build(
             made_in(c, t.site.emitters()),
             c.product.order().to_string(),
             format!("{:.4}", c.product.freq.mhz()),
-            format!("{:+.1}", c.product.offset(heard).khz()),
+            pim_io::precision::signed(c.product.offset(heard).khz(), 1),
             crate::candidates::relative_text(c),
         ];
         if calibrated {
