@@ -13,8 +13,10 @@
 //! | `_m`, `_m2` | 0.01 m (m²) | a centimetre, below any position's error |
 //! | `_w`, `_v_m` | 4 significant figures | a level to 0.01 dB |
 //! | `_s` | 1 ms | |
+//! | `weight` (a reading's robust weight) | 0.001 | |
+//! | `fraction` | 1e-6 | a share to a millionth |
 //!
-//! Other numbers (counts, fractions, confidence) are written as computed. A value that
+//! Other numbers (counts, confidence) are written as computed. A value that
 //! rounds to zero is written `0`, never `-0`.
 
 use serde::Serialize;
@@ -70,8 +72,10 @@ pub fn rounding_for(key: &str) -> Option<Rounding> {
         Some(Rounding::Significant(4))
     } else if ends("_m") || ends("_m2") || k.contains("_m_") {
         Some(Rounding::Decimals(2))
-    } else if ends("_s") {
+    } else if ends("_s") || k == "weight" {
         Some(Rounding::Decimals(3))
+    } else if ends("fraction") {
+        Some(Rounding::Decimals(6))
     } else {
         None
     }
@@ -226,7 +230,7 @@ mod tests {
             "freq_mhz": 155.610_002 + 1e-9,
             "offset_khz": 12.5000000001,
             "rank": 3,
-            "fraction": 0.30000000000000004,
+            "confidence": 0.30000000000000004,
             "items": [{"level_dbm": -90.1234}],
         });
         round_json(&mut v);
@@ -239,7 +243,7 @@ mod tests {
         assert_eq!(v["freq_mhz"], json!(155.610002));
         assert_eq!(v["offset_khz"], json!(12.5));
         assert_eq!(v["rank"], json!(3));
-        assert_eq!(v["fraction"], json!(0.30000000000000004));
+        assert_eq!(v["confidence"], json!(0.30000000000000004));
         assert_eq!(v["items"][0]["level_dbm"], json!(-90.12));
     }
 
