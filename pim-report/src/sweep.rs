@@ -83,38 +83,14 @@ fn table_body(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
     write!(out, "{}", peaks_table(r.sweep, r.emitters))?;
     writeln!(out)?;
     write!(out, "{}", suspects_text(r.sweep, r.emitters, r.suspects))?;
-    let mut model = None;
-    for (i, p) in r.sweep.peaks.iter().enumerate() {
-        if p.kind != PeakKind::Product {
-            continue;
-        }
-        let listing = Listing {
-            emitters: r.emitters,
-            params: &p.params,
-            ranking: &p.ranking,
-            co_channel: &p.co_channel,
-        };
-        writeln!(
-            out,
-            "\nPeak {} at {:.4} MHz: {}; {}.",
-            i + 1,
-            p.peak.freq.mhz(),
-            peak_counts(p, r.shown).text(),
-            p.ranking.basis()
-        )?;
+    let shown = r.shown.unwrap_or(usize::MAX);
+    let model = each_product_peak(r, |head, listing| {
         let layout = Layout {
             wide: r.wide,
             legend: false,
         };
-        write!(
-            out,
-            "{}",
-            table_text(&listing, r.shown.unwrap_or(usize::MAX), layout)
-        )?;
-        if p.ranking.junction.is_some() {
-            model = Some(p.ranking.model);
-        }
-    }
+        write!(out, "\n{head}\n{}", table_text(listing, shown, layout))
+    })?;
     // the level model, said once for every peak
     if let Some(m) = model {
         writeln!(out, "\n{}", model_text(&m, None, false).trim_end())?;
@@ -122,10 +98,12 @@ fn table_body(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
     Ok(())
 }
 
-/// The peaks and the suspects as Markdown tables.
-pub fn write_markdown(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
-    out.write_all(markdown(r.sweep, r.emitters, r.suspects).as_bytes())?;
-    // each product peak's candidates, as the table gives them
+/// Calls `each` with every product peak's heading (its counts) and listing, in the
+/// order of the peaks; returns the level model of the levelled ones.
+fn each_product_peak(
+    r: &SweepReport,
+    mut each: impl FnMut(&str, &Listing) -> io::Result<()>,
+) -> io::Result<Option<pim_core::level::LevelModel>> {
     let mut model = None;
     for (i, p) in r.sweep.peaks.iter().enumerate() {
         if p.kind != PeakKind::Product {
@@ -144,6 +122,20 @@ pub fn write_markdown(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
             peak_counts(p, r.shown).text(),
             p.ranking.basis()
         );
+        each(&head, &listing)?;
+        if p.ranking.junction.is_some() {
+            model = Some(p.ranking.model);
+        }
+    }
+    Ok(model)
+}
+
+/// The peaks and the suspects as Markdown tables.
+pub fn write_markdown(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
+    out.write_all(markdown(r.sweep, r.emitters, r.suspects).as_bytes())?;
+    // each product peak's candidates, as the table gives them
+    let shown = r.shown.unwrap_or(usize::MAX);
+    let model = each_product_peak(r, |head, listing| {
         let layout = Layout {
             wide: true,
             legend: false,
@@ -151,13 +143,10 @@ pub fn write_markdown(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
         write!(
             out,
             "\n{}\n\n{}",
-            crate::document::md_text(&head),
-            markdown_text(&listing, r.shown.unwrap_or(usize::MAX), layout)
-        )?;
-        if p.ranking.junction.is_some() {
-            model = Some(p.ranking.model);
-        }
-    }
+            crate::document::md_text(head),
+            markdown_text(listing, shown, layout)
+        )
+    })?;
     if let Some(m) = model {
         write!(
             out,
