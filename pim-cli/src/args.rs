@@ -139,6 +139,10 @@ pub struct ListingArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = ListFormat::Table)]
     pub format: ListFormat,
+    /// Every column of the table, however wide (by default a table keeps to 100
+    /// characters, leaving out the level terms, which JSON, CSV and Markdown always have).
+    #[arg(long)]
+    pub wide: bool,
 }
 
 impl ListingArgs {
@@ -212,8 +216,8 @@ impl SearchArgs {
             "tol_khz": self.tol.khz(),
             "max_order": self.max_order,
             "max_emitters": self.max_emitters,
-            "rx_lat": self.rx_lat,
-            "rx_lon": self.rx_lon,
+            "rx_lat_deg": self.rx_lat,
+            "rx_lon_deg": self.rx_lon,
             "junction_model": self.junction_model(),
             "rx_filter": self.rx_filter.as_ref().map(|p| p.display().to_string()),
         })

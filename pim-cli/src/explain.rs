@@ -6,7 +6,7 @@ use std::io::Write;
 use pim_core::{Query, Site};
 use pim_report::candidates::{
     channel_summary, co_channel_json, co_channel_text, markdown_text, narrowing_text, outlook_json,
-    table_text, write_csv, write_json_array, Listing,
+    table_text, write_csv, write_json_array, Counts, Layout, Listing,
 };
 use serde_json::json;
 
@@ -101,69 +101,69 @@ pub fn run(args: Args) -> CliResult {
     };
     let mut out = stdout();
     let total = answer.ranking.total;
-    let counted = counted_text(&answer);
+    let counts = Counts::of(&answer, shown);
+    let n = shown.unwrap_or(usize::MAX);
+    // the lines above the listing, the same in the table and in Markdown
+    let mut preamble = channel_summary(
+        &params,
+        emitters.len(),
+        &args.input.emitters.display().to_string(),
+        junction,
+    );
+    preamble.push_str(&co_channel_text(&listing));
+    preamble.push_str(&narrowing_text(
+        emitters,
+        &coefficients,
+        found,
+        answer.kept,
+        logbook,
+    ));
+    if total > 0 {
+        preamble.push_str(&format!(
+            "{} (a candidate: a product with one way it can be made); {}.{}\n",
+            counts.text(),
+            ranking.basis(),
+            if total > n && n > 0 {
+                format!(" The first {n}:")
+            } else {
+                String::new()
+            }
+        ));
+    }
+    if let (Some(n), Some(path)) = (cleared, &args.power_steps) {
+        preamble.push_str(&format!(
+            "Power steps ({}): {n} candidate{} cleared (a stepped emitter moved the level and takes no part, or with a |k| its slope does not fit), ranked after the others.\n",
+            path.display(),
+            if n == 1 { "" } else { "s" }
+        ));
+    }
+    if args.calibration.heard_dbm.is_some() && !ranking.calibrated {
+        preamble.push_str("The heard level is not used: without a junction location (--rx-lat/--rx-lon) no candidate has a level.\n");
+    }
+    let layout = Layout::single(args.listing.wide);
     match args.listing.format {
         ListFormat::Table => {
-            let n = shown.unwrap_or(usize::MAX);
-            write!(
+            let width = pim_report::text_table::TERMINAL_WIDTH;
+            writeln!(
                 out,
                 "{}",
-                channel_summary(
-                    &params,
-                    emitters.len(),
-                    &args.input.emitters.display().to_string(),
-                    junction
-                )
+                pim_report::text_table::wrap_lines(&preamble, width)
             )?;
-            write!(out, "{}", co_channel_text(&listing))?;
-            write!(
-                out,
-                "{}",
-                narrowing_text(emitters, &coefficients, found, answer.kept, logbook)
-            )?;
-            if total > 0 {
-                writeln!(
-                out,
-                "{counted}{total} candidate{} (a product with a way it can be made) land{} in the channel; {}.{}\n",
-                if total == 1 { "" } else { "s" },
-                if total == 1 { "s" } else { "" },
-                ranking.basis(),
-                if total > n && n > 0 {
-                    format!(" The first {n}:")
-                } else {
-                    String::new()
-                }
-            )?;
-            }
-            if let (Some(n), Some(path)) = (cleared, &args.power_steps) {
-                writeln!(
-                    out,
-                    "Power steps ({}): {n} candidate{} cleared (a stepped emitter moved the level and takes no part, or with a |k| its slope does not fit), ranked after the others.\n",
-                    path.display(),
-                    if n == 1 { "" } else { "s" }
-                )?;
-            }
-            if args.calibration.heard_dbm.is_some() && !ranking.calibrated {
-                writeln!(
-                    out,
-                    "The heard level is not used: without a junction location (--rx-lat/--rx-lon) no candidate has a level.\n"
-                )?;
-            }
-            write!(out, "{}", table_text(&listing, n))?;
+            write!(out, "{}", table_text(&listing, n, layout))?;
         }
         ListFormat::Markdown => {
-            write!(
-                out,
-                "{}",
-                markdown_text(&listing, shown.unwrap_or(usize::MAX))
-            )?;
+            for para in preamble.split("\n").filter(|p| !p.is_empty()) {
+                writeln!(out, "{}\n", pim_report::document::md_text(para))?;
+            }
+            write!(out, "{}", markdown_text(&listing, n, layout))?;
         }
         ListFormat::Csv => {
             write_csv(&mut out, &listing, shown, None, true)?;
-            if ranking.candidates.len() < total || !answer.complete {
+            if counts.shown < total || !answer.complete {
                 eprintln!(
-                    "pim: note: {} of {counted}{total} candidates written; --limit all writes every one",
-                    ranking.candidates.len()
+                    "pim: note: {} of {}{total} candidates written; --limit all writes every one",
+                    counts.shown,
+                    if answer.complete { "" } else { "at least " },
                 );
             }
         }
@@ -193,7 +193,7 @@ pub fn run(args: Args) -> CliResult {
             writeln!(
                 out,
                 "  \"inputs\": {},",
-                serde_json::to_string(&inputs).map_err(std::io::Error::from)?
+                pim_io::precision::json_text(&inputs, false).map_err(std::io::Error::from)?
             )?;
             writeln!(out, "  \"ranking_basis\": {},", json!(ranking.basis()))?;
             let outlook = outlook_json(ranking);
@@ -201,10 +201,9 @@ pub fn run(args: Args) -> CliResult {
                 writeln!(out, "  {}: {},", json!(key), outlook[key])?;
             }
             writeln!(out, "  \"co_channel\": {},", co_channel_json(&listing))?;
-            writeln!(out, "  \"found\": {found},")?;
-            writeln!(out, "  \"total\": {total},")?;
-            writeln!(out, "  \"counted_all\": {},", answer.complete)?;
-            writeln!(out, "  \"shown\": {},", ranking.candidates.len())?;
+            for (key, value) in counts.json() {
+                writeln!(out, "  {}: {value},", json!(key))?;
+            }
             write!(out, "  \"candidates\": ")?;
             write_json_array(&mut out, &listing, shown)?;
             writeln!(out, "\n}}")?;
@@ -215,14 +214,5 @@ pub fn run(args: Args) -> CliResult {
     match pim_report::candidates::nothing_explains_text(ranking, &params) {
         Some(statement) => Err(pim_core::Error::refused(statement).into()),
         None => Ok(()),
-    }
-}
-
-/// "at least " when products that provably rank below the listing were not counted.
-fn counted_text(answer: &pim_core::Explanation) -> &'static str {
-    if answer.complete {
-        ""
-    } else {
-        "at least "
     }
 }

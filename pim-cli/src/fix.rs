@@ -270,13 +270,12 @@ pub fn run(args: Args) -> CliResult {
             }
         }
         FixFormat::Json => {
-            serde_json::to_writer_pretty(&mut out, &fix_json(&fix, &prepared.corrections))
-                .map_err(std::io::Error::from)?;
+            let json = fix_json(&fix, &prepared.corrections);
+            pim_io::precision::write_json(&mut out, &json, true)?;
             writeln!(out)?;
         }
         FixFormat::Geojson => {
-            serde_json::to_writer_pretty(&mut out, &site_geojson(&fix, &items))
-                .map_err(std::io::Error::from)?;
+            pim_io::precision::write_json(&mut out, &site_geojson(&fix, &items), true)?;
             writeln!(out)?;
         }
         FixFormat::Kml => {

@@ -66,6 +66,10 @@ pub struct Args {
     /// Format of the --list listing.
     #[arg(long, value_enum, default_value_t = ListFormat::Table)]
     pub format: ListFormat,
+    /// Every column of the --list table, however wide (by default it keeps to 100
+    /// characters, leaving out the time, which CSV, JSON and Markdown always have).
+    #[arg(long, requires = "list")]
+    pub wide: bool,
     /// The running fix's estimator; --track also gives the new reading its position when
     /// --lat/--lon are left out (at --time, else the track's newest point).
     #[command(flatten)]
@@ -186,10 +190,17 @@ pub fn run(args: Args) -> CliResult {
             use pim_report::walk as w;
             let rows = read_field_log(&source, text.as_bytes(), args.fix.track.is_some())?.rows;
             match args.format {
-                ListFormat::Table => write!(out, "{}", w::log_listing(&fix, &rows))?,
+                ListFormat::Table => write!(out, "{}", w::log_listing(&fix, &rows, args.wide))?,
                 ListFormat::Markdown => write!(out, "{}", w::log_listing_markdown(&fix, &rows))?,
                 ListFormat::Csv => w::log_listing_csv(&mut out, &fix, &rows)?,
-                ListFormat::Json => writeln!(out, "{:#}", w::log_listing_json(&fix, &rows))?,
+                ListFormat::Json => {
+                    pim_io::precision::write_json(
+                        &mut out,
+                        &w::log_listing_json(&fix, &rows),
+                        true,
+                    )?;
+                    writeln!(out)?;
+                }
             }
         }
         Ok((fix, _)) => {

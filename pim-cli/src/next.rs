@@ -60,7 +60,7 @@ pub fn run(args: Args) -> CliResult {
     match args.format {
         ListFormat::Json => {
             let v = next_json(&fix, sigma, best, alternatives);
-            serde_json::to_writer_pretty(&mut out, &v).map_err(std::io::Error::from)?;
+            pim_io::precision::write_json(&mut out, &v, true)?;
             writeln!(out)?;
         }
         ListFormat::Table => write!(out, "{}", next_text(&fix, sigma, best, alternatives))?,

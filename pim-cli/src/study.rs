@@ -77,9 +77,16 @@ pub fn run(args: Args) -> CliResult {
         writeln!(
             out,
             "  \"inputs\": {},",
-            serde_json::to_string(&inputs).map_err(std::io::Error::from)?
+            pim_io::precision::json_text(&inputs, false).map_err(std::io::Error::from)?
         )?;
         writeln!(out, "  \"receivers\": [")?;
+    }
+    // the explanation every receiver shares, once, above them
+    let legend = pim_report::study::study_legend(&model, false, false);
+    match format {
+        ListFormat::Table => writeln!(out, "{legend}")?,
+        ListFormat::Markdown => write!(out, "{}", pim_report::candidates::preformatted(&legend))?,
+        ListFormat::Csv | ListFormat::Json => {}
     }
     let receivers = &rx_file.receivers;
     // Each receiver on its own thread, written in file order as soon as it and every
@@ -112,7 +119,12 @@ pub fn run(args: Args) -> CliResult {
             ListFormat::Table => write!(
                 out,
                 "{}",
-                r.table(emitters, &emitters_source, shown.unwrap_or(usize::MAX))
+                r.table(
+                    emitters,
+                    &emitters_source,
+                    shown.unwrap_or(usize::MAX),
+                    args.listing.wide
+                )
             ),
             ListFormat::Markdown => {
                 write!(out, "{}", r.markdown(emitters, shown.unwrap_or(usize::MAX)))

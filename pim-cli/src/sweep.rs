@@ -158,6 +158,7 @@ fn report<'a>(
         rx_bw: args.search.rx_bw,
         shown: args.listing.shown(3),
         suspects: args.suspects,
+        wide: args.listing.wide,
     }
 }
 
@@ -269,6 +270,7 @@ fn run_recording(
             let mut doc: serde_json::Value = serde_json::from_slice(&buffer)
                 .map_err(|e| Error::input(Place::new("sweep JSON"), e.to_string()))?;
             crate::recording::augment_json(&mut doc, &r, emitters, args.listing.shown(3));
+            pim_io::precision::round_json(&mut doc);
             let text = serde_json::to_string_pretty(&doc)
                 .map_err(|e| Error::input(Place::new("sweep JSON"), e.to_string()))?;
             std::io::Write::write_all(&mut out, text.as_bytes())?;

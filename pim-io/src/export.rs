@@ -221,7 +221,13 @@ fn region_kind_name(k: RegionKind) -> &'static str {
 fn kml_coords(points: &[GeoPoint]) -> String {
     points
         .iter()
-        .map(|p| format!("{:.7},{:.7},0", p.lon_deg, p.lat_deg))
+        .map(|p| {
+            format!(
+                "{},{},0",
+                crate::precision::cell("lon_deg", p.lon_deg),
+                crate::precision::cell("lat_deg", p.lat_deg)
+            )
+        })
         .collect::<Vec<_>>()
         .join(" ")
 }
@@ -345,8 +351,14 @@ pub fn site_kml(fix: &Fix, items: &SiteItems, title: &str) -> String {
         let mut data = vec![("item", p.item.to_string())];
         data.extend(p.kind.map(|v| ("kind", v.to_string())));
         data.extend(p.owner.map(|v| ("owner", v.to_string())));
-        data.extend(p.freq_mhz.map(|v| ("freq_mhz", format!("{v}"))));
-        data.extend(p.erp_dbm.map(|v| ("erp_dbm", format!("{v:.2}"))));
+        data.extend(p.freq_mhz.map(|v| {
+            let hz = crate::precision::Rounding::Decimals(6);
+            ("freq_mhz", crate::precision::round(v, hz).to_string())
+        }));
+        data.extend(
+            p.erp_dbm
+                .map(|v| ("erp_dbm", crate::precision::cell("erp_dbm", v))),
+        );
         let data: String = data
             .iter()
             .map(|(name, value)| {

@@ -12,6 +12,7 @@ pub mod export;
 pub mod fieldlog;
 pub mod onair;
 pub mod output;
+pub mod precision;
 pub mod readings;
 pub mod recording;
 pub mod rx_filter;

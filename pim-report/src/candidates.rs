@@ -6,7 +6,7 @@ use std::io::Write;
 use pim_core::emitter::{carriers, Carrier, Emitter};
 use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
-use pim_core::level::{FieldRegion, JunctionTerms, Mechanism, Plausibility};
+use pim_core::level::{FieldRegion, JunctionTerms, LevelModel, Mechanism, Plausibility};
 use pim_core::onair::{Evidence, Logbook};
 use pim_core::rank::{
     display_terms, formula, Calibration, Candidate, LevelBreakdown, Missing, NextStep, Outlook,
@@ -15,8 +15,7 @@ use pim_core::rank::{
 use serde::Serialize;
 
 use crate::csv_out::write_row;
-use crate::document::md_inline;
-use crate::text_table::{Align, TextTable};
+use crate::text_table::{wrap_lines, Align, TextTable, TERMINAL_WIDTH};
 type CliResult = std::io::Result<()>;
 
 /// Everything a listing of candidates draws on.
@@ -25,11 +24,6 @@ pub struct Listing<'a> {
     pub params: &'a SearchParams,
     pub ranking: &'a Ranking,
     pub co_channel: &'a [usize],
-}
-
-/// Rounds to two decimals for output.
-pub fn r2(x: f64) -> f64 {
-    (x * 100.0).round() / 100.0
 }
 
 #[derive(Serialize)]
@@ -56,7 +50,7 @@ struct CandidateJson<'a> {
     predicted_level_dbm: Option<f64>,
     in_channel_dbm: Option<f64>,
     relative_db: Option<f64>,
-    level_terms: Option<LevelBreakdown>,
+    level_terms: Option<LevelTermsJson>,
     calibration: Option<Calibration>,
     implausible: bool,
     away_from_fix: bool,
@@ -66,38 +60,46 @@ struct CandidateJson<'a> {
     on_air: Option<Evidence>,
 }
 
-fn rounded_breakdown(b: &LevelBreakdown) -> LevelBreakdown {
-    LevelBreakdown {
-        junction: b.junction.map(|j| JunctionTerms {
-            im3_dbm: r2(j.im3_dbm),
-            form_db: r2(j.form_db),
-            drive_db: r2(j.drive_db),
-            order_db: r2(j.order_db),
-            even_order_db: r2(j.even_order_db),
-            law_dbm: r2(j.law_dbm),
-            ceiling_dbm: r2(j.ceiling_dbm),
-            level_dbm: r2(j.level_dbm),
-        }),
-        source_level_dbm: r2(b.source_level_dbm),
-        path_to_receiver_db: r2(b.path_to_receiver_db),
-        path_distance_m: b.path_distance_m.map(r2),
-        path_floor_m: b.path_floor_m.map(|f| (f * 1000.0).round() / 1000.0),
-        spread_hz: b.spread_hz,
-        channel_fraction: (b.channel_fraction * 1e6).round() / 1e6,
-        channel_db: r2(b.channel_db),
-        in_channel_dbm: r2(b.in_channel_dbm),
-        below_floor: b.below_floor,
-        width_mismatch_db: r2(b.width_mismatch_db),
+/// A candidate's level terms as its JSON gives them: every term a signed gain in dB
+/// (the path term negative, a loss), so that `source_level_dbm + path_db + channel_db`
+/// is `in_channel_dbm`, as in the table and the CSV.
+#[derive(Serialize)]
+struct LevelTermsJson {
+    junction: Option<JunctionTerms>,
+    source_level_dbm: f64,
+    path_db: f64,
+    path_distance_m: Option<f64>,
+    path_floor_m: Option<f64>,
+    spread_hz: i64,
+    channel_fraction: f64,
+    channel_db: f64,
+    in_channel_dbm: f64,
+    below_floor: bool,
+    width_mismatch_db: f64,
+}
+
+impl From<&LevelBreakdown> for LevelTermsJson {
+    fn from(b: &LevelBreakdown) -> Self {
+        LevelTermsJson {
+            junction: b.junction,
+            source_level_dbm: b.source_level_dbm,
+            path_db: path_db(b),
+            path_distance_m: b.path_distance_m,
+            path_floor_m: b.path_floor_m,
+            spread_hz: b.spread_hz,
+            channel_fraction: b.channel_fraction,
+            channel_db: b.channel_db,
+            in_channel_dbm: b.in_channel_dbm,
+            below_floor: b.below_floor,
+            width_mismatch_db: b.width_mismatch_db,
+        }
     }
 }
 
-fn rounded_calibration(k: &Calibration) -> Calibration {
-    Calibration {
-        shift_db: r2(k.shift_db),
-        points: k.points,
-        required_im3_dbc: k.required_im3_dbc.map(r2),
-        plausibility: k.plausibility,
-    }
+/// The path term as every output shows it: a signed gain, the loss from the source to
+/// the receiver (less the receiving antenna's gain) taken as negative.
+pub fn path_db(b: &LevelBreakdown) -> f64 {
+    -b.path_to_receiver_db
 }
 
 /// One candidate's JSON element; `carriers` are the listing's emitters' carriers, made
@@ -113,11 +115,7 @@ fn candidate_json<'a>(l: &Listing<'a>, carriers: &[Carrier], c: &Candidate) -> C
                 freq_mhz: e.freq.mhz(),
                 kind: e.kind.as_deref(),
                 owner: e.owner.as_deref(),
-                incident_dbm: l
-                    .ranking
-                    .incidence
-                    .get(t.emitter)
-                    .map(|i| r2(i.incident_dbm)),
+                incident_dbm: l.ranking.incidence.get(t.emitter).map(|i| i.incident_dbm),
             }
         })
         .collect();
@@ -131,17 +129,79 @@ fn candidate_json<'a>(l: &Listing<'a>, carriers: &[Carrier], c: &Candidate) -> C
         product_mhz: c.product.freq.mhz(),
         offset_khz: c.product.offset(l.params.target).khz(),
         bandwidth_khz: c.product.bandwidth(carriers).khz(),
-        predicted_level_dbm: c.level_dbm.map(r2),
-        in_channel_dbm: c.breakdown.map(|b| r2(b.in_channel_dbm)),
-        relative_db: c.relative_db.map(r2),
-        level_terms: c.breakdown.as_ref().map(rounded_breakdown),
-        calibration: c.calibration.as_ref().map(rounded_calibration),
+        predicted_level_dbm: c.level_dbm,
+        in_channel_dbm: c.breakdown.map(|b| b.in_channel_dbm),
+        relative_db: c.relative_db,
+        level_terms: c.breakdown.as_ref().map(LevelTermsJson::from),
+        calibration: c.calibration,
         implausible: c.implausible,
         away_from_fix: c.away_from_fix,
         cleared_by_steps: c.cleared_by_steps,
         missing: c.missing,
         on_air: c.evidence,
     }
+}
+
+/// What a listing counted, under the one definition every command uses: a **product**
+/// is a combination of the emitters' carriers that lands in the channel; a
+/// **candidate** is a product with one way it can be made (at a junction, in a
+/// transmitter's output stage, in the receiver), so one product may make several
+/// candidates. Tables, Markdown, CSV notes and JSON all count with these.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Counts {
+    /// Products found landing in the channel, before any narrowing.
+    pub found: usize,
+    /// Of those, the products the listing ranks (after `--coefficient`, or centred on a
+    /// peak).
+    pub products: usize,
+    /// The candidates those products make.
+    pub candidates: usize,
+    /// The candidates listed.
+    pub shown: usize,
+    /// Whether every product was counted (else the counts read "at least").
+    pub complete: bool,
+}
+
+impl Counts {
+    /// The counts of an explanation, `limit` candidates listed.
+    pub fn of(a: &pim_core::Explanation, limit: Option<usize>) -> Counts {
+        Counts {
+            found: a.found,
+            products: a.kept,
+            candidates: a.ranking.total,
+            shown: a.ranking.candidates.len().min(limit.unwrap_or(usize::MAX)),
+            complete: a.complete,
+        }
+    }
+
+    /// "5 products land in the channel, making 6 candidates", "at least " before it
+    /// when not every product was counted.
+    pub fn text(&self) -> String {
+        format!(
+            "{}{} land{} in the channel, making {}",
+            if self.complete { "" } else { "at least " },
+            count(self.products, "product", "products"),
+            if self.products == 1 { "s" } else { "" },
+            count(self.candidates, "candidate", "candidates"),
+        )
+    }
+
+    /// The counts as JSON fields, named alike in every command: `products_found`,
+    /// `products`, `candidates_total`, `candidates_shown`, `counted_all`.
+    pub fn json(&self) -> serde_json::Map<String, serde_json::Value> {
+        let mut m = serde_json::Map::new();
+        m.insert("products_found".into(), self.found.into());
+        m.insert("products".into(), self.products.into());
+        m.insert("candidates_total".into(), self.candidates.into());
+        m.insert("candidates_shown".into(), self.shown.into());
+        m.insert("counted_all".into(), self.complete.into());
+        m
+    }
+}
+
+/// `n` with its noun, singular or plural: "1 product", "2 products".
+pub fn count(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
 }
 
 /// Where a candidate's product is made, in a few words: `junction`, `SKP-152 harmonic`,
@@ -257,7 +317,7 @@ pub fn co_channel_json(l: &Listing) -> serde_json::Value {
             }
         })
         .collect();
-    serde_json::to_value(list).unwrap_or_default()
+    pim_io::precision::rounded_json(&list).unwrap_or_default()
 }
 
 /// Writes the candidates as a JSON array, one element at a time (no second copy of the
@@ -272,15 +332,14 @@ pub fn write_json_array(out: &mut dyn Write, l: &Listing, limit: Option<usize>) 
         .take(limit.unwrap_or(usize::MAX));
     for (i, c) in shown.enumerate() {
         out.write_all(if i == 0 { b"\n    " } else { b",\n    " })?;
-        serde_json::to_writer(&mut *out, &candidate_json(l, &carriers, c))
-            .map_err(std::io::Error::from)?;
+        pim_io::precision::write_json(out, &candidate_json(l, &carriers, c), false)?;
     }
     out.write_all(b"\n  ]")?;
     Ok(())
 }
 
 /// The header of the CSV listing.
-pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,mechanism,formed_in,predicted_level_dbm,drive_db,form_db,order_db,even_order_db,path_to_receiver_db,path_distance_m,path_floor_m,channel_db,in_channel_dbm,relative_db,shift_db,required_im3_dbc,implausible,away_from_fix,missing,terms,kinds,owners";
+pub const CSV_HEADER: &str = "rank,formula,order,product_mhz,offset_khz,bandwidth_khz,mechanism,formed_in,predicted_level_dbm,drive_db,form_db,order_db,even_order_db,path_db,path_distance_m,path_floor_m,channel_db,in_channel_dbm,relative_db,shift_db,required_im3_dbc,implausible,away_from_fix,missing,terms,kinds,owners";
 
 /// The columns the CSV listing adds when on-air evidence was given.
 pub const CSV_EVIDENCE_HEADER: &str =
@@ -317,8 +376,10 @@ fn missing_name(m: Missing) -> &'static str {
     }
 }
 
+/// A CSV cell of a level, a gain or a distance: two decimals, never `-0.00`.
 fn cell(x: Option<f64>) -> String {
-    x.map(|v| format!("{v:.2}")).unwrap_or_default()
+    x.map(|v| pim_io::precision::fixed(v, 2))
+        .unwrap_or_default()
 }
 
 /// Writes candidates as CSV rows (with the header when `header`); `prefix` fields are
@@ -376,11 +437,9 @@ pub fn write_csv(
             cell(j.map(|j| j.form_db)),
             cell(j.map(|j| j.order_db)),
             cell(j.map(|j| j.even_order_db)),
-            cell(b.map(|b| b.path_to_receiver_db)),
+            cell(b.as_ref().map(path_db)),
             cell(b.and_then(|b| b.path_distance_m)),
-            b.and_then(|b| b.path_floor_m)
-                .map(|f| format!("{f:.3}"))
-                .unwrap_or_default(),
+            cell(b.and_then(|b| b.path_floor_m)),
             cell(b.map(|b| b.channel_db)),
             cell(b.map(|b| b.in_channel_dbm)),
             cell(c.relative_db),
@@ -408,12 +467,10 @@ pub fn write_csv(
     Ok(())
 }
 
-fn signed(x: f64, decimals: usize) -> String {
-    format!("{x:+.decimals$}")
-}
+use pim_io::precision::signed;
 
 fn level_text(x: Option<f64>) -> String {
-    x.map(|v| format!("{v:.1}"))
+    x.map(|v| pim_io::precision::fixed(v, 1))
         .unwrap_or_else(|| "—".to_string())
 }
 
@@ -436,8 +493,8 @@ pub fn relative_text(c: &Candidate) -> String {
 /// raised to its floor (the legend says which floor).
 fn path_text(b: Option<&LevelBreakdown>) -> String {
     match b {
-        Some(b) if b.path_floor_m.is_some() => format!("{}*", signed(-b.path_to_receiver_db, 1)),
-        Some(b) => signed(-b.path_to_receiver_db, 1),
+        Some(b) if b.path_floor_m.is_some() => format!("{}*", signed(path_db(b), 1)),
+        Some(b) => signed(path_db(b), 1),
         None => "—".to_string(),
     }
 }
@@ -513,9 +570,39 @@ pub fn calibrated_first_dbm(ranking: &Ranking) -> Option<f64> {
     Some(first.breakdown?.in_channel_dbm + first.calibration?.shift_db)
 }
 
-/// The ranked candidates as an aligned terminal table, followed by the terms of the
-/// level model a reader needs to check each row's arithmetic.
-pub fn table_text(l: &Listing, limit: usize) -> String {
+/// How a listing's table is laid out.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct Layout {
+    /// Every column, however wide (`--wide`); else the level terms are left out (a line
+    /// says so) and the text columns wrapped to [`TERMINAL_WIDTH`].
+    pub wide: bool,
+    /// The level model's explanation below the table; a study writes it once, above its
+    /// receivers, and leaves it out of each.
+    pub legend: bool,
+}
+
+impl Layout {
+    /// The layout of a single listing: the model explained below it.
+    pub fn single(wide: bool) -> Layout {
+        Layout { wide, legend: true }
+    }
+}
+
+/// The level-term columns the terminal table leaves out without `--wide`.
+const LEVEL_TERMS: &str = "Not shown: the width (kHz) and the level terms source, drive, form, order, path and chan (dB);\n  --wide shows them.\n";
+
+/// The columns of a listing and its rows, shared by the table and the Markdown so that
+/// the two show the same values under the same names.
+struct Columns<'a> {
+    headers: Vec<(&'static str, Align)>,
+    rows: Vec<Vec<String>>,
+    shown: Vec<&'a Candidate>,
+    /// Emitters feeding a junction candidate shown, by index.
+    used: Vec<bool>,
+    mechanisms: Vec<Mechanism>,
+}
+
+fn columns<'a>(l: &Listing<'a>, limit: usize, wide: bool) -> Columns<'a> {
     let levelled = l.ranking.junction.is_some();
     let calibrated = l.ranking.calibrated;
     let mut headers = vec![
@@ -525,21 +612,25 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         ("order", Align::Right),
         ("at MHz", Align::Right),
         ("offset kHz", Align::Right),
-        ("width kHz", Align::Right),
     ];
+    if wide {
+        headers.push(("width kHz", Align::Right));
+    }
     if levelled {
         headers.push(("rel dB", Align::Right));
         if calibrated {
             headers.push(("needs dBc", Align::Right));
         }
-        headers.extend([
-            ("source dBm", Align::Right),
-            ("drive dB", Align::Right),
-            ("form dB", Align::Right),
-            ("order dB", Align::Right),
-            ("path dB", Align::Right),
-            ("chan dB", Align::Right),
-        ]);
+        if wide {
+            headers.extend([
+                ("source dBm", Align::Right),
+                ("drive dB", Align::Right),
+                ("form dB", Align::Right),
+                ("order dB", Align::Right),
+                ("path dB", Align::Right),
+                ("chan dB", Align::Right),
+            ]);
+        }
     }
     if l.ranking.by_evidence {
         headers.extend([
@@ -554,10 +645,10 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
     if remarks {
         headers.push(("note", Align::Left));
     }
-    let mut t = TextTable::new(&headers);
     let carriers = carriers(l.emitters);
     let mut used = vec![false; l.emitters.len()];
     let mut mechanisms = Vec::new();
+    let mut rows = Vec::new();
     for c in &shown {
         if !mechanisms.contains(&c.mechanism) {
             mechanisms.push(c.mechanism);
@@ -572,10 +663,15 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
             formula(&c.product, l.emitters),
             made_in(c, l.emitters),
             c.product.order().to_string(),
-            format!("{:.4}", c.product.freq.mhz()),
+            pim_io::precision::fixed(c.product.freq.mhz(), 4),
             signed(c.product.offset(l.params.target).khz(), 1),
-            format!("{:.1}", c.product.bandwidth(&carriers).khz()),
         ];
+        if wide {
+            row.push(pim_io::precision::fixed(
+                c.product.bandwidth(&carriers).khz(),
+                1,
+            ));
+        }
         if levelled {
             let b = c.breakdown;
             let j = b.and_then(|b| b.junction);
@@ -583,14 +679,16 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
             if calibrated {
                 row.push(signed_text(c.calibration.and_then(|k| k.required_im3_dbc)));
             }
-            row.extend([
-                level_text(c.level_dbm),
-                signed_text(j.map(|j| j.drive_db)),
-                signed_text(j.map(|j| j.form_db)),
-                signed_text(j.map(|j| j.order_db + j.even_order_db)),
-                path_text(b.as_ref()),
-                chan_text(b.as_ref()),
-            ]);
+            if wide {
+                row.extend([
+                    level_text(c.level_dbm),
+                    signed_text(j.map(|j| j.drive_db)),
+                    signed_text(j.map(|j| j.form_db)),
+                    signed_text(j.map(|j| j.order_db + j.even_order_db)),
+                    path_text(b.as_ref()),
+                    chan_text(b.as_ref()),
+                ]);
+            }
         }
         if l.ranking.by_evidence {
             row.extend(c.evidence.as_ref().map(evidence_cells).unwrap_or_default());
@@ -598,10 +696,25 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         if remarks {
             row.push(remark(c));
         }
-        t.push(row);
+        rows.push(row);
     }
+    Columns {
+        headers,
+        rows,
+        shown,
+        used,
+        mechanisms,
+    }
+}
+
+/// The ranked candidates as an aligned terminal table, followed by what a reader needs
+/// to check each row: the drives at the junction, the paths at their floor and (when
+/// `layout.legend`) the level model's terms.
+pub fn table_text(l: &Listing, limit: usize, layout: Layout) -> String {
+    let levelled = l.ranking.junction.is_some();
+    let cols = columns(l, limit, layout.wide);
     let mut out = String::new();
-    if t.is_empty() {
+    if cols.rows.is_empty() {
         out.push_str(
             &outlook_text(l.ranking).unwrap_or_else(|| {
                 "No product of these emitters lands in the channel.".to_string()
@@ -610,31 +723,57 @@ pub fn table_text(l: &Listing, limit: usize) -> String {
         out.push('\n');
         return out;
     }
-    out.push_str(&t.render());
-    if l.ranking.by_evidence {
+    let mut t = TextTable::new(&cols.headers);
+    for row in cols.rows {
+        t.push(row);
+    }
+    out.push_str(&if layout.wide {
+        t.render()
+    } else {
+        t.render_within(TERMINAL_WIDTH)
+    });
+    if !layout.wide {
+        out.push_str(if levelled {
+            LEVEL_TERMS
+        } else {
+            "Not shown: the width (kHz); --wide shows it.\n"
+        });
+    }
+    if l.ranking.by_evidence && layout.legend {
         out.push('\n');
         out.push_str(EVIDENCE_LEGEND);
     }
     if levelled {
-        out.push('\n');
-        out.push_str(&model_legend(l, &used, &mechanisms, &shown));
+        let notes = listing_notes(l, &cols.used, &cols.shown, layout.wide);
+        if !notes.is_empty() {
+            out.push('\n');
+            out.push_str(&wrap_lines(&notes, TERMINAL_WIDTH));
+        }
+        if layout.legend {
+            out.push('\n');
+            out.push_str(&wrap_lines(
+                &model_text(
+                    &l.ranking.model,
+                    Some(&cols.mechanisms),
+                    l.ranking.calibrated,
+                ),
+                TERMINAL_WIDTH,
+            ));
+            out.push_str(&unmodelled_text(l.ranking));
+        }
     }
     if let Some(s) = outlook_text(l.ranking) {
         out.push('\n');
-        out.push_str(&s);
+        out.push_str(&wrap_lines(&s, TERMINAL_WIDTH));
         out.push('\n');
     }
     out
 }
 
-/// The terms behind the level columns, with the values used, so that each row's
-/// arithmetic can be checked.
-fn model_legend(
-    l: &Listing,
-    used: &[bool],
-    mechanisms: &[Mechanism],
-    shown: &[&Candidate],
-) -> String {
+/// What one listing adds to the model's explanation: the drive of each emitter feeding a
+/// junction candidate shown, the paths taken at their floor and the calibrated level.
+/// The paths' floor is noted where the path column is shown (`with_path`).
+fn listing_notes(l: &Listing, used: &[bool], shown: &[&Candidate], with_path: bool) -> String {
     let m = &l.ranking.model;
     let mut out = String::new();
     let incident: Vec<String> = used
@@ -652,10 +791,9 @@ fn model_legend(
                     ),
                 };
                 format!(
-                    "  {:<12} ERP {:>6.1} dBm, EIRP {:>6.1} dBm, {:>6.0} m ({region}): E {:>6.1} dB(µV/m), P {:>6.1} dBm",
+                    "  {:<12} ERP {:>5.1} dBm, {:>6.0} m ({region}): E {:>5.1} dB(µV/m), P {:>6.1} dBm",
                     l.emitters[i].id,
                     inc.erp_dbm,
-                    inc.eirp_dbm,
                     inc.distance_m,
                     inc.field_dbuv_m,
                     inc.incident_dbm
@@ -673,46 +811,25 @@ fn model_legend(
             out.push('\n');
         }
     }
-    if mechanisms.contains(&Mechanism::Junction) {
-        out.push_str(&format!(
-            "junction: a joint of {:.0} dBc at two +43 dBm tones (IEC 62037-1; --junction-dbc); law = L3 + form + drive + order,\n  L3 = {:.1} dBm; form = 20·log10 of the product's multinomial coefficient over the two-tone one; drive =\n  Σ α·|k|·(P − 43 dBm), α = {:.2}; order = −{:.1} dB per order above the third, −{:.1} dB more for even orders;\n  the law bends to the passive ceiling, the weakest drive less 20·log10(order) (Page 1958).\n",
-            m.im3_dbc(), m.im3_dbm, m.drive_exponent, m.order_step_db, m.even_order_penalty_db
-        ));
-    }
-    if mechanisms.contains(&Mechanism::Transmitter) {
-        out.push_str("harmonic: source = the transmitter's EIRP at the ITU-R SM.329 category A spurious limit of its service (an upper figure).\n");
-    }
-    if mechanisms.contains(&Mechanism::TransmitterIm) {
-        out.push_str(&format!(
-            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB)\n  − {:.0} dB conversion loss + 2.15 dB (EIRP), less {:.0} dB for the carrier and again for the product outside the\n  transmitter's band (±10 %). An upper figure: no isolator or filter is assumed at either end.\n",
-            m.min_antenna_isolation_db, m.tx_conversion_loss_db, m.tx_out_of_band_rejection_db
-        ));
-    }
-    if mechanisms.contains(&Mechanism::Receiver) {
-        if let Some(iip3) = m.rx_iip3_dbm {
-            out.push_str(&format!(
-                "receiver: source = Σ|k|·(carrier at its input) − 2·IIP3 + form, IIP3 = {iip3:.1} dBm (--rx-iip3-dbm), below\n  compression only (a carrier above IIP3 − 9.6 dB overloads it); no front-end selectivity assumed.\n"
-            ));
-        }
-    }
-    out.push_str("In the channel at the receiver: source + path (free-space loss to the receiver) + chan (10·log10 of the product's\n  share of the channel: Gaussian spectra by emission class, widths |k|·B added root-sum-square; AM broadcast and\n  unmodulated carriers as lines); rel dB = that level less the first candidate's.\n");
-    if let Some(floor) = path_floor_text(shown) {
+    if let Some(floor) = path_floor_text(shown).filter(|_| with_path) {
         out.push_str(&floor);
         out.push('\n');
     }
     if l.ranking.calibrated {
         out.push_str(&format!(
-            "Calibrated to the level heard: needs = the junction's third-order product at two +43 dBm tones, dBc (IEC 62037-1);\n  corroded hardware measures about −80 to −120 dBc: stronger than {:.0} dBc is unlikely, than {:.0} dBc implausible\n  (--unlikely-dbc, --max-im3-dbc); a level above the passive ceiling is implausible whatever the joint.\n  The first candidate would be heard at {}.\n",
-            m.unlikely_im3_dbc,
-            m.max_im3_dbc,
+            "The first candidate would be heard at {}.\n",
             calibrated_first_dbm(l.ranking)
                 .map(|v| format!("{v:.1} dBm"))
                 .unwrap_or_else(|| "—".into())
         ));
-    } else {
-        out.push_str("Levels are relative: a real junction may differ by tens of dB; give --heard-dbm to calibrate.\n");
     }
-    for (mech, missing) in &l.ranking.unmodelled {
+    out
+}
+
+/// The mechanisms the ranking could not level for want of data, one line each.
+fn unmodelled_text(ranking: &Ranking) -> String {
+    let mut out = String::new();
+    for (mech, missing) in &ranking.unmodelled {
         if *mech == Mechanism::Receiver && *missing == Missing::Iip3 {
             out.push_str("Products made in the receiver are not levelled: give --rx-iip3-dbm (or run the attenuator test).\n");
         }
@@ -720,61 +837,131 @@ fn model_legend(
     out
 }
 
-/// The ranked candidates as a Markdown table.
-pub fn markdown_text(l: &Listing, limit: usize) -> String {
-    let carriers = carriers(l.emitters);
-    let mut out = if l.ranking.by_evidence {
-        String::from(
-            "| # | product | made in | order | at MHz | offset kHz | width kHz | rel dB | support | contradictions | heard off | unknown | emitters |\n|---:|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|\n",
-        )
-    } else {
-        String::from(
-            "| # | product | made in | order | at MHz | offset kHz | width kHz | rel dB | emitters |\n|---:|---|---|---:|---:|---:|---:|---:|---|\n",
-        )
-    };
-    for c in l.ranking.candidates.iter().take(limit) {
-        let who: Vec<String> = display_terms(&c.product, l.emitters)
-            .iter()
-            .map(|t| {
-                let e = &l.emitters[t.emitter];
-                match (&e.kind, &e.owner) {
-                    (Some(k), Some(o)) => format!("{} ({k}, {o})", e.id),
-                    (Some(k), None) => format!("{} ({k})", e.id),
-                    (None, Some(o)) => format!("{} ({o})", e.id),
-                    (None, None) => e.id.clone(),
-                }
-            })
-            .collect();
-        let evidence = match (&c.evidence, l.ranking.by_evidence) {
-            (Some(e), true) => format!("{} | ", evidence_cells(e).join(" | ")),
-            (None, true) => "— | — | — | — | ".to_string(),
-            _ => String::new(),
-        };
+/// The level model's terms behind the level columns, for the `mechanisms` shown (every
+/// mechanism when `None`), so that each row's arithmetic can be checked; shared by all
+/// the listings of a study.
+pub fn model_text(m: &LevelModel, mechanisms: Option<&[Mechanism]>, calibrated: bool) -> String {
+    let has = |x: Mechanism| mechanisms.is_none_or(|ms| ms.contains(&x));
+    let mut out = String::new();
+    if has(Mechanism::Junction) {
         out.push_str(&format!(
-            "| {} | {} | {} | {} | {:.4} | {} | {:.1} | {} | {evidence}{} |\n",
-            c.rank,
-            md_inline(&formula(&c.product, l.emitters)),
-            md_inline(&made_in(c, l.emitters)),
-            c.product.order(),
-            c.product.freq.mhz(),
-            signed(c.product.offset(l.params.target).khz(), 1),
-            c.product.bandwidth(&carriers).khz(),
-            relative_text(c),
-            md_inline(&who.join("; ")),
+            "junction: a joint of {:.0} dBc at two +43 dBm tones (IEC 62037-1; --junction-dbc); law = L3 + form + drive + order, L3 = {:.1} dBm; form = 20·log10 of the product's multinomial coefficient over the two-tone one; drive = Σ α·|k|·(P − 43 dBm), α = {:.2}; order = −{:.1} dB per order above the third, −{:.1} dB more for even orders; the law bends to the passive ceiling, the weakest drive less 20·log10(order) (Page 1958).\n",
+            m.im3_dbc(), m.im3_dbm, m.drive_exponent, m.order_step_db, m.even_order_penalty_db
         ));
     }
-    let shown: Vec<&Candidate> = l.ranking.candidates.iter().take(limit).collect();
-    if let Some(floor) = path_floor_text(&shown) {
-        out.push('\n');
-        out.push_str(&crate::document::md_text(&floor));
-        out.push('\n');
+    if has(Mechanism::Transmitter) {
+        out.push_str("harmonic: source = the transmitter's EIRP at the ITU-R SM.329 category A spurious limit of its service (an upper figure).\n");
+    }
+    if has(Mechanism::TransmitterIm) {
+        out.push_str(&format!(
+            "output stage: source = the other emitter's ERP − isolation between the antennas (free space, at least {:.0} dB) − {:.0} dB conversion loss + 2.15 dB (EIRP), less {:.0} dB for the carrier and again for the product outside the transmitter's band (±10 %). An upper figure: no isolator or filter is assumed at either end.\n",
+            m.min_antenna_isolation_db, m.tx_conversion_loss_db, m.tx_out_of_band_rejection_db
+        ));
+    }
+    if has(Mechanism::Receiver) {
+        if let Some(iip3) = m.rx_iip3_dbm {
+            out.push_str(&format!(
+                "receiver: source = Σ|k|·(carrier at its input) − 2·IIP3 + form, IIP3 = {iip3:.1} dBm (--rx-iip3-dbm), below compression only (a carrier above IIP3 − 9.6 dB overloads it); no front-end selectivity assumed.\n"
+            ));
+        }
+    }
+    out.push_str("In the channel at the receiver: source + path (free-space loss to the receiver, a negative gain) + chan (10·log10 of the product's share of the channel: Gaussian spectra by emission class, widths |k|·B added root-sum-square; AM broadcast and unmodulated carriers as lines); rel dB = that level less the first candidate's.\n");
+    if calibrated {
+        out.push_str(&format!(
+            "Calibrated to the level heard: needs = the junction's third-order product at two +43 dBm tones, dBc (IEC 62037-1); corroded hardware measures about −80 to −120 dBc: stronger than {:.0} dBc is unlikely, than {:.0} dBc implausible (--unlikely-dbc, --max-im3-dbc); a level above the passive ceiling is implausible whatever the joint.\n",
+            m.unlikely_im3_dbc, m.max_im3_dbc,
+        ));
+    } else {
+        out.push_str("Levels are relative: a real junction may differ by tens of dB; give --heard-dbm to calibrate.\n");
+    }
+    out
+}
+
+/// The ranked candidates as a Markdown table with every column of the wide terminal
+/// table and the emitters' kinds and owners, then the same notes and explanation as the
+/// table (the notes as preformatted text, their columns aligned).
+pub fn markdown_text(l: &Listing, limit: usize, layout: Layout) -> String {
+    let cols = columns(l, limit, true);
+    if cols.rows.is_empty() {
+        let text = outlook_text(l.ranking)
+            .unwrap_or_else(|| "No product of these emitters lands in the channel.".to_string());
+        return format!("{}\n", crate::document::md_text(&text));
+    }
+    let mut headers: Vec<String> = cols.headers.iter().map(|(h, _)| h.to_string()).collect();
+    headers.push("emitters".into());
+    let mut right: Vec<bool> = cols
+        .headers
+        .iter()
+        .map(|(_, a)| *a == Align::Right)
+        .collect();
+    right.push(false);
+    let rows: Vec<Vec<String>> = cols
+        .rows
+        .into_iter()
+        .zip(&cols.shown)
+        .map(|(mut row, c)| {
+            row.push(emitters_text(c, l.emitters));
+            row
+        })
+        .collect();
+    let mut out = crate::document::markdown(&[crate::document::Block::Table {
+        headers,
+        right,
+        rows,
+    }]);
+    let mut notes = String::new();
+    if l.ranking.by_evidence && layout.legend {
+        notes.push_str(EVIDENCE_LEGEND);
+    }
+    if l.ranking.junction.is_some() {
+        notes.push_str(&listing_notes(l, &cols.used, &cols.shown, true));
+        if layout.legend {
+            notes.push_str(&model_text(
+                &l.ranking.model,
+                Some(&cols.mechanisms),
+                l.ranking.calibrated,
+            ));
+            notes.push_str(&unmodelled_text(l.ranking));
+        }
+    }
+    if !notes.is_empty() {
+        out.push_str(&preformatted(&notes));
     }
     if let Some(s) = outlook_text(l.ranking) {
-        out.push('\n');
-        out.push_str(&s);
+        out.push_str(&crate::document::md_text(&s));
         out.push('\n');
     }
     out
+}
+
+/// Text as a CommonMark fenced block of plain text, fenced with more backticks than it
+/// holds in a row.
+pub fn preformatted(text: &str) -> String {
+    let mut longest = 0;
+    let mut run = 0;
+    for c in text.chars() {
+        run = if c == '`' { run + 1 } else { 0 };
+        longest = longest.max(run);
+    }
+    let fence = "`".repeat((longest + 1).max(3));
+    format!("{fence}text\n{}\n{fence}\n\n", text.trim_end())
+}
+
+/// The emitters of a candidate with their kinds and owners: `SKP-152 (paging, Skyline)`.
+fn emitters_text(c: &Candidate, emitters: &[Emitter]) -> String {
+    let who: Vec<String> = display_terms(&c.product, emitters)
+        .iter()
+        .map(|t| {
+            let e = &emitters[t.emitter];
+            match (&e.kind, &e.owner) {
+                (Some(k), Some(o)) => format!("{} ({k}, {o})", e.id),
+                (Some(k), None) => format!("{} ({k})", e.id),
+                (None, Some(o)) => format!("{} ({o})", e.id),
+                (None, None) => e.id.clone(),
+            }
+        })
+        .collect();
+    who.join("; ")
 }
 
 /// The header lines above a table listing.
@@ -793,7 +980,10 @@ pub fn channel_summary(
         params.max_emitters,
         if params.max_emitters == 1 { "" } else { "s" },
     );
-    s.push_str(&format!("{emitter_count} emitters from {source}; "));
+    s.push_str(&format!(
+        "{} from {source}; ",
+        count(emitter_count, "emitter", "emitters")
+    ));
     match junction {
         Some(j) => s.push_str(&format!(
             "junction assumed at {:.6}, {:.6}.\n",
@@ -887,7 +1077,7 @@ mod tests {
             ranking: &a.ranking,
             co_channel: &a.co_channel,
         };
-        let t = table_text(&l, 10);
+        let t = table_text(&l, 10, Layout::single(true));
         for want in [
             "made in",
             "rel dB",

@@ -55,28 +55,58 @@ pub fn md_text(text: &str) -> String {
 }
 
 /// Text made literal inside a line of CommonMark (a table cell, a heading, the middle of
-/// a paragraph): the characters that open emphasis, code spans, links and images, raw
-/// HTML and comments, entities and cells get a backslash; line breaks become spaces, so
-/// text never leaves its line or cell; control and invisible characters are shown
-/// escaped (`\x1b`), as on the terminal.
+/// a paragraph): a pair of backticks around text without a backtick or a bar becomes a
+/// code span, as the tool writes commands and options (`pim slope`), its content kept
+/// as it is (nothing inside a code span is markup); elsewhere the characters that open
+/// emphasis, code spans, links and images, raw HTML and comments, entities and cells get
+/// a backslash; line breaks become spaces, so text never leaves its line or cell; control
+/// and invisible characters are shown escaped (`\x1b`), as on the terminal.
 ///
 /// ```
 /// use pim_report::document::md_inline;
-/// assert_eq!(md_inline("a|b <b>*x*</b>\n`c`"), "a\\|b \\<b\\>\\*x\\*\\</b\\> \\`c\\`");
+/// assert_eq!(md_inline("a|b <b>*x*</b>\n`c`"), "a\\|b \\<b\\>\\*x\\*\\</b\\> `c`");
 /// assert_eq!(md_inline("146.3400"), "146.3400");
+/// assert_eq!(md_inline("run `pim slope --kind attenuator`"), "run `pim slope --kind attenuator`");
+/// assert_eq!(md_inline("a ` b"), "a \\` b");
+/// assert_eq!(md_inline("so the\n  loss"), "so the loss");
 /// ```
 pub fn md_inline(text: &str) -> String {
-    let flat: String = text
-        .chars()
-        .map(|c| if matches!(c, '\n' | '\r') { ' ' } else { c })
-        .collect();
+    // a line break and the indent around it become one space: no run of spaces in a
+    // sentence that was wrapped for the terminal
+    let flat = text
+        .split(['\n', '\r'])
+        .enumerate()
+        .filter(|(i, l)| *i == 0 || !l.trim().is_empty())
+        .map(|(i, l)| if i == 0 { l.trim_end() } else { l.trim() })
+        .collect::<Vec<_>>()
+        .join(" ");
     let shown = pim_io::text::terminal_escape(&flat, false);
+    let chars: Vec<char> = shown.chars().collect();
     let mut out = String::with_capacity(shown.len() + 8);
-    for c in shown.chars() {
+    let mut i = 0;
+    while i < chars.len() {
+        let c = chars[i];
+        if c == '`' {
+            if let Some(len) = chars[i + 1..].iter().position(|&d| d == '`') {
+                let content = &chars[i + 1..i + 1 + len];
+                let plain = !content.is_empty()
+                    && !content.contains(&'|')
+                    && content.first() != Some(&' ')
+                    && content.last() != Some(&' ');
+                if plain {
+                    out.push('`');
+                    out.extend(content);
+                    out.push('`');
+                    i += len + 2;
+                    continue;
+                }
+            }
+        }
         if "\\`*_[]<>|~&".contains(c) {
             out.push('\\');
         }
         out.push(c);
+        i += 1;
     }
     out
 }

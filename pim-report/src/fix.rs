@@ -98,8 +98,8 @@ struct OutlierJson {
 /// (no tree of values is built, so a long log costs no second copy).
 #[derive(serde::Serialize)]
 pub struct FixJson<'a> {
-    lat: f64,
-    lon: f64,
+    lat_deg: f64,
+    lon_deg: f64,
     method: pim_core::fix::Method,
     ellipse: EllipseJson,
     cep_m: f64,
@@ -129,8 +129,8 @@ pub struct FixJson<'a> {
 pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> {
     let e = &fix.ellipse;
     FixJson {
-        lat: fix.position.lat_deg,
-        lon: fix.position.lon_deg,
+        lat_deg: fix.position.lat_deg,
+        lon_deg: fix.position.lon_deg,
         method: fix.method,
         ellipse: EllipseJson {
             semi_major_m: e.semi_major_m,
@@ -206,11 +206,11 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
     s.push_str(&format!("  {}\n", accuracy_words(fix)));
     if let Some(o) = &fix.offset {
         s.push_str(&format!(
-            "  common bearing offset {:+.1}° ({:.0} %: {:+.1}° to {:+.1}°), allowed for in the fix\n",
-            o.offset_deg,
+            "  common bearing offset {}° ({:.0} %: {}° to {}°), allowed for in the fix\n",
+            pim_io::precision::signed(o.offset_deg, 1),
             o.confidence * 100.0,
-            o.low_deg,
-            o.high_deg
+            pim_io::precision::signed(o.low_deg, 1),
+            pim_io::precision::signed(o.high_deg, 1)
         ));
     }
     if !corrections.is_empty() {
@@ -243,7 +243,7 @@ pub fn readings_table(fix: &Fix) -> String {
         ("residual °", Align::Right),
         ("range m", Align::Right),
         ("weight", Align::Right),
-        ("", Align::Left),
+        ("status", Align::Left),
     ]);
     for r in &fix.readings {
         let mut flags = Vec::new();
@@ -255,11 +255,11 @@ pub fn readings_table(fix: &Fix) -> String {
         }
         t.push(vec![
             r.line.to_string(),
-            format!("{:.1}", r.bearing_deg),
-            format!("{:.1}", r.predicted_deg),
-            format!("{:+.1}", r.residual_deg),
-            format!("{:.0}", r.distance_m),
-            format!("{:.2}", r.weight),
+            pim_io::precision::fixed(r.bearing_deg, 1),
+            pim_io::precision::fixed(r.predicted_deg, 1),
+            pim_io::precision::signed(r.residual_deg, 1),
+            pim_io::precision::fixed(r.distance_m, 0),
+            pim_io::precision::fixed(r.weight, 2),
             flags.join(", "),
         ]);
     }

@@ -11,7 +11,7 @@ use pim_io::ListedChannel;
 use serde::Serialize;
 use serde_json::json;
 
-use crate::text_table::{Align, TextTable};
+use crate::text_table::{frequency_column, Align, TextTable, TERMINAL_WIDTH};
 
 /// A plan with what its answer names.
 pub struct PlanReport<'a> {
@@ -135,13 +135,17 @@ pub fn write_json(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {
         }),
         channels,
     };
-    serde_json::to_writer_pretty(&mut *out, &v).map_err(std::io::Error::from)?;
+    pim_io::precision::write_json(out, &v, true)?;
     writeln!(out)?;
     Ok(())
 }
 
 /// The plan as a text table with a few lines of explanation.
 pub fn write_table(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {
+    crate::text_table::write_wrapped(out, |body| table_body(body, r))
+}
+
+fn table_body(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {
     writeln!(
         out,
         "Channel plan: {} of {}.",
@@ -176,23 +180,42 @@ pub fn write_table(out: &mut dyn Write, r: &PlanReport) -> io::Result<()> {
         ("order", Align::Right),
     ]);
     let mut t = TextTable::new(&headers);
+    // each frequency column with one number of decimals, so that the points line up
+    let channels = frequency_column(
+        &r.chosen.iter().map(|c| Some(c.freq)).collect::<Vec<_>>(),
+        6,
+    );
+    let ats = frequency_column(
+        &r.closest
+            .iter()
+            .map(|n| n.as_ref().map(|n| n.product.freq))
+            .collect::<Vec<_>>(),
+        6,
+    );
+    let distances = frequency_column(
+        &r.closest
+            .iter()
+            .map(|n| n.as_ref().map(|n| n.distance))
+            .collect::<Vec<_>>(),
+        3,
+    );
     for (i, (c, near)) in r.chosen.iter().zip(&r.closest).enumerate() {
         let (f, at, d, o) = match near {
             Some(n) => (
                 formula(&n.product, &r.names),
-                n.product.freq.mhz_text(),
-                n.distance.khz_text(),
+                ats[i].clone(),
+                distances[i].clone(),
                 n.product.order().to_string(),
             ),
             None => ("—".into(), "—".into(), "—".into(), "—".into()),
         };
-        let mut row = vec![(i + 1).to_string(), c.freq.mhz_text()];
+        let mut row = vec![(i + 1).to_string(), channels[i].clone()];
         if with_ids {
             row.push(c.id.clone().unwrap_or_default());
         }
         row.extend([f, at, d, o]);
         t.push(row);
     }
-    write!(out, "{}", t.render())?;
+    write!(out, "{}", t.render_within(TERMINAL_WIDTH))?;
     Ok(())
 }

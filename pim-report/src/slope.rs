@@ -258,7 +258,7 @@ pub fn single_json(
         caveat: (!attenuator).then_some(SINGLE_EMITTER_CAVEAT),
         arrangement: (!attenuator).then_some(POWER_STEP_ARRANGEMENT),
     };
-    serde_json::to_string_pretty(&v)
+    pim_io::precision::json_text(&v, true)
 }
 
 /// One series' answer as text: the readings against the fitted line, the slope and its
@@ -476,7 +476,7 @@ pub fn power_steps_json(
         advice: power_steps_advice(p, carrier),
         arrangement: POWER_STEP_ARRANGEMENT,
     };
-    serde_json::to_string_pretty(&v)
+    pim_io::precision::json_text(&v, true)
 }
 
 /// The power steps of several emitters as text.

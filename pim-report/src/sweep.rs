@@ -10,10 +10,13 @@ use pim_core::trace::classify::{ExplainedPeak, Miss, PeakKind, Suspect};
 use pim_core::trace::{Sweep, Trace};
 use serde_json::json;
 
-use crate::candidates::{r2, table_text, write_json_array, Listing};
+use crate::candidates::{
+    count, markdown_text, model_text, table_text, write_json_array, Counts, Layout, Listing,
+};
 use crate::csv_out::write_row;
 use crate::document::md_inline;
 use crate::trace::{MarkKind, PeakMark, TraceInput};
+use pim_io::precision::{fixed, json_text};
 
 /// A sweep's results with what its outputs name.
 pub struct SweepReport<'a> {
@@ -35,25 +38,73 @@ pub struct SweepReport<'a> {
     pub shown: Option<usize>,
     /// Suspects shown in tables and Markdown.
     pub suspects: usize,
+    /// Every column of the candidates' tables (`--wide`).
+    pub wide: bool,
+}
+
+/// What a peak's search counted, as every output of the sweep counts it.
+pub fn peak_counts(p: &ExplainedPeak, shown: Option<usize>) -> Counts {
+    Counts {
+        found: p.found,
+        products: p.kept,
+        candidates: p.ranking.total,
+        shown: p.ranking.candidates.len().min(shown.unwrap_or(usize::MAX)),
+        complete: p.complete,
+    }
+}
+
+/// The candidates column of the peaks' table, Markdown and CSV: the candidates of a
+/// product peak, empty for the others.
+fn candidates_cell(p: &ExplainedPeak) -> String {
+    if p.kind == PeakKind::Product {
+        p.ranking.total.to_string()
+    } else {
+        String::new()
+    }
 }
 
 /// The text table: the trace line, the peaks, the suspects, each product peak's candidates.
 pub fn write_table(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
+    crate::text_table::write_wrapped(out, |body| table_body(body, r))
+}
+
+fn table_body(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
     write!(out, "{}", trace_line(r.trace, &r.sources, r.sweep))?;
     let (e, p, u) = counts(r.sweep);
     writeln!(
         out,
-        "{} peak{} at least {} dB above the floor and {} kHz apart: {e} emitter, {p} product, {u} unexplained ({} emitters from {}).\n",
-        r.sweep.peaks.len(),
-        if r.sweep.peaks.len() == 1 { "" } else { "s" },
+        "{} at least {} dB above the floor and {} kHz apart: {e} emitter, {p} product, {u} unexplained ({} from {}).\n",
+        count(r.sweep.peaks.len(), "peak", "peaks"),
         r.threshold_db,
         r.rx_bw.khz_text(),
-        r.emitters.len(),
+        count(r.emitters.len(), "emitter", "emitters"),
         r.emitters_source,
     )?;
     write!(out, "{}", peaks_table(r.sweep, r.emitters))?;
     writeln!(out)?;
     write!(out, "{}", suspects_text(r.sweep, r.emitters, r.suspects))?;
+    let shown = r.shown.unwrap_or(usize::MAX);
+    let model = each_product_peak(r, |head, listing| {
+        let layout = Layout {
+            wide: r.wide,
+            legend: false,
+        };
+        write!(out, "\n{head}\n{}", table_text(listing, shown, layout))
+    })?;
+    // the level model, said once for every peak
+    if let Some(m) = model {
+        writeln!(out, "\n{}", model_text(&m, None, false).trim_end())?;
+    }
+    Ok(())
+}
+
+/// Calls `each` with every product peak's heading (its counts) and listing, in the
+/// order of the peaks; returns the level model of the levelled ones.
+fn each_product_peak(
+    r: &SweepReport,
+    mut each: impl FnMut(&str, &Listing) -> io::Result<()>,
+) -> io::Result<Option<pim_core::level::LevelModel>> {
+    let mut model = None;
     for (i, p) in r.sweep.peaks.iter().enumerate() {
         if p.kind != PeakKind::Product {
             continue;
@@ -64,27 +115,46 @@ pub fn write_table(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
             ranking: &p.ranking,
             co_channel: &p.co_channel,
         };
-        writeln!(
-            out,
-            "\nPeak {} at {:.4} MHz: {} candidate{}; {}.",
+        let head = format!(
+            "Peak {} at {:.4} MHz: {}; {}.",
             i + 1,
             p.peak.freq.mhz(),
-            p.found,
-            if p.found == 1 { "" } else { "s" },
+            peak_counts(p, r.shown).text(),
             p.ranking.basis()
-        )?;
-        write!(
-            out,
-            "{}",
-            table_text(&listing, r.shown.unwrap_or(usize::MAX))
-        )?;
+        );
+        each(&head, &listing)?;
+        if p.ranking.junction.is_some() {
+            model = Some(p.ranking.model);
+        }
     }
-    Ok(())
+    Ok(model)
 }
 
 /// The peaks and the suspects as Markdown tables.
 pub fn write_markdown(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
-    out.write_all(markdown(r.sweep, r.emitters, r.suspects).as_bytes())
+    out.write_all(markdown(r.sweep, r.emitters, r.suspects).as_bytes())?;
+    // each product peak's candidates, as the table gives them
+    let shown = r.shown.unwrap_or(usize::MAX);
+    let model = each_product_peak(r, |head, listing| {
+        let layout = Layout {
+            wide: true,
+            legend: false,
+        };
+        write!(
+            out,
+            "\n{}\n\n{}",
+            crate::document::md_text(head),
+            markdown_text(listing, shown, layout)
+        )
+    })?;
+    if let Some(m) = model {
+        write!(
+            out,
+            "\n{}",
+            crate::candidates::preformatted(&model_text(&m, None, false))
+        )?;
+    }
+    Ok(())
 }
 
 /// One CSV row per peak, spreadsheet-safe.
@@ -111,9 +181,9 @@ pub fn write_csv(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
             [
                 (i + 1).to_string(),
                 p.peak.freq.mhz_text(),
-                format!("{:.2}", p.peak.level_dbm),
-                format!("{:.2}", p.peak.floor_dbm),
-                format!("{:.2}", p.peak.above_floor_db),
+                fixed(p.peak.level_dbm, 2),
+                fixed(p.peak.floor_dbm, 2),
+                fixed(p.peak.above_floor_db, 2),
                 p.kind.name().to_string(),
                 peak_emitters(p, r.emitters).join(";"),
                 first
@@ -121,9 +191,9 @@ pub fn write_csv(out: &mut dyn Write, r: &SweepReport) -> io::Result<()> {
                     .unwrap_or_default(),
                 first
                     .and_then(|c| c.level_dbm)
-                    .map(|v| format!("{v:.2}"))
+                    .map(|v| fixed(v, 2))
                     .unwrap_or_default(),
-                p.found.to_string(),
+                candidates_cell(p),
             ],
         )?;
     }
@@ -141,7 +211,7 @@ pub fn write_json(
     writeln!(
         out,
         "  \"inputs\": {},",
-        serde_json::to_string(inputs).map_err(std::io::Error::from)?
+        json_text(inputs, false).map_err(std::io::Error::from)?
     )?;
     let trace_json = json!({
         "start_mhz": r.trace.start.mhz(),
@@ -150,18 +220,18 @@ pub fn write_json(
         "points": r.trace.levels_dbm.len(),
         "sweeps": r.trace.sweeps,
     });
-    writeln!(out, "  \"trace\": {trace_json},")?;
     let floor_json = json!({
         "method": "running median",
         "window_points": r.sweep.floor.window_points,
         "window_khz": r.sweep.floor.window_points as f64 * r.trace.step_hz / 1e3,
-        "typical_dbm": r2(r.sweep.floor.typical_dbm()),
+        "typical_dbm": r.sweep.floor.typical_dbm(),
         "knots": r.sweep.floor.knots().map(|(i, l)| json!({
-            "freq_mhz": (r.trace.freq_hz_at(i) / 1e3).round() / 1e3,
-            "level_dbm": r2(l),
+            "freq_mhz": r.trace.freq_hz_at(i) / 1e6,
+            "level_dbm": l,
         })).collect::<Vec<_>>(),
     });
-    writeln!(out, "  \"floor\": {floor_json},")?;
+    writeln!(out, "  \"trace\": {},", json_text(&trace_json, false)?)?;
+    writeln!(out, "  \"floor\": {},", json_text(&floor_json, false)?)?;
     writeln!(
         out,
         "  \"min_separation_points\": {},",
@@ -169,16 +239,14 @@ pub fn write_json(
     )?;
     write!(out, "  \"peaks\": [")?;
     for (i, p) in r.sweep.peaks.iter().enumerate() {
-        let head = json!({
+        let mut head = json!({
             "freq_mhz": p.peak.freq.mhz(),
-            "level_dbm": r2(p.peak.level_dbm),
-            "floor_dbm": r2(p.peak.floor_dbm),
-            "above_floor_db": r2(p.peak.above_floor_db),
+            "level_dbm": p.peak.level_dbm,
+            "floor_dbm": p.peak.floor_dbm,
+            "above_floor_db": p.peak.above_floor_db,
             "kind": p.kind.name(),
             "emitters": peak_emitters(p, r.emitters),
             "ranking_basis": p.ranking.basis(),
-            "found": p.found,
-            "total": p.ranking.candidates.len(),
             "nearest": p.misses.iter().map(|(c, why)| json!({
                 "formula": formula(&c.product, r.emitters),
                 "mechanism": c.mechanism,
@@ -186,7 +254,10 @@ pub fn write_json(
                 "why": miss_name(*why),
             })).collect::<Vec<_>>(),
         });
-        let head = serde_json::to_string(&head).map_err(std::io::Error::from)?;
+        if let Some(m) = head.as_object_mut() {
+            m.extend(peak_counts(p, r.shown).json());
+        }
+        let head = json_text(&head, false).map_err(std::io::Error::from)?;
         // The head's closing brace is replaced by the candidates.
         let head = head.strip_suffix('}').unwrap_or(&head);
         write!(
@@ -225,7 +296,7 @@ pub fn write_json(
     writeln!(
         out,
         "  \"suspects\": {}",
-        serde_json::to_string(&suspects).map_err(std::io::Error::from)?
+        json_text(&suspects, false).map_err(std::io::Error::from)?
     )?;
     writeln!(out, "}}")?;
     Ok(())
@@ -365,22 +436,18 @@ fn peaks_table(sweep: &Sweep, emitters: &[Emitter]) -> String {
     for (i, p) in sweep.peaks.iter().enumerate() {
         t.push(vec![
             (i + 1).to_string(),
-            format!("{:.4}", p.peak.freq.mhz()),
-            format!("{:.1}", p.peak.level_dbm),
-            format!("{:.1}", p.peak.above_floor_db),
+            fixed(p.peak.freq.mhz(), 4),
+            fixed(p.peak.level_dbm, 1),
+            fixed(p.peak.above_floor_db, 1),
             p.kind.name().to_string(),
             peak_summary(p, emitters),
-            if p.kind == PeakKind::Product {
-                p.ranking.candidates.len().to_string()
-            } else {
-                String::new()
-            },
+            candidates_cell(p),
         ]);
     }
     if t.is_empty() {
         return "No peak stands above the threshold.\n".to_string();
     }
-    t.render()
+    t.render_within(crate::text_table::TERMINAL_WIDTH)
 }
 
 fn suspects_text(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
@@ -397,10 +464,10 @@ fn suspects_text(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
     );
     for (k, x) in sweep.suspects.iter().take(limit).enumerate() {
         s.push_str(&format!(
-            "  {}. {} — {} peaks: {}\n",
+            "  {}. {} — {}: {}\n",
             k + 1,
             suspect_ids(x, emitters).join(" + "),
-            x.explains.len(),
+            count(x.explains.len(), "peak", "peaks"),
             suspect_explains(x, sweep, emitters).join("; ")
         ));
     }
@@ -420,11 +487,7 @@ fn markdown(sweep: &Sweep, emitters: &[Emitter], limit: usize) -> String {
             p.peak.above_floor_db,
             p.kind.name(),
             md_inline(&peak_summary(p, emitters)),
-            if p.kind == PeakKind::Product {
-                p.found.to_string()
-            } else {
-                String::new()
-            }
+            candidates_cell(p)
         ));
     }
     out.push_str("\n| suspect | emitters | peaks | explains |\n|---:|---|---:|---|\n");

@@ -231,8 +231,9 @@ impl TicketFiles {
             ));
         }
         out.push_str(&format!(
-            "{} products land on {} MHz; first: {}.\n",
-            self.total,
+            "{} land{} on {} MHz; first: {}.\n",
+            crate::candidates::count(self.total, "product", "products"),
+            if self.total == 1 { "s" } else { "" },
             t.params.target.mhz_text(),
             self.top_formula.as_deref().unwrap_or("none")
         ));
@@ -445,7 +446,7 @@ fn build(
             made_in(c, t.site.emitters()),
             c.product.order().to_string(),
             format!("{:.4}", c.product.freq.mhz()),
-            format!("{:+.1}", c.product.offset(heard).khz()),
+            pim_io::precision::signed(c.product.offset(heard).khz(), 1),
             crate::candidates::relative_text(c),
         ];
         if calibrated {
@@ -1458,7 +1459,8 @@ pub fn ticket_files(t: &TicketInputs) -> Result<TicketFiles, Error> {
         structures: &t.structures,
         emitters: t.site.emitters(),
     };
-    let geojson = serde_json::to_string_pretty(&site_geojson(&t.fix, &items)).unwrap_or_default();
+    let geojson =
+        pim_io::precision::json_text(&site_geojson(&t.fix, &items), true).unwrap_or_default();
     let mut files: Vec<(&'static str, Vec<u8>)> = vec![
         ("ticket.md", markdown(&doc).into_bytes()),
         ("ticket.html", html(&title, &doc).into_bytes()),

@@ -6,6 +6,7 @@ use pim_core::geo::{distance_and_azimuth, GeoPoint};
 use pim_core::walk::{ScoredSpot, MIN_SPOT_RANGE_M};
 use pim_core::Error;
 use pim_io::fieldlog::LogRow;
+use pim_io::precision::{fixed, signed};
 use serde_json::{json, Value};
 
 use crate::text_table::{Align, TextTable};
@@ -25,12 +26,24 @@ pub fn spot_label(s: &ScoredSpot) -> String {
 const SPOT_COLUMNS: [&str; 8] = [
     "rank",
     "spot",
-    "lat",
-    "lon",
+    "lat_deg",
+    "lon_deg",
     "range_m",
     "antenna_points_deg",
     "ellipse_after_semi_major_m",
     "ellipse_after_semi_minor_m",
+];
+
+/// The spot listing's columns for people: the table's and the Markdown's, the last
+/// joining the two semi-axes.
+const SPOT_HEADERS: [(&str, Align); 7] = [
+    ("#", Align::Right),
+    ("spot", Align::Left),
+    ("lat", Align::Right),
+    ("lon", Align::Right),
+    ("range m", Align::Right),
+    ("antenna points °", Align::Right),
+    ("ellipse after m", Align::Right),
 ];
 
 fn spot_cells(rank: usize, s: &ScoredSpot) -> [String; 8] {
@@ -77,7 +90,11 @@ pub fn next_markdown(
     alternatives: &[ScoredSpot],
 ) -> String {
     let mut out = format!("{}\n", now_line(fix, sigma_deg));
-    out.push_str("| # | spot | lat | lon | range m | antenna points ° | ellipse after m |\n|---:|---|---:|---:|---:|---:|---|\n");
+    let headers: Vec<&str> = SPOT_HEADERS.iter().map(|(h, _)| *h).collect();
+    out.push_str(&format!(
+        "| {} |\n|---:|---|---:|---:|---:|---:|---|\n",
+        headers.join(" | ")
+    ));
     for (i, s) in std::iter::once(best).chain(alternatives).enumerate() {
         let c = spot_cells(i + 1, s);
         out.push_str(&format!(
@@ -99,8 +116,8 @@ pub fn next_markdown(
 pub fn spot_json(s: &ScoredSpot) -> serde_json::Value {
     json!({
         "name": s.spot.name,
-        "lat": s.spot.position.lat_deg,
-        "lon": s.spot.position.lon_deg,
+        "lat_deg": s.spot.position.lat_deg,
+        "lon_deg": s.spot.position.lon_deg,
         "distance_m": s.distance_m,
         "bearing_to_fix_deg": s.bearing_to_fix_deg,
         "expected_semi_major_m": s.expected.semi_major_m,
@@ -123,8 +140,8 @@ pub fn page_next_json(best: Option<&ScoredSpot>, from: Option<GeoPoint>) -> Valu
     });
     json!({
         "name": best.spot.name,
-        "lat": best.spot.position.lat_deg,
-        "lon": best.spot.position.lon_deg,
+        "lat_deg": best.spot.position.lat_deg,
+        "lon_deg": best.spot.position.lon_deg,
         "distance_from_fix_m": best.distance_m,
         "bearing_to_fix_deg": best.bearing_to_fix_deg,
         "expected_semi_major_m": best.expected.semi_major_m,
@@ -191,27 +208,21 @@ pub fn next_text(
         best.distance_m,
         best.bearing_to_fix_deg
     ));
-    let mut t = TextTable::new(&[
-        ("spot", Align::Left),
-        ("lat", Align::Right),
-        ("lon", Align::Right),
-        ("range m", Align::Right),
-        ("ellipse after m", Align::Right),
-    ]);
-    for s in std::iter::once(best).chain(alternatives) {
+    let mut t = TextTable::new(&SPOT_HEADERS);
+    for (i, s) in std::iter::once(best).chain(alternatives).enumerate() {
+        let c = spot_cells(i + 1, s);
         t.push(vec![
-            spot_label(s),
-            format!("{:.6}", s.spot.position.lat_deg),
-            format!("{:.6}", s.spot.position.lon_deg),
-            format!("{:.0}", s.distance_m),
-            format!(
-                "{:.0} × {:.0}",
-                s.expected.semi_major_m, s.expected.semi_minor_m
-            ),
+            c[0].clone(),
+            c[1].clone(),
+            c[2].clone(),
+            c[3].clone(),
+            c[4].clone(),
+            c[5].clone(),
+            format!("{} × {}", c[6], c[7]),
         ]);
     }
-    out.push_str(&t.render());
-    out
+    out.push_str(&t.render_within(crate::text_table::TERMINAL_WIDTH));
+    crate::text_table::wrap_lines(&out, crate::text_table::TERMINAL_WIDTH)
 }
 
 /// The running fix in one line, as `pim log` shows it after each change to the log.
@@ -229,23 +240,66 @@ pub fn running_fix_line(fix: &Fix) -> String {
 /// A robust weight below this marks a reading as down-weighted in the listing.
 const DOWN_WEIGHTED: f64 = 0.999;
 
-/// The columns of the readings listing, as CSV and Markdown name them.
-const LISTING_COLUMNS: [&str; 9] = [
+/// The columns of the readings listing as CSV names them (as the JSON does): the table's
+/// and the Markdown's in the same order, the logged bearing and its north apart.
+const LISTING_COLUMNS: [&str; 11] = [
     "line",
     "time",
-    "lat",
-    "lon",
+    "lat_deg",
+    "lon_deg",
     "bearing_deg",
+    "logged_bearing_deg",
+    "north",
     "residual_deg",
     "weight",
     "status",
     "note",
 ];
 
-/// Each row of the log as the listing shows it: line, time, position, bearing as logged,
-/// residual (degrees) and weight at the running fix, and its status: down-weighted,
-/// flagged as an outlier, taken reversed, or not used (a repeat of an earlier reading).
-fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
+fn north_name(north: pim_io::fieldlog::North) -> &'static str {
+    match north {
+        pim_io::fieldlog::North::True => "true",
+        pim_io::fieldlog::North::Magnetic => "magnetic",
+    }
+}
+
+/// The same columns for people: the table's and the Markdown's headers.
+const LISTING_HEADERS: [(&str, Align); 10] = [
+    ("line", Align::Right),
+    ("time", Align::Left),
+    ("lat", Align::Right),
+    ("lon", Align::Right),
+    ("true °", Align::Right),
+    ("as logged", Align::Right),
+    ("residual °", Align::Right),
+    ("weight", Align::Right),
+    ("status", Align::Left),
+    ("note", Align::Left),
+];
+
+/// A row's bearing from true north, as the fix used it before any reversal; the logged
+/// bearing where the row gives none used.
+fn true_bearing_deg(row: &LogRow, fit: Option<&pim_core::fix::ReadingFit>) -> f64 {
+    match fit {
+        Some(f) if f.flipped => (f.bearing_deg + 180.0).rem_euclid(360.0),
+        Some(f) => f.bearing_deg,
+        None => row.bearing_deg,
+    }
+}
+
+/// The bearing as logged when its north was not true (`246.9 magnetic`), else empty.
+fn logged_text(row: &LogRow) -> String {
+    match row.north {
+        pim_io::fieldlog::North::True => String::new(),
+        pim_io::fieldlog::North::Magnetic => format!("{:.1} mag", row.bearing_deg),
+    }
+}
+
+/// Each row of the log as the listing shows it: line, time, position, bearing from true
+/// north (with the logged bearing where it was magnetic), residual (degrees) and weight
+/// at the running fix, and its status: down-weighted, flagged as an outlier, taken
+/// reversed, or not used (a repeat of an earlier reading).
+fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 10]> {
     rows.iter()
         .map(|row| {
             let fit = fix.readings.iter().find(|r| r.line == row.line);
@@ -269,9 +323,10 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
                 row.time.map(pim_io::text::time_text).unwrap_or_default(),
                 position.map_or(String::new(), |p| format!("{:.6}", p.lat_deg)),
                 position.map_or(String::new(), |p| format!("{:.6}", p.lon_deg)),
-                format!("{:.1}", row.bearing_deg),
-                fit.map_or(String::new(), |f| format!("{:+.1}", f.residual_deg)),
-                fit.map_or(String::new(), |f| format!("{:.2}", f.weight)),
+                fixed(true_bearing_deg(row, fit), 1),
+                logged_text(row),
+                fit.map_or(String::new(), |f| signed(f.residual_deg, 1)),
+                fit.map_or(String::new(), |f| fixed(f.weight, 2)),
                 flags.join(", "),
                 row.note.clone().unwrap_or_default(),
             ]
@@ -280,36 +335,62 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
 }
 
 /// The log's readings with their residuals at the running fix, as a text table under the
-/// running fix's line.
-pub fn log_listing(fix: &Fix, rows: &[LogRow]) -> String {
-    let mut t = TextTable::new(&[
-        ("line", Align::Right),
-        ("time", Align::Left),
-        ("lat", Align::Right),
-        ("lon", Align::Right),
-        ("bearing °", Align::Right),
-        ("residual °", Align::Right),
-        ("weight", Align::Right),
-        ("", Align::Left),
-        ("note", Align::Left),
-    ]);
+/// running fix's line, its text columns wrapped to the terminal's width; the time is left
+/// out unless `wide`.
+pub fn log_listing(fix: &Fix, rows: &[LogRow], wide: bool) -> String {
+    let keep = |i: usize| wide || i != 1;
+    let headers: Vec<(&str, Align)> = (0..LISTING_HEADERS.len())
+        .filter(|&i| keep(i))
+        .map(|i| LISTING_HEADERS[i])
+        .collect();
+    let mut t = TextTable::new(&headers);
     for cells in listing_cells(fix, rows) {
-        t.push(cells.to_vec());
+        t.push(
+            cells
+                .into_iter()
+                .enumerate()
+                .filter(|(i, _)| keep(*i))
+                .map(|(_, c)| c)
+                .collect(),
+        );
     }
-    format!("{}{}", running_fix_line(fix), t.render())
+    let width = crate::text_table::TERMINAL_WIDTH;
+    let mut out = crate::text_table::wrap_lines(&running_fix_line(fix), width);
+    out.push_str(&if wide {
+        t.render()
+    } else {
+        t.render_within(width)
+    });
+    if rows
+        .iter()
+        .any(|r| r.north == pim_io::fieldlog::North::Magnetic)
+    {
+        out.push_str("true °: the bearing from true north the fix uses; as logged: a bearing logged from magnetic\n  north (mag), turned to true by the declination (WMM2025).\n");
+    }
+    if !wide {
+        out.push_str("Not shown: the time; --wide shows it.\n");
+    }
+    out
 }
 
 /// The listing as Markdown: the running fix's line, then a table.
 pub fn log_listing_markdown(fix: &Fix, rows: &[LogRow]) -> String {
-    let mut out = format!(
-        "{}\n| line | time | lat | lon | bearing ° | residual ° | weight | status | note |\n|---:|---|---:|---:|---:|---:|---:|---|---|\n",
-        running_fix_line(fix)
-    );
-    for c in listing_cells(fix, rows) {
-        let cells: Vec<String> = c.iter().map(|x| crate::document::md_inline(x)).collect();
-        out.push_str(&format!("| {} |\n", cells.join(" | ")));
-    }
-    out
+    let table = crate::document::Block::Table {
+        headers: LISTING_HEADERS.iter().map(|(h, _)| h.to_string()).collect(),
+        right: LISTING_HEADERS
+            .iter()
+            .map(|(_, a)| *a == Align::Right)
+            .collect(),
+        rows: listing_cells(fix, rows)
+            .into_iter()
+            .map(|c| c.to_vec())
+            .collect(),
+    };
+    format!(
+        "{}\n{}",
+        crate::document::md_text(running_fix_line(fix).trim_end()),
+        crate::document::markdown(&[table])
+    )
 }
 
 /// The listing as CSV (spreadsheet-safe), one row per reading.
@@ -319,8 +400,11 @@ pub fn log_listing_csv(
     rows: &[LogRow],
 ) -> std::io::Result<()> {
     crate::csv_out::write_row(out, LISTING_COLUMNS)?;
-    for c in listing_cells(fix, rows) {
-        crate::csv_out::write_row(out, c)?;
+    for (c, row) in listing_cells(fix, rows).into_iter().zip(rows) {
+        let mut cells = c.to_vec();
+        cells[5] = fixed(row.bearing_deg, 1);
+        cells.insert(6, north_name(row.north).to_string());
+        crate::csv_out::write_row(out, cells)?;
     }
     Ok(())
 }
@@ -336,12 +420,14 @@ pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
             json!({
                 "line": row.line,
                 "time": (!c[1].is_empty()).then(|| c[1].clone()),
-                "lat": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
-                "lon": fit.map(|f| f.observer.lon_deg).or(row.position.map(|p| p.lon_deg)),
-                "bearing_deg": row.bearing_deg,
+                "lat_deg": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
+                "lon_deg": fit.map(|f| f.observer.lon_deg).or(row.position.map(|p| p.lon_deg)),
+                "bearing_deg": true_bearing_deg(row, fit),
+                "logged_bearing_deg": row.bearing_deg,
+                "north": north_name(row.north),
                 "residual_deg": fit.map(|f| f.residual_deg),
                 "weight": fit.map(|f| f.weight),
-                "status": c[7],
+                "status": c[8],
                 "note": row.note,
             })
         })

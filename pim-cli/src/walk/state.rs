@@ -156,15 +156,15 @@ fn work_out(walk: &Walk, bytes: &[u8], v: &str) -> (Value, Option<Fix>) {
         }
     };
     let next = next_spot(walk, &fix, last_spot);
-    (
-        json!({
-            "rows": rows,
-            "version": v,
-            "fix": fix_json(&fix, &prepared.corrections),
-            "next": next,
-        }),
-        Some(fix),
-    )
+    let mut state = json!({
+        "rows": rows,
+        "version": v,
+        "fix": fix_json(&fix, &prepared.corrections),
+        "next": next,
+    });
+    // the numbers as every JSON of the tool writes them
+    pim_io::precision::round_json(&mut state);
+    (state, Some(fix))
 }
 
 /// The page's state: the fix of the log as it stands (without the map).

@@ -40,12 +40,12 @@ fn coefficient_keeps_only_matching_candidates() {
     // Five products; 2·SKP-152 − FIRE-DSP is also a candidate made in SKP-152's output
     // stage (transmitter intermodulation), so six candidates.
     let all = explain_json(&[]);
-    assert_eq!(all["total"], 6);
+    assert_eq!(all["candidates_total"], 6);
     let v = explain_json(&["--coefficient", "SKP-152=2"]);
-    assert_eq!(v["found"], 5);
+    assert_eq!(v["products_found"], 5);
     // 2·SKP-152 − FIRE-DSP (twice), 2·QK7MHR-R + 2·SKP-152 − UTIL-UHF,
     // 3·QFMR + HWY-BASE − 2·SKP-152
-    assert_eq!(v["total"], 4, "{:?}", formulas(&v));
+    assert_eq!(v["candidates_total"], 4, "{:?}", formulas(&v));
     for c in v["candidates"].as_array().unwrap() {
         let k = c["terms"]
             .as_array()
@@ -64,7 +64,7 @@ fn coefficient_keeps_only_matching_candidates() {
     // K = 0: candidates without the emitter.
     let v = explain_json(&["--coefficient", "QFMR=0"]);
     assert!(formulas(&v).iter().all(|f| !f.contains("QFMR")));
-    assert_eq!(v["total"], 4);
+    assert_eq!(v["candidates_total"], 4);
 }
 
 #[test]

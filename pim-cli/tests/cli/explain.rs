@@ -42,7 +42,7 @@ fn explains_the_demo_carrier_with_the_planted_pair_first() {
     assert_eq!(first["terms"][0]["coefficient"], 2);
     assert!(first["predicted_level_dbm"].is_f64());
     assert_eq!(
-        v["total"].as_u64().unwrap() as usize,
+        v["candidates_total"].as_u64().unwrap() as usize,
         v["candidates"].as_array().unwrap().len()
     );
     assert!(v["co_channel"].as_array().unwrap().is_empty());
@@ -83,7 +83,7 @@ fn formats_agree_and_limit_is_kept() {
         "--format",
         "markdown",
     ]);
-    assert!(stdout_of(&md).starts_with("| # | product |"));
+    assert!(stdout_of(&md).contains("\n| # | product |"));
     let table = pim(&["explain", "146340kHz", "--emitters", &tx]);
     let t = stdout_of(&table);
     assert!(t.contains("2·SKP-152 − FIRE-DSP"), "{t}");

@@ -404,7 +404,7 @@ fn log_takes_back_and_lists_readings() {
         assert_eq!(std::fs::read_to_string(&file).unwrap(), original);
     }
     let file = dir.join("walk.csv");
-    let o = pim(&["log", "--log", file.to_str().unwrap(), "--list"]);
+    let o = pim(&["log", "--log", file.to_str().unwrap(), "--list", "--wide"]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let shown = stdout_of(&o);
     // the demo walk: 7 of 8 readings carry the robust fix, the shed's reflection set aside
@@ -438,7 +438,7 @@ fn log_takes_back_and_lists_readings() {
     assert_eq!(v["readings"][4]["status"], "outlier");
     let csv = listed("csv");
     assert!(
-        csv.starts_with("line,time,lat,lon,bearing_deg,residual_deg,weight,status,note\n"),
+        csv.starts_with("line,time,lat_deg,lon_deg,bearing_deg,logged_bearing_deg,north,residual_deg,weight,status,note\n"),
         "{csv}"
     );
     assert_eq!(csv.lines().count(), 9, "{csv}");
@@ -552,7 +552,7 @@ fn files_take_positions_in_minutes_and_seconds() {
     };
     let a = json(&field_log("walk.csv"));
     let b = json(&file);
-    for k in ["lat", "lon"] {
+    for k in ["lat_deg", "lon_deg"] {
         let (x, y) = (a[k].as_f64().unwrap(), b[k].as_f64().unwrap());
         assert!((x - y).abs() < 1e-6, "{k}: {x} vs {y}\n{text}");
     }
@@ -681,7 +681,10 @@ fn the_running_fix_names_the_region_it_claims() {
     let o = pim(&["fix", "--log", &log, "--format", "json"]);
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
     assert_eq!(v["region_kind"], "likelihood", "{v}");
-    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
     let reach = v["region"]
         .as_array()
         .unwrap()

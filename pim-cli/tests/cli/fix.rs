@@ -20,7 +20,7 @@ fn json_follows_the_contract() {
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
-    for key in ["lat", "lon", "cep_m", "sigma_deg_used", "n_used"] {
+    for key in ["lat_deg", "lon_deg", "cep_m", "sigma_deg_used", "n_used"] {
         assert!(v[key].is_number(), "{key}");
     }
     assert_eq!(v["method"], "robust");
@@ -46,7 +46,10 @@ fn json_follows_the_contract() {
     assert_eq!(d[0]["source"], "WMM2025");
     assert!((d[0]["declination_deg"].as_f64().unwrap() - 14.3).abs() < 0.5);
     // the planted junction (45.104620, −122.414033) is inside the ellipse, a few metres off
-    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
     assert!((lat - 45.104620).abs() < 1e-4 && (lon + 122.414033).abs() < 1e-4);
 }
 
@@ -108,8 +111,8 @@ fn track_places_readings_without_positions() {
     assert!(placed.status.success(), "{}", stderr_of(&placed));
     let a: serde_json::Value = serde_json::from_str(&stdout_of(&with)).unwrap();
     let b: serde_json::Value = serde_json::from_str(&stdout_of(&placed)).unwrap();
-    assert!((a["lat"].as_f64().unwrap() - b["lat"].as_f64().unwrap()).abs() < 1e-6);
-    assert!((a["lon"].as_f64().unwrap() - b["lon"].as_f64().unwrap()).abs() < 1e-6);
+    assert!((a["lat_deg"].as_f64().unwrap() - b["lat_deg"].as_f64().unwrap()).abs() < 1e-6);
+    assert!((a["lon_deg"].as_f64().unwrap() - b["lon_deg"].as_f64().unwrap()).abs() < 1e-6);
 }
 
 /// GeoJSON read back with the geojson crate (RFC 7946): a Point fix, a closed Polygon

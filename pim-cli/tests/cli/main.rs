@@ -13,6 +13,7 @@ mod labels;
 mod licence;
 mod log_files;
 mod memory;
+mod one_truth;
 mod plan;
 mod ranking;
 mod recording;

@@ -70,7 +70,7 @@ fn the_first_k_stay_within_the_same_budget() {
     let out = explain_within("1", &tx, &["--limit", "20", "--format", "json"]);
     assert_eq!(out.status.code(), Some(0), "{}", stderr_of(&out));
     let json = stdout_of(&out);
-    assert!(json.contains("\"shown\": 20,"), "{json}");
+    assert!(json.contains("\"candidates_shown\": 20,"), "{json}");
 }
 
 #[test]

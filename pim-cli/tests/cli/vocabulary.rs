@@ -27,8 +27,8 @@ fn the_log_is_named_alike_and_fixed_alike() {
         assert!(o.status.success(), "{}", stderr_of(&o));
         let want = format!(
             "Running fix {:.6}, {:.6} ",
-            fix["lat"].as_f64().unwrap(),
-            fix["lon"].as_f64().unwrap()
+            fix["lat_deg"].as_f64().unwrap(),
+            fix["lon_deg"].as_f64().unwrap()
         );
         assert!(
             stdout_of(&o).starts_with(&want),
@@ -92,7 +92,7 @@ fn next_lists_in_every_format_and_names_every_spot() {
     let mut lines = csv.lines();
     assert_eq!(
         lines.next(),
-        Some("rank,spot,lat,lon,range_m,antenna_points_deg,ellipse_after_semi_major_m,ellipse_after_semi_minor_m")
+        Some("rank,spot,lat_deg,lon_deg,range_m,antenna_points_deg,ellipse_after_semi_major_m,ellipse_after_semi_minor_m")
     );
     assert!(
         lines.next().unwrap().starts_with(&format!("1,{best},")),

@@ -400,8 +400,8 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     };
     let (fix_walk, fix_copy) = (fix_of(&log), fix_of(&copy));
     assert_eq!(fix_walk, fix_copy);
-    let lat = fix_copy["lat"].as_f64().unwrap();
-    let lon = fix_copy["lon"].as_f64().unwrap();
+    let lat = fix_copy["lat_deg"].as_f64().unwrap();
+    let lon = fix_copy["lon_deg"].as_f64().unwrap();
     // the page prints the fix to 6 decimals from the state's rounded JSON; a value on a
     // rounding edge may print one unit of the last place apart (0.1 m)
     let (page_lat, page_lon) = page_fix.split_once(", ").unwrap();

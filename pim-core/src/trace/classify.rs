@@ -143,8 +143,14 @@ pub struct ExplainedPeak {
     /// The ranked candidates (empty unless kind `Product`), the best
     /// [`ExplainRule::keep_candidates`] of them.
     pub ranking: Ranking,
-    /// How many products the search found before any were left out.
+    /// How many products the search found landing in the channel before any were left
+    /// out.
     pub found: usize,
+    /// Of those, the products centred within the peak's resolution: the ones its
+    /// candidates are made of.
+    pub kept: usize,
+    /// Whether every product was counted (see [`crate::Explanation::complete`]).
+    pub complete: bool,
     /// For a peak left unexplained although products land on it: the nearest
     /// candidates (at most three) and why none explains it.
     pub misses: Vec<(Candidate, Miss)>,
@@ -178,8 +184,8 @@ pub fn explain_peak(
         };
         rank_candidates(Vec::new(), site.emitters(), &params, &inputs)
     };
-    let (kind, found, mut ranking, misses) = if !co.is_empty() {
-        (PeakKind::Emitter, 0, empty(), Vec::new())
+    let (kind, (found, kept, complete), mut ranking, misses) = if !co.is_empty() {
+        (PeakKind::Emitter, (0, 0, true), empty(), Vec::new())
     } else if let (Some(k), true) = (rule.keep_candidates, pruned) {
         let query = |limit: usize, centred: Option<Hz>| Query {
             params,
@@ -193,7 +199,7 @@ pub fn explain_peak(
         if !centred.ranking.candidates.is_empty() || k == 0 && centred.kept > 0 {
             (
                 PeakKind::Product,
-                centred.found,
+                (centred.found, centred.kept, centred.complete),
                 centred.ranking,
                 Vec::new(),
             )
@@ -206,7 +212,12 @@ pub fn explain_peak(
                 .iter()
                 .map(|c| (*c, Miss::OffCentre))
                 .collect();
-            (PeakKind::Unexplained, off.found, empty(), misses)
+            (
+                PeakKind::Unexplained,
+                (off.found, 0, off.complete),
+                empty(),
+                misses,
+            )
         }
     } else {
         whole_listing(site, rule, &params, reach)?
@@ -227,12 +238,20 @@ pub fn explain_peak(
         params,
         ranking,
         found,
+        kept,
+        complete,
         misses,
     })
 }
 
-/// A peak's kind, the products its search found, its ranking and its misses.
-type Decided = (PeakKind, usize, Ranking, Vec<(Candidate, Miss)>);
+/// A peak's kind, the products its search found, kept and whether all were counted, its
+/// ranking and its misses.
+type Decided = (
+    PeakKind,
+    (usize, usize, bool),
+    Ranking,
+    Vec<(Candidate, Miss)>,
+);
 
 /// A peak explained from the whole listing, held within the site's memory budget: its
 /// kind, the products found, the centred candidates ranked anew, and the misses.
@@ -263,13 +282,17 @@ fn whole_listing(
     };
     if found == 0 {
         let ranking = rank_candidates(products, site.emitters(), params, &inputs);
-        return Ok((PeakKind::Unexplained, 0, ranking, Vec::new()));
+        return Ok((PeakKind::Unexplained, (0, 0, true), ranking, Vec::new()));
     }
     let candidates =
         Ranker::lazy(site.emitters(), site.carriers(), params, &inputs).candidate_count(&products);
     if !site.fits(found, candidates) {
         return Err(site.over_budget(found));
     }
+    let kept = products
+        .iter()
+        .filter(|p| p.offset(params.target).0.abs() <= reach.0)
+        .count();
     let mut ranking = rank_candidates(products, site.emitters(), params, &inputs);
     // only products centred within the peak's resolution explain it
     let (centred, off): (Vec<Candidate>, Vec<Candidate>) = ranking
@@ -284,8 +307,9 @@ fn whole_listing(
         PeakKind::Product
     };
     ranking.candidates = centred;
+    ranking.total = ranking.candidates.len();
     ranking.renumber();
-    Ok((kind, found, ranking, misses))
+    Ok((kind, (found, kept, true), ranking, misses))
 }
 
 /// The level test of the module docs: a product peak whose first candidate of each
