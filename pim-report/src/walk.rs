@@ -221,7 +221,7 @@ pub fn running_fix_line(fix: &Fix) -> String {
         fix.position.lat_deg,
         fix.position.lon_deg,
         fix.n_used,
-        crate::fix::method_name(fix.method),
+        crate::fix::method_and_measurements(fix),
         crate::fix::region_claimed(fix),
     )
 }
@@ -249,9 +249,15 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
     rows.iter()
         .map(|row| {
             let fit = fix.readings.iter().find(|r| r.line == row.line);
-            let position = fit.map(|f| f.observer).or(row.position);
+            let level = fix.levels.iter().find(|l| l.line == row.line);
+            let position = fit
+                .map(|f| f.observer)
+                .or(level.map(|l| l.observer))
+                .or(row.position);
             let mut flags = Vec::new();
             match fit {
+                None if level.is_some() || (row.bearing_deg.is_none() && fix.levels.is_empty()) => {
+                }
                 None => flags.push("not used (a repeat)"),
                 Some(f) => {
                     if f.outlier {
@@ -264,12 +270,17 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 9]> {
                     }
                 }
             }
+            let level_words = level.map(crate::fix::level_status);
+            let mut flags: Vec<&str> = flags;
+            if let Some(w) = &level_words {
+                flags.push(w);
+            }
             [
                 row.line.to_string(),
                 row.time.map(pim_io::text::time_text).unwrap_or_default(),
                 position.map_or(String::new(), |p| format!("{:.6}", p.lat_deg)),
                 position.map_or(String::new(), |p| format!("{:.6}", p.lon_deg)),
-                format!("{:.1}", row.bearing_deg),
+                row.bearing_deg.map_or(String::new(), |b| format!("{b:.1}")),
                 fit.map_or(String::new(), |f| format!("{:+.1}", f.residual_deg)),
                 fit.map_or(String::new(), |f| format!("{:.2}", f.weight)),
                 flags.join(", "),
@@ -333,7 +344,7 @@ pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
         .zip(rows)
         .map(|(c, row)| {
             let fit = fix.readings.iter().find(|r| r.line == row.line);
-            json!({
+            let mut reading = json!({
                 "line": row.line,
                 "time": (!c[1].is_empty()).then(|| c[1].clone()),
                 "lat": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
@@ -343,7 +354,14 @@ pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
                 "weight": fit.map(|f| f.weight),
                 "status": c[7],
                 "note": row.note,
-            })
+            });
+            // a walk with levels: each row's level and its residual in dB
+            if !fix.levels.is_empty() {
+                let level = fix.levels.iter().find(|l| l.line == row.line);
+                reading["level_dbm"] = json!(row.level_dbm);
+                reading["level_residual_db"] = json!(level.map(|l| l.residual_db));
+            }
+            reading
         })
         .collect();
     json!({
