@@ -448,8 +448,8 @@ struct Solved {
     weights: Vec<f64>,
     sigma: Vec<f64>,
     near: Vec<bool>,
-    /// Degrees of freedom of the estimated scales (`None`: both known).
-    dof: Option<f64>,
+    /// Degrees of freedom of each kind's estimated scale (`None`: known).
+    kind_dof: (Option<f64>, Option<f64>),
     nu_at_bound: bool,
 }
 
@@ -672,12 +672,10 @@ fn fit_from(
             break;
         }
     }
-    let dof = match (known.0 || nb == 0, known.1 || rows.nl() == 0) {
-        (true, true) => None,
-        (false, true) => Some(dof_b),
-        (true, false) => Some(dof_l),
-        (false, false) => Some(dof_b + dof_l),
-    };
+    let kind_dof = (
+        (!known.0 && nb > 0).then_some(dof_b),
+        (!known.1 && rows.nl() > 0).then_some(dof_l),
+    );
     sigma = sigmas(rows, t.p, t.nu, s_b, s_l);
     let nu_at_bound = bound(t.nu);
     Some(Solved {
@@ -687,9 +685,100 @@ fn fit_from(
         weights,
         sigma,
         near,
-        dof,
+        kind_dof,
         nu_at_bound,
     })
+}
+
+/// Samples along each ray when a joint region is traced.
+const RAY_SAMPLES: usize = 60;
+
+/// The likelihood region's outline along each ray at its farthest crossing: the
+/// likelihood of levels bends (a crescent round the spots, a second lobe beyond them), so
+/// a ray may leave the region and enter it again; the outline at the last exit is the
+/// region's star-shaped hull about the fix, which holds all of it. Each ray is sampled at
+/// [`RAY_SAMPLES`] distances spaced geometrically from a centimetre to `reach_m` and the
+/// last exit refined by bisection. `Err((towards_deg, reach_m))` when a ray is still
+/// inside at `reach_m`.
+fn farthest_contour(
+    rise: &impl Fn(f64, f64) -> f64,
+    centre: (f64, f64),
+    threshold: f64,
+    dirs: &[(f64, f64)],
+    reach_m: f64,
+) -> std::result::Result<Vec<(f64, f64)>, (f64, f64)> {
+    let first = 0.01_f64;
+    let ratio = (reach_m / first).powf(1.0 / (RAY_SAMPLES - 1) as f64);
+    let mut ring = Vec::with_capacity(dirs.len());
+    for &dir in dirs {
+        let at = |t: f64| rise(centre.0 + t * dir.0, centre.1 + t * dir.1);
+        let mut last_inside = 0.0;
+        let mut next_outside = first;
+        let mut t = first;
+        for _ in 0..RAY_SAMPLES {
+            if at(t) < threshold {
+                last_inside = t;
+                next_outside = t * ratio;
+            }
+            t *= ratio;
+        }
+        if next_outside > reach_m * 1.0001 {
+            let towards = dir.0.atan2(dir.1).to_degrees().rem_euclid(360.0);
+            return Err((towards, reach_m));
+        }
+        let (mut lo, mut hi) = (last_inside, next_outside);
+        for _ in 0..40 {
+            if hi - lo <= 1e-4 * hi {
+                break;
+            }
+            let mid = 0.5 * (lo + hi);
+            if at(mid) < threshold {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        let r = 0.5 * (lo + hi);
+        ring.push((centre.0 + r * dir.0, centre.1 + r * dir.1));
+    }
+    Ok(ring)
+}
+
+/// The degrees of freedom of the position's variance when a kind's σ is estimated:
+/// Satterthwaite's (F. E. Satterthwaite, "An approximate distribution of estimates of
+/// variance components", Biometrics Bulletin 2 (1946) 110–114), each kind weighted by its
+/// share cₖ of the position's variance, the trace of the position block of
+/// I⁻¹IₖI⁻¹: ν = (Σcₖ)²/Σ(cₖ²/νₖ) over the kinds estimated. `None` when both are known.
+fn effective_dof(
+    a: &DMatrix<f64>,
+    nb: usize,
+    info: &DMatrix<f64>,
+    kind_dof: (Option<f64>, Option<f64>),
+) -> Option<f64> {
+    if kind_dof.0.is_none() && kind_dof.1.is_none() {
+        return None;
+    }
+    let Some(inv) = info.clone().try_inverse() else {
+        return kind_dof.0.or(kind_dof.1);
+    };
+    let share = |rows: std::ops::Range<usize>| -> f64 {
+        let part = a.rows(rows.start, rows.len());
+        let ik = part.transpose() * part;
+        let v = &inv * ik * &inv;
+        v[(0, 0)] + v[(1, 1)]
+    };
+    let c = [share(0..nb), share(nb..a.nrows())];
+    let total = c[0] + c[1];
+    let denominator: f64 = [kind_dof.0, kind_dof.1]
+        .iter()
+        .zip(c)
+        .filter_map(|(d, ck)| d.map(|d| ck * ck / d))
+        .sum();
+    if denominator > 0.0 {
+        Some(total * total / denominator)
+    } else {
+        kind_dof.0.or(kind_dof.1)
+    }
 }
 
 /// The robust objective Σρ(rᵢ/σᵢ) of a solution (for choosing between starts).
@@ -896,13 +985,14 @@ fn finish_joint(parts: JointParts) -> Result<Fix> {
     let active: Vec<bool> = (0..n).map(|i| i < nb || !solved.near[i - nb]).collect();
     let n_active = active.iter().filter(|a| **a).count();
     let cols = columns(rows, solved.nu_at_bound);
-    if n_active < cols.len() + usize::from(solved.dof.is_some()) {
+    let estimated = solved.kind_dof.0.is_some() || solved.kind_dof.1.is_some();
+    if n_active < cols.len() + usize::from(estimated)
+        || [solved.kind_dof.0, solved.kind_dof.1]
+            .iter()
+            .any(|d| d.is_some_and(|d| d < 1.0))
+    {
         return Err(FixRefusal::TooFewForScatter { n_used: n_active });
     }
-    let dof = match solved.dof {
-        Some(d) if d < 1.0 => return Err(FixRefusal::TooFewForScatter { n_used: n_active }),
-        d => d,
-    };
     // The covariance: for squared loss the Fisher information's inverse (the Cramér–Rao
     // bound at the fix); for the robust loss Huber's sandwich, with the model's moments
     // when σ is known and the residuals' when estimated (as for bearings).
@@ -919,6 +1009,7 @@ fn finish_joint(parts: JointParts) -> Result<Fix> {
         .map(|(u, a)| if *a { rho.psi_prime(*u) } else { 0.0 })
         .collect();
     let info = a.transpose() * &a;
+    let dof = effective_dof(&a, nb, &info, solved.kind_dof);
     let v_full = if dof.is_none() {
         let factor = rho.expected_psi_squared() / rho.expected_psi_prime().powi(2);
         info.clone().try_inverse().map(|m| m * factor)
@@ -1013,15 +1104,20 @@ fn finish_joint(parts: JointParts) -> Result<Fix> {
         let reach_m = (20.0 * farthest_m).max(50_000.0);
         let v_inv = super::inverse(cov).ok_or(FixRefusal::Degenerate)?;
         let dirs = region::directions(cov, region::CONTOUR_RAYS);
-        let ring = region::trace_contour(
-            rise,
-            t.p,
-            threshold,
-            &dirs,
-            |d| quad_radius(&v_inv, k2, d),
-            reach_m,
-        )
-        .map_err(|(towards_deg, reach_m)| FixRefusal::RegionUnbounded {
+        // levels alone bend the region round the spots: traced to each ray's last exit
+        let ring = if measurements == Measurements::Levels {
+            farthest_contour(&rise, t.p, threshold, &dirs, reach_m)
+        } else {
+            region::trace_contour(
+                rise,
+                t.p,
+                threshold,
+                &dirs,
+                |d| quad_radius(&v_inv, k2, d),
+                reach_m,
+            )
+        };
+        let ring = ring.map_err(|(towards_deg, reach_m)| FixRefusal::RegionUnbounded {
             confidence: options.confidence,
             towards_deg,
             reach_m,
