@@ -61,6 +61,14 @@ pub fn next_csv(
 
 /// The region now and the σ assumed of the next bearing, one line.
 fn now_line(fix: &Fix, sigma_deg: f64) -> String {
+    if let (true, Some(m)) = (fix.readings.is_empty(), &fix.level_model) {
+        return format!(
+            "Now: {} from {} levels; next level assumed σ {:.1} dB.\n",
+            crate::fix::region_claimed(fix),
+            fix.n_used,
+            m.sigma_db
+        );
+    }
     format!(
         "Now: {} from {} readings; next bearing assumed σ {:.1}°.\n",
         crate::fix::region_claimed(fix),

@@ -1286,14 +1286,13 @@ fn finish_joint(parts: JointParts) -> Result<Fix> {
         covariance_m2: cov,
         cep_m,
         sigma_deg_used: if nb > 0 {
-            match &rows.b_stated {
-                Some(v) => {
-                    (v.iter().map(|x| x * x).sum::<f64>() / v.len() as f64)
-                        .sqrt()
-                        .to_degrees()
-                        * solved.s_b
+            match options.sigma_deg {
+                Some(s) if known.0 => s,
+                _ if known.0 => {
+                    let v: Vec<f64> = bearings.iter().filter_map(|r| r.sigma_deg).collect();
+                    (v.iter().map(|x| x * x).sum::<f64>() / v.len() as f64).sqrt()
                 }
-                None => solved.s_b.to_degrees(),
+                _ => solved.s_b.to_degrees(),
             }
         } else {
             f64::NAN
@@ -1458,6 +1457,30 @@ mod tests {
         let m = fix.level_model.as_ref().unwrap();
         assert!((m.exponent - 2.5).abs() < 0.3, "{}", m.exponent);
         assert!((m.l0_dbm + 40.0).abs() < 2.0, "{}", m.l0_dbm);
+    }
+
+    #[test]
+    fn the_next_spot_is_scored_on_the_levels_information() {
+        // levels from one side only: the best next spot is on the other side
+        let spots: Vec<(f64, f64)> = (0..8)
+            .map(|i| (200.0 + 20.0 * i as f64, 6.0 + 4.0 * (i % 4) as f64))
+            .collect();
+        let levels = levels_at(&spots, -40.0, 2.0);
+        let options = LevelOptions {
+            exponent: Exponent::Given { value: 2.0 },
+            sigma_db: Some(1.0),
+            ..LevelOptions::default()
+        };
+        let fix = locate_with_levels(&[], &levels, &FixOptions::default(), &options).unwrap();
+        let ring = crate::walk::ring(fix.position, 15.0, 8);
+        let ranked = crate::walk::rank_spots(&fix, &ring, f64::NAN, 5.0).unwrap();
+        assert_eq!(ranked.len(), 8);
+        assert!(ranked.iter().all(|s| s.information_det.is_finite()));
+        let (_, az) = crate::geo::distance_and_azimuth(fix.position, ranked[0].spot.position);
+        assert!(
+            crate::geo::bearing_difference_deg(az, 270.0).abs() > 60.0,
+            "best spot at {az:.0}°"
+        );
     }
 
     #[test]
