@@ -108,7 +108,7 @@ pub struct FixArgs {
 
 fn level_sigma_arg(text: &str) -> Result<f64, String> {
     let v = pim_io::text::parse_quantity(text, "dB")?;
-    if v >= 0.1 && v <= 30.0 {
+    if (0.1..=30.0).contains(&v) {
         Ok(v)
     } else {
         Err(format!("level σ {text} dB must lie within 0.1–30 dB"))

@@ -56,7 +56,7 @@
 //! on range is what is left after L₀ and n have taken their share, which is why a walk at
 //! one distance from the junction learns nothing of range from its levels, and a walk
 //! whose distances differ learns much. With σ known and squared loss the covariance the
-//! fix reports is exactly this bound at the fix; Huber's loss costs E[ψ²]/E[ψ′]² (about
+//! fix reports is exactly this bound at the fix; Huber's loss costs E(ψ²)/E(ψ′)² (about
 //! 4 %) of it. `tests/tests/checks/level_coverage.rs` checks that the estimator's error
 //! reaches the bound within 10 % where the problem is well conditioned.
 //!
@@ -633,9 +633,7 @@ fn fit_from(
             .cholesky()
             .map(|c| c.solve(&grad))
             .or_else(|| normal.try_inverse().map(|i| i * &grad));
-        let Some(step) = step else {
-            return None;
-        };
+        let step = step?;
         let mut moved = 0.0;
         let mut gamma = 1.0;
         for _ in 0..12 {
