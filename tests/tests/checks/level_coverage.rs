@@ -45,7 +45,14 @@ fn walk(
     } else {
         Vec::new()
     };
-    let levels = spots
+    let levels = heard(rng, spots, nu);
+    (readings, levels, nu)
+}
+
+/// A level at each spot by the log-distance law with exponent `nu`, shadowed by
+/// `LEVEL_SIGMA_DB`.
+fn heard(rng: &mut Rng, spots: &[(f64, f64)], nu: f64) -> Vec<LevelReading> {
+    spots
         .iter()
         .enumerate()
         .map(|(i, &(az, range))| LevelReading {
@@ -55,8 +62,7 @@ fn walk(
             setup: None,
             position_accuracy_m: None,
         })
-        .collect();
-    (readings, levels, nu)
+        .collect()
 }
 
 /// Surveyed spots (the simulated observers stand where logged), the rest as the default.
@@ -277,17 +283,7 @@ fn the_joint_fix_reaches_the_cramer_rao_bound() {
             .map(|_| BEARING_SIGMA_DEG * rng.normal())
             .collect();
         let readings = pim_tests::simulated_walk(TRUTH, &spots, &errors, None);
-        let levels: Vec<LevelReading> = spots
-            .iter()
-            .enumerate()
-            .map(|(i, &(az, r))| LevelReading {
-                line: i as u64 + 2,
-                observer: destination(TRUTH, az, r),
-                level_dbm: L0_DBM - 10.0 * nu * r.log10() + LEVEL_SIGMA_DB * rng.normal(),
-                setup: None,
-                position_accuracy_m: None,
-            })
-            .collect();
+        let levels = heard(&mut rng, &spots, nu);
         let fix = locate_with_levels(&readings, &levels, &options, &level).unwrap();
         sum += miss_m(&fix).powi(2);
     }
