@@ -8,7 +8,9 @@ fuzz_target!(|data: &[u8]| {
     for from_track in [false, true] {
         if let Ok(log) = read_field_log("fuzz.csv", data, from_track) {
             for r in &log.rows {
-                assert!((0.0..=360.0).contains(&r.bearing_deg));
+                assert!(r.bearing_deg.is_none_or(|b| (0.0..=360.0).contains(&b)));
+                // a row carries a bearing, a level or both
+                assert!(r.bearing_deg.is_some() || r.level_dbm.is_some());
                 // positions in any notation end within range
                 assert!(r
                     .position
@@ -24,6 +26,12 @@ fuzz_target!(|data: &[u8]| {
             let today = time::Date::from_calendar_date(2026, time::Month::December, 1).unwrap();
             if let Ok(p) = prepare(&log, None, None, today) {
                 let _ = pim_core::fix::locate(&p.readings, &Default::default());
+                let _ = pim_core::fix::locate_with_levels(
+                    &p.readings,
+                    &p.levels,
+                    &Default::default(),
+                    &Default::default(),
+                );
             }
         }
     }

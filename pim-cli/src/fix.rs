@@ -3,7 +3,10 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use pim_core::fix::{locate, Fix, FixOptions, FixRefusal, Loss, Method, OffsetChoice};
+use pim_core::fix::{
+    locate_with_levels, Exponent, Fix, FixOptions, FixRefusal, LevelOptions, Loss, Method,
+    OffsetChoice,
+};
 use pim_io::export::{site_geojson, site_kml, SiteItems};
 use pim_io::fieldlog::{prepare, read_field_log, Prepared};
 use pim_io::track::read_track;
@@ -36,6 +39,17 @@ pub enum OffsetArg {
     Estimate,
     /// never
     None,
+}
+
+/// Which measurements of the log make the fix.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum UseArg {
+    /// the bearings only
+    Bearings,
+    /// the levels only (at least four spots, not on one line)
+    Levels,
+    /// bearings and levels in one likelihood
+    Both,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -75,6 +89,69 @@ pub struct FixArgs {
     /// Estimate a common offset on every bearing (antenna mounting, compass).
     #[arg(long, value_enum, default_value_t = OffsetArg::Auto)]
     pub offset: OffsetArg,
+    /// Which measurements make the fix (default: both when at least three rows have a
+    /// level_dbm, else bearings).
+    #[arg(long = "use", value_enum, value_name = "WHICH")]
+    pub use_: Option<UseArg>,
+    /// Standard deviation of every level in dB (shadowing and multipath; default:
+    /// estimated from the residuals).
+    #[arg(long, value_name = "DB", value_parser = level_sigma_arg, allow_hyphen_values = true)]
+    pub level_sigma_db: Option<f64>,
+    /// The receiver's saturation: a level at or above it is a lower bound.
+    #[arg(long, value_name = "DBM", value_parser = level_max_arg, allow_hyphen_values = true)]
+    pub level_max_dbm: Option<f64>,
+    /// Path-loss exponent: a number (2 in free space) fixes it, LOW..HIGH bounds its
+    /// estimate (default 2..4).
+    #[arg(long, value_name = "N", value_parser = exponent_arg)]
+    pub level_exponent: Option<Exponent>,
+}
+
+fn level_sigma_arg(text: &str) -> Result<f64, String> {
+    let v = pim_io::text::parse_quantity(text, "dB")?;
+    if (0.1..=30.0).contains(&v) {
+        Ok(v)
+    } else {
+        Err(format!("level σ {text} dB must lie within 0.1–30 dB"))
+    }
+}
+
+fn level_max_arg(text: &str) -> Result<f64, String> {
+    let v = pim_io::text::parse_quantity(text, "dBm")?;
+    if (-250.0..=100.0).contains(&v) {
+        Ok(v)
+    } else {
+        Err(format!("saturation {text} dBm is absurd"))
+    }
+}
+
+/// The physical range of a path-loss exponent: below 1.5 only a guided path (a corridor,
+/// a cable run), above 6 only a heavily obstructed one (Rappaport, *Wireless
+/// Communications*, Table 4.2).
+const EXPONENT_LIMITS: std::ops::RangeInclusive<f64> = 1.5..=6.0;
+
+fn exponent_arg(text: &str) -> Result<Exponent, String> {
+    let check = |t: &str| -> Result<f64, String> {
+        let v = finite_arg(t.trim())?;
+        if EXPONENT_LIMITS.contains(&v) {
+            Ok(v)
+        } else {
+            Err(format!(
+                "path-loss exponent {t} is outside {}–{} (2 in free space)",
+                EXPONENT_LIMITS.start(),
+                EXPONENT_LIMITS.end()
+            ))
+        }
+    };
+    match text.split_once("..") {
+        Some((low, high)) => {
+            let (low, high) = (check(low)?, check(high)?);
+            if low >= high {
+                return Err(format!("exponent range {text}: LOW must be below HIGH"));
+            }
+            Ok(Exponent::Within { low, high })
+        }
+        None => check(text).map(|value| Exponent::Given { value }),
+    }
 }
 
 fn accuracy_arg(text: &str) -> Result<f64, String> {
@@ -144,6 +221,10 @@ impl Default for FixArgs {
             ambiguous: false,
             position_accuracy_m: None,
             offset: OffsetArg::Auto,
+            use_: None,
+            level_sigma_db: None,
+            level_max_dbm: None,
+            level_exponent: None,
         }
     }
 }
@@ -171,11 +252,53 @@ impl FixArgs {
             },
         }
     }
+
+    /// How levels are used.
+    pub fn level_options(&self) -> LevelOptions {
+        LevelOptions {
+            exponent: self.level_exponent.unwrap_or_default(),
+            sigma_db: self.level_sigma_db,
+            max_dbm: self.level_max_dbm,
+            ..LevelOptions::default()
+        }
+    }
+
+    /// Which measurements of `prepared` make the fix: as asked, else both when at least
+    /// three rows have a level (levels alone when no row has a bearing).
+    pub fn measurements(&self, prepared: &Prepared) -> CliResult<UseArg> {
+        let levels = prepared.levels.len();
+        let chosen = match self.use_ {
+            Some(u) => u,
+            None if levels >= pim_core::fix::levels::LEVELS_FOR_DEFAULT && !self.ambiguous => {
+                if prepared.readings.is_empty() {
+                    UseArg::Levels
+                } else {
+                    UseArg::Both
+                }
+            }
+            None => UseArg::Bearings,
+        };
+        if chosen != UseArg::Bearings && levels == 0 {
+            return Err(pim_core::Error::argument(
+                "--use",
+                "the log has no level_dbm: give levels, or --use bearings",
+            )
+            .into());
+        }
+        if chosen != UseArg::Bearings && self.ambiguous {
+            return Err(pim_core::Error::argument(
+                "--ambiguous",
+                "front/back readings are resolved with bearings only: add --use bearings",
+            )
+            .into());
+        }
+        Ok(chosen)
+    }
 }
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
-    /// Field log: CSV with lat, lon, bearing_deg (and time, north, sigma_deg, accuracy_m, level_dbm, note).
+    /// Field log: CSV with lat, lon, bearing_deg and/or level_dbm (and time, north, sigma_deg, accuracy_m, setup, note).
     #[arg(long, value_name = "FILE")]
     pub log: PathBuf,
     #[command(flatten)]
@@ -214,7 +337,27 @@ pub fn fix_from_log(
     for note in &prepared.notes {
         eprintln_safe!("pim: note: {note}");
     }
-    let fix = locate(&prepared.readings, &args.options()).map_err(refusal_error)?;
+    let fix = match args.measurements(&prepared)? {
+        UseArg::Bearings => locate_with_levels(
+            &prepared.readings,
+            &[],
+            &args.options(),
+            &args.level_options(),
+        ),
+        UseArg::Levels => locate_with_levels(
+            &[],
+            &prepared.levels,
+            &args.options(),
+            &args.level_options(),
+        ),
+        UseArg::Both => locate_with_levels(
+            &prepared.readings,
+            &prepared.levels,
+            &args.options(),
+            &args.level_options(),
+        ),
+    }
+    .map_err(refusal_error)?;
     Ok((fix, prepared))
 }
 

@@ -1,4 +1,4 @@
-//! `pim log --log FILE`: add one bearing reading to a field log, safely, and show the
+//! `pim log --log FILE`: add one reading (a bearing, a level or both) to a field log, safely, and show the
 //! running fix; or take the last reading back (`--undo`), or list the readings with
 //! their residuals at the running fix (`--list`).
 
@@ -43,8 +43,9 @@ pub struct Args {
     /// Longitude of the spot, in the notations of --lat with E or W.
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub lon: Option<String>,
-    /// The bearing read on the antenna, degrees clockwise from north.
-    #[arg(long, value_name = "DEG", allow_hyphen_values = true, required_unless_present_any = ["undo", "list"])]
+    /// The bearing read on the antenna, degrees clockwise from north (may be left out
+    /// when --level-dbm is given: a level heard with no bearing).
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true, required_unless_present_any = ["undo", "list", "level_dbm"])]
     pub bearing_deg: Option<String>,
     /// Which north the bearing is from.
     #[arg(long, value_enum, default_value_t = NorthArg::True)]
@@ -53,7 +54,7 @@ pub struct Args {
     /// --sigma-deg overrides every reading's σ in the running fix, as in `pim fix`).
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub reading_sigma_deg: Option<String>,
-    /// Signal level seen, dBm.
+    /// Signal level heard, dBm (used for the fix with the bearings, or alone).
     #[arg(long, value_name = "DBM", allow_hyphen_values = true)]
     pub level_dbm: Option<String>,
     /// A note (where, what was seen).

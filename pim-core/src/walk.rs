@@ -6,13 +6,19 @@
 //! bearing with standard deviation σ (radians) from distance d adds uuᵀ/(σ²d²), u the
 //! unit vector across its line of bearing (Gavish & Weiss, IEEE Trans. AES 28 (1992)
 //! 817–828). The current fix stands in for the unknown junction.
+//!
+//! When levels took part in the fix, the next spot is scored on the joint information
+//! (`crate::fix::levels`): one more reading of each kind the walk logs (a level, and a
+//! bearing unless the walk is of levels alone) adds the rise in the position's
+//! information with the level parameters (L₀, the exponent) taken out, the Cramér–Rao
+//! bound's Schur complement with and without the new reading.
 
 use serde::Serialize;
 
 use crate::error::Result;
 use crate::fix::ellipse::{ellipse_from_covariance, scale_squared, Ellipse};
 use crate::fix::{Fix, SigmaSource};
-use crate::geo::{destination, distance_and_azimuth, GeoPoint};
+use crate::geo::{destination, distance_and_azimuth, GeoPoint, LocalFrame};
 
 /// A place a bearing could be taken from.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -76,6 +82,61 @@ pub fn bearing_information(from: GeoPoint, at: GeoPoint, sigma_deg: f64) -> [[f6
     ]
 }
 
+/// The position information one more reading at `from` adds to a fix made with levels:
+/// a level (and a bearing of σ `sigma_deg` when the walk has bearings), the level
+/// parameters' share taken out.
+fn joint_information_gain(fix: &Fix, from: GeoPoint, sigma_deg: f64) -> [[f64; 2]; 2] {
+    let Some(m) = &fix.level_model else {
+        return [[0.0; 2]; 2];
+    };
+    let frame = LocalFrame::new(fix.position);
+    let bearings: Vec<(f64, f64)> = fix
+        .readings
+        .iter()
+        .filter(|r| !r.outlier)
+        .map(|r| frame.to_local(r.observer))
+        .collect();
+    let levels: Vec<(f64, f64)> = fix
+        .levels
+        .iter()
+        .filter(|l| !l.near_field && !l.saturated && !l.outlier)
+        .map(|l| frame.to_local(l.observer))
+        .collect();
+    let spot = frame.to_local(from);
+    let free = m.exponent_source != crate::fix::levels::ExponentSource::Given;
+    let sigma_b = if sigma_deg.is_finite() && sigma_deg > 0.0 {
+        sigma_deg.to_radians()
+    } else {
+        fix.sigma_deg_used.to_radians()
+    };
+    let info = |b: &[(f64, f64)], l: &[(f64, f64)]| {
+        crate::fix::levels::position_information(
+            b,
+            l,
+            (0.0, 0.0),
+            sigma_b,
+            m.sigma_db,
+            m.exponent,
+            free,
+        )
+    };
+    let before = info(&bearings, &levels);
+    let mut more_levels = levels.clone();
+    more_levels.push(spot);
+    let mut more_bearings = bearings.clone();
+    if !bearings.is_empty() {
+        more_bearings.push(spot);
+    }
+    let after = info(&more_bearings, &more_levels);
+    let mut gain = [[0.0; 2]; 2];
+    for p in 0..2 {
+        for q in 0..2 {
+            gain[p][q] = after[p][q] - before[p][q];
+        }
+    }
+    gain
+}
+
 /// A spot closer to the fix than this gives unreliable bearings (the default of the
 /// walk's suggestions).
 pub const MIN_SPOT_RANGE_M: f64 = 25.0;
@@ -122,7 +183,10 @@ pub fn rank_spots(
         if d < min_range_m {
             continue;
         }
-        let add = bearing_information(spot.position, fix.position, sigma_deg);
+        let add = match &fix.level_model {
+            Some(_) => joint_information_gain(fix, spot.position, sigma_deg),
+            None => bearing_information(spot.position, fix.position, sigma_deg),
+        };
         let after = [
             [info[0][0] + add[0][0], info[0][1] + add[0][1]],
             [info[1][0] + add[1][0], info[1][1] + add[1][1]],

@@ -1,9 +1,12 @@
 //! The field log of a bearing walk: CSV with a header. Required columns `lat`, `lon`
-//! (WGS84 degrees) and `bearing_deg` (clockwise from north, 0–360 inclusive); optional
-//! `time` (ISO 8601; without an offset it is taken as UTC), `north` (`true` or
-//! `magnetic`, default true), `sigma_deg`, `accuracy_m` (the position's 95 % radius in
-//! metres, as the W3C Geolocation API reports it), `level_dbm`, `note`. A row may leave
-//! `lat` and `lon` empty when a GPS track is given to place it by its time.
+//! (WGS84 degrees) and `bearing_deg` (clockwise from north, 0–360 inclusive) or
+//! `level_dbm` (the level heard) or both; optional `time` (ISO 8601; without an offset it
+//! is taken as UTC), `north` (`true` or `magnetic`, default true), `sigma_deg`,
+//! `accuracy_m` (the position's 95 % radius in metres, as the W3C Geolocation API reports
+//! it), `setup` or `antenna` (the antenna and receiver settings the level was heard with:
+//! each setup has its own level at 1 m), `note`. A row may leave `lat` and `lon` empty
+//! when a GPS track is given to place it by its time, and leave `bearing_deg` empty when
+//! it has a level, or `level_dbm` when it has a bearing.
 
 use std::io::Read;
 use std::path::Path;
@@ -18,7 +21,7 @@ use crate::table::{no_rows, parse_finite, Fields, Table};
 use crate::track::Track;
 use pim_core::declination::{declination_deg, model_name};
 use pim_core::error::{Error, ErrorClass, Place, Result};
-use pim_core::fix::Reading;
+use pim_core::fix::{LevelReading, Reading};
 use pim_core::geo::{normalize_bearing_deg, GeoPoint};
 
 /// Columns the field-log reader understands.
@@ -31,6 +34,8 @@ pub const LOG_COLUMNS: &[&str] = &[
     "sigma_deg",
     "accuracy_m",
     "level_dbm",
+    "setup",
+    "antenna",
     "note",
 ];
 
@@ -60,13 +65,16 @@ pub enum North {
 pub struct LogRow {
     pub line: u64,
     pub position: Option<GeoPoint>,
-    pub bearing_deg: f64,
+    /// `None` on a row that logs a level only.
+    pub bearing_deg: Option<f64>,
     pub north: North,
     pub time: Option<OffsetDateTime>,
     pub sigma_deg: Option<f64>,
     /// The position's 95 % radius, metres.
     pub accuracy_m: Option<f64>,
     pub level_dbm: Option<f64>,
+    /// The `setup` (or `antenna`) column: levels of one setup share their level at 1 m.
+    pub setup: Option<String>,
     pub note: Option<String>,
 }
 
@@ -91,16 +99,25 @@ pub fn parse_time(text: &str) -> std::result::Result<OffsetDateTime, String> {
 /// same way before appending it).
 pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
     let place = |f: &str| record.place(f);
-    let bearing_text = record
-        .field("bearing_deg")
-        .ok_or_else(|| Error::input(place("bearing_deg"), "missing bearing"))?;
-    let bearing_deg = parse_finite(|| place("bearing_deg"), bearing_text)?;
-    if !(0.0..=360.0).contains(&bearing_deg) {
-        return Err(Error::input(
-            place("bearing_deg"),
-            format!("bearing {bearing_text} is outside 0–360°"),
-        ));
-    }
+    let bearing_deg = match record.field("bearing_deg") {
+        Some(bearing_text) => {
+            let b = parse_finite(|| place("bearing_deg"), bearing_text)?;
+            if !(0.0..=360.0).contains(&b) {
+                return Err(Error::input(
+                    place("bearing_deg"),
+                    format!("bearing {bearing_text} is outside 0–360°"),
+                ));
+            }
+            Some(b)
+        }
+        None if record.field("level_dbm").is_some() => None,
+        None => {
+            return Err(Error::input(
+                place("bearing_deg"),
+                "missing bearing (a row without one needs a level_dbm)",
+            ))
+        }
+    };
     let north = match record
         .field("north")
         .map(str::to_ascii_lowercase)
@@ -185,6 +202,19 @@ pub fn log_row(record: &dyn Fields, line: u64) -> Result<LogRow> {
         sigma_deg,
         accuracy_m,
         level_dbm,
+        setup: match ["setup", "antenna"]
+            .into_iter()
+            .find_map(|c| record.field(c).map(|v| (c, v)))
+        {
+            Some((column, text)) => {
+                if let Some(why) = crate::text::free_text_problem(text, crate::text::MAX_NOTE_BYTES)
+                {
+                    return Err(Error::input(place(column), format!("the {column} {why}")));
+                }
+                Some(text.to_string())
+            }
+            None => None,
+        },
         note: match record.field("note") {
             Some(note) => {
                 if let Some(why) = crate::text::free_text_problem(note, crate::text::MAX_NOTE_BYTES)
@@ -216,7 +246,9 @@ pub fn read_field_log<R: Read>(
         None => &bytes[..],
     };
     let mut table = Table::open(source, body)?;
-    table.require("bearing_deg")?;
+    if table.column("level_dbm").is_none() {
+        table.require("bearing_deg")?;
+    }
     if !positions_from_track {
         table.require("lat")?;
         table.require("lon")?;
@@ -425,6 +457,8 @@ pub struct Correction {
 #[derive(Clone, Debug, Default)]
 pub struct Prepared {
     pub readings: Vec<Reading>,
+    /// The rows' levels, placed like their bearings.
+    pub levels: Vec<LevelReading>,
     pub corrections: Vec<Correction>,
     pub notes: Vec<String>,
 }
@@ -455,7 +489,8 @@ pub fn prepare(
             row.position
                 .map(|p| (p.lat_deg.to_bits(), p.lon_deg.to_bits())),
             row.time.map(|t| t.unix_timestamp_nanos()),
-            row.bearing_deg.to_bits(),
+            row.bearing_deg.map(f64::to_bits),
+            row.level_dbm.map(f64::to_bits),
             row.north,
         );
         if let Some(first) = first_of.get(&key) {
@@ -489,7 +524,18 @@ pub fn prepare(
                 ))
             }
         };
-        let mut bearing = row.bearing_deg;
+        if let Some(level_dbm) = row.level_dbm {
+            out.levels.push(LevelReading {
+                line: row.line,
+                observer: position,
+                level_dbm,
+                setup: row.setup.clone(),
+                position_accuracy_m: row.accuracy_m,
+            });
+        }
+        let Some(mut bearing) = row.bearing_deg else {
+            continue;
+        };
         if row.north == North::Magnetic {
             let (d, source) = match declination {
                 Some(d) => (d, "given".to_string()),

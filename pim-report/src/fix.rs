@@ -35,6 +35,16 @@ pub fn region_claimed(fix: &Fix) -> String {
 /// The bearing σ the region rests on and where it came from, in words (no statistics:
 /// the laws behind the region are in the JSON and the README).
 pub fn sigma_words(fix: &Fix) -> String {
+    if let Some(words) = measurements_words(fix) {
+        if fix.readings.is_empty() {
+            return format!("fixed from {words}");
+        }
+        return format!("{}; fixed from {words}", bearing_sigma_words(fix));
+    }
+    bearing_sigma_words(fix)
+}
+
+fn bearing_sigma_words(fix: &Fix) -> String {
     match fix.sigma_source {
         SigmaSource::Given => format!("bearing σ {:.1}° as given", fix.sigma_deg_used),
         SigmaSource::Estimated => format!(
@@ -123,6 +133,15 @@ pub struct FixJson<'a> {
     outliers: Vec<OutlierJson>,
     declination: &'a [Correction],
     warnings: Vec<String>,
+    /// Which measurements made the fix.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    measurements: Option<pim_core::fix::Measurements>,
+    /// The level model (`exponent`, `l0_dbm`, `sigma_db`), when levels took part.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    level_model: Option<&'a pim_core::fix::LevelModel>,
+    /// Each level with its residual in dB, when levels took part.
+    #[serde(skip_serializing_if = "<[_]>::is_empty")]
+    level_residuals: &'a [pim_core::fix::LevelFit],
 }
 
 /// The fix as the JSON object of the contract.
@@ -166,7 +185,74 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
             .collect(),
         declination: corrections,
         warnings: fix.warnings.iter().map(|w| w.to_string()).collect(),
+        measurements: fix.measurements,
+        level_model: fix.level_model.as_ref(),
+        level_residuals: &fix.levels,
     }
+}
+
+/// The estimator's name, and the measurements it used when levels took part
+/// (`robust M-estimate on bearings and levels`).
+pub fn method_and_measurements(fix: &Fix) -> String {
+    use pim_core::fix::Measurements;
+    let name = method_name(fix.method);
+    match fix.measurements {
+        Some(Measurements::Levels) => format!("{name} on levels only"),
+        Some(Measurements::Both) => format!("{name} on bearings and levels"),
+        _ => name.to_string(),
+    }
+}
+
+/// A level reading's part in a listing's status: its residual in dB, or why it counted
+/// differently (set aside in the near field, a lower bound at saturation, an outlier).
+pub fn level_status(l: &pim_core::fix::LevelFit) -> String {
+    let mut s = format!(
+        "level {:.1} dBm, residual {:+.1} dB",
+        l.level_dbm, l.residual_db
+    );
+    if l.near_field {
+        s.push_str(" (near field: set aside)");
+    } else if l.saturated {
+        s.push_str(" (saturated: a lower bound)");
+    } else if l.outlier {
+        s.push_str(" (outlier)");
+    }
+    s
+}
+
+/// Which measurements made the fix, in words, with the level model when levels took part
+/// (`bearings and levels (exponent 2.4 estimated, L₀ −31.2 dBm at 1 m, level σ 3.8 dB
+/// estimated)`).
+pub fn measurements_words(fix: &Fix) -> Option<String> {
+    use pim_core::fix::levels::ExponentSource;
+    use pim_core::fix::Measurements;
+    let which = match fix.measurements? {
+        Measurements::Bearings => return None,
+        Measurements::Levels => "levels only",
+        Measurements::Both => "bearings and levels",
+    };
+    let m = fix.level_model.as_ref()?;
+    let setups = if m.setups.len() > 1 {
+        format!(" for the first of {} setups", m.setups.len())
+    } else {
+        String::new()
+    };
+    Some(format!(
+        "{which} (path-loss exponent {:.2} {}, L₀ {:.1} dBm at 1 m{setups}, level σ {:.1} dB {})",
+        m.exponent,
+        match m.exponent_source {
+            ExponentSource::Given => "as given",
+            ExponentSource::Estimated => "estimated",
+            ExponentSource::AtBound => "held at its range's end",
+        },
+        m.l0_dbm,
+        m.sigma_db,
+        if m.sigma_given {
+            "as given"
+        } else {
+            "estimated"
+        }
+    ))
 }
 
 /// A few lines that state the fix for people.
@@ -176,7 +262,7 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
         "Fix by {} from {} of {} readings in {source}\n  {:.6}, {:.6}\n",
         method_name(fix.method),
         fix.n_used,
-        fix.readings.len(),
+        fix.readings.len() + fix.levels.len(),
         fix.position.lat_deg,
         fix.position.lon_deg
     );
@@ -263,5 +349,43 @@ pub fn readings_table(fix: &Fix) -> String {
             flags.join(", "),
         ]);
     }
-    t.render()
+    if fix.levels.is_empty() {
+        return t.render();
+    }
+    let mut l = TextTable::new(&[
+        ("line", Align::Right),
+        ("level dBm", Align::Right),
+        ("model dBm", Align::Right),
+        ("residual dB", Align::Right),
+        ("range m", Align::Right),
+        ("weight", Align::Right),
+        ("setup", Align::Left),
+        ("", Align::Left),
+    ]);
+    for r in &fix.levels {
+        let mut flags = Vec::new();
+        if r.near_field {
+            flags.push("near field: set aside");
+        }
+        if r.saturated {
+            flags.push("saturated: a lower bound");
+        }
+        if r.outlier {
+            flags.push("outlier");
+        }
+        l.push(vec![
+            r.line.to_string(),
+            format!("{:.1}", r.level_dbm),
+            format!("{:.1}", r.predicted_dbm),
+            format!("{:+.1}", r.residual_db),
+            format!("{:.0}", r.distance_m),
+            format!("{:.2}", r.weight),
+            r.setup.clone().unwrap_or_default(),
+            flags.join(", "),
+        ]);
+    }
+    if fix.readings.is_empty() {
+        return l.render();
+    }
+    format!("{}\n{}", t.render(), l.render())
 }

@@ -590,7 +590,7 @@ fn build(
     // 3. Where
     doc.push(Block::Heading(2, "3. Where the junction is".into()));
     let mut where_points = vec![
-        format!("Fix: {:.6}, {:.6} (WGS84), by {} from {} of {} readings.", fix.position.lat_deg, fix.position.lon_deg, method_name(fix.method), fix.n_used, fix.readings.len()),
+        format!("Fix: {:.6}, {:.6} (WGS84), by {} from {} of {} readings.", fix.position.lat_deg, fix.position.lon_deg, method_name(fix.method), fix.n_used, fix.readings.len() + fix.levels.len()),
         format!(
             "{}; circular error probable {:.1} m.",
             crate::fix::region_claimed(fix), fix.cep_m

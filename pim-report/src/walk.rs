@@ -74,6 +74,14 @@ pub fn next_csv(
 
 /// The region now and the σ assumed of the next bearing, one line.
 fn now_line(fix: &Fix, sigma_deg: f64) -> String {
+    if let (true, Some(m)) = (fix.readings.is_empty(), &fix.level_model) {
+        return format!(
+            "Now: {} from {} levels; next level assumed σ {:.1} dB.\n",
+            crate::fix::region_claimed(fix),
+            fix.n_used,
+            m.sigma_db
+        );
+    }
     format!(
         "Now: {} from {} readings; next bearing assumed σ {:.1}°.\n",
         crate::fix::region_claimed(fix),
@@ -232,7 +240,7 @@ pub fn running_fix_line(fix: &Fix) -> String {
         fix.position.lat_deg,
         fix.position.lon_deg,
         fix.n_used,
-        crate::fix::method_name(fix.method),
+        crate::fix::method_and_measurements(fix),
         crate::fix::region_claimed(fix),
     )
 }
@@ -279,10 +287,10 @@ const LISTING_HEADERS: [(&str, Align); 10] = [
 
 /// A row's bearing from true north, as the fix used it before any reversal; the logged
 /// bearing where the row gives none used.
-fn true_bearing_deg(row: &LogRow, fit: Option<&pim_core::fix::ReadingFit>) -> f64 {
+fn true_bearing_deg(row: &LogRow, fit: Option<&pim_core::fix::ReadingFit>) -> Option<f64> {
     match fit {
-        Some(f) if f.flipped => (f.bearing_deg + 180.0).rem_euclid(360.0),
-        Some(f) => f.bearing_deg,
+        Some(f) if f.flipped => Some((f.bearing_deg + 180.0).rem_euclid(360.0)),
+        Some(f) => Some(f.bearing_deg),
         None => row.bearing_deg,
     }
 }
@@ -291,7 +299,9 @@ fn true_bearing_deg(row: &LogRow, fit: Option<&pim_core::fix::ReadingFit>) -> f6
 fn logged_text(row: &LogRow) -> String {
     match row.north {
         pim_io::fieldlog::North::True => String::new(),
-        pim_io::fieldlog::North::Magnetic => format!("{:.1} mag", row.bearing_deg),
+        pim_io::fieldlog::North::Magnetic => row
+            .bearing_deg
+            .map_or(String::new(), |b| format!("{b:.1} mag")),
     }
 }
 
@@ -303,9 +313,15 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 10]> {
     rows.iter()
         .map(|row| {
             let fit = fix.readings.iter().find(|r| r.line == row.line);
-            let position = fit.map(|f| f.observer).or(row.position);
+            let level = fix.levels.iter().find(|l| l.line == row.line);
+            let position = fit
+                .map(|f| f.observer)
+                .or(level.map(|l| l.observer))
+                .or(row.position);
             let mut flags = Vec::new();
             match fit {
+                None if level.is_some() || (row.bearing_deg.is_none() && fix.levels.is_empty()) => {
+                }
                 None => flags.push("not used (a repeat)"),
                 Some(f) => {
                     if f.outlier {
@@ -318,12 +334,17 @@ fn listing_cells(fix: &Fix, rows: &[LogRow]) -> Vec<[String; 10]> {
                     }
                 }
             }
+            let level_words = level.map(crate::fix::level_status);
+            let mut flags: Vec<&str> = flags;
+            if let Some(w) = &level_words {
+                flags.push(w);
+            }
             [
                 row.line.to_string(),
                 row.time.map(pim_io::text::time_text).unwrap_or_default(),
                 position.map_or(String::new(), |p| format!("{:.6}", p.lat_deg)),
                 position.map_or(String::new(), |p| format!("{:.6}", p.lon_deg)),
-                fixed(true_bearing_deg(row, fit), 1),
+                true_bearing_deg(row, fit).map_or(String::new(), |b| fixed(b, 1)),
                 logged_text(row),
                 fit.map_or(String::new(), |f| signed(f.residual_deg, 1)),
                 fit.map_or(String::new(), |f| fixed(f.weight, 2)),
@@ -402,7 +423,7 @@ pub fn log_listing_csv(
     crate::csv_out::write_row(out, LISTING_COLUMNS)?;
     for (c, row) in listing_cells(fix, rows).into_iter().zip(rows) {
         let mut cells = c.to_vec();
-        cells[5] = fixed(row.bearing_deg, 1);
+        cells[5] = row.bearing_deg.map_or(String::new(), |b| fixed(b, 1));
         cells.insert(6, north_name(row.north).to_string());
         crate::csv_out::write_row(out, cells)?;
     }
@@ -417,7 +438,7 @@ pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
         .zip(rows)
         .map(|(c, row)| {
             let fit = fix.readings.iter().find(|r| r.line == row.line);
-            json!({
+            let mut reading = json!({
                 "line": row.line,
                 "time": (!c[1].is_empty()).then(|| c[1].clone()),
                 "lat_deg": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
@@ -429,7 +450,14 @@ pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
                 "weight": fit.map(|f| f.weight),
                 "status": c[8],
                 "note": row.note,
-            })
+            });
+            // a walk with levels: each row's level and its residual in dB
+            if !fix.levels.is_empty() {
+                let level = fix.levels.iter().find(|l| l.line == row.line);
+                reading["level_dbm"] = json!(row.level_dbm);
+                reading["level_residual_db"] = json!(level.map(|l| l.residual_db));
+            }
+            reading
         })
         .collect();
     json!({

@@ -247,11 +247,14 @@ fn next_picks_the_spot_with_the_largest_information() {
         "json",
         "--sigma-deg",
         "4",
+        "--use",
+        "bearings",
     ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
 
-    // brute force, independently of pim-core's walk module
+    // brute force, independently of pim-core's walk module (the bearings' information:
+    // the demo walk's levels are left out with --use bearings)
     let log = read_field_log("walk", std::fs::File::open(&walk).unwrap(), false).unwrap();
     let prepared = prepare(&log, None, None, time::OffsetDateTime::now_utc().date()).unwrap();
     let fix = locate(
@@ -404,10 +407,18 @@ fn log_takes_back_and_lists_readings() {
         assert_eq!(std::fs::read_to_string(&file).unwrap(), original);
     }
     let file = dir.join("walk.csv");
-    let o = pim(&["log", "--log", file.to_str().unwrap(), "--list", "--wide"]);
+    let o = pim(&[
+        "log",
+        "--log",
+        file.to_str().unwrap(),
+        "--list",
+        "--wide",
+        "--use",
+        "bearings",
+    ]);
     assert!(o.status.success(), "{}", stderr_of(&o));
     let shown = stdout_of(&o);
-    // the demo walk: 7 of 8 readings carry the robust fix, the shed's reflection set aside
+    // the demo walk's bearings: 7 of 8 readings carry the robust fix, the shed's reflection set aside
     // by the leave-one-out rule (line 3 down-weighted against six that agree closely)
     assert!(
         shown.starts_with("Running fix 45.104660, -122.413943 from 7 readings (robust"),
@@ -426,6 +437,8 @@ fn log_takes_back_and_lists_readings() {
             "--log",
             file.to_str().unwrap(),
             "--list",
+            "--use",
+            "bearings",
             "--format",
             format,
         ]);
@@ -449,6 +462,8 @@ fn log_takes_back_and_lists_readings() {
         "--log",
         file.to_str().unwrap(),
         "--list",
+        "--use",
+        "bearings",
         "--method",
         "ml",
     ]);

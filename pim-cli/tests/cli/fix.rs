@@ -326,3 +326,105 @@ fn fix_exports_carry_the_site_when_given() {
         stderr_of(&o)
     );
 }
+
+/// A level at each of `spots` (azimuth from the demo's junction, range m) by the
+/// log-distance law with exponent 2.5 and L₀ −40 dBm, alternately 1 dB high and low.
+fn level_only_log(spots: &[(f64, f64)]) -> String {
+    let junction = pim_core::geo::GeoPoint::new(45.104620, -122.414033);
+    let mut text = String::from("lat,lon,level_dbm,setup\n");
+    for (i, &(az, d)) in spots.iter().enumerate() {
+        let o = pim_core::geo::destination(junction, az, d);
+        let level = -40.0 - 25.0 * d.log10() + if i % 2 == 0 { 1.0 } else { -1.0 };
+        text.push_str(&format!(
+            "{:.7},{:.7},{level:.1},probe 1\n",
+            o.lat_deg, o.lon_deg
+        ));
+    }
+    text
+}
+
+#[test]
+fn levels_alone_fix_or_say_no_fix() {
+    let dir = scratch();
+    let spots: Vec<(f64, f64)> = (0..10)
+        .map(|i| {
+            (
+                i as f64 * 36.0 + 11.0,
+                5.0 + 35.0 * ((i * 7) % 10) as f64 / 9.0,
+            )
+        })
+        .collect();
+    let log = dir.path().join("sniff.csv");
+    std::fs::write(&log, level_only_log(&spots)).unwrap();
+    let o = pim(&["fix", "--log", &p(log.clone()), "--format", "json"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["measurements"], "levels");
+    for key in ["exponent", "l0_dbm", "sigma_db"] {
+        assert!(v["level_model"][key].is_number(), "{key}");
+    }
+    assert_eq!(v["level_residuals"].as_array().unwrap().len(), 10);
+    assert!(v["level_residuals"][0]["residual_db"].is_number());
+    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    assert!((lat - 45.104620).abs() < 3e-5 && (lon + 122.414033).abs() < 4e-5);
+    // the table names the measurements and shows each level's residual in dB
+    let t = pim(&["fix", "--log", &p(log.clone())]);
+    assert!(t.status.success(), "{}", stderr_of(&t));
+    let text = stdout_of(&t);
+    assert!(
+        text.contains("levels only") && text.contains("residual dB"),
+        "{text}"
+    );
+    // three spots: no fix, a refusal (exit 5)
+    std::fs::write(&log, level_only_log(&spots[..3])).unwrap();
+    let o = pim(&["fix", "--log", &p(log.clone())]);
+    assert_eq!(o.status.code(), Some(5), "{}", stderr_of(&o));
+    assert!(
+        stderr_of(&o).contains("at least 4 spots"),
+        "{}",
+        stderr_of(&o)
+    );
+}
+
+/// A log with no levels gives exactly the bearings-only fix: the demo walk with its
+/// level column taken out, and the demo walk with `--use bearings`, give byte-identical
+/// JSON.
+#[test]
+fn without_levels_the_fix_is_the_bearing_fix() {
+    let dir = scratch();
+    let text = std::fs::read_to_string(field_log("walk.csv")).unwrap();
+    let stripped: String = text
+        .lines()
+        .map(|l| {
+            // level_dbm is the 7th cell; the note (quoted, without commas) follows it
+            let mut cells: Vec<&str> = l.splitn(8, ',').collect();
+            cells.remove(6);
+            cells.join(",") + "\n"
+        })
+        .collect();
+    let log = dir.path().join("walk.csv");
+    std::fs::write(&log, stripped).unwrap();
+    let a = pim(&["fix", "--log", &p(log.clone()), "--format", "json"]);
+    let b = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk.csv")),
+        "--use",
+        "bearings",
+        "--format",
+        "json",
+    ]);
+    assert!(
+        a.status.success() && b.status.success(),
+        "{}",
+        stderr_of(&a)
+    );
+    assert_eq!(stdout_of(&a), stdout_of(&b));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&a)).unwrap();
+    assert_eq!(v["measurements"], "bearings");
+    assert!(v.get("level_model").is_none());
+    // the log without levels cannot be asked for them
+    let o = pim(&["fix", "--log", &p(log), "--use", "levels"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+    assert!(stderr_of(&o).contains("--use"), "{}", stderr_of(&o));
+}

@@ -30,6 +30,7 @@
 
 pub mod ellipse;
 pub mod geometry;
+pub mod levels;
 pub mod loss;
 pub mod model;
 pub mod notice;
@@ -46,6 +47,9 @@ use statrs::distribution::{ChiSquared, ContinuousCDF, Normal, StudentsT};
 
 use crate::geo::{bearing_difference_deg, normalize_bearing_deg, GeoPoint, LocalFrame};
 pub use ellipse::Ellipse;
+pub use levels::{
+    locate_with_levels, Exponent, LevelFit, LevelModel, LevelOptions, LevelReading, Measurements,
+};
 use loss::Rho;
 use model::{BearingModel, Line};
 pub use notice::{FixRefusal, FixWarning};
@@ -296,6 +300,16 @@ pub struct Fix {
     /// The degrees of freedom of the bearing scatter the region rests on: the region is
     /// scaled by 2·F(2, ν) with `Some(ν)`, by χ²₂ with `None` (σ known).
     pub sigma_dof: Option<f64>,
+    /// Which measurements made the fix (`None` from [`locate`] itself, which takes
+    /// bearings only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub measurements: Option<Measurements>,
+    /// The level model found, when levels took part.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub level_model: Option<LevelModel>,
+    /// Each level reading with its residual in dB, when levels took part.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub levels: Vec<LevelFit>,
 }
 
 impl Fix {
@@ -1937,6 +1951,9 @@ fn finish(parts: FixParts) -> Result<Fix> {
             source: AccuracySource::Default,
             typical_m: variance::DEFAULT_POSITION_ACCURACY_M,
         },
+        measurements: None,
+        level_model: None,
+        levels: Vec::new(),
     })
 }
 

@@ -103,6 +103,31 @@ pub enum FixWarning {
         /// How much the region's axes were widened by.
         widened_by: f64,
     },
+    /// These levels were heard closer to the fix than the near field: set aside.
+    LevelsInNearField {
+        /// Their log lines.
+        lines: Vec<u64>,
+        /// The near field's reach, metres.
+        within_m: f64,
+    },
+    /// These levels reached the receiver's saturation: taken as lower bounds.
+    LevelsSaturated {
+        /// Their log lines.
+        lines: Vec<u64>,
+        /// The saturation level, dBm.
+        max_dbm: f64,
+    },
+    /// The path-loss exponent went to an end of its range and is held there.
+    ExponentAtBound {
+        /// The exponent held.
+        exponent: f64,
+        /// The range's low end.
+        low: f64,
+        /// The range's high end.
+        high: f64,
+    },
+    /// Every level was heard at one spot: they say nothing of the position.
+    LevelsFromOneSpot,
 }
 
 impl fmt::Display for FixWarning {
@@ -161,6 +186,24 @@ impl fmt::Display for FixWarning {
                     "the ellipse misses the likelihood contour {by}: the region given is the likelihood contour, not the ellipse"
                 )
             }
+            FixWarning::LevelsInNearField { lines: l, within_m } => write!(
+                f,
+                "{} heard within {within_m:.1} m of the fix, in the near field where the distance law does not hold: set aside",
+                lines(l)
+            ),
+            FixWarning::LevelsSaturated { lines: l, max_dbm } => write!(
+                f,
+                "{} at or above the receiver's saturation ({max_dbm:.1} dBm): taken as lower bounds, not values",
+                lines(l)
+            ),
+            FixWarning::ExponentAtBound { exponent, low, high } => write!(
+                f,
+                "the path-loss exponent went to {exponent:.1}, an end of its range {low:.1}–{high:.1}, and is held there: the levels may not follow the distance law (reflections, a changed attenuator)"
+            ),
+            FixWarning::LevelsFromOneSpot => write!(
+                f,
+                "every level was heard at one spot: the levels say nothing of the position"
+            ),
             FixWarning::OffsetNotObservable => write!(
                 f,
                 "no common offset estimated: the walk does not surround the junction, so an offset of every bearing cannot be told from the position"
@@ -244,6 +287,16 @@ pub enum FixRefusal {
         /// How far it was traced, metres.
         reach_m: f64,
     },
+    /// Levels alone, from too few spots (position, L₀ and the exponent need four).
+    TooFewLevelSpots {
+        /// The spots the levels were heard at.
+        spots: usize,
+        /// The spots needed.
+        needed: usize,
+    },
+    /// Levels alone, every spot on one straight line: the junction's side of it is not
+    /// known.
+    LevelsOnOneLine,
     /// The solver could not be set up.
     Solver {
         /// What the solver said.
@@ -302,6 +355,15 @@ impl fmt::Display for FixRefusal {
                 "the {:.0} % likelihood region is unbounded: it runs on beyond {:.0} km towards {towards_deg:.0}°, so the bearings fix no region; take bearings from spots well to the side",
                 confidence * 100.0,
                 reach_m / 1000.0
+            ),
+            FixRefusal::TooFewLevelSpots { spots, needed } => write!(
+                f,
+                "levels from {spots} spot{} fix no point: levels alone need at least {needed} spots, not on one line",
+                if *spots == 1 { "" } else { "s" }
+            ),
+            FixRefusal::LevelsOnOneLine => write!(
+                f,
+                "every level was heard on one straight line: they cannot tell which side of it the junction is; take levels off the line"
             ),
             FixRefusal::Solver { detail } => write!(f, "solver set-up: {detail}"),
         }

@@ -6,6 +6,7 @@ mod fix_checks;
 mod intermod_oracle;
 mod large_inputs;
 mod level_checks;
+mod level_coverage;
 mod plan_golomb;
 mod published_checks;
 mod recording_checks;
