@@ -409,7 +409,15 @@ pub fn run(args: Args) -> CliResult {
             writeln!(out)?;
             write!(out, "{}", readings_table(&fix))?;
             for w in &fix.warnings {
-                writeln!(out, "warning: {w}")?;
+                let line = format!("warning: {w}");
+                writeln!(
+                    out,
+                    "{}",
+                    pim_report::text_table::wrap_lines(
+                        &line,
+                        pim_report::text_table::TERMINAL_WIDTH
+                    )
+                )?;
             }
         }
         FixFormat::Json => {

@@ -288,7 +288,16 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
             ));
         }
     }
-    s.push_str(&format!("  {}\n", sigma_words(fix)));
+    // the bearing σ and the measurements on lines of their own, within the terminal
+    let sigma = format!(
+        "  {}",
+        sigma_words(fix).replace("; fixed from", "\n  fixed from")
+    );
+    s.push_str(&crate::text_table::wrap_lines(
+        &sigma,
+        crate::text_table::TERMINAL_WIDTH,
+    ));
+    s.push('\n');
     s.push_str(&format!("  {}\n", accuracy_words(fix)));
     if let Some(o) = &fix.offset {
         s.push_str(&format!(

@@ -365,7 +365,10 @@ fn levels_alone_fix_or_say_no_fix() {
     }
     assert_eq!(v["level_residuals"].as_array().unwrap().len(), 10);
     assert!(v["level_residuals"][0]["residual_db"].is_number());
-    let (lat, lon) = (v["lat"].as_f64().unwrap(), v["lon"].as_f64().unwrap());
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
     assert!((lat - 45.104620).abs() < 3e-5 && (lon + 122.414033).abs() < 4e-5);
     // the table names the measurements and shows each level's residual in dB
     let t = pim(&["fix", "--log", &p(log.clone())]);
