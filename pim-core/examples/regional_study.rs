@@ -1,13 +1,18 @@
 //! A regional study from the command line, for timing and peak memory
-//! (`/usr/bin/time -v`): `regional_study EMITTERS RECEIVERS THREADS [FROM]`, on the
-//! seeded regional licence list and receivers of the `regional` benchmark, from receiver
-//! FROM on (0 unless given). With `DIGEST` set in the environment it prints every
-//! receiver's candidates (product, mechanism, level), to compare two builds' answers.
+//! (`/usr/bin/time -v`): `regional_study EMITTERS RECEIVERS THREADS [FROM] [PLACE]`, on the
+//! seeded regional licence list of the `regional` benchmark, from receiver FROM on (0
+//! unless given). PLACE is `towers` (the default: receivers at towers on four channels),
+//! `anywhere` (receivers anywhere in the square on random land-mobile channels) or
+//! `outside:KM` (every receiver at a junction KM kilometres outside the square). With
+//! `DIGEST` set in the environment it prints every receiver's candidates (product,
+//! mechanism, level), to compare two builds' answers; with `TIMES` set, every receiver's
+//! time.
 
 #[path = "../benches/support/regional_list.rs"]
 mod regional_list;
 
 use pim_core::freq::Hz;
+use pim_core::geo::GeoPoint;
 use pim_core::{Query, Site};
 
 fn main() {
@@ -20,8 +25,24 @@ fn main() {
     let (n, count, threads) = (arg(1, 100_000), arg(2, 32), arg(3, 2));
     // only receiver FROM on, when given
     let from = arg(4, 0);
+    let place = std::env::args().nth(5).unwrap_or_else(|| "towers".into());
     let (emitters, towers) = regional_list::regional(n, 7);
     let site = Site::new(emitters);
+    let receivers: Vec<(GeoPoint, Hz)> = match place.as_str() {
+        "towers" => regional_list::receivers(&towers, from + count),
+        "anywhere" => regional_list::receivers_anywhere(from + count, 11),
+        other => {
+            let km: f64 = other
+                .strip_prefix("outside:")
+                .and_then(|k| k.parse().ok())
+                .expect("PLACE: towers, anywhere or outside:KM");
+            let at = regional_list::outside(km);
+            regional_list::receivers_anywhere(from + count, 11)
+                .into_iter()
+                .map(|(_, f)| (at, f))
+                .collect()
+        }
+    };
     let start = std::time::Instant::now();
     let mut first = None;
     let mut kept = 0;
@@ -31,17 +52,16 @@ fn main() {
         threads,
         |i| {
             let began = std::time::Instant::now();
-            let i = i + from;
-            let f = [155_175_000, 460_012_500, 152_512_500, 853_000_000][i % 4];
-            let mut q = Query::new(Hz(f));
+            let (at, f) = receivers[i + from];
+            let mut q = Query::new(f);
             q.params.max_order = 5;
-            q.junction = Some(towers[(i * 97) % towers.len()]);
+            q.junction = Some(at);
             q.limit = Some(10);
             (site.explain(&q), began.elapsed().as_secs_f64())
         },
         |i, (answer, took)| {
-            if took > 1.0 {
-                println!("receiver {} took {took:.1} s", i + from);
+            if took > 1.0 || std::env::var_os("TIMES").is_some() {
+                println!("receiver {} took {took:.3} s", i + from);
             }
             first.get_or_insert(start.elapsed());
             times.push(took);
@@ -74,7 +94,7 @@ fn main() {
         times.iter().sum::<f64>() / times.len() as f64
     );
     println!(
-        "{n} emitters, {count} receivers, {threads} threads: {kept} candidates, first receiver {:.3} s, all {:.2} s, {:.3} s a receiver",
+        "{n} emitters, {count} receivers ({place}), {threads} threads: {kept} candidates, first receiver {:.3} s, all {:.2} s, {:.3} s a receiver",
         first.map_or(0.0, |d| d.as_secs_f64()),
         all.as_secs_f64(),
         all.as_secs_f64() / count as f64

@@ -221,13 +221,48 @@ pub(crate) fn explain_top(site: &SiteView<'_>, query: &Query, k: usize) -> Resul
         });
     } else {
         let mut settled = false;
+        // the transmitters' own products were searched (before the junction's)
+        let mut own_done = false;
         if prunable {
             if let Some(at) = at {
+                let mut own_complete = true;
+                let mut rest = None;
                 let pass = by_drive(
-                    site, query, at, &drives, &ranker, k, &mut best, &over, &mut offer,
+                    site,
+                    query,
+                    at,
+                    &drives,
+                    &ranker,
+                    k,
+                    &mut best,
+                    &over,
+                    &mut offer,
+                    &mut |best, floor| {
+                        let floor = (floor > f64::NEG_INFINITY).then_some(floor);
+                        own_complete = own_products(
+                            site,
+                            query,
+                            &ranker,
+                            &narrow,
+                            Some(at),
+                            best,
+                            cap,
+                            &over,
+                            floor,
+                            &mut rest,
+                        );
+                    },
                 );
+                if let (Some(done), false) = (rest, over.get()) {
+                    // the transmitters' own products past the walk, from the K-th now held
+                    own_complete &= own_rest(
+                        site, query, &ranker, &narrow, at, &done, &mut best, cap, &over, None,
+                    );
+                }
+                own_done = true;
+                complete &= own_complete;
                 (found, kept, settled) = (pass.found, pass.kept, pass.settled);
-                complete = pass.complete && site.index.unlevelled == 0;
+                complete &= pass.complete && site.index.unlevelled == 0;
             }
         } else {
             // The receiver's own products modelled: their bound takes every carrier at
@@ -330,8 +365,16 @@ pub(crate) fn explain_top(site: &SiteView<'_>, query: &Query, k: usize) -> Resul
                 }
             }
         }
-        if !over.get() {
-            complete &= own_products(site, query, &ranker, &narrow, at, &mut best, cap, &over);
+        if !over.get() && !own_done {
+            let mut rest = None;
+            complete &= own_products(
+                site, query, &ranker, &narrow, at, &mut best, cap, &over, None, &mut rest,
+            );
+            if let (Some(done), Some(at), false) = (rest, at, over.get()) {
+                complete &= own_rest(
+                    site, query, &ranker, &narrow, at, &done, &mut best, cap, &over, None,
+                );
+            }
         }
     }
     if over.get() {
