@@ -6,7 +6,8 @@
 //! `outside:KM` (every receiver at a junction KM kilometres outside the square). With
 //! `DIGEST` set in the environment it prints every receiver's candidates (product,
 //! mechanism, level), to compare two builds' answers; with `TIMES` set, every receiver's
-//! time.
+//! time; with `SEED` another list; with `WRITE_CSV=DIR` it writes the list and the
+//! receivers as `DIR/emitters.csv` and `DIR/receivers.csv` for `pim study` instead.
 
 #[path = "../benches/support/regional_list.rs"]
 mod regional_list;
@@ -26,7 +27,11 @@ fn main() {
     // only receiver FROM on, when given
     let from = arg(4, 0);
     let place = std::env::args().nth(5).unwrap_or_else(|| "towers".into());
-    let (emitters, towers) = regional_list::regional(n, 7);
+    let seed = std::env::var("SEED")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(7);
+    let (emitters, towers) = regional_list::regional(n, seed);
     let site = Site::new(emitters);
     let receivers: Vec<(GeoPoint, Hz)> = match place.as_str() {
         "towers" => regional_list::receivers(&towers, from + count),
@@ -43,6 +48,10 @@ fn main() {
                 .collect()
         }
     };
+    if let Some(dir) = std::env::var_os("WRITE_CSV") {
+        write_csv(std::path::Path::new(&dir), site.emitters(), &receivers[from..]);
+        return;
+    }
     let start = std::time::Instant::now();
     let mut first = None;
     let mut kept = 0;
@@ -99,4 +108,33 @@ fn main() {
         all.as_secs_f64(),
         all.as_secs_f64() / count as f64
     );
+}
+
+/// The list and the receivers as CSV files for `pim study`.
+fn write_csv(dir: &std::path::Path, emitters: &[pim_core::emitter::Emitter], receivers: &[(GeoPoint, Hz)]) {
+    use std::fmt::Write;
+    let mut tx = String::from("id,freq_mhz,bw_khz,erp_dbm,lat,lon,height_m,kind\n");
+    for e in emitters {
+        let p = e.position.expect("placed");
+        writeln!(
+            tx,
+            "{},{:.6},{:.3},{:.3},{:.6},{:.6},{:.1},{}",
+            e.id,
+            e.freq.0 as f64 / 1e6,
+            e.bandwidth.0 as f64 / 1e3,
+            e.erp_dbm.expect("levelled"),
+            p.lat_deg,
+            p.lon_deg,
+            e.height_m.unwrap_or(0.0),
+            e.kind.as_deref().unwrap_or("")
+        )
+        .expect("a string");
+    }
+    let mut rx = String::from("id,freq_mhz,bw_khz,lat,lon\n");
+    for (i, (at, f)) in receivers.iter().enumerate() {
+        writeln!(rx, "RX{i},{:.6},12.5,{:.6},{:.6}", f.0 as f64 / 1e6, at.lat_deg, at.lon_deg)
+            .expect("a string");
+    }
+    std::fs::write(dir.join("emitters.csv"), tx).expect("emitters.csv written");
+    std::fs::write(dir.join("receivers.csv"), rx).expect("receivers.csv written");
 }
