@@ -49,7 +49,11 @@ fn main() {
         }
     };
     if let Some(dir) = std::env::var_os("WRITE_CSV") {
-        write_csv(std::path::Path::new(&dir), site.emitters(), &receivers[from..]);
+        write_csv(
+            std::path::Path::new(&dir),
+            site.emitters(),
+            &receivers[from..],
+        );
         return;
     }
     let start = std::time::Instant::now();
@@ -111,7 +115,11 @@ fn main() {
 }
 
 /// The list and the receivers as CSV files for `pim study`.
-fn write_csv(dir: &std::path::Path, emitters: &[pim_core::emitter::Emitter], receivers: &[(GeoPoint, Hz)]) {
+fn write_csv(
+    dir: &std::path::Path,
+    emitters: &[pim_core::emitter::Emitter],
+    receivers: &[(GeoPoint, Hz)],
+) {
     use std::fmt::Write;
     let mut tx = String::from("id,freq_mhz,bw_khz,erp_dbm,lat,lon,height_m,kind\n");
     for e in emitters {
@@ -132,8 +140,14 @@ fn write_csv(dir: &std::path::Path, emitters: &[pim_core::emitter::Emitter], rec
     }
     let mut rx = String::from("id,freq_mhz,bw_khz,lat,lon\n");
     for (i, (at, f)) in receivers.iter().enumerate() {
-        writeln!(rx, "RX{i},{:.6},12.5,{:.6},{:.6}", f.0 as f64 / 1e6, at.lat_deg, at.lon_deg)
-            .expect("a string");
+        writeln!(
+            rx,
+            "RX{i},{:.6},12.5,{:.6},{:.6}",
+            f.0 as f64 / 1e6,
+            at.lat_deg,
+            at.lon_deg
+        )
+        .expect("a string");
     }
     std::fs::write(dir.join("emitters.csv"), tx).expect("emitters.csv written");
     std::fs::write(dir.join("receivers.csv"), rx).expect("receivers.csv written");

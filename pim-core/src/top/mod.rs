@@ -45,10 +45,20 @@
 //! in A's output stage are levelled from the path from A to the receiver: for each A,
 //! the strongest ERP of the site at the least antenna isolation and the path at A's least
 //! distance to the receiver, taken at the lowest frequency a hit can have (free-space
-//! loss rises with frequency), bound them. They are searched last, strongest bound first
-//! from the site's tree (each node bounded by its strongest ERP at its least distance),
-//! until the bound falls below the K-th candidate held; a partner B is skipped when its
-//! own ERP at the least distance between the antennas cannot lift the product to it.
+//! loss rises with frequency), bound them. With a junction location they are searched
+//! right after the first look, before the junction's products: away from every tower (a
+//! receive-only site, a junction far outside the list) they lead by tens of dB, and
+//! their K-th level then bounds the junction's search from its start. The first
+//! [`OWN_WALK`] emitters are taken strongest bound first from the site's tree (each node
+//! bounded by its strongest ERP at its least distance) until the bound falls below the
+//! K-th candidate held (or the first look's K-th level, which K candidates will reach);
+//! a partner B is skipped when its own ERP at the least distance between the antennas,
+//! less A's output network's rejection of B's carrier and of the product, cannot lift the
+//! product to it. Where the bound has not fallen by then (it falls only as 20·log10 of
+//! the distance), the rest are searched after the junction's products by frequency: for
+//! each form the emitters in frequency order, their partners in a sliding window, a
+//! partner passed over without a geodesic when the chord between the normals is longer
+//! than the isolation that would let the site's strongest ERP reach the K-th allows.
 //!
 //! **Without levels.** Emitters without ERP or location make only unlevelled candidates,
 //! which follow every levelled one by order, then offset: their products are searched

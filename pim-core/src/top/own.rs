@@ -129,12 +129,13 @@ pub(super) fn search_own(
 /// ([`own_rest`]): near the receiver the bound falls fast with the distance, far from
 /// every emitter it hardly falls, and a search by frequency costs a few nanoseconds per
 /// partner looked at rather than a walk and a few binary searches per emitter.
-const OWN_WALK: usize = 256;
+pub(super) const OWN_WALK: usize = 256;
 
 /// The rejection of `a_hz`'s output network for B's carrier at `b_hz` and the product at
 /// `f_hz` (the ranking's, [`crate::level::LevelModel::tx_band_rejection_db`]), dB.
 fn own_rejection_db(m: &LevelModel, a_hz: i64, b_hz: i64, f_hz: i64) -> f64 {
-    m.tx_band_rejection_db(a_hz as f64, b_hz as f64) + m.tx_band_rejection_db(a_hz as f64, f_hz as f64)
+    m.tx_band_rejection_db(a_hz as f64, b_hz as f64)
+        + m.tx_band_rejection_db(a_hz as f64, f_hz as f64)
 }
 
 /// Offers to `best` the candidates made in the transmitters' own output stages (a
@@ -188,9 +189,11 @@ pub(super) fn own_products(
         (t, f) => t.or(f),
     };
     let mut t = level(best);
-    let mut walked = 0usize;
     let mut done = Vec::new();
-    for (bound, a) in placed.chain(unplaced.map(|i| (f64::NEG_INFINITY, i))) {
+    for (walked, (bound, a)) in placed
+        .chain(unplaced.map(|i| (f64::NEG_INFINITY, i)))
+        .enumerate()
+    {
         if t.is_some_and(|t| bound < t) {
             // every emitter left is bounded below the K-th
             return false;
@@ -202,7 +205,6 @@ pub(super) fn own_products(
                 return complete;
             }
         }
-        walked += 1;
         if done.is_empty() {
             done = vec![false; n];
         }
@@ -268,10 +270,7 @@ pub(super) fn own_rest(
 ) -> bool {
     let t = match (kth_level(best), floor) {
         (Some(t), Some(f)) => t.max(f),
-        (t, f) => match t.or(f) {
-            Some(t) => t,
-            None => f64::NEG_INFINITY,
-        },
+        (t, f) => t.or(f).unwrap_or(f64::NEG_INFINITY),
     };
     let mut sweep = OwnSweep {
         site,
@@ -325,17 +324,17 @@ impl OwnSweep<'_, '_, '_, '_> {
         if self.path[a].is_nan() {
             let m = &self.query.model;
             let e = &self.site.emitters()[a];
-            self.path[a] = self
-                .site
-                .index
-                .ground_at_least_m(a, self.at)
-                .map_or(f64::INFINITY, |g| {
-                    bounds.path_db(slant_distance_m(
-                        g,
-                        e.height_m.unwrap_or(m.junction_height_m),
-                        m.junction_height_m,
-                    ))
-                });
+            self.path[a] =
+                self.site
+                    .index
+                    .ground_at_least_m(a, self.at)
+                    .map_or(f64::INFINITY, |g| {
+                        bounds.path_db(slant_distance_m(
+                            g,
+                            e.height_m.unwrap_or(m.junction_height_m),
+                            m.junction_height_m,
+                        ))
+                    });
         }
         self.path[a]
     }
@@ -465,7 +464,8 @@ impl OwnSweep<'_, '_, '_, '_> {
                         continue;
                     }
                     let f_low = ((t - w) / (2 * mm)).max(1) as f64;
-                    let reach_m = crate::level::SPEED_OF_LIGHT_M_S / (4.0 * std::f64::consts::PI * f_low)
+                    let reach_m = crate::level::SPEED_OF_LIGHT_M_S
+                        / (4.0 * std::f64::consts::PI * f_low)
                         * 10f64.powf((iso_max + 2.0 * DIPOLE_GAIN_DBI) / 20.0);
                     let chord_max = (reach_m * (1.0 + 1e-9) + 1e-6) / r_min;
                     let chord2_max = chord_max * chord_max;
@@ -483,15 +483,17 @@ impl OwnSweep<'_, '_, '_, '_> {
                             continue;
                         }
                         let nb = &sb.normal;
-                        let chord2 =
-                            (na[0] - nb[0]).powi(2) + (na[1] - nb[1]).powi(2) + (na[2] - nb[2]).powi(2);
+                        let chord2 = (na[0] - nb[0]).powi(2)
+                            + (na[1] - nb[1]).powi(2)
+                            + (na[2] - nb[2]).powi(2);
                         if sb.erp_dbm == f64::NEG_INFINITY || chord2 > chord2_max {
                             // unlevelled (it follows the K-th), or too far
                             self.complete = false;
                             continue;
                         }
                         let b = by_freq[pb];
-                        let g = crate::nearby::ground_for_angle(crate::nearby::angle_between(&na, nb));
+                        let g =
+                            crate::nearby::ground_for_angle(crate::nearby::angle_between(&na, nb));
                         let hb = emitters[b].height_m.unwrap_or(m.junction_height_m);
                         let d = slant_distance_m(g, ha, hb);
                         let level = m.transmitter_im_eirp_dbm(sb.erp_dbm, fb as f64, d)
