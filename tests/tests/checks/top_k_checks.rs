@@ -6,7 +6,7 @@ use pim_core::emitter::{watts_to_dbm, Emitter};
 use pim_core::freq::Hz;
 use pim_core::geo::{destination, GeoPoint};
 use pim_core::level::LevelModel;
-use pim_core::{Query, Site};
+use pim_core::{Explanation, Query, Site};
 use proptest::prelude::*;
 
 /// One generated emitter: channel on a 12.5 kHz raster near 150 MHz (or an FM station),
@@ -59,6 +59,35 @@ fn build(specs: &[Spec], junction: GeoPoint, located: bool) -> Site {
     )
 }
 
+/// `query` with `limit: Some(k)` gives exactly the first K candidates of the full
+/// ranking, ranks, levels and relative levels included, and the same counts where it
+/// says it counted all.
+fn first_k_agree(
+    site: &Site,
+    mut query: Query,
+    k: usize,
+) -> Result<(Explanation, Explanation), TestCaseError> {
+    let full = site.explain(&query).unwrap();
+    query.limit = Some(k);
+    let top = site.explain(&query).unwrap();
+    let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
+    prop_assert_eq!(top.ranking.candidates.len(), want.len());
+    for (a, b) in top.ranking.candidates.iter().zip(want) {
+        prop_assert_eq!(a, b);
+    }
+    prop_assert_eq!(&top.co_channel, &full.co_channel);
+    prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
+    if top.complete {
+        prop_assert_eq!(top.found, full.found);
+        prop_assert_eq!(top.kept, full.kept);
+        prop_assert_eq!(top.ranking.total, full.ranking.total);
+        prop_assert_eq!(top.ranking.unlevelled, full.ranking.unlevelled);
+    } else {
+        prop_assert!(top.found <= full.found);
+    }
+    Ok((top, full))
+}
+
 proptest! {
     // A fixed seed and no regression files: the same cases on every run and machine.
     #![proptest_config(ProptestConfig { cases: 256, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_201), failure_persistence: None, ..ProptestConfig::default() })]
@@ -85,24 +114,7 @@ proptest! {
         query.junction = located.then_some(junction);
         query.model = LevelModel { rx_iip3_dbm: iip3, drive_exponent: alpha, ..LevelModel::default() };
         query.coefficients = narrow.map(|kk| vec![(0, kk)]).unwrap_or_default();
-        let full = site.explain(&query).unwrap();
-        query.limit = Some(k);
-        let top = site.explain(&query).unwrap();
-        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
-        prop_assert_eq!(top.ranking.candidates.len(), want.len());
-        for (a, b) in top.ranking.candidates.iter().zip(want) {
-            prop_assert_eq!(a, b);
-        }
-        prop_assert_eq!(&top.co_channel, &full.co_channel);
-        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
-        if top.complete {
-            prop_assert_eq!(top.found, full.found);
-            prop_assert_eq!(top.kept, full.kept);
-            prop_assert_eq!(top.ranking.total, full.ranking.total);
-            prop_assert_eq!(top.ranking.unlevelled, full.ranking.unlevelled);
-        } else {
-            prop_assert!(top.found <= full.found);
-        }
+        first_k_agree(&site, query, k)?;
     }
 }
 
@@ -151,13 +163,9 @@ proptest! {
         let shift = if weak_junction { 150.0 } else { 0.0 };
         let im3_dbm = LevelModel::default().im3_dbm - shift;
         query.model = LevelModel { drive_exponent: alpha, im3_dbm, ..LevelModel::default() };
-        let full = site.explain(&query).unwrap();
-        query.limit = Some(k);
-        let top = site.explain(&query).unwrap();
-        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
-        prop_assert_eq!(top.ranking.candidates.len(), want.len());
-        for (a, b) in top.ranking.candidates.iter().zip(want) {
-            prop_assert_eq!(a, b);
+        let (top, full) = first_k_agree(&site, query, k)?;
+        // the fields of the candidates' emitters too
+        for a in &top.ranking.candidates {
             for t in a.product.terms() {
                 prop_assert_eq!(
                     top.ranking.incidence.get(t.emitter).map(|i| i.incident_dbm),
@@ -165,7 +173,6 @@ proptest! {
                 );
             }
         }
-        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
     }
 }
 
@@ -245,17 +252,6 @@ proptest! {
         query.params.max_order = max_order;
         query.params.max_emitters = max_emitters;
         query.junction = Some(junction);
-        let full = site.explain(&query).unwrap();
-        query.limit = Some(k);
-        let top = site.explain(&query).unwrap();
-        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
-        prop_assert_eq!(top.ranking.candidates.len(), want.len());
-        for (a, b) in top.ranking.candidates.iter().zip(want) {
-            prop_assert_eq!(a, b);
-        }
-        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
-        if top.complete {
-            prop_assert_eq!(top.ranking.total, full.ranking.total);
-        }
+        first_k_agree(&site, query, k)?;
     }
 }
