@@ -49,6 +49,20 @@ pub(crate) struct SiteIndex {
     pub(crate) unlevelled: usize,
     /// Whether each emitter has both (its drive at a junction can be bounded).
     pub(crate) levelled: Vec<bool>,
+    /// In the frequency order of `by_freq`, what a search by frequency reads of each
+    /// emitter side by side (no indirection per partner looked at).
+    pub(crate) sorted: Vec<Sorted>,
+}
+
+/// An emitter as a search by frequency reads it, in the frequency order.
+#[derive(Clone, Copy, Debug, Default)]
+pub(crate) struct Sorted {
+    /// The unit normal at its position ([`SiteIndex::normals`]); zeros without one.
+    pub(crate) normal: [f64; 3],
+    /// Its ERP, dBm, where it has a position and an ERP; −∞ otherwise.
+    pub(crate) erp_dbm: f64,
+    /// Its occupied bandwidth, Hz.
+    pub(crate) bandwidth_hz: i64,
 }
 
 /// The smallest radius of curvature of the WGS 84 ellipsoid (the meridian's at the
@@ -68,7 +82,19 @@ impl SiteIndex {
             emitters.iter().map(|e| e.position.map(normal)).collect();
         let erp: Vec<Option<f64>> = emitters.iter().map(|e| e.erp_dbm).collect();
         let freq: Vec<i64> = carriers.iter().map(|c| c.freq.0).collect();
+        let sorted = by_freq
+            .iter()
+            .map(|&i| Sorted {
+                normal: normals[i].unwrap_or([0.0; 3]),
+                erp_dbm: match (normals[i], erp[i]) {
+                    (Some(_), Some(e)) => e,
+                    _ => f64::NEG_INFINITY,
+                },
+                bandwidth_hz: carriers[i].bandwidth.0,
+            })
+            .collect();
         SiteIndex {
+            sorted,
             freq_sorted: by_freq.iter().map(|&i| carriers[i].freq.0).collect(),
             place,
             max_bw: carriers.iter().map(|c| c.bandwidth.0).max().unwrap_or(0),

@@ -73,6 +73,39 @@ pub fn regional(n: usize, seed: u64) -> (Vec<Emitter>, Vec<GeoPoint>) {
     (emitters, towers)
 }
 
+/// `count` receivers anywhere in the square (receive-only sites, voting receivers, a
+/// monitoring receiver on a hill), each on a random channel of the VHF and UHF land
+/// mobile and 800 MHz trunking bands of [`regional`]'s rasters, seeded by `seed`.
+#[allow(dead_code)] // not every benchmark studies
+pub fn receivers_anywhere(count: usize, seed: u64) -> Vec<(GeoPoint, Hz)> {
+    let mut rng = Rng(seed | 1);
+    // a small seed's first draws are small
+    for _ in 0..8 {
+        rng.next();
+    }
+    (0..count)
+        .map(|_| {
+            let at = GeoPoint::new(CORNER.0 + 0.9 * rng.unit(), CORNER.1 + 1.27 * rng.unit());
+            let f = match rng.below(90) {
+                0..=39 => 150_800_000 + rng.below(9_000) * 2_500,
+                40..=64 => 450_000_000 + rng.below(3_200) * 6_250,
+                _ => 851_000_000 + rng.below(1_440) * 12_500,
+            };
+            (at, Hz(f))
+        })
+        .collect()
+}
+
+/// A junction `km` kilometres south of the square's southern edge, below its middle.
+#[allow(dead_code)] // not every benchmark studies
+pub fn outside(km: f64) -> GeoPoint {
+    destination(
+        GeoPoint::new(CORNER.0, CORNER.1 + 0.635),
+        180.0,
+        km * 1_000.0,
+    )
+}
+
 /// `count` receivers at towers, on channels of the land mobile, UHF and trunking bands.
 #[allow(dead_code)] // not every benchmark studies
 pub fn receivers(towers: &[GeoPoint], count: usize) -> Vec<(GeoPoint, Hz)> {

@@ -220,6 +220,7 @@ pub(super) fn by_drive<'r, 'a>(
     best: &mut Best<'r, 'a>,
     over: &std::cell::Cell<bool>,
     offer: &mut dyn FnMut(&mut Best<'r, 'a>, &mut usize, &mut usize, Product) -> bool,
+    own_first: &mut dyn FnMut(&mut Best<'r, 'a>, f64),
 ) -> Pass {
     let m = &query.model;
     let params = &query.params;
@@ -280,6 +281,17 @@ pub(super) fn by_drive<'r, 'a>(
         .level
         .set(kth_level(&mut look).unwrap_or(f64::NEG_INFINITY));
     drop(look);
+    // The transmitters' own products, searched before the rest: where they lead (a
+    // receiver away from every tower, a junction far outside the list) their K-th level
+    // bounds the junction's products far above the first look's. K candidates will be
+    // held at or above the first look's K-th level, which bounds them in turn.
+    own_first(best, floor.level.get());
+    if over.get() {
+        return pass;
+    }
+    if let Some(l) = kth_level(best) {
+        floor.level.set(floor.level.get().max(l));
+    }
     let mut stopped = false;
     let mut skipped = false;
     let mut p = 0;

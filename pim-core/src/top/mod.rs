@@ -45,10 +45,20 @@
 //! in A's output stage are levelled from the path from A to the receiver: for each A,
 //! the strongest ERP of the site at the least antenna isolation and the path at A's least
 //! distance to the receiver, taken at the lowest frequency a hit can have (free-space
-//! loss rises with frequency), bound them. They are searched last, strongest bound first
-//! from the site's tree (each node bounded by its strongest ERP at its least distance),
-//! until the bound falls below the K-th candidate held; a partner B is skipped when its
-//! own ERP at the least distance between the antennas cannot lift the product to it.
+//! loss rises with frequency), bound them. With a junction location they are searched
+//! right after the first look, before the junction's products: away from every tower (a
+//! receive-only site, a junction far outside the list) they lead by tens of dB, and
+//! their K-th level then bounds the junction's search from its start. The first
+//! [`OWN_WALK`] emitters are taken strongest bound first from the site's tree (each node
+//! bounded by its strongest ERP at its least distance) until the bound falls below the
+//! K-th candidate held (or the first look's K-th level, which K candidates will reach);
+//! a partner B is skipped when its own ERP at the least distance between the antennas,
+//! less A's output network's rejection of B's carrier and of the product, cannot lift the
+//! product to it. Where the bound has not fallen by then (it falls only as 20·log10 of
+//! the distance), the rest are searched after the junction's products by frequency: for
+//! each form the emitters in frequency order, their partners in a sliding window, a
+//! partner passed over without a geodesic when the chord between the normals is longer
+//! than the isolation that would let the site's strongest ERP reach the K-th allows.
 //!
 //! **Without levels.** Emitters without ERP or location make only unlevelled candidates,
 //! which follow every levelled one by order, then offset: their products are searched
@@ -221,13 +231,48 @@ pub(crate) fn explain_top(site: &SiteView<'_>, query: &Query, k: usize) -> Resul
         });
     } else {
         let mut settled = false;
+        // the transmitters' own products were searched (before the junction's)
+        let mut own_done = false;
         if prunable {
             if let Some(at) = at {
+                let mut own_complete = true;
+                let mut rest = None;
                 let pass = by_drive(
-                    site, query, at, &drives, &ranker, k, &mut best, &over, &mut offer,
+                    site,
+                    query,
+                    at,
+                    &drives,
+                    &ranker,
+                    k,
+                    &mut best,
+                    &over,
+                    &mut offer,
+                    &mut |best, floor| {
+                        let floor = (floor > f64::NEG_INFINITY).then_some(floor);
+                        own_complete = own_products(
+                            site,
+                            query,
+                            &ranker,
+                            &narrow,
+                            Some(at),
+                            best,
+                            cap,
+                            &over,
+                            floor,
+                            &mut rest,
+                        );
+                    },
                 );
+                if let (Some(done), false) = (rest, over.get()) {
+                    // the transmitters' own products past the walk, from the K-th now held
+                    own_complete &= own_rest(
+                        site, query, &ranker, &narrow, at, &done, &mut best, cap, &over, None,
+                    );
+                }
+                own_done = true;
+                complete &= own_complete;
                 (found, kept, settled) = (pass.found, pass.kept, pass.settled);
-                complete = pass.complete && site.index.unlevelled == 0;
+                complete &= pass.complete && site.index.unlevelled == 0;
             }
         } else {
             // The receiver's own products modelled: their bound takes every carrier at
@@ -330,8 +375,16 @@ pub(crate) fn explain_top(site: &SiteView<'_>, query: &Query, k: usize) -> Resul
                 }
             }
         }
-        if !over.get() {
-            complete &= own_products(site, query, &ranker, &narrow, at, &mut best, cap, &over);
+        if !over.get() && !own_done {
+            let mut rest = None;
+            complete &= own_products(
+                site, query, &ranker, &narrow, at, &mut best, cap, &over, None, &mut rest,
+            );
+            if let (Some(done), Some(at), false) = (rest, at, over.get()) {
+                complete &= own_rest(
+                    site, query, &ranker, &narrow, at, &done, &mut best, cap, &over, None,
+                );
+            }
         }
     }
     if over.get() {

@@ -6,7 +6,7 @@ use pim_core::emitter::{watts_to_dbm, Emitter};
 use pim_core::freq::Hz;
 use pim_core::geo::{destination, GeoPoint};
 use pim_core::level::LevelModel;
-use pim_core::{Query, Site};
+use pim_core::{Explanation, Query, Site};
 use proptest::prelude::*;
 
 /// One generated emitter: channel on a 12.5 kHz raster near 150 MHz (or an FM station),
@@ -59,6 +59,35 @@ fn build(specs: &[Spec], junction: GeoPoint, located: bool) -> Site {
     )
 }
 
+/// `query` with `limit: Some(k)` gives exactly the first K candidates of the full
+/// ranking, ranks, levels and relative levels included, and the same counts where it
+/// says it counted all.
+fn first_k_agree(
+    site: &Site,
+    mut query: Query,
+    k: usize,
+) -> Result<(Explanation, Explanation), TestCaseError> {
+    let full = site.explain(&query).unwrap();
+    query.limit = Some(k);
+    let top = site.explain(&query).unwrap();
+    let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
+    prop_assert_eq!(top.ranking.candidates.len(), want.len());
+    for (a, b) in top.ranking.candidates.iter().zip(want) {
+        prop_assert_eq!(a, b);
+    }
+    prop_assert_eq!(&top.co_channel, &full.co_channel);
+    prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
+    if top.complete {
+        prop_assert_eq!(top.found, full.found);
+        prop_assert_eq!(top.kept, full.kept);
+        prop_assert_eq!(top.ranking.total, full.ranking.total);
+        prop_assert_eq!(top.ranking.unlevelled, full.ranking.unlevelled);
+    } else {
+        prop_assert!(top.found <= full.found);
+    }
+    Ok((top, full))
+}
+
 proptest! {
     // A fixed seed and no regression files: the same cases on every run and machine.
     #![proptest_config(ProptestConfig { cases: 256, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_201), failure_persistence: None, ..ProptestConfig::default() })]
@@ -85,24 +114,7 @@ proptest! {
         query.junction = located.then_some(junction);
         query.model = LevelModel { rx_iip3_dbm: iip3, drive_exponent: alpha, ..LevelModel::default() };
         query.coefficients = narrow.map(|kk| vec![(0, kk)]).unwrap_or_default();
-        let full = site.explain(&query).unwrap();
-        query.limit = Some(k);
-        let top = site.explain(&query).unwrap();
-        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
-        prop_assert_eq!(top.ranking.candidates.len(), want.len());
-        for (a, b) in top.ranking.candidates.iter().zip(want) {
-            prop_assert_eq!(a, b);
-        }
-        prop_assert_eq!(&top.co_channel, &full.co_channel);
-        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
-        if top.complete {
-            prop_assert_eq!(top.found, full.found);
-            prop_assert_eq!(top.kept, full.kept);
-            prop_assert_eq!(top.ranking.total, full.ranking.total);
-            prop_assert_eq!(top.ranking.unlevelled, full.ranking.unlevelled);
-        } else {
-            prop_assert!(top.found <= full.found);
-        }
+        first_k_agree(&site, query, k)?;
     }
 }
 
@@ -151,13 +163,9 @@ proptest! {
         let shift = if weak_junction { 150.0 } else { 0.0 };
         let im3_dbm = LevelModel::default().im3_dbm - shift;
         query.model = LevelModel { drive_exponent: alpha, im3_dbm, ..LevelModel::default() };
-        let full = site.explain(&query).unwrap();
-        query.limit = Some(k);
-        let top = site.explain(&query).unwrap();
-        let want = &full.ranking.candidates[..k.min(full.ranking.candidates.len())];
-        prop_assert_eq!(top.ranking.candidates.len(), want.len());
-        for (a, b) in top.ranking.candidates.iter().zip(want) {
-            prop_assert_eq!(a, b);
+        let (top, full) = first_k_agree(&site, query, k)?;
+        // the fields of the candidates' emitters too
+        for a in &top.ranking.candidates {
             for t in a.product.terms() {
                 prop_assert_eq!(
                     top.ranking.incidence.get(t.emitter).map(|i| i.incident_dbm),
@@ -165,6 +173,85 @@ proptest! {
                 );
             }
         }
-        prop_assert_eq!(top.ranking.outlook, full.ranking.outlook);
+    }
+}
+
+/// One emitter of a tower site: which tower, its channel (VHF land mobile near 150 MHz,
+/// FM broadcast, or low VHF at a third of the channel so that its harmonic lands), ERP
+/// and where on the tower.
+#[derive(Clone, Debug)]
+struct OnTower {
+    tower: usize,
+    band: u8,
+    channel: i64,
+    erp_w: Option<f64>,
+    offset: (f64, f64),
+}
+
+fn on_tower(towers: usize) -> impl Strategy<Value = OnTower> {
+    (
+        0..towers,
+        prop::sample::select(vec![0u8, 0, 0, 0, 0, 0, 1, 2]),
+        0i64..96,
+        prop::option::weighted(0.97, 5.0f64..5_000.0),
+        (0.0f64..360.0, 0.0f64..60.0),
+    )
+        .prop_map(|(tower, band, channel, erp_w, offset)| OnTower {
+            tower,
+            band,
+            channel,
+            erp_w,
+            offset,
+        })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 12, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_204), failure_persistence: None, ..ProptestConfig::default() })]
+
+    /// The same with the receiver anywhere among tower sites (not at a tower, or far
+    /// outside them): more emitters than the transmitters' own products are walked one
+    /// at a time (256), so the rest are searched by frequency; where those products lead,
+    /// their K-th level bounds the junction's search.
+    #[test]
+    fn limit_k_equals_the_first_k_with_the_receiver_anywhere(
+        towers in prop::collection::vec((0.0f64..360.0, 300.0f64..15_000.0), 30..60),
+        emitters in prop::collection::vec(on_tower(60), 300..380),
+        target_channel in 0i64..96,
+        k in 1usize..15,
+        max_order in 3u32..6,
+        max_emitters in 2u32..4,
+        outside_km in prop::option::weighted(0.25, 20.0f64..60.0),
+    ) {
+        let centre = GeoPoint::new(45.0, -122.0);
+        let sites: Vec<GeoPoint> = towers.iter().map(|&(az, d)| destination(centre, az, d)).collect();
+        let site = Site::new(
+            emitters
+                .iter()
+                .enumerate()
+                .map(|(i, s)| {
+                    let f = match s.band {
+                        0 => 148_000_000 + s.channel * 12_500,
+                        1 => 88_100_000 + (s.channel % 100) * 200_000,
+                        _ => 49_330_000 + s.channel * 4_000,
+                    };
+                    let w = if s.band == 1 { 180_000 } else { 11_250 };
+                    let mut e = Emitter::new(format!("TX{i:03}"), Hz(f), Hz(w));
+                    e.erp_dbm = s.erp_w.map(watts_to_dbm);
+                    e.position = Some(destination(sites[s.tower % sites.len()], s.offset.0, s.offset.1));
+                    e.height_m = Some(30.0);
+                    e.kind = Some(if s.band == 1 { "FM broadcast" } else { "land mobile" }.into());
+                    e
+                })
+                .collect(),
+        );
+        let junction = match outside_km {
+            Some(km) => destination(centre, 90.0, km * 1_000.0),
+            None => centre,
+        };
+        let mut query = Query::new(Hz(148_000_000 + target_channel * 12_500));
+        query.params.max_order = max_order;
+        query.params.max_emitters = max_emitters;
+        query.junction = Some(junction);
+        first_k_agree(&site, query, k)?;
     }
 }
