@@ -31,6 +31,15 @@ pub const ATTENUATOR_CSV: &str = include_str!("../../field-logs/attenuator-readi
 pub const POWER_STEPS_CSV: &str = include_str!("../../field-logs/power-steps.csv");
 /// A maximum-hold trace of the site's receive band, 144–160 MHz.
 pub const TRACE_CSV: &str = include_str!("../../field-logs/trace.csv");
+/// The site's receivers, for the forward study.
+pub const RECEIVERS_CSV: &str = include_str!("../../field-logs/receivers.csv");
+/// The emitters' keying from their owners' logs, and the times the carrier was listened
+/// for, for the on-air check.
+pub const ON_AIR_CSV: &str = include_str!("../../field-logs/on-air.csv");
+pub const HEARD_CSV: &str = include_str!("../../field-logs/heard.csv");
+/// The coordinator's candidate channels and the channels to protect, for `pim plan`.
+pub const PLAN_CANDIDATES_CSV: &str = include_str!("../../field-logs/plan-candidates.csv");
+pub const PLAN_PROTECT_CSV: &str = include_str!("../../field-logs/plan-protect.csv");
 
 /// The repeater input on which the mystery carrier is heard.
 pub const HEARD: Hz = Hz(146_340_000);
@@ -179,6 +188,11 @@ pub fn run(args: Args) -> CliResult {
         ("trace.csv", TRACE_CSV),
         ("attenuator-readings.csv", ATTENUATOR_CSV),
         ("power-steps.csv", POWER_STEPS_CSV),
+        ("receivers.csv", RECEIVERS_CSV),
+        ("on-air.csv", ON_AIR_CSV),
+        ("heard.csv", HEARD_CSV),
+        ("plan-candidates.csv", PLAN_CANDIDATES_CSV),
+        ("plan-protect.csv", PLAN_PROTECT_CSV),
     ]
     .iter()
     .map(|(name, text)| (*name, text.as_bytes().to_vec()))
@@ -196,7 +210,7 @@ pub fn run(args: Args) -> CliResult {
     )?;
     writeln!(
         out,
-        "\nIts inputs are in {} too. The commands it ran, to run on your own files:",
+        "\nIts inputs are in {} too. The commands that redo its work there, and the rest of\nthe job (the walk, the tests, the study, a channel plan), to run on your own files:",
         args.out.display()
     )?;
     for line in commands(&args.out) {
@@ -211,8 +225,65 @@ fn commands(dir: &Path) -> Vec<String> {
     use pim_io::text::pim_command;
     let file = |name: &str| dir.join(name).display().to_string();
     let beside = |suffix: &str| format!("{}{suffix}", dir.display());
+    let heard = HEARD.mhz_text();
+    let (rx_lat, rx_lon) = (RX_SITE.lat_deg.to_string(), RX_SITE.lon_deg.to_string());
+    let height = JUNCTION_HEIGHT_M.to_string();
     vec![
         pim_command(["fix", "--log", &file("walk.csv")]),
+        pim_command(["log", "--log", &file("walk.csv"), "--list"]),
+        pim_command(["next", "--log", &file("walk.csv"), "--radius-m", "150"]),
+        pim_command([
+            "slope",
+            "--kind",
+            "attenuator",
+            "--readings",
+            &file("attenuator-readings.csv"),
+        ]),
+        pim_command([
+            "slope",
+            "--kind",
+            "power",
+            "--readings",
+            &file("power-steps.csv"),
+            "--freq",
+            &heard,
+            "--emitters",
+            &file("emitters.csv"),
+        ]),
+        pim_command([
+            "explain",
+            &heard,
+            "--emitters",
+            &file("emitters.csv"),
+            "--rx-lat",
+            &rx_lat,
+            "--rx-lon",
+            &rx_lon,
+            "--junction-height-m",
+            &height,
+            "--on-air",
+            &file("on-air.csv"),
+            "--heard",
+            &file("heard.csv"),
+            "--power-steps",
+            &file("power-steps.csv"),
+        ]),
+        pim_command([
+            "study",
+            "--emitters",
+            &file("emitters.csv"),
+            "--receivers",
+            &file("receivers.csv"),
+            "--junction-height-m",
+            &height,
+        ]),
+        pim_command([
+            "plan",
+            "--channels",
+            &file("plan-candidates.csv"),
+            "--protect",
+            &file("plan-protect.csv"),
+        ]),
         pim_command([
             "sweep",
             "--recording",
@@ -224,7 +295,7 @@ fn commands(dir: &Path) -> Vec<String> {
         ]),
         pim_command([
             "ticket",
-            &HEARD.mhz_text(),
+            &heard,
             "--emitters",
             &file("emitters.csv"),
             "--log",
@@ -238,11 +309,11 @@ fn commands(dir: &Path) -> Vec<String> {
             "--power-steps",
             &file("power-steps.csv"),
             "--rx-lat",
-            &RX_SITE.lat_deg.to_string(),
+            &rx_lat,
             "--rx-lon",
-            &RX_SITE.lon_deg.to_string(),
+            &rx_lon,
             "--junction-height-m",
-            &JUNCTION_HEIGHT_M.to_string(),
+            &height,
             "--site",
             "Marrow Hill",
             "--out",

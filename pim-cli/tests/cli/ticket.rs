@@ -149,10 +149,19 @@ fn demo_runs_from_an_empty_directory() {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     // the seven files of every ticket, the band's trace.svg, the demo's marker and its
-    // six inputs (emitters, structures, walk, trace, attenuator readings, power steps),
-    // for the commands it prints, and its recording with the recording's waterfall
-    assert_eq!(names.len(), 17, "{names:?}");
+    // eleven inputs (emitters, structures, walk, trace, attenuator readings, power steps,
+    // receivers, on-air and heard logs, plan candidates and protected channels), for the
+    // commands it prints, and its recording with the recording's waterfall
+    assert_eq!(names.len(), 22, "{names:?}");
     assert!(names.contains(&".pim-demo".to_string()), "{names:?}");
+    // every file a printed command names is in the folder
+    for line in out.lines().filter(|l| l.trim_start().starts_with("pim ")) {
+        for word in line.split_whitespace() {
+            if let Some(name) = word.strip_prefix("pim-demo/") {
+                assert!(names.iter().any(|n| n == name), "{name} of {line}");
+            }
+        }
+    }
 }
 
 #[test]

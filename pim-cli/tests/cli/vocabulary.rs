@@ -328,8 +328,9 @@ fn the_demo_prints_commands_that_redo_its_ticket() {
         .map(str::trim)
         .filter(|l| l.starts_with("pim "))
         .collect();
-    // fix, the recording's sweep (its waterfall beside the folder), ticket
-    assert_eq!(commands.len(), 3, "{shown}");
+    // fix, log, next, the two slopes, explain with the on-air evidence, study, plan, the
+    // recording's sweep (its waterfall beside the folder), ticket
+    assert_eq!(commands.len(), 10, "{shown}");
     assert!(
         commands[0].starts_with("pim fix --log pim-demo/walk.csv"),
         "{shown}"
