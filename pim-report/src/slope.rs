@@ -301,7 +301,7 @@ pub fn single_text(
             format!("{}", r.step_db),
             format!("{:.1}", r.level_dbm),
             format!("{fitted:.1}"),
-            format!("{:+.2}", r.level_dbm - fitted),
+            pim_io::precision::signed(r.level_dbm - fitted, 2),
             r.note.clone().unwrap_or_default(),
         ]);
     }

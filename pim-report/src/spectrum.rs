@@ -386,8 +386,8 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
         Height::Level { floor_db, .. } if *v < floor_db - 1e-9 => String::new(),
         Height::Level {
             calibrated: false, ..
-        } => format!("{v:+.0}"),
-        Height::Level { .. } => format!("{v:.0}"),
+        } => pim_io::precision::signed(*v, 0),
+        Height::Level { .. } => pim_io::precision::fixed(*v, 0),
         Height::Rank { ranks } => {
             let r = ranks as f64 + 1.0 - v;
             if (r - r.round()).abs() < 1e-6 && r >= 1.0 && r <= ranks as f64 {
