@@ -8,12 +8,12 @@ use crate::text_table::{Align, TextTable};
 /// The estimator's name as a reader knows it.
 /// The region a fix claims, in a few words: the ellipse with its semi-axes and
 /// orientation, or the likelihood contour and how far it reaches when the ellipse does
-/// not hold (`95% ellipse 30 × 18 m at 31°`).
+/// not hold (`95% ellipse, semi-axes 30 × 18 m, at 31°`).
 pub fn region_claimed(fix: &Fix) -> String {
     let e = &fix.ellipse;
     match fix.region_kind {
         RegionKind::Ellipse => format!(
-            "{:.0}% ellipse {:.0} × {:.0} m at {:.0}°",
+            "{:.0}% ellipse, semi-axes {:.0} × {:.0} m, at {:.0}°",
             e.confidence * 100.0,
             e.semi_major_m,
             e.semi_minor_m,
