@@ -160,15 +160,18 @@ pub fn check_targets(
     Ok(())
 }
 
-/// A staging file's name pattern, and the mode a new file gets (0666 less the umask).
-fn staging_builder(prefix: &str) -> tempfile::Builder<'_, 'static> {
+/// A staging file's name pattern, and the mode a new file gets (`mode` less the umask:
+/// 0666 for outputs, 0600 for a private key).
+fn staging_builder(prefix: &str, mode: u32) -> tempfile::Builder<'_, 'static> {
     let mut b = tempfile::Builder::new();
     b.prefix(prefix).suffix(".part");
     #[cfg(unix)]
     {
         use std::os::unix::fs::PermissionsExt;
-        b.permissions(std::fs::Permissions::from_mode(0o666));
+        b.permissions(std::fs::Permissions::from_mode(mode));
     }
+    #[cfg(not(unix))]
+    let _ = mode;
     b
 }
 
@@ -235,6 +238,27 @@ pub fn write_files_atomically(
     inputs: &[&Path],
     existing: Existing,
 ) -> Result<Vec<PathBuf>, Error> {
+    write_files_with_mode(dir, files, inputs, existing, 0o666)
+}
+
+/// [`write_files_atomically`] for files only their owner may read (a private key): each
+/// is staged with mode 0600, so it is never readable by others, not even for a moment.
+pub fn write_private_files_atomically(
+    dir: &Path,
+    files: &[(&str, Vec<u8>)],
+    inputs: &[&Path],
+    existing: Existing,
+) -> Result<Vec<PathBuf>, Error> {
+    write_files_with_mode(dir, files, inputs, existing, 0o600)
+}
+
+fn write_files_with_mode(
+    dir: &Path,
+    files: &[(&str, Vec<u8>)],
+    inputs: &[&Path],
+    existing: Existing,
+    mode: u32,
+) -> Result<Vec<PathBuf>, Error> {
     for (name, _) in files {
         if name.is_empty() || name.contains(['/', '\\']) || *name == "." || *name == ".." {
             return Err(Error::refused(format!("`{name}` is not a plain file name")));
@@ -250,11 +274,13 @@ pub fn write_files_atomically(
     let mut staged = Vec::new();
     for (name, bytes) in files {
         let prefix = format!(".{name}.");
-        let made = staging_builder(&prefix).tempfile_in(dir).and_then(|mut f| {
-            f.write_all(bytes)?;
-            f.as_file().sync_all()?;
-            Ok(f.into_temp_path())
-        });
+        let made = staging_builder(&prefix, mode)
+            .tempfile_in(dir)
+            .and_then(|mut f| {
+                f.write_all(bytes)?;
+                f.as_file().sync_all()?;
+                Ok(f.into_temp_path())
+            });
         match made {
             Ok(tmp) => staged.push((tmp, dir.join(name))),
             // dropping `staged` removes the files staged so far

@@ -204,13 +204,30 @@ const STYLE: &str = r#"
   figcaption { color: var(--muted); font-size: 13px; }
   .cautions { background: var(--warn); border-left: 4px solid var(--accent); padding: .6rem 1rem; margin: 1rem 0; }
   .cautions strong { display: block; margin-bottom: .3rem; }
-  @media print { body { margin: 0; max-width: none; font-size: 11pt; } h2 { break-after: avoid; } figure, table, .cautions { break-inside: avoid; } }
+  figure svg { max-width: 100%; }
+  /* A phone: each table row a card, each cell under its column's name. */
+  @media screen and (max-width: 600px) {
+    body { margin: 1rem auto; font-size: 16px; }
+    table, thead, tbody, tr, th, td { display: block; }
+    thead { position: absolute; width: 1px; height: 1px; overflow: hidden; clip: rect(0 0 0 0); }
+    tr { border: 1px solid var(--rule); border-radius: 4px; margin: 0 0 .6rem; padding: .2rem .5rem; }
+    td, td.num { border: 0; padding: .15rem 0; text-align: left; overflow-wrap: anywhere; }
+    td[data-label]::before { content: attr(data-label) ": "; font-weight: 600; color: var(--muted); }
+  }
+  /* Paper: A4 or Letter, whichever the printer holds; margins that fit both. */
+  @page { margin: 15mm 12mm; }
+  @media print {
+    body { margin: 0; max-width: none; font-size: 10.5pt; color: #000; }
+    h2 { break-after: avoid; } figure, tr, .cautions { break-inside: avoid; }
+    table { font-size: 9pt; } th { background: none; } thead { display: table-header-group; }
+    figure svg { width: 100%; max-width: 100%; border: 0; }
+  }
 "#;
 
 /// The document as a self-contained HTML page.
 pub fn html(title: &str, blocks: &[Block]) -> String {
     let mut out = format!(
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n",
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>{}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n",
         escape(title)
     );
     for b in blocks {
@@ -251,7 +268,11 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
                 for row in rows {
                     out.push_str("<tr>");
                     for (i, c) in row.iter().enumerate() {
-                        out.push_str(&format!("<td{}>{}</td>", class(i), escape(c)));
+                        let label = headers
+                            .get(i)
+                            .map(|h| format!(" data-label=\"{}\"", escape(h)))
+                            .unwrap_or_default();
+                        out.push_str(&format!("<td{}{label}>{}</td>", class(i), escape(c)));
                     }
                     out.push_str("</tr>\n");
                 }
@@ -323,7 +344,11 @@ mod tests {
         assert!(md.contains("| a | b\\|c |"));
         let h = html("t", &doc);
         assert!(h.contains("<h1>Ticket &lt;A&amp;B&gt;</h1>"));
-        assert!(h.contains("<td class=\"num\">2</td>"));
+        assert!(h.contains("<td class=\"num\" data-label=\"b|c\">2</td>"));
+        assert!(
+            h.contains("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">")
+        );
+        assert!(h.contains("@media screen and (max-width: 600px)") && h.contains("@media print"));
         assert!(h.contains("class=\"cautions\""));
     }
 }

@@ -423,9 +423,26 @@ pub fn finished_svg<T, E: std::fmt::Display>(
     what: &str,
 ) -> String {
     match drawn {
-        Ok(_) => pim_io::text::xml_chars_only(svg),
+        Ok(_) => scalable_root(pim_io::text::xml_chars_only(svg), (width, height)),
         Err(e) => fallback_svg(width, height, &format!("{what} could not be drawn: {e}")),
     }
+}
+
+/// The root element's size given by its viewBox alone: as wide as the page or screen
+/// allows, at most its natural `width` pixels, its height following the viewBox's
+/// proportions (plotters writes a fixed `width` and `height`; only those are replaced).
+pub(crate) fn scalable_root(svg: String, (width, height): (u32, u32)) -> String {
+    let fixed = format!("<svg width=\"{width}\" height=\"{height}\" viewBox=");
+    let scalable = format!("<svg {} viewBox=", scalable_size(width));
+    match svg.strip_prefix(fixed.as_str()) {
+        Some(rest) => format!("{scalable}{rest}"),
+        None => svg,
+    }
+}
+
+/// The root attributes that size a picture by its viewBox, at most `width` pixels wide.
+fn scalable_size(width: u32) -> String {
+    format!("width=\"100%\" style=\"max-width:{width}px;height:auto\"")
 }
 
 /// A plain SVG saying a picture could not be drawn (writing into memory does not fail
@@ -433,7 +450,8 @@ pub fn finished_svg<T, E: std::fmt::Display>(
 pub fn fallback_svg(width: u32, height: u32, message: &str) -> String {
     let escaped = pim_io::text::xml_escape(message);
     format!(
-        "<svg width=\"{width}\" height=\"{height}\" viewBox=\"0 0 {width} {height}\" xmlns=\"http://www.w3.org/2000/svg\">\n<rect x=\"0\" y=\"0\" width=\"{width}\" height=\"{height}\" fill=\"#FFFFFF\"/>\n<text x=\"16\" y=\"32\" font-family=\"{FONT}\" font-size=\"{SUBTITLE_PX}\" fill=\"#232930\">{escaped}</text>\n</svg>\n"
+        "<svg {} viewBox=\"0 0 {width} {height}\" xmlns=\"http://www.w3.org/2000/svg\">\n<rect x=\"0\" y=\"0\" width=\"{width}\" height=\"{height}\" fill=\"#FFFFFF\"/>\n<text x=\"16\" y=\"32\" font-family=\"{FONT}\" font-size=\"{SUBTITLE_PX}\" fill=\"#232930\">{escaped}</text>\n</svg>\n",
+        scalable_size(width)
     )
 }
 
@@ -510,6 +528,17 @@ mod tests {
     fn wider_text_is_wider() {
         assert!(text_width_px("SKP-152", 11.0) > text_width_px("SKP", 11.0));
         assert!(text_width_px("", 11.0) == 0.0);
+    }
+
+    #[test]
+    fn roots_scale_by_their_view_box() {
+        let drawn = "<svg width=\"1040\" height=\"640\" viewBox=\"0 0 1040 640\" xmlns=\"http://www.w3.org/2000/svg\">\n</svg>\n";
+        let svg = finished_svg::<(), String>(Ok(()), drawn.to_string(), (1040, 640), "x");
+        assert!(svg.starts_with(
+            "<svg width=\"100%\" style=\"max-width:1040px;height:auto\" viewBox=\"0 0 1040 640\""
+        ));
+        let failed = finished_svg::<(), String>(Err("no".into()), String::new(), (1040, 640), "x");
+        assert!(failed.contains("viewBox=\"0 0 1040 640\"") && failed.contains("max-width:1040px"));
     }
 
     #[test]

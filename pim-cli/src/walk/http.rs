@@ -19,9 +19,13 @@
 //! - Ctrl-C stops accepting at once, lets the requests in hand finish for at most
 //!   [`SHUTDOWN_GRACE`], then ends every connection.
 //!
+//! - over TLS, the handshake must end within [`HEADER_TIMEOUT`] (its connection counts
+//!   against the limit meanwhile); a plain HTTP request to the TLS port is answered 400
+//!   with the `https://` address to use, and closed.
+//!
 //! Nothing here knows what the page does: [`serve`] takes any axum router. A connection
-//! is served over any byte stream ([`serve_connection`]), so TLS would wrap the accepted
-//! stream there and change nothing else.
+//! is served over any byte stream ([`serve_connection`]): TLS wraps the accepted stream
+//! and changes nothing else.
 
 use std::future::Future;
 use std::sync::Arc;
@@ -69,6 +73,8 @@ pub const SHUTDOWN_GRACE: Duration = Duration::from_millis(1000);
 pub struct Guard {
     pub token: String,
     pub port: u16,
+    /// Host names (not address literals) this server answers to (`--name`).
+    pub names: Vec<String>,
 }
 
 impl Guard {
@@ -86,7 +92,7 @@ impl Guard {
             .headers()
             .get(header::HOST)
             .and_then(|h| h.to_str().ok());
-        let Some(host) = host.filter(|h| host_is_ours(h, self.port)) else {
+        let Some(host) = host.filter(|h| host_is_ours(h, self.port, &self.names)) else {
             return Some("refused: the Host does not name this server");
         };
         if request.method() != Method::GET {
@@ -111,9 +117,10 @@ pub fn query_value(query: &str, name: &str) -> Option<String> {
         .map(|(_, v)| v.into_owned())
 }
 
-/// Whether a Host header names this server: an address literal or `localhost`, with
-/// this port (a name that resolves here by DNS is refused: no rebinding).
-pub fn host_is_ours(host: &str, port: u16) -> bool {
+/// Whether a Host header names this server: an address literal, `localhost` or one of
+/// `names`, with this port (any other name that resolves here by DNS is refused: no
+/// rebinding).
+pub fn host_is_ours(host: &str, port: u16, names: &[String]) -> bool {
     let Some((name, p)) = host.rsplit_once(':') else {
         return false;
     };
@@ -121,7 +128,9 @@ pub fn host_is_ours(host: &str, port: u16) -> bool {
         return false;
     }
     let name = name.trim_start_matches('[').trim_end_matches(']');
-    name.eq_ignore_ascii_case("localhost") || name.parse::<std::net::IpAddr>().is_ok()
+    name.eq_ignore_ascii_case("localhost")
+        || name.parse::<std::net::IpAddr>().is_ok()
+        || names.iter().any(|n| n.eq_ignore_ascii_case(name))
 }
 
 /// A plain-text answer (refusals and errors).
@@ -235,10 +244,47 @@ where
     }
 }
 
-/// Accepts connections on `listener` and serves `app` on each until `stop` completes;
-/// then stops accepting and lets the requests in hand finish for at most
-/// [`SHUTDOWN_GRACE`].
-pub async fn serve(listener: TcpListener, app: Router, stop: impl Future<Output = ()>) {
+/// The TLS handshake of an accepted connection, within [`HEADER_TIMEOUT`]; a client
+/// speaking plain HTTP (its first byte is not a TLS handshake record's, 0x16) gets a
+/// 400 naming the `https://` address, and `None`.
+async fn handshake(
+    stream: tokio::net::TcpStream,
+    acceptor: tokio_rustls::TlsAcceptor,
+) -> Option<tokio_rustls::server::TlsStream<tokio::net::TcpStream>> {
+    use tokio::io::AsyncWriteExt;
+    tokio::time::timeout(HEADER_TIMEOUT, async move {
+        let mut first = [0u8; 1];
+        let mut stream = stream;
+        if stream.peek(&mut first).await.ok()? == 0 {
+            return None;
+        }
+        if first[0] != 0x16 {
+            let body = "refused: this server speaks HTTPS only; open the https:// address printed by pim walk\n";
+            let answer = format!(
+                "HTTP/1.1 400 Bad Request\r\ncontent-type: text/plain; charset=utf-8\r\ncontent-length: {}\r\nconnection: close\r\n\r\n{body}",
+                body.len()
+            );
+            let _ = stream.write_all(answer.as_bytes()).await;
+            let _ = stream.shutdown().await;
+            return None;
+        }
+        acceptor.accept(stream).await.ok()
+    })
+    .await
+    .ok()
+    .flatten()
+}
+
+/// Accepts connections on `listener` and serves `app` on each (over TLS when `tls` is
+/// given) until `stop` completes; then stops accepting and lets the requests in hand
+/// finish for at most [`SHUTDOWN_GRACE`].
+pub async fn serve(
+    listener: TcpListener,
+    app: Router,
+    tls: Option<Arc<rustls::ServerConfig>>,
+    stop: impl Future<Output = ()>,
+) {
+    let acceptor = tls.map(tokio_rustls::TlsAcceptor::from);
     let permits = Arc::new(Semaphore::new(MAX_CONNECTIONS));
     let graceful = GracefulShutdown::new();
     let builder = http1();
@@ -263,11 +309,27 @@ pub async fn serve(listener: TcpListener, app: Router, stop: impl Future<Output 
             continue;
         };
         let _ = stream.set_nodelay(true);
-        let connection = serve_connection(&builder, &graceful, stream, app.clone());
-        tokio::spawn(async move {
-            connection.await;
-            drop(permit);
-        });
+        match &acceptor {
+            None => {
+                let connection = serve_connection(&builder, &graceful, stream, app.clone());
+                tokio::spawn(async move {
+                    connection.await;
+                    drop(permit);
+                });
+            }
+            Some(acceptor) => {
+                let (acceptor, builder, app) = (acceptor.clone(), builder.clone(), app.clone());
+                let watcher = graceful.watcher();
+                tokio::spawn(async move {
+                    if let Some(tls) = handshake(stream, acceptor).await {
+                        let service = hyper_util::service::TowerToHyperService::new(app);
+                        let connection = builder.serve_connection(TokioIo::new(tls), service);
+                        let _ = watcher.watch(connection).await;
+                    }
+                    drop(permit);
+                });
+            }
+        }
     }
     drop(listener);
     let _ = tokio::time::timeout(SHUTDOWN_GRACE, graceful.shutdown()).await;
@@ -297,13 +359,18 @@ mod tests {
 
     #[test]
     fn hosts() {
-        assert!(host_is_ours("127.0.0.1:8080", 8080));
-        assert!(host_is_ours("localhost:8080", 8080));
-        assert!(host_is_ours("[::1]:8080", 8080));
-        assert!(host_is_ours("192.168.43.1:8080", 8080));
-        assert!(!host_is_ours("evil.example:8080", 8080));
-        assert!(!host_is_ours("127.0.0.1:8081", 8080));
-        assert!(!host_is_ours("127.0.0.1", 8080));
+        let none: &[String] = &[];
+        let named = &["walk.test".to_string()];
+        assert!(host_is_ours("127.0.0.1:8080", 8080, none));
+        assert!(host_is_ours("localhost:8080", 8080, none));
+        assert!(host_is_ours("[::1]:8080", 8080, none));
+        assert!(host_is_ours("192.168.43.1:8080", 8080, none));
+        assert!(!host_is_ours("evil.example:8080", 8080, none));
+        assert!(!host_is_ours("walk.test:8080", 8080, none));
+        assert!(host_is_ours("WALK.test:8080", 8080, named));
+        assert!(!host_is_ours("evil.example:8080", 8080, named));
+        assert!(!host_is_ours("127.0.0.1:8081", 8080, none));
+        assert!(!host_is_ours("127.0.0.1", 8080, none));
     }
 
     #[test]

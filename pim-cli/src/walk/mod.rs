@@ -4,14 +4,20 @@
 //! phones may log to one walk at once.
 //!
 //! Every request needs the random token printed with the page's address (compared in
-//! constant time); every request's Host must name this server by address, and a write's
-//! Origin, when sent, must be the page's own. Nothing but the log is written and nothing
+//! constant time); every request's Host must name this server by address (or a name
+//! given by `--name`), and a write's Origin, when sent, must be the page's own.
+//!
+//! On a loopback address the page is served over plain HTTP; on any other (the site's
+//! network) over HTTPS only, with a certificate the server makes and keeps ([`tls`]),
+//! since browsers give geolocation only to a secure context. The address is printed
+//! first on standard output, and as a QR code on the terminal (and `--qr FILE.svg`). Nothing but the log is written and nothing
 //! but the page is served. The HTTP layer and its limits are in [`http`]; what the page
 //! asks for in [`state`]. Ctrl-C lets the requests in hand finish (for at most
 //! [`http::SHUTDOWN_GRACE`]), so the log is always whole.
 
 mod http;
 mod state;
+mod tls;
 
 use std::io::Write;
 use std::net::SocketAddr;
@@ -44,9 +50,21 @@ pub struct Args {
     /// The field log to add readings to (created with its header when missing).
     #[arg(long, value_name = "FILE")]
     pub log: PathBuf,
-    /// Address and port to listen on; 0.0.0.0:PORT serves phones on the same network.
+    /// Address and port to listen on; 0.0.0.0:PORT serves phones on the same network
+    /// (over HTTPS: any address but loopback is served over HTTPS only).
     #[arg(long, value_name = "ADDR:PORT", default_value = "127.0.0.1:0")]
     pub listen: SocketAddr,
+    /// A host name phones may use for this machine (accepted in the Host header and
+    /// named in the certificate); may be given more than once.
+    #[arg(long = "name", value_name = "HOST")]
+    pub names: Vec<String>,
+    /// Folder the HTTPS certificate and its key are kept in between runs (default:
+    /// `pim-walk-tls` beside the log).
+    #[arg(long, value_name = "DIR")]
+    pub tls_dir: Option<PathBuf>,
+    /// Also write the address as a QR code to this SVG file (replaced each run).
+    #[arg(long, value_name = "FILE.svg")]
+    pub qr: Option<PathBuf>,
     /// Site structures (CSV) to show on the map.
     #[arg(long, value_name = "FILE")]
     pub structures: Option<PathBuf>,
@@ -82,7 +100,44 @@ pub fn run(args: Args) -> CliResult {
         emitters,
         candidates,
     ));
+    for name in &args.names {
+        check_name(name)?;
+    }
     let token = new_token()?;
+    let secure = !args.listen.ip().is_loopback();
+    let lan = if args.listen.ip().is_unspecified() {
+        tls::lan_address()
+    } else {
+        None
+    };
+    let inputs: Vec<&std::path::Path> = [
+        Some(args.log.as_path()),
+        args.structures.as_deref(),
+        args.emitters.as_deref(),
+        args.candidates.as_deref(),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    let identity = if secure {
+        let mut names: Vec<String> = vec!["localhost".into(), "127.0.0.1".into(), "::1".into()];
+        if !args.listen.ip().is_unspecified() {
+            names.push(args.listen.ip().to_string());
+        }
+        names.extend(lan.map(|ip| ip.to_string()));
+        names.extend(args.names.iter().map(|n| n.to_ascii_lowercase()));
+        let dir = args
+            .tls_dir
+            .clone()
+            .unwrap_or_else(|| tls::default_dir(&args.log));
+        Some(tls::load_or_make(&dir, &names, &inputs)?)
+    } else {
+        None
+    };
+    let tls_config = identity.as_ref().map(tls::server_config).transpose()?;
+    if let Some(qr) = &args.qr {
+        pim_io::output::check_output(qr, &inputs, pim_io::output::Existing::Replace)?;
+    }
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .worker_threads(2)
         .max_blocking_threads(WORKERS)
@@ -102,31 +157,69 @@ pub fn run(args: Args) -> CliResult {
         let stop = http::ctrl_c().map_err(|e| {
             CliError::Core(Error::refused(format!("cannot catch Ctrl-C: {e}")))
         })?;
-        let shown = if args.listen.ip().is_unspecified() {
-            "127.0.0.1".to_string()
-        } else {
-            match args.listen {
-                SocketAddr::V4(a) => a.ip().to_string(),
-                SocketAddr::V6(a) => format!("[{}]", a.ip()),
-            }
+        let ip = match (args.listen.ip().is_unspecified(), lan) {
+            (true, Some(ip)) => ip,
+            (true, None) => std::net::IpAddr::from([127, 0, 0, 1]),
+            (false, _) => args.listen.ip(),
         };
+        let shown = match ip {
+            std::net::IpAddr::V4(a) => a.to_string(),
+            std::net::IpAddr::V6(a) => format!("[{a}]"),
+        };
+        let scheme = if secure { "https" } else { "http" };
+        let url = format!("{scheme}://{shown}:{port}/?token={token}");
         // The address alone on standard output (for scripts); the rest is for the walker.
         {
             let mut out = std::io::stdout().lock();
-            writeln!(out, "http://{shown}:{port}/?token={token}")?;
+            writeln!(out, "{url}")?;
             out.flush()?;
+        }
+        let code = qrcode::QrCode::new(url.as_bytes())
+            .map_err(|e| Error::refused(format!("cannot make the QR code: {e}")))?;
+        if let Some(path) = &args.qr {
+            let svg = code
+                .render::<qrcode::render::svg::Color>()
+                .min_dimensions(256, 256)
+                .build();
+            pim_io::output::write_file_atomically(
+                path,
+                svg.into_bytes(),
+                &inputs,
+                pim_io::output::Existing::Replace,
+            )?;
+            eprintln_safe!("pim: the address as a QR code: {}", path.display());
         }
         eprintln_safe!(
             "pim: saving readings to {}. Open the address above on the phone; Ctrl-C stops.",
             args.log.display()
         );
-        if args.listen.ip().is_unspecified() {
-            eprintln_safe!(
-                "pim: from other devices, use this machine's address on the network instead of 127.0.0.1."
+        if let Some(identity) = &identity {
+            // The QR code is ours (block characters only), printed unescaped.
+            eprintln!(
+                "{}",
+                code.render::<qrcode::render::unicode::Dense1x2>()
+                    .quiet_zone(true)
+                    .build()
             );
+            eprintln_safe!(
+                "pim: HTTPS with the certificate in {}{}; SHA-256 fingerprint\n     {}\n     Accept it once on the phone after checking this fingerprint.",
+                identity.dir.display(),
+                if identity.made { " (new: phones accept it again)" } else { "" },
+                identity.fingerprint
+            );
+            if args.listen.ip().is_unspecified() && lan.is_none() {
+                eprintln_safe!(
+                    "pim: this machine's address on the network was not found: on the phone, use it in place of 127.0.0.1."
+                );
+            }
         }
-        let app = http::guarded(routes(walk), Arc::new(http::Guard { token, port }));
-        http::serve(listener, app, stop).await;
+        let guard = http::Guard {
+            token,
+            port,
+            names: args.names.iter().map(|n| n.to_ascii_lowercase()).collect(),
+        };
+        let app = http::guarded(routes(walk), Arc::new(guard));
+        http::serve(listener, app, tls_config, stop).await;
         CliResult::Ok(())
     })?;
     runtime.shutdown_timeout(std::time::Duration::from_millis(300));
@@ -205,6 +298,30 @@ async fn post_undo(State(walk): State<Arc<Walk>>) -> Response {
     match blocking(move || state::undo(&walk)).await {
         Ok((status, v)) => json_response(status, &v),
         Err(r) => r,
+    }
+}
+
+/// A `--name` is a DNS host name (letters, digits, `-` and `.`), not an address.
+fn check_name(name: &str) -> CliResult {
+    let ok = !name.is_empty()
+        && name.len() <= 253
+        && name.parse::<std::net::IpAddr>().is_err()
+        && name.split('.').all(|label| {
+            !label.is_empty()
+                && label.len() <= 63
+                && !label.starts_with('-')
+                && !label.ends_with('-')
+                && label
+                    .bytes()
+                    .all(|b| b.is_ascii_alphanumeric() || b == b'-')
+        });
+    if ok {
+        Ok(())
+    } else {
+        Err(CliError::Core(Error::argument(
+            "--name",
+            format!("`{name}` is not a host name (letters, digits, `-` and `.`)"),
+        )))
     }
 }
 

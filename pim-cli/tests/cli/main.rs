@@ -24,6 +24,7 @@ mod ticket;
 mod vocabulary;
 mod walk_page;
 mod walk_server;
+mod walk_tls;
 
 /// Running the binary under test, and the shared helpers of the `pim-tests` crate.
 mod support {

@@ -122,6 +122,22 @@ fn check_ticket_dir(dir: &Path) {
         }
     }
     assert!(!html.contains("src=\"http") && !html.contains("href=\"http"));
+    // on a phone: the viewport tag, and every picture (inline or in its own file) sized
+    // by its viewBox, at most its natural width
+    assert!(html.contains("<meta name=\"viewport\" content=\"width=device-width"));
+    assert!(html.contains("data-label=\""));
+    let files: Vec<String> = ["map.svg", "spectrum.svg", "trace.svg"]
+        .iter()
+        .filter_map(|f| std::fs::read_to_string(dir.join(f)).ok())
+        .collect();
+    for svg in std::iter::once(&html).chain(&files) {
+        for root in svg.split("<svg").skip(1) {
+            let root = &root[..root.find('>').unwrap()];
+            assert!(root.contains("viewBox=\"0 0 "), "{root}");
+            assert!(root.contains("width=\"100%\" style=\"max-width:"), "{root}");
+            assert!(!root.contains("height=\""), "{root}");
+        }
+    }
     // candidates.csv: a header and the first candidate first
     let csv = std::fs::read_to_string(dir.join("candidates.csv")).unwrap();
     let mut rows = csv.lines();
