@@ -190,12 +190,46 @@ pub fn markdown(blocks: &[Block]) -> String {
 /// Text made safe for HTML (the XML escape of [`pim_io::text::xml_escape`]).
 pub use pim_io::text::xml_escape as escape;
 
+/// Text made safe for HTML with the code spans the Markdown has: a pair of backticks
+/// around text without a backtick or a bar (as the tool writes commands and options,
+/// [`md_inline`]) becomes `<code>`, the rest is escaped.
+///
+/// ```
+/// use pim_report::document::html_inline;
+/// assert_eq!(html_inline("run `pim slope <x>` & go"), "run <code>pim slope &lt;x&gt;</code> &amp; go");
+/// assert_eq!(html_inline("a ` b"), "a ` b");
+/// ```
+pub fn html_inline(text: &str) -> String {
+    let mut out = String::with_capacity(text.len() + 16);
+    let mut rest = text;
+    while let Some(open) = rest.find('`') {
+        let after = &rest[open + 1..];
+        let span = after.find('`').map(|close| &after[..close]).filter(|c| {
+            !c.is_empty() && !c.contains('|') && !c.starts_with(' ') && !c.ends_with(' ')
+        });
+        match span {
+            Some(code) => {
+                out.push_str(&escape(&rest[..open]));
+                out.push_str(&format!("<code>{}</code>", escape(code)));
+                rest = &after[code.len() + 1..];
+            }
+            None => {
+                out.push_str(&escape(&rest[..open + 1]));
+                rest = after;
+            }
+        }
+    }
+    out.push_str(&escape(rest));
+    out
+}
+
 const STYLE: &str = r#"
   :root { --ink:#1d2430; --muted:#5b6573; --rule:#d5dae1; --band:#f3f5f8; --accent:#8a3b12; --warn:#fff4e5; }
   body { font: 15px/1.45 "Segoe UI", "Helvetica Neue", Arial, sans-serif; color: var(--ink); max-width: 58rem; margin: 2rem auto; padding: 0 1rem; }
   h1 { font-size: 1.5rem; border-bottom: 3px solid var(--accent); padding-bottom: .3rem; }
   h2 { font-size: 1.15rem; margin-top: 1.8rem; color: var(--accent); }
   h3 { font-size: 1rem; }
+  code { font-family: ui-monospace, "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: .92em; background: var(--band); padding: 0 .2em; overflow-wrap: anywhere; }
   table { border-collapse: collapse; width: 100%; margin: .5rem 0 1rem; font-size: 13.5px; }
   th, td { border-bottom: 1px solid var(--rule); padding: .3rem .45rem; text-align: left; vertical-align: top; }
   th { background: var(--band); font-weight: 600; }
@@ -235,7 +269,7 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
             Block::Heading(level, text) => {
                 out.push_str(&format!("<h{level}>{}</h{level}>\n", escape(text)));
             }
-            Block::Para(text) => out.push_str(&format!("<p>{}</p>\n", escape(text))),
+            Block::Para(text) => out.push_str(&format!("<p>{}</p>\n", html_inline(text))),
             Block::List(items) | Block::Steps(items) => {
                 let tag = if matches!(b, Block::Steps(_)) {
                     "ol"
@@ -244,7 +278,7 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
                 };
                 out.push_str(&format!("<{tag}>\n"));
                 for i in items {
-                    out.push_str(&format!("  <li>{}</li>\n", escape(i)));
+                    out.push_str(&format!("  <li>{}</li>\n", html_inline(i)));
                 }
                 out.push_str(&format!("</{tag}>\n"));
             }
@@ -272,7 +306,7 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
                             .get(i)
                             .map(|h| format!(" data-label=\"{}\"", escape(h)))
                             .unwrap_or_default();
-                        out.push_str(&format!("<td{}{label}>{}</td>", class(i), escape(c)));
+                        out.push_str(&format!("<td{}{label}>{}</td>", class(i), html_inline(c)));
                     }
                     out.push_str("</tr>\n");
                 }
@@ -291,7 +325,7 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
             Block::Cautions(items) => {
                 out.push_str("<div class=\"cautions\"><strong>Cautions</strong>\n<ul>\n");
                 for i in items {
-                    out.push_str(&format!("  <li>{}</li>\n", escape(i)));
+                    out.push_str(&format!("  <li>{}</li>\n", html_inline(i)));
                 }
                 out.push_str("</ul>\n</div>\n");
             }

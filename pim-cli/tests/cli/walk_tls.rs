@@ -201,16 +201,20 @@ fn network_walk_serves_https_with_a_kept_certificate_and_a_qr_code() {
     plain
         .set_read_timeout(Some(Duration::from_secs(10)))
         .unwrap();
-    write!(
+    // (the server may answer and close before the whole request is written: a write
+    // error or an empty read is a refusal too, though its 400 is what a browser sees)
+    let _ = write!(
         plain,
         "GET /?token={} HTTP/1.1\r\nHost: 127.0.0.1:{}\r\n\r\n",
         first.token, first.port
-    )
-    .unwrap();
+    );
     let mut answer = String::new();
     let _ = plain.read_to_string(&mut answer);
-    assert!(answer.starts_with("HTTP/1.1 400"), "{answer}");
-    assert!(answer.contains("HTTPS only") && !answer.contains("<html"));
+    assert!(!answer.contains("<html"), "{answer}");
+    assert!(
+        answer.is_empty() || (answer.starts_with("HTTP/1.1 400") && answer.contains("HTTPS only")),
+        "{answer}"
+    );
 
     // the QR code on the terminal, and the one written, are the address
     assert_eq!(decode_terminal_qr(&first.told), first.url);
