@@ -228,6 +228,15 @@ fn commands(dir: &Path) -> Vec<String> {
     let heard = HEARD.mhz_text();
     let (rx_lat, rx_lon) = (RX_SITE.lat_deg.to_string(), RX_SITE.lon_deg.to_string());
     let height = JUNCTION_HEIGHT_M.to_string();
+    // the receiver on the old tower, the joint among its antennas
+    let at_tower = [
+        "--rx-lat",
+        rx_lat.as_str(),
+        "--rx-lon",
+        rx_lon.as_str(),
+        "--junction-height-m",
+        height.as_str(),
+    ];
     vec![
         pim_command(["fix", "--log", &file("walk.csv")]),
         pim_command(["log", "--log", &file("walk.csv"), "--list"]),
@@ -250,24 +259,19 @@ fn commands(dir: &Path) -> Vec<String> {
             "--emitters",
             &file("emitters.csv"),
         ]),
-        pim_command([
-            "explain",
-            &heard,
-            "--emitters",
-            &file("emitters.csv"),
-            "--rx-lat",
-            &rx_lat,
-            "--rx-lon",
-            &rx_lon,
-            "--junction-height-m",
-            &height,
-            "--on-air",
-            &file("on-air.csv"),
-            "--heard",
-            &file("heard.csv"),
-            "--power-steps",
-            &file("power-steps.csv"),
-        ]),
+        pim_command(
+            ["explain", &heard, "--emitters", &file("emitters.csv")]
+                .into_iter()
+                .chain(at_tower)
+                .chain([
+                    "--on-air",
+                    &file("on-air.csv"),
+                    "--heard",
+                    &file("heard.csv"),
+                    "--power-steps",
+                    &file("power-steps.csv"),
+                ]),
+        ),
         pim_command([
             "study",
             "--emitters",
@@ -293,31 +297,26 @@ fn commands(dir: &Path) -> Vec<String> {
             "--svg",
             &beside("-waterfall.svg"),
         ]),
-        pim_command([
-            "ticket",
-            &heard,
-            "--emitters",
-            &file("emitters.csv"),
-            "--log",
-            &file("walk.csv"),
-            "--structures",
-            &file("structures.csv"),
-            "--trace",
-            &file("trace.csv"),
-            "--attenuator-readings",
-            &file("attenuator-readings.csv"),
-            "--power-steps",
-            &file("power-steps.csv"),
-            "--rx-lat",
-            &rx_lat,
-            "--rx-lon",
-            &rx_lon,
-            "--junction-height-m",
-            &height,
-            "--site",
-            "Marrow Hill",
-            "--out",
-            &beside("-again"),
-        ]),
+        pim_command(
+            [
+                "ticket",
+                &heard,
+                "--emitters",
+                &file("emitters.csv"),
+                "--log",
+                &file("walk.csv"),
+                "--structures",
+                &file("structures.csv"),
+                "--trace",
+                &file("trace.csv"),
+                "--attenuator-readings",
+                &file("attenuator-readings.csv"),
+                "--power-steps",
+                &file("power-steps.csv"),
+            ]
+            .into_iter()
+            .chain(at_tower)
+            .chain(["--site", "Marrow Hill", "--out", &beside("-again")]),
+        ),
     ]
 }
