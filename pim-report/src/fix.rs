@@ -207,8 +207,9 @@ pub fn method_and_measurements(fix: &Fix) -> String {
 /// differently (set aside in the near field, a lower bound at saturation, an outlier).
 pub fn level_status(l: &pim_core::fix::LevelFit) -> String {
     let mut s = format!(
-        "level {:.1} dBm, residual {:+.1} dB",
-        l.level_dbm, l.residual_db
+        "level {} dBm, residual {} dB",
+        pim_io::precision::fixed(l.level_dbm, 1),
+        pim_io::precision::signed(l.residual_db, 1)
     );
     if l.near_field {
         s.push_str(" (near field: set aside)");
@@ -314,10 +315,11 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
         let (lo, hi) = corrections.iter().fold((f64::MAX, f64::MIN), |(a, b), c| {
             (a.min(c.declination_deg), b.max(c.declination_deg))
         });
+        let signed = |v: f64| pim_io::precision::signed(v, 1);
         let range = if (hi - lo).abs() < 0.05 {
-            format!("{lo:+.1}°")
+            format!("{}°", signed(lo))
         } else {
-            format!("{lo:+.1}° to {hi:+.1}°")
+            format!("{}° to {}°", signed(lo), signed(hi))
         };
         s.push_str(&format!(
             "  {} magnetic reading{} turned to true north by {range} ({})\n",
@@ -369,7 +371,7 @@ pub fn readings_table(fix: &Fix) -> String {
         ("range m", Align::Right),
         ("weight", Align::Right),
         ("setup", Align::Left),
-        ("", Align::Left),
+        ("status", Align::Left),
     ]);
     for r in &fix.levels {
         let mut flags = Vec::new();
@@ -384,11 +386,11 @@ pub fn readings_table(fix: &Fix) -> String {
         }
         l.push(vec![
             r.line.to_string(),
-            format!("{:.1}", r.level_dbm),
-            format!("{:.1}", r.predicted_dbm),
-            format!("{:+.1}", r.residual_db),
-            format!("{:.0}", r.distance_m),
-            format!("{:.2}", r.weight),
+            pim_io::precision::fixed(r.level_dbm, 1),
+            pim_io::precision::fixed(r.predicted_dbm, 1),
+            pim_io::precision::signed(r.residual_db, 1),
+            pim_io::precision::fixed(r.distance_m, 0),
+            pim_io::precision::fixed(r.weight, 2),
             r.setup.clone().unwrap_or_default(),
             flags.join(", "),
         ]);
