@@ -21,13 +21,12 @@ use pim_report::ticket::fix_map_input;
 use pim_report::walk::{form_error_json, page_next_json};
 use serde_json::{json, Value};
 
-use crate::common::CliError;
-use crate::fix::{fix_from_log, fix_json, FixArgs};
+use crate::Fixer;
 
 /// What every request reads.
 pub struct Walk {
     pub log: PathBuf,
-    pub fix: FixArgs,
+    pub fixer: Box<Fixer>,
     pub structures: Vec<Structure>,
     pub emitters: Vec<Emitter>,
     pub candidates: Option<Vec<Spot>>,
@@ -45,14 +44,14 @@ struct Worked {
 impl Walk {
     pub fn new(
         log: PathBuf,
-        fix: FixArgs,
+        fixer: Box<Fixer>,
         structures: Vec<Structure>,
         emitters: Vec<Emitter>,
         candidates: Option<Vec<Spot>>,
     ) -> Self {
         Walk {
             log,
-            fix,
+            fixer,
             structures,
             emitters,
             candidates,
@@ -138,9 +137,9 @@ fn work_out(walk: &Walk, bytes: &[u8], v: &str) -> (Value, Option<Fix>) {
     let rows = rows(bytes);
     let text = String::from_utf8_lossy(bytes);
     let last_spot = last_position(&walk.log, &text);
-    let (fix, prepared) = match fix_from_log(&walk.log, Some(&text), &walk.fix) {
+    let (fix, fix_json) = match (walk.fixer)(&walk.log, &text) {
         Ok(v) => v,
-        Err(CliError::Core(e)) => {
+        Err(e) => {
             let why = if e.class == ErrorClass::Refused {
                 e.message
             } else {
@@ -148,18 +147,12 @@ fn work_out(walk: &Walk, bytes: &[u8], v: &str) -> (Value, Option<Fix>) {
             };
             return (json!({"rows": rows, "version": v, "no_fix": why}), None);
         }
-        Err(CliError::BrokenPipe) => {
-            return (
-                json!({"rows": rows, "version": v, "no_fix": "unreadable"}),
-                None,
-            )
-        }
     };
     let next = next_spot(walk, &fix, last_spot);
     let mut state = json!({
         "rows": rows,
         "version": v,
-        "fix": fix_json(&fix, &prepared.corrections),
+        "fix": fix_json,
         "next": next,
     });
     // the numbers as every JSON of the tool writes them

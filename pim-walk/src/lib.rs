@@ -21,7 +21,7 @@ mod tls;
 
 use std::io::Write;
 use std::net::SocketAddr;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 use axum::body::Body;
@@ -30,13 +30,23 @@ use axum::http::{header, StatusCode};
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use axum::Router;
+use pim_core::emitter::Emitter;
 use pim_core::error::Error;
-use pim_io::fieldlog::read_spots;
+use pim_core::fix::Fix;
+use pim_core::ticket::Structure;
+use pim_core::walk::Spot;
 use serde_json::Value;
 
-use crate::common::{open, CliError, CliResult};
-use crate::fix::FixArgs;
 use state::Walk;
+
+/// `eprintln!` for the walker's notes, with text from files escaped
+/// (`pim_io::text::terminal_escape`) so no input can drive the terminal.
+macro_rules! note {
+    ($($arg:tt)*) => {{
+        let text = format!($($arg)*);
+        eprintln!("{}", pim_io::text::terminal_escape(&text, true));
+    }};
+}
 
 /// The page: one HTML document with its style, script and pictures inline.
 const PAGE: &str = include_str!("page.html");
@@ -45,60 +55,43 @@ const PAGE: &str = include_str!("page.html");
 /// for the one fix, so a save finds a thread free).
 const WORKERS: usize = 8;
 
-#[derive(clap::Args, Debug)]
-pub struct Args {
-    /// The field log to add readings to (created with its header when missing).
-    #[arg(long, value_name = "FILE")]
+/// How the running fix is worked out from the log's text: the fix and its JSON as
+/// `pim fix --format json` writes it, or why there is none (a refusal's message is
+/// shown on the page as it is). The caller's estimator options live inside it.
+pub type Fixer = dyn Fn(&Path, &str) -> Result<(Fix, Value), Error> + Send + Sync;
+
+/// A walk to serve.
+pub struct Config {
+    /// The field log readings are added to (created with its header when missing).
     pub log: PathBuf,
-    /// Address and port to listen on; 0.0.0.0:PORT serves phones on the same network
-    /// (over HTTPS: any address but loopback is served over HTTPS only).
-    #[arg(long, value_name = "ADDR:PORT", default_value = "127.0.0.1:0")]
+    /// Address and port; any address but loopback is served over HTTPS only.
     pub listen: SocketAddr,
-    /// A host name phones may use for this machine (accepted in the Host header and
-    /// named in the certificate); may be given more than once.
-    #[arg(long = "name", value_name = "HOST")]
+    /// Host names phones may use (Host check and certificate), checked by [`serve`].
     pub names: Vec<String>,
-    /// Folder the HTTPS certificate and its key are kept in between runs (default:
-    /// `pim-walk-tls` beside the log).
-    #[arg(long, value_name = "DIR")]
+    /// Folder the certificate is kept in (default `pim-walk-tls` beside the log).
     pub tls_dir: Option<PathBuf>,
-    /// Also write the address as a QR code to this SVG file (replaced each run).
-    #[arg(long, value_name = "FILE.svg")]
+    /// Also write the address as a QR code to this SVG file.
     pub qr: Option<PathBuf>,
-    /// Site structures (CSV) to show on the map.
-    #[arg(long, value_name = "FILE")]
-    pub structures: Option<PathBuf>,
-    /// Emitters (CSV) to show on the map.
-    #[arg(long, value_name = "FILE")]
-    pub emitters: Option<PathBuf>,
-    /// Spots one can reach (CSV with lat, lon and an `id` or `name`) to suggest the next one from; by
-    /// default a ring around the fix at the walk's typical range.
-    #[arg(long, value_name = "FILE")]
-    pub candidates: Option<PathBuf>,
-    /// The running fix's estimator, as in `pim fix`.
-    #[command(flatten)]
-    pub fix: FixArgs,
-    #[command(flatten)]
-    pub columns: crate::args::ColumnsArgs,
+    /// The files read (never written: the QR code and the certificate may not replace
+    /// one).
+    pub inputs: Vec<PathBuf>,
+    /// Site structures and emitters for the map.
+    pub structures: Vec<Structure>,
+    pub emitters: Vec<Emitter>,
+    /// Spots one can reach, to suggest the next one from (else a ring around the fix).
+    pub candidates: Option<Vec<Spot>>,
 }
 
-pub fn run(args: Args) -> CliResult {
-    let (structures, emitters) = crate::common::load_site_items(
-        args.structures.as_deref(),
-        args.emitters.as_deref(),
-        &args.columns,
-    )?;
-    let candidates = match &args.candidates {
-        Some(p) => Some(read_spots(&p.display().to_string(), open(p)?)?),
-        None => None,
-    };
+/// Serves the walk until Ctrl-C: prints the address (first line of standard output),
+/// its QR code and, over HTTPS, the certificate's fingerprint.
+pub fn serve(args: Config, fixer: Box<Fixer>) -> Result<(), Error> {
     pim_io::append::check_log_path(&args.log)?;
     let walk = Arc::new(Walk::new(
         args.log.clone(),
-        args.fix.clone(),
-        structures,
-        emitters,
-        candidates,
+        fixer,
+        args.structures,
+        args.emitters,
+        args.candidates,
     ));
     for name in &args.names {
         check_name(name)?;
@@ -110,15 +103,7 @@ pub fn run(args: Args) -> CliResult {
     } else {
         None
     };
-    let inputs: Vec<&std::path::Path> = [
-        Some(args.log.as_path()),
-        args.structures.as_deref(),
-        args.emitters.as_deref(),
-        args.candidates.as_deref(),
-    ]
-    .into_iter()
-    .flatten()
-    .collect();
+    let inputs: Vec<&Path> = args.inputs.iter().map(PathBuf::as_path).collect();
     let identity = if secure {
         let mut names: Vec<String> = vec!["localhost".into(), "127.0.0.1".into(), "::1".into()];
         if !args.listen.ip().is_unspecified() {
@@ -143,7 +128,7 @@ pub fn run(args: Args) -> CliResult {
         .max_blocking_threads(WORKERS)
         .enable_all()
         .build()
-        .map_err(|e| CliError::Core(Error::refused(format!("cannot start the server: {e}"))))?;
+        .map_err(|e| Error::refused(format!("cannot start the server: {e}")))?;
     runtime.block_on(async {
         let listener = tokio::net::TcpListener::bind(args.listen)
             .await
@@ -155,7 +140,7 @@ pub fn run(args: Args) -> CliResult {
             .map(|a| a.port())
             .unwrap_or(args.listen.port());
         let stop = http::ctrl_c().map_err(|e| {
-            CliError::Core(Error::refused(format!("cannot catch Ctrl-C: {e}")))
+            Error::refused(format!("cannot catch Ctrl-C: {e}"))
         })?;
         let ip = match (args.listen.ip().is_unspecified(), lan) {
             (true, Some(ip)) => ip,
@@ -171,8 +156,9 @@ pub fn run(args: Args) -> CliResult {
         // The address alone on standard output (for scripts); the rest is for the walker.
         {
             let mut out = std::io::stdout().lock();
-            writeln!(out, "{url}")?;
-            out.flush()?;
+            writeln!(out, "{url}")
+                .and_then(|()| out.flush())
+                .map_err(|e| Error::io("standard output", &e))?;
         }
         let code = qrcode::QrCode::new(url.as_bytes())
             .map_err(|e| Error::refused(format!("cannot make the QR code: {e}")))?;
@@ -187,9 +173,9 @@ pub fn run(args: Args) -> CliResult {
                 &inputs,
                 pim_io::output::Existing::Replace,
             )?;
-            eprintln_safe!("pim: the address as a QR code: {}", path.display());
+            note!("pim: the address as a QR code: {}", path.display());
         }
-        eprintln_safe!(
+        note!(
             "pim: saving readings to {}. Open the address above on the phone; Ctrl-C stops.",
             args.log.display()
         );
@@ -201,14 +187,14 @@ pub fn run(args: Args) -> CliResult {
                     .quiet_zone(true)
                     .build()
             );
-            eprintln_safe!(
+            note!(
                 "pim: HTTPS with the certificate in {}{}; SHA-256 fingerprint\n     {}\n     Accept it once on the phone after checking this fingerprint.",
                 identity.dir.display(),
                 if identity.made { " (new: phones accept it again)" } else { "" },
                 identity.fingerprint
             );
             if args.listen.ip().is_unspecified() && lan.is_none() {
-                eprintln_safe!(
+                note!(
                     "pim: this machine's address on the network was not found: on the phone, use it in place of 127.0.0.1."
                 );
             }
@@ -220,10 +206,10 @@ pub fn run(args: Args) -> CliResult {
         };
         let app = http::guarded(routes(walk), Arc::new(guard));
         http::serve(listener, app, tls_config, stop).await;
-        CliResult::Ok(())
+        Ok::<(), Error>(())
     })?;
     runtime.shutdown_timeout(std::time::Duration::from_millis(300));
-    eprintln_safe!("pim: walk stopped; {} is whole.", args.log.display());
+    note!("pim: walk stopped; {} is whole.", args.log.display());
     Ok(())
 }
 
@@ -302,7 +288,7 @@ async fn post_undo(State(walk): State<Arc<Walk>>) -> Response {
 }
 
 /// A `--name` is a DNS host name (letters, digits, `-` and `.`), not an address.
-fn check_name(name: &str) -> CliResult {
+fn check_name(name: &str) -> Result<(), Error> {
     let ok = !name.is_empty()
         && name.len() <= 253
         && name.parse::<std::net::IpAddr>().is_err()
@@ -318,20 +304,17 @@ fn check_name(name: &str) -> CliResult {
     if ok {
         Ok(())
     } else {
-        Err(CliError::Core(Error::argument(
+        Err(Error::argument(
             "--name",
             format!("`{name}` is not a host name (letters, digits, `-` and `.`)"),
-        )))
+        ))
     }
 }
 
 /// A fresh 128-bit token from the system's random source, as hex.
-fn new_token() -> CliResult<String> {
+fn new_token() -> Result<String, Error> {
     let mut bytes = [0u8; 16];
-    getrandom::fill(&mut bytes).map_err(|e| {
-        CliError::Core(Error::refused(format!(
-            "no random source for the access token: {e}"
-        )))
-    })?;
+    getrandom::fill(&mut bytes)
+        .map_err(|e| Error::refused(format!("no random source for the access token: {e}")))?;
     Ok(bytes.iter().map(|b| format!("{b:02x}")).collect())
 }
