@@ -680,8 +680,13 @@ fn build(
         });
     }
 
-    // 4. Inspect
-    doc.push(Block::Heading(2, "4. What to inspect".into()));
+    // 4. Cautions, before any work at the site
+    doc.push(Block::Heading(2, "4. Cautions".into()));
+    let exposure = exposure_at(t.site.emitters(), t.fix.position, t.model.junction_height_m);
+    doc.extend(caution_blocks(t, &exposure));
+
+    // 5. Inspect
+    doc.push(Block::Heading(2, "5. What to inspect".into()));
     // Structures that call for the same checks share one point, nearest first.
     let mut groups: Vec<(&[&str], Vec<String>)> = Vec::new();
     for n in near.iter().filter(|n| n.item == ItemKind::Structure) {
@@ -727,8 +732,8 @@ fn build(
     }
     doc.push(Block::List(inspect));
 
-    // 5. Confirm
-    doc.push(Block::Heading(2, "5. How to confirm".into()));
+    // 6. Confirm
+    doc.push(Block::Heading(2, "6. How to confirm".into()));
     let mut steps = Vec::new();
     match &t.evidence.attenuator {
         Some(test) => steps.push(attenuator_done(test)),
@@ -818,33 +823,12 @@ fn build(
             HEARD_FILE,
         ]))),
     }
-    let exposure = exposure_at(t.site.emitters(), t.fix.position, t.model.junction_height_m);
     steps.push(tap_test_text(&exposure, credible));
     doc.push(Block::Para(format!(
         "The commands name their files relative to this ticket's folder: run them there. {ATTENUATOR_FILE}, {POWER_STEPS_FILE}, {ON_AIR_FILE} and {HEARD_FILE} are the files the crew records."
     )));
     doc.push(Block::Steps(steps));
 
-    // 6. Cautions
-    doc.push(Block::Heading(2, "6. Cautions".into()));
-    let mut owners: Vec<String> = t
-        .site
-        .emitters()
-        .iter()
-        .filter_map(|e| e.owner.clone())
-        .collect();
-    owners.sort();
-    owners.dedup();
-    doc.extend(exposure_blocks(&exposure, t.site.emitters(), t.limit));
-    doc.push(Block::Cautions(vec![
-        "RF exposure: transmitting antennas on and around the site exceed exposure limits close in. Keep farther from each antenna than its reference distance above unless that transmitter is switched off, locked out and tagged out; keep to the site's RF safety plan and the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States).".into(),
-        "Tower and guy work only by trained, authorised climbers under the site owner's rules, with fall protection. Do not climb a disused or damaged structure until its condition has been checked; do not loosen clamps on a tensioned guy without a rigger.".into(),
-        format!(
-            "Power changes and shutdowns (power steps, an antenna switched off for work) only by arrangement with the licensees{}, who make them; a transmitter switched off for work is locked out and tagged out (lock-out/tag-out) until the work is done and everyone is clear.",
-            if owners.is_empty() { String::new() } else { format!(": {}", owners.join(", ")) }
-        ),
-        "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
-    ]));
     (doc, map, spectrum, band_svg)
 }
 
@@ -853,6 +837,32 @@ const ATTENUATOR_FILE: &str = "attenuator-readings.csv";
 const POWER_STEPS_FILE: &str = "power-steps.csv";
 const ON_AIR_FILE: &str = "on-air.csv";
 const HEARD_FILE: &str = "heard.csv";
+
+/// The cautions the ticket gives before any work step: the exposure near the
+/// antennas, climbing and guy anchors, arrangements with the licensees and local codes
+/// first (common practice of site safety rules).
+fn caution_blocks(t: &TicketInputs, exposure: &Exposure) -> Vec<Block> {
+    let mut owners: Vec<String> = t
+        .site
+        .emitters()
+        .iter()
+        .filter_map(|e| e.owner.clone())
+        .collect();
+    owners.sort();
+    owners.dedup();
+    let mut doc = exposure_blocks(exposure, t.site.emitters(), t.limit);
+    doc.push(Block::Cautions(vec![
+        "RF exposure: transmitting antennas on and around the site exceed exposure limits close in. Keep farther from each antenna than its reference distance above unless that transmitter is switched off, locked out and tagged out; keep to the site's RF safety plan and the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States).".into(),
+        "Stay out of guy-anchor areas and off structures unless the work calls for it: a guy or anchor under tension, ice falling from a tower and a structure's fall zone are hazards at ground level too.".into(),
+        "Tower and guy work only by trained, authorised climbers under the site owner's rules, with fall protection. Do not climb a disused or damaged structure until its condition has been checked; do not loosen clamps on a tensioned guy without a rigger.".into(),
+        format!(
+            "Power changes and shutdowns (power steps, an antenna switched off for work) only by arrangement with the licensees{}, who make them; a transmitter switched off for work is locked out and tagged out (lock-out/tag-out) until the work is done and everyone is clear.",
+            if owners.is_empty() { String::new() } else { format!(": {}", owners.join(", ")) }
+        ),
+        "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
+    ]));
+    doc
+}
 
 /// The tap test, with or without the transmitters on as the exposure at the fix allows.
 fn tap_test_text(x: &Exposure, credible: bool) -> String {
