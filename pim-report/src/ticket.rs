@@ -28,6 +28,7 @@ use crate::candidates::{
 use crate::document::{html, markdown, Block};
 use crate::fix::method_name;
 use crate::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
+use crate::picture::PHONE;
 use crate::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumInput};
 
 /// Everything a ticket is made from.
@@ -564,7 +565,8 @@ fn build(
         ));
     }
     doc.push(Block::Para(levels));
-    let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
+    let spectrum_in = spectrum_input(t, at_fix, &carriers);
+    let spectrum = spectrum_svg(&spectrum_in);
     doc.push(Block::Picture {
         file: "spectrum.svg".into(),
         alt: format!(
@@ -572,6 +574,7 @@ fn build(
             heard.mhz_text()
         ),
         svg: spectrum.clone(),
+        phone_svg: Some(crate::spectrum::spectrum_svg_at(&spectrum_in, &PHONE)),
     });
 
     let band_svg = t.band.as_ref().map(|band| {
@@ -583,7 +586,8 @@ fn build(
             &band.sources,
         );
         let svg = crate::trace::trace_svg(&picture);
-        doc.extend(band_blocks(band, t.site.emitters(), svg.clone()));
+        let phone = crate::trace::trace_svg_at(&picture, &PHONE);
+        doc.extend(band_blocks(band, t.site.emitters(), svg.clone(), phone));
         svg
     });
 
@@ -635,7 +639,8 @@ fn build(
         where_points.push(format!("Note: {w}."));
     }
     doc.push(Block::List(where_points));
-    let map = map_svg(&map_input(t, near));
+    let map_in = map_input(t, near);
+    let map = map_svg(&map_in);
     doc.push(Block::Picture {
         file: "map.svg".into(),
         alt: format!(
@@ -643,6 +648,7 @@ fn build(
             e.confidence * 100.0
         ),
         svg: map.clone(),
+        phone_svg: Some(crate::map::map_svg_at(&map_in, &PHONE)),
     });
     if let Some(off) = off_map_text(t, at_fix) {
         doc.push(Block::Para(off));
@@ -1111,7 +1117,12 @@ fn power_steps_done(test: &PowerStepTest, carrier: &crate::slope::Carrier) -> St
 
 /// The whole receive band: the trace picture, what its peaks are, and the emitter sets
 /// whose products explain several of them.
-fn band_blocks(band: &BandTrace, emitters: &[Emitter], svg: String) -> Vec<Block> {
+fn band_blocks(
+    band: &BandTrace,
+    emitters: &[Emitter],
+    svg: String,
+    phone_svg: String,
+) -> Vec<Block> {
     let sweep = &band.sweep;
     let count = |k| sweep.peaks.iter().filter(|p| p.kind == k).count();
     let (e, p, u) = (
@@ -1134,6 +1145,7 @@ fn band_blocks(band: &BandTrace, emitters: &[Emitter], svg: String) -> Vec<Block
             file: "trace.svg".into(),
             alt: "The receive band trace, its noise floor, and each peak marked by kind".into(),
             svg,
+            phone_svg: Some(phone_svg),
         },
     ];
     let suspects: Vec<String> = sweep
@@ -1306,6 +1318,7 @@ pub fn fix_map_input(
         region_m: Some(fix.region.iter().map(|p| frame.to_local(*p)).collect()),
         observers,
         markers,
+        ..MapInput::default()
     }
 }
 
