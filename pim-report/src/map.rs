@@ -1538,6 +1538,110 @@ mod tests {
         assert_eq!(inside, ((1.0, 1.0), (2.0, 3.0)));
     }
 
+    fn walker_sample() -> MapInput {
+        MapInput {
+            you_are_here: Some(YouAreHere {
+                east_m: -120.0,
+                north_m: 60.0,
+                accuracy_m: Some(15.0),
+            }),
+            next_spot: Some(NextSpot {
+                east_m: 80.0,
+                north_m: -150.0,
+                label: "next: 120 m at 69°".into(),
+            }),
+            ..sample()
+        }
+    }
+
+    fn render_at(input: &MapInput, look: &Look) -> (String, MapLayout) {
+        let mut svg = String::new();
+        let layout = draw_map(input, look, &mut svg).expect("drawn");
+        (svg, layout)
+    }
+
+    #[test]
+    fn the_walker_and_the_next_spot_are_marked_and_labelled() {
+        let input = walker_sample();
+        for look in [WIDE, crate::picture::PHONE] {
+            let (svg, layout) = render_at(&input, &look);
+            pim_tests::assert_xml_well_formed(&svg, "svg");
+            for text in ["you are here", "next: 120 m at 69°", "suggested next spot"] {
+                assert!(svg.contains(text), "{text} missing at {look:?}");
+            }
+            let you = layout
+                .labels
+                .iter()
+                .find(|l| l.text == "you are here")
+                .expect("placed");
+            assert!(you.clear, "{look:?}");
+            // The accuracy ring: 15 m at the map's scale, as a circle of that radius.
+            let r = (15.0 * layout.px_per_m_east).round() as i32;
+            assert!(
+                svg.contains(&format!("r=\"{r}\"")),
+                "ring of {r} px at {look:?}"
+            );
+        }
+        // Without a label the next spot is called so.
+        let mut plain = walker_sample();
+        plain.next_spot.as_mut().expect("next").label = " ".into();
+        assert!(map_svg(&plain).contains(">\nnext spot\n</text>"));
+    }
+
+    #[test]
+    fn labels_of_a_phone_s_map_are_at_least_twelve_pixels_as_shown() {
+        // The phone's map is 360 px wide and shown at the width of a 390 px screen less
+        // the page's margins (358 px in the ticket), or at most its own width.
+        let svg = map_svg_at(&walker_sample(), &crate::picture::PHONE);
+        assert!(svg.contains("viewBox=\"0 0 360 ") && svg.contains("max-width:360px"));
+        let shown = 358.0 / 360.0;
+        let mut sizes = svg
+            .split("font-size=\"")
+            .skip(1)
+            .map(|s| {
+                s[..s.find('"').expect("quoted")]
+                    .trim_end_matches("px")
+                    .parse::<f64>()
+                    .expect("a size")
+            })
+            .peekable();
+        assert!(sizes.peek().is_some());
+        for px in sizes {
+            assert!(px * shown >= crate::picture::PHONE_MIN_TEXT_PX, "{px} px");
+        }
+    }
+
+    #[test]
+    fn a_map_around_the_fix_opens_centred_on_it() {
+        let mut input = walker_sample();
+        input.view = MapView::AroundFix { half_width_m: 40.0 };
+        for look in [WIDE, crate::picture::PHONE] {
+            let (_, layout) = render_at(&input, &look);
+            let fix = input.fix.expect("fix");
+            let centre = (
+                (layout.east.start + layout.east.end) / 2.0,
+                (layout.north.start + layout.north.end) / 2.0,
+            );
+            assert!((centre.0 - fix.0).abs() < 1e-6 && (centre.1 - fix.1).abs() < 1e-6);
+            // The walker and the next spot stay in view; the far spots need not.
+            let inside = |e: f64, n: f64| layout.east.contains(&e) && layout.north.contains(&n);
+            assert!(inside(-120.0, 60.0) && inside(80.0, -150.0));
+            assert!(!inside(-310.0, 120.0));
+        }
+        // Without the walker it shows the fix with its half-width, not the whole walk.
+        let mut near = sample();
+        near.view = MapView::AroundFix { half_width_m: 40.0 };
+        let (_, layout) = render(&near);
+        assert!(layout.east.end - layout.east.start < 300.0);
+        assert!(layout.east.contains(&-36.0) && layout.east.contains(&44.0));
+        // No fix: centred on the walker.
+        let mut lost = walker_sample();
+        lost.fix = None;
+        lost.view = MapView::AroundFix { half_width_m: 40.0 };
+        let (_, layout) = render(&lost);
+        assert!(((layout.east.start + layout.east.end) / 2.0 + 120.0).abs() < 1e-6);
+    }
+
     /// Writes sample maps into the directory `$PIM_PICTURES` when that variable is set,
     /// to look at while working on the style.
     #[test]
