@@ -114,8 +114,8 @@ pub struct Observer {
     pub bearing_deg: f64,
     /// How far to draw the line of bearing from the spot (zero or less: no line).
     pub line_length_m: f64,
-    /// Shown beside the spot; the ticket gives the bearing's line in the log file,
-    /// e.g. `line 14`.
+    /// Shown beside the spot: the reading's number and time, e.g. `#7 14:32`
+    /// ([`name_observers`]), or its line in the log, `line 14`.
     pub label: String,
     /// Left out of the fix as an outlier: drawn dashed and grey.
     pub outlier: bool,
@@ -159,6 +159,19 @@ fn canvas_px(look: &Look) -> (u32, u32) {
         (look.width_px, PHONE_CANVAS_PX)
     } else {
         (MAP_WIDTH_PX, MAP_HEIGHT_PX)
+    }
+}
+
+/// Names the observers of a fix's map (made by
+/// [`crate::ticket::fix_map_input`], one observer a reading, in the fix's order) by
+/// their reading's number and time (`#7 14:32`) instead of the log's line.
+pub fn name_observers(
+    input: &mut MapInput,
+    fix: &pim_core::fix::Fix,
+    names: &crate::readings::ReadingNames,
+) {
+    for (o, r) in input.observers.iter_mut().zip(&fix.readings) {
+        o.label = names.name(r.line);
     }
 }
 
@@ -1140,7 +1153,7 @@ fn draw_legend(
     }
     let mut entries: Vec<(Sym, String)> = Vec::new();
     if !clean.observers.is_empty() {
-        entries.push((Sym::Spot, "observer spot, log line".into()));
+        entries.push((Sym::Spot, "observer spot, its reading".into()));
         entries.push((Sym::Line, "line of bearing".into()));
     }
     if clean.observers.iter().any(|o| o.outlier) {

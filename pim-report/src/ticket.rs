@@ -29,6 +29,7 @@ use crate::document::{html, markdown, Block};
 use crate::fix::method_name;
 use crate::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
 use crate::picture::PHONE;
+use crate::readings::ReadingNames;
 use crate::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumInput};
 
 /// Everything a ticket is made from.
@@ -291,6 +292,7 @@ fn build(
     let fix = &t.fix;
     let e = &fix.ellipse;
     let heard = t.params.target;
+    let names = ReadingNames::new(&t.log, t.work_order.utc_offset);
     let mut doc = vec![
         Block::Heading(1, format!("PIM ticket: {}, carrier on {} MHz", t.site_name, heard.mhz_text())),
         Block::Para(format!(
@@ -348,7 +350,8 @@ fn build(
     if let Some(&(line, strongest)) = levels.iter().max_by(|a, b| a.1.total_cmp(&b.1)) {
         let weakest = levels.iter().map(|l| l.1).fold(f64::INFINITY, f64::min);
         heard_points.push(format!(
-            "Levels on the walk: {weakest:.1} to {strongest:.1} dBm, strongest at line {line} of the log."
+            "Levels on the walk: {weakest:.1} to {strongest:.1} dBm, strongest at reading {}.",
+            names.name_and_line(line)
         ));
     }
     if let Some(level) = t.heard_dbm {
@@ -615,7 +618,12 @@ fn build(
             if t.corrections.len() == 1 { "" } else { "s" },
             t.corrections
                 .iter()
-                .map(|c| format!("line {}: {:+.1}° {}", c.line, c.declination_deg, c.source))
+                .map(|c| format!(
+                    "{}: {:+.1}° {}",
+                    names.name_and_line(c.line),
+                    c.declination_deg,
+                    c.source
+                ))
                 .collect::<Vec<_>>()
                 .join("; ")
         ));
@@ -628,8 +636,8 @@ fn build(
             .find(|x| x.line == r.line)
             .and_then(|x| x.note.clone());
         where_points.push(format!(
-            "Line {} disagrees with the others by {:+.1}°{}{}.",
-            r.line,
+            "Reading {} disagrees with the others by {:+.1}°{}{}.",
+            names.name_and_line(r.line),
             r.residual_deg,
             note.map(|n| format!(" ({n})")).unwrap_or_default(),
             if r.weight < 0.5 { "; set aside" } else { "" }
@@ -639,7 +647,8 @@ fn build(
         where_points.push(format!("Note: {w}."));
     }
     doc.push(Block::List(where_points));
-    let map_in = map_input(t, near);
+    let mut map_in = map_input(t, near);
+    crate::map::name_observers(&mut map_in, &t.fix, &names);
     let map = map_svg(&map_in);
     doc.push(Block::Picture {
         file: "map.svg".into(),
