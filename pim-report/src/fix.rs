@@ -306,7 +306,7 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
     );
     match fix.region_kind {
         RegionKind::Ellipse => s.push_str(&format!(
-            "  {:.0}% ellipse {:.1} m × {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
+            "  {:.0}% ellipse, semi-axes {:.1} × {:.1} m, major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
             e.confidence * 100.0,
             e.semi_major_m,
             e.semi_minor_m,

@@ -43,7 +43,7 @@ const SPOT_HEADERS: [(&str, Align); 7] = [
     ("lon", Align::Right),
     ("range m", Align::Right),
     ("antenna points °", Align::Right),
-    ("ellipse after m", Align::Right),
+    ("semi-axes after m", Align::Right),
 ];
 
 fn spot_cells(rank: usize, s: &ScoredSpot) -> [String; 8] {
