@@ -1031,15 +1031,7 @@ fn draw_marker(area: &Area, p: (f64, f64), kind: MarkerKind) -> DrawResult<()> {
 
 /// The suggested next spot: an open diamond.
 fn draw_next_spot(area: &Area, p: (f64, f64)) -> DrawResult<()> {
-    let d = vec![
-        px((p.0, p.1 - 8.0)),
-        px((p.0 + 8.0, p.1)),
-        px((p.0, p.1 + 8.0)),
-        px((p.0 - 8.0, p.1)),
-        px((p.0, p.1 - 8.0)),
-    ];
-    area.draw(&Polygon::new(d.clone(), PAPER.filled()))?;
-    area.draw(&PathElement::new(d, SLATE.stroke_width(2)))
+    crate::picture::draw_diamond(area, p, 8.0, SLATE.stroke_width(2))
 }
 
 /// The walker: a filled dot with a white edge inside a faint ring of `accuracy_px`.

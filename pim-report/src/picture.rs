@@ -473,23 +473,34 @@ pub fn draw_header(header: &Area, look: &Look, title: String, subtitle: String) 
     }
     let (titles, subtitles) = look.header_lines(&title, &subtitle);
     let mut y = 10.0;
-    for line in titles {
-        header.draw(&Text::new(
-            line,
-            (x, y as i32),
-            bold_style(look.title_px, INK),
-        ))?;
-        y += look.title_px * 1.5;
-    }
-    for line in subtitles {
-        header.draw(&Text::new(
-            line,
-            (x, y as i32),
+    for (lines, style, step) in [
+        (titles, bold_style(look.title_px, INK), look.title_px * 1.5),
+        (
+            subtitles,
             text_style(look.subtitle_px, MUTED),
-        ))?;
-        y += look.subtitle_px * 1.45;
+            look.subtitle_px * 1.45,
+        ),
+    ] {
+        for line in lines {
+            header.draw(&Text::new(line, (x, y as i32), style.clone()))?;
+            y += step;
+        }
     }
     Ok(())
+}
+
+/// A hollow diamond of half-diagonal `r` pixels centred at `p`, edged in `edge`.
+pub fn draw_diamond(area: &Area, p: (f64, f64), r: f64, edge: ShapeStyle) -> DrawResult<()> {
+    let pts = vec![
+        px((p.0, p.1 - r)),
+        px((p.0 + r, p.1)),
+        px((p.0, p.1 + r)),
+        px((p.0 - r, p.1)),
+    ];
+    area.draw(&Polygon::new(pts.clone(), PAPER.filled()))?;
+    let mut closed = pts.clone();
+    closed.push(pts[0]);
+    area.draw(&PathElement::new(closed, edge))
 }
 
 /// The plot's pixel rectangle from a chart's pixel ranges, framed with a thin rule.

@@ -711,16 +711,7 @@ fn draw_emitter_mark(area: &Area, p: (f64, f64)) -> DrawResult<()> {
 
 /// A hollow diamond on the floor for a product with no predicted level.
 fn draw_unlevelled_mark(area: &Area, p: (f64, f64)) -> DrawResult<()> {
-    let pts = vec![
-        px((p.0, p.1 - 5.0)),
-        px((p.0 + 5.0, p.1)),
-        px((p.0, p.1 + 5.0)),
-        px((p.0 - 5.0, p.1)),
-    ];
-    area.draw(&Polygon::new(pts.clone(), PAPER.filled()))?;
-    let mut edge = pts.clone();
-    edge.push(pts[0]);
-    area.draw(&PathElement::new(edge, STONE.stroke_width(2)))
+    crate::picture::draw_diamond(area, p, 5.0, STONE.stroke_width(2))
 }
 
 /// A frequency in MHz for the strip: three decimals.
