@@ -429,25 +429,18 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput, look: &Look) -> DrawResu
             }
         }
     };
-    let y_desc = match (height, look.stacked()) {
-        (
-            Height::Level {
-                calibrated: true, ..
-            },
-            false,
-        ) => "level in the channel at the receiver, dBm (calibrated)",
-        (Height::Level { .. }, false) => "level in the channel, dB relative to #1",
-        (Height::Rank { .. }, false) => "rank (1 = most plausible)",
-        // A phone's axis is short: the legend's notes say the rest.
-        (
-            Height::Level {
-                calibrated: true, ..
-            },
-            true,
-        ) => "level, dBm",
-        (Height::Level { .. }, true) => "dB re #1",
-        (Height::Rank { .. }, true) => "rank",
-    };
+    // The axis title for a screen, and for a phone, whose axis is short (the legend's
+    // notes say the rest).
+    let y_desc = match height {
+        Height::Level {
+            calibrated: true, ..
+        } => [
+            "level in the channel at the receiver, dBm (calibrated)",
+            "level, dBm",
+        ],
+        Height::Level { .. } => ["level in the channel, dB relative to #1", "dB re #1"],
+        Height::Rank { .. } => ["rank (1 = most plausible)", "rank"],
+    }[usize::from(look.stacked())];
     chart
         .configure_mesh()
         .bold_line_style(GRID.stroke_width(1))
