@@ -437,6 +437,16 @@ fn length_text(m: f64) -> String {
     format!("{t} {unit}")
 }
 
+/// Two semi-axes as `18.2 × 15.2 m`, the unit once where both share it
+/// (`1.2 km × 800 m` where they do not).
+fn semi_axes_text(a_m: f64, b_m: f64) -> String {
+    let (a, b) = (length_text(a_m), length_text(b_m));
+    match (a.rsplit_once(' '), b.rsplit_once(' ')) {
+        (Some((va, ua)), Some((_, ub))) if ua == ub => format!("{va} × {b}"),
+        _ => format!("{a} × {b}"),
+    }
+}
+
 fn header_lines(input: &MapInput, clean: &Clean) -> (String, String) {
     let title = if input.title.trim().is_empty() {
         "Bearing fix".to_string()
@@ -458,9 +468,8 @@ fn header_lines(input: &MapInput, clean: &Clean) -> (String, String) {
     let fix = match (clean.fix, &input.ellipse, clean.ellipse_m.is_empty()) {
         (None, _, _) => "No fix".to_string(),
         (Some(_), Some(e), false) => format!(
-            "Fix with its {level}: semi-axes {} × {}, major axis {:.0}° from north",
-            length_text(e.semi_major_m.abs()),
-            length_text(e.semi_minor_m.abs()),
+            "Fix with its {level}: semi-axes {}, major axis {:.0}° from north",
+            semi_axes_text(e.semi_major_m.abs(), e.semi_minor_m.abs()),
             e.orientation_deg.rem_euclid(180.0)
         ),
         (Some(_), _, _) => "Fix (no ellipse)".to_string(),
@@ -1531,6 +1540,13 @@ mod tests {
             orientation_deg: -400.0,
         });
         pim_tests::assert_xml_well_formed(&map_svg(&sliver), "svg");
+    }
+
+    #[test]
+    fn semi_axes_are_sized_with_one_unit() {
+        assert_eq!(semi_axes_text(18.2, 15.24), "18.2 × 15.2 m");
+        assert_eq!(semi_axes_text(1200.0, 800.0), "1.2 km × 800 m");
+        assert!(map_svg(&sample()).contains("semi-axes 30 × 12 m, major axis 35°"));
     }
 
     #[test]
