@@ -386,6 +386,16 @@ pub const PHONE: Look = Look {
 };
 
 impl Look {
+    /// The margin right of a chart: on a phone, room for half the last tick label,
+    /// which plotters centres on its tick.
+    pub fn margin_right_px(&self) -> u32 {
+        if self.stacked() {
+            self.margin_px + 16
+        } else {
+            self.margin_px
+        }
+    }
+
     /// Whether the legend goes beneath the plot (a phone).
     pub fn stacked(&self) -> bool {
         self.side_px.is_none()

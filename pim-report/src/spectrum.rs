@@ -409,6 +409,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput, look: &Look) -> DrawResu
     let height = Height::of(&clean.products, input.calibrated_first_dbm);
     let mut chart = ChartBuilder::on(&chart_area)
         .margin(look.margin_px)
+        .margin_right(look.margin_right_px())
         .x_label_area_size(look.x_label_area_px)
         .y_label_area_size(look.y_label_area_px)
         .build_cartesian_2d(window.clone(), height.range())?;
@@ -608,7 +609,12 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput, look: &Look) -> DrawResu
     }
     let mut labels = Vec::new();
     if clean.target_known {
-        let text = format!("heard {:.4} MHz", clean.target_mhz);
+        // the frequency is in the header; a phone's plot has no room to repeat it
+        let text = if look.stacked() {
+            "heard".to_string()
+        } else {
+            format!("heard {:.4} MHz", clean.target_mhz)
+        };
         // bold, about a twelfth wider than the estimate
         let size = label_size_px(&text, look.label_px * 1.08);
         let y = plot.y0 + 4.0;

@@ -158,6 +158,7 @@ fn draw_trace_on(root: &Area, input: &TraceInput, look: &Look) -> DrawResult<u32
 
     let mut chart = ChartBuilder::on(&body)
         .margin(look.margin_px)
+        .margin_right(look.margin_right_px())
         .x_label_area_size(look.x_label_area_px)
         .y_label_area_size(look.y_label_area_px)
         .build_cartesian_2d(x0..x1, y0..y1)?;
