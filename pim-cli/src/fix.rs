@@ -8,7 +8,7 @@ use pim_core::fix::{
     OffsetChoice,
 };
 use pim_io::export::{site_geojson, site_kml, SiteItems};
-use pim_io::fieldlog::{prepare, read_field_log, Prepared};
+use pim_io::fieldlog::{prepare, read_field_log, FieldLog, Prepared};
 use pim_io::track::read_track;
 
 use crate::common::{finish, finite_arg, open, stdout, CliResult};
@@ -322,6 +322,15 @@ pub fn fix_from_log(
     log_text: Option<&str>,
     args: &FixArgs,
 ) -> CliResult<(Fix, Prepared)> {
+    fix_and_log(log_path, log_text, args).map(|(fix, prepared, _)| (fix, prepared))
+}
+
+/// The same, with the log as read (for naming its readings by number and time).
+pub fn fix_and_log(
+    log_path: &Path,
+    log_text: Option<&str>,
+    args: &FixArgs,
+) -> CliResult<(Fix, Prepared, FieldLog)> {
     let source = log_path.display().to_string();
     let log = match log_text {
         Some(text) => read_field_log(&source, text.as_bytes(), args.track.is_some())?,
@@ -358,7 +367,7 @@ pub fn fix_from_log(
         ),
     }
     .map_err(refusal_error)?;
-    Ok((fix, prepared))
+    Ok((fix, prepared, log))
 }
 
 /// The engine's refusal in the command line's words: where the remedy is an option or a
@@ -377,7 +386,7 @@ pub fn refusal_error(r: FixRefusal) -> pim_core::Error {
     e
 }
 
-pub use pim_report::fix::{fix_json, fix_summary, readings_table};
+pub use pim_report::fix::{fix_json, fix_json_named, fix_summary, readings_table_named};
 
 pub fn run(args: Args) -> CliResult {
     let no_map = matches!(args.format, FixFormat::Table | FixFormat::Json);
@@ -393,7 +402,9 @@ pub fn run(args: Args) -> CliResult {
         args.emitters.as_deref(),
         &args.columns,
     )?;
-    let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
+    let (fix, prepared, log) = fix_and_log(&args.log, None, &args.fix)?;
+    // Readings named by number and time in UTC, as the log's times are read.
+    let names = pim_report::readings::ReadingNames::new(&log, None);
     let items = SiteItems {
         structures: &structures,
         emitters: &emitters,
@@ -407,7 +418,7 @@ pub fn run(args: Args) -> CliResult {
                 fix_summary(&fix, &args.log.display().to_string(), &prepared.corrections)
             )?;
             writeln!(out)?;
-            write!(out, "{}", readings_table(&fix))?;
+            write!(out, "{}", readings_table_named(&fix, &names))?;
             for w in &fix.warnings {
                 let line = format!("warning: {w}");
                 writeln!(
@@ -421,7 +432,7 @@ pub fn run(args: Args) -> CliResult {
             }
         }
         FixFormat::Json => {
-            let json = fix_json(&fix, &prepared.corrections);
+            let json = fix_json_named(&fix, &prepared.corrections, &names);
             pim_io::precision::write_json(&mut out, &json, true)?;
             writeln!(out)?;
         }

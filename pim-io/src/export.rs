@@ -281,7 +281,7 @@ pub fn site_kml(fix: &Fix, items: &SiteItems, title: &str) -> String {
         ));
     }
     k.push_str(&format!(
-        "  <Placemark><name>Fix</name><description>{} fix; {:.0}% ellipse {:.1} × {:.1} m at {:.0}°; CEP {:.1} m</description><styleUrl>#fix</styleUrl><Point><coordinates>{}</coordinates></Point></Placemark>\n",
+        "  <Placemark><name>Fix</name><description>{} fix; {:.0}% ellipse, semi-axes {:.1} × {:.1} m, at {:.0}°; CEP {:.1} m</description><styleUrl>#fix</styleUrl><Point><coordinates>{}</coordinates></Point></Placemark>\n",
         xml_escape(&format!("{:?}", fix.method).to_lowercase()),
         e.confidence * 100.0,
         e.semi_major_m,

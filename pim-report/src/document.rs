@@ -18,11 +18,14 @@ pub enum Block {
         right: Vec<bool>,
         rows: Vec<Vec<String>>,
     },
-    /// A picture kept beside the document as `file`, inlined in HTML.
+    /// A picture kept beside the document as `file`, inlined in HTML; `phone_svg`, when
+    /// given, is the same picture drawn for a phone, which the HTML shows in its place on
+    /// a narrow screen.
     Picture {
         file: String,
         alt: String,
         svg: String,
+        phone_svg: Option<String>,
     },
     /// Points set apart as cautions.
     Cautions(Vec<String>),
@@ -239,6 +242,8 @@ const STYLE: &str = r#"
   .cautions { background: var(--warn); border-left: 4px solid var(--accent); padding: .6rem 1rem; margin: 1rem 0; }
   .cautions strong { display: block; margin-bottom: .3rem; }
   figure svg { max-width: 100%; }
+  /* A picture drawn twice: the wide drawing on a screen or paper, the phone's below 600 px. */
+  .pic-phone { display: none; }
   /* A phone: each table row a card, each cell under its column's name. */
   @media screen and (max-width: 600px) {
     body { margin: 1rem auto; font-size: 16px; }
@@ -247,6 +252,7 @@ const STYLE: &str = r#"
     tr { border: 1px solid var(--rule); border-radius: 4px; margin: 0 0 .6rem; padding: .2rem .5rem; }
     td, td.num { border: 0; padding: .15rem 0; text-align: left; overflow-wrap: anywhere; }
     td[data-label]::before { content: attr(data-label) ": "; font-weight: 600; color: var(--muted); }
+    .pic-phone { display: block; } .pic-wide.has-phone { display: none; }
   }
   /* Paper: A4 or Letter, whichever the printer holds; margins that fit both. */
   @page { margin: 15mm 12mm; }
@@ -312,13 +318,26 @@ pub fn html(title: &str, blocks: &[Block]) -> String {
                 }
                 out.push_str("</tbody>\n</table>\n");
             }
-            Block::Picture { alt, svg, .. } => {
-                let body = match svg.find("<svg") {
-                    Some(i) => &svg[i..],
-                    None => svg.as_str(),
+            Block::Picture {
+                alt,
+                svg,
+                phone_svg,
+                ..
+            } => {
+                let body = |svg: &str| match svg.find("<svg") {
+                    Some(i) => svg[i..].trim_end().to_string(),
+                    None => svg.to_string(),
+                };
+                let pictures = match phone_svg {
+                    Some(phone) => format!(
+                        "<div class=\"pic-wide has-phone\">\n{}\n</div>\n<div class=\"pic-phone\">\n{}\n</div>",
+                        body(svg),
+                        body(phone)
+                    ),
+                    None => body(svg),
                 };
                 out.push_str(&format!(
-                    "<figure>\n{body}\n<figcaption>{}</figcaption>\n</figure>\n",
+                    "<figure>\n{pictures}\n<figcaption>{}</figcaption>\n</figure>\n",
                     escape(alt)
                 ));
             }
@@ -372,6 +391,12 @@ mod tests {
                 rows: vec![vec!["1".into(), "2".into()]],
             },
             Block::Cautions(vec!["RF exposure".into()]),
+            Block::Picture {
+                file: "p.svg".into(),
+                alt: "p".into(),
+                svg: "<svg id=\"wide\"></svg>".into(),
+                phone_svg: Some("<svg id=\"phone\"></svg>".into()),
+            },
         ];
         let md = markdown(&doc);
         assert!(md.contains("# Ticket \\<A\\&B\\>"), "{md}");
@@ -384,5 +409,10 @@ mod tests {
         );
         assert!(h.contains("@media screen and (max-width: 600px)") && h.contains("@media print"));
         assert!(h.contains("class=\"cautions\""));
+        // Both drawings of a picture, the phone's shown in the wide one's place on a
+        // narrow screen.
+        assert!(h.contains("<div class=\"pic-wide has-phone\">\n<svg id=\"wide\"></svg>\n</div>\n<div class=\"pic-phone\">\n<svg id=\"phone\"></svg>\n</div>"), "{h}");
+        assert!(h.contains(".pic-phone { display: block; } .pic-wide.has-phone { display: none; }"));
+        assert!(md.contains("![p](p.svg)"));
     }
 }

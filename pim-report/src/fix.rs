@@ -3,6 +3,7 @@
 use pim_core::fix::{AccuracySource, Fix, Method, RegionKind, SigmaSource};
 use pim_io::fieldlog::Correction;
 
+use crate::readings::ReadingNames;
 use crate::text_table::{Align, TextTable};
 
 /// The estimator's name as a reader knows it.
@@ -101,7 +102,23 @@ struct EllipseJson {
 #[derive(serde::Serialize)]
 struct OutlierJson {
     line: u64,
+    /// The reading's number in the log and its time ([`crate::readings`]), when named.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    number: Option<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    time: Option<String>,
     residual_deg: f64,
+}
+
+/// A reading's fit with its number and time beside its line, when named.
+#[derive(serde::Serialize)]
+struct ResidualJson<'a> {
+    #[serde(flatten)]
+    fit: &'a pim_core::fix::ReadingFit,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    number: Option<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    time: Option<String>,
 }
 
 /// The fix as the JSON object of the contract, serialised straight from the results
@@ -129,7 +146,7 @@ pub struct FixJson<'a> {
     spots: usize,
     position_accuracy: pim_core::fix::PositionAccuracy,
     offset: Option<pim_core::fix::Offset>,
-    residuals: &'a [pim_core::fix::ReadingFit],
+    residuals: Vec<ResidualJson<'a>>,
     outliers: Vec<OutlierJson>,
     declination: &'a [Correction],
     warnings: Vec<String>,
@@ -146,6 +163,16 @@ pub struct FixJson<'a> {
 
 /// The fix as the JSON object of the contract.
 pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> {
+    fix_json_named(fix, corrections, &ReadingNames::default())
+}
+
+/// The same, each residual and outlier with its reading's `number` and `time` beside
+/// its `line` where `names` know the line.
+pub fn fix_json_named<'a>(
+    fix: &'a Fix,
+    corrections: &'a [Correction],
+    names: &ReadingNames,
+) -> FixJson<'a> {
     let e = &fix.ellipse;
     FixJson {
         lat_deg: fix.position.lat_deg,
@@ -173,13 +200,23 @@ pub fn fix_json<'a>(fix: &'a Fix, corrections: &'a [Correction]) -> FixJson<'a> 
         spots: fix.spots,
         position_accuracy: fix.position_accuracy,
         offset: fix.offset,
-        residuals: &fix.readings,
+        residuals: fix
+            .readings
+            .iter()
+            .map(|r| ResidualJson {
+                fit: r,
+                number: names.number(r.line),
+                time: names.time_rfc3339(r.line),
+            })
+            .collect(),
         outliers: fix
             .readings
             .iter()
             .filter(|r| r.outlier)
             .map(|r| OutlierJson {
                 line: r.line,
+                number: names.number(r.line),
+                time: names.time_rfc3339(r.line),
                 residual_deg: r.residual_deg,
             })
             .collect(),
@@ -269,7 +306,7 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
     );
     match fix.region_kind {
         RegionKind::Ellipse => s.push_str(&format!(
-            "  {:.0}% ellipse {:.1} m × {:.1} m (semi-axes), major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
+            "  {:.0}% ellipse, semi-axes {:.1} × {:.1} m, major axis {:.0}° true; area {:.0} m²; CEP {:.1} m\n",
             e.confidence * 100.0,
             e.semi_major_m,
             e.semi_minor_m,
@@ -333,15 +370,26 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
 
 /// Each reading with its residual, range and weight, as a text table.
 pub fn readings_table(fix: &Fix) -> String {
-    let mut t = TextTable::new(&[
-        ("line", Align::Right),
-        ("bearing °", Align::Right),
-        ("to fix °", Align::Right),
-        ("residual °", Align::Right),
-        ("range m", Align::Right),
-        ("weight", Align::Right),
-        ("status", Align::Left),
-    ]);
+    readings_table_named(fix, &ReadingNames::default())
+}
+
+/// The same, each reading named first by its number and time (`#7 09:32`) where
+/// `names` know its line, the log's line beside.
+pub fn readings_table_named(fix: &Fix, names: &ReadingNames) -> String {
+    // The reading column only where the readings have names.
+    let skip = usize::from(names.is_empty());
+    let mut t = TextTable::new(
+        &[
+            ("reading", Align::Left),
+            ("line", Align::Right),
+            ("bearing °", Align::Right),
+            ("to fix °", Align::Right),
+            ("residual °", Align::Right),
+            ("range m", Align::Right),
+            ("weight", Align::Right),
+            ("status", Align::Left),
+        ][skip..],
+    );
     for r in &fix.readings {
         let mut flags = Vec::new();
         if r.outlier {
@@ -350,29 +398,36 @@ pub fn readings_table(fix: &Fix) -> String {
         if r.flipped {
             flags.push("taken reversed");
         }
-        t.push(vec![
-            r.line.to_string(),
-            pim_io::precision::fixed(r.bearing_deg, 1),
-            pim_io::precision::fixed(r.predicted_deg, 1),
-            pim_io::precision::signed(r.residual_deg, 1),
-            pim_io::precision::fixed(r.distance_m, 0),
-            pim_io::precision::fixed(r.weight, 2),
-            flags.join(", "),
-        ]);
+        t.push(
+            [
+                names.name(r.line),
+                r.line.to_string(),
+                pim_io::precision::fixed(r.bearing_deg, 1),
+                pim_io::precision::fixed(r.predicted_deg, 1),
+                pim_io::precision::signed(r.residual_deg, 1),
+                pim_io::precision::fixed(r.distance_m, 0),
+                pim_io::precision::fixed(r.weight, 2),
+                flags.join(", "),
+            ][skip..]
+                .to_vec(),
+        );
     }
     if fix.levels.is_empty() {
         return t.render();
     }
-    let mut l = TextTable::new(&[
-        ("line", Align::Right),
-        ("level dBm", Align::Right),
-        ("model dBm", Align::Right),
-        ("residual dB", Align::Right),
-        ("range m", Align::Right),
-        ("weight", Align::Right),
-        ("setup", Align::Left),
-        ("status", Align::Left),
-    ]);
+    let mut l = TextTable::new(
+        &[
+            ("reading", Align::Left),
+            ("line", Align::Right),
+            ("level dBm", Align::Right),
+            ("model dBm", Align::Right),
+            ("residual dB", Align::Right),
+            ("range m", Align::Right),
+            ("weight", Align::Right),
+            ("setup", Align::Left),
+            ("status", Align::Left),
+        ][skip..],
+    );
     for r in &fix.levels {
         let mut flags = Vec::new();
         if r.near_field {
@@ -384,16 +439,20 @@ pub fn readings_table(fix: &Fix) -> String {
         if r.outlier {
             flags.push("outlier");
         }
-        l.push(vec![
-            r.line.to_string(),
-            pim_io::precision::fixed(r.level_dbm, 1),
-            pim_io::precision::fixed(r.predicted_dbm, 1),
-            pim_io::precision::signed(r.residual_db, 1),
-            pim_io::precision::fixed(r.distance_m, 0),
-            pim_io::precision::fixed(r.weight, 2),
-            r.setup.clone().unwrap_or_default(),
-            flags.join(", "),
-        ]);
+        l.push(
+            [
+                names.name(r.line),
+                r.line.to_string(),
+                pim_io::precision::fixed(r.level_dbm, 1),
+                pim_io::precision::fixed(r.predicted_dbm, 1),
+                pim_io::precision::signed(r.residual_db, 1),
+                pim_io::precision::fixed(r.distance_m, 0),
+                pim_io::precision::fixed(r.weight, 2),
+                r.setup.clone().unwrap_or_default(),
+                flags.join(", "),
+            ][skip..]
+                .to_vec(),
+        );
     }
     if fix.readings.is_empty() {
         return l.render();

@@ -13,6 +13,7 @@ pub mod fix;
 pub mod map;
 pub mod picture;
 pub mod plan;
+pub mod readings;
 pub mod slope;
 pub mod spectrum;
 pub mod study;

@@ -16,15 +16,17 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use crate::picture::{
-    axis_font, bold_style, draw_header, draw_labels, finished_svg, framed_plot, px, round_length,
-    text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer, PlacedLabel, Rect, GRID,
-    HEADER_PX, INK, LABEL_PX, MARGIN_PX, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST,
-    SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
+    axis_font, bold_style, draw_header, draw_labels, finished_svg_cut, framed_plot, px,
+    round_length, text_style, text_width_px, Area, DrawResult, LabelJob, LabelPlacer, Look,
+    PlacedLabel, Rect, GRID, INK, MOSS, MUTED, OCHRE, OCHRE_DARK, PAPER, PLUM, RUST, SLATE, STONE,
+    WIDE,
 };
 
 /// Size of the picture in pixels.
 pub const MAP_WIDTH_PX: u32 = 1040;
 pub const MAP_HEIGHT_PX: u32 = 760;
+/// The canvas a phone's map is drawn on; its viewBox is cut to the height used.
+const PHONE_CANVAS_PX: u32 = 1600;
 /// The detail never shows less than this many metres either side of the fix.
 const DETAIL_MIN_HALF_M: f64 = 25.0;
 /// Vertices of the drawn ellipse.
@@ -52,6 +54,46 @@ pub struct MapInput {
     pub observers: Vec<Observer>,
     /// Emitters and site structures to show near the fix.
     pub markers: Vec<Marker>,
+    /// Where the walker stands now, with the position's accuracy (for the walk page;
+    /// `None` on the ticket).
+    pub you_are_here: Option<YouAreHere>,
+    /// The spot suggested for the next bearing (for the walk page).
+    pub next_spot: Option<NextSpot>,
+    /// Which part of the plane the map opens on.
+    pub view: MapView,
+}
+
+/// The walker's position: a dot labelled "you are here", inside a ring of the
+/// position's accuracy.
+#[derive(Clone, Debug, PartialEq)]
+pub struct YouAreHere {
+    pub east_m: f64,
+    pub north_m: f64,
+    /// The 95 % radius of the position in metres (the W3C Geolocation API's
+    /// `accuracy`), drawn as a ring at the map's scale; `None` or not positive: no ring.
+    pub accuracy_m: Option<f64>,
+}
+
+/// The spot suggested for the next bearing: a diamond with its label.
+#[derive(Clone, Debug, PartialEq)]
+pub struct NextSpot {
+    pub east_m: f64,
+    pub north_m: f64,
+    /// Shown beside the diamond; empty: "next spot".
+    pub label: String,
+}
+
+/// Which part of the plane the map shows.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub enum MapView {
+    /// Everything: the spots, the fix and its ellipse, the markers, the walker and the
+    /// next spot.
+    #[default]
+    All,
+    /// Centred on the fix (on the walker's position while there is no fix), at least
+    /// `half_width_m` metres either side; the walker and the next spot are kept in view
+    /// too, and lines of bearing are cut to it.
+    AroundFix { half_width_m: f64 },
 }
 
 /// A confidence ellipse.
@@ -72,8 +114,8 @@ pub struct Observer {
     pub bearing_deg: f64,
     /// How far to draw the line of bearing from the spot (zero or less: no line).
     pub line_length_m: f64,
-    /// Shown beside the spot; the ticket gives the bearing's line in the log file,
-    /// e.g. `line 14`.
+    /// Shown beside the spot: the reading's number and time, e.g. `#7 14:32`
+    /// ([`name_observers`]), or its line in the log, `line 14`.
     pub label: String,
     /// Left out of the fix as an outlier: drawn dashed and grey.
     pub outlier: bool,
@@ -97,11 +139,40 @@ pub enum MarkerKind {
     Structure,
 }
 
-/// The map as an SVG document.
+/// The map as an SVG document, drawn for a screen or paper.
 pub fn map_svg(input: &MapInput) -> String {
+    map_svg_at(input, &WIDE)
+}
+
+/// The map as an SVG document drawn at `look` ([`crate::picture::PHONE`] for a phone:
+/// 360 px wide, the detail around the fix and the legend beneath the plot).
+pub fn map_svg_at(input: &MapInput, look: &Look) -> String {
     let mut svg = String::new();
-    let drawn = draw_map(input, &mut svg);
-    finished_svg(drawn, svg, (MAP_WIDTH_PX, MAP_HEIGHT_PX), "The map")
+    let canvas = canvas_px(look);
+    let drawn = draw_map(input, look, &mut svg).map(|l| l.used_px);
+    finished_svg_cut(drawn, svg, canvas, "The map")
+}
+
+/// The canvas the map is drawn on at `look`.
+fn canvas_px(look: &Look) -> (u32, u32) {
+    if look.stacked() {
+        (look.width_px, PHONE_CANVAS_PX)
+    } else {
+        (MAP_WIDTH_PX, MAP_HEIGHT_PX)
+    }
+}
+
+/// Names the observers of a fix's map (made by
+/// [`crate::ticket::fix_map_input`], one observer a reading, in the fix's order) by
+/// their reading's number and time (`#7 14:32`) instead of the log's line.
+pub fn name_observers(
+    input: &mut MapInput,
+    fix: &pim_core::fix::Fix,
+    names: &crate::readings::ReadingNames,
+) {
+    for (o, r) in input.observers.iter_mut().zip(&fix.readings) {
+        o.label = names.name(r.line);
+    }
 }
 
 /// The confidence ellipse around `center` as a ring of `n` vertices (at least 4; the
@@ -200,6 +271,8 @@ fn fit_view(points: &[(f64, f64)], span_px: (f64, f64)) -> (Range<f64>, Range<f6
 /// The input with every non-finite position left out.
 struct Clean<'a> {
     fix: Option<(f64, f64)>,
+    you: Option<&'a YouAreHere>,
+    next: Option<&'a NextSpot>,
     ellipse_m: Vec<(f64, f64)>,
     observers: Vec<&'a Observer>,
     markers: Vec<&'a Marker>,
@@ -221,6 +294,14 @@ impl<'a> Clean<'a> {
         };
         Clean {
             fix,
+            you: input
+                .you_are_here
+                .as_ref()
+                .filter(|y| finite((y.east_m, y.north_m))),
+            next: input
+                .next_spot
+                .as_ref()
+                .filter(|n| finite((n.east_m, n.north_m))),
             ellipse_m,
             observers: input
                 .observers
@@ -241,7 +322,45 @@ impl<'a> Clean<'a> {
         pts.extend(&self.ellipse_m);
         pts.extend(self.observers.iter().map(|o| (o.east_m, o.north_m)));
         pts.extend(self.markers.iter().map(|m| (m.east_m, m.north_m)));
+        pts.extend(self.walker_points());
         pts
+    }
+
+    /// The walker's position and the next spot, where given.
+    fn walker_points(&self) -> Vec<(f64, f64)> {
+        let mut pts: Vec<(f64, f64)> = self
+            .you
+            .map(|y| (y.east_m, y.north_m))
+            .into_iter()
+            .collect();
+        pts.extend(self.next.map(|n| (n.east_m, n.north_m)));
+        pts
+    }
+
+    /// What the view must show for `view`: everything, or the fix (else the walker) with
+    /// `half_width_m` around it, the walker and the next spot.
+    fn view_points(&self, view: MapView) -> Vec<(f64, f64)> {
+        match view {
+            MapView::All => self.extent_points(),
+            MapView::AroundFix { half_width_m } => {
+                let h = if half_width_m.is_finite() && half_width_m > 0.0 {
+                    half_width_m
+                } else {
+                    MIN_PAD_M
+                };
+                let centre = self.fix.or(self.you.map(|y| (y.east_m, y.north_m)));
+                let Some(c) = centre else {
+                    return self.extent_points();
+                };
+                let mut pts = vec![(c.0 - h, c.1 - h), (c.0 + h, c.1 + h)];
+                // Others kept in view symmetrically, so the fix stays in the middle.
+                for p in self.walker_points() {
+                    pts.push(p);
+                    pts.push((2.0 * c.0 - p.0, 2.0 * c.1 - p.1));
+                }
+                pts
+            }
+        }
     }
 }
 
@@ -277,6 +396,8 @@ struct MapLayout {
     /// Every label drawn, on the map and in the detail.
     labels: Vec<PlacedLabel>,
     detail: Option<DetailLayout>,
+    /// The height of the picture used, pixels.
+    used_px: u32,
 }
 
 /// Where the detail around the fix went.
@@ -289,9 +410,9 @@ struct DetailLayout {
     scale_bar_px: (i32, i32),
 }
 
-fn draw_map(input: &MapInput, svg: &mut String) -> DrawResult<MapLayout> {
-    let root = SVGBackend::with_string(svg, (MAP_WIDTH_PX, MAP_HEIGHT_PX)).into_drawing_area();
-    let layout = draw_map_on(&root, input)?;
+fn draw_map(input: &MapInput, look: &Look, svg: &mut String) -> DrawResult<MapLayout> {
+    let root = SVGBackend::with_string(svg, canvas_px(look)).into_drawing_area();
+    let layout = draw_map_on(&root, input, look)?;
     root.present()?;
     Ok(layout)
 }
@@ -316,6 +437,16 @@ fn length_text(m: f64) -> String {
     format!("{t} {unit}")
 }
 
+/// Two semi-axes as `18.2 × 15.2 m`, the unit once where both share it
+/// (`1.2 km × 800 m` where they do not).
+fn semi_axes_text(a_m: f64, b_m: f64) -> String {
+    let (a, b) = (length_text(a_m), length_text(b_m));
+    match (a.rsplit_once(' '), b.rsplit_once(' ')) {
+        (Some((va, ua)), Some((_, ub))) if ua == ub => format!("{va} × {b}"),
+        _ => format!("{a} × {b}"),
+    }
+}
+
 fn header_lines(input: &MapInput, clean: &Clean) -> (String, String) {
     let title = if input.title.trim().is_empty() {
         "Bearing fix".to_string()
@@ -337,9 +468,8 @@ fn header_lines(input: &MapInput, clean: &Clean) -> (String, String) {
     let fix = match (clean.fix, &input.ellipse, clean.ellipse_m.is_empty()) {
         (None, _, _) => "No fix".to_string(),
         (Some(_), Some(e), false) => format!(
-            "Fix with its {level}: semi-axes {} × {}, major axis {:.0}° from north",
-            length_text(e.semi_major_m.abs()),
-            length_text(e.semi_minor_m.abs()),
+            "Fix with its {level}: semi-axes {}, major axis {:.0}° from north",
+            semi_axes_text(e.semi_major_m.abs(), e.semi_minor_m.abs()),
             e.orientation_deg.rem_euclid(180.0)
         ),
         (Some(_), _, _) => "Fix (no ellipse)".to_string(),
@@ -458,6 +588,22 @@ fn draw_marks(area: &Area, frame: &Frame, clean: &Clean) -> DrawResult<Marks> {
         marks.occupied.push(p);
         marks.blocks.push(Rect::around(p, 7.0));
     }
+    if let Some(n) = clean.next.filter(|n| frame.shows((n.east_m, n.north_m))) {
+        let p = to_px((n.east_m, n.north_m));
+        draw_next_spot(area, p)?;
+        marks.occupied.push(p);
+        marks.blocks.push(Rect::around(p, 9.0));
+    }
+    if let Some(y) = clean.you.filter(|y| frame.shows((y.east_m, y.north_m))) {
+        let p = to_px((y.east_m, y.north_m));
+        let r_px = y
+            .accuracy_m
+            .filter(|a| a.is_finite() && *a > 0.0)
+            .map(|a| (to_px((y.east_m + a, y.north_m)).0 - p.0).abs());
+        draw_you_are_here(area, p, r_px)?;
+        marks.occupied.push(p);
+        marks.blocks.push(Rect::around(p, 7.0));
+    }
     if let Some(f) = clean.fix.filter(|&f| frame.shows(f)) {
         let p = to_px(f);
         draw_fix(area, p)?;
@@ -505,21 +651,22 @@ fn bbox(points: &[(i32, i32)]) -> Option<Rect> {
     Some(r)
 }
 
-fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
+fn draw_map_on(root: &Area, input: &MapInput, look: &Look) -> DrawResult<MapLayout> {
     root.fill(&PAPER)?;
     let clean = Clean::new(input);
-    let (header, rest) = root.split_vertically(HEADER_PX);
-    let (body, side) = rest.split_horizontally(MAP_WIDTH_PX - SIDE_PX);
-
     let (title, subtitle) = header_lines(input, &clean);
-    draw_header(&header, title, subtitle)?;
+    let (header, rest) = root.split_vertically(look.header_px(&title, &subtitle));
+    // On a phone the plot is about square, the detail and legend beneath it.
+    let (body, side) = look.split_body(&rest, look.width_px);
+
+    draw_header(&header, look, title, subtitle)?;
 
     // Measure the plotting area first, then fit the view to it at one scale.
     let builder = || {
         let mut b = ChartBuilder::on(&body);
-        b.margin(MARGIN_PX)
-            .x_label_area_size(X_LABEL_AREA_PX)
-            .y_label_area_size(Y_LABEL_AREA_PX);
+        b.margin(look.margin_px)
+            .x_label_area_size(look.x_label_area_px)
+            .y_label_area_size(look.y_label_area_px);
         b
     };
     let (xr, yr) = builder()
@@ -530,7 +677,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         (xr.end - 1 - xr.start) as f64,
         (yr.end - 1 - yr.start) as f64,
     );
-    let (east, north) = fit_view(&clean.extent_points(), span_px);
+    let (east, north) = fit_view(&clean.view_points(input.view), span_px);
     let mut chart = builder().build_cartesian_2d(east.clone(), north.clone())?;
 
     let view_m = east.end - east.start;
@@ -551,12 +698,12 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         .bold_line_style(GRID.stroke_width(1))
         .max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style(axis_font(TICK_PX, MUTED))
-        .axis_desc_style(axis_font(LABEL_PX, MUTED))
+        .label_style(axis_font(look.tick_px, MUTED))
+        .axis_desc_style(axis_font(look.label_px, MUTED))
         .x_desc("east, m")
         .y_desc("north, m")
-        .x_labels(9)
-        .y_labels(9)
+        .x_labels(look.ticks)
+        .y_labels(look.ticks)
         .x_label_formatter(&tick)
         .y_label_formatter(&tick)
         .draw()?;
@@ -580,7 +727,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
     let marks = draw_marks(root, &frame, &clean)?;
 
     // A detail around the fix when the ellipse is small on the map.
-    let detail = detail_view(&clean, input.ellipse.as_ref(), px_per_m_east);
+    let detail = detail_view(&clean, input.ellipse.as_ref(), px_per_m_east, look);
     let mut blocks = marks.blocks.clone();
     if let Some((de, dn)) = &detail {
         let corner0 = px(to_px((de.start, dn.start)));
@@ -596,7 +743,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
     // Scale bar and north arrow in the emptiest corners.
     let scale_m = round_length(view_m * 0.22);
     let scale_label = length_text(scale_m);
-    let (scale_box, bar_x0) = scale_bar_box(scale_m * px_per_m_east, &scale_label, |size| {
+    let (scale_box, bar_x0) = scale_bar_box(scale_m * px_per_m_east, &scale_label, look, |size| {
         emptiest_corner(&plot, size, 10.0, &marks.occupied, None)
     });
     let scale_bar_px = draw_scale_bar(
@@ -605,9 +752,16 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         bar_x0,
         scale_m * px_per_m_east,
         &scale_label,
+        look,
     )?;
-    let arrow_box = emptiest_corner(&plot, (26.0, 46.0), 10.0, &marks.occupied, Some(&scale_box));
-    let north_arrow = draw_north_arrow(root, &arrow_box)?;
+    let arrow_box = emptiest_corner(
+        &plot,
+        (26.0, 34.0 + look.subtitle_px),
+        10.0,
+        &marks.occupied,
+        Some(&scale_box),
+    );
+    let north_arrow = draw_north_arrow(root, &arrow_box, look)?;
     blocks.push(scale_box);
     blocks.push(arrow_box);
     if let Some(r) = bbox(&marks.ellipse_px) {
@@ -624,7 +778,7 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
             .as_ref()
             .is_some_and(|(de, dn)| de.contains(&p.0) && dn.contains(&p.1))
     };
-    let mut jobs: Vec<LabelJob> = Vec::new();
+    let mut jobs: Vec<LabelJob> = walker_label_jobs(&clean, &to_px);
     for m in &clean.markers {
         if !in_detail((m.east_m, m.north_m)) {
             jobs.push(LabelJob {
@@ -656,33 +810,40 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
     for b in &blocks {
         placer.block(*b);
     }
-    let mut labels = draw_labels(root, &mut placer, &jobs)?;
+    let mut labels = draw_labels(root, &mut placer, &jobs, look.label_px)?;
 
-    // The side column: the detail, then the legend.
+    // The side column (beneath the plot on a phone): the detail, then the legend.
     let (sx, sy) = side.get_base_pixel();
-    let mut legend_top = sy as f64 + MARGIN_PX as f64;
+    let margin = look.margin_px as f64;
+    let mut legend_top = sy as f64 + margin;
     let mut detail_layout = None;
     if let Some((de, dn)) = detail {
-        let size = SIDE_PX as f64 - 2.0 * MARGIN_PX as f64;
-        let top = legend_top + 22.0;
-        let box_px = Rect::at(sx as f64 + MARGIN_PX as f64, top, (size, size));
+        let size = look.legend_width_px();
+        let top = legend_top + 10.0 + look.subtitle_px;
+        let box_px = Rect::at(sx as f64 + margin, top, (size, size));
         root.draw(&Text::new(
             "Detail around the fix",
             px((box_px.x0, legend_top)),
-            bold_style(SUBTITLE_PX, INK),
+            bold_style(look.subtitle_px, INK),
         ))?;
-        let (d, mut l) = draw_detail(root, &clean, box_px, de, dn)?;
+        let (d, mut l) = draw_detail(root, &clean, box_px, de, dn, look)?;
         labels.append(&mut l);
         detail_layout = Some(d);
         legend_top = box_px.y1 + 24.0;
     }
-    draw_legend(
+    let legend_bottom = draw_legend(
         root,
-        (sx as f64 + MARGIN_PX as f64, legend_top),
+        (sx as f64 + margin, legend_top),
         input,
         &clean,
         detail_layout.is_some(),
+        look,
     )?;
+    let used_px = if look.stacked() {
+        (legend_bottom + margin).ceil() as u32
+    } else {
+        MAP_HEIGHT_PX
+    };
 
     Ok(MapLayout {
         plot: Some(plot),
@@ -698,7 +859,35 @@ fn draw_map_on(root: &Area, input: &MapInput) -> DrawResult<MapLayout> {
         ellipse_px: marks.ellipse_px,
         labels,
         detail: detail_layout,
+        used_px,
     })
+}
+
+/// Labels for the walker's position and the next spot, placed before all others.
+fn walker_label_jobs(clean: &Clean, to_px: &dyn Fn((f64, f64)) -> (f64, f64)) -> Vec<LabelJob> {
+    let mut jobs = Vec::new();
+    if let Some(y) = clean.you {
+        jobs.push(LabelJob {
+            at: to_px((y.east_m, y.north_m)),
+            text: "you are here".into(),
+            colour: INK,
+            gap: 8.0,
+        });
+    }
+    if let Some(n) = clean.next {
+        let text = if n.label.trim().is_empty() {
+            "next spot".to_string()
+        } else {
+            n.label.clone()
+        };
+        jobs.push(LabelJob {
+            at: to_px((n.east_m, n.north_m)),
+            text,
+            colour: INK,
+            gap: 10.0,
+        });
+    }
+    jobs
 }
 
 /// The view of the detail, square around the fix, when the ellipse is small on the map
@@ -707,6 +896,7 @@ fn detail_view(
     clean: &Clean,
     ellipse: Option<&Ellipse>,
     map_px_per_m: f64,
+    look: &Look,
 ) -> Option<(Range<f64>, Range<f64>)> {
     let fix = clean.fix?;
     let a = ellipse
@@ -714,7 +904,7 @@ fn detail_view(
         .map(|e| e.semi_major_m.abs().max(e.semi_minor_m.abs()))
         .unwrap_or(0.0);
     let half = (1.8 * a).max(DETAIL_MIN_HALF_M);
-    let detail_px_per_m = (SIDE_PX as f64 - 2.0 * MARGIN_PX as f64) / (2.0 * half);
+    let detail_px_per_m = look.legend_width_px() / (2.0 * half);
     (2.0 * a * map_px_per_m < 90.0 && detail_px_per_m >= 2.0 * map_px_per_m)
         .then_some((fix.0 - half..fix.0 + half, fix.1 - half..fix.1 + half))
 }
@@ -727,6 +917,7 @@ fn draw_detail(
     box_px: Rect,
     east: Range<f64>,
     north: Range<f64>,
+    look: &Look,
 ) -> DrawResult<(DetailLayout, Vec<PlacedLabel>)> {
     let k = (box_px.x1 - box_px.x0) / (east.end - east.start);
     let to_px = |p: (f64, f64)| -> (f64, f64) {
@@ -770,10 +961,10 @@ fn draw_detail(
         MUTED.stroke_width(1),
     ))?;
     let label = length_text(step);
-    let (scale_box, bar_x0) = scale_bar_box(step * k, &label, |size| {
+    let (scale_box, bar_x0) = scale_bar_box(step * k, &label, look, |size| {
         emptiest_corner(&box_px, size, 6.0, &marks.occupied, None)
     });
-    let scale_bar_px = draw_scale_bar(root, &scale_box, bar_x0, step * k, &label)?;
+    let scale_bar_px = draw_scale_bar(root, &scale_box, bar_x0, step * k, &label, look)?;
     let mut blocks = marks.blocks.clone();
     blocks.push(scale_box);
     let jobs: Vec<LabelJob> = clean
@@ -787,12 +978,15 @@ fn draw_detail(
             gap: 8.0,
         })
         .collect();
+    let mut walker = walker_label_jobs(clean, &to_px);
+    walker.retain(|j| box_px.contains_point(j.at));
+    let jobs: Vec<LabelJob> = walker.into_iter().chain(jobs).collect();
     let bounds = box_px.inset(2.0);
     let mut placer = LabelPlacer::new(bounds);
     for b in &blocks {
         placer.block(*b);
     }
-    let labels = draw_labels(root, &mut placer, &jobs)?;
+    let labels = draw_labels(root, &mut placer, &jobs, look.label_px)?;
     Ok((
         DetailLayout {
             frame: box_px,
@@ -806,10 +1000,15 @@ fn draw_detail(
 
 /// The box of a scale bar `bar_px` long labelled `label`, put where `corner` says, and
 /// the left end of its bar.
-fn scale_bar_box(bar_px: f64, label: &str, corner: impl Fn((f64, f64)) -> Rect) -> (Rect, f64) {
-    let half0 = text_width_px("0", TICK_PX) / 2.0;
-    let half_l = text_width_px(label, TICK_PX) / 2.0;
-    let r = corner((bar_px + half0 + half_l + 20.0, 36.0));
+fn scale_bar_box(
+    bar_px: f64,
+    label: &str,
+    look: &Look,
+    corner: impl Fn((f64, f64)) -> Rect,
+) -> (Rect, f64) {
+    let half0 = text_width_px("0", look.tick_px) / 2.0;
+    let half_l = text_width_px(label, look.tick_px) / 2.0;
+    let r = corner((bar_px + half0 + half_l + 20.0, 26.0 + look.tick_px));
     (r, r.x0 + 10.0 + half0)
 }
 
@@ -839,6 +1038,22 @@ fn draw_marker(area: &Area, p: (f64, f64), kind: MarkerKind) -> DrawResult<()> {
     }
 }
 
+/// The suggested next spot: an open diamond.
+fn draw_next_spot(area: &Area, p: (f64, f64)) -> DrawResult<()> {
+    crate::picture::draw_diamond(area, p, 8.0, SLATE.stroke_width(2))
+}
+
+/// The walker: a filled dot with a white edge inside a faint ring of `accuracy_px`.
+fn draw_you_are_here(area: &Area, p: (f64, f64), accuracy_px: Option<f64>) -> DrawResult<()> {
+    if let Some(r) = accuracy_px.filter(|r| *r >= 1.0 && *r < 10_000.0) {
+        let r = r.round() as i32;
+        area.draw(&Circle::new(px(p), r, SLATE.mix(0.12).filled()))?;
+        area.draw(&Circle::new(px(p), r, SLATE.mix(0.6).stroke_width(1)))?;
+    }
+    area.draw(&Circle::new(px(p), 6, PAPER.filled()))?;
+    area.draw(&Circle::new(px(p), 4, INK.filled()))
+}
+
 /// The fix: a ring with four ticks and a centre dot.
 fn draw_fix(area: &Area, p: (f64, f64)) -> DrawResult<()> {
     area.draw(&Circle::new(px(p), 7, PAPER.mix(0.6).filled()))?;
@@ -863,6 +1078,7 @@ fn draw_scale_bar(
     bar_x0: f64,
     bar_px: f64,
     label: &str,
+    look: &Look,
 ) -> DrawResult<(i32, i32)> {
     area.draw(&Rectangle::new(
         [px((frame.x0, frame.y0)), px((frame.x1, frame.y1))],
@@ -876,7 +1092,7 @@ fn draw_scale_bar(
     area.draw(&Rectangle::new([(x0, y0), (xm, y1)], INK.filled()))?;
     area.draw(&Rectangle::new([(xm, y0), (x1, y1)], PAPER.filled()))?;
     area.draw(&Rectangle::new([(x0, y0), (x1, y1)], INK.stroke_width(1)))?;
-    let centred = text_style(TICK_PX, INK).pos(Pos::new(HPos::Center, VPos::Bottom));
+    let centred = text_style(look.tick_px, INK).pos(Pos::new(HPos::Center, VPos::Bottom));
     area.draw(&Text::new("0", (x0, y0 - 3), centred.clone()))?;
     area.draw(&Text::new(label.to_string(), (x1, y0 - 3), centred))?;
     Ok((x0, x1))
@@ -884,13 +1100,17 @@ fn draw_scale_bar(
 
 /// An arrowhead pointing up the page (north), half filled, with an N above it; returns
 /// its tip and the middle of its base.
-fn draw_north_arrow(area: &Area, frame: &Rect) -> DrawResult<((f64, f64), (f64, f64))> {
+fn draw_north_arrow(
+    area: &Area,
+    frame: &Rect,
+    look: &Look,
+) -> DrawResult<((f64, f64), (f64, f64))> {
     area.draw(&Rectangle::new(
         [px((frame.x0, frame.y0)), px((frame.x1, frame.y1))],
         PAPER.mix(0.85).filled(),
     ))?;
     let cx = (frame.x0 + frame.x1) / 2.0;
-    let tip = (cx, frame.y0 + 18.0);
+    let tip = (cx, frame.y0 + 6.0 + look.subtitle_px);
     let base = frame.y1 - 4.0;
     let notch = (cx, base - 7.0);
     let left = (cx - 8.0, base);
@@ -906,7 +1126,7 @@ fn draw_north_arrow(area: &Area, frame: &Rect) -> DrawResult<((f64, f64), (f64, 
     area.draw(&Text::new(
         "N",
         px((cx, frame.y0 + 2.0)),
-        bold_style(SUBTITLE_PX, INK).pos(Pos::new(HPos::Center, VPos::Top)),
+        bold_style(look.subtitle_px, INK).pos(Pos::new(HPos::Center, VPos::Top)),
     ))?;
     Ok((tip, (cx, base)))
 }
@@ -918,7 +1138,8 @@ fn draw_legend(
     input: &MapInput,
     clean: &Clean,
     detail: bool,
-) -> DrawResult<()> {
+    look: &Look,
+) -> DrawResult<f64> {
     #[derive(Clone, Copy)]
     enum Sym {
         Spot,
@@ -928,10 +1149,12 @@ fn draw_legend(
         Ellipse,
         Marker(MarkerKind),
         Detail,
+        You,
+        Next,
     }
     let mut entries: Vec<(Sym, String)> = Vec::new();
     if !clean.observers.is_empty() {
-        entries.push((Sym::Spot, "observer spot, log line".into()));
+        entries.push((Sym::Spot, "observer spot, its reading".into()));
         entries.push((Sym::Line, "line of bearing".into()));
     }
     if clean.observers.iter().any(|o| o.outlier) {
@@ -958,6 +1181,12 @@ fn draw_legend(
     }
     if detail {
         entries.push((Sym::Detail, "extent of the detail".into()));
+    }
+    if clean.you.is_some() {
+        entries.push((Sym::You, "you are here, ring: 95 % accuracy".into()));
+    }
+    if clean.next.is_some() {
+        entries.push((Sym::Next, "suggested next spot".into()));
     }
     let (x, mut y) = (top_left.0, top_left.1 + 8.0);
     for (sym, text) in entries {
@@ -998,15 +1227,17 @@ fn draw_legend(
                 [px((x + 4.0, y - 6.0)), px((x + 18.0, y + 6.0))],
                 MUTED.stroke_width(1),
             ))?,
+            Sym::You => draw_you_are_here(area, c, Some(9.0))?,
+            Sym::Next => draw_next_spot(area, c)?,
         }
         area.draw(&Text::new(
             text,
             px((x + 32.0, y)),
-            text_style(LABEL_PX, INK).pos(Pos::new(HPos::Left, VPos::Center)),
+            text_style(look.label_px, INK).pos(Pos::new(HPos::Left, VPos::Center)),
         ))?;
-        y += 24.0;
+        y += look.row_px;
     }
-    Ok(())
+    Ok(y)
 }
 
 #[cfg(test)]
@@ -1063,6 +1294,9 @@ mod tests {
                 orientation_deg: 35.0,
             }),
             region_m: None,
+            you_are_here: None,
+            next_spot: None,
+            view: MapView::All,
             observers,
             markers: vec![
                 m(0.0, 0.0, "QK7MHR-R", MarkerKind::Emitter),
@@ -1079,7 +1313,7 @@ mod tests {
 
     fn render(input: &MapInput) -> (String, MapLayout) {
         let mut svg = String::new();
-        let layout = draw_map(input, &mut svg).expect("drawn");
+        let layout = draw_map(input, &WIDE, &mut svg).expect("drawn");
         (svg, layout)
     }
 
@@ -1089,7 +1323,11 @@ mod tests {
         let (svg, layout) = render(&input);
         pim_tests::assert_xml_well_formed(&svg, "svg");
         assert_eq!(
-            crate::picture::scalable_root(svg.clone(), (MAP_WIDTH_PX, MAP_HEIGHT_PX)),
+            crate::picture::scalable_root(
+                svg.clone(),
+                (MAP_WIDTH_PX, MAP_HEIGHT_PX),
+                MAP_HEIGHT_PX
+            ),
             map_svg(&input)
         );
         for o in &input.observers {
@@ -1305,6 +1543,13 @@ mod tests {
     }
 
     #[test]
+    fn semi_axes_are_sized_with_one_unit() {
+        assert_eq!(semi_axes_text(18.2, 15.24), "18.2 × 15.2 m");
+        assert_eq!(semi_axes_text(1200.0, 800.0), "1.2 km × 800 m");
+        assert!(map_svg(&sample()).contains("semi-axes 30 × 12 m, major axis 35°"));
+    }
+
+    #[test]
     fn segments_are_cut_to_the_view() {
         let (e, n) = (0.0..10.0, 0.0..10.0);
         let cut = clip_segment((-5.0, 5.0), (15.0, 5.0), &e, &n).expect("crosses");
@@ -1312,6 +1557,110 @@ mod tests {
         assert!(clip_segment((-5.0, -5.0), (-1.0, 20.0), &e, &n).is_none());
         let inside = clip_segment((1.0, 1.0), (2.0, 3.0), &e, &n).expect("inside");
         assert_eq!(inside, ((1.0, 1.0), (2.0, 3.0)));
+    }
+
+    fn walker_sample() -> MapInput {
+        MapInput {
+            you_are_here: Some(YouAreHere {
+                east_m: -120.0,
+                north_m: 60.0,
+                accuracy_m: Some(15.0),
+            }),
+            next_spot: Some(NextSpot {
+                east_m: 80.0,
+                north_m: -150.0,
+                label: "next: 120 m at 69°".into(),
+            }),
+            ..sample()
+        }
+    }
+
+    fn render_at(input: &MapInput, look: &Look) -> (String, MapLayout) {
+        let mut svg = String::new();
+        let layout = draw_map(input, look, &mut svg).expect("drawn");
+        (svg, layout)
+    }
+
+    #[test]
+    fn the_walker_and_the_next_spot_are_marked_and_labelled() {
+        let input = walker_sample();
+        for look in [WIDE, crate::picture::PHONE] {
+            let (svg, layout) = render_at(&input, &look);
+            pim_tests::assert_xml_well_formed(&svg, "svg");
+            for text in ["you are here", "next: 120 m at 69°", "suggested next spot"] {
+                assert!(svg.contains(text), "{text} missing at {look:?}");
+            }
+            let you = layout
+                .labels
+                .iter()
+                .find(|l| l.text == "you are here")
+                .expect("placed");
+            assert!(you.clear, "{look:?}");
+            // The accuracy ring: 15 m at the map's scale, as a circle of that radius.
+            let r = (15.0 * layout.px_per_m_east).round() as i32;
+            assert!(
+                svg.contains(&format!("r=\"{r}\"")),
+                "ring of {r} px at {look:?}"
+            );
+        }
+        // Without a label the next spot is called so.
+        let mut plain = walker_sample();
+        plain.next_spot.as_mut().expect("next").label = " ".into();
+        assert!(map_svg(&plain).contains(">\nnext spot\n</text>"));
+    }
+
+    #[test]
+    fn labels_of_a_phone_s_map_are_at_least_twelve_pixels_as_shown() {
+        // The phone's map is 360 px wide and shown at the width of a 390 px screen less
+        // the page's margins (358 px in the ticket), or at most its own width.
+        let svg = map_svg_at(&walker_sample(), &crate::picture::PHONE);
+        assert!(svg.contains("viewBox=\"0 0 360 ") && svg.contains("max-width:360px"));
+        let shown = 358.0 / 360.0;
+        let mut sizes = svg
+            .split("font-size=\"")
+            .skip(1)
+            .map(|s| {
+                s[..s.find('"').expect("quoted")]
+                    .trim_end_matches("px")
+                    .parse::<f64>()
+                    .expect("a size")
+            })
+            .peekable();
+        assert!(sizes.peek().is_some());
+        for px in sizes {
+            assert!(px * shown >= crate::picture::PHONE_MIN_TEXT_PX, "{px} px");
+        }
+    }
+
+    #[test]
+    fn a_map_around_the_fix_opens_centred_on_it() {
+        let mut input = walker_sample();
+        input.view = MapView::AroundFix { half_width_m: 40.0 };
+        for look in [WIDE, crate::picture::PHONE] {
+            let (_, layout) = render_at(&input, &look);
+            let fix = input.fix.expect("fix");
+            let centre = (
+                (layout.east.start + layout.east.end) / 2.0,
+                (layout.north.start + layout.north.end) / 2.0,
+            );
+            assert!((centre.0 - fix.0).abs() < 1e-6 && (centre.1 - fix.1).abs() < 1e-6);
+            // The walker and the next spot stay in view; the far spots need not.
+            let inside = |e: f64, n: f64| layout.east.contains(&e) && layout.north.contains(&n);
+            assert!(inside(-120.0, 60.0) && inside(80.0, -150.0));
+            assert!(!inside(-310.0, 120.0));
+        }
+        // Without the walker it shows the fix with its half-width, not the whole walk.
+        let mut near = sample();
+        near.view = MapView::AroundFix { half_width_m: 40.0 };
+        let (_, layout) = render(&near);
+        assert!(layout.east.end - layout.east.start < 300.0);
+        assert!(layout.east.contains(&-36.0) && layout.east.contains(&44.0));
+        // No fix: centred on the walker.
+        let mut lost = walker_sample();
+        lost.fix = None;
+        lost.view = MapView::AroundFix { half_width_m: 40.0 };
+        let (_, layout) = render(&lost);
+        assert!(((layout.east.start + layout.east.end) / 2.0 + 120.0).abs() < 1e-6);
     }
 
     /// Writes sample maps into the directory `$PIM_PICTURES` when that variable is set,

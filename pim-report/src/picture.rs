@@ -321,19 +321,196 @@ pub const MARGIN_PX: u32 = 14;
 pub const X_LABEL_AREA_PX: u32 = 40;
 pub const Y_LABEL_AREA_PX: u32 = 62;
 
-/// Draws a picture's two header lines: the title in bold, the subtitle beneath.
-pub fn draw_header(header: &Area, title: String, subtitle: String) -> DrawResult<()> {
-    header.draw(&Text::new(
-        title,
-        (MARGIN_PX as i32, 10),
-        bold_style(TITLE_PX, INK),
-    ))?;
-    header.draw(&Text::new(
-        subtitle,
-        (MARGIN_PX as i32, 34),
-        text_style(SUBTITLE_PX, MUTED),
-    ))?;
+/// The size a picture is drawn at and the type and layout that go with it: [`WIDE`] for
+/// a screen or paper, [`PHONE`] for a phone held upright. Each picture is drawn from
+/// the same input at both; only the drawing differs (type sizes, how many ticks and
+/// labels, where the legend goes), never what is shown as found.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Look {
+    /// Width of the picture in pixels.
+    pub width_px: u32,
+    pub title_px: f64,
+    pub subtitle_px: f64,
+    /// Labels, legend entries and axis titles.
+    pub label_px: f64,
+    /// Tick labels and scale bar figures.
+    pub tick_px: f64,
+    pub margin_px: u32,
+    pub x_label_area_px: u32,
+    pub y_label_area_px: u32,
+    /// Width of the legend's column on the right; `None`: the legend goes beneath the
+    /// plot, and the header's lines wrap to the width.
+    pub side_px: Option<u32>,
+    /// About how many tick labels an axis gets.
+    pub ticks: usize,
+    /// Height of one legend row.
+    pub row_px: f64,
+}
+
+/// The pictures as drawn for a screen or paper: 1,040 px wide with the legend beside
+/// the plot.
+pub const WIDE: Look = Look {
+    width_px: 1040,
+    title_px: TITLE_PX,
+    subtitle_px: SUBTITLE_PX,
+    label_px: LABEL_PX,
+    tick_px: TICK_PX,
+    margin_px: MARGIN_PX,
+    x_label_area_px: X_LABEL_AREA_PX,
+    y_label_area_px: Y_LABEL_AREA_PX,
+    side_px: Some(SIDE_PX),
+    ticks: 9,
+    row_px: 24.0,
+};
+
+/// The smallest size text may render at on a phone, in CSS pixels (common practice for
+/// legible small print on a handheld screen; the ticket's browser test checks it).
+pub const PHONE_MIN_TEXT_PX: f64 = 12.0;
+
+/// The pictures as drawn for a phone held upright: 360 px wide, to be shown at about
+/// that width (a 390 px screen less the page's margins, as the ticket does), so 13 px
+/// text stays above [`PHONE_MIN_TEXT_PX`] when scaled down to 340 px (13 × 340/360 ≈
+/// 12.3); the legend goes beneath the plot.
+pub const PHONE: Look = Look {
+    width_px: 360,
+    title_px: 15.0,
+    subtitle_px: 13.0,
+    label_px: 13.0,
+    tick_px: 13.0,
+    margin_px: 8,
+    x_label_area_px: 38,
+    y_label_area_px: 50,
+    side_px: None,
+    ticks: 5,
+    row_px: 22.0,
+};
+
+impl Look {
+    /// The margin right of a chart: on a phone, room for half the last tick label,
+    /// which plotters centres on its tick.
+    pub fn margin_right_px(&self) -> u32 {
+        if self.stacked() {
+            self.margin_px + 16
+        } else {
+            self.margin_px
+        }
+    }
+
+    /// Whether the legend goes beneath the plot (a phone).
+    pub fn stacked(&self) -> bool {
+        self.side_px.is_none()
+    }
+
+    /// The width the legend has: its column, or the picture less its margins.
+    pub fn legend_width_px(&self) -> f64 {
+        self.side_px.unwrap_or(self.width_px) as f64 - 2.0 * self.margin_px as f64
+    }
+
+    /// The header's lines at this look: the title and subtitle each on one line, or
+    /// wrapped to the width when the legend goes beneath.
+    pub fn header_lines(&self, title: &str, subtitle: &str) -> (Vec<String>, Vec<String>) {
+        if self.stacked() {
+            let w = self.width_px as f64 - 2.0 * self.margin_px as f64;
+            (
+                // bold type runs about a tenth wider than the estimate
+                wrap(title, w, self.title_px * 1.1),
+                wrap(subtitle, w, self.subtitle_px),
+            )
+        } else {
+            (vec![title.to_string()], vec![subtitle.to_string()])
+        }
+    }
+
+    /// The height of the header for these lines ([`HEADER_PX`] for a single line each).
+    pub fn header_px(&self, title: &str, subtitle: &str) -> u32 {
+        if !self.stacked() {
+            return HEADER_PX;
+        }
+        let (t, s) = self.header_lines(title, subtitle);
+        let h = 10.0
+            + t.len() as f64 * (self.title_px * 1.5)
+            + s.len() as f64 * (self.subtitle_px * 1.45)
+            + 8.0;
+        h.ceil() as u32
+    }
+
+    /// The body split into the plot's part and the legend's: side by side, or, when
+    /// stacked, the plot's part `plot_px` high above the rest.
+    pub fn split_body<'a>(&self, rest: &Area<'a>, plot_px: u32) -> (Area<'a>, Area<'a>) {
+        match self.side_px {
+            Some(side) => rest.split_horizontally(self.width_px - side),
+            None => rest.split_vertically(plot_px),
+        }
+    }
+}
+
+/// Breaks `text` into lines no wider than `width_px` at `font_px` (a word wider than
+/// that stands on a line of its own).
+pub fn wrap(text: &str, width_px: f64, font_px: f64) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for word in text.split_whitespace() {
+        let candidate = if line.is_empty() {
+            word.to_string()
+        } else {
+            format!("{line} {word}")
+        };
+        if text_width_px(&candidate, font_px) > width_px && !line.is_empty() {
+            lines.push(std::mem::take(&mut line));
+            line = word.to_string();
+        } else {
+            line = candidate;
+        }
+    }
+    if !line.is_empty() {
+        lines.push(line);
+    }
+    lines
+}
+
+/// Draws a picture's header: the title in bold, the subtitle beneath, each wrapped as
+/// [`Look::header_lines`] says.
+pub fn draw_header(header: &Area, look: &Look, title: String, subtitle: String) -> DrawResult<()> {
+    let x = look.margin_px as i32;
+    if !look.stacked() {
+        header.draw(&Text::new(title, (x, 10), bold_style(look.title_px, INK)))?;
+        header.draw(&Text::new(
+            subtitle,
+            (x, 34),
+            text_style(look.subtitle_px, MUTED),
+        ))?;
+        return Ok(());
+    }
+    let (titles, subtitles) = look.header_lines(&title, &subtitle);
+    let mut y = 10.0;
+    for (lines, style, step) in [
+        (titles, bold_style(look.title_px, INK), look.title_px * 1.5),
+        (
+            subtitles,
+            text_style(look.subtitle_px, MUTED),
+            look.subtitle_px * 1.45,
+        ),
+    ] {
+        for line in lines {
+            header.draw(&Text::new(line, (x, y as i32), style.clone()))?;
+            y += step;
+        }
+    }
     Ok(())
+}
+
+/// A hollow diamond of half-diagonal `r` pixels centred at `p`, edged in `edge`.
+pub fn draw_diamond(area: &Area, p: (f64, f64), r: f64, edge: ShapeStyle) -> DrawResult<()> {
+    let pts = vec![
+        px((p.0, p.1 - r)),
+        px((p.0 + r, p.1)),
+        px((p.0, p.1 + r)),
+        px((p.0 - r, p.1)),
+    ];
+    area.draw(&Polygon::new(pts.clone(), PAPER.filled()))?;
+    let mut closed = pts.clone();
+    closed.push(pts[0]);
+    area.draw(&PathElement::new(closed, edge))
 }
 
 /// The plot's pixel rectangle from a chart's pixel ranges, framed with a thin rule.
@@ -361,13 +538,14 @@ pub fn draw_labels(
     area: &Area,
     placer: &mut LabelPlacer,
     jobs: &[LabelJob],
+    label_px: f64,
 ) -> DrawResult<Vec<PlacedLabel>> {
     let mut placed_all = Vec::new();
     for job in jobs {
         if job.text.trim().is_empty() || !placer.bounds.contains_point(job.at) {
             continue;
         }
-        let placed = placer.place_near(job.at, label_size_px(&job.text, LABEL_PX), job.gap);
+        let placed = placer.place_near(job.at, label_size_px(&job.text, label_px), job.gap);
         let near = placed.rect.nearest_point(job.at);
         if (near.0 - job.at.0).hypot(near.1 - job.at.1) > job.gap * 1.6 + 2.0 {
             area.draw(&PathElement::new(
@@ -379,7 +557,7 @@ pub fn draw_labels(
             area,
             &placed.rect,
             &job.text,
-            &text_style(LABEL_PX, job.colour),
+            &text_style(label_px, job.colour),
         )?;
         placed_all.push(PlacedLabel {
             text: job.text.clone(),
@@ -422,18 +600,39 @@ pub fn finished_svg<T, E: std::fmt::Display>(
     (width, height): (u32, u32),
     what: &str,
 ) -> String {
+    finished_svg_cut(drawn.map(|_| height), svg, (width, height), what)
+}
+
+/// The same for a picture drawn on a canvas `height` pixels high that used only the
+/// height `drawn` returns (a phone's picture, whose legend beneath the plot takes the
+/// rows it needs): its viewBox is cut to the height used.
+pub fn finished_svg_cut<E: std::fmt::Display>(
+    drawn: Result<u32, E>,
+    svg: String,
+    (width, height): (u32, u32),
+    what: &str,
+) -> String {
     match drawn {
-        Ok(_) => scalable_root(pim_io::text::xml_chars_only(svg), (width, height)),
+        Ok(used) => scalable_root(
+            pim_io::text::xml_chars_only(svg),
+            (width, height),
+            used.clamp(1, height),
+        ),
         Err(e) => fallback_svg(width, height, &format!("{what} could not be drawn: {e}")),
     }
 }
 
 /// The root element's size given by its viewBox alone: as wide as the page or screen
 /// allows, at most its natural `width` pixels, its height following the viewBox's
-/// proportions (plotters writes a fixed `width` and `height`; only those are replaced).
-pub(crate) fn scalable_root(svg: String, (width, height): (u32, u32)) -> String {
-    let fixed = format!("<svg width=\"{width}\" height=\"{height}\" viewBox=");
-    let scalable = format!("<svg {} viewBox=", scalable_size(width));
+/// proportions (plotters writes a fixed `width` and `height`; only those, and the
+/// viewBox's height when `used` is less than `height`, are replaced).
+pub(crate) fn scalable_root(svg: String, (width, height): (u32, u32), used: u32) -> String {
+    let fixed =
+        format!("<svg width=\"{width}\" height=\"{height}\" viewBox=\"0 0 {width} {height}\"");
+    let scalable = format!(
+        "<svg {} viewBox=\"0 0 {width} {used}\"",
+        scalable_size(width)
+    );
     match svg.strip_prefix(fixed.as_str()) {
         Some(rest) => format!("{scalable}{rest}"),
         None => svg,
@@ -534,6 +733,8 @@ mod tests {
     fn roots_scale_by_their_view_box() {
         let drawn = "<svg width=\"1040\" height=\"640\" viewBox=\"0 0 1040 640\" xmlns=\"http://www.w3.org/2000/svg\">\n</svg>\n";
         let svg = finished_svg::<(), String>(Ok(()), drawn.to_string(), (1040, 640), "x");
+        let cut = finished_svg_cut::<String>(Ok(500), drawn.to_string(), (1040, 640), "x");
+        assert!(cut.contains("viewBox=\"0 0 1040 500\""), "{cut}");
         assert!(svg.starts_with(
             "<svg width=\"100%\" style=\"max-width:1040px;height:auto\" viewBox=\"0 0 1040 640\""
         ));

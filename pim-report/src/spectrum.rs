@@ -21,11 +21,10 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use crate::picture::{
-    axis_font, bold_style, draw_header, draw_label, draw_labels, finished_svg, framed_plot,
-    label_size_px, px, text_height_px, text_style, text_width_px, Area, DrawResult, LabelJob,
-    LabelPlacer, PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MARGIN_PX, MOSS,
-    MUTED, OCHRE, OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, SUBTITLE_PX, TICK_PX,
-    X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
+    axis_font, bold_style, draw_header, draw_label, draw_labels, finished_svg_cut, framed_plot,
+    label_size_px, px, text_height_px, text_style, text_width_px, wrap, Area, DrawResult, LabelJob,
+    LabelPlacer, Look, PlacedLabel, Rect, GRID, HEADER_PX, INK, LABEL_PAD_PX, LABEL_PX, MOSS,
+    MUTED, OCHRE, OCHRE_DARK, PAPER, RUST, SLATE, STONE, SUBTITLE_PX, TICK_PX, WIDE,
 };
 
 /// Size of the picture in pixels.
@@ -86,16 +85,43 @@ pub struct EmitterMark {
     pub freq_mhz: f64,
 }
 
-/// The spectrum picture as an SVG document.
+/// The spectrum picture as an SVG document, drawn for a screen or paper.
 pub fn spectrum_svg(input: &SpectrumInput) -> String {
+    spectrum_svg_at(input, &WIDE)
+}
+
+/// The spectrum picture drawn at `look` ([`crate::picture::PHONE`] for a phone: 360 px
+/// wide, the legend beneath, fewer product labels, and no strip of emitters, whose
+/// frequencies the ticket's tables give).
+pub fn spectrum_svg_at(input: &SpectrumInput, look: &Look) -> String {
     let mut svg = String::new();
-    let drawn = draw_spectrum(input, &mut svg);
-    finished_svg(
-        drawn,
-        svg,
-        (SPECTRUM_WIDTH_PX, SPECTRUM_HEIGHT_PX),
-        "The spectrum",
-    )
+    let canvas = canvas_px(look);
+    let drawn = draw_spectrum(input, look, &mut svg).map(|l| l.used_px);
+    finished_svg_cut(drawn, svg, canvas, "The spectrum")
+}
+
+/// The canvas a phone's spectrum is drawn on; its viewBox is cut to the height used.
+const PHONE_CANVAS_PX: u32 = 1200;
+/// The plot's part of a phone's spectrum, pixels high.
+const PHONE_PLOT_PX: u32 = 330;
+
+fn canvas_px(look: &Look) -> (u32, u32) {
+    if look.stacked() {
+        (look.width_px, PHONE_CANVAS_PX)
+    } else {
+        (SPECTRUM_WIDTH_PX, SPECTRUM_HEIGHT_PX)
+    }
+}
+
+/// How many products get a label and how many of those their formula: fewer on a
+/// phone, where the plot is a third as wide; the products chosen are the best ranked
+/// either way.
+fn labelled_products(look: &Look) -> (usize, usize) {
+    if look.stacked() {
+        (5, 1)
+    } else {
+        (LABELLED_PRODUCTS, PRODUCTS_WITH_FORMULA)
+    }
 }
 
 /// What the vertical axis shows.
@@ -294,12 +320,17 @@ struct SpectrumLayout {
     /// Labels in the emitter strip.
     strip_labels: Vec<PlacedLabel>,
     strip: Option<Rect>,
+    /// The height of the picture used, pixels.
+    used_px: u32,
 }
 
-fn draw_spectrum(input: &SpectrumInput, svg: &mut String) -> DrawResult<SpectrumLayout> {
-    let root =
-        SVGBackend::with_string(svg, (SPECTRUM_WIDTH_PX, SPECTRUM_HEIGHT_PX)).into_drawing_area();
-    let layout = draw_spectrum_on(&root, input)?;
+fn draw_spectrum(
+    input: &SpectrumInput,
+    look: &Look,
+    svg: &mut String,
+) -> DrawResult<SpectrumLayout> {
+    let root = SVGBackend::with_string(svg, canvas_px(look)).into_drawing_area();
+    let layout = draw_spectrum_on(&root, input, look)?;
     root.present()?;
     Ok(layout)
 }
@@ -315,8 +346,8 @@ fn mhz_decimals(span_mhz: f64) -> usize {
 }
 
 /// The label of a product: its order, and its formula for the top few.
-fn product_label(p: &ProductMark, index: usize) -> String {
-    if index < PRODUCTS_WITH_FORMULA && !p.formula.trim().is_empty() {
+fn product_label(p: &ProductMark, index: usize, with_formula: usize) -> String {
+    if index < with_formula && !p.formula.trim().is_empty() {
         format!("{}: {}", p.order, p.formula.trim())
     } else {
         p.order.to_string()
@@ -352,33 +383,35 @@ fn khz_text(khz: f64) -> String {
     t.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
-fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLayout> {
+fn draw_spectrum_on(root: &Area, input: &SpectrumInput, look: &Look) -> DrawResult<SpectrumLayout> {
     root.fill(&PAPER)?;
     let clean = Clean::new(input);
-    let (header, rest) = root.split_vertically(HEADER_PX);
-    let (body, side) = rest.split_horizontally(SPECTRUM_WIDTH_PX - SIDE_PX);
+    let (title, subtitle) = header_lines(input, &clean);
+    let (header, rest) = root.split_vertically(look.header_px(&title, &subtitle));
+    let (body, side) = look.split_body(&rest, PHONE_PLOT_PX);
     let strip_emitters: Vec<&EmitterMark> = clean
         .emitters
         .iter()
         .copied()
         .filter(|e| e.freq_mhz > 0.0)
         .collect();
-    let (chart_area, strip_area) = if strip_emitters.is_empty() {
+    let (chart_area, strip_area) = if strip_emitters.is_empty() || look.stacked() {
         (body.clone(), None)
     } else {
         let (c, s) = body.split_vertically(SPECTRUM_HEIGHT_PX - HEADER_PX - STRIP_PX);
         (c, Some(s))
     };
+    let (labelled, with_formula) = labelled_products(look);
 
-    let (title, subtitle) = header_lines(input, &clean);
-    draw_header(&header, title, subtitle)?;
+    draw_header(&header, look, title, subtitle)?;
 
     let window = clean.window_mhz();
     let height = Height::of(&clean.products, input.calibrated_first_dbm);
     let mut chart = ChartBuilder::on(&chart_area)
-        .margin(MARGIN_PX)
-        .x_label_area_size(X_LABEL_AREA_PX)
-        .y_label_area_size(Y_LABEL_AREA_PX)
+        .margin(look.margin_px)
+        .margin_right(look.margin_right_px())
+        .x_label_area_size(look.x_label_area_px)
+        .y_label_area_size(look.y_label_area_px)
         .build_cartesian_2d(window.clone(), height.range())?;
     let decimals = mhz_decimals(window.end - window.start);
     let x_tick = move |v: &f64| format!("{v:.decimals$}");
@@ -397,24 +430,29 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
             }
         }
     };
+    // The axis title for a screen, and for a phone, whose axis is short (the legend's
+    // notes say the rest).
     let y_desc = match height {
         Height::Level {
             calibrated: true, ..
-        } => "level in the channel at the receiver, dBm (calibrated)",
-        Height::Level { .. } => "level in the channel, dB relative to #1",
-        Height::Rank { .. } => "rank (1 = most plausible)",
-    };
+        } => [
+            "level in the channel at the receiver, dBm (calibrated)",
+            "level, dBm",
+        ],
+        Height::Level { .. } => ["level in the channel, dB relative to #1", "dB re #1"],
+        Height::Rank { .. } => ["rank (1 = most plausible)", "rank"],
+    }[usize::from(look.stacked())];
     chart
         .configure_mesh()
         .bold_line_style(GRID.stroke_width(1))
         .max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style(axis_font(TICK_PX, MUTED))
-        .axis_desc_style(axis_font(LABEL_PX, MUTED))
+        .label_style(axis_font(look.tick_px, MUTED))
+        .axis_desc_style(axis_font(look.label_px, MUTED))
         .x_desc("frequency, MHz")
         .y_desc(y_desc)
-        .x_labels(7)
-        .y_labels(7)
+        .x_labels(if look.stacked() { 3 } else { 7 })
+        .y_labels(if look.stacked() { 5 } else { 7 })
         .x_label_formatter(&x_tick)
         .y_label_formatter(&y_tick)
         .draw()?;
@@ -449,14 +487,21 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
                 .products
                 .iter()
                 .any(|p| p.level_db.is_none_or(|l| !l.is_finite()));
+            let text = match (weak, none) {
+                (true, true) => "weaker / no level",
+                (true, false) => "weaker",
+                _ => "no level",
+            };
+            // Beside the axis, or inside the band where the axis has no room.
+            let (at, anchor) = if look.stacked() {
+                ((plot.x0 + 4.0, (top + plot.y1) / 2.0), HPos::Left)
+            } else {
+                ((plot.x0 - 8.0, (top + plot.y1) / 2.0), HPos::Right)
+            };
             root.draw(&Text::new(
-                match (weak, none) {
-                    (true, true) => "weaker / no level",
-                    (true, false) => "weaker",
-                    _ => "no level",
-                },
-                px((plot.x0 - 8.0, (top + plot.y1) / 2.0)),
-                text_style(TICK_PX, MUTED).pos(Pos::new(HPos::Right, VPos::Center)),
+                text,
+                px(at),
+                text_style(look.tick_px, MUTED).pos(Pos::new(anchor, VPos::Center)),
             ))?;
         }
     }
@@ -564,8 +609,14 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
     }
     let mut labels = Vec::new();
     if clean.target_known {
-        let text = format!("heard {:.4} MHz", clean.target_mhz);
-        let size = label_size_px(&text, LABEL_PX);
+        // the frequency is in the header; a phone's plot has no room to repeat it
+        let text = if look.stacked() {
+            "heard".to_string()
+        } else {
+            format!("heard {:.4} MHz", clean.target_mhz)
+        };
+        // bold, about a twelfth wider than the estimate
+        let size = label_size_px(&text, look.label_px * 1.08);
         let y = plot.y0 + 4.0;
         let placed = placer.place_first_clear(&[
             Rect::at(bx1 + 4.0, y, size),
@@ -573,7 +624,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
             Rect::at(bx1 + 4.0, y + size.1 + 2.0, size),
             Rect::at(bx0 - 4.0 - size.0, y + size.1 + 2.0, size),
         ]);
-        draw_label(root, &placed.rect, &text, &bold_style(LABEL_PX, INK))?;
+        draw_label(root, &placed.rect, &text, &bold_style(look.label_px, INK))?;
         labels.push(PlacedLabel {
             text,
             rect: placed.rect,
@@ -589,15 +640,15 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
             gap: 8.0,
         })
         .collect();
-    for (i, p) in clean.products.iter().enumerate().take(LABELLED_PRODUCTS) {
+    for (i, p) in clean.products.iter().enumerate().take(labelled) {
         jobs.push(LabelJob {
             at: stem_tops[i],
-            text: product_label(p, i),
+            text: product_label(p, i, with_formula),
             colour: if i < PRODUCTS_WITH_FORMULA { RUST } else { INK },
             gap: 7.0,
         });
     }
-    labels.extend(draw_labels(root, &mut placer, &jobs)?);
+    labels.extend(draw_labels(root, &mut placer, &jobs, look.label_px)?);
 
     // The emitters off to the side, on a log scale.
     let mut strip = None;
@@ -616,13 +667,20 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
     }
 
     let (sx, sy) = side.get_base_pixel();
-    draw_legend(
+    let margin = look.margin_px as f64;
+    let legend_bottom = draw_legend(
         root,
-        (sx as f64 + MARGIN_PX as f64, sy as f64 + MARGIN_PX as f64),
+        (sx as f64 + margin, sy as f64 + margin),
         &clean,
         height,
         !in_window.is_empty(),
+        look,
     )?;
+    let used_px = if look.stacked() {
+        (legend_bottom + margin).ceil() as u32
+    } else {
+        SPECTRUM_HEIGHT_PX
+    };
 
     Ok(SpectrumLayout {
         plot: Some(plot),
@@ -634,6 +692,7 @@ fn draw_spectrum_on(root: &Area, input: &SpectrumInput) -> DrawResult<SpectrumLa
         labels,
         strip_labels,
         strip,
+        used_px,
     })
 }
 
@@ -651,16 +710,7 @@ fn draw_emitter_mark(area: &Area, p: (f64, f64)) -> DrawResult<()> {
 
 /// A hollow diamond on the floor for a product with no predicted level.
 fn draw_unlevelled_mark(area: &Area, p: (f64, f64)) -> DrawResult<()> {
-    let pts = vec![
-        px((p.0, p.1 - 5.0)),
-        px((p.0 + 5.0, p.1)),
-        px((p.0, p.1 + 5.0)),
-        px((p.0 - 5.0, p.1)),
-    ];
-    area.draw(&Polygon::new(pts.clone(), PAPER.filled()))?;
-    let mut edge = pts.clone();
-    edge.push(pts[0]);
-    area.draw(&PathElement::new(edge, STONE.stroke_width(2)))
+    crate::picture::draw_diamond(area, p, 5.0, STONE.stroke_width(2))
 }
 
 /// A frequency in MHz for the strip: three decimals.
@@ -922,29 +972,6 @@ fn draw_strip(
     Ok(placed)
 }
 
-/// Breaks `text` into lines no wider than `width_px` at `font_px`.
-fn wrap(text: &str, width_px: f64, font_px: f64) -> Vec<String> {
-    let mut lines = Vec::new();
-    let mut line = String::new();
-    for word in text.split_whitespace() {
-        let candidate = if line.is_empty() {
-            word.to_string()
-        } else {
-            format!("{line} {word}")
-        };
-        if text_width_px(&candidate, font_px) > width_px && !line.is_empty() {
-            lines.push(std::mem::take(&mut line));
-            line = word.to_string();
-        } else {
-            line = candidate;
-        }
-    }
-    if !line.is_empty() {
-        lines.push(line);
-    }
-    lines
-}
-
 /// The legend, one symbol and its meaning a row, then notes on reading the chart.
 fn draw_legend(
     area: &Area,
@@ -952,7 +979,8 @@ fn draw_legend(
     clean: &Clean,
     height: Height,
     emitters_in_window: bool,
-) -> DrawResult<()> {
+    look: &Look,
+) -> DrawResult<f64> {
     #[derive(Clone, Copy)]
     enum Sym {
         Channel,
@@ -972,6 +1000,7 @@ fn draw_legend(
         entries.push((Sym::Heard, "heard frequency".into()));
     }
     let n = clean.products.len();
+    let (labelled, with_formula) = labelled_products(look);
     if n > 0 {
         entries.push((
             Sym::Top,
@@ -1050,9 +1079,9 @@ fn draw_legend(
         area.draw(&Text::new(
             text,
             px((x + 32.0, y)),
-            text_style(LABEL_PX, INK).pos(Pos::new(HPos::Left, VPos::Center)),
+            text_style(look.label_px, INK).pos(Pos::new(HPos::Left, VPos::Center)),
         ))?;
-        y += 24.0;
+        y += look.row_px;
     }
 
     let mut notes = Vec::new();
@@ -1066,30 +1095,33 @@ fn draw_legend(
                 "Stem height: rank, the most plausible highest (no levels known).".to_string()
             }
         });
-        notes.push(format!(
-            "Labels: order of the product; formula for the top {PRODUCTS_WITH_FORMULA}."
-        ));
+        notes.push(if with_formula == 1 {
+            "Labels: order of the product; formula for the first.".to_string()
+        } else {
+            format!("Labels: order of the product; formula for the top {with_formula}.")
+        });
     }
-    if n > LABELLED_PRODUCTS {
+    if n > labelled {
         notes.push(format!(
             "{} more products are drawn without labels.",
-            n - LABELLED_PRODUCTS
+            n - labelled
         ));
     }
     y += 8.0;
-    let width = SIDE_PX as f64 - 2.0 * MARGIN_PX as f64;
+    let width = look.legend_width_px();
+    let line_px = (look.label_px * 1.45).round();
     for note in notes {
-        for line in wrap(&note, width, LABEL_PX) {
+        for line in wrap(&note, width, look.label_px) {
             area.draw(&Text::new(
                 line,
                 px((x, y)),
-                text_style(LABEL_PX, MUTED).pos(Pos::new(HPos::Left, VPos::Center)),
+                text_style(look.label_px, MUTED).pos(Pos::new(HPos::Left, VPos::Center)),
             ))?;
-            y += 16.0;
+            y += line_px;
         }
         y += 6.0;
     }
-    Ok(())
+    Ok(y)
 }
 
 #[cfg(test)]
@@ -1177,7 +1209,7 @@ mod tests {
 
     fn render(input: &SpectrumInput) -> (String, SpectrumLayout) {
         let mut svg = String::new();
-        let layout = draw_spectrum(input, &mut svg).expect("drawn");
+        let layout = draw_spectrum(input, &WIDE, &mut svg).expect("drawn");
         (svg, layout)
     }
 
@@ -1195,7 +1227,11 @@ mod tests {
         let (svg, layout) = render(&input);
         pim_tests::assert_xml_well_formed(&svg, "svg");
         assert_eq!(
-            crate::picture::scalable_root(svg.clone(), (SPECTRUM_WIDTH_PX, SPECTRUM_HEIGHT_PX)),
+            crate::picture::scalable_root(
+                svg.clone(),
+                (SPECTRUM_WIDTH_PX, SPECTRUM_HEIGHT_PX),
+                SPECTRUM_HEIGHT_PX
+            ),
             spectrum_svg(&input)
         );
         assert!(svg.contains("heard 146.3400 MHz"));

@@ -28,6 +28,8 @@ use crate::candidates::{
 use crate::document::{html, markdown, Block};
 use crate::fix::method_name;
 use crate::map::{map_svg, MapInput, Marker, MarkerKind, Observer};
+use crate::picture::PHONE;
+use crate::readings::ReadingNames;
 use crate::spectrum::{spectrum_svg, EmitterMark, ProductMark, SpectrumInput};
 
 /// Everything a ticket is made from.
@@ -290,6 +292,7 @@ fn build(
     let fix = &t.fix;
     let e = &fix.ellipse;
     let heard = t.params.target;
+    let names = ReadingNames::new(&t.log, t.work_order.utc_offset);
     let mut doc = vec![
         Block::Heading(1, format!("PIM ticket: {}, carrier on {} MHz", t.site_name, heard.mhz_text())),
         Block::Para(format!(
@@ -347,7 +350,8 @@ fn build(
     if let Some(&(line, strongest)) = levels.iter().max_by(|a, b| a.1.total_cmp(&b.1)) {
         let weakest = levels.iter().map(|l| l.1).fold(f64::INFINITY, f64::min);
         heard_points.push(format!(
-            "Levels on the walk: {weakest:.1} to {strongest:.1} dBm, strongest at line {line} of the log."
+            "Levels on the walk: {weakest:.1} to {strongest:.1} dBm, strongest at reading {}.",
+            names.name_and_line(line)
         ));
     }
     if let Some(level) = t.heard_dbm {
@@ -564,7 +568,8 @@ fn build(
         ));
     }
     doc.push(Block::Para(levels));
-    let spectrum = spectrum_svg(&spectrum_input(t, at_fix, &carriers));
+    let spectrum_in = spectrum_input(t, at_fix, &carriers);
+    let spectrum = spectrum_svg(&spectrum_in);
     doc.push(Block::Picture {
         file: "spectrum.svg".into(),
         alt: format!(
@@ -572,6 +577,7 @@ fn build(
             heard.mhz_text()
         ),
         svg: spectrum.clone(),
+        phone_svg: Some(crate::spectrum::spectrum_svg_at(&spectrum_in, &PHONE)),
     });
 
     let band_svg = t.band.as_ref().map(|band| {
@@ -583,7 +589,8 @@ fn build(
             &band.sources,
         );
         let svg = crate::trace::trace_svg(&picture);
-        doc.extend(band_blocks(band, t.site.emitters(), svg.clone()));
+        let phone = crate::trace::trace_svg_at(&picture, &PHONE);
+        doc.extend(band_blocks(band, t.site.emitters(), svg.clone(), phone));
         svg
     });
 
@@ -611,7 +618,12 @@ fn build(
             if t.corrections.len() == 1 { "" } else { "s" },
             t.corrections
                 .iter()
-                .map(|c| format!("line {}: {:+.1}° {}", c.line, c.declination_deg, c.source))
+                .map(|c| format!(
+                    "{}: {:+.1}° {}",
+                    names.name_and_line(c.line),
+                    c.declination_deg,
+                    c.source
+                ))
                 .collect::<Vec<_>>()
                 .join("; ")
         ));
@@ -624,8 +636,8 @@ fn build(
             .find(|x| x.line == r.line)
             .and_then(|x| x.note.clone());
         where_points.push(format!(
-            "Line {} disagrees with the others by {:+.1}°{}{}.",
-            r.line,
+            "Reading {} disagrees with the others by {:+.1}°{}{}.",
+            names.name_and_line(r.line),
             r.residual_deg,
             note.map(|n| format!(" ({n})")).unwrap_or_default(),
             if r.weight < 0.5 { "; set aside" } else { "" }
@@ -635,7 +647,9 @@ fn build(
         where_points.push(format!("Note: {w}."));
     }
     doc.push(Block::List(where_points));
-    let map = map_svg(&map_input(t, near));
+    let mut map_in = map_input(t, near);
+    crate::map::name_observers(&mut map_in, &t.fix, &names);
+    let map = map_svg(&map_in);
     doc.push(Block::Picture {
         file: "map.svg".into(),
         alt: format!(
@@ -643,6 +657,7 @@ fn build(
             e.confidence * 100.0
         ),
         svg: map.clone(),
+        phone_svg: Some(crate::map::map_svg_at(&map_in, &PHONE)),
     });
     if let Some(off) = off_map_text(t, at_fix) {
         doc.push(Block::Para(off));
@@ -680,8 +695,13 @@ fn build(
         });
     }
 
-    // 4. Inspect
-    doc.push(Block::Heading(2, "4. What to inspect".into()));
+    // 4. Cautions, before any work at the site
+    doc.push(Block::Heading(2, "4. Cautions".into()));
+    let exposure = exposure_at(t.site.emitters(), t.fix.position, t.model.junction_height_m);
+    doc.extend(caution_blocks(t, &exposure));
+
+    // 5. Inspect
+    doc.push(Block::Heading(2, "5. What to inspect".into()));
     // Structures that call for the same checks share one point, nearest first.
     let mut groups: Vec<(&[&str], Vec<String>)> = Vec::new();
     for n in near.iter().filter(|n| n.item == ItemKind::Structure) {
@@ -727,8 +747,8 @@ fn build(
     }
     doc.push(Block::List(inspect));
 
-    // 5. Confirm
-    doc.push(Block::Heading(2, "5. How to confirm".into()));
+    // 6. Confirm
+    doc.push(Block::Heading(2, "6. How to confirm".into()));
     let mut steps = Vec::new();
     match &t.evidence.attenuator {
         Some(test) => steps.push(attenuator_done(test)),
@@ -818,33 +838,12 @@ fn build(
             HEARD_FILE,
         ]))),
     }
-    let exposure = exposure_at(t.site.emitters(), t.fix.position, t.model.junction_height_m);
     steps.push(tap_test_text(&exposure, credible));
     doc.push(Block::Para(format!(
         "The commands name their files relative to this ticket's folder: run them there. {ATTENUATOR_FILE}, {POWER_STEPS_FILE}, {ON_AIR_FILE} and {HEARD_FILE} are the files the crew records."
     )));
     doc.push(Block::Steps(steps));
 
-    // 6. Cautions
-    doc.push(Block::Heading(2, "6. Cautions".into()));
-    let mut owners: Vec<String> = t
-        .site
-        .emitters()
-        .iter()
-        .filter_map(|e| e.owner.clone())
-        .collect();
-    owners.sort();
-    owners.dedup();
-    doc.extend(exposure_blocks(&exposure, t.site.emitters(), t.limit));
-    doc.push(Block::Cautions(vec![
-        "RF exposure: transmitting antennas on and around the site exceed exposure limits close in. Keep farther from each antenna than its reference distance above unless that transmitter is switched off, locked out and tagged out; keep to the site's RF safety plan and the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States).".into(),
-        "Tower and guy work only by trained, authorised climbers under the site owner's rules, with fall protection. Do not climb a disused or damaged structure until its condition has been checked; do not loosen clamps on a tensioned guy without a rigger.".into(),
-        format!(
-            "Power changes and shutdowns (power steps, an antenna switched off for work) only by arrangement with the licensees{}, who make them; a transmitter switched off for work is locked out and tagged out (lock-out/tag-out) until the work is done and everyone is clear.",
-            if owners.is_empty() { String::new() } else { format!(": {}", owners.join(", ")) }
-        ),
-        "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
-    ]));
     (doc, map, spectrum, band_svg)
 }
 
@@ -853,6 +852,32 @@ const ATTENUATOR_FILE: &str = "attenuator-readings.csv";
 const POWER_STEPS_FILE: &str = "power-steps.csv";
 const ON_AIR_FILE: &str = "on-air.csv";
 const HEARD_FILE: &str = "heard.csv";
+
+/// The cautions the ticket gives before any work step: the exposure near the
+/// antennas, climbing and guy anchors, arrangements with the licensees and local codes
+/// first (common practice of site safety rules).
+fn caution_blocks(t: &TicketInputs, exposure: &Exposure) -> Vec<Block> {
+    let mut owners: Vec<String> = t
+        .site
+        .emitters()
+        .iter()
+        .filter_map(|e| e.owner.clone())
+        .collect();
+    owners.sort();
+    owners.dedup();
+    let mut doc = exposure_blocks(exposure, t.site.emitters(), t.limit);
+    doc.push(Block::Cautions(vec![
+        "RF exposure: transmitting antennas on and around the site exceed exposure limits close in. Keep farther from each antenna than its reference distance above unless that transmitter is switched off, locked out and tagged out; keep to the site's RF safety plan and the ICNIRP 2020 guidelines (FCC OET Bulletin 65 in the United States).".into(),
+        "Stay out of guy-anchor areas and off structures unless the work calls for it: a guy or anchor under tension, ice falling from a tower and a structure's fall zone are hazards at ground level too.".into(),
+        "Tower and guy work only by trained, authorised climbers under the site owner's rules, with fall protection. Do not climb a disused or damaged structure until its condition has been checked; do not loosen clamps on a tensioned guy without a rigger.".into(),
+        format!(
+            "Power changes and shutdowns (power steps, an antenna switched off for work) only by arrangement with the licensees{}, who make them; a transmitter switched off for work is locked out and tagged out (lock-out/tag-out) until the work is done and everyone is clear.",
+            if owners.is_empty() { String::new() } else { format!(": {}", owners.join(", ")) }
+        ),
+        "This ticket points at likely causes; local codes, site rules and licensed practice come first.".into(),
+    ]));
+    doc
+}
 
 /// The tap test, with or without the transmitters on as the exposure at the fix allows.
 fn tap_test_text(x: &Exposure, credible: bool) -> String {
@@ -1101,7 +1126,12 @@ fn power_steps_done(test: &PowerStepTest, carrier: &crate::slope::Carrier) -> St
 
 /// The whole receive band: the trace picture, what its peaks are, and the emitter sets
 /// whose products explain several of them.
-fn band_blocks(band: &BandTrace, emitters: &[Emitter], svg: String) -> Vec<Block> {
+fn band_blocks(
+    band: &BandTrace,
+    emitters: &[Emitter],
+    svg: String,
+    phone_svg: String,
+) -> Vec<Block> {
     let sweep = &band.sweep;
     let count = |k| sweep.peaks.iter().filter(|p| p.kind == k).count();
     let (e, p, u) = (
@@ -1124,6 +1154,7 @@ fn band_blocks(band: &BandTrace, emitters: &[Emitter], svg: String) -> Vec<Block
             file: "trace.svg".into(),
             alt: "The receive band trace, its noise floor, and each peak marked by kind".into(),
             svg,
+            phone_svg: Some(phone_svg),
         },
     ];
     let suspects: Vec<String> = sweep
@@ -1296,6 +1327,7 @@ pub fn fix_map_input(
         region_m: Some(fix.region.iter().map(|p| frame.to_local(*p)).collect()),
         observers,
         markers,
+        ..MapInput::default()
     }
 }
 

@@ -12,9 +12,9 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 
 use crate::picture::{
-    axis_font, draw_header, draw_labels, finished_svg, framed_plot, px, text_style, Area,
-    DrawResult, LabelJob, LabelPlacer, Rect, GRID, HEADER_PX, INK, LABEL_PX, MARGIN_PX, MOSS,
-    MUTED, OCHRE_DARK, PAPER, RUST, SIDE_PX, SLATE, STONE, X_LABEL_AREA_PX, Y_LABEL_AREA_PX,
+    axis_font, draw_header, draw_labels, finished_svg_cut, framed_plot, px, text_style, Area,
+    DrawResult, LabelJob, LabelPlacer, Look, Rect, GRID, INK, MOSS, MUTED, OCHRE_DARK, PAPER, RUST,
+    SLATE, STONE, WIDE,
 };
 
 /// Size of the picture in pixels.
@@ -22,6 +22,12 @@ pub const TRACE_WIDTH_PX: u32 = 1040;
 pub const TRACE_HEIGHT_PX: u32 = 560;
 /// Peaks labelled, strongest above the floor first.
 pub const LABELLED_PEAKS: usize = 16;
+/// Peaks labelled on a phone, whose plot is a third as wide.
+const PHONE_LABELLED_PEAKS: usize = 6;
+/// The canvas a phone's trace is drawn on; its viewBox is cut to the height used.
+const PHONE_CANVAS_PX: u32 = 900;
+/// The plot's part of a phone's trace, pixels high.
+const PHONE_PLOT_PX: u32 = 320;
 
 /// What a peak is, for its mark.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -56,15 +62,25 @@ pub struct TraceInput {
     pub peaks: Vec<PeakMark>,
 }
 
-/// The trace picture as an SVG document.
+/// The trace picture as an SVG document, drawn for a screen or paper.
 pub fn trace_svg(input: &TraceInput) -> String {
+    trace_svg_at(input, &WIDE)
+}
+
+/// The trace picture drawn at `look` ([`crate::picture::PHONE`] for a phone: 360 px
+/// wide, the legend beneath, the strongest few peaks labelled).
+pub fn trace_svg_at(input: &TraceInput, look: &Look) -> String {
     let mut svg = String::new();
-    let drawn = {
-        let root = SVGBackend::with_string(&mut svg, (TRACE_WIDTH_PX, TRACE_HEIGHT_PX))
-            .into_drawing_area();
-        draw_trace_on(&root, input).and_then(|_| root.present())
+    let canvas = if look.stacked() {
+        (look.width_px, PHONE_CANVAS_PX)
+    } else {
+        (TRACE_WIDTH_PX, TRACE_HEIGHT_PX)
     };
-    finished_svg(drawn, svg, (TRACE_WIDTH_PX, TRACE_HEIGHT_PX), "The trace")
+    let drawn = {
+        let root = SVGBackend::with_string(&mut svg, canvas).into_drawing_area();
+        draw_trace_on(&root, input, look).and_then(|used| root.present().map(|_| used))
+    };
+    finished_svg_cut(drawn, svg, canvas, "The trace")
 }
 
 /// The lowest and highest level in each of `columns` equal frequency slices, as a path
@@ -99,16 +115,23 @@ fn column_envelope(points: &[(f64, f64)], lo: f64, hi: f64, columns: usize) -> V
     out
 }
 
-fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
+/// Draws the trace; returns the height used.
+fn draw_trace_on(root: &Area, input: &TraceInput, look: &Look) -> DrawResult<u32> {
     root.fill(&PAPER)?;
-    let (header, rest) = root.split_vertically(HEADER_PX);
-    let (body, side) = rest.split_horizontally(TRACE_WIDTH_PX - SIDE_PX);
     let title = if input.title.trim().is_empty() {
         "Receive band trace".to_string()
     } else {
         input.title.clone()
     };
-    draw_header(&header, title, input.subtitle.clone())?;
+    let header_px = look.header_px(&title, &input.subtitle);
+    let (header, rest) = root.split_vertically(header_px);
+    let (body, side) = look.split_body(&rest, PHONE_PLOT_PX);
+    draw_header(&header, look, title, input.subtitle.clone())?;
+    let full = if look.stacked() {
+        header_px + PHONE_PLOT_PX
+    } else {
+        TRACE_HEIGHT_PX
+    };
 
     let finite: Vec<(f64, f64)> = input
         .points
@@ -119,10 +142,10 @@ fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
     let (Some(first), Some(last)) = (finite.first(), finite.last()) else {
         root.draw(&Text::new(
             "No trace points.",
-            (MARGIN_PX as i32, HEADER_PX as i32 + 20),
-            text_style(LABEL_PX, MUTED),
+            (look.margin_px as i32, header_px as i32 + 20),
+            text_style(look.label_px, MUTED),
         ))?;
-        return Ok(());
+        return Ok(full);
     };
     let (x0, mut x1) = (first.0, last.0);
     if x1 <= x0 {
@@ -134,9 +157,10 @@ fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
     let y1 = ((hi + 8.0) / 10.0).ceil() * 10.0;
 
     let mut chart = ChartBuilder::on(&body)
-        .margin(MARGIN_PX)
-        .x_label_area_size(X_LABEL_AREA_PX)
-        .y_label_area_size(Y_LABEL_AREA_PX)
+        .margin(look.margin_px)
+        .margin_right(look.margin_right_px())
+        .x_label_area_size(look.x_label_area_px)
+        .y_label_area_size(look.y_label_area_px)
         .build_cartesian_2d(x0..x1, y0..y1)?;
     let span = x1 - x0;
     let decimals = match span {
@@ -152,12 +176,12 @@ fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
         .bold_line_style(GRID.stroke_width(1))
         .max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style(axis_font(super::picture::TICK_PX, MUTED))
-        .axis_desc_style(axis_font(LABEL_PX, MUTED))
+        .label_style(axis_font(look.tick_px, MUTED))
+        .axis_desc_style(axis_font(look.label_px, MUTED))
         .x_desc("frequency, MHz")
         .y_desc("level, dBm")
-        .x_labels(8)
-        .y_labels(8)
+        .x_labels(if look.stacked() { 3 } else { 8 })
+        .y_labels(if look.stacked() { 5 } else { 8 })
         .x_label_formatter(&x_tick)
         .y_label_formatter(&y_tick)
         .draw()?;
@@ -237,7 +261,11 @@ fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
     });
     let jobs: Vec<LabelJob> = order
         .iter()
-        .take(LABELLED_PEAKS)
+        .take(if look.stacked() {
+            PHONE_LABELLED_PEAKS
+        } else {
+            LABELLED_PEAKS
+        })
         .map(|&i| {
             let p = peaks[i];
             let text = match p.kind {
@@ -257,14 +285,12 @@ fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
             }
         })
         .collect();
-    draw_labels(root, &mut placer, &jobs)?;
+    draw_labels(root, &mut placer, &jobs, look.label_px)?;
 
     // The legend.
     let (sx, sy) = side.get_base_pixel();
-    let (x, mut y) = (
-        sx as f64 + MARGIN_PX as f64,
-        sy as f64 + MARGIN_PX as f64 + 8.0,
-    );
+    let margin = look.margin_px as f64;
+    let (x, mut y) = (sx as f64 + margin, sy as f64 + margin + 8.0);
     let entries: [(Option<MarkKind>, &str); 6] = [
         (None, "trace"),
         (None, "noise floor (running median)"),
@@ -293,12 +319,16 @@ fn draw_trace_on(root: &Area, input: &TraceInput) -> DrawResult<()> {
         }
         root.draw(&Text::new(
             text.to_string(),
-            px((x + 28.0, y - 6.0)),
-            text_style(LABEL_PX, INK),
+            px((x + 28.0, y - (look.label_px / 2.0).round())),
+            text_style(look.label_px, INK),
         ))?;
-        y += 22.0;
+        y += look.row_px.max(22.0);
     }
-    Ok(())
+    Ok(if look.stacked() {
+        (y + margin).ceil() as u32
+    } else {
+        full
+    })
 }
 
 /// A peak's mark, centred at `p`.

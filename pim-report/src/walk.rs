@@ -43,7 +43,7 @@ const SPOT_HEADERS: [(&str, Align); 7] = [
     ("lon", Align::Right),
     ("range m", Align::Right),
     ("antenna points °", Align::Right),
-    ("ellipse after m", Align::Right),
+    ("semi-axes after m", Align::Right),
 ];
 
 fn spot_cells(rank: usize, s: &ScoredSpot) -> [String; 8] {
@@ -431,15 +431,19 @@ pub fn log_listing_csv(
 }
 
 /// The listing as JSON: the running fix (as `pim fix --format json` gives it, without
-/// corrections) and each reading with its residual, weight and status.
+/// corrections) and each reading with its number in the log (from 1), residual, weight
+/// and status.
 pub fn log_listing_json(fix: &Fix, rows: &[LogRow]) -> Value {
     let readings: Vec<Value> = listing_cells(fix, rows)
         .iter()
         .zip(rows)
-        .map(|(c, row)| {
+        .enumerate()
+        .map(|(i, (c, row))| {
             let fit = fix.readings.iter().find(|r| r.line == row.line);
             let mut reading = json!({
                 "line": row.line,
+                // the reading's number in the log, as crate::readings counts it
+                "number": i + 1,
                 "time": (!c[1].is_empty()).then(|| c[1].clone()),
                 "lat_deg": fit.map(|f| f.observer.lat_deg).or(row.position.map(|p| p.lat_deg)),
                 "lon_deg": fit.map(|f| f.observer.lon_deg).or(row.position.map(|p| p.lon_deg)),

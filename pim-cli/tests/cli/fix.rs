@@ -28,6 +28,20 @@ fn json_follows_the_contract() {
     for key in ["semi_major_m", "semi_minor_m", "orientation_deg"] {
         assert!(v["ellipse"][key].is_number(), "{key}");
     }
+    // each reading named by its number in the log and its time, its line kept beside
+    // (field-logs/walk.csv: the first row, line 2, taken at 09:12:40 UTC; the outlier
+    // is the fifth, line 6)
+    let first = &v["residuals"][0];
+    assert_eq!(
+        (&first["line"], &first["number"], &first["time"]),
+        (
+            &serde_json::json!(2),
+            &serde_json::json!(1),
+            &serde_json::json!("2026-11-28T09:12:40Z")
+        )
+    );
+    assert_eq!(v["outliers"][0]["line"], 6);
+    assert_eq!(v["outliers"][0]["number"], 5);
     assert_eq!(v["ellipse"]["confidence"], 0.95);
     let o_deg = v["ellipse"]["orientation_deg"].as_f64().unwrap();
     assert!((0.0..180.0).contains(&o_deg));

@@ -1,11 +1,12 @@
 //! Labels that do not collide (issue 24, item 8): every SVG the demo writes (its
-//! ticket's map with its inset, spectrum and band trace, and the recording's waterfall)
-//! is read back and no two of its text boxes overlap. A box is estimated from the font
-//! size and the number of characters (0.6 em a character, 0.76 em above the baseline and
-//! 0.24 em below: a wide sans-serif face's usual measures, common practice), placed by
-//! `x`, `y`, `dy` and `text-anchor`; rotated texts (axis titles) are left out. Boxes may
-//! touch by up to 1 px, the slack of the estimate. Also: the ticket names the emitters
-//! of its listed candidates that lie beyond its map.
+//! ticket's map with its inset, spectrum and band trace, and the recording's waterfall),
+//! and the ticket's pictures as inlined in ticket.html, drawn for a screen and for a
+//! phone, are read back and no two of its text boxes overlap. A box is estimated from the
+//! font size and the number of characters (0.6 em a character, 0.76 em above the
+//! baseline and 0.24 em below: a wide sans-serif face's usual measures, common
+//! practice), placed by `x`, `y`, `dy` and `text-anchor`; rotated texts (axis titles)
+//! are left out. Boxes may touch by up to 1 px, the slack of the estimate. Also: the
+//! ticket names the emitters of its listed candidates that lie beyond its map.
 
 use std::path::Path;
 
@@ -150,4 +151,18 @@ fn no_two_labels_of_the_demo_s_pictures_overlap() {
         let clashes = overlapping(&svg);
         assert!(clashes.is_empty(), "{}: {clashes:?}", f.display());
     }
+    // The ticket's pictures as inlined, each drawn twice: for a screen and for a phone.
+    let html = std::fs::read_to_string(tmp.path().join("demo/ticket.html")).unwrap();
+    let mut inlined = 0;
+    let mut rest = html.as_str();
+    while let Some(i) = rest.find("<svg") {
+        let end = rest[i..].find("</svg>").unwrap() + i + "</svg>".len();
+        let svg = &rest[i..end];
+        rest = &rest[end..];
+        inlined += 1;
+        assert!(text_boxes(svg).len() > 3, "inlined picture {inlined}");
+        let clashes = overlapping(svg);
+        assert!(clashes.is_empty(), "inlined picture {inlined}: {clashes:?}");
+    }
+    assert_eq!(inlined, 6, "map, spectrum and trace, wide and for a phone");
 }

@@ -2,6 +2,7 @@
 //! bad-input catalogue with its exact messages and exit codes, and the field log under
 //! concurrent and killed writers. One test executable; a module per command.
 
+mod browser;
 mod catalogue;
 mod evidence;
 mod explain;
@@ -21,6 +22,7 @@ mod slope;
 mod suggested;
 mod sweep;
 mod ticket;
+mod ticket_phone;
 mod vocabulary;
 mod walk_page;
 mod walk_server;

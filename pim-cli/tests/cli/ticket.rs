@@ -110,10 +110,26 @@ fn check_ticket_dir(dir: &Path) {
         // asked for, or (the demo) shown as done
         assert!(text.contains("Attenuator test") || text.contains("Done: attenuator test"));
     }
-    // self-contained HTML: pictures inline (the trace's too, when one was given), no
-    // outside references
+    // self-contained HTML: pictures inline (the trace's too, when one was given), each
+    // drawn twice, for a screen and for a phone; no outside references
     let band = dir.join("trace.svg").exists();
-    assert_eq!(html.matches("<svg").count(), 2 + usize::from(band));
+    assert_eq!(html.matches("<svg").count(), 2 * (2 + usize::from(band)));
+    assert_eq!(
+        html.matches("<div class=\"pic-phone\">").count(),
+        2 + usize::from(band)
+    );
+    // the cautions come before the work steps
+    let cautions = md.find("## 4. Cautions").expect("cautions");
+    assert!(cautions < md.find("## 5. What to inspect").expect("inspect"));
+    assert!(cautions < md.find("## 6. How to confirm").expect("confirm"));
+    assert!(md.contains("Stay out of guy-anchor areas"));
+    // readings named by number and time, the log's line beside where it is cited
+    assert!(md.contains("strongest at reading #") && md.contains(", line "));
+    let map = std::fs::read_to_string(dir.join("map.svg")).unwrap();
+    assert!(
+        map.contains("\n#1 ") && !map.contains("\nline 2\n"),
+        "{map}"
+    );
     if band {
         xml_well_formed(&dir.join("trace.svg"));
         for text in [&md, &html] {

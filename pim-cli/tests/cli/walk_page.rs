@@ -7,149 +7,13 @@
 //! chromedriver is not installed (`.ci/install-browser` installs both).
 
 use std::io::{BufRead, BufReader};
-use std::net::TcpListener;
-use std::path::{Path, PathBuf};
-use std::process::{Child, Command, Stdio};
+use std::path::Path;
+use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
+use crate::browser::{http, Browser, Process, PHONE_PX};
 use crate::support::{field_log, pim_bin, stdout_of, workspace_root};
 use serde_json::{json, Value};
-
-/// The element key of the W3C WebDriver protocol.
-const ELEMENT: &str = "element-6066-11e4-a52e-4f735466cecf";
-
-fn on_path(names: &[&str]) -> Option<PathBuf> {
-    let path = std::env::var_os("PATH")?;
-    std::env::split_paths(&path)
-        .flat_map(|dir| names.iter().map(move |n| dir.join(n)))
-        .find(|p| p.is_file())
-}
-
-fn free_port() -> u16 {
-    TcpListener::bind("127.0.0.1:0")
-        .and_then(|l| l.local_addr())
-        .map(|a| a.port())
-        .unwrap()
-}
-
-/// A child process ended when the test ends, even on failure.
-struct Process(Child);
-
-impl Drop for Process {
-    fn drop(&mut self) {
-        let _ = self.0.kill();
-        let _ = self.0.wait();
-    }
-}
-
-/// The response body of an HTTP exchange, whatever its status.
-fn http(req: ureq::Request, body: Option<&Value>) -> (u16, String) {
-    let result = match body {
-        Some(b) => req.send_json(b.clone()),
-        None => req.call(),
-    };
-    match result {
-        Ok(r) => (r.status(), r.into_string().unwrap_or_default()),
-        Err(ureq::Error::Status(code, r)) => (code, r.into_string().unwrap_or_default()),
-        Err(e) => panic!("HTTP request failed: {e}"),
-    }
-}
-
-/// A WebDriver session on chromedriver.
-struct Browser {
-    base: String,
-    agent: ureq::Agent,
-}
-
-impl Browser {
-    fn call(&self, method: &str, path: &str, body: Option<Value>) -> Value {
-        let url = format!("{}{path}", self.base);
-        let (status, text) = http(self.agent.request(method, &url), body.as_ref());
-        let v: Value = serde_json::from_str(&text).unwrap_or(Value::Null);
-        assert!(status < 300, "WebDriver {method} {path}: {status} {text}");
-        v["value"].clone()
-    }
-
-    fn cdp(&self, cmd: &str, params: Value) -> Value {
-        self.call(
-            "POST",
-            "/goog/cdp/execute",
-            Some(json!({"cmd": cmd, "params": params})),
-        )
-    }
-
-    fn script(&self, script: &str) -> Value {
-        self.call(
-            "POST",
-            "/execute/sync",
-            Some(json!({"script": script, "args": []})),
-        )
-    }
-
-    fn element(&self, css: &str) -> String {
-        let v = self.call(
-            "POST",
-            "/element",
-            Some(json!({"using": "css selector", "value": css})),
-        );
-        match v[ELEMENT].as_str() {
-            Some(id) => id.to_string(),
-            None => panic!("no element {css}: {v}"),
-        }
-    }
-
-    fn click(&self, css: &str) {
-        let id = self.element(css);
-        self.call("POST", &format!("/element/{id}/click"), Some(json!({})));
-    }
-
-    fn type_into(&self, css: &str, text: &str) {
-        let id = self.element(css);
-        self.call("POST", &format!("/element/{id}/clear"), Some(json!({})));
-        self.call(
-            "POST",
-            &format!("/element/{id}/value"),
-            Some(json!({ "text": text })),
-        );
-    }
-
-    fn value(&self, css: &str) -> String {
-        self.script(&format!("return document.querySelector('{css}').value;"))
-            .as_str()
-            .unwrap_or_default()
-            .to_string()
-    }
-
-    fn text(&self, css: &str) -> String {
-        self.script(&format!(
-            "var e = document.querySelector('{css}'); return e ? e.textContent : '';"
-        ))
-        .as_str()
-        .unwrap_or_default()
-        .to_string()
-    }
-
-    /// Waits until `script` returns true.
-    fn wait_for(&self, script: &str, what: &str) {
-        let start = Instant::now();
-        while start.elapsed() < Duration::from_secs(20) {
-            if self.script(script) == Value::Bool(true) {
-                return;
-            }
-            std::thread::sleep(Duration::from_millis(50));
-        }
-        panic!("timed out waiting for {what}");
-    }
-
-    fn screenshot(&self, to: &Path) {
-        use base64::Engine;
-        let v = self.call("GET", "/screenshot", None);
-        let png = base64::engine::general_purpose::STANDARD
-            .decode(v.as_str().unwrap())
-            .unwrap();
-        std::fs::write(to, png).unwrap();
-    }
-}
 
 fn read_rows(path: &Path) -> Vec<String> {
     std::fs::read_to_string(path)
@@ -180,13 +44,7 @@ fn cells(row: &str) -> Vec<String> {
 
 #[test]
 fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
-    let (Some(chrome), Some(driver)) = (
-        on_path(&["chromium", "chromium-browser", "google-chrome"]),
-        on_path(&["chromedriver"]),
-    ) else {
-        crate::support::say_skipped(
-            "Chromium and chromedriver are not installed (run .ci/install-browser)",
-        );
+    let Some(browser) = Browser::phone(PHONE_PX) else {
         return;
     };
     let dir = tempfile::tempdir().unwrap();
@@ -218,59 +76,7 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     assert_eq!(token.len(), 32, "a 128-bit token in hex");
     let origin = page.split("/?").next().unwrap().to_string();
 
-    // chromedriver and a headless Chromium at a phone's size (390 × 844 CSS px).
-    let port = free_port();
-    let _driver = Process(
-        Command::new(&driver)
-            .arg(format!("--port={port}"))
-            .stdout(Stdio::null())
-            .stderr(Stdio::null())
-            .spawn()
-            .unwrap(),
-    );
-    let agent = ureq::AgentBuilder::new()
-        .timeout(Duration::from_secs(60))
-        .build();
-    let driver_url = format!("http://127.0.0.1:{port}");
-    let start = Instant::now();
-    loop {
-        if let Ok(r) = agent.get(&format!("{driver_url}/status")).call() {
-            let v: Value = r.into_json().unwrap_or(Value::Null);
-            if v["value"]["ready"] == Value::Bool(true) {
-                break;
-            }
-        }
-        assert!(
-            start.elapsed() < Duration::from_secs(30),
-            "chromedriver did not start"
-        );
-        std::thread::sleep(Duration::from_millis(100));
-    }
-    let profile = tempfile::tempdir().unwrap();
-    let caps = json!({"capabilities": {"alwaysMatch": {
-        "browserName": "chrome",
-        "goog:chromeOptions": {
-            "binary": chrome.display().to_string(),
-            "args": [
-                "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
-                "--no-first-run", "--disable-background-networking",
-                "--disable-component-update", "--disable-sync",
-                format!("--user-data-dir={}", profile.path().display()),
-            ],
-            "mobileEmulation": {"deviceMetrics": {"width": 390, "height": 844, "pixelRatio": 2.0, "touch": true}},
-        }
-    }}});
-    let (status, text) = http(
-        agent.request("POST", &format!("{driver_url}/session")),
-        Some(&caps),
-    );
-    assert_eq!(status, 200, "new session: {text}");
-    let session: Value = serde_json::from_str(&text).unwrap();
-    let id = session["value"]["sessionId"].as_str().unwrap().to_string();
-    let browser = Browser {
-        base: format!("{driver_url}/session/{id}"),
-        agent: agent.clone(),
-    };
+    let agent = browser.agent.clone();
     browser.cdp(
         "Browser.grantPermissions",
         json!({"origin": origin, "permissions": ["geolocation"]}),
