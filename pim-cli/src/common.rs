@@ -1,21 +1,17 @@
 //! What the commands share: reading files with errors that name them, parsing unit
 //! arguments, and writing to standard output.
 
-use std::cell::RefCell;
 use std::fs::File;
 use std::io::{self, BufWriter, Write};
 use std::path::Path;
 
 use pim_core::emitter::Emitter;
-use pim_core::freq::Hz;
 use pim_core::onair::{Logbook, Schedule};
 use pim_core::{Error, Site};
-use pim_io::columns::Layout;
+pub use pim_io::columns::MappingInUse as Columns;
 use pim_io::emitters::{read_emitters_with, ReadOptions};
-use pim_io::text::{parse_coordinate, parse_frequency_in, parse_quantity, Axis, TerminalSafe};
-use pim_io::{read_heard, read_on_air, Clock, ColumnMap, ReceiverFile};
-
-use crate::args::ColumnsArgs;
+use pim_io::text::TerminalSafe;
+use pim_io::{read_heard, read_on_air, Clock, ReceiverFile};
 
 /// An error on its way to the user, or a closed pipe (not an error: the reader left).
 #[derive(Debug)]
@@ -63,110 +59,12 @@ pub fn finish(mut out: impl Write) -> CliResult {
     Ok(())
 }
 
-/// clap parser for a frequency with an optional unit (bare numbers are MHz).
-pub fn frequency_arg(text: &str) -> Result<Hz, String> {
-    let f = parse_frequency_in(text, 6)?;
-    if f.0 <= 0 {
-        return Err(format!("frequency {text} must be above zero"));
-    }
-    if f > pim_core::freq::MAX_FREQUENCY {
-        return Err(format!("frequency {text} is above 300 GHz"));
-    }
-    Ok(f)
-}
-
-/// clap parser for a width in kHz, zero or more, exact to the hertz; a unit may be given
-/// (`12.5kHz`, `0.0125MHz`, `12500Hz`).
-pub fn khz_arg(text: &str) -> Result<Hz, String> {
-    let w = parse_frequency_in(text, 3)?;
-    if w.0 < 0 {
-        return Err(format!("`{text}` is negative"));
-    }
-    if w > pim_core::freq::MAX_FREQUENCY {
-        return Err(format!("`{text}` is absurd for a width"));
-    }
-    Ok(w)
-}
-
-/// clap parser for a latitude: decimal degrees, degrees and minutes, or degrees, minutes
-/// and seconds, with N or S (`45.1046`, `45°06.275'N`, `45 06 16.5 N`).
-pub fn lat_arg(text: &str) -> Result<f64, String> {
-    parse_coordinate(text, Axis::Latitude)
-}
-
-/// clap parser for a longitude, in the notations of [`lat_arg`] with E or W.
-pub fn lon_arg(text: &str) -> Result<f64, String> {
-    parse_coordinate(text, Axis::Longitude)
-}
-
-/// clap parser for a finite number without a unit (a decimal comma gets the table
-/// reader's hint).
-pub fn finite_arg(text: &str) -> Result<f64, String> {
-    parse_quantity(text, "")
-}
-
-/// clap parser factory for a finite number in `unit` (`dB`, `dBm`, `dBc`, `m`, `°`, `s`,
-/// or `""` for none) within `lo..=hi`: the unit may be written after the number (`3dB`,
-/// `-80dBm`, `150m`), a unit of another kind is refused, and a value outside the range is
-/// physically absurd for the option.
-pub fn ranged(
-    lo: f64,
-    hi: f64,
-    unit: &'static str,
-) -> impl Fn(&str) -> Result<f64, String> + Clone + Send + Sync + 'static {
-    move |text: &str| {
-        let v = parse_quantity(text, unit)?;
-        if (lo..=hi).contains(&v) {
-            Ok(v)
-        } else {
-            let u = if unit.is_empty() {
-                String::new()
-            } else {
-                format!(" {unit}")
-            };
-            let number = pim_io::text::split_unit(text).0;
-            Err(format!("{number}{u} is outside {lo}…{hi}{u}"))
-        }
-    }
-}
-
-/// clap parser factory for a whole number within `lo..=hi` (a count, an order); a
-/// decimal comma gets the table reader's hint.
-pub fn whole<T>(
-    lo: u64,
-    hi: u64,
-) -> impl Fn(&str) -> Result<T, String> + Clone + Send + Sync + 'static
-where
-    T: TryFrom<u64> + Clone + Send + Sync + 'static,
-{
-    move |text: &str| {
-        let t = text.trim();
-        let v: u64 = t.parse().map_err(|_| {
-            format!(
-                "`{t}` is not a whole number{}",
-                pim_io::table::decimal_comma_hint(t)
-            )
-        })?;
-        if !(lo..=hi).contains(&v) {
-            return Err(format!("{v} is not in {lo}..={hi}"));
-        }
-        T::try_from(v).map_err(|_| format!("{v} is too large"))
-    }
-}
-
-/// clap parser factory for a quantity in `unit` above zero (a distance, a time).
-pub fn positive(
-    unit: &'static str,
-) -> impl Fn(&str) -> Result<f64, String> + Clone + Send + Sync + 'static {
-    move |text: &str| {
-        let v = parse_quantity(text, unit)?;
-        if v > 0.0 {
-            Ok(v)
-        } else {
-            Err(format!("`{text}` must be above zero"))
-        }
-    }
-}
+// The value parsers of every option: how a person writes a frequency, a width, a
+// coordinate or a quantity (pim_io::values).
+pub use pim_io::values::{
+    finite as finite_arg, frequency as frequency_arg, latitude as lat_arg, longitude as lon_arg,
+    positive, ranged, whole, width as khz_arg,
+};
 
 /// Output formats shared by the listing commands.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -230,93 +128,6 @@ pub fn load_logbook(
     ))
 }
 
-/// The `--columns` mapping of a command, and which of its pairs the files read matched:
-/// a pair that names a column of none of them is refused ([`Columns::check`]).
-#[derive(Debug, Default)]
-pub struct Columns {
-    map: Option<ColumnMap>,
-    matched: RefCell<Vec<bool>>,
-    read: RefCell<Vec<(String, Vec<String>)>>,
-}
-
-impl Columns {
-    /// Reads the `--columns` values: pairs, or the path of a file of pairs.
-    pub fn new(args: &ColumnsArgs) -> Result<Columns, Error> {
-        let mut map: Option<ColumnMap> = None;
-        for value in &args.columns {
-            let more = if value.contains('=') {
-                ColumnMap::parse_list(value).map_err(|m| Error::argument("--columns", m))?
-            } else {
-                let path = Path::new(value);
-                let text = std::fs::read_to_string(path)
-                    .map_err(|e| Error::io(path.display().to_string(), &e))?;
-                ColumnMap::parse_file(&path.display().to_string(), &text)?
-            };
-            match &mut map {
-                Some(m) => m.extend(more),
-                None => map = Some(more),
-            }
-        }
-        let pairs = map.as_ref().map_or(0, |m| m.pairs.len());
-        Ok(Columns {
-            map,
-            matched: RefCell::new(vec![false; pairs]),
-            read: RefCell::new(Vec::new()),
-        })
-    }
-
-    /// The mapping, when one was given.
-    pub fn map(&self) -> Option<&ColumnMap> {
-        self.map.as_ref()
-    }
-
-    /// Notes which pairs a file's columns matched.
-    pub fn saw(&self, source: &str, layout: &Layout) {
-        let mut matched = self.matched.borrow_mut();
-        for &i in &layout.matched_pairs {
-            if let Some(m) = matched.get_mut(i) {
-                *m = true;
-            }
-        }
-        self.read
-            .borrow_mut()
-            .push((source.to_string(), layout.headers.clone()));
-    }
-
-    /// Refuses a pair that named a column of none of the files read.
-    pub fn check(&self) -> Result<(), Error> {
-        let Some(map) = &self.map else { return Ok(()) };
-        let matched = self.matched.borrow();
-        let read = self.read.borrow();
-        if let Some((pair, _)) = map.pairs.iter().zip(matched.iter()).find(|(_, m)| !**m) {
-            let files: Vec<String> = read
-                .iter()
-                .map(|(source, headers)| {
-                    let names: Vec<&str> = headers
-                        .iter()
-                        .map(|h| h.trim())
-                        .filter(|h| !h.is_empty())
-                        .collect();
-                    format!("{source} has {}", names.join(", "))
-                })
-                .collect();
-            return Err(Error::argument(
-                "--columns",
-                format!(
-                    "`{}` names a column no file read has ({})",
-                    pair.text,
-                    if files.is_empty() {
-                        "no table was read".to_string()
-                    } else {
-                        files.join("; ")
-                    }
-                ),
-            ));
-        }
-        Ok(())
-    }
-}
-
 /// Reads an emitter file through the mapping and says on standard error what it assumed
 /// and which columns it did not use.
 pub fn load_emitters(path: &std::path::Path, columns: &Columns) -> CliResult<Vec<Emitter>> {
@@ -354,7 +165,7 @@ pub fn load_site_items(
     emitters: Option<&std::path::Path>,
     columns: &crate::args::ColumnsArgs,
 ) -> CliResult<(Vec<pim_core::ticket::Structure>, Vec<Emitter>)> {
-    let columns = Columns::new(columns)?;
+    let columns = Columns::new(&columns.columns)?;
     let structures = match structures {
         Some(p) => load_structures(p, &columns)?,
         None => Vec::new(),
@@ -413,4 +224,21 @@ pub fn listing_hint(mut e: Error) -> Error {
         );
     }
     e
+}
+
+/// Reads and explains the recording at `path` (a folder of sweeps or one file) against
+/// `emitters`, within the memory budget.
+pub fn explain_recording(
+    path: &Path,
+    emitters: &[Emitter],
+    rule: &pim_core::trace::SweepRule,
+    on_air: &[(usize, pim_core::onair::Interval)],
+) -> CliResult<pim_report::recording::Explained> {
+    let site = budgeted(Site::new(emitters.to_vec()))?;
+    let read =
+        |visit: &mut dyn FnMut(&pim_io::recording::RecordedSweep) -> pim_core::Result<()>| {
+            pim_io::recording::read_recording(path, visit)
+        };
+    pim_report::recording::explain_with(&read, &path.display().to_string(), &site, rule, on_air)
+        .map_err(|e| listing_hint(e).into())
 }

@@ -4,8 +4,12 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+use field_logs::{
+    ATTENUATOR_CSV, EMITTERS_CSV, HEARD, HEARD_CSV, JUNCTION_HEIGHT_M, ON_AIR_CSV,
+    PLAN_CANDIDATES_CSV, PLAN_PROTECT_CSV, POWER_STEPS_CSV, RECEIVERS_CSV, RX_SITE, STRUCTURES_CSV,
+    TRACE_CSV, WALK_CSV,
+};
 use pim_core::freq::Hz;
-use pim_core::geo::GeoPoint;
 use pim_core::intermod::SearchParams;
 use pim_core::level::LevelModel;
 use pim_core::Site;
@@ -21,36 +25,6 @@ use pim_io::trace::read_trace_into;
 use pim_report::ticket::{AttenuatorTest, BandTrace, PowerStepTest, TicketInputs};
 
 use crate::ticket::{prepared_at, write_ticket};
-
-/// The invented demo site's emitters, structures and bearing walk.
-pub const EMITTERS_CSV: &str = include_str!("../../field-logs/emitters.csv");
-pub const STRUCTURES_CSV: &str = include_str!("../../field-logs/structures.csv");
-pub const WALK_CSV: &str = include_str!("../../field-logs/walk.csv");
-/// The attenuator test and the power steps of SKP-152 and FIRE-DSP, done on the visit.
-pub const ATTENUATOR_CSV: &str = include_str!("../../field-logs/attenuator-readings.csv");
-pub const POWER_STEPS_CSV: &str = include_str!("../../field-logs/power-steps.csv");
-/// A maximum-hold trace of the site's receive band, 144–160 MHz.
-pub const TRACE_CSV: &str = include_str!("../../field-logs/trace.csv");
-/// The site's receivers, for the forward study.
-pub const RECEIVERS_CSV: &str = include_str!("../../field-logs/receivers.csv");
-/// The emitters' keying from their owners' logs, and the times the carrier was listened
-/// for, for the on-air check.
-pub const ON_AIR_CSV: &str = include_str!("../../field-logs/on-air.csv");
-pub const HEARD_CSV: &str = include_str!("../../field-logs/heard.csv");
-/// The coordinator's candidate channels and the channels to protect, for `pim plan`.
-pub const PLAN_CANDIDATES_CSV: &str = include_str!("../../field-logs/plan-candidates.csv");
-pub const PLAN_PROTECT_CSV: &str = include_str!("../../field-logs/plan-protect.csv");
-
-/// The repeater input on which the mystery carrier is heard.
-pub const HEARD: Hz = Hz(146_340_000);
-/// The repeater's receive antenna: on the old tower, which also carries the paging
-/// collinear and the county's bases.
-pub const RX_SITE: GeoPoint = GeoPoint {
-    lat_deg: 45.10462,
-    lon_deg: -122.414033,
-};
-/// Where on the tower the crew expects the junction: among the antennas, m above ground.
-pub const JUNCTION_HEIGHT_M: f64 = 36.0;
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
@@ -152,7 +126,7 @@ pub fn run(args: Args) -> CliResult {
         });
     }
     // The recording: the pair's product coming and going with their keying.
-    let recording = crate::demo_recording::recording_csv();
+    let recording = field_logs::recording::recording_csv();
     let rec_rule = crate::sweep::sweep_rule(
         &inputs.params,
         inputs.placement(),
@@ -163,17 +137,12 @@ pub fn run(args: Args) -> CliResult {
     );
     let read =
         |visit: &mut dyn FnMut(&pim_io::recording::RecordedSweep) -> pim_core::Result<()>| {
-            crate::demo_recording::read(&recording, visit)
+            field_logs::recording::read(&recording, visit)
         };
-    let explained = crate::recording::explain_with(
-        &read,
-        "recording.csv",
-        inputs.site.emitters(),
-        &rec_rule,
-        &[],
-    )?;
+    let explained =
+        pim_report::recording::explain_with(&read, "recording.csv", &inputs.site, &rec_rule, &[])?;
     let waterfall =
-        crate::recording::waterfall(&explained, inputs.site.emitters(), "recording.csv");
+        pim_report::recording::waterfall(&explained, inputs.site.emitters(), "recording.csv");
     let existing = if args.force || written_by_the_demo(&args.out) {
         Existing::Replace
     } else {
@@ -206,117 +175,15 @@ pub fn run(args: Args) -> CliResult {
     write!(
         out,
         "{}",
-        crate::recording::table(&explained, inputs.site.emitters(), Some(3))
+        pim_report::recording::table(&explained, inputs.site.emitters(), Some(3))
     )?;
     writeln!(
         out,
         "\nIts inputs are in {} too. The commands that redo its work there, and the rest of\nthe job (the walk, the tests, the study, a channel plan), to run on your own files:",
         args.out.display()
     )?;
-    for line in commands(&args.out) {
+    for line in field_logs::commands(&args.out) {
         writeln!(out, "  {line}")?;
     }
     finish(out)
-}
-
-/// The `pim` command lines that do what the demo did, on the inputs it wrote into `dir`,
-/// each quoted for a POSIX shell by the one quoting of every suggested command.
-fn commands(dir: &Path) -> Vec<String> {
-    use pim_io::text::pim_command;
-    let file = |name: &str| dir.join(name).display().to_string();
-    let beside = |suffix: &str| format!("{}{suffix}", dir.display());
-    let heard = HEARD.mhz_text();
-    let (rx_lat, rx_lon) = (RX_SITE.lat_deg.to_string(), RX_SITE.lon_deg.to_string());
-    let height = JUNCTION_HEIGHT_M.to_string();
-    // the receiver on the old tower, the joint among its antennas
-    let at_tower = [
-        "--rx-lat",
-        rx_lat.as_str(),
-        "--rx-lon",
-        rx_lon.as_str(),
-        "--junction-height-m",
-        height.as_str(),
-    ];
-    vec![
-        pim_command(["fix", "--log", &file("walk.csv")]),
-        pim_command(["log", "--log", &file("walk.csv"), "--list"]),
-        pim_command(["next", "--log", &file("walk.csv"), "--radius-m", "150"]),
-        pim_command([
-            "slope",
-            "--kind",
-            "attenuator",
-            "--readings",
-            &file("attenuator-readings.csv"),
-        ]),
-        pim_command([
-            "slope",
-            "--kind",
-            "power",
-            "--readings",
-            &file("power-steps.csv"),
-            "--freq",
-            &heard,
-            "--emitters",
-            &file("emitters.csv"),
-        ]),
-        pim_command(
-            ["explain", &heard, "--emitters", &file("emitters.csv")]
-                .into_iter()
-                .chain(at_tower)
-                .chain([
-                    "--on-air",
-                    &file("on-air.csv"),
-                    "--heard",
-                    &file("heard.csv"),
-                    "--power-steps",
-                    &file("power-steps.csv"),
-                ]),
-        ),
-        pim_command([
-            "study",
-            "--emitters",
-            &file("emitters.csv"),
-            "--receivers",
-            &file("receivers.csv"),
-            "--junction-height-m",
-            &height,
-        ]),
-        pim_command([
-            "plan",
-            "--channels",
-            &file("plan-candidates.csv"),
-            "--protect",
-            &file("plan-protect.csv"),
-        ]),
-        pim_command([
-            "sweep",
-            "--recording",
-            &file("recording.csv"),
-            "--emitters",
-            &file("emitters.csv"),
-            "--svg",
-            &beside("-waterfall.svg"),
-        ]),
-        pim_command(
-            [
-                "ticket",
-                &heard,
-                "--emitters",
-                &file("emitters.csv"),
-                "--log",
-                &file("walk.csv"),
-                "--structures",
-                &file("structures.csv"),
-                "--trace",
-                &file("trace.csv"),
-                "--attenuator-readings",
-                &file("attenuator-readings.csv"),
-                "--power-steps",
-                &file("power-steps.csv"),
-            ]
-            .into_iter()
-            .chain(at_tower)
-            .chain(["--site", "Marrow Hill", "--out", &beside("-again")]),
-        ),
-    ]
 }

@@ -44,7 +44,7 @@ fn unit_text(file: &EmitterFile, field: Field, i: usize) -> String {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let columns = Columns::new(&args.columns)?;
+    let columns = Columns::new(&args.columns.columns)?;
     let source = args.emitters.display().to_string();
     let options = ReadOptions {
         columns: columns.map(),

@@ -43,7 +43,7 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> CliResult {
-    let columns = crate::common::Columns::new(&args.input.columns)?;
+    let columns = crate::common::Columns::new(&args.input.columns.columns)?;
     let site = budgeted(Site::new(load_emitters(&args.input.emitters, &columns)?))?;
     args.input
         .note_far_reading(site.emitters().iter().map(|e| e.freq));

@@ -23,14 +23,12 @@ macro_rules! eprintln_safe {
 mod args;
 mod common;
 mod demo;
-mod demo_recording;
 mod emitters;
 mod explain;
 mod fix;
 mod log;
 mod next;
 mod plan;
-mod recording;
 
 mod slope;
 mod study;

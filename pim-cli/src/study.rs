@@ -43,7 +43,7 @@ pub enum StudyOrder {
 pub fn run(args: Args) -> CliResult {
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     // the budget holds for the whole study: shared among the listings in flight
-    let columns = crate::common::Columns::new(&args.columns)?;
+    let columns = crate::common::Columns::new(&args.columns.columns)?;
     let site = crate::common::budgeted(Site::new(load_emitters(&args.emitters, &columns)?))?
         .shared_by(pim_core::study::listings_in_flight(threads));
     let emitters = site.emitters();
@@ -154,7 +154,7 @@ pub fn run(args: Args) -> CliResult {
             // Each receiver is rendered as soon as it is done and spilled to a temporary
             // file; memory keeps only its place there and its sort key, so the study
             // holds its budget in this order too.
-            let mut spill = Spill::new()?;
+            let mut spill = pim_io::spill::Spill::new()?;
             let mut header = Vec::new();
             pim_core::study::in_order(receivers.len(), threads, work, |i, r| {
                 tick();
@@ -186,48 +186,4 @@ pub fn run(args: Args) -> CliResult {
         writeln!(out, "\n  ]\n}}")?;
     }
     finish(out)
-}
-
-/// Receivers rendered and set aside in an unnamed temporary file (removed by the system
-/// when closed), with their sort keys in memory.
-struct Spill {
-    file: std::fs::File,
-    end: u64,
-    entries: Vec<(pim_core::study::WorstKey, u64, u64)>,
-}
-
-impl Spill {
-    fn new() -> std::io::Result<Self> {
-        Ok(Spill {
-            file: tempfile::tempfile()?,
-            end: 0,
-            entries: Vec::new(),
-        })
-    }
-
-    fn put(&mut self, key: pim_core::study::WorstKey, bytes: &[u8]) -> std::io::Result<()> {
-        self.file.write_all(bytes)?;
-        self.entries.push((key, self.end, bytes.len() as u64));
-        self.end += bytes.len() as u64;
-        Ok(())
-    }
-
-    /// Writes the receivers worst first (ties in file order); JSON objects separated by
-    /// commas.
-    fn write_sorted(mut self, out: &mut dyn Write, json: bool) -> std::io::Result<()> {
-        use std::io::{Read, Seek, SeekFrom};
-        self.entries.sort_by_key(|e| e.0);
-        let mut buf = Vec::new();
-        for (pos, (_, at, len)) in self.entries.iter().enumerate() {
-            if json && pos > 0 {
-                writeln!(out, ",")?;
-            }
-            self.file.seek(SeekFrom::Start(*at))?;
-            buf.clear();
-            (&mut self.file).take(*len).read_to_end(&mut buf)?;
-            out.write_all(&buf)?;
-            out.flush()?;
-        }
-        Ok(())
-    }
 }

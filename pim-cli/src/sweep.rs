@@ -174,7 +174,7 @@ pub fn run(args: Args) -> CliResult {
     if let Some(path) = &args.svg {
         check_output(path, &inputs, existing)?;
     }
-    let columns = crate::common::Columns::new(&args.columns)?;
+    let columns = crate::common::Columns::new(&args.columns.columns)?;
     let emitters = load_emitters(&args.emitters, &columns)?;
     columns.check()?;
     let s = &args.search;
@@ -245,10 +245,10 @@ fn run_recording(
         args.floor_window,
         None,
     );
-    let r = crate::recording::explain(path, emitters, &rule, &[])?;
+    let r = crate::common::explain_recording(path, emitters, &rule, &[])?;
     let sources = path.display().to_string();
     if let Some(svg) = &args.svg {
-        let picture = crate::recording::waterfall(&r, emitters, &sources);
+        let picture = pim_report::recording::waterfall(&r, emitters, &sources);
         write_file_atomically(svg, picture.into_bytes(), inputs, existing)?;
     }
     let report = report(args, &r.trace, &r.sweep, emitters, sources.clone());
@@ -269,7 +269,7 @@ fn run_recording(
             write_json(&mut buffer, &all, &inputs)?;
             let mut doc: serde_json::Value = serde_json::from_slice(&buffer)
                 .map_err(|e| Error::input(Place::new("sweep JSON"), e.to_string()))?;
-            crate::recording::augment_json(&mut doc, &r, emitters, args.listing.shown(3));
+            pim_report::recording::augment_json(&mut doc, &r, emitters, args.listing.shown(3));
             pim_io::precision::round_json(&mut doc);
             let text = serde_json::to_string_pretty(&doc)
                 .map_err(|e| Error::input(Place::new("sweep JSON"), e.to_string()))?;
@@ -280,7 +280,7 @@ fn run_recording(
         ListFormat::Csv => write_csv(&mut out, &report)?,
         ListFormat::Table => {
             write_table(&mut out, &report)?;
-            let text = crate::recording::table(&r, emitters, args.listing.shown(3));
+            let text = pim_report::recording::table(&r, emitters, args.listing.shown(3));
             std::io::Write::write_all(&mut out, text.as_bytes())?;
         }
     }

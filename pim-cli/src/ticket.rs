@@ -95,28 +95,8 @@ pub struct Gathered {
     pub assignee: Option<String>,
     /// The site's own offset from UTC (`+01:00`, `-07:00`; ±14:00 at most): the ticket's
     /// times are given in it with UTC beside. Default: UTC, said so in the ticket.
-    #[arg(long, value_name = "±HH:MM", value_parser = utc_offset_arg, allow_hyphen_values = true)]
+    #[arg(long, value_name = "±HH:MM", value_parser = pim_io::text::utc_offset, allow_hyphen_values = true)]
     pub utc_offset: Option<time::UtcOffset>,
-}
-
-/// clap parser for `--utc-offset`: `±HH:MM` or `±HH`, at most 14 hours.
-pub fn utc_offset_arg(text: &str) -> Result<time::UtcOffset, String> {
-    let bad = || format!("`{text}` is not an offset from UTC: write it as +01:00 or -07:00");
-    let t = text.trim();
-    let mut chars = t.chars();
-    let sign = match chars.next() {
-        Some('+') => 1i8,
-        Some('-') | Some('\u{2212}') => -1i8,
-        _ => return Err(bad()),
-    };
-    let rest = chars.as_str();
-    let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
-    let h: i8 = h.parse().map_err(|_| bad())?;
-    let m: i8 = m.parse().map_err(|_| bad())?;
-    if !(0..60).contains(&m) || !(0..=14).contains(&h) || (h == 14 && m > 0) {
-        return Err(format!("`{text}` lies outside ±14:00"));
-    }
-    time::UtcOffset::from_hms(sign * h, sign * m, 0).map_err(|_| bad())
 }
 
 /// The date and time the ticket is dated: SOURCE_DATE_EPOCH when set (for reproducible
@@ -172,53 +152,6 @@ pub fn write_ticket(
     Ok(made.summary(t, &paths))
 }
 
-/// An input as the ticket names it: relative to the ticket's folder, so that the ticket
-/// travels without the home folder's or the machine's paths and its commands run from
-/// its folder (`walk.csv`, `../logs/walk.csv`); by its file name alone when the two
-/// share no folder below the root, or only through more than three levels up.
-pub fn name_for_ticket(input: &Path, out: &Path) -> String {
-    let whole = |p: &Path| -> PathBuf {
-        let p = std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf());
-        // the nearest existing ancestor resolved (links and `..`), the rest kept as given
-        let mut rest = Vec::new();
-        let mut base = p.as_path();
-        loop {
-            if let Ok(real) = base.canonicalize() {
-                return rest.iter().rev().fold(real, |acc: PathBuf, c| acc.join(c));
-            }
-            match (base.parent(), base.file_name()) {
-                (Some(parent), Some(name)) => {
-                    rest.push(name.to_os_string());
-                    base = parent;
-                }
-                _ => return p,
-            }
-        }
-    };
-    let file_name = || {
-        input
-            .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
-            .unwrap_or_else(|| input.display().to_string())
-    };
-    let (input_abs, out_abs) = (whole(input), whole(out));
-    let a: Vec<_> = input_abs.components().collect();
-    let b: Vec<_> = out_abs.components().collect();
-    let common = a.iter().zip(&b).take_while(|(x, y)| x == y).count();
-    let ups = b.len() - common;
-    if common <= 1 || ups > 3 {
-        return file_name();
-    }
-    let mut rel = PathBuf::new();
-    for _ in 0..ups {
-        rel.push("..");
-    }
-    for c in &a[common..] {
-        rel.push(c.as_os_str());
-    }
-    rel.display().to_string()
-}
-
 /// The attenuator test of a file, read as `pim slope --kind attenuator` reads it.
 fn attenuator_test(path: &Path) -> CliResult<AttenuatorTest> {
     let source = path.display().to_string();
@@ -267,7 +200,7 @@ fn affected_receiver(
 }
 
 pub fn run(args: Args) -> CliResult {
-    let columns = crate::common::Columns::new(&args.input.columns)?;
+    let columns = crate::common::Columns::new(&args.input.columns.columns)?;
     let emitters = load_emitters(&args.input.emitters, &columns)?;
     args.input.note_far_reading(emitters.iter().map(|e| e.freq));
     let structures = match &args.structures {
@@ -277,7 +210,7 @@ pub fn run(args: Args) -> CliResult {
     let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
     // inputs are read under the names given (errors name them so) and named in the
     // ticket relative to its folder
-    let named = |p: &Path| name_for_ticket(p, &args.out);
+    let named = |p: &Path| pim_io::output::name_for_ticket(p, &args.out);
     let mut log = pim_io::fieldlog::read_field_log(
         &args.log.display().to_string(),
         open(&args.log)?,
@@ -429,15 +362,15 @@ pub fn run(args: Args) -> CliResult {
             )?,
             None => Vec::new(),
         };
-        let r = crate::recording::explain(path, emitters, &rule, &on_air)?;
+        let r = crate::common::explain_recording(path, emitters, &rule, &on_air)?;
         let source = named(path);
         extra.push((
             "waterfall.svg",
-            crate::recording::waterfall(&r, emitters, &source).into_bytes(),
+            pim_report::recording::waterfall(&r, emitters, &source).into_bytes(),
         ));
         extra.push((
             "recording.txt",
-            crate::recording::table(&r, emitters, Some(args.limit)).into_bytes(),
+            pim_report::recording::table(&r, emitters, Some(args.limit)).into_bytes(),
         ));
     }
     let summary = write_ticket(&inputs, &args.out, &input_paths, existing, &extra)?;

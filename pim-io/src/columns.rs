@@ -790,6 +790,93 @@ fn shell_pair(field: Field, label: &str) -> String {
     crate::text::shell_word(&format!("{}={label}", field.name()))
 }
 
+/// The column mapping of a command (`--columns`: pairs, or files of pairs), and which of its pairs the files read matched:
+/// a pair that names a column of none of them is refused ([`MappingInUse::check`]).
+#[derive(Debug, Default)]
+pub struct MappingInUse {
+    map: Option<ColumnMap>,
+    matched: std::cell::RefCell<Vec<bool>>,
+    read: std::cell::RefCell<Vec<(String, Vec<String>)>>,
+}
+
+impl MappingInUse {
+    /// Reads the `--columns` values: pairs, or the path of a file of pairs.
+    pub fn new(values: &[String]) -> Result<MappingInUse, Error> {
+        let mut map: Option<ColumnMap> = None;
+        for value in values {
+            let more = if value.contains('=') {
+                ColumnMap::parse_list(value).map_err(|m| Error::argument("--columns", m))?
+            } else {
+                let path = std::path::Path::new(value);
+                let text = std::fs::read_to_string(path)
+                    .map_err(|e| Error::io(path.display().to_string(), &e))?;
+                ColumnMap::parse_file(&path.display().to_string(), &text)?
+            };
+            match &mut map {
+                Some(m) => m.extend(more),
+                None => map = Some(more),
+            }
+        }
+        let pairs = map.as_ref().map_or(0, |m| m.pairs.len());
+        Ok(MappingInUse {
+            map,
+            matched: std::cell::RefCell::new(vec![false; pairs]),
+            read: std::cell::RefCell::new(Vec::new()),
+        })
+    }
+
+    /// The mapping, when one was given.
+    pub fn map(&self) -> Option<&ColumnMap> {
+        self.map.as_ref()
+    }
+
+    /// Notes which pairs a file's columns matched.
+    pub fn saw(&self, source: &str, layout: &Layout) {
+        let mut matched = self.matched.borrow_mut();
+        for &i in &layout.matched_pairs {
+            if let Some(m) = matched.get_mut(i) {
+                *m = true;
+            }
+        }
+        self.read
+            .borrow_mut()
+            .push((source.to_string(), layout.headers.clone()));
+    }
+
+    /// Refuses a pair that named a column of none of the files read.
+    pub fn check(&self) -> Result<(), Error> {
+        let Some(map) = &self.map else { return Ok(()) };
+        let matched = self.matched.borrow();
+        let read = self.read.borrow();
+        if let Some((pair, _)) = map.pairs.iter().zip(matched.iter()).find(|(_, m)| !**m) {
+            let files: Vec<String> = read
+                .iter()
+                .map(|(source, headers)| {
+                    let names: Vec<&str> = headers
+                        .iter()
+                        .map(|h| h.trim())
+                        .filter(|h| !h.is_empty())
+                        .collect();
+                    format!("{source} has {}", names.join(", "))
+                })
+                .collect();
+            return Err(Error::argument(
+                "--columns",
+                format!(
+                    "`{}` names a column no file read has ({})",
+                    pair.text,
+                    if files.is_empty() {
+                        "no table was read".to_string()
+                    } else {
+                        files.join("; ")
+                    }
+                ),
+            ));
+        }
+        Ok(())
+    }
+}
+
 /// Matches a header (as the file writes it) to the fields of `kind`, with `map` first.
 /// `source` names the file in messages; the header is line `line`.
 pub fn resolve(

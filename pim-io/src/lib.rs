@@ -16,10 +16,12 @@ pub mod precision;
 pub mod readings;
 pub mod recording;
 pub mod rx_filter;
+pub mod spill;
 pub mod table;
 pub mod text;
 pub mod trace;
 pub mod track;
+pub mod values;
 
 pub use channels::{read_channels, ChannelFile, ListedChannel};
 pub use columns::ColumnMap;

@@ -349,6 +349,53 @@ fn write_files_with_mode(
     Ok(done.into_iter().map(|m| m.target).collect())
 }
 
+/// An input as the ticket names it: relative to the ticket's folder, so that the ticket
+/// travels without the home folder's or the machine's paths and its commands run from
+/// its folder (`walk.csv`, `../logs/walk.csv`); by its file name alone when the two
+/// share no folder below the root, or only through more than three levels up.
+pub fn name_for_ticket(input: &Path, out: &Path) -> String {
+    let whole = |p: &Path| -> PathBuf {
+        let p = std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf());
+        // the nearest existing ancestor resolved (links and `..`), the rest kept as given
+        let mut rest = Vec::new();
+        let mut base = p.as_path();
+        loop {
+            if let Ok(real) = base.canonicalize() {
+                return rest.iter().rev().fold(real, |acc: PathBuf, c| acc.join(c));
+            }
+            match (base.parent(), base.file_name()) {
+                (Some(parent), Some(name)) => {
+                    rest.push(name.to_os_string());
+                    base = parent;
+                }
+                _ => return p,
+            }
+        }
+    };
+    let file_name = || {
+        input
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| input.display().to_string())
+    };
+    let (input_abs, out_abs) = (whole(input), whole(out));
+    let a: Vec<_> = input_abs.components().collect();
+    let b: Vec<_> = out_abs.components().collect();
+    let common = a.iter().zip(&b).take_while(|(x, y)| x == y).count();
+    let ups = b.len() - common;
+    if common <= 1 || ups > 3 {
+        return file_name();
+    }
+    let mut rel = PathBuf::new();
+    for _ in 0..ups {
+        rel.push("..");
+    }
+    for c in &a[common..] {
+        rel.push(c.as_os_str());
+    }
+    rel.display().to_string()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -662,6 +662,27 @@ where
     }
 }
 
+/// An offset from UTC as a person writes it (`--utc-offset`): `±HH:MM` or `±HH`, at most
+/// 14 hours; the error says how to write it.
+pub fn utc_offset(text: &str) -> Result<time::UtcOffset, String> {
+    let bad = || format!("`{text}` is not an offset from UTC: write it as +01:00 or -07:00");
+    let t = text.trim();
+    let mut chars = t.chars();
+    let sign = match chars.next() {
+        Some('+') => 1i8,
+        Some('-') | Some('\u{2212}') => -1i8,
+        _ => return Err(bad()),
+    };
+    let rest = chars.as_str();
+    let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
+    let h: i8 = h.parse().map_err(|_| bad())?;
+    let m: i8 = m.parse().map_err(|_| bad())?;
+    if !(0..60).contains(&m) || !(0..=14).contains(&h) || (h == 14 && m > 0) {
+        return Err(format!("`{text}` lies outside ±14:00"));
+    }
+    time::UtcOffset::from_hms(sign * h, sign * m, 0).map_err(|_| bad())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -14,6 +14,7 @@ pub mod map;
 pub mod picture;
 pub mod plan;
 pub mod readings;
+pub mod recording;
 pub mod slope;
 pub mod spectrum;
 pub mod study;

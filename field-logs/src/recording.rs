@@ -81,7 +81,7 @@ pub fn recording_csv() -> String {
     s
 }
 
-/// Reads the demo's recording, for [`crate::recording::explain_with`].
+/// Reads the demo's recording, for `pim_report::recording::explain_with`.
 pub fn read(
     text: &str,
     visit: &mut dyn FnMut(&pim_io::recording::RecordedSweep) -> pim_core::Result<()>,

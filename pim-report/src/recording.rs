@@ -5,8 +5,7 @@
 //! the sweeps into the waterfall. Memory: the maximum hold, one sweep, the waterfall's
 //! cells, and 16 + 5·W bytes a sweep for W watched points.
 
-use std::path::Path;
-
+use crate::waterfall::{Track, WaterfallGrid, WaterfallInput};
 use pim_core::emitter::Emitter;
 use pim_core::onair::Interval;
 use pim_core::recording::{
@@ -16,12 +15,9 @@ use pim_core::recording::{
 use pim_core::trace::classify::PeakKind;
 use pim_core::trace::{floor_window_points, MaxHold, Sweep, SweepRule, Trace};
 use pim_core::{Error, Place};
-use pim_io::recording::{read_recording, RecordedSweep};
+use pim_io::recording::RecordedSweep;
 use pim_io::text::time_text;
-use pim_report::waterfall::{Track, WaterfallGrid, WaterfallInput};
 use serde_json::{json, Value};
-
-use crate::common::CliResult;
 
 /// A recording explained.
 pub struct Explained {
@@ -43,26 +39,16 @@ fn place_of(s: &RecordedSweep, source: &str) -> Place {
 pub type Reader<'a> =
     dyn Fn(&mut dyn FnMut(&RecordedSweep) -> pim_core::Result<()>) -> pim_core::Result<usize> + 'a;
 
-/// Reads and explains the recording at `path`.
-pub fn explain(
-    path: &Path,
-    emitters: &[Emitter],
-    rule: &SweepRule,
-    on_air: &[(usize, Interval)],
-) -> CliResult<Explained> {
-    let read =
-        |visit: &mut dyn FnMut(&RecordedSweep) -> pim_core::Result<()>| read_recording(path, visit);
-    explain_with(&read, &path.display().to_string(), emitters, rule, on_air)
-}
-
-/// Explains the recording `read` gives (twice), named `path` in messages.
+/// Explains the recording `read` gives (twice), named `path` in messages, against the
+/// emitters of `site`.
 pub fn explain_with(
     read: &Reader,
     path: &str,
-    emitters: &[Emitter],
+    site: &pim_core::Site,
     rule: &SweepRule,
     on_air: &[(usize, Interval)],
-) -> CliResult<Explained> {
+) -> pim_core::Result<Explained> {
+    let emitters = site.emitters();
     let mut hold = MaxHold::new();
     let mut previous: Option<pim_core::time::OffsetDateTime> = None;
     read(&mut |s| {
@@ -93,9 +79,7 @@ pub fn explain_with(
     let trace = hold
         .finish()
         .ok_or_else(|| Error::input(Place::new(path), "no sweep in the recording"))?;
-    let site = crate::common::budgeted(pim_core::Site::new(emitters.to_vec()))?;
-    let sweep =
-        pim_core::trace::analyse(&trace, &site, rule).map_err(crate::common::listing_hint)?;
+    let sweep = pim_core::trace::analyse(&trace, site, rule)?;
     let watch = watch_list(&trace, &sweep.peaks, emitters);
     let presence = PresenceRule {
         threshold_db: DEFAULT_PRESENCE_DB.max(rule.threshold_db),
@@ -327,7 +311,7 @@ pub fn waterfall(r: &Explained, emitters: &[Emitter], source: &str) -> String {
             product: false,
         });
     }
-    pim_report::waterfall::waterfall_svg(&WaterfallInput {
+    crate::waterfall::waterfall_svg(&WaterfallInput {
         title: format!("Recording {source}"),
         grid: &r.grid,
         span_mhz: (r.trace.start.mhz(), r.trace.stop().mhz()),
