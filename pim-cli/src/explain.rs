@@ -4,10 +4,8 @@
 use std::io::Write;
 
 use pim_core::{Query, Site};
-use pim_report::candidates::{
-    channel_summary, co_channel_json, co_channel_text, markdown_text, narrowing_text, outlook_json,
-    table_text, write_csv, write_json_array, Counts, Layout, Listing,
-};
+use pim_report::candidates::{markdown_text, table_text, write_csv, Counts, Layout, Listing};
+use pim_report::explain::{explain_preamble, write_explain_json, ExplainLines};
 use serde_json::json;
 
 use crate::args::{CalibrationArgs, EvidenceArgs, HeardArgs, ListingArgs, SearchArgs};
@@ -104,42 +102,19 @@ pub fn run(args: Args) -> CliResult {
     let counts = Counts::of(&answer, shown);
     let n = shown.unwrap_or(usize::MAX);
     // the lines above the listing, the same in the table and in Markdown
-    let mut preamble = channel_summary(
-        &params,
-        emitters.len(),
-        &args.input.emitters.display().to_string(),
+    let preamble = explain_preamble(&ExplainLines {
+        listing: &listing,
+        emitters_source: &args.input.emitters.display().to_string(),
         junction,
-    );
-    preamble.push_str(&co_channel_text(&listing));
-    preamble.push_str(&narrowing_text(
-        emitters,
-        &coefficients,
+        coefficients: &coefficients,
         found,
-        answer.kept,
+        kept: answer.kept,
         logbook,
-    ));
-    if total > 0 {
-        preamble.push_str(&format!(
-            "{} (a candidate: a product with one way it can be made); {}.{}\n",
-            counts.text(),
-            ranking.basis(),
-            if total > n && n > 0 {
-                format!(" The first {n}:")
-            } else {
-                String::new()
-            }
-        ));
-    }
-    if let (Some(n), Some(path)) = (cleared, &args.power_steps) {
-        preamble.push_str(&format!(
-            "Power steps ({}): {n} candidate{} cleared (a stepped emitter moved the level and takes no part, or with a |k| its slope does not fit), ranked after the others.\n",
-            path.display(),
-            if n == 1 { "" } else { "s" }
-        ));
-    }
-    if args.calibration.heard_dbm.is_some() && !ranking.calibrated {
-        preamble.push_str("The heard level is not used: without a junction location (--rx-lat/--rx-lon) no candidate has a level.\n");
-    }
+        counts: &counts,
+        shown,
+        cleared: cleared.zip(args.power_steps.as_ref().map(|p| p.display().to_string())),
+        heard_unused: args.calibration.heard_dbm.is_some() && !ranking.calibrated,
+    });
     let layout = Layout::single(args.listing.wide);
     match args.listing.format {
         ListFormat::Table => {
@@ -189,24 +164,7 @@ pub fn run(args: Args) -> CliResult {
                 inputs["heard_times"] = json!(book.heard_count());
                 inputs["silent_times"] = json!(book.observations.len() - book.heard_count());
             }
-            writeln!(out, "{{")?;
-            writeln!(
-                out,
-                "  \"inputs\": {},",
-                pim_io::precision::json_text(&inputs, false).map_err(std::io::Error::from)?
-            )?;
-            writeln!(out, "  \"ranking_basis\": {},", json!(ranking.basis()))?;
-            let outlook = outlook_json(ranking);
-            for key in ["outlook", "statement", "next_steps", "calibrated"] {
-                writeln!(out, "  {}: {},", json!(key), outlook[key])?;
-            }
-            writeln!(out, "  \"co_channel\": {},", co_channel_json(&listing))?;
-            for (key, value) in counts.json() {
-                writeln!(out, "  {}: {value},", json!(key))?;
-            }
-            write!(out, "  \"candidates\": ")?;
-            write_json_array(&mut out, &listing, shown)?;
-            writeln!(out, "\n}}")?;
+            write_explain_json(&mut out, &listing, &inputs, &counts, shown)?;
         }
     }
     finish(out)?;
