@@ -104,6 +104,10 @@ pub struct FixArgs {
     /// estimate (default 2..4).
     #[arg(long, value_name = "N", value_parser = exponent_arg)]
     pub level_exponent: Option<Exponent>,
+    /// The frequency heard (a bare number is MHz): levels within λ/2π of the fix, in the
+    /// near field, are set aside (without it, within 1 m).
+    #[arg(long = "freq", id = "level_freq", value_name = "FREQ", value_parser = crate::common::frequency_arg)]
+    pub freq: Option<pim_core::freq::Hz>,
 }
 
 fn level_sigma_arg(text: &str) -> Result<f64, String> {
@@ -225,6 +229,7 @@ impl Default for FixArgs {
             level_sigma_db: None,
             level_max_dbm: None,
             level_exponent: None,
+            freq: None,
         }
     }
 }
@@ -259,7 +264,7 @@ impl FixArgs {
             exponent: self.level_exponent.unwrap_or_default(),
             sigma_db: self.level_sigma_db,
             max_dbm: self.level_max_dbm,
-            ..LevelOptions::default()
+            freq: self.freq,
         }
     }
 

@@ -378,6 +378,35 @@ fn levels_alone_fix_or_say_no_fix() {
         text.contains("levels only") && text.contains("residual dB"),
         "{text}"
     );
+    // the near field: 1 m without a frequency, said so; λ/2π with --freq (at 30 MHz,
+    // 10 m / 2π = 1.59 m), in the JSON and the table alike
+    assert_eq!(v["level_model"]["near_field"]["from"], "fallback");
+    assert_eq!(v["level_model"]["near_field_m"], 1.0);
+    assert!(
+        text.contains("within 1.00 m of the fix") && text.contains("no frequency given"),
+        "{text}"
+    );
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(log.clone()),
+        "--freq",
+        "30MHz",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["level_model"]["near_field"]["from"], "wavelength");
+    assert_eq!(v["level_model"]["near_field"]["freq_hz"], 30_000_000);
+    let reach = v["level_model"]["near_field_m"].as_f64().unwrap();
+    assert!((reach - 1.59).abs() < 0.01, "{reach}");
+    let t = pim(&["fix", "--log", &p(log.clone()), "--freq", "30MHz"]);
+    let text = stdout_of(&t);
+    assert!(
+        text.contains("within 1.59 m of the fix") && text.contains("λ/2π at 30.0 MHz"),
+        "{text}"
+    );
     // three spots: no fix, a refusal (exit 5)
     std::fs::write(&log, level_only_log(&spots[..3])).unwrap();
     let o = pim(&["fix", "--log", &p(log.clone())]);

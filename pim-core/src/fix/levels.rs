@@ -36,9 +36,12 @@
 //!
 //! A level at or above the receiver's saturation (`max_dbm`) is a lower bound: it adds
 //! only when the model predicts less than the bound (a one-sided term, the hinge form of
-//! the censored likelihood). A level taken closer to the fix than the near field
-//! ([`NEAR_FIELD_M`], or λ/2π when larger) is set aside: the far-field law does not hold
-//! there, nor the antenna's pattern.
+//! the censored likelihood). A level taken closer to the fix than the near field is set
+//! aside: the far-field law does not hold there, nor the antenna's pattern. The near
+//! field's reach is λ/2π of the heard frequency when it is known (the radian sphere of
+//! H. A. Wheeler, "The radiansphere around a small antenna", Proc. IRE 47 (1959)
+//! 1325–1331, inside which the reactive field dominates), else [`NEAR_FIELD_M`], and the
+//! fix says which ([`NearField`]).
 //!
 //! # The Cramér–Rao bound
 //!
@@ -85,11 +88,54 @@ type Result<T> = std::result::Result<T, FixRefusal>;
 /// 4 on obstructed paths (Rappaport, *Wireless Communications*, Table 4.2).
 pub const EXPONENT_RANGE: (f64, f64) = (2.0, 4.0);
 
-/// Levels taken closer to the fix than this, metres, are set aside: within about a metre
-/// of a bracket or connector the probe couples to the junction's own structure and the
-/// far-field law does not hold (common practice, from memory); λ/2π is used instead
-/// when the frequency makes it larger.
+/// The near field's reach when the heard frequency is not known, metres: within about a
+/// metre of a bracket or connector the probe couples to the junction's own structure and
+/// the far-field law does not hold (common practice, from memory). With the frequency
+/// known, λ/2π is taken instead ([`NearField::reach_m`]).
 pub const NEAR_FIELD_M: f64 = 1.0;
+
+/// How far from the fix levels are set aside as heard in the near field.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[serde(tag = "from", rename_all = "snake_case")]
+pub enum NearField {
+    /// λ/2π of the heard frequency (Wheeler's radian sphere).
+    Wavelength {
+        /// The heard frequency, Hz.
+        freq_hz: i64,
+    },
+    /// No frequency known: [`NEAR_FIELD_M`].
+    Fallback,
+}
+
+impl NearField {
+    /// From the heard frequency, when known (a frequency of zero or below counts as not
+    /// known).
+    pub fn of(freq: Option<crate::freq::Hz>) -> Self {
+        match freq {
+            Some(f) if f.hz() > 0 => NearField::Wavelength { freq_hz: f.hz() },
+            _ => NearField::Fallback,
+        }
+    }
+
+    /// The reach, metres: λ/2π, or [`NEAR_FIELD_M`].
+    ///
+    /// ```
+    /// use pim_core::fix::levels::NearField;
+    /// use pim_core::freq::Hz;
+    /// // 150 MHz: λ = 2.0 m, λ/2π = 0.32 m
+    /// let r = NearField::of(Some(Hz(150_000_000))).reach_m();
+    /// assert!((r - 0.318).abs() < 0.001);
+    /// assert_eq!(NearField::of(None).reach_m(), 1.0);
+    /// ```
+    pub fn reach_m(self) -> f64 {
+        match self {
+            NearField::Wavelength { freq_hz } => {
+                crate::level::wavelength_m(freq_hz as f64) / (2.0 * std::f64::consts::PI)
+            }
+            NearField::Fallback => NEAR_FIELD_M,
+        }
+    }
+}
 
 /// The finest level σ an estimate may claim, dB: a handheld receiver's reading of a
 /// steady carrier wanders by about this much (common practice, from memory).
@@ -153,8 +199,9 @@ pub struct LevelOptions {
     pub sigma_db: Option<f64>,
     /// The receiver's saturation: a level at or above it is a lower bound.
     pub max_dbm: Option<f64>,
-    /// Levels closer than this to the fix are set aside, metres.
-    pub near_field_m: f64,
+    /// The heard frequency, when known: levels within λ/2π of the fix are set aside (else
+    /// within [`NEAR_FIELD_M`]).
+    pub freq: Option<crate::freq::Hz>,
 }
 
 impl Default for LevelOptions {
@@ -163,7 +210,7 @@ impl Default for LevelOptions {
             exponent: Exponent::default(),
             sigma_db: None,
             max_dbm: None,
-            near_field_m: NEAR_FIELD_M,
+            freq: None,
         }
     }
 }
@@ -220,6 +267,8 @@ pub struct LevelModel {
     pub setups: Vec<SetupLevel>,
     /// Levels closer than this to the fix were set aside, metres.
     pub near_field_m: f64,
+    /// Where that reach came from.
+    pub near_field: NearField,
 }
 
 /// What became of one level reading.
@@ -884,7 +933,7 @@ pub fn locate_with_levels(
             .map(|l| pos_var(l.position_accuracy_m))
             .collect(),
         exponent,
-        near_m: level.near_field_m.max(0.0),
+        near_m: NearField::of(level.freq).reach_m(),
     };
     let measurements = if bearings.is_empty() {
         Measurements::Levels
@@ -1261,6 +1310,7 @@ fn finish_joint(parts: JointParts) -> Result<Fix> {
             })
             .collect(),
         near_field_m: rows.near_m,
+        near_field: NearField::of(level.freq),
     };
     let accuracies: Vec<Option<f64>> = bearings
         .iter()
@@ -1570,6 +1620,40 @@ mod tests {
             .iter()
             .any(|w| matches!(w, FixWarning::LevelsSaturated { .. })));
         assert!(crate::geo::distance_m(fix.position, TRUTH) < 2.0);
+    }
+
+    #[test]
+    fn the_near_field_is_a_sixth_of_the_wavelength_when_the_frequency_is_known() {
+        let spots: Vec<(f64, f64)> = (0..8)
+            .map(|i| (i as f64 * 45.0, 3.0 + 4.0 * i as f64))
+            .chain([(100.0, 1.3)])
+            .collect();
+        let levels = levels_at(&spots, -30.0, 2.0);
+        let given = LevelOptions {
+            exponent: Exponent::Given { value: 2.0 },
+            ..LevelOptions::default()
+        };
+        // 30 MHz: λ = 10 m, λ/2π = 1.59 m, so the level at 1.3 m is set aside
+        let low = LevelOptions {
+            freq: Some(crate::freq::Hz(30_000_000)),
+            ..given
+        };
+        let fix = locate_with_levels(&[], &levels, &FixOptions::default(), &low).unwrap();
+        let m = fix.level_model.as_ref().unwrap();
+        assert_eq!(
+            m.near_field,
+            NearField::Wavelength {
+                freq_hz: 30_000_000
+            }
+        );
+        assert!((m.near_field_m - 1.592).abs() < 0.01, "{}", m.near_field_m);
+        assert!(fix.levels[8].near_field);
+        // no frequency: the 1 m fallback keeps it, and says so
+        let fix = locate_with_levels(&[], &levels, &FixOptions::default(), &given).unwrap();
+        let m = fix.level_model.as_ref().unwrap();
+        assert_eq!(m.near_field, NearField::Fallback);
+        assert_eq!(m.near_field_m, NEAR_FIELD_M);
+        assert!(!fix.levels[8].near_field);
     }
 
     #[test]
