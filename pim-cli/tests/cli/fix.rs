@@ -460,3 +460,108 @@ fn without_levels_the_fix_is_the_bearing_fix() {
     assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
     assert!(stderr_of(&o).contains("--use"), "{}", stderr_of(&o));
 }
+
+/// `pim log --setup NAME` logs a level with its setup group: a new log gets the `setup`
+/// column, each setup has its own L₀ in the fix (a 20 dB pad put in half way shifts
+/// every level of its group, not the position), a log that names the column `antenna`
+/// takes the setup there, and a log with neither column says so and is left as it was.
+#[test]
+fn pim_log_records_the_setup_of_a_level() {
+    let dir = scratch();
+    let log = dir.path().join("sniff.csv");
+    let junction = pim_core::geo::GeoPoint::new(45.104620, -122.414033);
+    let log_level = |file: &std::path::Path, i: usize, setup: Option<&str>| {
+        let (az, d) = (
+            i as f64 * 36.0 + 11.0,
+            5.0 + 35.0 * ((i * 7) % 10) as f64 / 9.0,
+        );
+        let o = pim_core::geo::destination(junction, az, d);
+        let pad = if setup == Some("pad 20 dB") {
+            20.0
+        } else {
+            0.0
+        };
+        let level = -40.0 - 25.0 * d.log10() + if i % 2 == 0 { 1.0 } else { -1.0 } - pad;
+        let (lat, lon, level) = (
+            format!("{:.7}", o.lat_deg),
+            format!("{:.7}", o.lon_deg),
+            format!("{level:.1}"),
+        );
+        let mut args = vec![
+            "log",
+            file.to_str().unwrap(),
+            "--lat",
+            &lat,
+            "--lon",
+            &lon,
+            "--level-dbm",
+            &level,
+            "--time",
+            "2026-11-28T10:40:00Z",
+        ];
+        if let Some(s) = setup {
+            args.extend(["--setup", s]);
+        }
+        pim(&args)
+    };
+    for i in 0..10 {
+        let setup = if i < 5 { "probe 1" } else { "pad 20 dB" };
+        let o = log_level(&log, i, Some(setup));
+        assert!(o.status.success(), "{}", stderr_of(&o));
+    }
+    let text = std::fs::read_to_string(&log).unwrap();
+    assert!(
+        text.starts_with("time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,setup,note\n"),
+        "{text}"
+    );
+    assert_eq!(text.matches(",pad 20 dB,").count(), 5, "{text}");
+    let o = pim(&["fix", "--log", &p(log.clone()), "--format", "json"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    let setups = v["level_model"]["setups"].as_array().unwrap();
+    assert_eq!(setups.len(), 2, "{v}");
+    assert_eq!(setups[0]["setup"], "probe 1");
+    assert_eq!(setups[1]["setup"], "pad 20 dB");
+    let step = setups[0]["l0_dbm"].as_f64().unwrap() - setups[1]["l0_dbm"].as_f64().unwrap();
+    assert!((step - 20.0).abs() < 3.0, "{step}");
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
+    assert!((lat - 45.104620).abs() < 4e-5 && (lon + 122.414033).abs() < 5e-5);
+    // a log that calls the column `antenna` gets the setup there
+    let antenna = dir.path().join("antenna.csv");
+    std::fs::write(
+        &antenna,
+        "time,lat,lon,bearing_deg,level_dbm,antenna,note\n",
+    )
+    .unwrap();
+    let o = log_level(&antenna, 0, Some("yagi"));
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let text = std::fs::read_to_string(&antenna).unwrap();
+    assert!(text.lines().nth(1).unwrap().ends_with(",yagi,"), "{text}");
+    // a log with neither column: refused, naming --setup, and the log left as it was
+    let plain = dir.path().join("plain.csv");
+    std::fs::write(&plain, "time,lat,lon,bearing_deg,level_dbm,note\n").unwrap();
+    let o = log_level(&plain, 0, Some("yagi"));
+    assert_eq!(o.status.code(), Some(3), "{}", stderr_of(&o));
+    assert!(stderr_of(&o).contains("--setup"), "{}", stderr_of(&o));
+    assert_eq!(
+        std::fs::read_to_string(&plain).unwrap(),
+        "time,lat,lon,bearing_deg,level_dbm,note\n"
+    );
+    // a setup with no level: refused by the command line
+    let o = pim(&[
+        "log",
+        plain.to_str().unwrap(),
+        "--lat",
+        "45.1",
+        "--lon",
+        "-122.4",
+        "--bearing-deg",
+        "10",
+        "--setup",
+        "yagi",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+}
