@@ -185,6 +185,8 @@ fn ring_of_twelve() -> Vec<(f64, f64)> {
 /// on the same walks, and its 95 % region holds the junction in 93–97 % of walks.
 #[test]
 fn levels_sharpen_a_one_sided_walk() {
+    // 0.930 on this seed; 0.925 over 1200 walks of it, where the RMSE ratio is 0.78: both
+    // at the edge of what the issue asks
     let t = run(2901, &one_sided_arc(), true);
     honest("one-sided arc with levels", &t);
     let ratio = Tally::rmse(&t.joint_sq) / Tally::rmse(&t.bearing_sq);
@@ -195,8 +197,9 @@ fn levels_sharpen_a_one_sided_walk() {
 /// A walk all around the junction: levels at 150–400 m add little, and take nothing
 /// away: the joint RMSE within 5 % of the bearings-only RMSE. The issue asks coverage
 /// within 93–97 %; with both σ estimated (each on about ten degrees of freedom, joined
-/// by Satterthwaite's rule) this seed gives 0.920 (another, 0.943): held at 91–97 %
-/// until the scale's small-sample bias is corrected.
+/// by Satterthwaite's rule) this seed gives 0.920, and the bearings-only fix of the same
+/// walks 0.930 (over 1200 walks of this seed the joint fix gives 0.931): held at 91–97 %
+/// until the region's small-sample law is mended (see the level-only check).
 #[test]
 fn levels_do_no_harm_all_around() {
     let t = run(2902, &ring_of_twelve(), true);
@@ -211,9 +214,19 @@ fn levels_do_no_harm_all_around() {
 
 /// Levels alone, ten spots around the junction at 5–40 m: a fix in nearly every walk.
 /// The issue asks 93–97 % coverage; with the level σ and the exponent both estimated from
-/// ten levels the region holds the junction in about 88 % of walks (93 % with both
-/// given): the likelihood ratio's small-sample law is wider than the F law the region is
-/// scaled by. This check holds the figure reached (at least 85 %) until that is mended.
+/// ten levels the region holds the junction in 0.868 of walks on this seed (0.893 over
+/// 1200 walks; 93 % with both given). Measured: 16 walks are refused because the
+/// likelihood region does not close, and the truth lay inside the open region in every
+/// refused walk examined; of the 384 walks with a region 0.904 hold the truth (0.919
+/// with the ml estimator), and the misses are the walks whose level σ came out small
+/// (2.4 dB on average, against 4.0 dB in the walks held): the F(2, 6) law the region is
+/// scaled by does not carry the scale's small-sample law through the curved level law
+/// (95 % would need the threshold × 1.41). Tried and not kept: a parametric bootstrap of
+/// the likelihood ratio at the fix (39 replicates, the Monte Carlo test's rank) gave
+/// 0.772 here (0.935 all around, 0.973 on the arc), as replicates drawn with a small σ
+/// are too clean to widen the walks that need it; curvature-aware leverages (St. Laurent
+/// and Cook 1992) for the scale's degrees of freedom left it at 0.860. This check holds
+/// the figure reached (at least 85 %) until that is mended.
 #[test]
 fn levels_alone_fix_the_junction_honestly() {
     let spots: Vec<(f64, f64)> = (0..10)
