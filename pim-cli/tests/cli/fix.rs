@@ -481,7 +481,7 @@ fn pim_log_records_the_setup_of_a_level() {
         } else {
             0.0
         };
-        let level = -40.0 - 25.0 * d.log10() + if i % 2 == 0 { 1.0 } else { -1.0 } - pad;
+        let level = -40.0 - 25.0 * d.log10() + if i.is_multiple_of(2) { 1.0 } else { -1.0 } - pad;
         let (lat, lon, level) = (
             format!("{:.7}", o.lat_deg),
             format!("{:.7}", o.lon_deg),

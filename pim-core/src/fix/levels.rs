@@ -190,8 +190,9 @@ impl Default for Exponent {
     }
 }
 
-/// How levels are used.
-#[derive(Clone, Copy, Debug, PartialEq)]
+/// How levels are used (by default: the exponent estimated within [`EXPONENT_RANGE`],
+/// σ estimated, no saturation, no frequency).
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct LevelOptions {
     /// The path-loss exponent.
     pub exponent: Exponent,
@@ -202,17 +203,6 @@ pub struct LevelOptions {
     /// The heard frequency, when known: levels within λ/2π of the fix are set aside (else
     /// within [`NEAR_FIELD_M`]).
     pub freq: Option<crate::freq::Hz>,
-}
-
-impl Default for LevelOptions {
-    fn default() -> Self {
-        LevelOptions {
-            exponent: Exponent::default(),
-            sigma_db: None,
-            max_dbm: None,
-            freq: None,
-        }
-    }
 }
 
 /// Which measurements made a fix.
