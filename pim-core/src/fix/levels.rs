@@ -75,7 +75,7 @@
 //! readings, 2·F(2, ν) held the junction in 87–93 % of simulated walks (the level law's
 //! bend close in, the exponent held at an end of its range, the robust scale's
 //! small-sample law). T is calibrated per fix by a small parametric bootstrap with the
-//! σ drawn from its fiducial law, read as a Monte Carlo test ([`calibrated_threshold`]),
+//! σ drawn from its fiducial law, read as a Monte Carlo test (`calibrated_threshold`),
 //! from a seed drawn from the readings, so the same log gives the same region; the
 //! ellipse's k² is scaled with it.
 
@@ -740,7 +740,7 @@ fn fit_from(
 }
 
 /// Replicates of the parametric bootstrap that calibrates a joint region's threshold
-/// (see [`calibrated_threshold`]).
+/// (`calibrated_threshold` in this module's source).
 pub const CALIBRATION_REPLICATES: usize = 39;
 
 /// The likelihood-ratio statistic of a solution at the point `p`: the rise of its profiled
