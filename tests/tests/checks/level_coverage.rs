@@ -187,7 +187,9 @@ fn ring_of_twelve() -> Vec<(f64, f64)> {
 /// on the same walks, and its 95 % region holds the junction in 93–97 % of walks.
 #[test]
 fn levels_sharpen_a_one_sided_walk() {
-    // 0.953 on this seed (0.930 with the F law's threshold)
+    // 0.953 on this seed (0.930 with the F law's threshold); over 1200 walks of it the
+    // coverage is 0.945 but the RMSE ratio 0.78: the 0.7 holds on these 400 walks only
+    // (the bearings-only error has a heavy tail)
     let t = run(2901, &one_sided_arc(), true);
     honest("one-sided arc with levels", &t);
     let ratio = Tally::rmse(&t.joint_sq) / Tally::rmse(&t.bearing_sq);
