@@ -90,7 +90,8 @@ pub struct FixArgs {
     #[arg(long, value_enum, default_value_t = OffsetArg::Auto)]
     pub offset: OffsetArg,
     /// Which measurements make the fix (default: both when at least three rows have a
-    /// level_dbm, else bearings).
+    /// level_dbm, else bearings; with --ambiguous, bearings unless asked: each front/back
+    /// reading is then taken the way nearer the joint fix).
     #[arg(long = "use", value_enum, value_name = "WHICH")]
     pub use_: Option<UseArg>,
     /// Standard deviation of every level in dB (shadowing and multipath; default:
@@ -287,13 +288,6 @@ impl FixArgs {
             return Err(pim_core::Error::argument(
                 "--use",
                 "the log has no level_dbm: give levels, or --use bearings",
-            )
-            .into());
-        }
-        if chosen != UseArg::Bearings && self.ambiguous {
-            return Err(pim_core::Error::argument(
-                "--ambiguous",
-                "front/back readings are resolved with bearings only: add --use bearings",
             )
             .into());
         }

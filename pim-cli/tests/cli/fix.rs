@@ -565,3 +565,31 @@ fn pim_log_records_the_setup_of_a_level() {
     ]);
     assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
 }
+
+/// Front/back readings with levels: `--ambiguous --use both` fixes from both, each
+/// bearing taken the way nearer the joint fix, and says it used both.
+#[test]
+fn ambiguous_bearings_join_the_levels_when_asked() {
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk.csv")),
+        "--ambiguous",
+        "--use",
+        "both",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["measurements"], "both");
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
+    // the demo's junction, within the walk's own scatter
+    assert!(
+        (lat - 45.104620).abs() < 3e-4 && (lon + 122.414033).abs() < 4e-4,
+        "{lat} {lon}"
+    );
+}

@@ -318,6 +318,8 @@ struct Rows {
     /// The exponent's range (equal ends when given).
     exponent: (f64, f64),
     near_m: f64,
+    /// Bearings may point either way (front/back): each is taken the way nearer the point.
+    ambiguous: bool,
 }
 
 impl Rows {
@@ -352,7 +354,7 @@ fn residuals(rows: &Rows, t: &Theta, max_dbm: Option<f64>) -> (Vec<f64>, Vec<Vec
         let (de, dn) = (t.p.0 - at.0, t.p.1 - at.1);
         let d2 = (de * de + dn * dn).max(1e-6);
         let az = de.atan2(dn).to_degrees();
-        r.push(bearing_difference_deg(*b, az).to_radians());
+        r.push(oriented_difference_deg(*b, az, rows.ambiguous).to_radians());
         // ∂az/∂e = dn/d², ∂az/∂n = −de/d²; the residual is −∂az
         let mut row = vec![0.0; cols];
         row[0] = -dn / d2;
@@ -384,6 +386,17 @@ fn residuals(rows: &Rows, t: &Theta, max_dbm: Option<f64>) -> (Vec<f64>, Vec<Vec
         j.push(row);
     }
     (r, j)
+}
+
+/// The bearing's residual against the azimuth `az`, degrees; a front/back ambiguous
+/// bearing is taken the way that points nearer to it (as [`super::locate`] orients them).
+fn oriented_difference_deg(bearing_deg: f64, az: f64, ambiguous: bool) -> f64 {
+    let d = bearing_difference_deg(bearing_deg, az);
+    if ambiguous && d.abs() > 90.0 {
+        d - 180.0 * d.signum()
+    } else {
+        d
+    }
 }
 
 /// Distances from the point to each level observer.
@@ -1094,6 +1107,7 @@ pub fn locate_with_levels(
             .collect(),
         exponent,
         near_m: NearField::of(level.freq).reach_m(),
+        ambiguous: options.ambiguous,
     };
     let measurements = if bearings.is_empty() {
         Measurements::Levels
@@ -1442,7 +1456,9 @@ fn finish_joint(parts: JointParts) -> Result<Fix> {
             residual_deg: r[i].to_degrees(),
             distance_m: de.hypot(dn),
             weight: solved.weights[i],
-            flipped: false,
+            flipped: rows.ambiguous
+                && bearing_difference_deg(bearings[i].bearing_deg, de.atan2(dn).to_degrees()).abs()
+                    > 90.0,
             outlier: outlier[i],
         });
     }
@@ -1648,6 +1664,7 @@ pub fn position_information(
             (nu, nu)
         },
         near_m: 0.0,
+        ambiguous: false,
     };
     let theta = Theta {
         p,
@@ -1875,6 +1892,51 @@ mod tests {
         assert_eq!(m.near_field, NearField::Fallback);
         assert_eq!(m.near_field_m, NEAR_FIELD_M);
         assert!(!fix.levels[8].near_field);
+    }
+
+    #[test]
+    fn front_back_bearings_join_the_levels() {
+        let spots: Vec<(f64, f64)> = (0..8)
+            .map(|i| (200.0 + 10.0 * i as f64, 20.0 + 15.0 * (i % 4) as f64))
+            .collect();
+        let levels = levels_at(&spots, -40.0, 2.0);
+        let readings: Vec<Reading> = spots
+            .iter()
+            .enumerate()
+            .map(|(i, &(az, d))| {
+                let o = destination(TRUTH, az, d);
+                let (_, back) = crate::geo::distance_and_azimuth(o, TRUTH);
+                // every third reading logged the back of the antenna's pattern
+                let flip = if i % 3 == 0 { 180.0 } else { 0.0 };
+                let wobble = if i % 2 == 0 { 1.0 } else { -1.0 };
+                Reading::new(
+                    i as u64 + 2,
+                    o,
+                    crate::geo::normalize_bearing_deg(back + wobble + flip),
+                    None,
+                )
+            })
+            .collect();
+        let options = FixOptions {
+            ambiguous: true,
+            position_accuracy_m: Some(0.0),
+            ..FixOptions::default()
+        };
+        let level = LevelOptions {
+            exponent: Exponent::Given { value: 2.0 },
+            ..LevelOptions::default()
+        };
+        let fix = locate_with_levels(&readings, &levels, &options, &level).unwrap();
+        assert_eq!(fix.measurements, Some(Measurements::Both));
+        assert!(crate::geo::distance_m(fix.position, TRUTH) < 2.0);
+        let flipped: Vec<bool> = fix.readings.iter().map(|r| r.flipped).collect();
+        assert_eq!(
+            flipped,
+            (0..8).map(|i| i % 3 == 0).collect::<Vec<_>>(),
+            "{:?}",
+            fix.readings
+        );
+        assert!(fix.readings.iter().all(|r| r.residual_deg.abs() < 3.0));
     }
 
     #[test]
