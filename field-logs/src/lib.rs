@@ -57,9 +57,24 @@ pub fn commands(dir: &std::path::Path) -> Vec<String> {
         height.as_str(),
     ];
     vec![
-        pim_command(["fix", "--log", &file("walk.csv")]),
-        pim_command(["log", "--log", &file("walk.csv"), "--list"]),
-        pim_command(["next", "--log", &file("walk.csv"), "--radius-m", "150"]),
+        pim_command(["fix", "--log", &file("walk.csv"), "--freq", &heard]),
+        pim_command([
+            "log",
+            "--log",
+            &file("walk.csv"),
+            "--list",
+            "--freq",
+            &heard,
+        ]),
+        pim_command([
+            "next",
+            "--log",
+            &file("walk.csv"),
+            "--radius-m",
+            "150",
+            "--freq",
+            &heard,
+        ]),
         pim_command([
             "slope",
             "--kind",

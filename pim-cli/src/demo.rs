@@ -53,7 +53,11 @@ pub fn run(args: Args) -> CliResult {
     let structures = read_structures("structures.csv", STRUCTURES_CSV.as_bytes())?;
     // A reflection off the metal shed spoils one bearing of the walk: the robust
     // estimate, every command's default, sets it aside.
-    let fix_args = FixArgs::default();
+    // levels in the near field of the heard frequency are set aside
+    let fix_args = FixArgs {
+        freq: Some(HEARD),
+        ..FixArgs::default()
+    };
     let (fix, prepared) = fix_from_log(Path::new("walk.csv"), Some(WALK_CSV), &fix_args)?;
     let log = read_field_log("walk.csv", WALK_CSV.as_bytes(), false)?;
     let mut out = stdout();

@@ -90,7 +90,8 @@ pub struct FixArgs {
     #[arg(long, value_enum, default_value_t = OffsetArg::Auto)]
     pub offset: OffsetArg,
     /// Which measurements make the fix (default: both when at least three rows have a
-    /// level_dbm, else bearings).
+    /// level_dbm, else bearings; with --ambiguous, bearings unless asked: each front/back
+    /// reading is then taken the way nearer the joint fix).
     #[arg(long = "use", value_enum, value_name = "WHICH")]
     pub use_: Option<UseArg>,
     /// Standard deviation of every level in dB (shadowing and multipath; default:
@@ -104,6 +105,10 @@ pub struct FixArgs {
     /// estimate (default 2..4).
     #[arg(long, value_name = "N", value_parser = exponent_arg)]
     pub level_exponent: Option<Exponent>,
+    /// The frequency heard (a bare number is MHz): levels within λ/2π of the fix, in the
+    /// near field, are set aside (without it, within 1 m).
+    #[arg(long = "freq", id = "level_freq", value_name = "FREQ", value_parser = crate::common::frequency_arg)]
+    pub freq: Option<pim_core::freq::Hz>,
 }
 
 fn level_sigma_arg(text: &str) -> Result<f64, String> {
@@ -225,6 +230,7 @@ impl Default for FixArgs {
             level_sigma_db: None,
             level_max_dbm: None,
             level_exponent: None,
+            freq: None,
         }
     }
 }
@@ -259,7 +265,7 @@ impl FixArgs {
             exponent: self.level_exponent.unwrap_or_default(),
             sigma_db: self.level_sigma_db,
             max_dbm: self.level_max_dbm,
-            ..LevelOptions::default()
+            freq: self.freq,
         }
     }
 
@@ -282,13 +288,6 @@ impl FixArgs {
             return Err(pim_core::Error::argument(
                 "--use",
                 "the log has no level_dbm: give levels, or --use bearings",
-            )
-            .into());
-        }
-        if chosen != UseArg::Bearings && self.ambiguous {
-            return Err(pim_core::Error::argument(
-                "--ambiguous",
-                "front/back readings are resolved with bearings only: add --use bearings",
             )
             .into());
         }

@@ -31,10 +31,10 @@ pub struct Args {
     #[arg(long, value_name = "FILE")]
     pub log: Option<PathBuf>,
     /// Take back the last reading of the log (it is printed) instead of adding one.
-    #[arg(long, conflicts_with_all = ["list", "lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "note", "time"])]
+    #[arg(long, conflicts_with_all = ["list", "lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "setup", "note", "time"])]
     pub undo: bool,
     /// List the readings with their residuals at the running fix instead of adding one.
-    #[arg(long, conflicts_with_all = ["lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "note", "time"])]
+    #[arg(long, conflicts_with_all = ["lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "setup", "note", "time"])]
     pub list: bool,
     /// Latitude of the spot: degrees (45.1046), degrees and minutes (45°06.275'N) or
     /// degrees, minutes and seconds (45 06 16.5 N).
@@ -57,6 +57,11 @@ pub struct Args {
     /// Signal level heard, dBm (used for the fix with the bearings, or alone).
     #[arg(long, value_name = "DBM", allow_hyphen_values = true)]
     pub level_dbm: Option<String>,
+    /// The antenna and receiver setup the level was heard with (the log's `setup`
+    /// column): levels of one setup share their level at 1 m, so a changed antenna,
+    /// attenuator or gain gets a name of its own. A new log gets the column.
+    #[arg(long, value_name = "NAME", requires = "level_dbm")]
+    pub setup: Option<String>,
     /// A note (where, what was seen).
     #[arg(long)]
     pub note: Option<String>,
@@ -172,6 +177,7 @@ pub fn run(args: Args) -> CliResult {
             },
             sigma_deg: number_of(&args.reading_sigma_deg, "°", "--reading-sigma-deg")?,
             level_dbm: number_of(&args.level_dbm, "dBm", "--level-dbm")?,
+            setup: args.setup.clone(),
             note: args.note.clone(),
             time,
         };

@@ -207,7 +207,10 @@ pub fn run(args: Args) -> CliResult {
         Some(p) => crate::common::load_structures(p, &columns)?,
         None => Vec::new(),
     };
-    let (fix, prepared) = fix_from_log(&args.log, None, &args.fix)?;
+    // the fix's near field from the frequency the ticket is for, unless given apart
+    let mut fix_args = args.fix.clone();
+    fix_args.freq.get_or_insert(args.input.freq());
+    let (fix, prepared) = fix_from_log(&args.log, None, &fix_args)?;
     // inputs are read under the names given (errors name them so) and named in the
     // ticket relative to its folder
     let named = |p: &Path| pim_io::output::name_for_ticket(p, &args.out);

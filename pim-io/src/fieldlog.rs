@@ -52,6 +52,10 @@ pub const MIN_SIGMA_DEG: f64 = 0.1;
 /// The header `pim log` writes.
 pub const LOG_HEADER: &str = "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,note";
 
+/// The header of a log whose first reading names its setup.
+pub const LOG_HEADER_WITH_SETUP: &str =
+    "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,setup,note";
+
 /// Which north a bearing is measured from.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
@@ -319,8 +323,20 @@ impl LogEntry {
         table.require("bearing_deg")?;
         table.require("lat")?;
         table.require("lon")?;
+        // a log may name the setup column `antenna`
+        let column_of = |name: &'static str| -> &'static str {
+            match name {
+                "setup" if table.column("setup").is_none() && table.column("antenna").is_some() => {
+                    "antenna"
+                }
+                other => other,
+            }
+        };
         for (name, value) in &self.fields {
-            if !value.is_empty() && table.column(name).is_none() && !droppable.contains(name) {
+            if !value.is_empty()
+                && table.column(column_of(name)).is_none()
+                && !droppable.contains(name)
+            {
                 let origin = self.place(name).source;
                 return Err(Error::input(
                     Place::new(source).at_line(1).at_field(*name),
@@ -333,7 +349,14 @@ impl LogEntry {
         Ok(table
             .headers()
             .iter()
-            .map(|h| self.field(h).unwrap_or_default().to_string())
+            .map(|h| {
+                let name = if h == "antenna" && table.column("setup").is_none() {
+                    "setup"
+                } else {
+                    h.as_str()
+                };
+                self.field(name).unwrap_or_default().to_string()
+            })
             .collect())
     }
 }
@@ -360,6 +383,9 @@ pub struct ReadingText {
     pub north: North,
     pub sigma_deg: Option<String>,
     pub level_dbm: Option<String>,
+    /// The antenna and receiver setup the level was heard with (the `setup` column, or
+    /// `antenna` where the log names it so).
+    pub setup: Option<String>,
     pub note: Option<String>,
     /// ISO 8601; now (UTC, whole seconds) when `None`.
     pub time: Option<String>,
@@ -381,7 +407,7 @@ pub fn save_reading(
         .clone()
         .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
     let text = |v: &Option<String>| v.clone().unwrap_or_default();
-    const COLUMNS: [&str; 8] = [
+    const COLUMNS: [&str; 9] = [
         "time",
         "lat",
         "lon",
@@ -389,6 +415,7 @@ pub fn save_reading(
         "north",
         "sigma_deg",
         "level_dbm",
+        "setup",
         "note",
     ];
     let entry = LogEntry {
@@ -407,6 +434,7 @@ pub fn save_reading(
             ),
             ("sigma_deg", text(&reading.sigma_deg)),
             ("level_dbm", text(&reading.level_dbm)),
+            ("setup", text(&reading.setup)),
             ("note", text(&reading.note)),
         ],
         origin: COLUMNS.iter().map(|&c| (c, origin(c))).collect(),
@@ -439,7 +467,13 @@ pub fn save_reading(
     if reading.north == North::True {
         droppable.push("north");
     }
-    append_row(file, LOG_HEADER, &|header, _delimiter| {
+    // a new log has the setup column when its first reading names one
+    let new_header = if reading.setup.is_some() {
+        LOG_HEADER_WITH_SETUP
+    } else {
+        LOG_HEADER
+    };
+    append_row(file, new_header, &|header, _delimiter| {
         entry.cells_for_header(header, &source, &droppable)
     })
 }

@@ -262,7 +262,7 @@ pub fn level_status(l: &pim_core::fix::LevelFit) -> String {
 /// (`bearings and levels (exponent 2.4 estimated, L₀ −31.2 dBm at 1 m, level σ 3.8 dB
 /// estimated)`).
 pub fn measurements_words(fix: &Fix) -> Option<String> {
-    use pim_core::fix::levels::ExponentSource;
+    use pim_core::fix::levels::{ExponentSource, NearField};
     use pim_core::fix::Measurements;
     let which = match fix.measurements? {
         Measurements::Bearings => return None,
@@ -275,8 +275,14 @@ pub fn measurements_words(fix: &Fix) -> Option<String> {
     } else {
         String::new()
     };
+    let near = match m.near_field {
+        NearField::Wavelength { freq_hz } => {
+            format!("λ/2π at {}", pim_core::freq::Hz(freq_hz).unit_text())
+        }
+        NearField::Fallback => "no frequency given".to_string(),
+    };
     Some(format!(
-        "{which} (path-loss exponent {:.2} {}, L₀ {:.1} dBm at 1 m{setups}, level σ {:.1} dB {})",
+        "{which} (path-loss exponent {:.2} {}, L₀ {:.1} dBm at 1 m{setups}, level σ {:.1} dB {}; levels within {} m of the fix set aside as near field, {near})",
         m.exponent,
         match m.exponent_source {
             ExponentSource::Given => "as given",
@@ -289,7 +295,8 @@ pub fn measurements_words(fix: &Fix) -> Option<String> {
             "as given"
         } else {
             "estimated"
-        }
+        },
+        pim_io::precision::fixed(m.near_field_m, 2)
     ))
 }
 

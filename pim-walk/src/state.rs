@@ -255,6 +255,7 @@ fn save_form(walk: &Walk, body: &str) -> Result<(u16, Value), Value> {
         north,
         sigma_deg: get("sigma_deg")?,
         level_dbm: get("level_dbm")?,
+        setup: None,
         note: get("note")?,
         time: get("time")?,
     };

@@ -392,6 +392,35 @@ fn levels_alone_fix_or_say_no_fix() {
         text.contains("levels only") && text.contains("residual dB"),
         "{text}"
     );
+    // the near field: 1 m without a frequency, said so; λ/2π with --freq (at 30 MHz,
+    // 10 m / 2π = 1.59 m), in the JSON and the table alike
+    assert_eq!(v["level_model"]["near_field"]["from"], "fallback");
+    assert_eq!(v["level_model"]["near_field_m"], 1.0);
+    assert!(
+        text.contains("within 1.00 m of the fix") && text.contains("no frequency given"),
+        "{text}"
+    );
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(log.clone()),
+        "--freq",
+        "30MHz",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["level_model"]["near_field"]["from"], "wavelength");
+    assert_eq!(v["level_model"]["near_field"]["freq_hz"], 30_000_000);
+    let reach = v["level_model"]["near_field_m"].as_f64().unwrap();
+    assert!((reach - 1.59).abs() < 0.01, "{reach}");
+    let t = pim(&["fix", "--log", &p(log.clone()), "--freq", "30MHz"]);
+    let text = stdout_of(&t);
+    assert!(
+        text.contains("within 1.59 m of the fix") && text.contains("λ/2π at 30.0 MHz"),
+        "{text}"
+    );
     // three spots: no fix, a refusal (exit 5)
     std::fs::write(&log, level_only_log(&spots[..3])).unwrap();
     let o = pim(&["fix", "--log", &p(log.clone())]);
@@ -444,4 +473,137 @@ fn without_levels_the_fix_is_the_bearing_fix() {
     let o = pim(&["fix", "--log", &p(log), "--use", "levels"]);
     assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
     assert!(stderr_of(&o).contains("--use"), "{}", stderr_of(&o));
+}
+
+/// `pim log --setup NAME` logs a level with its setup group: a new log gets the `setup`
+/// column, each setup has its own L₀ in the fix (a 20 dB pad put in half way shifts
+/// every level of its group, not the position), a log that names the column `antenna`
+/// takes the setup there, and a log with neither column says so and is left as it was.
+#[test]
+fn pim_log_records_the_setup_of_a_level() {
+    let dir = scratch();
+    let log = dir.path().join("sniff.csv");
+    let junction = pim_core::geo::GeoPoint::new(45.104620, -122.414033);
+    let log_level = |file: &std::path::Path, i: usize, setup: Option<&str>| {
+        let (az, d) = (
+            i as f64 * 36.0 + 11.0,
+            5.0 + 35.0 * ((i * 7) % 10) as f64 / 9.0,
+        );
+        let o = pim_core::geo::destination(junction, az, d);
+        let pad = if setup == Some("pad 20 dB") {
+            20.0
+        } else {
+            0.0
+        };
+        let level = -40.0 - 25.0 * d.log10() + if i.is_multiple_of(2) { 1.0 } else { -1.0 } - pad;
+        let (lat, lon, level) = (
+            format!("{:.7}", o.lat_deg),
+            format!("{:.7}", o.lon_deg),
+            format!("{level:.1}"),
+        );
+        let mut args = vec![
+            "log",
+            file.to_str().unwrap(),
+            "--lat",
+            &lat,
+            "--lon",
+            &lon,
+            "--level-dbm",
+            &level,
+            "--time",
+            "2026-11-28T10:40:00Z",
+        ];
+        if let Some(s) = setup {
+            args.extend(["--setup", s]);
+        }
+        pim(&args)
+    };
+    for i in 0..10 {
+        let setup = if i < 5 { "probe 1" } else { "pad 20 dB" };
+        let o = log_level(&log, i, Some(setup));
+        assert!(o.status.success(), "{}", stderr_of(&o));
+    }
+    let text = std::fs::read_to_string(&log).unwrap();
+    assert!(
+        text.starts_with("time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,setup,note\n"),
+        "{text}"
+    );
+    assert_eq!(text.matches(",pad 20 dB,").count(), 5, "{text}");
+    let o = pim(&["fix", "--log", &p(log.clone()), "--format", "json"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    let setups = v["level_model"]["setups"].as_array().unwrap();
+    assert_eq!(setups.len(), 2, "{v}");
+    assert_eq!(setups[0]["setup"], "probe 1");
+    assert_eq!(setups[1]["setup"], "pad 20 dB");
+    let step = setups[0]["l0_dbm"].as_f64().unwrap() - setups[1]["l0_dbm"].as_f64().unwrap();
+    assert!((step - 20.0).abs() < 3.0, "{step}");
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
+    assert!((lat - 45.104620).abs() < 4e-5 && (lon + 122.414033).abs() < 5e-5);
+    // a log that calls the column `antenna` gets the setup there
+    let antenna = dir.path().join("antenna.csv");
+    std::fs::write(
+        &antenna,
+        "time,lat,lon,bearing_deg,level_dbm,antenna,note\n",
+    )
+    .unwrap();
+    let o = log_level(&antenna, 0, Some("yagi"));
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let text = std::fs::read_to_string(&antenna).unwrap();
+    assert!(text.lines().nth(1).unwrap().ends_with(",yagi,"), "{text}");
+    // a log with neither column: refused, naming --setup, and the log left as it was
+    let plain = dir.path().join("plain.csv");
+    std::fs::write(&plain, "time,lat,lon,bearing_deg,level_dbm,note\n").unwrap();
+    let o = log_level(&plain, 0, Some("yagi"));
+    assert_eq!(o.status.code(), Some(3), "{}", stderr_of(&o));
+    assert!(stderr_of(&o).contains("--setup"), "{}", stderr_of(&o));
+    assert_eq!(
+        std::fs::read_to_string(&plain).unwrap(),
+        "time,lat,lon,bearing_deg,level_dbm,note\n"
+    );
+    // a setup with no level: refused by the command line
+    let o = pim(&[
+        "log",
+        plain.to_str().unwrap(),
+        "--lat",
+        "45.1",
+        "--lon",
+        "-122.4",
+        "--bearing-deg",
+        "10",
+        "--setup",
+        "yagi",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr_of(&o));
+}
+
+/// Front/back readings with levels: `--ambiguous --use both` fixes from both, each
+/// bearing taken the way nearer the joint fix, and says it used both.
+#[test]
+fn ambiguous_bearings_join_the_levels_when_asked() {
+    let o = pim(&[
+        "fix",
+        "--log",
+        &p(field_log("walk.csv")),
+        "--ambiguous",
+        "--use",
+        "both",
+        "--format",
+        "json",
+    ]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert_eq!(v["measurements"], "both");
+    let (lat, lon) = (
+        v["lat_deg"].as_f64().unwrap(),
+        v["lon_deg"].as_f64().unwrap(),
+    );
+    // the demo's junction, within the walk's own scatter
+    assert!(
+        (lat - 45.104620).abs() < 3e-4 && (lon + 122.414033).abs() < 4e-4,
+        "{lat} {lon}"
+    );
 }

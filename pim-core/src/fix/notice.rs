@@ -110,6 +110,17 @@ pub enum FixWarning {
         /// The near field's reach, metres.
         within_m: f64,
     },
+    /// The likelihood region of a fix from levels alone does not close: it runs on out to
+    /// the search's reach towards this direction, and is drawn out that far (the levels
+    /// bound the junction on the other sides only).
+    RegionOpen {
+        /// The region's confidence.
+        confidence: f64,
+        /// The first direction it stays open towards, degrees from north.
+        towards_deg: f64,
+        /// How far it is drawn, metres.
+        reach_m: f64,
+    },
     /// These levels reached the receiver's saturation: taken as lower bounds.
     LevelsSaturated {
         /// Their log lines.
@@ -195,6 +206,12 @@ impl fmt::Display for FixWarning {
                 f,
                 "{} at or above the receiver's saturation ({max_dbm:.1} dBm): taken as lower bounds, not values",
                 lines(l)
+            ),
+            FixWarning::RegionOpen { confidence, towards_deg, reach_m } => write!(
+                f,
+                "the {:.0} % region does not close: the levels do not bound the junction towards {towards_deg:.0}°, and the region is drawn out to {:.0} km that way; take levels from spots on that side",
+                confidence * 100.0,
+                reach_m / 1000.0
             ),
             FixWarning::ExponentAtBound { exponent, low, high } => write!(
                 f,

@@ -6,8 +6,10 @@
 //! so 93–97 % tells 95 % from 90 %. Sources: the log-distance law with log-normal
 //! shadowing (T. S. Rappaport, *Wireless Communications*, 2nd ed., §4.9–4.10); the
 //! hybrid AOA/RSS likelihood (Wang, Jackson & Inkol 2012); Beale (1960) for the
-//! likelihood region; the Cramér–Rao bound of the joint model as derived in
-//! `pim_core::fix::levels`.
+//! likelihood region, its threshold calibrated per fix by a parametric bootstrap read as
+//! a Monte Carlo test (Barnard 1963; Dufour 2006) with each estimated σ drawn from its
+//! fiducial law (Tsui & Weerahandi 1989); the Cramér–Rao bound of the joint model as
+//! derived in `pim_core::fix::levels`.
 
 use pim_core::fix::levels::position_information;
 use pim_core::fix::{
@@ -185,6 +187,9 @@ fn ring_of_twelve() -> Vec<(f64, f64)> {
 /// on the same walks, and its 95 % region holds the junction in 93–97 % of walks.
 #[test]
 fn levels_sharpen_a_one_sided_walk() {
+    // 0.953 on this seed (0.930 with the F law's threshold); over 1200 walks of it the
+    // coverage is 0.945 but the RMSE ratio 0.78: the 0.7 holds on these 400 walks only
+    // (the bearings-only error has a heavy tail)
     let t = run(2901, &one_sided_arc(), true);
     honest("one-sided arc with levels", &t);
     let ratio = Tally::rmse(&t.joint_sq) / Tally::rmse(&t.bearing_sq);
@@ -193,27 +198,24 @@ fn levels_sharpen_a_one_sided_walk() {
 }
 
 /// A walk all around the junction: levels at 150–400 m add little, and take nothing
-/// away: the joint RMSE within 5 % of the bearings-only RMSE. The issue asks coverage
-/// within 93–97 %; with both σ estimated (each on about ten degrees of freedom, joined
-/// by Satterthwaite's rule) this seed gives 0.920 (another, 0.943): held at 91–97 %
-/// until the scale's small-sample bias is corrected.
+/// away: the joint RMSE within 5 % of the bearings-only RMSE, and the 95 % region holds
+/// the junction in 93–97 % of walks: 0.935 on this seed (with the F law's threshold, on
+/// both σ estimated and joined by Satterthwaite's rule, 0.920; the bearings-only fix of
+/// the same walks 0.930).
 #[test]
 fn levels_do_no_harm_all_around() {
     let t = run(2902, &ring_of_twelve(), true);
-    assert!(
-        (0.91..=0.97).contains(&t.coverage()),
-        "all around with levels: the 95 % region held the truth in {:.3} of walks",
-        t.coverage()
-    );
+    honest("all around with levels", &t);
     let ratio = Tally::rmse(&t.joint_sq) / Tally::rmse(&t.bearing_sq);
     assert!(ratio <= 1.05, "RMSE ratio {ratio:.3}");
 }
 
-/// Levels alone, ten spots around the junction at 5–40 m: a fix in nearly every walk.
-/// The issue asks 93–97 % coverage; with the level σ and the exponent both estimated from
-/// ten levels the region holds the junction in about 88 % of walks (93 % with both
-/// given): the likelihood ratio's small-sample law is wider than the F law the region is
-/// scaled by. This check holds the figure reached (at least 85 %) until that is mended.
+/// Levels alone, ten spots around the junction at 5–40 m: a fix in every walk, and the
+/// 95 % region holds the junction in 93–97 % of walks: 0.932 on this seed. With the F
+/// law's threshold it held it in 0.868 (16 walks refused, their region open on one side
+/// with the truth inside it; of the rest 0.904, the misses those whose level σ came out
+/// small), and with a plug-in bootstrap in 0.77: hence the fiducial draw of σ and the
+/// open region drawn out and said, not refused.
 #[test]
 fn levels_alone_fix_the_junction_honestly() {
     let spots: Vec<(f64, f64)> = (0..10)
@@ -225,12 +227,8 @@ fn levels_alone_fix_the_junction_honestly() {
         })
         .collect();
     let t = run(2903, &spots, false);
-    assert!(
-        t.coverage() >= 0.85,
-        "levels alone: the 95 % region held the truth in {:.3} of walks",
-        t.coverage()
-    );
-    assert!(t.refused <= WALKS / 10, "refused {}", t.refused);
+    honest("levels alone", &t);
+    assert_eq!(t.refused, 0);
 }
 
 /// The Cramér–Rao bound of the joint model (the Fisher information of both terms, the
