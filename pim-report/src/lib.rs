@@ -9,6 +9,7 @@
 pub mod candidates;
 pub mod csv_out;
 pub mod document;
+pub mod emitters;
 pub mod explain;
 pub mod fix;
 pub mod map;
