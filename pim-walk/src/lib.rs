@@ -221,6 +221,8 @@ fn routes(walk: Arc<Walk>) -> Router {
         .route("/map", get(get_map))
         .route("/reading", post(post_reading))
         .route("/undo", post(post_undo))
+        .route("/redo", post(post_redo))
+        .route("/toward", get(get_toward))
         .fallback(|| async { http::plain(StatusCode::NOT_FOUND, "not here") })
         .with_state(walk)
 }
@@ -257,8 +259,17 @@ async fn get_state(State(walk): State<Arc<Walk>>) -> Response {
     }
 }
 
-async fn get_map(State(walk): State<Arc<Walk>>) -> Response {
-    match blocking(move || state::map(&walk)).await {
+/// The walker's position from the request's query, or why it is refused.
+fn here(uri: &axum::http::Uri) -> Result<Option<state::Here>, String> {
+    state::here_of(uri.query().unwrap_or_default())
+}
+
+async fn get_map(State(walk): State<Arc<Walk>>, uri: axum::http::Uri) -> Response {
+    let here = match here(&uri) {
+        Ok(h) => h,
+        Err(why) => return http::plain(StatusCode::UNPROCESSABLE_ENTITY, &why),
+    };
+    match blocking(move || state::map(&walk, here)).await {
         Ok(Some(svg)) => (
             [(header::CONTENT_TYPE, "image/svg+xml; charset=utf-8")],
             svg,
@@ -280,8 +291,37 @@ async fn post_reading(State(walk): State<Arc<Walk>>, body: Body) -> Response {
     }
 }
 
-async fn post_undo(State(walk): State<Arc<Walk>>) -> Response {
-    match blocking(move || state::undo(&walk)).await {
+/// The walk from the walker's position (`lat`, `lon` of the query) to the next spot.
+async fn get_toward(State(walk): State<Arc<Walk>>, uri: axum::http::Uri) -> Response {
+    let here = match here(&uri) {
+        Ok(Some(h)) => h,
+        Ok(None) => return http::plain(StatusCode::UNPROCESSABLE_ENTITY, "give `lat` and `lon`"),
+        Err(why) => return http::plain(StatusCode::UNPROCESSABLE_ENTITY, &why),
+    };
+    match blocking(move || state::walk_to_next(&walk, here)).await {
+        Ok(Some(v)) => json_response(200, &v),
+        Ok(None) => http::plain(StatusCode::NOT_FOUND, "no next spot near this position"),
+        Err(r) => r,
+    }
+}
+
+async fn post_undo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    let bytes = match http::read_body(body).await {
+        Ok(b) => b,
+        Err(r) => return r,
+    };
+    match blocking(move || state::undo(&walk, &bytes)).await {
+        Ok((status, v)) => json_response(status, &v),
+        Err(r) => r,
+    }
+}
+
+async fn post_redo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    let bytes = match http::read_body(body).await {
+        Ok(b) => b,
+        Err(r) => return r,
+    };
+    match blocking(move || state::redo(&walk, &bytes)).await {
         Ok((status, v)) => json_response(status, &v),
         Err(r) => r,
     }
