@@ -194,6 +194,8 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     if std::env::var_os("PIM_UPDATE_DOCS").is_some() {
         browser.script("window.scrollTo(0, 0); document.activeElement.blur();");
         browser.screenshot(&docs.join("walk-390x844.png"));
+        browser.script("document.getElementById('fix').scrollIntoView(true);");
+        browser.screenshot(&docs.join("walk-map-390x844.png"));
     }
 
     // A position less accurate than 20 m asks before the reading is saved; waiting
