@@ -19,7 +19,7 @@ mod http;
 mod state;
 mod tls;
 
-use std::io::Write;
+use std::io::{IsTerminal, Write};
 use std::net::SocketAddr;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -181,12 +181,7 @@ pub fn serve(args: Config, fixer: Box<Fixer>) -> Result<(), Error> {
         );
         if let Some(identity) = &identity {
             // The QR code is ours (block characters only), printed unescaped.
-            eprintln!(
-                "{}",
-                code.render::<qrcode::render::unicode::Dense1x2>()
-                    .quiet_zone(true)
-                    .build()
-            );
+            eprintln!("{}", terminal_qr(&code, std::io::stderr().is_terminal()));
             note!(
                 "pim: HTTPS with the certificate in {}{}; SHA-256 fingerprint\n     {}\n     Accept it once on the phone after checking this fingerprint.",
                 identity.dir.display(),
@@ -327,6 +322,26 @@ async fn post_redo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
     }
 }
 
+/// The QR code for a terminal: block characters for the dark modules, two modules a
+/// character down, with its quiet zone. On a terminal each line is drawn black on white
+/// (ANSI SGR 30 and 107), so it scans the same on a dark or a light background;
+/// elsewhere (a file, a pipe) it is plain text, dark modules as blocks, for a light
+/// background.
+fn terminal_qr(code: &qrcode::QrCode, colour: bool) -> String {
+    let plain = code
+        .render::<qrcode::render::unicode::Dense1x2>()
+        .quiet_zone(true)
+        .build();
+    if !colour {
+        return plain;
+    }
+    plain
+        .lines()
+        .map(|l| format!("\x1b[30;107m{l}\x1b[0m"))
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
 /// A `--name` is a DNS host name (letters, digits, `-` and `.`), not an address.
 fn check_name(name: &str) -> Result<(), Error> {
     let ok = !name.is_empty()
@@ -357,4 +372,23 @@ fn new_token() -> Result<String, Error> {
     getrandom::fill(&mut bytes)
         .map_err(|e| Error::refused(format!("no random source for the access token: {e}")))?;
     Ok(bytes.iter().map(|b| format!("{b:02x}")).collect())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// On a terminal every line of the code is black on white and ends with a reset;
+    /// the modules are the plain rendering's.
+    #[test]
+    fn the_terminal_qr_code_is_dark_on_light() {
+        let code = qrcode::QrCode::new(b"https://192.0.2.7:8765/?token=00").unwrap();
+        let plain = terminal_qr(&code, false);
+        let coloured = terminal_qr(&code, true);
+        assert!(!plain.contains('\x1b'));
+        assert_eq!(coloured.lines().count(), plain.lines().count());
+        for (c, p) in coloured.lines().zip(plain.lines()) {
+            assert_eq!(c, format!("\x1b[30;107m{p}\x1b[0m"));
+        }
+    }
 }
