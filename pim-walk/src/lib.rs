@@ -275,15 +275,25 @@ async fn get_map(State(walk): State<Arc<Walk>>, uri: axum::http::Uri) -> Respons
     }
 }
 
-async fn post_reading(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+/// A form POST: its body read within the limits, then `work` on a worker thread; its
+/// status and JSON answered.
+async fn form_post(
+    walk: Arc<Walk>,
+    body: Body,
+    work: fn(&Walk, &[u8]) -> (u16, Value),
+) -> Response {
     let bytes = match http::read_body(body).await {
         Ok(b) => b,
         Err(r) => return r,
     };
-    match blocking(move || state::save(&walk, &bytes)).await {
+    match blocking(move || work(&walk, &bytes)).await {
         Ok((status, v)) => json_response(status, &v),
         Err(r) => r,
     }
+}
+
+async fn post_reading(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    form_post(walk, body, state::save).await
 }
 
 /// The walk from the walker's position (`lat`, `lon` of the query) to the next spot.
@@ -301,25 +311,11 @@ async fn get_toward(State(walk): State<Arc<Walk>>, uri: axum::http::Uri) -> Resp
 }
 
 async fn post_undo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
-    let bytes = match http::read_body(body).await {
-        Ok(b) => b,
-        Err(r) => return r,
-    };
-    match blocking(move || state::undo(&walk, &bytes)).await {
-        Ok((status, v)) => json_response(status, &v),
-        Err(r) => r,
-    }
+    form_post(walk, body, state::undo).await
 }
 
 async fn post_redo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
-    let bytes = match http::read_body(body).await {
-        Ok(b) => b,
-        Err(r) => return r,
-    };
-    match blocking(move || state::redo(&walk, &bytes)).await {
-        Ok((status, v)) => json_response(status, &v),
-        Err(r) => r,
-    }
+    form_post(walk, body, state::redo).await
 }
 
 /// The QR code for a terminal: block characters for the dark modules, two modules a

@@ -42,6 +42,20 @@ fn cells(row: &str) -> Vec<String> {
     out
 }
 
+/// Puts the phone at a position of `accuracy_m` and waits for the page to show it.
+fn phone_at(browser: &Browser, lat: f64, lon: f64, accuracy_m: u32) {
+    browser.cdp(
+        "Emulation.setGeolocationOverride",
+        json!({"latitude": lat, "longitude": lon, "accuracy": accuracy_m}),
+    );
+    browser.wait_for(
+        &format!(
+            "return document.getElementById('accuracy').textContent.indexOf('± {accuracy_m} m') >= 0;"
+        ),
+        "the phone's position on the page",
+    );
+}
+
 #[test]
 fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     let Some(browser) = Browser::phone(PHONE_PX) else {
@@ -200,14 +214,7 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
 
     // A position less accurate than 20 m asks before the reading is saved; waiting
     // saves nothing.
-    browser.cdp(
-        "Emulation.setGeolocationOverride",
-        json!({"latitude": 45.1040, "longitude": -122.4150, "accuracy": 35.0}),
-    );
-    browser.wait_for(
-        "return document.getElementById('accuracy').textContent.indexOf('± 35 m') >= 0;",
-        "the coarse position",
-    );
+    phone_at(&browser, 45.1040, -122.4150, 35);
     let before = std::fs::read(&log).unwrap();
     browser.type_into("#bearing_deg", "120\n");
     browser.wait_for(
@@ -221,14 +228,7 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         readings[5][1].parse().unwrap(),
         readings[5][2].parse().unwrap(),
     );
-    browser.cdp(
-        "Emulation.setGeolocationOverride",
-        json!({"latitude": lat, "longitude": lon, "accuracy": 4.0}),
-    );
-    browser.wait_for(
-        "return document.getElementById('accuracy').textContent.indexOf('± 4 m') >= 0;",
-        "the sharp position",
-    );
+    phone_at(&browser, lat, lon, 4);
 
     // A bad value is refused beside its field and writes nothing.
     let before = std::fs::read(&log).unwrap();
