@@ -8,12 +8,12 @@
 //! given by `--name`), and a write's Origin, when sent, must be the page's own.
 //!
 //! On a loopback address the page is served over plain HTTP; on any other (the site's
-//! network) over HTTPS only, with a certificate the server makes and keeps ([`tls`]),
+//! network) over HTTPS only, with a certificate the server makes and keeps (`tls`),
 //! since browsers give geolocation only to a secure context. The address is printed
 //! first on standard output, and as a QR code on the terminal (and `--qr FILE.svg`). Nothing but the log is written and nothing
-//! but the page is served. The HTTP layer and its limits are in [`http`]; what the page
-//! asks for in [`state`]. Ctrl-C lets the requests in hand finish (for at most
-//! [`http::SHUTDOWN_GRACE`]), so the log is always whole.
+//! but the page is served. The HTTP layer and its limits are in `http`; what the page
+//! asks for in `state`. Ctrl-C lets the requests in hand finish (for at most
+//! `http::SHUTDOWN_GRACE`), so the log is always whole.
 
 mod http;
 mod state;
