@@ -7,7 +7,8 @@
 //! `Emulation.setGeolocationOverride`) as it moves, and a position older than 15 s asks
 //! before a reading is saved with it; over plain HTTP under the same name (a loopback
 //! server) the browser gives no position and the page says how to get one. Skips where
-//! Chromium or chromedriver is not installed.
+//! Chromium or chromedriver is not installed. Without a browser: the next spot's
+//! cautions, the map with the walker and the walk from the walker's position.
 
 use std::io::{BufRead, BufReader};
 use std::path::Path;
@@ -153,4 +154,89 @@ fn the_page_follows_the_phone_over_https_and_says_how_without() {
         help.contains("Type the position") && help.contains("pim fix --track"),
         "{help}"
     );
+}
+
+/// What the page asks of the server for a phone, without a browser: the next spot (the
+/// only candidate, 40 m north of the demo's guyed tower, whose highest antenna is at
+/// 46 m) carries the tower's caution; the map with the phone's position shows it and
+/// names the readings by number and time; positions out of range are refused; the walk
+/// to the next spot is from the position sent.
+#[test]
+fn the_next_spot_near_a_tower_carries_its_caution_and_the_map_its_walker() {
+    let tmp = scratch();
+    let log = tmp.path().join("walk.csv");
+    std::fs::copy(crate::support::field_log("walk.csv"), &log).unwrap();
+    let candidates = tmp.path().join("spots.csv");
+    std::fs::write(&candidates, "id,lat,lon\nBY-TOWER,45.104980,-122.414033\n").unwrap();
+    let mut child = Command::new(pim_bin())
+        .args(["walk", "--log"])
+        .arg(&log)
+        .arg("--structures")
+        .arg(crate::support::field_log("structures.csv"))
+        .arg("--emitters")
+        .arg(crate::support::field_log("emitters.csv"))
+        .arg("--candidates")
+        .arg(&candidates)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut first = String::new();
+    BufReader::new(child.stdout.take().unwrap())
+        .read_line(&mut first)
+        .unwrap();
+    let _walk = Process(child);
+    let page = first.trim().to_string();
+    let (origin, token) = page.split_once("/?token=").unwrap();
+    let agent = ureq::AgentBuilder::new()
+        .timeout(std::time::Duration::from_secs(60))
+        .build();
+    let get = |path: &str| {
+        crate::browser::http(
+            agent.get(&format!(
+                "{origin}{path}{}token={token}",
+                if path.contains('?') { "&" } else { "?" }
+            )),
+            None,
+        )
+    };
+    let (status, body) = get("/state");
+    assert_eq!(status, 200, "{body}");
+    let state: serde_json::Value = serde_json::from_str(&body).unwrap();
+    let next = &state["next"];
+    assert_eq!(next["name"], "BY-TOWER", "{next}");
+    let caution = &next["cautions"][0];
+    assert_eq!(caution["id"], "OLD-TWR", "{next}");
+    assert_eq!(caution["reach_m"], 46.0, "{next}");
+    assert_eq!(caution["rule"], "height", "{next}");
+    assert!(
+        next["walk"]["from"].as_str().unwrap().starts_with("#8 "),
+        "{next}"
+    );
+    assert_eq!(state["last"]["name"], next["walk"]["from"], "{state}");
+
+    let (status, svg) = get("/map?lat=45.1040&lon=-122.4150&acc=8");
+    assert_eq!(status, 200, "{svg}");
+    assert!(
+        svg.contains("you are here") && svg.contains("#8 10:22"),
+        "{svg}"
+    );
+    for bad in [
+        "lat=91&lon=0",
+        "lat=45.1",
+        "lat=45.1&lon=-122.4&acc=-1",
+        "lat=x&lon=1",
+    ] {
+        assert_eq!(get(&format!("/map?{bad}")).0, 422, "{bad}");
+    }
+    assert_eq!(
+        get("/map?lat=0&lon=0").0,
+        404,
+        "a position far from the fix"
+    );
+    let (status, body) = get("/toward?lat=45.1040&lon=-122.4150");
+    assert_eq!(status, 200, "{body}");
+    let toward: serde_json::Value = serde_json::from_str(&body).unwrap();
+    let d = toward["distance_m"].as_f64().unwrap();
+    assert!((50.0..300.0).contains(&d), "{toward}");
 }
