@@ -838,7 +838,9 @@ mod accuracy_tests {
         let text = std::fs::read_to_string(&new).unwrap();
         assert_eq!(
             text,
-            format!("{LOG_HEADER_WITH_ACCURACY}\n2026-11-28T09:10:00Z,45.1,-122.4,4.5,10,true,,,\n")
+            format!(
+                "{LOG_HEADER_WITH_ACCURACY}\n2026-11-28T09:10:00Z,45.1,-122.4,4.5,10,true,,,\n"
+            )
         );
         let log = read_field_log("new.csv", text.as_bytes(), false).unwrap();
         assert_eq!(log.rows[0].accuracy_m, Some(4.5));

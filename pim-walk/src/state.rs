@@ -381,14 +381,14 @@ pub fn undo(walk: &Walk, body: &[u8]) -> (u16, Value) {
     let mut undone = walk.undone.lock().unwrap_or_else(|p| p.into_inner());
     match remove_last_row_if(&walk.log, Some((expected.0, &expected.1))) {
         Ok(removed) => {
-            let answer = json!({"removed": {"line": removed.line, "row": removed.row}});
+            let taken = json!({"line": removed.line, "row": removed.row});
             undone.push(removed);
             let redo = redo_json(&undone);
             drop(undone);
-            let mut answer = answer;
-            answer["redo"] = redo;
-            answer["state"] = small_state(walk);
-            (200, answer)
+            (
+                200,
+                json!({"removed": taken, "redo": redo, "state": small_state(walk)}),
+            )
         }
         Err(e) => (409, json!({"error": form_error_json(&e)})),
     }
