@@ -206,6 +206,8 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         .text("#residuals tbody tr:first-child td:first-child")
         .starts_with("#1 "));
     if std::env::var_os("PIM_UPDATE_DOCS").is_some() {
+        // the form once the cautions are acknowledged (walk-page.png shows them)
+        browser.click("#cautions-ok");
         browser.script("window.scrollTo(0, 0); document.activeElement.blur();");
         browser.screenshot(&docs.join("walk-390x844.png"));
         browser.script("document.getElementById('fix').scrollIntoView(true);");
