@@ -19,12 +19,12 @@ use serde_json::json;
 use crate::browser::{Browser, Process, PHONE_PX};
 use crate::support::{pim_bin, scratch};
 
-/// `pim walk` on `listen` with the name walk.test: the process and the page's address
-/// under that name.
-fn start(log: &Path, listen: &str) -> (Process, String) {
+/// `pim walk --log LOG` with `args`: the process and the address it printed first.
+fn start(log: &Path, args: &[String]) -> (Process, String) {
     let mut child = Command::new(pim_bin())
-        .args(["walk", "--listen", listen, "--name", "walk.test", "--log"])
+        .args(["walk", "--log"])
         .arg(log)
+        .args(args)
         .stdout(Stdio::piped())
         .stderr(Stdio::null())
         .spawn()
@@ -33,14 +33,18 @@ fn start(log: &Path, listen: &str) -> (Process, String) {
     let mut url = String::new();
     stdout.read_line(&mut url).unwrap();
     std::thread::spawn(move || std::io::copy(&mut stdout, &mut std::io::sink()));
-    let url = url.trim().to_string();
+    (Process(child), url.trim().to_string())
+}
+
+/// `pim walk` on `listen` with the name walk.test: the process and the page's address
+/// under that name.
+fn start_named(log: &Path, listen: &str) -> (Process, String) {
+    let args = ["--listen", listen, "--name", "walk.test"].map(String::from);
+    let (process, url) = start(log, &args);
     let (scheme, rest) = url.split_once("://").unwrap();
     let (authority, path) = rest.split_once('/').unwrap();
     let port = authority.rsplit(':').next().unwrap();
-    (
-        Process(child),
-        format!("{scheme}://walk.test:{port}/{path}"),
-    )
+    (process, format!("{scheme}://walk.test:{port}/{path}"))
 }
 
 #[test]
@@ -55,7 +59,7 @@ fn the_page_follows_the_phone_over_https_and_says_how_without() {
     let tmp = scratch();
     let log = tmp.path().join("walk.csv");
 
-    let (_https, page) = start(&log, "0.0.0.0:0");
+    let (_https, page) = start_named(&log, "0.0.0.0:0");
     assert!(page.starts_with("https://walk.test:"), "{page}");
     let origin = page.split("/?").next().unwrap().to_string();
     browser.cdp(
@@ -138,7 +142,7 @@ fn the_page_follows_the_phone_over_https_and_says_how_without() {
     // Over plain HTTP under the same name the page is no secure context: it says how
     // to get a position.
     let plain_log = tmp.path().join("plain.csv");
-    let (_http, plain) = start(&plain_log, "127.0.0.1:0");
+    let (_http, plain) = start_named(&plain_log, "127.0.0.1:0");
     assert!(plain.starts_with("http://walk.test:"), "{plain}");
     browser.call("POST", "/url", Some(json!({ "url": plain })));
     browser.wait_for(
@@ -168,25 +172,16 @@ fn the_next_spot_near_a_tower_carries_its_caution_and_the_map_its_walker() {
     std::fs::copy(crate::support::field_log("walk.csv"), &log).unwrap();
     let candidates = tmp.path().join("spots.csv");
     std::fs::write(&candidates, "id,lat,lon\nBY-TOWER,45.104980,-122.414033\n").unwrap();
-    let mut child = Command::new(pim_bin())
-        .args(["walk", "--log"])
-        .arg(&log)
-        .arg("--structures")
-        .arg(crate::support::field_log("structures.csv"))
-        .arg("--emitters")
-        .arg(crate::support::field_log("emitters.csv"))
-        .arg("--candidates")
-        .arg(&candidates)
-        .stdout(Stdio::piped())
-        .stderr(Stdio::null())
-        .spawn()
-        .unwrap();
-    let mut first = String::new();
-    BufReader::new(child.stdout.take().unwrap())
-        .read_line(&mut first)
-        .unwrap();
-    let _walk = Process(child);
-    let page = first.trim().to_string();
+    let field = |name: &str| crate::support::field_log(name).display().to_string();
+    let args = [
+        "--structures".to_string(),
+        field("structures.csv"),
+        "--emitters".to_string(),
+        field("emitters.csv"),
+        "--candidates".to_string(),
+        candidates.display().to_string(),
+    ];
+    let (_walk, page) = start(&log, &args);
     let (origin, token) = page.split_once("/?token=").unwrap();
     let agent = ureq::AgentBuilder::new()
         .timeout(std::time::Duration::from_secs(60))
