@@ -31,10 +31,10 @@ pub struct Args {
     #[arg(long, value_name = "FILE")]
     pub log: Option<PathBuf>,
     /// Take back the last reading of the log (it is printed) instead of adding one.
-    #[arg(long, conflicts_with_all = ["list", "lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "setup", "note", "time"])]
+    #[arg(long, conflicts_with_all = ["list", "lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "setup", "note", "time", "accuracy_m"])]
     pub undo: bool,
     /// List the readings with their residuals at the running fix instead of adding one.
-    #[arg(long, conflicts_with_all = ["lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "setup", "note", "time"])]
+    #[arg(long, conflicts_with_all = ["lat", "lon", "bearing_deg", "reading_sigma_deg", "level_dbm", "setup", "note", "time", "accuracy_m"])]
     pub list: bool,
     /// Latitude of the spot: degrees (45.1046), degrees and minutes (45°06.275'N) or
     /// degrees, minutes and seconds (45 06 16.5 N).
@@ -62,6 +62,10 @@ pub struct Args {
     /// attenuator or gain gets a name of its own. A new log gets the column.
     #[arg(long, value_name = "NAME", requires = "level_dbm")]
     pub setup: Option<String>,
+    /// The position's accuracy, metres (95 % radius, as a phone's geolocation gives it;
+    /// the log's `accuracy_m` column, added to a new log).
+    #[arg(long, value_name = "M", allow_hyphen_values = true)]
+    pub accuracy_m: Option<String>,
     /// A note (where, what was seen).
     #[arg(long)]
     pub note: Option<String>,
@@ -180,6 +184,8 @@ pub fn run(args: Args) -> CliResult {
             setup: args.setup.clone(),
             note: args.note.clone(),
             time,
+            accuracy_m: number_of(&args.accuracy_m, "m", "--accuracy-m")?,
+            accuracy_where_logged: false,
         };
         let appended = save_reading(&file, &reading, &option_of)?;
         writeln!(

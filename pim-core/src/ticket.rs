@@ -257,6 +257,93 @@ pub fn inspection_points(kind: Option<&str>) -> &'static [&'static str] {
     }
 }
 
+/// An emitter's antenna within this many metres of a structure is taken as mounted on
+/// it (our choice: the spread of a site survey's positions).
+pub const MOUNTED_WITHIN_M: f64 = 5.0;
+/// The reach of a structure whose height is not known, metres (our choice: a margin
+/// around a hut, a fence or an anchor, not a fall zone).
+pub const REACH_WITHOUT_HEIGHT_M: f64 = 10.0;
+
+/// A structure a spot lies within reach of.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct InReach {
+    /// The structure's id.
+    pub id: String,
+    /// What it is, as its file says.
+    pub kind: Option<String>,
+    /// From the spot to the structure, metres.
+    pub distance_m: f64,
+    /// How far the structure's reach goes, metres.
+    pub reach_m: f64,
+    /// Where the reach comes from.
+    pub rule: ReachRule,
+}
+
+/// What a structure's reach rests on.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ReachRule {
+    /// Its height: the highest antenna mounted on it (a structure is at least as tall
+    /// as what it carries), or its guy radius (the furthest guy anchor listed within
+    /// that height) when that is further.
+    Height,
+    /// No height known: [`REACH_WITHOUT_HEIGHT_M`].
+    Margin,
+}
+
+/// The structures `spot` lies within reach of, nearest first. A structure's reach is
+/// its height, taken as the highest antenna mounted on it (emitters within
+/// [`MOUNTED_WITHIN_M`]), or its guy radius (the furthest structure whose kind names a
+/// guy, within that height) when further; a structure of unknown height reaches
+/// [`REACH_WITHOUT_HEIGHT_M`]. A tower's fall zone is its height (common practice).
+pub fn structures_in_reach(
+    spot: GeoPoint,
+    structures: &[Structure],
+    emitters: &[Emitter],
+) -> Vec<InReach> {
+    let mut out: Vec<InReach> = structures
+        .iter()
+        .filter_map(|s| {
+            let height = emitters
+                .iter()
+                .filter_map(|e| Some((e.position?, e.height_m?)))
+                .filter(|(p, h)| {
+                    h.is_finite()
+                        && *h > 0.0
+                        && distance_and_azimuth(*p, s.position).0 <= MOUNTED_WITHIN_M
+                })
+                .map(|(_, h)| h)
+                .fold(None, |m: Option<f64>, h| Some(m.map_or(h, |m| m.max(h))));
+            let (reach_m, rule) = match height {
+                Some(h) => {
+                    let guys = structures
+                        .iter()
+                        .filter(|g| {
+                            g.kind
+                                .as_deref()
+                                .is_some_and(|k| k.to_ascii_lowercase().contains("guy"))
+                        })
+                        .map(|g| distance_and_azimuth(g.position, s.position).0)
+                        .filter(|d| *d <= h)
+                        .fold(0.0, f64::max);
+                    (h.max(guys), ReachRule::Height)
+                }
+                None => (REACH_WITHOUT_HEIGHT_M, ReachRule::Margin),
+            };
+            let distance_m = distance_and_azimuth(spot, s.position).0;
+            (distance_m <= reach_m).then(|| InReach {
+                id: s.id.clone(),
+                kind: s.kind.clone(),
+                distance_m,
+                reach_m,
+                rule,
+            })
+        })
+        .collect();
+    out.sort_by(|a, b| a.distance_m.total_cmp(&b.distance_m));
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -313,5 +400,42 @@ mod tests {
             power_step_doubt(&implausible, &params),
             Some(PowerStepDoubt::Implausible)
         );
+    }
+
+    /// A tower carrying an antenna at 46 m reaches 46 m; a hut of unknown height 10 m.
+    #[test]
+    fn a_spot_within_a_structures_reach() {
+        let tower = GeoPoint::new(45.104620, -122.414033);
+        let structure = |id: &str, p: GeoPoint, kind: &str| Structure {
+            id: id.into(),
+            position: p,
+            kind: Some(kind.into()),
+            note: None,
+            line: 2,
+        };
+        let hut = GeoPoint::new(45.104548, -122.414033);
+        let structures = [
+            structure("TWR", tower, "guyed tower"),
+            structure("HUT", hut, "equipment hut"),
+        ];
+        let mut e = Emitter::new("R", crate::freq::Hz(146_940_000), crate::freq::Hz(16_000));
+        e.position = Some(tower);
+        e.height_m = Some(46.0);
+        // 40 m north of the tower: within its 46 m, 48 m from the hut
+        let spot = GeoPoint::new(45.104620 + 40.0 / 111_140.0, -122.414033);
+        let near = structures_in_reach(spot, &structures, &[e.clone()]);
+        assert_eq!(near.len(), 1, "{near:?}");
+        assert_eq!(
+            (near[0].id.as_str(), near[0].reach_m, near[0].rule),
+            ("TWR", 46.0, ReachRule::Height)
+        );
+        // 60 m away: out of reach; beside the hut: the hut's margin and the tower
+        let far = GeoPoint::new(45.104620 + 60.0 / 111_140.0, -122.414033);
+        assert!(structures_in_reach(far, &structures, &[e.clone()]).is_empty());
+        let ids: Vec<String> = structures_in_reach(hut, &structures, &[e])
+            .into_iter()
+            .map(|r| r.id)
+            .collect();
+        assert_eq!(ids, ["HUT", "TWR"]);
     }
 }

@@ -281,6 +281,63 @@ pub struct Removed {
     pub line: u64,
     /// The row as it stood, without its line end.
     pub row: String,
+    /// The row's exact bytes with its line end, as they stood in the file (what
+    /// [`restore_row`] puts back).
+    pub bytes: Vec<u8>,
+}
+
+/// Where the last row of a log's text lies: its index among the lines, its byte range
+/// without the line end, and where the line after it starts. `None` when there is no
+/// row under the header.
+fn last_row_span(text: &[u8]) -> Option<(usize, usize, usize, usize)> {
+    // Lines with their byte ranges, in any line end (LF, CRLF or a lone CR), and where
+    // the next line starts.
+    let mut lines: Vec<(usize, usize, usize)> = Vec::new();
+    let mut start = 0;
+    let mut i = 0;
+    while i < text.len() {
+        if matches!(text[i], b'\n' | b'\r') {
+            let end = i;
+            i += if text[i] == b'\r' && text.get(i + 1) == Some(&b'\n') {
+                2
+            } else {
+                1
+            };
+            lines.push((start, end, i));
+            start = i;
+        } else {
+            i += 1;
+        }
+    }
+    if start < text.len() {
+        lines.push((start, text.len(), text.len()));
+    }
+    let is_row = |&(a, b, _): &(usize, usize, usize)| {
+        let t = text[a..b].trim_ascii();
+        let t = t.strip_prefix(b"\xef\xbb\xbf").unwrap_or(t);
+        !t.is_empty() && !t.starts_with(b"#")
+    };
+    // The header (the first line that is neither blank nor a comment) is never taken.
+    let header = lines.iter().position(is_row);
+    let last = lines.iter().rposition(is_row);
+    match (header, last) {
+        (Some(h), Some(l)) if l > h => Some((l, lines[l].0, lines[l].1, lines[l].2)),
+        _ => None,
+    }
+}
+
+/// The last row of a log's text (what [`remove_last_row`] would take), if any.
+pub fn last_row(text: &[u8]) -> Option<Removed> {
+    let (index, start, end, next) = last_row_span(text)?;
+    Some(row_at(text, index, start, end, next))
+}
+
+fn row_at(text: &[u8], index: usize, start: usize, end: usize, next: usize) -> Removed {
+    Removed {
+        line: index as u64 + 1,
+        row: String::from_utf8_lossy(&text[start..end]).to_string(),
+        bytes: text[start..next].to_vec(),
+    }
 }
 
 /// Takes the last row out of the log at `path` under the exclusive lock and returns it.
@@ -288,6 +345,13 @@ pub struct Removed {
 /// renamed over the log, so the log is whole at every moment. Refuses a log whose last
 /// row has no line end (it may be torn) and one with no row under its header.
 pub fn remove_last_row(path: &Path) -> Result<Removed> {
+    remove_last_row_if(path, None)
+}
+
+/// [`remove_last_row`], refused (and nothing changed) unless the last row is still
+/// `expected` (its line and text, as seen when the walker asked): a second tap, or a
+/// reading added meanwhile, takes nothing.
+pub fn remove_last_row_if(path: &Path, expected: Option<(u64, &str)>) -> Result<Removed> {
     let mut file = open_locked(path, false)?;
     let source = path.display().to_string();
     let mut text = Vec::new();
@@ -298,40 +362,19 @@ pub fn remove_last_row(path: &Path) -> Result<Removed> {
             "the last row has no line end: it may be torn by an interrupted write; mend it before taking a reading back",
         ));
     }
-    // Lines with their byte ranges, in any line end (LF, CRLF or a lone CR).
-    let mut lines: Vec<(usize, usize)> = Vec::new();
-    let mut start = 0;
-    let mut i = 0;
-    while i < text.len() {
-        if matches!(text[i], b'\n' | b'\r') {
-            lines.push((start, i));
-            i += if text[i] == b'\r' && text.get(i + 1) == Some(&b'\n') {
-                2
-            } else {
-                1
-            };
-            start = i;
-        } else {
-            i += 1;
+    let Some((index, start, end, after)) = last_row_span(&text) else {
+        return Err(Error::refused(format!(
+            "{source} has no reading to take back"
+        )));
+    };
+    let removed = row_at(&text, index, start, end, after);
+    if let Some((line, row)) = expected {
+        if removed.line != line || removed.row != row {
+            return Err(Error::refused(format!(
+                "the last reading of {source} is no longer the one on line {line} (taken back already, or another reading was saved); nothing was taken back"
+            )));
         }
     }
-    let is_row = |&(a, b): &(usize, usize)| {
-        let t = text[a..b].trim_ascii();
-        let t = t.strip_prefix(b"\xef\xbb\xbf").unwrap_or(t);
-        !t.is_empty() && !t.starts_with(b"#")
-    };
-    // The header (the first line that is neither blank nor a comment) is never taken.
-    let header = lines.iter().position(is_row);
-    let last = lines.iter().rposition(is_row);
-    let (index, (start, end)) = match (header, last) {
-        (Some(h), Some(l)) if l > h => (l, lines[l]),
-        _ => {
-            return Err(Error::refused(format!(
-                "{source} has no reading to take back"
-            )))
-        }
-    };
-    let row = String::from_utf8_lossy(&text[start..end]).to_string();
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => Path::new("."),
@@ -339,7 +382,6 @@ pub fn remove_last_row(path: &Path) -> Result<Removed> {
     let mut temp = tempfile::NamedTempFile::new_in(dir).map_err(|e| io_err(path, &e))?;
     let permissions = file.metadata().map_err(|e| io_err(path, &e))?.permissions();
     // blank and comment lines after the row stay
-    let after = lines.get(index + 1).map_or(text.len(), |l| l.0);
     temp.write_all(&text[..start])
         .and_then(|_| temp.write_all(&text[after..]))
         .and_then(|_| temp.as_file().set_permissions(permissions))
@@ -350,9 +392,42 @@ pub fn remove_last_row(path: &Path) -> Result<Removed> {
         let _ = d.sync_all();
     }
     let _ = file.unlock();
-    Ok(Removed {
-        line: index as u64 + 1,
-        row,
+    Ok(removed)
+}
+
+/// Puts a row taken back ([`Removed::bytes`]) at the end of the log again, byte for
+/// byte, in one write under the exclusive lock, as [`append_row`] does. Refuses a log
+/// that is missing, has no header or whose last row has no line end.
+pub fn restore_row(path: &Path, bytes: &[u8]) -> Result<Appended> {
+    let mut file = open_locked(path, false)?;
+    let shape = inspect(&mut file, path)?;
+    let source = path.display().to_string();
+    if shape.header.is_none() {
+        return Err(Error::input(
+            Place::new(source),
+            "the log has no header line; the reading cannot be put back",
+        ));
+    }
+    if !shape.ends_with_line_end {
+        return Err(Error::input(
+            Place::new(source).at_line(shape.lines),
+            "the last row has no line end: it may be torn by an interrupted write; mend it before putting a reading back",
+        ));
+    }
+    let before = file.metadata().map_err(|e| io_err(path, &e))?.len();
+    if let Err(e) = file
+        .seek(SeekFrom::End(0))
+        .and_then(|_| file.write_all(bytes))
+        .and_then(|_| file.sync_data())
+    {
+        let _ = file.set_len(before);
+        let _ = file.sync_data();
+        return Err(io_err(path, &e));
+    }
+    let _ = file.unlock();
+    Ok(Appended {
+        created: false,
+        line: shape.lines + 1,
     })
 }
 
@@ -406,7 +481,8 @@ mod tests {
             removed,
             Removed {
                 line: 3,
-                row: "2026-11-30T10:05:00Z,51.6,-2.6,20".into()
+                row: "2026-11-30T10:05:00Z,51.6,-2.6,20".into(),
+                bytes: b"2026-11-30T10:05:00Z,51.6,-2.6,20\n".to_vec(),
             }
         );
         assert_eq!(
@@ -490,5 +566,24 @@ mod tests {
         let text = std::fs::read_to_string(&path).unwrap();
         let kept = text.lines().skip(1).count();
         assert_eq!(kept + removed.lock().unwrap().len(), 81);
+    }
+
+    /// A row taken back goes back byte for byte; a stale undo (a second tap) takes
+    /// nothing.
+    #[test]
+    fn a_row_taken_back_is_restored_byte_for_byte() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("walk.csv");
+        let text = "h\r\n1,2\r\n3,\"a \"\"b\"\"\"\r\n";
+        std::fs::write(&path, text).unwrap();
+        let seen = last_row(text.as_bytes()).unwrap();
+        assert_eq!(seen.line, 3);
+        let removed = remove_last_row_if(&path, Some((seen.line, &seen.row))).unwrap();
+        assert_eq!(removed, seen);
+        let again = remove_last_row_if(&path, Some((seen.line, &seen.row))).unwrap_err();
+        assert_eq!(again.class, pim_core::ErrorClass::Refused);
+        assert_eq!(std::fs::read_to_string(&path).unwrap(), "h\r\n1,2\r\n");
+        assert_eq!(restore_row(&path, &removed.bytes).unwrap().line, 3);
+        assert_eq!(std::fs::read_to_string(&path).unwrap(), text);
     }
 }

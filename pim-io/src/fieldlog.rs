@@ -56,6 +56,14 @@ pub const LOG_HEADER: &str = "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm
 pub const LOG_HEADER_WITH_SETUP: &str =
     "time,lat,lon,bearing_deg,north,sigma_deg,level_dbm,setup,note";
 
+/// The header a new log gets when its first reading has a position accuracy.
+pub const LOG_HEADER_WITH_ACCURACY: &str =
+    "time,lat,lon,accuracy_m,bearing_deg,north,sigma_deg,level_dbm,note";
+
+/// The header a new log gets when its first reading has both.
+const LOG_HEADER_WITH_ACCURACY_AND_SETUP: &str =
+    "time,lat,lon,accuracy_m,bearing_deg,north,sigma_deg,level_dbm,setup,note";
+
 /// Which north a bearing is measured from.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
@@ -389,6 +397,13 @@ pub struct ReadingText {
     pub note: Option<String>,
     /// ISO 8601; now (UTC, whole seconds) when `None`.
     pub time: Option<String>,
+    /// The position's 95 % radius in metres (the W3C Geolocation API's `accuracy`); a
+    /// new log given one gets an `accuracy_m` column.
+    pub accuracy_m: Option<String>,
+    /// The accuracy is saved only where the log has an `accuracy_m` column (or is new),
+    /// and left out of a log without one (the walk page, which measures it unasked);
+    /// when false such a log refuses it, naming the column (`pim log --accuracy-m`).
+    pub accuracy_where_logged: bool,
 }
 
 /// Checks a reading exactly as the log reader will and appends it to the log under the
@@ -407,10 +422,11 @@ pub fn save_reading(
         .clone()
         .unwrap_or_else(|| now.format(&Rfc3339).unwrap_or_default());
     let text = |v: &Option<String>| v.clone().unwrap_or_default();
-    const COLUMNS: [&str; 9] = [
+    const COLUMNS: [&str; 10] = [
         "time",
         "lat",
         "lon",
+        "accuracy_m",
         "bearing_deg",
         "north",
         "sigma_deg",
@@ -423,6 +439,7 @@ pub fn save_reading(
             ("time", time),
             ("lat", text(&reading.lat)),
             ("lon", text(&reading.lon)),
+            ("accuracy_m", text(&reading.accuracy_m)),
             ("bearing_deg", reading.bearing_deg.clone()),
             (
                 "north",
@@ -467,11 +484,15 @@ pub fn save_reading(
     if reading.north == North::True {
         droppable.push("north");
     }
-    // a new log has the setup column when its first reading names one
-    let new_header = if reading.setup.is_some() {
-        LOG_HEADER_WITH_SETUP
-    } else {
-        LOG_HEADER
+    if reading.accuracy_where_logged {
+        droppable.push("accuracy_m");
+    }
+    // a new log has the setup and accuracy columns when its first reading has them
+    let new_header = match (reading.accuracy_m.is_some(), reading.setup.is_some()) {
+        (false, false) => LOG_HEADER,
+        (false, true) => LOG_HEADER_WITH_SETUP,
+        (true, false) => LOG_HEADER_WITH_ACCURACY,
+        (true, true) => LOG_HEADER_WITH_ACCURACY_AND_SETUP,
     };
     append_row(file, new_header, &|header, _delimiter| {
         entry.cells_for_header(header, &source, &droppable)
@@ -820,5 +841,81 @@ mod note_round_trip {
         let log = format!("{LOG_HEADER}\n,45.1,-122.4,10,true,,,bell\u{7}\n");
         let e = read_field_log("t.csv", log.as_bytes(), false).unwrap_err();
         assert_eq!(e.place.unwrap().field.as_deref(), Some("note"));
+    }
+}
+
+#[cfg(test)]
+mod accuracy_tests {
+    use super::*;
+
+    fn reading(accuracy: Option<&str>, where_logged: bool) -> ReadingText {
+        ReadingText {
+            lat: Some("45.1".into()),
+            lon: Some("-122.4".into()),
+            bearing_deg: "10".into(),
+            north: North::True,
+            sigma_deg: None,
+            level_dbm: None,
+            setup: None,
+            note: None,
+            time: Some("2026-11-28T09:10:00Z".into()),
+            accuracy_m: accuracy.map(str::to_string),
+            accuracy_where_logged: where_logged,
+        }
+    }
+
+    /// A new log given an accuracy gets the column and reads it back; a log without the
+    /// column leaves it out only where asked, and otherwise refuses it naming the column.
+    #[test]
+    fn the_accuracy_goes_where_the_log_has_its_column() {
+        let dir = tempfile::tempdir().unwrap();
+        let new = dir.path().join("new.csv");
+        save_reading(&new, &reading(Some("4.5"), true), &|c| c.to_string()).unwrap();
+        let text = std::fs::read_to_string(&new).unwrap();
+        assert_eq!(
+            text,
+            format!(
+                "{LOG_HEADER_WITH_ACCURACY}\n2026-11-28T09:10:00Z,45.1,-122.4,4.5,10,true,,,\n"
+            )
+        );
+        let log = read_field_log("new.csv", text.as_bytes(), false).unwrap();
+        assert_eq!(log.rows[0].accuracy_m, Some(4.5));
+
+        let old = dir.path().join("old.csv");
+        std::fs::write(&old, format!("{LOG_HEADER}\n")).unwrap();
+        save_reading(&old, &reading(Some("4.5"), true), &|c| c.to_string()).unwrap();
+        assert_eq!(
+            std::fs::read_to_string(&old).unwrap(),
+            format!("{LOG_HEADER}\n2026-11-28T09:10:00Z,45.1,-122.4,10,true,,,\n")
+        );
+        let e =
+            save_reading(&old, &reading(Some("4.5"), false), &|c| format!("--{c}")).unwrap_err();
+        assert!(e.to_string().contains("no `accuracy_m` column"), "{e}");
+        // checked as the reader checks it
+        let e = save_reading(&new, &reading(Some("-1"), true), &|c| c.to_string()).unwrap_err();
+        assert!(e.to_string().contains("must not be negative"), "{e}");
+    }
+
+    /// A new log whose first reading has both an accuracy and a level's setup gets both
+    /// columns, and reads them back.
+    #[test]
+    fn a_new_log_gets_the_accuracy_and_setup_columns_together() {
+        let dir = tempfile::tempdir().unwrap();
+        let new = dir.path().join("both.csv");
+        let both = ReadingText {
+            level_dbm: Some("-120".into()),
+            setup: Some("yagi-20dB".into()),
+            ..reading(Some("4.5"), false)
+        };
+        save_reading(&new, &both, &|c| c.to_string()).unwrap();
+        let text = std::fs::read_to_string(&new).unwrap();
+        assert_eq!(
+            text,
+            format!(
+                "{LOG_HEADER_WITH_ACCURACY_AND_SETUP}\n2026-11-28T09:10:00Z,45.1,-122.4,4.5,10,true,,-120,yagi-20dB,\n"
+            )
+        );
+        let log = read_field_log("both.csv", text.as_bytes(), false).unwrap();
+        assert_eq!(log.rows[0].accuracy_m, Some(4.5));
     }
 }

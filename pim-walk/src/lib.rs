@@ -8,18 +8,18 @@
 //! given by `--name`), and a write's Origin, when sent, must be the page's own.
 //!
 //! On a loopback address the page is served over plain HTTP; on any other (the site's
-//! network) over HTTPS only, with a certificate the server makes and keeps ([`tls`]),
+//! network) over HTTPS only, with a certificate the server makes and keeps (`tls`),
 //! since browsers give geolocation only to a secure context. The address is printed
 //! first on standard output, and as a QR code on the terminal (and `--qr FILE.svg`). Nothing but the log is written and nothing
-//! but the page is served. The HTTP layer and its limits are in [`http`]; what the page
-//! asks for in [`state`]. Ctrl-C lets the requests in hand finish (for at most
-//! [`http::SHUTDOWN_GRACE`]), so the log is always whole.
+//! but the page is served. The HTTP layer and its limits are in `http`; what the page
+//! asks for in `state`. Ctrl-C lets the requests in hand finish (for at most
+//! `http::SHUTDOWN_GRACE`), so the log is always whole.
 
 mod http;
 mod state;
 mod tls;
 
-use std::io::Write;
+use std::io::{IsTerminal, Write};
 use std::net::SocketAddr;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -181,12 +181,7 @@ pub fn serve(args: Config, fixer: Box<Fixer>) -> Result<(), Error> {
         );
         if let Some(identity) = &identity {
             // The QR code is ours (block characters only), printed unescaped.
-            eprintln!(
-                "{}",
-                code.render::<qrcode::render::unicode::Dense1x2>()
-                    .quiet_zone(true)
-                    .build()
-            );
+            eprintln!("{}", terminal_qr(&code, std::io::stderr().is_terminal()));
             note!(
                 "pim: HTTPS with the certificate in {}{}; SHA-256 fingerprint\n     {}\n     Accept it once on the phone after checking this fingerprint.",
                 identity.dir.display(),
@@ -221,6 +216,8 @@ fn routes(walk: Arc<Walk>) -> Router {
         .route("/map", get(get_map))
         .route("/reading", post(post_reading))
         .route("/undo", post(post_undo))
+        .route("/redo", post(post_redo))
+        .route("/toward", get(get_toward))
         .fallback(|| async { http::plain(StatusCode::NOT_FOUND, "not here") })
         .with_state(walk)
 }
@@ -257,8 +254,17 @@ async fn get_state(State(walk): State<Arc<Walk>>) -> Response {
     }
 }
 
-async fn get_map(State(walk): State<Arc<Walk>>) -> Response {
-    match blocking(move || state::map(&walk)).await {
+/// The walker's position from the request's query, or why it is refused.
+fn here(uri: &axum::http::Uri) -> Result<Option<state::Here>, String> {
+    state::here_of(uri.query().unwrap_or_default())
+}
+
+async fn get_map(State(walk): State<Arc<Walk>>, uri: axum::http::Uri) -> Response {
+    let here = match here(&uri) {
+        Ok(h) => h,
+        Err(why) => return http::plain(StatusCode::UNPROCESSABLE_ENTITY, &why),
+    };
+    match blocking(move || state::map(&walk, here)).await {
         Ok(Some(svg)) => (
             [(header::CONTENT_TYPE, "image/svg+xml; charset=utf-8")],
             svg,
@@ -269,22 +275,67 @@ async fn get_map(State(walk): State<Arc<Walk>>) -> Response {
     }
 }
 
-async fn post_reading(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+/// A form POST: its body read within the limits, then `work` on a worker thread; its
+/// status and JSON answered.
+async fn form_post(
+    walk: Arc<Walk>,
+    body: Body,
+    work: fn(&Walk, &[u8]) -> (u16, Value),
+) -> Response {
     let bytes = match http::read_body(body).await {
         Ok(b) => b,
         Err(r) => return r,
     };
-    match blocking(move || state::save(&walk, &bytes)).await {
+    match blocking(move || work(&walk, &bytes)).await {
         Ok((status, v)) => json_response(status, &v),
         Err(r) => r,
     }
 }
 
-async fn post_undo(State(walk): State<Arc<Walk>>) -> Response {
-    match blocking(move || state::undo(&walk)).await {
-        Ok((status, v)) => json_response(status, &v),
+async fn post_reading(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    form_post(walk, body, state::save).await
+}
+
+/// The walk from the walker's position (`lat`, `lon` of the query) to the next spot.
+async fn get_toward(State(walk): State<Arc<Walk>>, uri: axum::http::Uri) -> Response {
+    let here = match here(&uri) {
+        Ok(Some(h)) => h,
+        Ok(None) => return http::plain(StatusCode::UNPROCESSABLE_ENTITY, "give `lat` and `lon`"),
+        Err(why) => return http::plain(StatusCode::UNPROCESSABLE_ENTITY, &why),
+    };
+    match blocking(move || state::walk_to_next(&walk, here)).await {
+        Ok(Some(v)) => json_response(200, &v),
+        Ok(None) => http::plain(StatusCode::NOT_FOUND, "no next spot near this position"),
         Err(r) => r,
     }
+}
+
+async fn post_undo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    form_post(walk, body, state::undo).await
+}
+
+async fn post_redo(State(walk): State<Arc<Walk>>, body: Body) -> Response {
+    form_post(walk, body, state::redo).await
+}
+
+/// The QR code for a terminal: block characters for the dark modules, two modules a
+/// character down, with its quiet zone. On a terminal each line is drawn black on white
+/// (ANSI SGR 30 and 107), so it scans the same on a dark or a light background;
+/// elsewhere (a file, a pipe) it is plain text, dark modules as blocks, for a light
+/// background.
+fn terminal_qr(code: &qrcode::QrCode, colour: bool) -> String {
+    let plain = code
+        .render::<qrcode::render::unicode::Dense1x2>()
+        .quiet_zone(true)
+        .build();
+    if !colour {
+        return plain;
+    }
+    plain
+        .lines()
+        .map(|l| format!("\x1b[30;107m{l}\x1b[0m"))
+        .collect::<Vec<_>>()
+        .join("\n")
 }
 
 /// A `--name` is a DNS host name (letters, digits, `-` and `.`), not an address.
@@ -317,4 +368,23 @@ fn new_token() -> Result<String, Error> {
     getrandom::fill(&mut bytes)
         .map_err(|e| Error::refused(format!("no random source for the access token: {e}")))?;
     Ok(bytes.iter().map(|b| format!("{b:02x}")).collect())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// On a terminal every line of the code is black on white and ends with a reset;
+    /// the modules are the plain rendering's.
+    #[test]
+    fn the_terminal_qr_code_is_dark_on_light() {
+        let code = qrcode::QrCode::new(b"https://192.0.2.7:8765/?token=00").unwrap();
+        let plain = terminal_qr(&code, false);
+        let coloured = terminal_qr(&code, true);
+        assert!(!plain.contains('\x1b'));
+        assert_eq!(coloured.lines().count(), plain.lines().count());
+        for (c, p) in coloured.lines().zip(plain.lines()) {
+            assert_eq!(c, format!("\x1b[30;107m{p}\x1b[0m"));
+        }
+    }
 }

@@ -1,7 +1,11 @@
-//! What the walk page asks for: saving a reading, taking the last one back, the running
-//! fix and the map. A save answers small (its line and the log's row count and
-//! version); the fix (`/state`) and the map (`/map`) are worked out once per version of
-//! the log, whatever the number of phones asking, and kept until the log changes.
+//! What the walk page asks for: saving a reading, taking the last one back and putting
+//! it back, the running fix and the map. A save answers small (its line and the log's
+//! row count and version); the fix (`/state`) and the map (`/map`) are worked out once
+//! per version of the log, whatever the number of phones asking, and kept until the log
+//! changes; a map with the walker's position on it is drawn for that request alone.
+//!
+//! Readings are named by their number in the log and their time (`#7 09:52`, UTC) on
+//! the map, in the table and in the undo's question, the log's line kept beside.
 
 use std::hash::{Hash, Hasher};
 use std::path::{Path, PathBuf};
@@ -11,13 +15,16 @@ use pim_core::emitter::Emitter;
 use pim_core::error::ErrorClass;
 use pim_core::fix::Fix;
 use pim_core::geo::GeoPoint;
-use pim_core::ticket::{nearby, Structure};
+use pim_core::geo::{distance_and_azimuth, LocalFrame};
+use pim_core::ticket::{nearby, structures_in_reach, Structure};
 use pim_core::walk::{rank_spots, walk_ring, Spot, MIN_SPOT_RANGE_M};
-use pim_io::append::{read_locked, remove_last_row};
-use pim_io::fieldlog::{save_reading, North, ReadingText};
+use pim_io::append::{last_row, read_locked, remove_last_row_if, restore_row, Removed};
+use pim_io::fieldlog::{save_reading, FieldLog, North, ReadingText, MAX_ACCURACY_M};
 use pim_io::text::{decimal_degrees, Axis};
-use pim_report::map::map_svg;
-use pim_report::ticket::fix_map_input;
+use pim_report::map::{map_svg_at, name_observers, MapView, NextSpot, YouAreHere};
+use pim_report::picture::PHONE;
+use pim_report::readings::ReadingNames;
+use pim_report::ticket::{fix_map_input, fix_radius_m};
 use pim_report::walk::{form_error_json, page_next_json};
 use serde_json::{json, Value};
 
@@ -31,6 +38,10 @@ pub struct Walk {
     pub emitters: Vec<Emitter>,
     pub candidates: Option<Vec<Spot>>,
     cache: Mutex<Option<Arc<Worked>>>,
+    /// The rows taken back by this server, newest last, each with its exact bytes, for
+    /// a redo. Held while the log is changed (a save, an undo, a redo), so the list
+    /// and the log agree; a save empties it (the walk has moved on).
+    undone: Mutex<Vec<Removed>>,
 }
 
 /// The fix of one version of the log, and its map when first asked for.
@@ -38,6 +49,10 @@ struct Worked {
     version: String,
     state: Value,
     fix: Option<Fix>,
+    /// The readings' names, for the map.
+    names: ReadingNames,
+    /// The suggested next spot and its label.
+    next: Option<(GeoPoint, String)>,
     map: OnceLock<String>,
 }
 
@@ -56,6 +71,7 @@ impl Walk {
             emitters,
             candidates,
             cache: Mutex::new(None),
+            undone: Mutex::new(Vec::new()),
         }
     }
 }
@@ -110,6 +126,8 @@ fn worked(walk: &Walk) -> Arc<Worked> {
                 version: "none".into(),
                 state,
                 fix: None,
+                names: ReadingNames::default(),
+                next: None,
                 map: OnceLock::new(),
             })
         }
@@ -120,24 +138,43 @@ fn worked(walk: &Walk) -> Arc<Worked> {
     if let Some(w) = cache.as_ref().filter(|w| w.version == v) {
         return w.clone();
     }
-    let (state, fix) = work_out(walk, &bytes, &v);
+    let (state, fix, names, next) = work_out(walk, &bytes, &v);
     let w = Arc::new(Worked {
         version: v,
         state,
         fix,
+        names,
+        next,
         map: OnceLock::new(),
     });
     *cache = Some(w.clone());
     w
 }
 
+/// What [`work_out`] gives: the page's state, the fix, the readings' names and the
+/// next spot with its label.
+type WorkedOut = (Value, Option<Fix>, ReadingNames, Option<(GeoPoint, String)>);
+
 /// Everything the page shows of one version of the log: the running fix, each
-/// reading's residual and the suggested next spot; or why there is no fix yet.
-fn work_out(walk: &Walk, bytes: &[u8], v: &str) -> (Value, Option<Fix>) {
+/// reading's residual and name, the last reading (what an undo would take) and the
+/// suggested next spot with the cautions of the structures it is within reach of; or
+/// why there is no fix yet.
+fn work_out(walk: &Walk, bytes: &[u8], v: &str) -> WorkedOut {
     let rows = rows(bytes);
     let text = String::from_utf8_lossy(bytes);
-    let last_spot = last_position(&walk.log, &text);
-    let (fix, fix_json) = match (walk.fixer)(&walk.log, &text) {
+    let log = read_log(&walk.log, &text);
+    let names = log
+        .as_ref()
+        .map(|l| ReadingNames::new(l, None))
+        .unwrap_or_default();
+    let last = last_reading(bytes, log.as_ref(), &names);
+    let newest = log.as_ref().and_then(|l| {
+        l.rows
+            .iter()
+            .rev()
+            .find_map(|r| r.position.map(|p| (p, names.name(r.line))))
+    });
+    let (fix, mut fix_json) = match (walk.fixer)(&walk.log, &text) {
         Ok(v) => v,
         Err(e) => {
             let why = if e.class == ErrorClass::Refused {
@@ -145,56 +182,260 @@ fn work_out(walk: &Walk, bytes: &[u8], v: &str) -> (Value, Option<Fix>) {
             } else {
                 e.to_string()
             };
-            return (json!({"rows": rows, "version": v, "no_fix": why}), None);
+            let state = json!({"rows": rows, "version": v, "no_fix": why, "last": last});
+            return (state, None, names, None);
         }
     };
-    let next = next_spot(walk, &fix, last_spot);
+    if let Some(residuals) = fix_json["residuals"].as_array_mut() {
+        for r in residuals {
+            if let Some(line) = r["line"].as_u64() {
+                r["name"] = json!(names.name(line));
+            }
+        }
+    }
+    let (next, spot) = next_spot(walk, &fix, newest);
     let mut state = json!({
         "rows": rows,
         "version": v,
         "fix": fix_json,
         "next": next,
+        "last": last,
     });
     // the numbers as every JSON of the tool writes them
     pim_io::precision::round_json(&mut state);
-    (state, Some(fix))
+    (state, Some(fix), names, spot)
 }
 
-/// The page's state: the fix of the log as it stands (without the map).
+/// The log read leniently (a torn last row left out), or `None` when it does not read.
+fn read_log(path: &Path, text: &str) -> Option<FieldLog> {
+    pim_io::fieldlog::read_field_log(&path.display().to_string(), text.as_bytes(), true).ok()
+}
+
+/// The last reading, as an undo would take it: its line and text (the undo names
+/// both back), its number and time, bearing and note.
+fn last_reading(bytes: &[u8], log: Option<&FieldLog>, names: &ReadingNames) -> Value {
+    let Some(last) = last_row(bytes) else {
+        return Value::Null;
+    };
+    let row = log.and_then(|l| l.rows.iter().find(|r| r.line == last.line));
+    json!({
+        "line": last.line,
+        "row": last.row,
+        "name": names.name(last.line),
+        "bearing_deg": row.and_then(|r| r.bearing_deg),
+        "north": row.map(|r| r.north),
+        "level_dbm": row.and_then(|r| r.level_dbm),
+        "note": row.and_then(|r| r.note.clone()),
+    })
+}
+
+/// The page's state: the fix of the log as it stands (without the map), and the
+/// reading a redo would put back.
 pub fn state(walk: &Walk) -> Value {
-    worked(walk).state.clone()
+    let mut v = worked(walk).state.clone();
+    v["redo"] = redo_json(&walk.undone.lock().unwrap_or_else(|p| p.into_inner()));
+    v
 }
 
-/// The map of the log as it stands (SVG), or `None` with no fix yet.
-pub fn map(walk: &Walk) -> Option<String> {
+/// The reading a redo would put back: its line and text.
+fn redo_json(undone: &[Removed]) -> Value {
+    match undone.last() {
+        Some(r) => json!({"line": r.line, "row": r.row}),
+        None => Value::Null,
+    }
+}
+
+/// The walker's position, as the page sends it with a map's or a walk's request.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Here {
+    pub at: GeoPoint,
+    /// The 95 % radius, metres, when given.
+    pub accuracy_m: Option<f64>,
+}
+
+/// How far from the fix the walker's position may be for the map and the walk to the
+/// next spot, metres: further, it is not this walk's (a typing error, another site).
+pub const HERE_WITHIN_M: f64 = 20_000.0;
+
+/// The walker's position from a query (`lat`, `lon`, `acc`): `Ok(None)` when it gives
+/// none; refused when a value is not a number in range.
+pub fn here_of(query: &str) -> Result<Option<Here>, String> {
+    let mut lat = None;
+    let mut lon = None;
+    let mut acc = None;
+    for (k, v) in form_urlencoded::parse(query.as_bytes()) {
+        let number = || {
+            v.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite())
+                .ok_or_else(|| format!("`{k}` is not a number"))
+        };
+        match k.as_ref() {
+            "lat" => lat = Some(number()?),
+            "lon" => lon = Some(number()?),
+            "acc" => acc = Some(number()?),
+            _ => {}
+        }
+    }
+    let (lat, lon) = match (lat, lon) {
+        (Some(a), Some(o)) => (a, o),
+        (None, None) => return Ok(None),
+        _ => return Err("give both `lat` and `lon`".into()),
+    };
+    if !(-90.0..=90.0).contains(&lat) || !(-180.0..=180.0).contains(&lon) {
+        return Err("the position is outside −90–90° latitude or −180–180° longitude".into());
+    }
+    if let Some(a) = acc {
+        if !(0.0..=MAX_ACCURACY_M).contains(&a) {
+            return Err(format!("the accuracy is outside 0–{MAX_ACCURACY_M:.0} m"));
+        }
+    }
+    Ok(Some(Here {
+        at: GeoPoint::new(lat, lon),
+        accuracy_m: acc,
+    }))
+}
+
+/// The map of the log as it stands (SVG) drawn for a phone, centred on the fix, the
+/// readings named, the next spot marked and, when given, the walker's position; `None`
+/// with no fix yet (or a position too far from the fix).
+pub fn map(walk: &Walk, here: Option<Here>) -> Option<String> {
     let w = worked(walk);
     let fix = w.fix.as_ref()?;
-    Some(
-        w.map
-            .get_or_init(|| {
-                let near = nearby(fix, &walk.structures, &walk.emitters, 30.0);
-                map_svg(&fix_map_input(
-                    fix,
-                    &walk.structures,
-                    &walk.emitters,
-                    &near,
-                    format!("Bearing walk: {}", file_name(&walk.log)),
-                ))
-            })
-            .clone(),
-    )
+    let draw = |here: Option<Here>| {
+        let near = nearby(fix, &walk.structures, &walk.emitters, 30.0);
+        let mut input = fix_map_input(
+            fix,
+            &walk.structures,
+            &walk.emitters,
+            &near,
+            format!("Bearing walk: {}", file_name(&walk.log)),
+        );
+        name_observers(&mut input, fix, &w.names);
+        let frame = LocalFrame::new(fix.position);
+        input.view = MapView::AroundFix {
+            half_width_m: (1.5 * fix_radius_m(fix)).max(40.0),
+        };
+        input.next_spot = w.next.as_ref().map(|(p, label)| {
+            let (east_m, north_m) = frame.to_local(*p);
+            NextSpot {
+                east_m,
+                north_m,
+                label: label.clone(),
+            }
+        });
+        input.you_are_here = here.map(|h| {
+            let (east_m, north_m) = frame.to_local(h.at);
+            YouAreHere {
+                east_m,
+                north_m,
+                accuracy_m: h.accuracy_m,
+            }
+        });
+        map_svg_at(&input, &PHONE)
+    };
+    match here {
+        Some(h) if distance_and_azimuth(h.at, fix.position).0 > HERE_WITHIN_M => None,
+        Some(h) => Some(draw(Some(h))),
+        None => Some(w.map.get_or_init(|| draw(None)).clone()),
+    }
 }
 
-/// Takes the last reading back; the answer carries the small state.
-pub fn undo(walk: &Walk) -> (u16, Value) {
-    match remove_last_row(&walk.log) {
-        Ok(removed) => (
-            200,
-            json!({"removed": {"line": removed.line, "row": removed.row},
-                   "state": small_state(walk)}),
-        ),
+/// The walk from the walker's position to the suggested next spot: its distance and
+/// bearing (true), or `None` without a next spot (or a position too far off).
+pub fn walk_to_next(walk: &Walk, here: Here) -> Option<Value> {
+    let w = worked(walk);
+    let (spot, _) = w.next.as_ref()?;
+    let (d, az) = distance_and_azimuth(here.at, *spot);
+    if d > HERE_WITHIN_M {
+        return None;
+    }
+    let mut v = json!({"distance_m": d, "bearing_deg": az, "version": w.version});
+    pim_io::precision::round_json(&mut v);
+    Some(v)
+}
+
+/// Takes the last reading back when it is still the one the page named (`line` and
+/// `row` of the form body: a second tap, or another phone's reading saved meanwhile,
+/// takes nothing); its exact bytes are kept for a redo. The answer carries the small
+/// state.
+pub fn undo(walk: &Walk, body: &[u8]) -> (u16, Value) {
+    let body = String::from_utf8_lossy(body);
+    let expected = match (form_value(&body, "line"), raw_form_value(&body, "row")) {
+        (Ok(Some(line)), Some(row)) => match line.parse::<u64>() {
+            Ok(line) => (line, row),
+            Err(_) => {
+                return (
+                    422,
+                    json!({"error": {"message": "`line` is not a line number"}}),
+                )
+            }
+        },
+        _ => {
+            return (
+                422,
+                json!({"error": {"message": "say which reading to take back (its line and row)"}}),
+            )
+        }
+    };
+    let mut undone = walk.undone.lock().unwrap_or_else(|p| p.into_inner());
+    match remove_last_row_if(&walk.log, Some((expected.0, &expected.1))) {
+        Ok(removed) => {
+            let taken = json!({"line": removed.line, "row": removed.row});
+            undone.push(removed);
+            let redo = redo_json(&undone);
+            drop(undone);
+            (
+                200,
+                json!({"removed": taken, "redo": redo, "state": small_state(walk)}),
+            )
+        }
         Err(e) => (409, json!({"error": form_error_json(&e)})),
     }
+}
+
+/// Puts back the reading taken back last, byte for byte, when it is the one the page
+/// names (`line` of the form body), so a second tap puts nothing back twice.
+pub fn redo(walk: &Walk, body: &[u8]) -> (u16, Value) {
+    let body = String::from_utf8_lossy(body);
+    let line = form_value(&body, "line")
+        .ok()
+        .flatten()
+        .and_then(|l| l.parse::<u64>().ok());
+    let mut undone = walk.undone.lock().unwrap_or_else(|p| p.into_inner());
+    let Some(last) = undone.last() else {
+        return (
+            409,
+            json!({"error": {"message": "nothing to put back: no reading was taken back since the last save"}}),
+        );
+    };
+    if line != Some(last.line) {
+        return (
+            409,
+            json!({"error": {"message": format!("the reading to put back is the one from line {}; nothing was put back", last.line)}}),
+        );
+    }
+    match restore_row(&walk.log, &last.bytes) {
+        Ok(appended) => {
+            let row = last.row.clone();
+            undone.pop();
+            let redo = redo_json(&undone);
+            drop(undone);
+            (
+                200,
+                json!({"restored": {"line": appended.line, "row": row}, "redo": redo,
+                       "state": small_state(walk)}),
+            )
+        }
+        Err(e) => (409, json!({"error": form_error_json(&e)})),
+    }
+}
+
+/// A form field's value percent-decoded but not trimmed (a row's exact text).
+fn raw_form_value(body: &str, name: &str) -> Option<String> {
+    form_urlencoded::parse(body.as_bytes())
+        .find(|(k, _)| k == name)
+        .map(|(_, v)| v.into_owned())
 }
 
 /// One field of a form body (`a=1&b=2`), percent-decoded, trimmed, `None` when absent
@@ -258,14 +499,22 @@ fn save_form(walk: &Walk, body: &str) -> Result<(u16, Value), Value> {
         setup: None,
         note: get("note")?,
         time: get("time")?,
+        accuracy_m: get("accuracy_m")?,
+        accuracy_where_logged: true,
     };
+    let mut undone = walk.undone.lock().unwrap_or_else(|p| p.into_inner());
     Ok(
         match save_reading(&walk.log, &reading, &|column| column.to_string()) {
-            Ok(appended) => (
-                200,
-                json!({"saved": {"line": appended.line, "created": appended.created},
-                       "state": small_state(walk)}),
-            ),
+            Ok(appended) => {
+                // the walk moved on: what was taken back stays out
+                undone.clear();
+                drop(undone);
+                (
+                    200,
+                    json!({"saved": {"line": appended.line, "created": appended.created},
+                           "state": small_state(walk)}),
+                )
+            }
             Err(e) => (
                 if e.class == ErrorClass::Io { 500 } else { 422 },
                 json!({"error": form_error_json(&e)}),
@@ -280,23 +529,42 @@ fn file_name(path: &Path) -> String {
         .unwrap_or_else(|| path.display().to_string())
 }
 
-/// The position of the newest reading that has one.
-fn last_position(path: &Path, text: &str) -> Option<GeoPoint> {
-    let log = pim_io::fieldlog::read_field_log(&path.display().to_string(), text.as_bytes(), true)
-        .ok()?;
-    log.rows.iter().rev().find_map(|r| r.position)
-}
-
 /// The next spot as `pim next` gives it (D-optimal among the candidates, or a ring at
-/// the walk's median range), with the walk to it from the newest reading's spot.
-fn next_spot(walk: &Walk, fix: &Fix, from: Option<GeoPoint>) -> Value {
+/// the walk's median range), with the walk to it from the newest reading's spot (named
+/// in `from`) and the structures it is within reach of; and the spot with its label
+/// for the map.
+fn next_spot(
+    walk: &Walk,
+    fix: &Fix,
+    from: Option<(GeoPoint, String)>,
+) -> (Value, Option<(GeoPoint, String)>) {
     let spots = match &walk.candidates {
         Some(c) => c.clone(),
         None => walk_ring(fix),
     };
     match rank_spots(fix, &spots, fix.sigma_deg_used, MIN_SPOT_RANGE_M) {
-        Ok(ranked) => page_next_json(ranked.first(), from),
-        Err(e) => json!({"none": e.to_string()}),
+        Ok(ranked) => {
+            let best = ranked.first();
+            let mut v = page_next_json(best, from.as_ref().map(|f| f.0));
+            if let Some(best) = best {
+                if let (Some((_, name)), Some(w)) = (&from, v["walk"].as_object_mut()) {
+                    w.insert("from".into(), json!(name));
+                }
+                v["cautions"] = json!(structures_in_reach(
+                    best.spot.position,
+                    &walk.structures,
+                    &walk.emitters
+                ));
+            }
+            let spot = best.map(|b| {
+                (
+                    b.spot.position,
+                    b.spot.name.clone().unwrap_or_else(|| "next spot".into()),
+                )
+            });
+            (v, spot)
+        }
+        Err(e) => (json!({"none": e.to_string()}), None),
     }
 }
 

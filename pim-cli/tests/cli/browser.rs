@@ -158,6 +158,17 @@ impl Browser {
     /// device pixels to one, touch), or `None`, with the reason said, where Chromium or
     /// chromedriver is not installed.
     pub fn phone(size: (u32, u32)) -> Option<Browser> {
+        Browser::phone_with(size, &[], false)
+    }
+
+    /// [`Browser::phone`] with more command-line arguments for Chromium, and with
+    /// certificates a test server made itself accepted when `accept_insecure_certs`
+    /// (the W3C WebDriver capability `acceptInsecureCerts`).
+    pub fn phone_with(
+        size: (u32, u32),
+        extra_args: &[String],
+        accept_insecure_certs: bool,
+    ) -> Option<Browser> {
         let (Some(chrome), Some(driver)) = (
             on_path(&["chromium", "chromium-browser", "google-chrome"]),
             on_path(&["chromedriver"]),
@@ -195,16 +206,27 @@ impl Browser {
             std::thread::sleep(Duration::from_millis(100));
         }
         let profile = tempfile::tempdir().unwrap();
+        let mut args: Vec<String> = [
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+        ]
+        .iter()
+        .map(|a| a.to_string())
+        .collect();
+        args.push(format!("--user-data-dir={}", profile.path().display()));
+        args.extend(extra_args.iter().cloned());
         let caps = json!({"capabilities": {"alwaysMatch": {
             "browserName": "chrome",
+            "acceptInsecureCerts": accept_insecure_certs,
             "goog:chromeOptions": {
                 "binary": chrome.display().to_string(),
-                "args": [
-                    "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
-                    "--no-first-run", "--disable-background-networking",
-                    "--disable-component-update", "--disable-sync",
-                    format!("--user-data-dir={}", profile.path().display()),
-                ],
+                "args": args,
                 "mobileEmulation": {"deviceMetrics": {"width": size.0, "height": size.1, "pixelRatio": 2.0, "touch": true}},
             }
         }}});
@@ -223,3 +245,32 @@ impl Browser {
         })
     }
 }
+/// What the page measures of itself: its scroll width, how many visible texts it
+/// checked (HTML and SVG), and each one under the least size, with its size.
+pub const MEASURE: &str = r#"
+const least = arguments[0];
+const out = { scrollWidth: document.documentElement.scrollWidth, html: 0, svg: 0, small: [] };
+const walker = document.createTreeWalker(document.body, NodeFilter.SHOW_TEXT);
+while (walker.nextNode()) {
+  const node = walker.currentNode;
+  const el = node.parentElement;
+  if (!node.textContent.trim() || !el || el.closest('svg') || !el.checkVisibility()) continue;
+  const range = document.createRange();
+  range.selectNodeContents(node);
+  const r = range.getBoundingClientRect();
+  if (r.width === 0 || r.height === 0) continue;
+  const px = parseFloat(getComputedStyle(el).fontSize);
+  out.html += 1;
+  if (px < least) out.small.push([node.textContent.trim().slice(0, 40), px]);
+}
+for (const t of document.querySelectorAll('svg text')) {
+  if (!t.textContent.trim() || !t.checkVisibility()) continue;
+  const b = t.getBoundingClientRect();
+  if (b.width === 0 || b.height === 0) continue;
+  const m = t.getScreenCTM();
+  const px = parseFloat(getComputedStyle(t).fontSize) * Math.hypot(m.a, m.b);
+  out.svg += 1;
+  if (px < least) out.small.push([t.textContent.trim().slice(0, 40), px]);
+}
+return out;
+"#;

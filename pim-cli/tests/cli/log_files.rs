@@ -228,7 +228,7 @@ fn the_page_refuses_bad_notes_and_a_swapped_in_link() {
     let (status, body) = post("/reading", "lat=45.1025&lon=-122.4132&bearing_deg=10");
     assert_eq!(status, 500, "{body}");
     assert!(!body.contains("SECRET"), "{body}");
-    let (status, body) = post("/undo", "");
+    let (status, body) = post("/undo", "line=2&row=x");
     assert_eq!(status, 409, "{body}");
     assert_eq!(
         std::fs::read_to_string(&private).unwrap(),

@@ -25,6 +25,7 @@ mod ticket;
 mod ticket_phone;
 mod vocabulary;
 mod walk_page;
+mod walk_phone;
 mod walk_server;
 mod walk_tls;
 

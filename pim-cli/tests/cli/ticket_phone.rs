@@ -9,38 +9,8 @@
 
 use serde_json::{json, Value};
 
-use crate::browser::{Browser, PHONE_PX};
+use crate::browser::{Browser, MEASURE, PHONE_PX};
 use crate::support::{pim_in, scratch, stderr_of, workspace_root};
-
-/// What the page measures of itself: its scroll width, how many visible texts it
-/// checked (HTML and SVG), and each one under the least size, with its size.
-const MEASURE: &str = r#"
-const least = arguments[0];
-const out = { scrollWidth: document.documentElement.scrollWidth, html: 0, svg: 0, small: [] };
-const walker = document.createTreeWalker(document.body, NodeFilter.SHOW_TEXT);
-while (walker.nextNode()) {
-  const node = walker.currentNode;
-  const el = node.parentElement;
-  if (!node.textContent.trim() || !el || el.closest('svg') || !el.checkVisibility()) continue;
-  const range = document.createRange();
-  range.selectNodeContents(node);
-  const r = range.getBoundingClientRect();
-  if (r.width === 0 || r.height === 0) continue;
-  const px = parseFloat(getComputedStyle(el).fontSize);
-  out.html += 1;
-  if (px < least) out.small.push([node.textContent.trim().slice(0, 40), px]);
-}
-for (const t of document.querySelectorAll('svg text')) {
-  if (!t.textContent.trim() || !t.checkVisibility()) continue;
-  const b = t.getBoundingClientRect();
-  if (b.width === 0 || b.height === 0) continue;
-  const m = t.getScreenCTM();
-  const px = parseFloat(getComputedStyle(t).fontSize) * Math.hypot(m.a, m.b);
-  out.svg += 1;
-  if (px < least) out.small.push([t.textContent.trim().slice(0, 40), px]);
-}
-return out;
-"#;
 
 #[test]
 fn the_ticket_reads_on_a_phone() {

@@ -42,6 +42,20 @@ fn cells(row: &str) -> Vec<String> {
     out
 }
 
+/// Puts the phone at a position of `accuracy_m` and waits for the page to show it.
+fn phone_at(browser: &Browser, lat: f64, lon: f64, accuracy_m: u32) {
+    browser.cdp(
+        "Emulation.setGeolocationOverride",
+        json!({"latitude": lat, "longitude": lon, "accuracy": accuracy_m}),
+    );
+    browser.wait_for(
+        &format!(
+            "return document.getElementById('accuracy').textContent.indexOf('± {accuracy_m} m') >= 0;"
+        ),
+        "the phone's position on the page",
+    );
+}
+
 #[test]
 fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
     let Some(browser) = Browser::phone(PHONE_PX) else {
@@ -161,6 +175,63 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         assert_eq!((size(16), size(20)), (780, 1688), "{name}");
     }
 
+    // At 390 × 844 the page never scrolls sideways and no visible text, the map's
+    // labels included (by their scale on the screen), renders under 12 px (common
+    // practice for the least legible size on a handheld screen); the map shows where
+    // the phone stands and names the readings by number and time.
+    browser.script("window.scrollTo(0, 0);");
+    let least = 12.0;
+    let m = browser.call(
+        "POST",
+        "/execute/sync",
+        Some(json!({"script": crate::browser::MEASURE, "args": [least]})),
+    );
+    eprintln!("walk page measured at {PHONE_PX:?}: {m}");
+    assert!(
+        m["scrollWidth"].as_f64().unwrap() <= PHONE_PX.0 as f64,
+        "{m}"
+    );
+    assert!(m["svg"].as_u64().unwrap() > 5, "{m}");
+    assert_eq!(m["small"], json!([]), "texts under {least} px: {m}");
+    browser.wait_for(
+        "var t = document.getElementById('map').textContent; return t.indexOf('you are here') >= 0 && /#6 \\d\\d:\\d\\d/.test(t);",
+        "the walker and the named readings on the map",
+    );
+    assert!(
+        browser.text("#next-walk").ends_with("from where you stand"),
+        "{}",
+        browser.text("#next-walk")
+    );
+    assert!(browser
+        .text("#residuals tbody tr:first-child td:first-child")
+        .starts_with("#1 "));
+    if std::env::var_os("PIM_UPDATE_DOCS").is_some() {
+        // the form once the cautions are acknowledged (walk-page.png shows them)
+        browser.click("#cautions-ok");
+        browser.script("window.scrollTo(0, 0); document.activeElement.blur();");
+        browser.screenshot(&docs.join("walk-390x844.png"));
+        browser.script("document.getElementById('fix').scrollIntoView(true);");
+        browser.screenshot(&docs.join("walk-map-390x844.png"));
+    }
+
+    // A position less accurate than 20 m asks before the reading is saved; waiting
+    // saves nothing.
+    phone_at(&browser, 45.1040, -122.4150, 35);
+    let before = std::fs::read(&log).unwrap();
+    browser.type_into("#bearing_deg", "120\n");
+    browser.wait_for(
+        "var a = document.getElementById('ask'); return !a.hidden && a.textContent.indexOf('± 35 m') >= 0;",
+        "the question before saving a coarse position",
+    );
+    browser.click("#ask-no");
+    assert_eq!(std::fs::read(&log).unwrap(), before);
+    // back where the walk stood, sharp
+    let (lat, lon): (f64, f64) = (
+        readings[5][1].parse().unwrap(),
+        readings[5][2].parse().unwrap(),
+    );
+    phone_at(&browser, lat, lon, 4);
+
     // A bad value is refused beside its field and writes nothing.
     let before = std::fs::read(&log).unwrap();
     browser.type_into("#bearing_deg", "400\n");
@@ -181,6 +252,7 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
             .arg(&copy)
             .args(["--lat", &c[1], "--lon", &c[2], "--bearing-deg", &r[3]])
             .args(["--north", &r[4], "--level-dbm", &r[6], "--note", &r[7]])
+            .args(["--accuracy-m", &c[3]])
             .args(["--time", &c[0]])
             .output()
             .unwrap();
@@ -225,7 +297,7 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         )
     } else {
         format!(
-            "95% ellipse {:.1} × {:.1} m",
+            "95% ellipse: semi-axes {:.1} × {:.1} m",
             e["semi_major_m"].as_f64().unwrap(),
             e["semi_minor_m"].as_f64().unwrap()
         )
@@ -236,13 +308,56 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         "{page_cep}"
     );
 
-    // Undo takes the last reading back, and the page shows five.
+    // Undo names the reading it takes back and asks once; a double tap on the answer
+    // takes back one reading; the page shows five; redo puts the row back byte for byte.
+    let whole = std::fs::read(&log).unwrap();
     browser.click("#undo");
+    let question = browser.text("#ask-text");
+    let last = cells(&rows[6]);
+    assert!(
+        question.starts_with("Take back reading #6 ")
+            && question.contains("(line 7)")
+            && question.contains(&format!(
+                "bearing {:.1}° {}",
+                last[4].parse::<f64>().unwrap(),
+                last[5]
+            ))
+            && question.contains(&last[8]),
+        "{question}"
+    );
+    browser.script("var b = document.getElementById('ask-yes'); b.click(); b.click();");
     browser.wait_for(
-        "return document.getElementById('status').textContent.indexOf('Removed line 7') === 0 && document.querySelectorAll('#residuals tbody tr').length === 5;",
+        "return document.getElementById('status').textContent.indexOf('Took back #6') === 0 && document.querySelectorAll('#residuals tbody tr').length === 5;",
         "the undo",
     );
     assert_eq!(read_rows(&log), rows[..6].to_vec());
+    // the server refuses a stale undo too: the same line asked again takes nothing
+    let (status, _) = http(
+        agent
+            .post(&format!("{origin}/undo?token={token}"))
+            .set("Content-Type", "application/x-www-form-urlencoded"),
+        None,
+    );
+    assert_eq!(status, 422, "an undo that names no reading");
+    let stale = agent
+        .post(&format!("{origin}/undo?token={token}"))
+        .set("Content-Type", "application/x-www-form-urlencoded")
+        .send_form(&[("line", "7"), ("row", rows[6].as_str())]);
+    assert!(
+        matches!(stale, Err(ureq::Error::Status(409, _))),
+        "{stale:?}"
+    );
+    assert_eq!(read_rows(&log), rows[..6].to_vec());
+    browser.script("var b = document.getElementById('redo'); b.click(); b.click();");
+    browser.wait_for(
+        "return document.getElementById('status').textContent.indexOf('Put back, line 7') === 0 && document.querySelectorAll('#residuals tbody tr').length === 6;",
+        "the redo",
+    );
+    assert_eq!(
+        std::fs::read(&log).unwrap(),
+        whole,
+        "redo restores the log byte for byte"
+    );
 
     // Without the token (or with a wrong one) nothing is served or written.
     let before = std::fs::read(&log).unwrap();
