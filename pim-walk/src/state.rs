@@ -108,6 +108,17 @@ fn rows(bytes: &[u8]) -> usize {
         .saturating_sub(1)
 }
 
+/// The number of the reading on log line `line` (1 for the first reading), counted as
+/// the log's readings are counted: lines neither blank nor a comment, less the header.
+fn reading_number(walk: &Walk, line: u64) -> Option<usize> {
+    let bytes = log_bytes(walk).ok()?;
+    let mut end = 0usize;
+    for _ in 0..line {
+        end += bytes[end..].iter().position(|&b| b == b'\n')? + 1;
+    }
+    Some(rows(&bytes[..end]))
+}
+
 /// The small state a save or an undo answers with: the row count and the version the
 /// page fetches `/state` and `/map` for.
 pub fn small_state(walk: &Walk) -> Value {
@@ -509,9 +520,11 @@ fn save_form(walk: &Walk, body: &str) -> Result<(u16, Value), Value> {
                 // the walk moved on: what was taken back stays out
                 undone.clear();
                 drop(undone);
+                let number = reading_number(walk, appended.line);
                 (
                     200,
-                    json!({"saved": {"line": appended.line, "created": appended.created},
+                    json!({"saved": {"line": appended.line, "number": number,
+                                     "created": appended.created},
                            "state": small_state(walk)}),
                 )
             }

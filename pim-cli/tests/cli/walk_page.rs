@@ -137,7 +137,8 @@ fn a_walk_on_the_page_matches_pim_log_and_pim_fix() {
         }
         browser.wait_for(
             &format!(
-                "return document.getElementById('status').textContent === 'Saved, line {}{}';",
+                "return document.getElementById('status').textContent === 'Saved #{}, line {}{}';",
+                i + 1,
                 i + 2,
                 if i == 0 { " (new log)" } else { "" }
             ),

@@ -124,7 +124,7 @@ fn the_page_follows_the_phone_over_https_and_says_how_without() {
     );
     browser.click("#ask-yes");
     browser.wait_for(
-        "return document.getElementById('status').textContent === 'Saved, line 2 (new log)';",
+        "return document.getElementById('status').textContent === 'Saved #1, line 2 (new log)';",
         "the save",
     );
     let text = std::fs::read_to_string(&log).unwrap();
