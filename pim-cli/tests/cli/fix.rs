@@ -468,13 +468,35 @@ fn an_open_level_region_is_said_open_not_measured() {
     for key in ["cep_m", "reach_m", "reach_along_axes_m"] {
         assert!(v[key].is_null(), "{key}: {}", v[key]);
     }
-    let n = pim(&["next", "--log", &p(log), "--radius-m", "100"]);
+    let n = pim(&["next", "--log", &p(log.clone()), "--radius-m", "100"]);
     assert!(n.status.success(), "{}", stderr_of(&n));
     assert!(
         stdout_of(&n).contains("region open towards"),
         "{}",
         stdout_of(&n)
     );
+    // the ticket and its map: the open side named, no reach or CEP given as a size
+    let out = dir.path().join("ticket");
+    let t = pim(&[
+        "ticket",
+        "--emitters",
+        &p(field_log("emitters.csv")),
+        "--log",
+        &p(log),
+        "--out",
+        &p(out.clone()),
+        "--rx-lat",
+        "45.1046",
+        "--rx-lon",
+        "-122.414",
+        "146.34MHz",
+    ]);
+    assert!(t.status.success(), "{}", stderr_of(&t));
+    let md = std::fs::read_to_string(out.join("ticket.md")).unwrap();
+    assert!(md.contains("region open towards") && md.contains("open on one side"));
+    assert!(!md.contains("50000 m") && !md.contains("circular error probable"));
+    let map = std::fs::read_to_string(out.join("map.svg")).unwrap();
+    assert!(map.contains("region is open towards"));
 }
 
 /// A log with no levels gives exactly the bearings-only fix: the demo walk with its
