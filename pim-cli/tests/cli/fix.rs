@@ -468,6 +468,12 @@ fn an_open_level_region_is_said_open_not_measured() {
     for key in ["cep_m", "reach_m", "reach_along_axes_m"] {
         assert!(v[key].is_null(), "{key}: {}", v[key]);
     }
+    let g = pim(&["fix", "--log", &p(log.clone()), "--format", "geojson"]);
+    let g: serde_json::Value = serde_json::from_str(&stdout_of(&g)).unwrap();
+    assert!(g["features"][0]["properties"]["cep_m"].is_null(), "{g}");
+    assert!(g["features"][1]["properties"]["open_towards_deg"].is_number());
+    let k = pim(&["fix", "--log", &p(log.clone()), "--format", "kml"]);
+    assert!(stdout_of(&k).contains("region open towards") && !stdout_of(&k).contains("CEP"));
     let n = pim(&["next", "--log", &p(log.clone()), "--radius-m", "100"]);
     assert!(n.status.success(), "{}", stderr_of(&n));
     assert!(
