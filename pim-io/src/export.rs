@@ -160,7 +160,12 @@ pub fn site_geojson(fix: &Fix, items: &SiteItems) -> FeatureCollection {
                     "method",
                     serde_json::to_value(fix.method).unwrap_or_default(),
                 ),
-                ("cep_m", fix.cep_m.into()),
+                // no CEP for a region open on one side (its size is not measured)
+                (
+                    "cep_m",
+                    fix.open_towards_deg()
+                        .map_or(fix.cep_m.into(), |_| serde_json::Value::Null),
+                ),
                 ("n_used", fix.n_used.into()),
             ],
         ),
@@ -173,7 +178,13 @@ pub fn site_geojson(fix: &Fix, items: &SiteItems) -> FeatureCollection {
                 ("semi_major_m", e.semi_major_m.into()),
                 ("semi_minor_m", e.semi_minor_m.into()),
                 ("orientation_deg", e.orientation_deg.into()),
-            ],
+            ]
+            .into_iter()
+            .chain(
+                fix.open_towards_deg()
+                    .map(|d| ("open_towards_deg", d.into())),
+            )
+            .collect::<Vec<_>>(),
         ),
     ];
     for b in &shapes.bearings {
@@ -280,14 +291,24 @@ pub fn site_kml(fix: &Fix, items: &SiteItems, title: &str) -> String {
             "  <Style id=\"{id}\"><LineStyle><color>{colour}</color><width>{width}</width></LineStyle><PolyStyle><color>401f3fd9</color></PolyStyle><IconStyle><color>{colour}</color></IconStyle></Style>\n"
         ));
     }
+    let said = match fix.open_towards_deg() {
+        Some(d) => format!(
+            "{:.0}% region open towards {d:.0}° (no size: the levels do not bound it that way)",
+            e.confidence * 100.0
+        ),
+        None => format!(
+            "{:.0}% ellipse, semi-axes {:.1} × {:.1} m, at {:.0}°; CEP {:.1} m",
+            e.confidence * 100.0,
+            e.semi_major_m,
+            e.semi_minor_m,
+            e.orientation_deg,
+            fix.cep_m
+        ),
+    };
     k.push_str(&format!(
-        "  <Placemark><name>Fix</name><description>{} fix; {:.0}% ellipse, semi-axes {:.1} × {:.1} m, at {:.0}°; CEP {:.1} m</description><styleUrl>#fix</styleUrl><Point><coordinates>{}</coordinates></Point></Placemark>\n",
+        "  <Placemark><name>Fix</name><description>{} fix; {}</description><styleUrl>#fix</styleUrl><Point><coordinates>{}</coordinates></Point></Placemark>\n",
         xml_escape(&format!("{:?}", fix.method).to_lowercase()),
-        e.confidence * 100.0,
-        e.semi_major_m,
-        e.semi_minor_m,
-        e.orientation_deg,
-        fix.cep_m,
+        xml_escape(&said),
         kml_coords(&[shapes.fix])
     ));
     k.push_str(&format!(

@@ -20,6 +20,11 @@ pub fn region_claimed(fix: &Fix) -> String {
             e.semi_minor_m,
             e.orientation_deg
         ),
+        RegionKind::Likelihood if fix.open_towards_deg().is_some() => format!(
+            "{:.0}% region open towards {:.0}° (the levels bound the junction on the walk's side only; no size)",
+            e.confidence * 100.0,
+            fix.open_towards_deg().unwrap_or_default()
+        ),
         RegionKind::Likelihood => {
             let (along, across) = fix.reach_along_axes_m();
             format!(
@@ -129,17 +134,23 @@ pub struct FixJson<'a> {
     lon_deg: f64,
     method: pim_core::fix::Method,
     ellipse: EllipseJson,
-    cep_m: f64,
+    /// Null when the region is open (no size to speak of).
+    cep_m: Option<f64>,
     sigma_deg_used: f64,
     sigma_source: SigmaSource,
     /// The region claimed, a closed ring of [lat, lon].
     region: Vec<[f64; 2]>,
     region_kind: RegionKind,
-    /// How far the region reaches from the fix, m ([`Fix::reach_m`]).
-    reach_m: f64,
+    /// How far the region reaches from the fix, m ([`Fix::reach_m`]); null when it is open.
+    reach_m: Option<f64>,
     n_used: usize,
-    /// How far the region reaches along the ellipse's major axis and across it, m.
-    reach_along_axes_m: [f64; 2],
+    /// How far the region reaches along the ellipse's major axis and across it, m; null
+    /// when it is open.
+    reach_along_axes_m: Option<[f64; 2]>,
+    /// The direction the region stays open towards, degrees from north (only when it does
+    /// not close: the ring is then drawn to the search's reach, no measurement).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    region_open_towards_deg: Option<f64>,
     /// The laws behind the region: the degrees of freedom of the bearing σ (null when it
     /// is taken as known: χ² with 2) and the spots.
     sigma_dof: Option<f64>,
@@ -174,6 +185,7 @@ pub fn fix_json_named<'a>(
     names: &ReadingNames,
 ) -> FixJson<'a> {
     let e = &fix.ellipse;
+    let open = fix.open_towards_deg();
     FixJson {
         lat_deg: fix.position.lat_deg,
         lon_deg: fix.position.lon_deg,
@@ -185,17 +197,18 @@ pub fn fix_json_named<'a>(
             confidence: e.confidence,
             area_m2: e.area_m2(),
         },
-        cep_m: fix.cep_m,
+        cep_m: open.is_none().then_some(fix.cep_m),
         sigma_deg_used: fix.sigma_deg_used,
         sigma_source: fix.sigma_source,
         region: fix.region.iter().map(|p| [p.lat_deg, p.lon_deg]).collect(),
         region_kind: fix.region_kind,
-        reach_m: fix.reach_m(),
+        reach_m: open.is_none().then(|| fix.reach_m()),
         n_used: fix.n_used,
-        reach_along_axes_m: {
+        reach_along_axes_m: open.is_none().then(|| {
             let (a, b) = fix.reach_along_axes_m();
             [a, b]
-        },
+        }),
+        region_open_towards_deg: open,
         sigma_dof: fix.sigma_dof,
         spots: fix.spots,
         position_accuracy: fix.position_accuracy,
@@ -320,6 +333,11 @@ pub fn fix_summary(fix: &Fix, source: &str, corrections: &[Correction]) -> Strin
             e.orientation_deg,
             e.area_m2(),
             fix.cep_m
+        )),
+        RegionKind::Likelihood if fix.open_towards_deg().is_some() => s.push_str(&format!(
+            "  {:.0}% region open towards {:.0}° true: the levels bound the junction on the walk's side only, so it has no size and no CEP\n",
+            e.confidence * 100.0,
+            fix.open_towards_deg().unwrap_or_default()
         )),
         RegionKind::Likelihood => {
             let (along, across) = fix.reach_along_axes_m();

@@ -50,6 +50,10 @@ pub struct MapInput {
     /// drawn in place of the ellipse's outline when given (a likelihood contour where the
     /// ellipse does not hold).
     pub region_m: Option<Vec<(f64, f64)>>,
+    /// The direction the region stays open towards, degrees from north, when it does not
+    /// close ([`pim_core::fix::Fix::open_towards_deg`]): the view then keeps to the walk
+    /// and the fix, the ring running on out of it that way.
+    pub region_open_towards_deg: Option<f64>,
     /// The spots bearings were taken from.
     pub observers: Vec<Observer>,
     /// Emitters and site structures to show near the fix.
@@ -274,6 +278,8 @@ struct Clean<'a> {
     you: Option<&'a YouAreHere>,
     next: Option<&'a NextSpot>,
     ellipse_m: Vec<(f64, f64)>,
+    /// The region does not close (its ring runs to the search's reach).
+    open: bool,
     observers: Vec<&'a Observer>,
     markers: Vec<&'a Marker>,
 }
@@ -303,6 +309,7 @@ impl<'a> Clean<'a> {
                 .as_ref()
                 .filter(|n| finite((n.east_m, n.north_m))),
             ellipse_m,
+            open: input.region_open_towards_deg.is_some(),
             observers: input
                 .observers
                 .iter()
@@ -319,7 +326,23 @@ impl<'a> Clean<'a> {
     /// What the view must show (lines of bearing are cut to it instead).
     fn extent_points(&self) -> Vec<(f64, f64)> {
         let mut pts: Vec<(f64, f64)> = self.fix.into_iter().collect();
-        pts.extend(&self.ellipse_m);
+        match (self.open, self.fix) {
+            // an open ring reaches the search's edge: keep to twice the walk's reach
+            (true, Some(c)) => {
+                let reach = self
+                    .observers
+                    .iter()
+                    .map(|o| (o.east_m - c.0).hypot(o.north_m - c.1))
+                    .fold(0.0, f64::max)
+                    .max(10.0);
+                pts.extend(
+                    self.ellipse_m
+                        .iter()
+                        .filter(|p| (p.0 - c.0).hypot(p.1 - c.1) <= 2.0 * reach),
+                );
+            }
+            _ => pts.extend(&self.ellipse_m),
+        }
         pts.extend(self.observers.iter().map(|o| (o.east_m, o.north_m)));
         pts.extend(self.markers.iter().map(|m| (m.east_m, m.north_m)));
         pts.extend(self.walker_points());
@@ -467,6 +490,13 @@ fn header_lines(input: &MapInput, clean: &Clean) -> (String, String) {
         .unwrap_or_else(|| "confidence ellipse (level not given)".to_string());
     let fix = match (clean.fix, &input.ellipse, clean.ellipse_m.is_empty()) {
         (None, _, _) => "No fix".to_string(),
+        (Some(_), _, false) if input.region_open_towards_deg.is_some() => format!(
+            "Fix; its {} region is open towards {:.0}° (no size: the levels do not bound it that way)",
+            percent_text(input.confidence)
+                .map(|p| format!("{p} %"))
+                .unwrap_or_default(),
+            input.region_open_towards_deg.unwrap_or_default()
+        ),
         (Some(_), Some(e), false) => format!(
             "Fix with its {level}: semi-axes {}, major axis {:.0}° from north",
             semi_axes_text(e.semi_major_m.abs(), e.semi_minor_m.abs()),
@@ -1294,6 +1324,7 @@ mod tests {
                 orientation_deg: 35.0,
             }),
             region_m: None,
+            region_open_towards_deg: None,
             you_are_here: None,
             next_spot: None,
             view: MapView::All,
@@ -1480,6 +1511,30 @@ mod tests {
         let inside = |e: f64, n: f64| layout.east.contains(&e) && layout.north.contains(&n);
         assert!(input.observers.iter().all(|o| inside(o.east_m, o.north_m)));
         assert!(input.markers.iter().all(|m| inside(m.east_m, m.north_m)));
+    }
+
+    /// A region open on one side runs its ring to the search's reach (50 km): the view
+    /// keeps to the walk and the fix instead of shrinking them to a dot.
+    #[test]
+    fn an_open_region_does_not_stretch_the_view() {
+        let mut input = sample();
+        input.region_m = Some(vec![
+            (4.0, -40.0),
+            (50_000.0, -6.0),
+            (4.0, 30.0),
+            (-30.0, -6.0),
+            (4.0, -40.0),
+        ]);
+        let (_, wide) = render(&input);
+        assert!(wide.east.end - wide.east.start > 40_000.0);
+        input.region_open_towards_deg = Some(90.0);
+        let (_, layout) = render(&input);
+        let span = layout.east.end - layout.east.start;
+        assert!(span < 2_000.0, "{span}");
+        let (_, caption) = header_lines(&input, &Clean::new(&input));
+        assert!(caption.contains("open towards 90°"), "{caption}");
+        let inside = |e: f64, n: f64| layout.east.contains(&e) && layout.north.contains(&n);
+        assert!(input.observers.iter().all(|o| inside(o.east_m, o.north_m)));
     }
 
     #[test]

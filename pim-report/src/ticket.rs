@@ -598,11 +598,15 @@ fn build(
     doc.push(Block::Heading(2, "3. Where the junction is".into()));
     let mut where_points = vec![
         format!("Fix: {:.6}, {:.6} (WGS84), by {} from {} of {} readings.", fix.position.lat_deg, fix.position.lon_deg, method_name(fix.method), fix.n_used, fix.readings.len() + fix.levels.len()),
-        format!(
-            "{}; circular error probable {:.1} m.",
-            crate::fix::region_claimed(fix), fix.cep_m
-        ),
+        match fix.open_towards_deg() {
+            Some(_) => format!("{}.", crate::fix::region_claimed(fix)),
+            None => format!(
+                "{}; circular error probable {:.1} m.",
+                crate::fix::region_claimed(fix), fix.cep_m
+            ),
+        },
         match fix.region_kind {
+            RegionKind::Likelihood if fix.open_towards_deg().is_some() => "The region claimed is the likelihood contour drawn on the map, open on one side: it runs on out of the map that way, and the levels say nothing of how far.".to_string(),
             RegionKind::Ellipse => "The ellipse is the region claimed (the bearings are close to linear over it).".to_string(),
             RegionKind::Likelihood => format!(
                 "The region claimed is the likelihood contour drawn on the map, reaching {:.0} m from the fix: the ellipse does not hold in this geometry.",
@@ -1325,6 +1329,7 @@ pub fn fix_map_input(
             orientation_deg: fix.ellipse.orientation_deg,
         }),
         region_m: Some(fix.region.iter().map(|p| frame.to_local(*p)).collect()),
+        region_open_towards_deg: fix.open_towards_deg(),
         observers,
         markers,
         ..MapInput::default()

@@ -432,6 +432,79 @@ fn levels_alone_fix_or_say_no_fix() {
     );
 }
 
+/// Levels alone from five spots on one side of the junction (12–51 m out, within 25° as
+/// seen from it): the 95 % region does not close, and every output says so instead of
+/// giving the search's reach as a size: the table and `pim next` name the open side, the
+/// warning says what walk would close it, the JSON gives no reach and no CEP.
+#[test]
+fn an_open_level_region_is_said_open_not_measured() {
+    let dir = scratch();
+    let log = dir.path().join("one-side.csv");
+    std::fs::write(
+        &log,
+        "lat,lon,level_dbm\n\
+         45.104413,-122.413859,-73.4\n\
+         45.104238,-122.413817,-85.3\n\
+         45.104408,-122.413936,-74.2\n\
+         45.104099,-122.413838,-80.3\n\
+         45.104311,-122.413833,-82.6\n",
+    )
+    .unwrap();
+    let t = pim(&["fix", "--log", &p(log.clone())]);
+    assert!(t.status.success(), "{}", stderr_of(&t));
+    let text = stdout_of(&t);
+    assert!(
+        text.contains("95% region open towards") && text.contains("no size and no CEP"),
+        "{text}"
+    );
+    assert!(
+        !text.contains("49") && !text.contains("CEP ") && text.contains("would close it"),
+        "{text}"
+    );
+    let o = pim(&["fix", "--log", &p(log.clone()), "--format", "json"]);
+    assert!(o.status.success(), "{}", stderr_of(&o));
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(&o)).unwrap();
+    assert!(v["region_open_towards_deg"].is_number(), "{v}");
+    for key in ["cep_m", "reach_m", "reach_along_axes_m"] {
+        assert!(v[key].is_null(), "{key}: {}", v[key]);
+    }
+    let g = pim(&["fix", "--log", &p(log.clone()), "--format", "geojson"]);
+    let g: serde_json::Value = serde_json::from_str(&stdout_of(&g)).unwrap();
+    assert!(g["features"][0]["properties"]["cep_m"].is_null(), "{g}");
+    assert!(g["features"][1]["properties"]["open_towards_deg"].is_number());
+    let k = pim(&["fix", "--log", &p(log.clone()), "--format", "kml"]);
+    assert!(stdout_of(&k).contains("region open towards") && !stdout_of(&k).contains("CEP"));
+    let n = pim(&["next", "--log", &p(log.clone()), "--radius-m", "100"]);
+    assert!(n.status.success(), "{}", stderr_of(&n));
+    assert!(
+        stdout_of(&n).contains("region open towards"),
+        "{}",
+        stdout_of(&n)
+    );
+    // the ticket and its map: the open side named, no reach or CEP given as a size
+    let out = dir.path().join("ticket");
+    let t = pim(&[
+        "ticket",
+        "--emitters",
+        &p(field_log("emitters.csv")),
+        "--log",
+        &p(log),
+        "--out",
+        &p(out.clone()),
+        "--rx-lat",
+        "45.1046",
+        "--rx-lon",
+        "-122.414",
+        "146.34MHz",
+    ]);
+    assert!(t.status.success(), "{}", stderr_of(&t));
+    let md = std::fs::read_to_string(out.join("ticket.md")).unwrap();
+    assert!(md.contains("region open towards") && md.contains("open on one side"));
+    assert!(!md.contains("50000 m") && !md.contains("circular error probable"));
+    let map = std::fs::read_to_string(out.join("map.svg")).unwrap();
+    assert!(map.contains("region is open towards"));
+}
+
 /// A log with no levels gives exactly the bearings-only fix: the demo walk with its
 /// level column taken out, and the demo walk with `--use bearings`, give byte-identical
 /// JSON.

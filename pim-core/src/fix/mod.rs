@@ -320,6 +320,16 @@ impl Fix {
         region::ring_contains(&ring, frame.to_local(p))
     }
 
+    /// The direction the region stays open towards, degrees from north, when it does not
+    /// close (levels alone that bound the junction on some sides only: the ring is then
+    /// drawn out to the search's reach that way, which is no measurement of size).
+    pub fn open_towards_deg(&self) -> Option<f64> {
+        self.warnings.iter().find_map(|w| match w {
+            FixWarning::RegionOpen { towards_deg, .. } => Some(*towards_deg),
+            _ => None,
+        })
+    }
+
     /// How far from the fix the region claimed reaches, m: the ellipse's semi-major axis,
     /// or the farthest point of the likelihood contour when that is the region.
     pub fn reach_m(&self) -> f64 {

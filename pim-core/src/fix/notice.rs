@@ -209,7 +209,7 @@ impl fmt::Display for FixWarning {
             ),
             FixWarning::RegionOpen { confidence, towards_deg, reach_m } => write!(
                 f,
-                "the {:.0} % region does not close: the levels do not bound the junction towards {towards_deg:.0}°, and the region is drawn out to {:.0} km that way; take levels from spots on that side",
+                "the {:.0} % region does not close: the levels do not bound the junction towards {towards_deg:.0}°, and the region is drawn out to the search's reach ({:.0} km) that way, no measurement of its size; levels from spots beyond the fix towards {towards_deg:.0}° (the junction's far side from the walk) would close it",
                 confidence * 100.0,
                 reach_m / 1000.0
             ),
