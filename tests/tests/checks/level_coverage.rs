@@ -182,9 +182,11 @@ fn ring_of_twelve() -> Vec<(f64, f64)> {
         .collect()
 }
 
-/// One-sided 30° arc of eight readings with levels: the levels observe the range the
-/// bearings barely do, so the joint fix's RMSE is at most 0.7 × the bearings-only RMSE
-/// on the same walks, and its 95 % region holds the junction in 93–97 % of walks.
+/// One-sided 30° arc of eight readings with levels: the joint fix's RMSE is at most
+/// 0.9 × the bearings-only RMSE on the same walks, and its 95 % region holds the
+/// junction in 93–97 % of walks. A ratio of 0.7 (asked for) is not claimed: it holds on
+/// these 400 walks (0.64) but not over more, and it lies below what the Cramér–Rao bound
+/// allows any unbiased estimator with the path-loss exponent unknown (see below).
 #[test]
 fn levels_sharpen_a_one_sided_walk() {
     // 0.953 on this seed (0.930 with the F law's threshold); over 1200 walks of it the
@@ -196,11 +198,13 @@ fn levels_sharpen_a_one_sided_walk() {
     // (`pim_core::fix::levels::position_information`) gives 5.6–5.7 m with the exponent free in 2–4
     // against 5.7 m from bearings alone (ratio 0.98), 4.7–5.2 m with it known (0.82–0.90):
     // with the exponent unknown the levels carry little range here, and the joint fix is
-    // within 8–20 % of that bound
+    // within 8–20 % of that bound. A ratio of 0.7 would ask 5.0–5.5 m of the joint fix
+    // over 1200 walks, below its bound of 5.6 m; the claim checked is the one that holds
+    // on every seed tried (0.64, 0.78, 0.87, 0.86)
     let t = run(2901, &one_sided_arc(), true);
     honest("one-sided arc with levels", &t);
     let ratio = Tally::rmse(&t.joint_sq) / Tally::rmse(&t.bearing_sq);
-    assert!(ratio <= 0.7, "RMSE ratio {ratio:.3}");
+    assert!(ratio <= 0.9, "RMSE ratio {ratio:.3}");
     assert!(t.joint_sq.len() >= WALKS * 8 / 10, "{}", t.joint_sq.len());
 }
 
